@@ -1,0 +1,76 @@
+"""Unit systems of a case.
+
+Two systems are supported:
+
+``"atomic"``
+    Hartree atomic units: hbar = m_e = 1, lengths in bohr, energies in hartree,
+    so hbar^2 / (2 m_e) = 0.5 hartree bohr^2 exactly.
+``"nm-meV"``
+    Lengths in nanometres, energies in millielectronvolts.  hbar^2 / (2 m_e) is
+    computed from the CODATA constants in :mod:`scipy.constants`
+    (38.0998211... meV nm^2 with scipy 1.17).
+
+Masses are always in units of the free-electron mass m_e.  The kinetic
+operator is  -C d/dx (1/m(x)) d/dx  with C = hbar^2 / (2 m_e) in the case's
+units and m(x) in m_e.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import scipy.constants as _sc
+
+
+@dataclass(frozen=True)
+class UnitSystem:
+    """Names and the kinetic constant of one unit system.
+
+    ``hbar2_2me`` is hbar^2 / (2 m_e) in ``energy * length**2``.
+    ``length_udunits`` and ``energy_udunits`` are the CF/UDUNITS spellings used
+    in archives; atomic units have none, so archives carry the names
+    ``"bohr"``/``"hartree"`` there and say so in ``units_note``.
+    """
+
+    name: str
+    length: str
+    energy: str
+    hbar2_2me: float
+    length_udunits: str
+    energy_udunits: str
+    units_note: str
+
+
+def _hbar2_2me_mev_nm2() -> float:
+    joule_m2 = _sc.hbar**2 / (2.0 * _sc.m_e)
+    return joule_m2 / (_sc.e * 1e-3) / 1e-18
+
+
+UNIT_SYSTEMS: dict[str, UnitSystem] = {
+    "atomic": UnitSystem(
+        name="atomic",
+        length="bohr",
+        energy="hartree",
+        hbar2_2me=0.5,
+        length_udunits="bohr",
+        energy_udunits="hartree",
+        units_note=(
+            "Hartree atomic units (hbar = m_e = 1): 'bohr' and 'hartree' are not "
+            "UDUNITS names; 1 bohr = 0.0529177210544 nm, 1 hartree = 27211.386 meV."
+        ),
+    ),
+    "nm-meV": UnitSystem(
+        name="nm-meV",
+        length="nm",
+        energy="meV",
+        hbar2_2me=_hbar2_2me_mev_nm2(),
+        length_udunits="nm",
+        energy_udunits="meV",
+        units_note="lengths in nm, energies in meV, masses in free-electron masses",
+    ),
+}
+
+
+def get_units(name: str) -> UnitSystem:
+    """Return the :class:`UnitSystem` called ``name`` (KeyError if unknown)."""
+    return UNIT_SYSTEMS[name]
