@@ -28,8 +28,9 @@ class UnitSystem:
 
     ``hbar2_2me`` is hbar^2 / (2 m_e) in ``energy * length**2``.
     ``length_udunits`` and ``energy_udunits`` are the CF/UDUNITS spellings used
-    in archives; atomic units have none, so archives carry the names
-    ``"bohr"``/``"hartree"`` there and say so in ``units_note``.
+    in archives.  UDUNITS knows no bohr or hartree, so atomic-unit archives
+    write them as scaled SI units ("5.29177210544e-11 m", CODATA values from
+    scipy.constants) and name them in ``units_name`` beside ``units``.
     """
 
     name: str
@@ -52,8 +53,8 @@ UNIT_SYSTEMS: dict[str, UnitSystem] = {
         length="bohr",
         energy="hartree",
         hbar2_2me=0.5,
-        length_udunits="bohr",
-        energy_udunits="hartree",
+        length_udunits=f"{_sc.physical_constants['Bohr radius'][0]:.12g} m",
+        energy_udunits=f"{_sc.physical_constants['Hartree energy'][0]:.14g} J",
         units_note=(
             "Hartree atomic units (hbar = m_e = 1): 'bohr' and 'hartree' are not "
             "UDUNITS names; 1 bohr = 0.0529177210544 nm, 1 hartree = 27211.386 meV."

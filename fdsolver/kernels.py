@@ -1,0 +1,191 @@
+"""Compiled inner loops (numba), each O(N) over a grid.
+
+* :func:`sturm_count` - number of eigenvalues of a symmetric tridiagonal
+  matrix (diagonal d, off-diagonal e) below a shift, from the signs of the
+  LDL^T pivots (Sturm sequence).  Exact in exact arithmetic; in floating point
+  it is the count of a matrix within a few ulps of the given one.
+* :func:`tridiag_solve` - solve (T - sigma I) y = b by Gaussian elimination
+  with partial pivoting, for inverse iteration near an eigenvalue.
+* :func:`flux_quotient` - the Rayleigh quotient of the flux-form operator,
+  sum a_j (psi_{j+1} - psi_j)^2 + sum (Vw_i - alpha_i) psi_i^2 over
+  sum w_i psi_i^2, computed from differences so that its round-off is a few
+  ulps of the energy scale rather than of the matrix norm (which grows as
+  1/h_min^2 on graded grids).
+* :func:`zero_energy_nodes` - the discrete solution of (K - E W) psi = 0
+  marched from the left with psi_0 = 0, psi_1 = 1, and its sign changes.
+* :func:`lipschitz_limit` - the lower envelope min_j (h_j + g |x_i - x_j|).
+
+Numba is used here because these loops are sequential recurrences that numpy
+cannot vectorise; measured figures are in DEVELOPERS.md.  Compilation results
+are cached on disk when a cache folder is writable (``NUMBA_CACHE_DIR`` or the
+package folder), and silently not cached otherwise.
+"""
+
+from __future__ import annotations
+
+import os
+import tempfile
+
+import numpy as np
+
+
+def _jit():
+    import numba
+
+    def cache_ok() -> bool:
+        here = os.path.join(os.path.dirname(__file__), "__pycache__")
+        for folder in (os.environ.get("NUMBA_CACHE_DIR"), here):
+            if folder and os.path.isdir(folder) and os.access(folder, os.W_OK):
+                return True
+        try:
+            os.makedirs(here, exist_ok=True)
+            return os.access(here, os.W_OK)
+        except OSError:
+            pass
+        os.environ.setdefault("NUMBA_CACHE_DIR", os.path.join(tempfile.gettempdir(), "fdsolver-numba"))
+        return True
+
+    return numba.njit(cache=cache_ok(), nogil=True)
+
+
+_njit = _jit()
+
+
+@_njit
+def sturm_count(d, e, sigma):
+    """Number of eigenvalues of tridiag(e, d, e) strictly below ``sigma``."""
+    n = d.shape[0]
+    count = 0
+    q = d[0] - sigma
+    if q < 0.0:
+        count += 1
+    tiny = 1e-300
+    for i in range(1, n):
+        if q == 0.0:
+            q = tiny
+        q = d[i] - sigma - e[i - 1] * e[i - 1] / q
+        if q < 0.0:
+            count += 1
+    return count
+
+
+@_njit
+def tridiag_solve(d, e, sigma, b):
+    """Solve (tridiag(e, d, e) - sigma I) y = b with partial pivoting; returns y."""
+    n = d.shape[0]
+    # rows of the banded LU: u0 (diag), u1 (first super), u2 (second super, from pivoting)
+    u0 = np.empty(n)
+    u1 = np.zeros(n)
+    u2 = np.zeros(n)
+    lmul = np.zeros(n)
+    piv = np.zeros(n, dtype=np.bool_)
+    y = b.copy()
+    diag = d[0] - sigma
+    sup = e[0] if n > 1 else 0.0
+    for i in range(n - 1):
+        sub = e[i]
+        nd = d[i + 1] - sigma
+        nsup = e[i + 1] if i + 1 < n - 1 else 0.0
+        if abs(diag) >= abs(sub):
+            if diag == 0.0:
+                diag = 1e-300
+            m = sub / diag
+            u0[i] = diag
+            u1[i] = sup
+            u2[i] = 0.0
+            lmul[i] = m
+            diag = nd - m * sup
+            sup = nsup
+        else:
+            # swap rows i and i+1
+            m = diag / sub
+            u0[i] = sub
+            u1[i] = nd
+            u2[i] = nsup
+            lmul[i] = m
+            piv[i] = True
+            diag = sup - m * nd
+            sup = -m * nsup
+        # apply to rhs
+        if piv[i]:
+            t = y[i]
+            y[i] = y[i + 1]
+            y[i + 1] = t - lmul[i] * y[i]
+        else:
+            y[i + 1] = y[i + 1] - lmul[i] * y[i]
+    if diag == 0.0:
+        diag = 1e-300
+    u0[n - 1] = diag
+    # back substitution
+    y[n - 1] = y[n - 1] / u0[n - 1]
+    if n > 1:
+        y[n - 2] = (y[n - 2] - u1[n - 2] * y[n - 1]) / u0[n - 2]
+    for i in range(n - 3, -1, -1):
+        y[i] = (y[i] - u1[i] * y[i + 1] - u2[i] * y[i + 2]) / u0[i]
+    return y
+
+
+@_njit
+def flux_quotient(psi, a, vw, w):
+    """Rayleigh quotient of K psi = E W psi in flux form (psi at interior nodes; Dirichlet ends).
+
+    ``a`` has one entry per cell (n + 1 cells for n interior nodes),
+    ``vw`` is the node potential times weight (point terms included),
+    ``w`` the node weights.
+    """
+    n = psi.shape[0]
+    num = a[0] * psi[0] * psi[0] + a[n] * psi[n - 1] * psi[n - 1]
+    den = 0.0
+    for i in range(n - 1):
+        dp = psi[i + 1] - psi[i]
+        num += a[i + 1] * dp * dp
+    for i in range(n):
+        num += vw[i] * psi[i] * psi[i]
+        den += w[i] * psi[i] * psi[i]
+    return num / den
+
+
+@_njit
+def zero_energy_nodes(a, vw, w, energy, start_prev):
+    """March (K - E W) psi = 0 from psi_end = start_prev, psi_1 = 1; return (sign changes, last value, last step).
+
+    ``a`` per cell (n + 1), ``vw`` and ``w`` per interior node (n).  The
+    count equals the number of eigenvalues below ``energy`` of the problem with
+    a Dirichlet left end (``start_prev`` = 0) or a flat start (``start_prev`` =
+    1, the E = V solution of a constant potential) and a free right end (a
+    discrete oscillation theorem).
+    The values are rescaled as they go, so no overflow occurs; the returned
+    pair (psi_n, psi_n - psi_{n-1}) is in arbitrary scale but with its sign.
+    """
+    n = w.shape[0]
+    prev = start_prev
+    cur = 1.0
+    changes = 0
+    for i in range(n - 1):
+        # a_i (cur - prev) - a_{i+1} (nxt - cur) + (vw_i - E w_i) cur = 0
+        nxt = cur + (a[i] * (cur - prev) + (vw[i] - energy * w[i]) * cur) / a[i + 1]
+        if (nxt < 0.0) != (cur < 0.0):
+            changes += 1
+        prev = cur
+        cur = nxt
+        big = abs(cur)
+        if big > 1e150:
+            prev /= big
+            cur /= big
+    return changes, cur, cur - prev
+
+
+@_njit
+def lipschitz_limit(x, h, growth):
+    """Return min over j of (h_j + growth |x_i - x_j|) for every i (x increasing)."""
+    out = h.copy()
+    n = out.shape[0]
+    for i in range(1, n):
+        lim = out[i - 1] + growth * (x[i] - x[i - 1])
+        if lim < out[i]:
+            out[i] = lim
+    for i in range(n - 2, -1, -1):
+        lim = out[i + 1] + growth * (x[i + 1] - x[i])
+        if lim < out[i]:
+            out[i] = lim
+    return out
