@@ -73,6 +73,10 @@ def solve_window(op: Operator, e_hi: float, max_states: int, e_lo: float | None 
         if abs(lam - lam0) <= lapack_bound + 1e-12 * abs(lam0):
             for _ in range(2):
                 y = kernels.tridiag_solve(d, e, lam, u)
+                big = np.max(np.abs(y))
+                if not np.isfinite(big) or big == 0.0:
+                    break
+                y = y / big
                 nrm = np.linalg.norm(y)
                 if not np.isfinite(nrm) or nrm == 0.0:
                     break
@@ -92,4 +96,6 @@ def solve_window(op: Operator, e_hi: float, max_states: int, e_lo: float | None 
         energies[k] = best_lam
         psis[k] = best_psi
     order = np.argsort(energies)
-    return GridStates(energies[order], psis[order], n_below)
+    energies, psis = energies[order], psis[order]
+    keep = energies < e_hi if np.isfinite(e_hi) else np.ones(n, dtype=bool)
+    return GridStates(energies[keep], psis[keep], n_below - int(np.count_nonzero(~keep)))

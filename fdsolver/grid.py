@@ -34,6 +34,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .kernels import lipschitz_limit
+
 
 @dataclass(frozen=True)
 class GridSettings:
@@ -43,21 +45,6 @@ class GridSettings:
     wave_fraction: float = 0.5
     growth: float = 0.25
     min_cells_per_segment: int = 2
-
-
-def _lipschitz_limit(x: np.ndarray, h: np.ndarray, growth: float) -> np.ndarray:
-    """Lower envelope h_i <- min_j (h_j + growth |x_i - x_j|), by a forward and a backward sweep."""
-    h = h.copy()
-    dx = np.diff(x)
-    for i in range(1, h.size):
-        lim = h[i - 1] + growth * dx[i - 1]
-        if lim < h[i]:
-            h[i] = lim
-    for i in range(h.size - 2, -1, -1):
-        lim = h[i + 1] + growth * dx[i]
-        if lim < h[i]:
-            h[i] = lim
-    return h
 
 
 def _segment_nodes(a: float, b: float, xs: np.ndarray, hs: np.ndarray, min_cells: int) -> np.ndarray:
@@ -96,14 +83,16 @@ def base_grid(spacing, breakpoints, lo: float, hi: float, settings: GridSettings
         sample.append(b + offs)
         sample.append(b - offs)
     xs = np.unique(np.clip(np.concatenate(sample + [bounds]), lo, hi))
-    for _ in range(6):
-        hs = _lipschitz_limit(xs, np.minimum(spacing(xs), width / 4.0), settings.growth)
+    for _ in range(8):
+        hs = lipschitz_limit(xs, np.minimum(spacing(xs), width / 4.0), settings.growth)
         gaps = np.diff(xs)
         coarse = gaps > 0.25 * np.minimum(hs[1:], hs[:-1])
         if not np.any(coarse):
             break
         mids = 0.5 * (xs[1:] + xs[:-1])[coarse]
         xs = np.unique(np.concatenate([xs, mids]))
+    else:
+        hs = lipschitz_limit(xs, np.minimum(spacing(xs), width / 4.0), settings.growth)
     nodes = [np.array([lo])]
     for a, b in zip(bounds[:-1], bounds[1:]):
         i0, i1 = np.searchsorted(xs, [a, b])

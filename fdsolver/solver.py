@@ -120,13 +120,18 @@ def _spacing_function(potential: Potential, e_lo: float, e_hi: float, gs: GridSe
     feats = potential.feature_scales()
     pts = potential.point_scales()
 
+    # where V - E exceeds 25 times the energy range the states are negligible (decay 5x faster than
+    # anywhere they live), so the wave number requirement is capped there
+    r2_cap = 25.0 * potential.mass * abs(e_hi - e_lo) / c if math.isfinite(e_hi - e_lo) and e_hi != e_lo else np.inf
+    m_max = max(float(np.max(potential.mass_at(np.array(potential.support())))), potential.mass)
+
     def spacing(x):
         x = np.asarray(x, dtype=float)
-        v = potential.value(x)
-        m = potential.mass_at(x)
         with np.errstate(invalid="ignore", over="ignore"):
+            v = potential.value(x)
+            m = potential.mass_at(x)
             r2 = m * np.maximum(np.abs(v - e_lo), np.abs(v - e_hi)) / c
-        r2 = np.where(np.isfinite(r2), r2, 1e300)
+        r2 = np.minimum(np.where(np.isfinite(r2), r2, np.inf), r2_cap * m_max / potential.mass)
         h = gs.wave_fraction / np.sqrt(r2 + 1e-300)
         for p, s in feats:
             if math.isfinite(s):
@@ -248,7 +253,15 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
         box = (float(domain.left), float(domain.right))
     else:
         pad = 10.0 * scale
-        box = (lo_s - pad, hi_s + pad)
+        box = [lo_s - pad, hi_s + pad]
+        for i, side in enumerate((-1, 1)):
+            if not math.isfinite(potential.asymptote(side)):
+                # an unbounded side ends where states below the guess have decayed
+                edge = (lo_s, hi_s)[i]
+                far = potential.value(np.array([edge + side * pad]))[0]
+                guess = threshold if math.isfinite(threshold) else 0.5 * (far + potential.value(np.array([edge]))[0])
+                box[i] = _decay_extent(potential, edge, side, guess, budget, scale)
+        box = (min(box[0], lo_s - 0.5 * scale), max(box[1], hi_s + 0.5 * scale))
         if domain.left is not None:
             box = (min(box[0], domain.left), box[1])
         if domain.right is not None:
@@ -315,6 +328,8 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
             )
             break
         op_k, st_k = _solve_nodes(setup, nodes)
+        if level == 0:
+            base_energy = st_k.energy
         if n_expected is not None and st_k.energy.size != n_expected:
             table = Romberg()
             level_e = []
@@ -340,13 +355,18 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
         e_top = float(energy[-1])
         big = _open_box(setup, min(e_top, threshold), budget * 1.5, box)
         if big != box:
-            cb = _center_for(setup, big)
-            nb = _grid(setup, big, e_lo_grid, e_hi_grid, settings.grid, cb)
-            _, sb = _solve_nodes(setup, nb)
-            if sb.energy.size >= energy.size:
-                box_err = np.abs(sb.energy[: energy.size] - level_e[0][: energy.size]) if level_e else box_err
+            # same nodes inside the old box, new nodes only beyond it: the shift is the truncation alone
+            spacing = _spacing_function(potential, e_lo_grid, e_hi_grid, settings.grid)
+            parts = [base]
+            if big[0] < box[0]:
+                parts.insert(0, base_grid(spacing, [], big[0], box[0], settings.grid)[:-1])
+            if big[1] > box[1]:
+                parts.append(base_grid(spacing, [], box[1], big[1], settings.grid)[1:])
+            _, sb = _solve_nodes(setup, np.concatenate(parts))
+            if sb.energy.size >= energy.size and base_energy.size >= energy.size:
+                box_err = np.abs(sb.energy[: energy.size] - base_energy[: energy.size])
             else:
-                messages.append("a larger box finds a different number of states; the box check is inconclusive")
+                messages.append("a larger box finds fewer states; the box check is inconclusive")
         err = err + box_err
     scale_e = _energy_scale(energy, vmin)
     conv = err <= tol * scale_e if energy.size else np.zeros(0, dtype=bool)
