@@ -24,7 +24,8 @@ kappa c_i = g_i psi(x_i) = g_i sum_j exp(-kappa |x_i - x_j|) c_j, i.e.
 
     det(1 - K(kappa)) = 0,   K_ij = g_i exp(-kappa |x_i - x_j|) / kappa
 
-(similar to the symmetric sqrt(g_i g_j) form when all g_i > 0).  With
+(for all g_i > 0 the diagonal similarity G^(-1/2) K G^(1/2) turns K into
+the symmetric sqrt(g_i g_j) exp(-kappa |x_i - x_j|) / kappa).  With
 c = |G|^(1/2) z and S = diag(sign g_i) this is the *symmetric* problem
 
     M(kappa) z = 0,   M(kappa) = kappa S - |G|^(1/2) E(kappa) |G|^(1/2),
@@ -42,7 +43,7 @@ Sturm-Liouville type) the number N(k) of bound states with kappa > k, i.e.
 with energy below -C k^2/m, equals the number of zeros of u_k on the real line.
 Between two points u_k has at most one zero, and it has one iff u_k changes
 sign between them; right of the last point it has one iff u'/u < -k there.
-So N(k) is an exact integer-valued function that needs no root finding.  The
+So N(k) is an integer obtained by one forward sweep, without root finding.  The
 bound states are located by bisecting N(k) until every interval contains
 exactly one state, and each is then solved with scipy.optimize.brentq on the
 continuous function "coefficient of exp(+k x) right of the last point" (it
@@ -50,14 +51,22 @@ vanishes exactly at bound states and changes sign there because N jumps by
 one).  Every state is bracketed once, so none is missed or duplicated.
 
 Range of kappa.  Bound states satisfy 0 < kappa <= kappa_max = sum of the
-positive g_i.  Proof: for normalised psi, E = (C/m) ||psi'||^2 - sum_i alpha_i
-psi(x_i)^2 >= (C/m) s^2 - (sum_{alpha_i>0} alpha_i) s with s = ||psi'||, because
-psi(x)^2 = 2 int_{-inf}^x psi psi' <= ... gives psi(x)^2 <= ||psi|| ||psi'||
+positive g_i.  Proof: for a normalised psi,
+psi(x)^2 = int_{-inf}^x 2 psi psi' = -int_x^inf 2 psi psi', so
+psi(x)^2 <= int |psi psi'| <= ||psi|| ||psi'|| = s (Cauchy-Schwarz), hence
+E = (C/m) s^2 - sum_i alpha_i psi(x_i)^2 >= (C/m) s^2 - (sum_{alpha_i>0} alpha_i) s
 (repulsive terms are >= 0 and dropped).  Minimising over s gives
-E >= -(C/m) (sum_{g_i>0} g_i)^2, i.e. kappa <= kappa_max; equality holds for a
-single point.  The total number of states is at most the number of attractive
-points (an attractive point can add at most one zero to u_k; repulsive points
-none), which the tests confirm.
+E >= -(m/(4C)) (sum_{alpha_i>0} alpha_i)^2 = -(C/m) kappa_max^2, so
+kappa <= kappa_max; equality holds for a single point.  The number of states
+is at most the number of attractive points: dropping the repulsive terms only
+lowers H, and an attractive term of rank N_+ added to the non-negative kinetic
+operator creates at most N_+ negative eigenvalues (min-max principle).
+
+Near a binding threshold the weakly bound kappa is ill-conditioned: its
+relative accuracy is about eps / (relative distance of the parameters from the
+threshold), as for any method working from rounded inputs.  States with
+kappa < 1e-280 kappa_max are not searched for (they are at threshold to
+double precision).
 
 The total count N(0+) is taken from the zero-energy solution
 (:func:`zero_energy_solution`), the exact k -> 0 limit of u_k.
@@ -123,7 +132,7 @@ def _as_points(positions, strengths) -> tuple[np.ndarray, np.ndarray]:
     xs = np.sort(x)
     if np.any(np.diff(xs) <= 0.0):
         dup = xs[1:][np.diff(xs) <= 0.0][0]
-        raise CaseError(f"two points share the position {dup!r}; positions must be distinct", key="point")
+        raise CaseError(f"two points share the position {float(dup)!r}; positions must be distinct", key="point")
     return x, a
 
 
@@ -192,7 +201,9 @@ def _shoot(k: float, xs: np.ndarray, gs: np.ndarray) -> tuple[int, float]:
             t = 2.0 * k * (xs[i] - xs[i - 1])
             if t > 1.0:
                 p = u + w
-                q = (u - w) * math.exp(-t)
+                # p == 0: purely decaying, keep its direction (only the
+                # positive scale is dropped, which is immaterial)
+                q = (u - w) * math.exp(-t) if p != 0.0 else (u - w)
                 u, w = 0.5 * (p + q), 0.5 * (p - q)
             else:
                 r = (u - w) * (-0.5 * math.expm1(-t))
@@ -753,22 +764,23 @@ def pair_closed_form(g: float, d: float) -> tuple[float, float | None]:
     # when t -> 1+ (y ~ 2 (t - 1)), and H'(y) = t phi'(y), phi' < 0.
     tm1 = t - 1.0
 
-    def chi(y):  # (e^{-y} - 1 + y) / y
+    def chi(y):  # (e^{-y} - 1 + y) / y = sum_{n>=2} (-1)^n y^(n-1) / n!
         if y < 0.5:
-            term, total, n = 1.0, 0.0, 2
-            for n in range(2, 24):
-                term = -term * y / n if n > 2 else y / 2.0
+            term = 0.5 * y
+            total = term
+            for n in range(3, 24):
+                term *= -y / n
                 total += term
             return total
         return (math.expm1(-y) + y) / y
 
-    def dphi(y):  # phi'(y) = -chi'(y)
+    def dphi(y):  # phi'(y) = -chi'(y) = -sum_{n>=2} (-1)^n (n-1) y^(n-2) / n!
         if y < 0.5:
-            total, fact = 0.0, 2.0
+            total, fact, yp = 0.0, 1.0, 1.0
             for n in range(2, 24):
-                if n > 2:
-                    fact *= n
-                total += (-1) ** n * (n - 1) * y ** (n - 2) / fact
+                fact *= n
+                total += (-1) ** n * (n - 1) * yp / fact
+                yp *= y
             return -total
         return (math.exp(-y) * (1.0 + y) - 1.0) / (y * y)
 
@@ -776,7 +788,7 @@ def pair_closed_form(g: float, d: float) -> tuple[float, float | None]:
         return tm1 * (1.0 - chi(y)) - chi(y)
 
     y = t + float(lambertw(-t * math.exp(-t)).real)
-    if not 0.0 < y < t:
+    if not 0.0 < y <= t:
         y = 2.0 * tm1 / t  # small-y expansion
     ok = False
     for _ in range(12):
@@ -789,8 +801,12 @@ def pair_closed_form(g: float, d: float) -> tuple[float, float | None]:
             ok = True
             break
     if not ok:
-        def h(yy):
-            return big_h(yy) if yy > 0.0 else tm1
+        def h(yy):  # h(0+) = t - 1 > 0, h(t) = -exp(-t) < 0 exactly
+            if yy <= 0.0:
+                return tm1
+            if yy >= t:
+                return -math.exp(-t)
+            return big_h(yy)
 
         y = brentq(h, 0.0, t, xtol=1e-300, rtol=_KAPPA_RTOL, maxiter=500)
     return kappa_even, y / d
