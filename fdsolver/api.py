@@ -6,13 +6,16 @@ import xarray as xr
 
 from .case import Case, case_from_text
 from .dataset import solution_dataset
-from .errors import ArchiveError
+from .errors import ArchiveError, CaseError
 from .solver import Solution, solve_potential
 
 
 def solve_case(case: Case) -> Solution:
     """Solve ``case`` and return the raw :class:`~fdsolver.solver.Solution`."""
-    return solve_potential(case.potential, case.domain, case.settings)
+    try:
+        return solve_potential(case.potential, case.domain, case.settings)
+    except CaseError as err:  # the core does not know the file; name it here
+        raise err.located(file=case.path) from None
 
 
 def solve(case: Case, action: str | None = None) -> xr.Dataset:

@@ -40,7 +40,7 @@ class CaseError(FdsolverError, ValueError):
         key = self.key
         if key_prefix:
             key = key_prefix if not key else f"{key_prefix}.{key}"
-        return CaseError(self.message, file=self.file or file, key=key)
+        return type(self)(self.message, file=self.file or file, key=key)
 
 
 class BudgetError(CaseError):
