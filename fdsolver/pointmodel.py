@@ -97,9 +97,9 @@ __all__ = [
 _EPS = float(np.finfo(float).eps)
 #: mirror symmetry is accepted within this relative tolerance
 _SYM_RTOL = 1e-12
-#: |psi(x_i)| below this fraction of max |psi(x_j)| is treated as unresolved
-#: (zero) when counting nodes
-_NODE_FLOOR = 1e-10
+#: inside the main body of a state, |psi(x_i)| below this fraction of
+#: max |psi(x_j)| (underflow) is skipped when counting nodes
+_NODE_FLOOR = 1e-300
 #: the sign rule looks at the leftmost point with |psi| above this fraction
 _SIGN_FLOOR = 1e-6
 #: states with kappa below this fraction of kappa_max are not searched for
@@ -465,10 +465,100 @@ def _parity_bases(n_a: int) -> tuple[np.ndarray, np.ndarray]:
     return as_cols(even), as_cols(odd)
 
 
-def _count_nodes(v: np.ndarray) -> int:
-    """Sign changes of psi(x_i) (psi has no zero outside, one per sign change)."""
+def _sweep_log_values(k: float, xs: np.ndarray, gs: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Left-decaying solution at E = -C k^2/m at the points, as (sign, log|u|).
+
+    Same forward sweep as :func:`_shoot`, with the dropped positive factors
+    accumulated in a logarithm so that values far below the double range keep
+    their sign and relative accuracy.
+    """
+    n = len(xs)
+    sign = np.ones(n)
+    logabs = np.zeros(n)
+    u, w, log_scale = 1.0, 1.0, 0.0
+    for i in range(n):
+        if i:
+            d = xs[i] - xs[i - 1]
+            t = 2.0 * k * d
+            if t > 1.0:
+                p = u + w
+                q = (u - w) * math.exp(-t) if p != 0.0 else (u - w)
+                u, w = 0.5 * (p + q), 0.5 * (p - q)
+            else:
+                r = (u - w) * (-0.5 * math.expm1(-t))
+                u, w = u - r, w + r
+            log_scale += k * d
+            s = max(abs(u), abs(w))
+            u /= s
+            w /= s
+            log_scale += math.log(s)
+        sign[i] = 1.0 if u > 0 else (-1.0 if u < 0 else 0.0)
+        logabs[i] = (math.log(abs(u)) if u != 0.0 else -math.inf) + log_scale
+        w -= 2.0 * gs[i] * u / k
+    return sign, logabs
+
+
+def _refine_small_values(kappa: float, xa: np.ndarray, ga: np.ndarray, v: np.ndarray) -> np.ndarray:
+    """Recompute the small entries of ``v`` = psi(x_i) with relative accuracy.
+
+    The eigenvector gives psi(x_i) to an absolute accuracy ~eps max|psi|, so the
+    signs of exponentially small values (tails, valleys between far-apart
+    lobes) are lost.  With B the points where |psi| >= 1e-3 max and S the rest,
+    the rows i in S of psi = E G psi / kappa give the linear system
+        (kappa 1 - E_SS G_S) psi_S = E_SB G_B psi_B,
+    whose right side is built from accurate values and whose matrix is well
+    conditioned unless a point of S is itself near resonance (then psi is not
+    small there).  Outside the first/last point of B the state is the solution
+    decaying towards the outside, which grows towards B; it is recomputed by
+    the forward and mirrored sweeps (log-scaled, so values below the double
+    range keep their sign) and matched to psi at the boundary point of B.
+    """
     vmax = float(np.max(np.abs(v)))
-    signs = [1 if vi > 0 else -1 for vi in v if abs(vi) > _NODE_FLOOR * vmax]
+    big = np.abs(v) >= 1e-3 * vmax
+    out = v.copy()
+    small = ~big
+    if np.any(small):
+        e = _exp_matrix(kappa, xa)
+        a_ss = kappa * np.eye(int(small.sum())) - e[np.ix_(small, small)] * ga[small][None, :]
+        rhs = e[np.ix_(small, big)] @ (ga[big] * v[big])
+        try:
+            sol = np.linalg.solve(a_ss, rhs)
+        except np.linalg.LinAlgError:
+            sol = None
+        if sol is not None and np.all(np.isfinite(sol)):
+            out[small] = sol
+    idx = np.flatnonzero(big)
+    first, last = int(idx[0]), int(idx[-1])
+    if first > 0:
+        sg, lg = _sweep_log_values(kappa, xa, ga)
+        ratio = np.exp(lg[:first] - lg[first])
+        out[:first] = v[first] * sg[first] * sg[:first] * ratio
+    if last < len(v) - 1:
+        sg, lg = _sweep_log_values(kappa, -xa[::-1], ga[::-1])
+        sg, lg = sg[::-1], lg[::-1]
+        ratio = np.exp(lg[last + 1:] - lg[last])
+        out[last + 1:] = v[last] * sg[last] * sg[last + 1:] * ratio
+    return out
+
+
+def _count_nodes(v: np.ndarray) -> int:
+    """Sign changes of psi(x_i) (psi has no zero outside, one per sign change).
+
+    The values come from :func:`_refine_small_values`, so small ones carry a
+    meaningful sign.  Outside the main body (first to last point with
+    |psi| >= 1e-3 max) values that underflowed keep the sign bit of zero and
+    are used; inside, values below 1e-300 max (underflowed) are skipped.
+    """
+    vmax = float(np.max(np.abs(v)))
+    big = np.flatnonzero(np.abs(v) >= 1e-3 * vmax)
+    first, last = int(big[0]), int(big[-1])
+    signs = []
+    for i, vi in enumerate(v):
+        if first <= i <= last:
+            if abs(vi) > _NODE_FLOOR * vmax:
+                signs.append(1 if vi > 0 else -1)
+        else:
+            signs.append(-1 if math.copysign(1.0, vi) < 0 else 1)
     return int(sum(1 for s0, s1 in zip(signs, signs[1:]) if s0 != s1))
 
 
@@ -524,6 +614,8 @@ def _state_vectors(kappa, xa, ga, symmetric):
             z = v[:, pick]
         # psi(x_i) = kappa c_i / g_i with c = |G|^(1/2) z
         vals = (kap * sgn / root_g)[:, None] * z
+        for j in range(vals.shape[1]):
+            vals[:, j] = _refine_small_values(kap, xa, ga, vals[:, j])
         # orthonormalise in L2 (Gram-Schmidt, overlaps from point values)
         for j in range(vals.shape[1]):
             for i in range(j):
@@ -562,7 +654,12 @@ class PointSpectrum:
 
     ``parity`` is +1/-1 (even/odd under reflection about the centre) when the
     points and strengths are mirror-symmetric within 1e-12 relative, else 0.
-    ``nodes`` counts sign changes of psi_n; by the oscillation theorem it is n.
+    ``nodes`` counts the sign changes of psi_n (one zero per sign change of
+    psi(x_i), none outside); by the oscillation theorem it is n.  Small values
+    psi(x_i) are recomputed with relative accuracy (:func:`_refine_small_values`),
+    so sign changes in exponentially small tails and valleys are seen; only
+    sign changes where |psi| underflows the double range (wells separated by
+    kappa d > ~700) can be missed.
     States whose splitting is below double precision (e.g. far-apart wells)
     share one kappa; for mirror-symmetric sets they are still separated by
     parity, otherwise an orthonormal basis of their span is returned.
