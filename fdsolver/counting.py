@@ -23,7 +23,6 @@ from __future__ import annotations
 
 import math
 
-import numpy as np
 
 from . import kernels
 from .operator import Operator

@@ -32,6 +32,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import math
+
 import numpy as np
 
 from .kernels import lipschitz_limit
@@ -111,3 +113,38 @@ def refine(nodes: np.ndarray, level: int) -> np.ndarray:
     frac = np.arange(k) / k
     inner = (nodes[:-1, None] + h[:, None] * frac[None, :]).ravel()
     return np.concatenate([inner, nodes[-1:]])
+
+
+def spacing_function(potential, e_lo: float, e_hi: float, gs: GridSettings):
+    """Raw target spacing h(x) (length unit) for the states with energies in [e_lo, e_hi].
+
+    h = wave_fraction / r(x), r = sqrt(m max(|V - e_lo|, |V - e_hi|) / C), and
+    near every feature of scale s at p: h <= feature_fraction * s + growth |x - p|
+    (for an attractive point interaction s = its decay length 1/g, at half the
+    wave fraction).  :func:`base_grid` then limits |dh/dx| to ``growth``.
+    """
+    c = potential.hbar2_2me
+    feats = potential.feature_scales()
+    pts = potential.point_scales()
+
+    # where V - E exceeds 25 times the energy range the states are negligible (decay 5x faster than
+    # anywhere they live), so the wave number requirement is capped there
+    r2_cap = 25.0 * potential.mass * abs(e_hi - e_lo) / c if math.isfinite(e_hi - e_lo) and e_hi != e_lo else np.inf
+    m_max = max(float(np.max(potential.mass_at(np.array(potential.support())))), potential.mass)
+
+    def spacing(x):
+        x = np.asarray(x, dtype=float)
+        with np.errstate(invalid="ignore", over="ignore"):
+            v = potential.value(x)
+            m = potential.mass_at(x)
+            r2 = m * np.maximum(np.abs(v - e_lo), np.abs(v - e_hi)) / c
+        r2 = np.minimum(np.where(np.isfinite(r2), r2, np.inf), r2_cap * m_max / potential.mass)
+        h = gs.wave_fraction / np.sqrt(r2 + 1e-300)
+        for p, s in feats:
+            if math.isfinite(s):
+                h = np.minimum(h, gs.feature_fraction * s + gs.growth * np.abs(x - p))
+        for p, s in pts:
+            h = np.minimum(h, 0.5 * gs.wave_fraction * s + gs.growth * np.abs(x - p))
+        return h
+
+    return spacing

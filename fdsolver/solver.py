@@ -32,9 +32,11 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from . import counting
-from .eigen import GridStates, count_nodes, solve_window
+from .eigen import GridStates, solve_window
 from .errors import BudgetError, CaseError
-from .grid import GridSettings, base_grid, refine
+from .box import length_scale, open_box, provisional_box
+from .grid import GridSettings, base_grid, refine, spacing_function
+from .observables import Solution, observables
 from .operator import Operator, assemble
 from .potential import Potential
 from .refine import Romberg
@@ -66,35 +68,6 @@ class SolveSettings:
     grid: GridSettings = field(default_factory=GridSettings)
 
 
-@dataclass(frozen=True)
-class Solution:
-    """Result of :func:`solve_potential`; arrays over ``state`` and over the nodes ``x``."""
-
-    x: np.ndarray
-    potential: np.ndarray
-    mass: np.ndarray
-    weights: np.ndarray
-    energy: np.ndarray
-    energy_error: np.ndarray
-    converged: np.ndarray
-    psi: np.ndarray
-    nodes: np.ndarray
-    parity: np.ndarray
-    mean_x: np.ndarray
-    spread: np.ndarray
-    inside: np.ndarray
-    region_names: tuple[str, ...]
-    threshold: float
-    box: tuple[float, float]
-    boundary: str
-    mirror_center: float | None
-    level_energies: np.ndarray
-    level_sizes: np.ndarray
-    box_error: np.ndarray
-    bound_count: int
-    messages: tuple[str, ...]
-
-
 # ---------------------------------------------------------------- thresholds
 def continuum_threshold(potential: Potential, domain: Domain) -> float:
     """Lowest energy of the continuum: min of the asymptotes at open ends, inf for two hard walls."""
@@ -114,62 +87,6 @@ def continuum_threshold(potential: Potential, domain: Domain) -> float:
     return min(vals)
 
 
-# ------------------------------------------------------------------- spacing
-def _spacing_function(potential: Potential, e_lo: float, e_hi: float, gs: GridSettings):
-    c = potential.hbar2_2me
-    feats = potential.feature_scales()
-    pts = potential.point_scales()
-
-    # where V - E exceeds 25 times the energy range the states are negligible (decay 5x faster than
-    # anywhere they live), so the wave number requirement is capped there
-    r2_cap = 25.0 * potential.mass * abs(e_hi - e_lo) / c if math.isfinite(e_hi - e_lo) and e_hi != e_lo else np.inf
-    m_max = max(float(np.max(potential.mass_at(np.array(potential.support())))), potential.mass)
-
-    def spacing(x):
-        x = np.asarray(x, dtype=float)
-        with np.errstate(invalid="ignore", over="ignore"):
-            v = potential.value(x)
-            m = potential.mass_at(x)
-            r2 = m * np.maximum(np.abs(v - e_lo), np.abs(v - e_hi)) / c
-        r2 = np.minimum(np.where(np.isfinite(r2), r2, np.inf), r2_cap * m_max / potential.mass)
-        h = gs.wave_fraction / np.sqrt(r2 + 1e-300)
-        for p, s in feats:
-            if math.isfinite(s):
-                h = np.minimum(h, gs.feature_fraction * s + gs.growth * np.abs(x - p))
-        for p, s in pts:
-            h = np.minimum(h, 0.5 * gs.wave_fraction * s + gs.growth * np.abs(x - p))
-        return h
-
-    return spacing
-
-
-def _length_scale(potential: Potential) -> float:
-    lo, hi = potential.support()
-    scales = [s for _, s in potential.feature_scales() if math.isfinite(s)]
-    scales += [s for _, s in potential.point_scales()]
-    return max([hi - lo] + scales + [1e-300])
-
-
-def _decay_extent(potential: Potential, start: float, side: int, e_top: float, budget: float, scale: float) -> float:
-    """Position beyond ``start`` (direction ``side``) where the WKB decay integral of energy e_top reaches ``budget``."""
-    c = potential.hbar2_2me
-    t = scale * 1e-3 * 1.02 ** np.arange(0, 2500)
-    t = t[t < scale * 1e9]
-    x = start + side * np.concatenate([[0.0], t])
-    with np.errstate(over="ignore", invalid="ignore"):
-        v = potential.value(x)
-    v = np.where(np.isfinite(v), v, 1e300)
-    kappa = np.sqrt(np.maximum(0.0, potential.mass_at(x) * (v - e_top) / c))
-    allowed = np.flatnonzero(v <= e_top)
-    i0 = int(allowed[-1]) if allowed.size else 0
-    seg = kappa[i0:]
-    integral = np.concatenate([[0.0], np.cumsum(0.5 * (seg[1:] + seg[:-1]) * np.abs(np.diff(x[i0:])))])
-    hit = np.flatnonzero(integral >= budget)
-    if hit.size == 0:
-        return float(x[-1])
-    return float(x[i0 + hit[0]])
-
-
 # -------------------------------------------------------------------- levels
 @dataclass
 class _Setup:
@@ -183,7 +100,7 @@ class _Setup:
 
 
 def _grid(setup: _Setup, box, e_lo, e_hi, gs: GridSettings, center):
-    spacing = _spacing_function(setup.potential, e_lo, e_hi, gs)
+    spacing = spacing_function(setup.potential, e_lo, e_hi, gs)
     nodes = base_grid(spacing, setup.potential.features(), box[0], box[1], gs, center)
     if nodes.size > setup.max_nodes:
         raise BudgetError(
@@ -210,26 +127,6 @@ def _center_for(setup: _Setup, box) -> float | None:
     return x0
 
 
-def _open_box(setup: _Setup, e_top: float, budget: float, minimum) -> tuple[float, float]:
-    pot, dom = setup.potential, setup.domain
-    lo_s, hi_s = pot.support()
-    scale = _length_scale(pot)
-    lo = _decay_extent(pot, lo_s, -1, e_top, budget, scale)
-    hi = _decay_extent(pot, hi_s, +1, e_top, budget, scale)
-    lo = min(lo, minimum[0], lo_s - 0.5 * scale)
-    hi = max(hi, minimum[1], hi_s + 0.5 * scale)
-    if dom.left is not None:
-        lo = min(lo, dom.left)
-    if dom.right is not None:
-        hi = max(hi, dom.right)
-    # a symmetric potential gets a symmetric box so mirror nodes exist
-    x0 = pot.mirror_center(lo_s - scale, hi_s + scale)
-    if x0 is not None:
-        half = max(x0 - lo, hi - x0)
-        lo, hi = x0 - half, x0 + half
-    return (lo, hi)
-
-
 def solve_potential(potential: Potential, domain: Domain, settings: SolveSettings) -> Solution:
     """Bound states of ``potential`` in ``domain`` to ``settings.tolerance`` (see module docstring)."""
     tol = settings.tolerance
@@ -244,28 +141,12 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
     messages: list[str] = []
     hard = domain.boundary == "hard"
     budget = 0.5 * math.log(100.0 / tol) + 1.0
-    scale = _length_scale(potential)
+    scale = length_scale(potential)
     lo_s, hi_s = potential.support()
     coarse = replace(settings.grid, wave_fraction=2.0 * settings.grid.wave_fraction)
 
     # ---- provisional box and energies
-    if hard:
-        box = (float(domain.left), float(domain.right))
-    else:
-        pad = 10.0 * scale
-        box = [lo_s - pad, hi_s + pad]
-        for i, side in enumerate((-1, 1)):
-            if not math.isfinite(potential.asymptote(side)):
-                # an unbounded side ends where states below the guess have decayed
-                edge = (lo_s, hi_s)[i]
-                far = potential.value(np.array([edge + side * pad]))[0]
-                guess = threshold if math.isfinite(threshold) else 0.5 * (far + potential.value(np.array([edge]))[0])
-                box[i] = _decay_extent(potential, edge, side, guess, budget, scale)
-        box = (min(box[0], lo_s - 0.5 * scale), max(box[1], hi_s + 0.5 * scale))
-        if domain.left is not None:
-            box = (min(box[0], domain.left), box[1])
-        if domain.right is not None:
-            box = (box[0], max(box[1], domain.right))
+    box = provisional_box(potential, domain, threshold, budget)
     vs = potential.value(np.linspace(box[0], box[1], 4001)[1:-1])
     vmin = float(np.min(vs))
     point_depth = [potential.mass * a**2 / (4.0 * potential.hbar2_2me) for _, a in potential.point_terms() if a > 0]
@@ -283,7 +164,7 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
                 e_top = float(prov.energy[-1])
             else:
                 e_top = threshold - (potential.hbar2_2me / potential.mass) / (box[1] - box[0]) ** 2
-            new_box = _open_box(setup, min(e_top, threshold), budget, box)
+            new_box = open_box(potential, domain, min(e_top, threshold), budget, box)
             grown = new_box[0] < box[0] - 1e-12 * scale or new_box[1] > box[1] + 1e-12 * scale
             box = new_box
             center = _center_for(setup, box)
@@ -309,7 +190,8 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
 
     # ---- final spacing from the actual energy range
     if prov.energy.size:
-        e_lo_grid = float(prov.energy[0]) - 0.05 * abs(float(prov.energy[0]) - vmin)
+        e0, etop = float(prov.energy[0]), float(prov.energy[-1])
+        e_lo_grid = e0 - 0.05 * max(abs(e0), etop - e0)
         e_hi_grid = threshold if math.isfinite(threshold) else float(prov.energy[-1])
     base = _grid(setup, box, e_lo_grid, e_hi_grid, settings.grid, center)
 
@@ -353,10 +235,10 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
     box_err = np.zeros_like(energy)
     if not hard and energy.size:
         e_top = float(energy[-1])
-        big = _open_box(setup, min(e_top, threshold), budget * 1.5, box)
+        big = open_box(potential, domain, min(e_top, threshold), budget * 1.5, box)
         if big != box:
             # same nodes inside the old box, new nodes only beyond it: the shift is the truncation alone
-            spacing = _spacing_function(potential, e_lo_grid, e_hi_grid, settings.grid)
+            spacing = spacing_function(potential, e_lo_grid, e_hi_grid, settings.grid)
             parts = [base]
             if big[0] < box[0]:
                 parts.insert(0, base_grid(spacing, [], big[0], box[0], settings.grid)[:-1])
@@ -380,7 +262,7 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
             f"{states.count_below - energy.size} more bound state(s) exist above the {energy.size} returned "
             "(raise [solve] max_states)"
         )
-    return _observables(setup, op, states, energy, err, conv, center, box, level_e, level_n, box_err, messages)
+    return observables(setup, op, states, energy, err, conv, center, box, level_e, level_n, box_err, messages)
 
 
 def _energy_scale(energy: np.ndarray, vmin: float) -> np.ndarray:
@@ -393,59 +275,3 @@ def _roundoff(op: Operator, energy: np.ndarray) -> np.ndarray:
     return 64.0 * EPS * (np.abs(energy) + vscale)
 
 
-def _observables(setup, op, states, energy, err, conv, center, box, level_e, level_n, box_err, messages) -> Solution:
-    pot = setup.potential
-    x_all = op.nodes
-    n = energy.size
-    npts = x_all.size
-    psi = np.zeros((n, npts))
-    psi[:, 1:-1] = states.psi
-    w_all = np.concatenate([[0.0], op.w, [0.0]])
-    mean_x = np.array([np.sum(w_all * p**2 * x_all) for p in psi])
-    spread = np.array([math.sqrt(max(0.0, np.sum(w_all * p**2 * (x_all - mx) ** 2))) for p, mx in zip(psi, mean_x)])
-    nodes = np.array([count_nodes(p) for p in states.psi], dtype=int)
-    parity = np.zeros(n, dtype=int)
-    if center is not None and np.allclose(x_all + x_all[::-1], 2 * center, rtol=0, atol=1e-9 * (box[1] - box[0])):
-        for k in range(n):
-            overlap = np.sum(w_all * psi[k] * psi[k][::-1])
-            parity[k] = 1 if overlap > 0 else -1
-    regions = pot.regions()
-    h = np.diff(x_all)
-    lo_cell = np.concatenate([[x_all[0]], x_all[1:] - 0.5 * h])
-    hi_cell = np.concatenate([x_all[:-1] + 0.5 * h, [x_all[-1]]])
-    inside = np.zeros((n, len(regions)))
-    for j, (_, rlo, rhi) in enumerate(regions):
-        overlap = np.clip(np.minimum(hi_cell, rhi) - np.maximum(lo_cell, rlo), 0.0, None)
-        inside[:, j] = psi**2 @ overlap
-    v_nodes = pot.value(x_all)
-    v_nodes[1:-1] = op.v
-    m_nodes = pot.mass_at(x_all)
-    nlev = len(level_e)
-    le = np.full((nlev, n), np.nan)
-    for i, row in enumerate(level_e):
-        le[i, : min(n, row.size)] = row[:n]
-    return Solution(
-        x=x_all,
-        potential=v_nodes,
-        mass=m_nodes,
-        weights=w_all,
-        energy=energy,
-        energy_error=err,
-        converged=conv,
-        psi=psi,
-        nodes=nodes,
-        parity=parity,
-        mean_x=mean_x,
-        spread=spread,
-        inside=inside,
-        region_names=tuple(r[0] for r in regions),
-        threshold=setup.threshold,
-        box=(float(box[0]), float(box[1])),
-        boundary=setup.domain.boundary,
-        mirror_center=center,
-        level_energies=le,
-        level_sizes=np.array(level_n, dtype=int),
-        box_error=box_err,
-        bound_count=int(states.count_below) if math.isfinite(setup.e_hi) else n,
-        messages=tuple(messages),
-    )

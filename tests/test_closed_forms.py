@@ -213,3 +213,12 @@ def test_archive_roundtrip_and_rerun(tmp_path):
 def test_no_bound_state_is_a_result():
     ds = solve({"units": "atomic", "potential": [{"shape": "gaussian", "center": 0.0, "sigma": 1.0, "height": 2.0}]})
     assert ds.sizes["state"] == 0
+
+
+@pytest.mark.parametrize("width", [1e-2, 1e-3, 1e-4])
+def test_narrow_deep_square_well_needs_thousands_of_nodes(width):
+    """A square well 1e-4 times narrower than the decay length (alpha = depth * width = 1, so 1/kappa ~ 1):
+    energy against Griffiths sec. 2.6 to 1e-8, with a finest grid of thousands of nodes, not millions."""
+    ds = solve({"units": "atomic", "potential": [{"shape": "square", "center": 0.0, "width": width, "depth": 1.0 / width}]})
+    check(ds, square_well_levels(1.0 / width, width / 2, 1.0, 0.5))
+    assert int(ds.level_nodes.values[-1]) < 20_000
