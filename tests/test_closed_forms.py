@@ -49,8 +49,11 @@ def square_well_levels(depth, half_width, mass, c):
         else:
             f = lambda z: -1.0 / math.tan(z) - math.sqrt((z0 / z) ** 2 - 1)  # noqa: E731
         if f(lo) * f(hi) < 0:
-            z = brentq(f, lo, hi, xtol=1e-15, rtol=1e-15)
-            out.append(c * z**2 / (mass * half_width**2) - depth)
+            z = brentq(f, lo, hi, xtol=1e-300, rtol=1e-15)
+            # E = -hbar^2 kappa^2 / 2m with kappa a = z tan z (even) or -z cot z (odd): no cancellation
+            # against the depth, which E = hbar^2 k^2/2m - V0 would suffer for narrow deep wells
+            ka = z * math.tan(z) if n % 2 == 0 else -z / math.tan(z)
+            out.append(-c * ka**2 / (mass * half_width**2))
         n += 1
     return out
 
