@@ -114,6 +114,9 @@ def write_dataset(ds: xr.Dataset, path) -> Path:
     os.close(fd)
     try:
         ds.to_netcdf(tmp, engine="netcdf4", encoding=encoding)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; archives get the usual permissions
         os.replace(tmp, path)
     except BaseException:
         try:

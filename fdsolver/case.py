@@ -65,10 +65,12 @@ class Case:
     path: str | None
     data: dict = field(repr=False)
     tables: dict[str, str] = field(default_factory=dict, repr=False)
+    overrides: dict = field(default_factory=dict, repr=False)
 
     def with_params(self, **overrides) -> "Case":
-        """The same case with some params replaced (numbers or expression strings)."""
-        return case_from_dict(self.data, path=self.path, text=self.text, overrides=overrides, tables=self.tables)
+        """The same case with some params replaced (numbers or expression strings); earlier overrides are kept."""
+        merged = {**self.overrides, **overrides}
+        return case_from_dict(self.data, path=self.path, text=self.text, overrides=merged, tables=self.tables)
 
 
 # ----------------------------------------------------------------- helpers
@@ -356,7 +358,7 @@ def case_from_dict(data: Mapping[str, Any], *, path=None, text=None, overrides=N
             raise CaseError(f"[{sect}] must be a table", file=file, key=sect)
     if text is None:
         text = dumps_case(data)
-    return Case(title, units, mass, params, potential, domain, settings, text, path, dict(data), tables)
+    return Case(title, units, mass, params, potential, domain, settings, text, path, dict(data), tables, dict(overrides or {}))
 
 
 def _domain(table, params, potential: Potential, file) -> Domain:

@@ -68,6 +68,12 @@ def main(argv=None) -> int:
     except CaseError as err:
         print(f"fdsolver: error: {err}", file=sys.stderr)
         return 2
+    except BrokenPipeError:  # output piped into e.g. `head`: stop quietly
+        try:
+            sys.stdout = open(os.devnull, "w")
+        except OSError:
+            pass
+        return 0
     except KeyboardInterrupt:
         print("fdsolver: interrupted", file=sys.stderr)
         return 130

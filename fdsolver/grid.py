@@ -115,13 +115,16 @@ def refine(nodes: np.ndarray, level: int) -> np.ndarray:
     return np.concatenate([inner, nodes[-1:]])
 
 
-def spacing_function(potential, e_lo: float, e_hi: float, gs: GridSettings):
+def spacing_function(potential, e_lo: float, e_hi: float, gs: GridSettings, deep_reach: float | None = None):
     """Raw target spacing h(x) (length unit) for the states with energies in [e_lo, e_hi].
 
     h = wave_fraction / r(x), r = sqrt(m max(|V - e_lo|, |V - e_hi|) / C), and
     near every feature of scale s at p: h <= feature_fraction * s + growth |x - p|
     (for an attractive point interaction s = its decay length 1/g, at half the
     wave fraction).  :func:`base_grid` then limits |dh/dx| to ``growth``.
+    Farther than ``deep_reach`` from the potential's support the deepest
+    states have decayed, and only |V - e_hi| sets r there (a weakly bound state
+    then costs a number of far nodes independent of how weakly it is bound).
     """
     c = potential.hbar2_2me
     feats = potential.feature_scales()
@@ -131,13 +134,18 @@ def spacing_function(potential, e_lo: float, e_hi: float, gs: GridSettings):
     # anywhere they live), so the wave number requirement is capped there
     r2_cap = 25.0 * potential.mass * abs(e_hi - e_lo) / c if math.isfinite(e_hi - e_lo) and e_hi != e_lo else np.inf
     m_max = max(float(np.max(potential.mass_at(np.array(potential.support())))), potential.mass)
+    lo_s, hi_s = potential.support()
 
     def spacing(x):
         x = np.asarray(x, dtype=float)
         with np.errstate(invalid="ignore", over="ignore"):
             v = potential.value(x)
             m = potential.mass_at(x)
-            r2 = m * np.maximum(np.abs(v - e_lo), np.abs(v - e_hi)) / c
+            deep = np.abs(v - e_lo)
+            if deep_reach is not None:
+                far = np.maximum(lo_s - x, x - hi_s) > deep_reach
+                deep = np.where(far, 0.0, deep)
+            r2 = m * np.maximum(deep, np.abs(v - e_hi)) / c
         r2 = np.minimum(np.where(np.isfinite(r2), r2, np.inf), r2_cap * m_max / potential.mass)
         h = gs.wave_fraction / np.sqrt(r2 + 1e-300)
         for p, s in feats:

@@ -65,7 +65,7 @@ def observables(setup, op, states, energy, err, conv, center, box, level_e, leve
     inside = np.zeros((n, len(regions)))
     for j, (_, rlo, rhi) in enumerate(regions):
         overlap = np.clip(np.minimum(hi_cell, rhi) - np.maximum(lo_cell, rlo), 0.0, None)
-        inside[:, j] = psi**2 @ overlap
+        inside[:, j] = np.sum(psi**2 * overlap, axis=1)
     v_nodes = pot.value(x_all)
     v_nodes[1:-1] = op.v
     m_nodes = pot.mass_at(x_all)

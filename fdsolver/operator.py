@@ -65,7 +65,7 @@ def _half_cell_integrals(potential: Potential, nodes: np.ndarray) -> tuple[np.nd
     for centre in (0.5 * (left + mid), 0.5 * (mid + right)):
         pts = centre[:, None] + quarter[:, None] * _GL_X[None, :]
         vals = potential.value(pts.ravel()).reshape(pts.shape)
-        out.append(quarter * (vals @ _GL_W))
+        out.append(quarter * (vals[:, 0] * _GL_W[0] + vals[:, 1] * _GL_W[1] + vals[:, 2] * _GL_W[2]))
     return out[0], out[1]
 
 

@@ -97,10 +97,20 @@ class _Setup:
     e_hi: float
     e_lo: float | None
     max_nodes: int
+    budget: float
+
+
+def _deep_reach(setup: _Setup, e_lo: float) -> float | None:
+    """Distance from the support beyond which states near e_lo have decayed by the box budget."""
+    if not math.isfinite(setup.threshold) or e_lo >= setup.threshold:
+        return None
+    pot = setup.potential
+    kappa = math.sqrt(min(pot.asymptotic_mass(-1), pot.asymptotic_mass(1)) * (setup.threshold - e_lo) / pot.hbar2_2me)
+    return setup.budget / kappa
 
 
 def _grid(setup: _Setup, box, e_lo, e_hi, gs: GridSettings, center):
-    spacing = spacing_function(setup.potential, e_lo, e_hi, gs)
+    spacing = spacing_function(setup.potential, e_lo, e_hi, gs, _deep_reach(setup, e_lo))
     nodes = base_grid(spacing, setup.potential.features(), box[0], box[1], gs, center)
     if nodes.size > setup.max_nodes:
         raise BudgetError(
@@ -137,10 +147,10 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
         e_lo = settings.energy_window[0]
         e_hi = min(e_hi, settings.energy_window[1])
     max_nodes = int(settings.memory_mb * 2**20 / (BYTES_PER_NODE + BYTES_PER_NODE_STATE * settings.max_states))
-    setup = _Setup(potential, domain, settings, threshold, e_hi, e_lo, max_nodes)
+    budget = 0.5 * math.log(100.0 / tol) + 1.0
+    setup = _Setup(potential, domain, settings, threshold, e_hi, e_lo, max_nodes, budget)
     messages: list[str] = []
     hard = domain.boundary == "hard"
-    budget = 0.5 * math.log(100.0 / tol) + 1.0
     scale = length_scale(potential)
     lo_s, hi_s = potential.support()
     coarse = replace(settings.grid, wave_fraction=2.0 * settings.grid.wave_fraction)
@@ -188,67 +198,55 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
                 f"{box[1] - box[0]:.3g} {potential.units.length} were not resolved"
             )
 
-    # ---- final spacing from the actual energy range
-    if prov.energy.size:
-        e0, etop = float(prov.energy[0]), float(prov.energy[-1])
-        e_lo_grid = e0 - 0.05 * max(abs(e0), etop - e0)
-        e_hi_grid = threshold if math.isfinite(threshold) else float(prov.energy[-1])
-    base = _grid(setup, box, e_lo_grid, e_hi_grid, settings.grid, center)
+    # ---- levels on the final grid; grow the box if the converged shallowest state asks for more
+    for _round in range(8):
+        if prov.energy.size:
+            e0, etop = float(prov.energy[0]), float(prov.energy[-1])
+            e_lo_grid = e0 - 0.05 * max(abs(e0), etop - e0)
+            e_hi_grid = threshold if math.isfinite(threshold) else etop
+        base = _grid(setup, box, e_lo_grid, e_hi_grid, settings.grid, center)
+        run = _levels(setup, base, vmin, messages)
+        if hard:
+            break
+        if math.isfinite(threshold) and settings.energy_window is None:
+            expected = counting.bound_state_count(run.op, potential, threshold)
+            if expected > run.states.count_below and (box[1] - box[0]) < 1e12 * scale:
+                # the fine grid binds a state the box cannot hold: grow the box fourfold
+                mid, half = 0.5 * (box[0] + box[1]), 2.0 * (box[1] - box[0])
+                box = (mid - half, mid + half)
+                center = _center_for(setup, box)
+                prov = GridStates(run.energy, run.states.psi, run.states.count_below)
+                continue
+        if run.energy.size == 0:
+            break
+        need = open_box(potential, domain, min(float(run.energy[-1]), threshold), budget, box)
+        if need[0] >= box[0] - 1e-9 * scale and need[1] <= box[1] + 1e-9 * scale:
+            break
+        box = need
+        center = _center_for(setup, box)
+        prov = GridStates(run.energy, run.states.psi, run.states.count_below)
+    energy, err, states, op = run.energy, run.error, run.states, run.op
 
-    table = Romberg()
-    level_e: list[np.ndarray] = []
-    level_n: list[int] = []
-    op = states = None
-    n_expected = None
-    conv = np.zeros(0, dtype=bool)
-    for level in range(settings.max_levels):
-        nodes = refine(base, level)
-        if nodes.size > max_nodes:
-            messages.append(
-                f"refinement stopped at {level_n[-1] if level_n else 0} nodes: the next level "
-                f"({nodes.size} nodes) exceeds the memory budget (memory_mb = {settings.memory_mb:g})"
-            )
-            break
-        op_k, st_k = _solve_nodes(setup, nodes)
-        if level == 0:
-            base_energy = st_k.energy
-        if n_expected is not None and st_k.energy.size != n_expected:
-            table = Romberg()
-            level_e = []
-            level_n = []
-        n_expected = st_k.energy.size
-        op, states = op_k, st_k
-        table.add(states.energy)
-        level_e.append(states.energy)
-        level_n.append(nodes.size)
-        if states.energy.size == 0 and level >= 1:
-            break
-        err = table.error() + _roundoff(op, states.energy)
-        scale_e = _energy_scale(states.energy, vmin)
-        conv = err <= tol * scale_e
-        if table.levels >= settings.min_levels and np.all(conv):
-            break
-    energy = table.value() if states.energy.size else np.empty(0)
-    err = (table.error() + _roundoff(op, states.energy)) if states.energy.size else np.empty(0)
-
-    # ---- box check: push open ends out and compare at the coarsest level
+    # ---- box check at the finest level: same nodes inside, extra nodes beyond the open ends
     box_err = np.zeros_like(energy)
     if not hard and energy.size:
-        e_top = float(energy[-1])
-        big = open_box(potential, domain, min(e_top, threshold), budget * 1.5, box)
+        big = open_box(potential, domain, min(float(energy[-1]), threshold), budget * 1.5, box)
         if big != box:
-            # same nodes inside the old box, new nodes only beyond it: the shift is the truncation alone
-            spacing = spacing_function(potential, e_lo_grid, e_hi_grid, settings.grid)
-            parts = [base]
+            spacing = spacing_function(potential, e_lo_grid, e_hi_grid, settings.grid, _deep_reach(setup, e_lo_grid))
+            parts = [refine(base, run.level)]
             if big[0] < box[0]:
-                parts.insert(0, base_grid(spacing, [], big[0], box[0], settings.grid)[:-1])
+                parts.insert(0, refine(base_grid(spacing, [], big[0], box[0], settings.grid), run.level)[:-1])
             if big[1] > box[1]:
-                parts.append(base_grid(spacing, [], box[1], big[1], settings.grid)[1:])
-            _, sb = _solve_nodes(setup, np.concatenate(parts))
-            if sb.energy.size >= energy.size and base_energy.size >= energy.size:
-                box_err = np.abs(sb.energy[: energy.size] - base_energy[: energy.size])
+                parts.append(refine(base_grid(spacing, [], box[1], big[1], settings.grid), run.level)[1:])
+            wide = np.concatenate(parts)
+            if wide.size <= max_nodes:
+                _, sb = _solve_nodes(setup, wide)
+                if sb.energy.size >= energy.size:
+                    box_err = np.abs(sb.energy[: energy.size] - states.energy[: energy.size])
+                else:
+                    messages.append("a larger box finds fewer states; the box check is inconclusive")
             else:
-                messages.append("a larger box finds fewer states; the box check is inconclusive")
+                messages.append("the box check was skipped: the enlarged grid exceeds the memory budget")
         err = err + box_err
     scale_e = _energy_scale(energy, vmin)
     conv = err <= tol * scale_e if energy.size else np.zeros(0, dtype=bool)
@@ -262,7 +260,55 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
             f"{states.count_below - energy.size} more bound state(s) exist above the {energy.size} returned "
             "(raise [solve] max_states)"
         )
-    return observables(setup, op, states, energy, err, conv, center, box, level_e, level_n, box_err, messages)
+    return observables(setup, op, states, energy, err, conv, center, box, run.level_e, run.level_n, box_err, messages)
+
+
+@dataclass
+class _LevelRun:
+    energy: np.ndarray
+    error: np.ndarray
+    states: GridStates
+    op: Operator
+    level: int
+    level_e: list
+    level_n: list
+
+
+def _levels(setup: _Setup, base: np.ndarray, vmin: float, messages: list) -> _LevelRun:
+    """Solve nested refinements of ``base`` until every state's error estimate is below tolerance."""
+    settings = setup.settings
+    table = Romberg()
+    level_e: list[np.ndarray] = []
+    level_n: list[int] = []
+    op = states = None
+    n_expected = None
+    last = 0
+    for level in range(settings.max_levels):
+        nodes = refine(base, level)
+        if nodes.size > setup.max_nodes:
+            messages.append(
+                f"refinement stopped at {level_n[-1] if level_n else 0} nodes: the next level "
+                f"({nodes.size} nodes) exceeds the memory budget (memory_mb = {settings.memory_mb:g})"
+            )
+            break
+        op_k, st_k = _solve_nodes(setup, nodes)
+        if n_expected is not None and st_k.energy.size != n_expected:
+            table, level_e, level_n = Romberg(), [], []  # a state appeared or vanished: restart the table
+        n_expected = st_k.energy.size
+        op, states, last = op_k, st_k, level
+        table.add(states.energy)
+        level_e.append(states.energy)
+        level_n.append(nodes.size)
+        if states.energy.size == 0 and level >= 1:
+            break
+        err = table.error() + _roundoff(op, states.energy)
+        if table.levels >= settings.min_levels and np.all(err <= settings.tolerance * _energy_scale(states.energy, vmin)):
+            break
+    if states.energy.size:
+        energy, err = table.value(), table.error() + _roundoff(op, states.energy)
+    else:
+        energy, err = np.empty(0), np.empty(0)
+    return _LevelRun(energy, err, states, op, last, level_e, level_n)
 
 
 def _energy_scale(energy: np.ndarray, vmin: float) -> np.ndarray:
