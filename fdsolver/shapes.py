@@ -176,7 +176,8 @@ class Sech2(_Localised):
 
     def value(self, x):
         x = np.asarray(x, dtype=float)
-        return self.amplitude / np.cosh((x - self.center) / self.width) ** 2
+        with np.errstate(over="ignore"):
+            return self.amplitude / np.cosh((x - self.center) / self.width) ** 2
 
     def features(self):
         return [self.center]

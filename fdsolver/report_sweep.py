@@ -1,0 +1,146 @@
+"""Plain-text summaries of sweep and threshold archives and searches, units in every header."""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+
+TABLE_ROWS = 30
+
+
+def _u(attrs) -> str:
+    u = attrs.get("units_name") or attrs.get("units", "")
+    return "" if u == "1" else u
+
+
+def _with_units(value: float, units: str, fmt: str = ".10g") -> str:
+    return f"{value:{fmt}} {units}".rstrip()
+
+
+def describe(t, units: str = "") -> str:
+    """One line for one threshold."""
+    units = units or t.units
+    way = "increases" if t.direction > 0 else "decreases"
+    nodes = f"{t.state} node" + ("" if t.state == 1 else "s")
+    return (f"state {t.state} ({nodes}) appears at {t.param} = {_with_units(t.value, units, '.12g')} "
+            f"(+- {t.uncertainty:.2g} {units}".rstrip() + f"); it binds as {t.param} {way}")
+
+
+def format_search(search, chosen, all_requested: bool = False, state=None) -> str:
+    """The answer of ``fdsolver threshold``."""
+    u = search.units
+    rng = f"{search.param} from {_with_units(search.lo, u, 'g')} to {_with_units(search.hi, u, 'g')}"
+    lines = []
+    if not chosen:
+        who = f"state {state} neither appears nor disappears" if state is not None else "no bound state appears or disappears"
+        lines.append(f"{who} for {rng}: {search.count_lo} bound state(s) at {search.param} = {_with_units(search.lo, u, 'g')}, "
+                     f"{search.count_hi} at {_with_units(search.hi, u, 'g')} (scanned {search.scan_values.size} points)")
+    else:
+        lines.extend(describe(t, u) for t in chosen)
+        rest = len(search.thresholds) - len(chosen)
+        if rest > 0 and not all_requested:
+            lines.append(f"{rest} more threshold(s) for {rng}; --all lists them")
+        lines.append(f"bound states: {search.count_lo} at {search.param} = {_with_units(search.lo, u, 'g')}, "
+                     f"{search.count_hi} at {_with_units(search.hi, u, 'g')} (zero-energy phase count, no box)")
+    if not u:
+        lines.append(f"note: the units of {search.param} are not declared; add [sweep] units = {{{search.param} = \"...\"}} to the case")
+    lines.extend(f"note: {n}" for n in search.notes)
+    return "\n".join(lines)
+
+
+def _axis_text(ds, name) -> str:
+    v = ds[name].values
+    u = _u(ds[name].attrs)
+    return f"{name} = {v[0]:.6g} .. {v[-1]:.6g} {u}".rstrip() + f" ({v.size} values, {ds[name].attrs.get('spacing', '')} spacing)"
+
+
+def _thresholds(ds) -> list[str]:
+    if "threshold_value" not in ds:
+        return []
+    names = json.loads(ds.attrs.get("swept_params", "[]"))
+    name = names[0] if names else "param"
+    u = _u(ds.threshold_value.attrs)
+    out = []
+    for v, e, s, d in zip(ds.threshold_value.values, ds.threshold_uncertainty.values, ds.threshold_state.values, ds.threshold_direction.values):
+        way = "increases" if d > 0 else "decreases"
+        out.append(f"  state {int(s)} appears at {name} = {v:.12g} {u} (+- {e:.2g} {u}); binds as {name} {way}".replace("  ;", ";"))
+    return out
+
+
+def format_sweep(ds) -> str:
+    """The summary of a sweep (or threshold) archive."""
+    if ds.attrs.get("fdsolver_kind") == "threshold":
+        return _format_threshold_archive(ds)
+    a = ds.attrs
+    names = json.loads(a.get("swept_params", "[]"))
+    eu = _u(ds.energy.attrs)
+    lines = [a.get("title", ""), f"sweep of {int(a.get('points', 0))} points; energies in {eu}; states labelled by node count"]
+    lines.extend("  " + _axis_text(ds, n) for n in names)
+    fixed = json.loads(a.get("fixed_params", "{}"))
+    if fixed:
+        lines.append("fixed: " + ", ".join(f"{k} = {v}" for k, v in fixed.items()))
+    bound = ds.bound_states.values
+    if bound.size and np.all(bound >= 0):
+        lines.append(f"bound states on the whole line: {int(bound.min())} to {int(bound.max())}")
+    for s in ds.state.values:
+        e = ds.energy.sel(state=s).values
+        ok = np.isfinite(e)
+        if ok.any():
+            lines.append(f"state {int(s)}: exists at {int(ok.sum())} of {e.size} points, energy {np.nanmin(e):.8g} to {np.nanmax(e):.8g} {eu}")
+        else:
+            lines.append(f"state {int(s)}: exists at no point")
+    if len(names) == 1 and ds.sizes[names[0]] <= TABLE_ROWS:
+        lines.extend(_table(ds, names[0], eu))
+    if "tunnel_splitting" in ds and np.isfinite(ds.tunnel_splitting.values).any():
+        ts = ds.tunnel_splitting.values
+        lines.append(f"tunnel splitting E1 - E0: {np.nanmin(ts):.6g} to {np.nanmax(ts):.6g} {eu} where both states exist")
+    th = _thresholds(ds)
+    if th:
+        lines.append("binding thresholds (zero-energy phase, no box):")
+        lines.extend(th)
+    nc = int(np.count_nonzero(ds.converged.values == 0))
+    if nc:
+        lines.append(f"note: {nc} state value(s) not converged to the tolerance (converged = 0)")
+    if int(a.get("failed_points", 0)):
+        lines.append(f"note: {int(a['failed_points'])} point(s) could not be solved (solved = 0)")
+    notes = a.get("notes", "")
+    if notes:
+        lines.append(f"notes ({int(a.get('notes_count', 0))}):")
+        lines.extend("  " + m for m in notes.splitlines())
+    return "\n".join(lines)
+
+
+def _table(ds, name, eu) -> list[str]:
+    pu = _u(ds[name].attrs)
+    states = [int(s) for s in ds.state.values]
+    head = f"{name + (' [' + pu + ']' if pu else ''):>14}" + "".join(f"  {'E' + str(s) + ' [' + eu + ']':>18}" for s in states)
+    has_split = "tunnel_splitting" in ds
+    head += f"  {'E1-E0 [' + eu + ']':>14}" if has_split else ""
+    head += f"  {'bound':>5}"
+    rows = [head]
+    for i, v in enumerate(ds[name].values):
+        row = f"{v:14.6g}" + "".join(f"  {ds.energy.values[i, k]:18.10g}" for k in range(len(states)))
+        if has_split:
+            row += f"  {ds.tunnel_splitting.values[i]:14.6g}"
+        row += f"  {int(ds.bound_states.values[i]):5d}"
+        rows.append(row.replace("nan", "  -"))
+    return rows
+
+
+def _format_threshold_archive(ds) -> str:
+    a = ds.attrs
+    name = json.loads(a.get("swept_params", '["param"]'))[0]
+    u = _u(ds.threshold_value.attrs)
+    lines = [a.get("title", ""), f"binding thresholds of {name} (zero-energy phase, no box)"]
+    lo, hi = ds.scan.values[0], ds.scan.values[-1]
+    lines.append(f"interval {name} = {lo:g} .. {hi:g} {u}; bound states {a.get('bound_states_at_lo')} at {lo:g}, {a.get('bound_states_at_hi')} at {hi:g}")
+    if ds.sizes.get("threshold", 0) == 0:
+        lines.append("no bound state appears or disappears in the interval")
+    for v, e, s, d in zip(ds.threshold_value.values, ds.threshold_uncertainty.values, ds.threshold_state.values, ds.threshold_direction.values):
+        way = "increases" if d > 0 else "decreases"
+        lines.append(f"  state {int(s)} appears at {name} = {v:.12g} {u} (+- {e:.2g} {u}); binds as {name} {way}")
+    for n in a.get("notes", "").splitlines():
+        if n:
+            lines.append(f"note: {n}")
+    return "\n".join(lines)
