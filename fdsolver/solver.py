@@ -122,9 +122,9 @@ def _grid(setup: _Setup, box, e_lo, e_hi, gs: GridSettings, center):
     return nodes
 
 
-def _solve_nodes(setup: _Setup, nodes) -> tuple[Operator, GridStates]:
+def _solve_nodes(setup: _Setup, nodes, guess=None) -> tuple[Operator, GridStates]:
     op = assemble(setup.potential, nodes)
-    states = solve_window(op, setup.e_hi, setup.settings.max_states, setup.e_lo)
+    states = solve_window(op, setup.e_hi, setup.settings.max_states, setup.e_lo, guess)
     return op, states
 
 
@@ -170,16 +170,6 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
     if not hard:
         expected = None
         for _attempt in range(40):
-            if prov.energy.size:
-                e_top = float(prov.energy[-1])
-            else:
-                e_top = threshold - (potential.hbar2_2me / potential.mass) / (box[1] - box[0]) ** 2
-            new_box = open_box(potential, domain, min(e_top, threshold), budget, box)
-            grown = new_box[0] < box[0] - 1e-12 * scale or new_box[1] > box[1] + 1e-12 * scale
-            box = new_box
-            center = _center_for(setup, box)
-            nodes = _grid(setup, box, e_lo_grid, e_hi_grid, coarse, center)
-            op, prov = _solve_nodes(setup, nodes)
             if math.isfinite(threshold):
                 expected = counting.bound_state_count(op, potential, threshold)
                 if prov.count_below < expected and (box[1] - box[0]) < 1e12 * scale:
@@ -187,11 +177,18 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
                     mid, half = 0.5 * (box[0] + box[1]), 2.0 * (box[1] - box[0])
                     box = (mid - half, mid + half)
                     center = _center_for(setup, box)
-                    nodes = _grid(setup, box, e_lo_grid, e_hi_grid, coarse, center)
-                    op, prov = _solve_nodes(setup, nodes)
+                    op, prov = _solve_nodes(setup, _grid(setup, box, e_lo_grid, e_hi_grid, coarse, center))
                     continue
-            if not grown:
+            if prov.energy.size:
+                e_top = float(prov.energy[-1])
+            else:
+                e_top = threshold - (potential.hbar2_2me / potential.mass) / (box[1] - box[0]) ** 2
+            new_box = open_box(potential, domain, min(e_top, threshold), budget, box)
+            if not (new_box[0] < box[0] - 1e-12 * scale or new_box[1] > box[1] + 1e-12 * scale):
                 break
+            box = new_box
+            center = _center_for(setup, box)
+            op, prov = _solve_nodes(setup, _grid(setup, box, e_lo_grid, e_hi_grid, coarse, center))
         if expected is not None and prov.count_below < expected:
             messages.append(
                 f"{expected - prov.count_below} state(s) bound too weakly to fit in a box of "
@@ -240,7 +237,7 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
                 parts.append(refine(base_grid(spacing, [], box[1], big[1], settings.grid), run.level)[1:])
             wide = np.concatenate(parts)
             if wide.size <= max_nodes:
-                _, sb = _solve_nodes(setup, wide)
+                _, sb = _solve_nodes(setup, wide, states.energy)
                 if sb.energy.size >= energy.size:
                     box_err = np.abs(sb.energy[: energy.size] - states.energy[: energy.size])
                 else:
@@ -291,7 +288,12 @@ def _levels(setup: _Setup, base: np.ndarray, vmin: float, messages: list) -> _Le
                 f"({nodes.size} nodes) exceeds the memory budget (memory_mb = {settings.memory_mb:g})"
             )
             break
-        op_k, st_k = _solve_nodes(setup, nodes)
+        guess = None
+        if len(level_e) >= 2:  # E_{k+1} ~ E_k - (E_{k-1} - E_k)/4 for an h^2 error
+            guess = level_e[-1] - (level_e[-2] - level_e[-1]) / 4.0
+        elif level_e:
+            guess = level_e[-1]
+        op_k, st_k = _solve_nodes(setup, nodes, guess)
         if n_expected is not None and st_k.energy.size != n_expected:
             table, level_e, level_n = Romberg(), [], []  # a state appeared or vanished: restart the table
         n_expected = st_k.energy.size
