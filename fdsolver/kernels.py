@@ -30,22 +30,18 @@ import numpy as np
 
 
 def _jit():
+    """numba.njit with an on-disk cache wherever one is writable (never raising at import)."""
+    here = os.path.join(os.path.dirname(__file__), "__pycache__")
+    writable = os.access(here if os.path.isdir(here) else os.path.dirname(__file__), os.W_OK)
+    home_cache = os.path.join(os.path.expanduser("~"), ".cache")
+    if not writable and not os.environ.get("NUMBA_CACHE_DIR") and not os.access(
+        home_cache if os.path.isdir(home_cache) else os.path.expanduser("~"), os.W_OK
+    ):
+        # read-only install and no writable home: cache in the temp folder (must be set before numba loads)
+        os.environ["NUMBA_CACHE_DIR"] = os.path.join(tempfile.gettempdir(), "fdsolver-numba-cache")
     import numba
 
-    def cache_ok() -> bool:
-        here = os.path.join(os.path.dirname(__file__), "__pycache__")
-        for folder in (os.environ.get("NUMBA_CACHE_DIR"), here):
-            if folder and os.path.isdir(folder) and os.access(folder, os.W_OK):
-                return True
-        try:
-            os.makedirs(here, exist_ok=True)
-            return os.access(here, os.W_OK)
-        except OSError:
-            pass
-        os.environ.setdefault("NUMBA_CACHE_DIR", os.path.join(tempfile.gettempdir(), "fdsolver-numba"))
-        return True
-
-    return numba.njit(cache=cache_ok(), nogil=True)
+    return numba.njit(cache=True, nogil=True)
 
 
 _njit = _jit()
