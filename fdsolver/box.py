@@ -65,6 +65,13 @@ def open_box(pot: Potential, dom, e_top: float, budget: float, minimum) -> tuple
     return (lo, hi)
 
 
+def _attracts(shape) -> bool:
+    """True for wells (negative amplitude) and attractive point interactions."""
+    if getattr(shape, "alpha", None) is not None:
+        return shape.alpha > 0
+    return getattr(shape, "amplitude", 0.0) < 0
+
+
 def provisional_box(potential: Potential, domain, threshold: float, budget: float) -> tuple[float, float]:
     """A first box before any state is known: walls for hard ends, 10 length scales (or a WKB end) otherwise."""
     if domain.boundary == "hard":
@@ -72,6 +79,13 @@ def provisional_box(potential: Potential, domain, threshold: float, budget: floa
     scale = length_scale(potential)
     lo_s, hi_s = potential.support()
     pad = 10.0 * scale
+    # a narrow well of integrated strength A binds with kappa ~ m A / hbar^2: its tail needs budget / kappa
+    attract = sum(
+        s.strength() for s in potential.shapes if math.isfinite(s.strength()) and _attracts(s)
+    )
+    if attract > 0 and math.isfinite(threshold):
+        kappa = potential.mass * attract / (2.0 * potential.hbar2_2me)
+        pad = max(pad, budget / kappa)
     box = [lo_s - pad, hi_s + pad]
     for i, side in enumerate((-1, 1)):
         if not math.isfinite(potential.asymptote(side)):

@@ -60,16 +60,20 @@ def _segment_nodes(a: float, b: float, xs: np.ndarray, hs: np.ndarray, min_cells
     return nodes
 
 
-def base_grid(spacing, breakpoints, lo: float, hi: float, settings: GridSettings, center: float | None = None):
+def base_grid(
+    spacing, breakpoints, lo: float, hi: float, settings: GridSettings, center: float | None = None, max_nodes: int | None = None
+):
     """Nodes of the base grid on [lo, hi] (both ends included), strictly increasing.
 
     ``spacing(x)`` returns the raw target spacing (length unit) at sample
     positions; ``breakpoints`` are positions that must be nodes.  With
     ``center`` the grid is mirror-symmetric about it (``lo`` and ``hi`` must be
-    symmetric too).
+    symmetric too).  With ``max_nodes`` the node count is checked before any
+    node array is allocated (:class:`~fdsolver.errors.BudgetError`).
     """
     if center is not None:
-        right = base_grid(spacing, [b for b in breakpoints if b > center], center, hi, settings, None)
+        half = None if max_nodes is None else max_nodes // 2 + 1
+        right = base_grid(spacing, [b for b in breakpoints if b > center], center, hi, settings, None, half)
         left = 2.0 * center - right[:0:-1]
         return np.concatenate([left, right])
     bps = np.asarray(sorted({float(b) for b in breakpoints if lo < b < hi}), dtype=float)
@@ -95,6 +99,16 @@ def base_grid(spacing, breakpoints, lo: float, hi: float, settings: GridSettings
         xs = np.unique(np.concatenate([xs, mids]))
     else:
         hs = lipschitz_limit(xs, np.minimum(spacing(xs), width / 4.0), settings.growth)
+    if max_nodes is not None:
+        total = float(np.sum(0.5 * (1.0 / hs[1:] + 1.0 / hs[:-1]) * np.diff(xs))) + bounds.size * settings.min_cells_per_segment
+        if total > max_nodes:
+            from .errors import BudgetError
+
+            raise BudgetError(
+                f"the grid would need about {total:.3g} nodes, more than the memory budget allows ({max_nodes}); "
+                "raise [solve] memory_mb or loosen the tolerance",
+                key="solve.memory_mb",
+            )
     nodes = [np.array([lo])]
     for a, b in zip(bounds[:-1], bounds[1:]):
         i0, i1 = np.searchsorted(xs, [a, b])

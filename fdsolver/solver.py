@@ -31,8 +31,8 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from . import counting
-from .eigen import GridStates, solve_window
+from . import counting, kernels
+from .eigen import GridStates, count_nodes, solve_window
 from .errors import BudgetError, CaseError
 from .box import length_scale, open_box, provisional_box
 from .grid import GridSettings, base_grid, refine, spacing_function
@@ -111,7 +111,7 @@ def _deep_reach(setup: _Setup, e_lo: float) -> float | None:
 
 def _grid(setup: _Setup, box, e_lo, e_hi, gs: GridSettings, center):
     spacing = spacing_function(setup.potential, e_lo, e_hi, gs, _deep_reach(setup, e_lo))
-    nodes = base_grid(spacing, setup.potential.features(), box[0], box[1], gs, center)
+    nodes = base_grid(spacing, setup.potential.features(), box[0], box[1], gs, center, setup.max_nodes)
     if nodes.size > setup.max_nodes:
         raise BudgetError(
             f"the grid would need {nodes.size} nodes, more than the memory budget allows "
@@ -170,7 +170,7 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
     if not hard:
         expected = None
         for _attempt in range(40):
-            if math.isfinite(threshold):
+            if math.isfinite(threshold) and setup.e_hi == threshold and setup.e_lo is None:
                 expected = counting.bound_state_count(op, potential, threshold)
                 if prov.count_below < expected and (box[1] - box[0]) < 1e12 * scale:
                     # a very shallow state: its decay length exceeds the box; grow the box fourfold
@@ -205,7 +205,7 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
         run = _levels(setup, base, vmin, messages)
         if hard:
             break
-        if math.isfinite(threshold) and settings.energy_window is None:
+        if math.isfinite(threshold) and setup.e_hi == threshold and setup.e_lo is None:
             expected = counting.bound_state_count(run.op, potential, threshold)
             if expected > run.states.count_below and (box[1] - box[0]) < 1e12 * scale:
                 # the fine grid binds a state the box cannot hold: grow the box fourfold
@@ -247,6 +247,16 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
         err = err + box_err
     scale_e = _energy_scale(energy, vmin)
     conv = err <= tol * scale_e if energy.size else np.zeros(0, dtype=bool)
+    # oscillation theorem: the state numbered i0 + k has i0 + k nodes; anything else is under-resolved
+    i0 = kernels.sturm_count(op.d, op.e, setup.e_lo) if setup.e_lo is not None and energy.size else 0
+    for k in range(energy.size):
+        n_nodes = count_nodes(states.psi[k])
+        if n_nodes != i0 + k:
+            conv[k] = False
+            messages.append(
+                f"state {k} has {n_nodes} nodes where the oscillation theorem requires {i0 + k}: "
+                "the grid does not resolve it (a feature far narrower than the decay length?)"
+            )
     for k in np.flatnonzero(~conv):
         messages.append(
             f"state {k} is not converged: estimated error {err[k]:.2e} is above the tolerance "
@@ -281,21 +291,34 @@ def _levels(setup: _Setup, base: np.ndarray, vmin: float, messages: list) -> _Le
     n_expected = None
     last = 0
     for level in range(settings.max_levels):
-        nodes = refine(base, level)
-        if nodes.size > setup.max_nodes:
+        size = (base.size - 1) * 2**level + 1
+        if size > setup.max_nodes:
             messages.append(
                 f"refinement stopped at {level_n[-1] if level_n else 0} nodes: the next level "
-                f"({nodes.size} nodes) exceeds the memory budget (memory_mb = {settings.memory_mb:g})"
+                f"({size} nodes) exceeds the memory budget (memory_mb = {settings.memory_mb:g})"
             )
             break
+        if states is not None and states.energy.size and _roundoff_limited(setup, op, states):
+            messages.append(
+                f"refinement stopped at {level_n[-1]} nodes: on the next level the matrix norm "
+                f"(~1/h_min^2) would make round-off comparable to the level spacing"
+            )
+            break
+        nodes = refine(base, level)
         guess = None
         if len(level_e) >= 2:  # E_{k+1} ~ E_k - (E_{k-1} - E_k)/4 for an h^2 error
             guess = level_e[-1] - (level_e[-2] - level_e[-1]) / 4.0
         elif level_e:
             guess = level_e[-1]
         op_k, st_k = _solve_nodes(setup, nodes, guess)
+        if n_expected is not None and st_k.energy.size < n_expected:
+            # a finer grid never unbinds a resolved state: this is round-off, keep the coarser levels
+            messages.append(
+                f"refinement stopped at {level_n[-1]} nodes: the next level lost a state to round-off"
+            )
+            break
         if n_expected is not None and st_k.energy.size != n_expected:
-            table, level_e, level_n = Romberg(), [], []  # a state appeared or vanished: restart the table
+            table, level_e, level_n = Romberg(), [], []  # a state appeared: restart the table
         n_expected = st_k.energy.size
         op, states, last = op_k, st_k, level
         table.add(states.energy)
@@ -303,23 +326,47 @@ def _levels(setup: _Setup, base: np.ndarray, vmin: float, messages: list) -> _Le
         level_n.append(nodes.size)
         if states.energy.size == 0 and level >= 1:
             break
-        err = table.error() + _roundoff(op, states.energy)
+        err = table.error() + _roundoff(op, states)
         if table.levels >= settings.min_levels and np.all(err <= settings.tolerance * _energy_scale(states.energy, vmin)):
             break
     if states.energy.size:
-        energy, err = table.value(), table.error() + _roundoff(op, states.energy)
+        energy, err = table.value(), table.error() + _roundoff(op, states)
     else:
         energy, err = np.empty(0), np.empty(0)
     return _LevelRun(energy, err, states, op, last, level_e, level_n)
+
+
+def _state_roundoff(op: Operator, psi: np.ndarray) -> np.ndarray:
+    """eps * sum_i |T_ii| u_i^2 per state: the round-off scale of its Sturm counts and eigenvector.
+
+    The backward error of a Sturm count is a relative perturbation of each
+    diagonal entry; weighted by the state it moves the eigenvalue by about this
+    much (it grows as 1/h^2 where the state lives, not with the largest entry).
+    """
+    return EPS * np.sum(np.abs(op.d)[None, :] * op.w[None, :] * psi**2, axis=1)
+
+
+def _roundoff_limited(setup: _Setup, op: Operator, states: GridStates) -> bool:
+    """True if halving every cell (round-off x4) would bring it near the gaps between states or to the threshold."""
+    energy = states.energy
+    r_next = 4.0 * float(np.max(_state_roundoff(op, states.psi)))
+    gaps = list(np.diff(energy))
+    if math.isfinite(setup.e_hi):
+        gaps.append(setup.e_hi - float(energy[-1]))
+    if setup.e_lo is not None:
+        gaps.append(float(energy[0]) - setup.e_lo)
+    if not gaps:
+        return False
+    return r_next > 0.05 * min(gaps)
 
 
 def _energy_scale(energy: np.ndarray, vmin: float) -> np.ndarray:
     return np.maximum(np.abs(energy), 1e-6 * max(abs(vmin), 1e-300))
 
 
-def _roundoff(op: Operator, energy: np.ndarray) -> np.ndarray:
-    """A few ulps of the energy scale: the accuracy of the flux-form Rayleigh quotient."""
+def _roundoff(op: Operator, states: GridStates) -> np.ndarray:
+    """Round-off floor of each energy: a few ulps of the energy scale (the flux-form Rayleigh quotient)."""
     vscale = float(np.max(np.abs(op.v))) if op.v.size else 0.0
-    return 64.0 * EPS * (np.abs(energy) + vscale)
+    return 64.0 * EPS * (np.abs(states.energy) + vscale)
 
 
