@@ -127,7 +127,7 @@ def plan_map(case, options, fixed: dict) -> MapSpec:
         if options.widths is None or options.widths[2] != 1:
             raise CaseError("a map without a 'width' axis needs one replacement width: --widths W", key="--widths")
         width = options.widths[0]
-    from .deltacheck import point_terms, from_finite
+    from .deltamodels import from_finite, point_terms
 
     point_terms(case) if replacing else from_finite(case)  # refuse a wrong case before any work
     return MapSpec(case.text, case.path, dict(case.tables), dict(fixed), options.shape, options.tolerance,
@@ -150,19 +150,20 @@ def _base(spec: MapSpec):
 
 def map_point(spec: MapSpec, values: dict) -> dict:
     """Compare the two models at one point of the plane ({axis name: value}); a plain dict of results."""
-    from . import deltacheck as D
+    from . import deltacompare as DC
+    from . import deltamodels as DM
 
     base = _base(spec)
     params = {k: v for k, v in values.items() if not (k == "width" and not spec.from_finite)}
     case = base.with_params(**spec.fixed, **params) if (params or spec.fixed) else base
     if spec.from_finite:
-        model = D.from_finite(case)
+        model = DM.from_finite(case)
     else:
-        model = D.replacement(case, spec.shape, values.get("width", spec.width))
-    if D.overlap_of(model) >= 0:
+        model = DM.replacement(case, spec.shape, values.get("width", spec.width))
+    if DM.overlap_of(model) >= 0:
         return {"overlap": True}
-    lim, pred = D.limit_of(model, case)
-    r = D.compare(case, model, lim, pred)
+    lim, pred = DC.limit_of(model, case)
+    r = DC.compare(case, model, lim, pred)
     return {"overlap": False, "energy": r.energy, "error": r.energy_error, "resolved": r.resolved,
             "limit": r.energy_limit, "predicted": r.predicted, "notes": list(r.notes)}
 
