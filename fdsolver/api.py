@@ -34,7 +34,10 @@ def case_of_run(ds: xr.Dataset) -> Case:
     except (KeyError, ValueError) as exc:
         raise ArchiveError(f"archive does not hold a readable case ({exc})") from None
     path = ds.attrs.get("case_file") or None
-    case = case_from_text(text, path=path, tables=tables)
+    try:
+        case = case_from_text(text, path=path, tables=tables)
+    except CaseError as err:
+        raise ArchiveError(f"the case stored in the archive is not valid: {err}", file=ds.encoding.get("source")) from None
     params = json.loads(ds.attrs.get("params", "{}"))
     changed = {k: v for k, v in params.items() if case.params.get(k) != v}
     return case.with_params(**changed) if changed else case

@@ -34,6 +34,12 @@ from .errors import ArchiveError, CaseError
 
 CONVENTIONS = "CF-1.13"
 KINDS = ("solve", "delta_check", "sweep", "threshold")
+#: variables without which an archive of a kind cannot be shown
+REQUIRED = {
+    "solve": ("x", "energy", "energy_error", "converged", "nodes", "parity", "mean_x", "spread", "psi", "potential", "level_nodes"),
+    "sweep": ("energy", "energy_error"),
+    "delta_check": ("energy_limit",),
+}
 
 
 def stamp(action: str) -> str:
@@ -113,6 +119,9 @@ def write_dataset(ds: xr.Dataset, path) -> Path:
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
     os.close(fd)
     try:
+        for name in ds.data_vars:  # HDF5 checksums: a flipped byte is detected on reading
+            if ds[name].dtype.kind in "fiu" and ds[name].ndim > 0:
+                encoding.setdefault(name, {})["fletcher32"] = True
         ds.to_netcdf(tmp, engine="netcdf4", encoding=encoding)
         umask = os.umask(0)
         os.umask(umask)
@@ -147,6 +156,13 @@ def open_run(path) -> xr.Dataset:
         raise ArchiveError("is a NetCDF file but not an fdsolver archive (no fdsolver_kind attribute)", file=str(path))
     if "case_text" not in ds.attrs:
         raise ArchiveError("archive has no case_text attribute; it was not written by fdsolver", file=str(path))
+    missing = [v for v in REQUIRED.get(kind, ()) if v not in ds.variables]
+    if missing:
+        raise ArchiveError(
+            f"archive of kind '{kind}' lacks the variable(s) {', '.join(missing)}; it is damaged or was not written by fdsolver",
+            file=str(path),
+        )
+    ds.encoding["source"] = str(path)
     return ds
 
 

@@ -68,6 +68,7 @@ class Axis:
     text: str
     spacing: str
     units: str = ""
+    key: str = "--vary"
 
 
 def _number(s: str, text: str, key: str) -> float:
@@ -120,13 +121,13 @@ def parse_axis(text: str, case, key: str = "--vary") -> Axis:
         if log and lo <= 0:
             raise CaseError(f"log spacing needs START > 0 in '{text}'", key=key)
         values = np.geomspace(lo, hi, count) if log else np.linspace(lo, hi, count)
-        return Axis(name, values, text.strip(), "log" if log else "linear", units)
+        return Axis(name, values, text.strip(), "log" if log else "linear", units, key)
     values = np.array([_number(s, text, key) for s in rest.split(",") if s.strip()] or [])
     if values.size == 0:
         raise CaseError(f"'{text}' is an empty list", key=key)
     if np.any(np.diff(values) <= 0):
         raise CaseError(f"the values in '{text}' must increase strictly (no repeats, low to high)", key=key)
-    return Axis(name, values, text.strip(), "list", units)
+    return Axis(name, values, text.strip(), "list", units, key)
 
 
 def parse_axes(texts, case, key: str = "--vary") -> tuple[Axis, ...]:
@@ -139,7 +140,10 @@ def parse_axes(texts, case, key: str = "--vary") -> tuple[Axis, ...]:
             raise CaseError('must be a list of strings like "d=1:5:20"', file=case.path, key=key)
     if not texts:
         raise CaseError(f"nothing to sweep: give --vary NAME=START:STOP:COUNT (params: {', '.join(case.params)})", key="--vary")
-    axes = tuple(parse_axis(t, case, key) for t in texts)
+    try:
+        axes = tuple(parse_axis(t, case, key) for t in texts)
+    except CaseError as err:
+        raise err.located(file=case.path) from None
     names = [a.name for a in axes]
     for n in names:
         if names.count(n) > 1:

@@ -81,6 +81,8 @@ def _suggest(word: str, choices) -> str:
 
 def _check_keys(table: Mapping, allowed, file, where: str) -> None:
     for k in table:
+        if not isinstance(k, str):
+            raise CaseError(f"keys must be strings, got {k!r}", file=file, key=where or None)
         if k not in allowed:
             raise CaseError(
                 f"unknown key '{k}'{_suggest(k, allowed)} (allowed: {', '.join(sorted(allowed))})",
@@ -127,8 +129,34 @@ def _str(table, key, file, where, choices=None, default=None):
 
 
 # ------------------------------------------------------------------ tables
+MAX_INPUT_BYTES = 50 * 2**20
+
+
+def _regular_file(path: Path, file, key, what: str) -> None:
+    """Refuse FIFOs, devices and oversized files before reading (they could block or never end)."""
+    import stat
+
+    try:
+        st = os.stat(path)
+    except FileNotFoundError:
+        return  # reported by the reader with its own message
+    except OSError as exc:
+        raise CaseError(f"cannot read {what} '{path}': {exc.strerror or exc}", file=file or str(path), key=key) from None
+    if stat.S_ISDIR(st.st_mode):
+        return
+    if not stat.S_ISREG(st.st_mode):
+        raise CaseError(f"{what} '{path}' is not a regular file (a pipe or a device); give a file", file=file or str(path), key=key)
+    if st.st_size > MAX_INPUT_BYTES:
+        raise CaseError(
+            f"{what} '{path}' is {st.st_size / 2**20:.0f} MB; at most {MAX_INPUT_BYTES // 2**20} MB is read",
+            file=file or str(path),
+            key=key,
+        )
+
+
 def read_table(path: Path, *, file, key, x_column=0, v_column=1) -> tuple[np.ndarray, np.ndarray, str]:
     """Read a CSV profile of (x, V): comma, semicolon, tab or space separated; '#' comments; one header line allowed."""
+    _regular_file(path, file, key, "table")
     try:
         text = path.read_text(encoding="utf-8")
     except IsADirectoryError:
@@ -181,6 +209,20 @@ def parse_table(text: str, name: str, *, x_column=0, v_column=1, key="table"):
 
 # ------------------------------------------------------------------ shapes
 def _build_shape(i: int, comp: Mapping, params, units: UnitSystem, mass: float, file, base_dir, tables) -> S.Shape:
+    shape = _make_shape(i, comp, params, units, mass, file, base_dir, tables)
+    scale = shape.scale()
+    feats = shape.features()
+    if scale is not None and feats and max(abs(f) for f in feats) * 1e-15 > scale:
+        raise CaseError(
+            f"the component sits at {max(abs(f) for f in feats):.3g}, more than 1e15 times its own size "
+            f"({scale:.3g}) from x = 0: its shape would be lost to round-off; move the origin closer",
+            file=file,
+            key=f"potential[{i}].center",
+        )
+    return shape
+
+
+def _make_shape(i: int, comp: Mapping, params, units: UnitSystem, mass: float, file, base_dir, tables) -> S.Shape:
     where = f"potential[{i}]"
     if not isinstance(comp, Mapping):
         raise CaseError("each [[potential]] entry must be a table", file=file, key=where)
@@ -285,6 +327,7 @@ def _build_stack(layers, params, mass, origin, file) -> LayerStack:
 def load_case(path, **overrides) -> Case:
     """Read and validate the case file at ``path``; keyword arguments override [params] entries."""
     p = Path(path)
+    _regular_file(p, str(path), None, "case file")
     try:
         raw = p.read_bytes()
     except IsADirectoryError:
@@ -370,6 +413,14 @@ def _domain(table, params, potential: Potential, file) -> Domain:
     right = _num(table, "right", params, file, "domain", required=False)
     if boundary == "hard" and (left is None or right is None):
         raise CaseError('hard walls need both left and right positions', file=file, key="domain.left" if left is None else "domain.right")
+    if left is not None and right is not None and left < right and (
+        right - left <= 1e-9 * max(abs(left), abs(right)) or right - left < 1e-100
+    ):
+        raise CaseError(
+            f"the walls at {left:g} and {right:g} are too close to resolve in double precision; widen [domain]",
+            file=file,
+            key="domain.right",
+        )
     if left is not None and right is not None and not left < right:
         raise CaseError(f"left ({left:g}) must be below right ({right:g})", file=file, key="domain.left")
     if boundary == "hard":
@@ -408,6 +459,8 @@ def _settings(table, params, file) -> SolveSettings:
 
 # ---------------------------------------------------------------- writing
 def _toml_value(v) -> str:
+    if isinstance(v, np.generic):
+        v = v.item()  # numpy scalars as plain Python numbers
     if isinstance(v, bool):
         return "true" if v else "false"
     if isinstance(v, (int, float)):

@@ -7,6 +7,11 @@ The core never prints or exits; it raises these. The command line turns a
 from __future__ import annotations
 
 
+def _printable(text: str) -> str:
+    """One line of printable text: control characters (newlines, escapes) shown as escapes."""
+    return "".join(ch if ch.isprintable() else ch.encode("unicode_escape").decode("ascii") for ch in text)
+
+
 class FdsolverError(Exception):
     """Base class of every error fdsolver raises on purpose."""
 
@@ -33,7 +38,7 @@ class CaseError(FdsolverError, ValueError):
         if self.key:
             parts.append(self.key)
         parts.append(self.message)
-        return ": ".join(parts)
+        return _printable(": ".join(parts))
 
     def located(self, *, file: str | None = None, key_prefix: str | None = None) -> "CaseError":
         """Return a copy with the file filled in and the key prefixed."""

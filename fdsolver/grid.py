@@ -76,7 +76,12 @@ def base_grid(
         right = base_grid(spacing, [b for b in breakpoints if b > center], center, hi, settings, None, half)
         left = 2.0 * center - right[:0:-1]
         return np.concatenate([left, right])
-    bps = np.asarray(sorted({float(b) for b in breakpoints if lo < b < hi}), dtype=float)
+    tiny = 1e-9 * (hi - lo)
+    kept: list[float] = []
+    for b in sorted({float(b) for b in breakpoints if lo + tiny < b < hi - tiny}):
+        if not kept or b - kept[-1] > tiny:  # features closer than round-off are one node
+            kept.append(b)
+    bps = np.asarray(kept, dtype=float)
     bounds = np.concatenate([[lo], bps, [hi]])
     # samples: dense near every bound (geometric), plus a uniform background
     width = hi - lo

@@ -40,8 +40,15 @@ def save(fig, path) -> None:
 
 def plot_archive(ds, path) -> None:
     """Draw archive ``ds`` to the image file ``path``."""
+    from .errors import ArchiveError
+
     mod, func = PLOTTERS[ds.attrs["fdsolver_kind"]].split(":")
-    getattr(importlib.import_module(mod), func)(ds, path)
+    try:
+        getattr(importlib.import_module(mod), func)(ds, path)
+    except (KeyError, AttributeError, IndexError, TypeError) as exc:
+        raise ArchiveError(
+            f"archive is damaged or incomplete ({type(exc).__name__}: {str(exc)[:80]})", file=ds.encoding.get("source")
+        ) from None
 
 
 def _window(x, v, psi, energy):

@@ -66,5 +66,12 @@ def format_archive(ds: xr.Dataset) -> str:
     """The table of any fdsolver archive, chosen by its ``fdsolver_kind``."""
     import importlib
 
+    from .errors import ArchiveError
+
     mod, func = FORMATTERS[ds.attrs["fdsolver_kind"]].split(":")
-    return getattr(importlib.import_module(mod), func)(ds)
+    try:
+        return getattr(importlib.import_module(mod), func)(ds)
+    except (KeyError, AttributeError, IndexError, TypeError, ValueError) as exc:
+        raise ArchiveError(
+            f"archive is damaged or incomplete ({type(exc).__name__}: {str(exc)[:80]})", file=ds.encoding.get("source")
+        ) from None

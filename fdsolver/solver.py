@@ -228,12 +228,13 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
     box_err = np.zeros_like(energy)
     if not hard and energy.size:
         big = open_box(potential, domain, min(float(energy[-1]), threshold), budget * 1.5, box)
-        if big != box:
+        grow_left, grow_right = big[0] < box[0] - 1e-9 * scale, big[1] > box[1] + 1e-9 * scale
+        if grow_left or grow_right:
             spacing = spacing_function(potential, e_lo_grid, e_hi_grid, settings.grid, _deep_reach(setup, e_lo_grid))
             parts = [refine(base, run.level)]
-            if big[0] < box[0]:
+            if grow_left:
                 parts.insert(0, refine(base_grid(spacing, [], big[0], box[0], settings.grid), run.level)[:-1])
-            if big[1] > box[1]:
+            if grow_right:
                 parts.append(refine(base_grid(spacing, [], box[1], big[1], settings.grid), run.level)[1:])
             wide = np.concatenate(parts)
             if wide.size <= max_nodes:
@@ -312,11 +313,18 @@ def _levels(setup: _Setup, base: np.ndarray, vmin: float, messages: list) -> _Le
             guess = level_e[-1]
         op_k, st_k = _solve_nodes(setup, nodes, guess)
         if n_expected is not None and st_k.energy.size < n_expected:
-            # a finer grid never unbinds a resolved state: this is round-off, keep the coarser levels
+            # the top state(s) rose out of the window on the finer grid: they are not resolved; the others
+            # keep their levels (states are numbered from the bottom, so the rows are cut, not shifted)
+            n_new = st_k.energy.size
             messages.append(
-                f"refinement stopped at {level_n[-1]} nodes: the next level lost a state to round-off"
+                f"state(s) {n_new} to {n_expected - 1} vanished on the grid of {nodes.size} nodes: bound too "
+                "weakly to be resolved here (not resolved)"
             )
-            break
+            level_e = [row[:n_new] for row in level_e]
+            table = Romberg()
+            for row in level_e:
+                table.add(row)
+            n_expected = n_new
         if n_expected is not None and st_k.energy.size != n_expected:
             table, level_e, level_n = Romberg(), [], []  # a state appeared: restart the table
         n_expected = st_k.energy.size
@@ -347,12 +355,10 @@ def _state_roundoff(op: Operator, psi: np.ndarray) -> np.ndarray:
 
 
 def _roundoff_limited(setup: _Setup, op: Operator, states: GridStates) -> bool:
-    """True if halving every cell (round-off x4) would bring it near the gaps between states or to the threshold."""
+    """True if halving every cell (round-off x4) would bring it near the gaps between states."""
     energy = states.energy
     r_next = 4.0 * float(np.max(_state_roundoff(op, states.psi)))
-    gaps = list(np.diff(energy))
-    if math.isfinite(setup.e_hi):
-        gaps.append(setup.e_hi - float(energy[-1]))
+    gaps = list(np.diff(energy))  # (a top state near the threshold may vanish; that is handled by the caller)
     if setup.e_lo is not None:
         gaps.append(float(energy[0]) - setup.e_lo)
     if not gaps:

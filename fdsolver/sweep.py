@@ -112,7 +112,8 @@ def plan_sweep(case, axes, fixed=None, save_psi=False, memory_mb=None, chunk=Non
             f"the sweep result would take about {_mb(need)} in memory ({what}), more than the budget of "
             f"{budget:g} MB; sweep fewer points{', drop --save-psi' if save_psi else ''} or raise --memory-mb "
             "([sweep] memory_mb)",
-            key="--vary",
+            file=case.path,
+            key=axes[0].key if axes and getattr(axes[0], "key", None) else "--vary",
         )
     corners = itertools.product(*[(a.values[0], a.values[-1]) for a in axes])
     spans = []

@@ -96,16 +96,7 @@ EXTRA = {
 }
 
 # Corpus entries that currently fail because of a bug in the core (reported to the lead).
-CORE_BUGS = {
-    "budget_sweep_points": "core bug: the sweep budget error names neither the case file nor sweep.vary (it says --vary)",
-    "budget_sweep_count_huge": "core bug: errors in [sweep] vary of the case do not name the case file",
-    "hostile_center_1e300": "core bug: positions beyond double-precision resolution reach assemble (ValueError: nodes not increasing)",
-    "hostile_walls_1e-300_apart": "core bug: a box of width 2e-300 overflows the operator (ValueError from eigh_tridiagonal)",
-    "hostile_newline_in_choice": "core bug: CaseError messages echo user strings raw; a newline splits the line",
-    "hostile_escape_in_key": "core bug: CaseError messages echo user keys raw; a terminal escape sequence reaches the terminal",
-    "hostile_newline_in_param_name": "core bug: CaseError messages echo user keys raw; a newline splits the line",
-    "sweep_vary_reversed": "core bug: errors in [sweep] vary of the case do not name the case file",
-}
+CORE_BUGS: dict[str, str] = {}
 
 
 def read_header(path: Path) -> dict:
@@ -346,7 +337,6 @@ def _blocks(target, fifo: Path) -> bool:
     return blocked, box.get("exc")
 
 
-@pytest.mark.xfail(strict=True, reason="core bug: load_case/read_table read FIFOs and devices (would block or read /dev/zero forever)")
 def test_special_files_are_refused_not_read(tmp_path):
     import fdsolver
 

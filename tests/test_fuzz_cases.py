@@ -366,8 +366,6 @@ def test_dict_documents_with_python_values(folder, doc, key, value):
         assert "\n" not in str(err)
 
 
-@pytest.mark.xfail(strict=True, reason="core bug: case_from_dict accepts numpy integers, then dumps_case raises "
-                   "TypeError('cannot write int64 to TOML')")
 def test_dict_numpy_integer_value():
     try:
         fdsolver.case_from_dict({"potential": [{"shape": "square", "center": np.int64(0), "width": 1.0, "depth": 1.0}]})
@@ -375,8 +373,6 @@ def test_dict_numpy_integer_value():
         pass
 
 
-@pytest.mark.xfail(strict=True, reason="core bug: a non-string key in case_from_dict raises TypeError in the "
-                   "did-you-mean suggestion instead of CaseError")
 def test_dict_non_string_key():
     try:
         fdsolver.case_from_dict({None: 1, "potential": [{"shape": "point", "center": 0.0, "strength": 1.0}]})
@@ -393,8 +389,6 @@ CONTROL_TEXTS = [
 ]
 
 
-@pytest.mark.xfail(strict=True, reason="core bug: CaseError messages echo user strings and keys raw, so a newline "
-                   "or a terminal escape sequence in a case file splits or garbles the one-line message")
 @pytest.mark.parametrize("text", CONTROL_TEXTS, ids=["newline_in_value", "cr_in_value", "escape_in_key", "newline_in_param"])
 def test_control_characters_in_messages_are_escaped(folder, text):
     with pytest.raises(fdsolver.CaseError) as info:

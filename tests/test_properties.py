@@ -242,7 +242,6 @@ def test_scaling_x_and_v_scales_energies(comps, s):
 
 
 # ------------------------------------------------------------ (5) monotonicity
-@pytest.mark.xfail(strict=True, reason=BOX_CHECK_BUG)
 @PROPS
 @given(well_sums, st.data(), dyadic(1.05, 2.0))
 def test_deepening_a_well_lowers_energies_and_keeps_states(comps, data, factor):
@@ -402,9 +401,6 @@ def test_sech2_far_tail_is_silent():
 
 # Rounding: a mirror centre or a box end that is not exactly representable.  Minimal cases found by the
 # properties above when they drew arbitrary floats.
-@pytest.mark.xfail(strict=True, reason="core bug: the mirror centre (mean of the outer features) differs from the "
-                   "smooth_square centre feature by rounding; base_grid keeps both as breakpoints, cells of 1e-18 "
-                   "follow and the bound state is lost ('bound too weakly')")
 def test_rounding_smooth_square_centre_keeps_its_state():
     at_zero = run([{"shape": "smooth_square", "center": 0.0, "width": 1.0, "edge": 0.5, "depth": 1.0}])
     moved = run([{"shape": "smooth_square", "center": 1e-14, "width": 1.0, "edge": 0.5, "depth": 1.0}])
@@ -412,14 +408,11 @@ def test_rounding_smooth_square_centre_keeps_its_state():
     assert_same_levels(at_zero, moved)
 
 
-@pytest.mark.xfail(strict=True, reason="core bug: same rounding of the mirror centre; cells of 3e-90 make LAPACK "
-                   "stebz fail (numpy.linalg.LinAlgError escapes)")
 def test_rounding_tiny_centre_does_not_crash():
     ds = run([{"shape": "smooth_square", "center": 6.077454858145381e-90, "width": 1.0, "edge": 0.5, "depth": 1.0}])
     assert ds.sizes["state"] == 1
 
 
-@pytest.mark.xfail(strict=True, reason=BOX_CHECK_BUG)
 @pytest.mark.parametrize(
     "comps",
     [
@@ -437,8 +430,6 @@ def test_rounding_box_check_does_not_crash(comps):
         np.testing.assert_allclose(ds.energy.values, griffiths_square_well(2.0, 1.4852474894623062), rtol=1e-8)
 
 
-@pytest.mark.xfail(strict=True, reason="core bugs: rounding of the mirror centre and of the box ends (see the "
-                   "test_rounding_* cases); this is the translation property over arbitrary floats")
 @settings(PROPS, max_examples=15)
 @given(st.lists(st.builds(lambda c, w, d: {"shape": "smooth_square", "center": c, "width": w, "edge": 0.2 * w, "depth": d},
                           st.floats(-3, 3), st.floats(0.3, 3), st.floats(0.5, 20)), min_size=1, max_size=2),
@@ -451,9 +442,6 @@ def test_translation_over_arbitrary_floats(comps, shift):
     assert_same_levels(a, b)
 
 
-@pytest.mark.xfail(strict=True, reason="core bug: a state at the threshold (E = -3.5e-8) that appears and vanishes "
-                   "between levels stops refinement for every state; the ground state of a plain smooth well "
-                   "comes back with an infinite error bar")
 def test_near_threshold_state_does_not_stop_the_others():
     ds = run([{"shape": "smooth_square", "center": 21 / 64, "depth": 149 / 64, "width": 149 / 64, "edge": 0.836669921875}],
              tolerance=1e-7)
