@@ -22,7 +22,8 @@ def length_scale(potential: Potential) -> float:
     lo, hi = potential.support()
     scales = [s for _, s in potential.feature_scales() if math.isfinite(s)]
     scales += [s for _, s in potential.point_scales()]
-    return max([hi - lo] + scales + [1e-300])
+    scale = max([hi - lo] + scales + [0.0])
+    return scale if scale > 0 else 1.0  # nothing to measure (e.g. a bare expression): one length unit
 
 
 def decay_extent(potential: Potential, start: float, side: int, e_top: float, budget: float, scale: float) -> float:

@@ -331,6 +331,7 @@ class ExpressionShape(Shape):
     params: tuple = ()
     text: str = ""
     kind: ClassVar[str] = "expression"
+    _cache: dict = field(default_factory=dict, compare=False, repr=False)
 
     def value(self, x):
         env = dict(self.params)
@@ -338,6 +339,46 @@ class ExpressionShape(Shape):
         env["x"] = x
         out = self.expression.evaluate(env)
         return np.broadcast_to(np.asarray(out, dtype=float), x.shape).copy()
+
+    def _profile(self) -> tuple[float, float] | None:
+        """Where V differs from its far-field values by more than 1e-3 of its largest such difference.
+
+        Probed on +-(1e-4 .. 1e6) length units, logarithmically; None if V is flat or unbounded.
+        """
+        if "profile" not in self._cache:
+            self._cache["profile"] = self._probe()
+        return self._cache["profile"]
+
+    def _probe(self) -> tuple[float, float] | None:
+        t = np.geomspace(1e-4, 1e6, 801)
+        x = np.concatenate([-t[::-1], [0.0], t])
+        try:
+            with np.errstate(all="ignore"):
+                v = self.value(x)
+        except CaseError:
+            return None
+        lo_v, hi_v = self.asymptote(-1), self.asymptote(1)
+        if not (np.all(np.isfinite(v)) and math.isfinite(lo_v) and math.isfinite(hi_v)):
+            return None
+        ref = np.where(x < 0, lo_v, hi_v)
+        dev = np.abs(v - ref)
+        if dev.max() <= 0:
+            return None
+        big = np.flatnonzero(dev > 1e-3 * dev.max())
+        return float(x[big[0]]), float(x[big[-1]])
+
+    def scale(self):
+        prof = self._profile()
+        if prof is None:
+            return None
+        return max((prof[1] - prof[0]) / 20.0, 1e-6)
+
+    def region(self):
+        return self._profile()
+
+    def features(self):
+        prof = self._profile()
+        return [] if prof is None else [0.5 * (prof[0] + prof[1])]
 
     def asymptote(self, side):
         far = np.array([1e5, 1e6]) * side

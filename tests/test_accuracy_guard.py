@@ -261,7 +261,6 @@ def test_open_box_error_bars_cover_the_truncation(name):
     check_honest(ds, exact, 1e-8)
 
 
-@pytest.mark.xfail(strict=True, reason="core bug: expression-only potentials have no length scale (ZeroDivisionError in the box sizing)")
 def test_long_range_tail_cannot_be_boxed_and_says_so():
     # V = -1/(1 + x^2) falls off as -1/x^2 with coefficient 1 > hbar^2/(8m) = 1/8: infinitely many bound
     # states accumulating at E = 0 (Landau & Lifshitz, Quantum Mechanics, sec. 35).  No finite box holds

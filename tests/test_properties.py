@@ -379,8 +379,6 @@ EXPRESSION_EQUIVALENTS = [
 ]
 
 
-@pytest.mark.xfail(strict=True, reason="core bug: expression-only potentials have no length scale "
-                   "(box.length_scale returns 1e-300; ZeroDivisionError or overflow)")
 @pytest.mark.parametrize("shape, text", EXPRESSION_EQUIVALENTS)
 def test_expression_potential_equals_its_builtin_shape(shape, text):
     a = run([shape])
