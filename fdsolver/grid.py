@@ -76,7 +76,7 @@ def base_grid(
         right = base_grid(spacing, [b for b in breakpoints if b > center], center, hi, settings, None, half)
         left = 2.0 * center - right[:0:-1]
         return np.concatenate([left, right])
-    tiny = 1e-9 * (hi - lo)
+    tiny = 64.0 * np.finfo(float).eps * max(abs(lo), abs(hi), hi - lo)  # closer than this is round-off
     kept: list[float] = []
     for b in sorted({float(b) for b in breakpoints if lo + tiny < b < hi - tiny}):
         if not kept or b - kept[-1] > tiny:  # features closer than round-off are one node

@@ -203,9 +203,21 @@ class Potential:
         half = min(x0 - lo, hi - x0)
         if half <= 0:
             return None
-        s = np.linspace(0.0, half, 257)[1:]
-        # offset samples by an irrational fraction so they avoid discontinuities
-        s = s - 0.3183098861837907 * (s[1] - s[0]) if s.size > 1 else s
+        if feats.size:
+            # the features themselves must mirror each other
+            span = max(float(feats[-1] - feats[0]), 1e-300)
+            mirrored = np.sort(2.0 * x0 - feats)
+            if np.max(np.abs(mirrored - feats)) > 1e-9 * span:
+                return None
+        # dense samples where the potential varies (the features' extent plus a few length scales), sparse beyond
+        scales = [s for _, s in self.feature_scales() if math.isfinite(s)]
+        inner = min(half, 0.5 * (float(feats[-1] - feats[0]) if feats.size else 0.0) + 3.0 * max(scales + [0.0]))
+        parts = [np.linspace(0.0, half, 257)[1:]]
+        if inner > 0:
+            parts.append(np.linspace(0.0, inner, 2049)[1:])
+        s = np.concatenate(parts)
+        # offset samples by an irrational fraction of their spacing so they avoid discontinuities
+        s = np.abs(s - 0.3183098861837907 * np.concatenate([np.full(256, half / 256), np.full(s.size - 256, inner / 2048 if inner > 0 else 0.0)]))
         vl, vr = self.value(x0 - s), self.value(x0 + s)
         if not (np.all(np.isfinite(vl)) and np.all(np.isfinite(vr))):
             return None

@@ -138,7 +138,6 @@ any_wells = st.lists(
 )
 
 
-@pytest.mark.xfail(strict=True, reason=BOX_CHECK_BUG)
 @settings(PROPS, max_examples=40)
 @given(any_wells, st.sampled_from([1e-6, 1e-8]), st.sampled_from(["open", "hard"]))
 def test_solver_returns_or_raises_clean_error(comps, tol, boundary):
@@ -360,8 +359,6 @@ ASYMMETRIC = {
 }
 
 
-@pytest.mark.xfail(strict=True, reason="core bug: Potential.mirror_center samples 256 points over the whole box, "
-                   "so in a wide box an asymmetric potential is taken as symmetric (wrong parity, dropped grid features)")
 @pytest.mark.parametrize("name", sorted(ASYMMETRIC))
 def test_asymmetric_potential_in_a_wide_box_has_no_parity(name):
     wells_, domain = ASYMMETRIC[name]
