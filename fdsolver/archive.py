@@ -23,7 +23,9 @@ from __future__ import annotations
 import datetime as _dt
 import json
 import os
+import signal
 import tempfile
+import threading
 from pathlib import Path
 
 import numpy as np
@@ -39,6 +41,7 @@ REQUIRED = {
     "solve": ("x", "energy", "energy_error", "converged", "nodes", "parity", "mean_x", "spread", "psi", "potential", "level_nodes"),
     "sweep": ("energy", "energy_error"),
     "delta_check": ("energy_limit",),
+    "threshold": ("phase_margin", "bound_states", "threshold_value", "threshold_uncertainty"),
 }
 
 
@@ -116,16 +119,24 @@ def write_dataset(ds: xr.Dataset, path) -> Path:
             encoding[name] = {"_FillValue": None} if name in ds.coords else {"_FillValue": np.nan}
         if var.dtype.kind == "b":
             raise TypeError(f"boolean variable {name} must be stored as int8")
+    for name in ds.data_vars:  # HDF5 checksums: a flipped byte is detected on reading
+        if ds[name].dtype.kind in "fiu" and ds[name].ndim > 0:
+            encoding.setdefault(name, {})["fletcher32"] = True
+    # Ctrl-C is held back until the file is complete: an interrupt inside the NetCDF library can leave
+    # its locks taken (the process would hang in the cleanup); it is raised right after the rename.
+    held: list[int] = []
+    old_handler = None
+    if threading.current_thread() is threading.main_thread():
+        old_handler = signal.signal(signal.SIGINT, lambda signum, frame: held.append(signum))
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
     os.close(fd)
     try:
-        for name in ds.data_vars:  # HDF5 checksums: a flipped byte is detected on reading
-            if ds[name].dtype.kind in "fiu" and ds[name].ndim > 0:
-                encoding.setdefault(name, {})["fletcher32"] = True
         ds.to_netcdf(tmp, engine="netcdf4", encoding=encoding)
         umask = os.umask(0)
         os.umask(umask)
         os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; archives get the usual permissions
+        with open(tmp, "rb") as fh:  # on disk before the rename
+            os.fsync(fh.fileno())
         os.replace(tmp, path)
     except BaseException:
         try:
@@ -133,6 +144,11 @@ def write_dataset(ds: xr.Dataset, path) -> Path:
         except OSError:
             pass
         raise
+    finally:
+        if old_handler is not None:
+            signal.signal(signal.SIGINT, old_handler)
+    if held:
+        raise KeyboardInterrupt
     return path
 
 

@@ -134,13 +134,11 @@ def _forged(tmp_path: Path, kind: str, good: Path) -> Path:
     return p
 
 
-FORGED_BUG = "core bug: open_run does not yet check the variables of a threshold archive, so show may crash on a forged one"
 
 
 @pytest.mark.parametrize(
     "kind",
-    ["solve", "sweep", "delta_check", "solve_without_energy",
-     pytest.param("threshold", marks=pytest.mark.xfail(strict=True, reason=FORGED_BUG))],
+    ["solve", "sweep", "delta_check", "solve_without_energy", "threshold"],
 )
 def test_forged_archive_is_refused(tmp_path, capsys, good, kind):
     assert_refused(_forged(tmp_path, kind, good), capsys)
@@ -296,13 +294,11 @@ def _acquire(lock, blocking=True):
     return got
 _locks.acquire = _acquire
 """
-HANG_BUG = ("core bug: Ctrl-C inside write_dataset can land between two acquisitions of xarray's combined lock; "
-            "the cleanup then waits for that lock forever (the process hangs, the temporary file stays)")
 
-
-@pytest.mark.parametrize("nth_lock", [3, pytest.param(10, marks=pytest.mark.xfail(strict=True, reason=HANG_BUG))])
+@pytest.mark.parametrize("nth_lock", [3, 10])
 def test_interrupt_during_write_cleans_up(good, tmp_path, nth_lock):
-    """Ctrl-C (SIGINT) in the middle of a write: the process ends, old file intact, temporary file removed."""
+    """Ctrl-C (SIGINT) in the middle of a write: the process ends (no hang), the target is one complete
+    version (the write in progress is finished before the interrupt is raised), no temporary file is left."""
     code = WRITER.replace("signal.signal(signal.SIGINT, signal.default_int_handler)\n",
                           "signal.signal(signal.SIGINT, signal.default_int_handler)\n" + INTERRUPT_AT_LOCK)
     code = code.replace('    print("start", k, flush=True)', '    _armed[0] = k == 2\n    print("start", k, flush=True)')
@@ -327,7 +323,7 @@ def test_interrupt_during_write_cleans_up(good, tmp_path, nth_lock):
             proc.wait()
     assert "KeyboardInterrupt" in proc.stderr.read()
     back = fdsolver.open_run(target)
-    assert back.attrs["write_number"] == 1
+    assert back.attrs["write_number"] in (1, 2)
     assert sorted(p.name for p in tmp_path.iterdir()) == ["run.nc"]
 
 
