@@ -91,6 +91,21 @@ def _sign_update(value: float, slope: float, sign: float, nodes: int) -> tuple[f
     return s, nodes
 
 
+def _step(u: float, w: float, t: float) -> tuple[float, float]:
+    """Carry the pair (u, w) across a gap of decay exponent t = 2 k d, with the growing part divided out.
+
+    For t > 1 the exponential is applied directly; for small t the expm1 form
+    keeps full precision.  A purely decaying pair (u + w == 0) keeps its
+    direction (only its positive scale is dropped, which is immaterial).
+    """
+    if t > 1.0:
+        p = u + w
+        q = (u - w) * math.exp(-t) if p != 0.0 else (u - w)
+        return 0.5 * (p + q), 0.5 * (p - q)
+    r = (u - w) * (-0.5 * math.expm1(-t))
+    return u - r, w + r
+
+
 def _shoot(k: float, xs: np.ndarray, gs: np.ndarray) -> tuple[int, float]:
     """Zeros of the left-decaying solution at E = -C k^2/m, and its tail growth.
 
@@ -113,16 +128,7 @@ def _shoot(k: float, xs: np.ndarray, gs: np.ndarray) -> tuple[int, float]:
     nodes = 0
     for i in range(len(xs)):
         if i:
-            t = 2.0 * k * (xs[i] - xs[i - 1])
-            if t > 1.0:
-                p = u + w
-                # p == 0: purely decaying, keep its direction (only the
-                # positive scale is dropped, which is immaterial)
-                q = (u - w) * math.exp(-t) if p != 0.0 else (u - w)
-                u, w = 0.5 * (p + q), 0.5 * (p - q)
-            else:
-                r = (u - w) * (-0.5 * math.expm1(-t))
-                u, w = u - r, w + r
+            u, w = _step(u, w, 2.0 * k * (xs[i] - xs[i - 1]))
             sign, nodes = _sign_update(u, w, sign, nodes)
             s = max(abs(u), abs(w))
             u /= s

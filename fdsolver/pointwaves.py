@@ -13,6 +13,7 @@ from __future__ import annotations
 import math
 import numpy as np
 from .pointcount import (
+    _step,
     _EPS,
     _NODE_FLOOR,
     _SIGN_FLOOR,
@@ -174,14 +175,7 @@ def _sweep_log_values(k: float, xs: np.ndarray, gs: np.ndarray) -> tuple[np.ndar
     for i in range(n):
         if i:
             d = xs[i] - xs[i - 1]
-            t = 2.0 * k * d
-            if t > 1.0:
-                p = u + w
-                q = (u - w) * math.exp(-t) if p != 0.0 else (u - w)
-                u, w = 0.5 * (p + q), 0.5 * (p - q)
-            else:
-                r = (u - w) * (-0.5 * math.expm1(-t))
-                u, w = u - r, w + r
+            u, w = _step(u, w, 2.0 * k * d)
             log_scale += k * d
             s = max(abs(u), abs(w))
             u /= s
