@@ -159,8 +159,9 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
     box = provisional_box(potential, domain, threshold, budget)
     vs = potential.value(np.linspace(box[0], box[1], 4001)[1:-1])
     vmin = float(np.min(vs))
-    point_depth = [potential.mass * a**2 / (4.0 * potential.hbar2_2me) for _, a in potential.point_terms() if a > 0]
-    e_lo_grid = vmin - (sum(point_depth) * len(point_depth) if point_depth else 0.0)
+    # attractive point terms bind at most as deeply as one point of their summed strength: E >= -m A^2 / (4 C)
+    attract = sum(a for _, a in potential.point_terms() if a > 0)
+    e_lo_grid = vmin - potential.mass * attract**2 / (4.0 * potential.hbar2_2me)
     e_hi_grid = threshold if math.isfinite(threshold) else float(np.max(vs[[0, -1]]))
     center = _center_for(setup, box)
     nodes = _grid(setup, box, e_lo_grid, e_hi_grid, coarse, center)
