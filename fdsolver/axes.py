@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import CaseError
+from .errors import CaseError, did_you_mean
 
 SWEEP_KEYS = ("vary", "units", "memory_mb", "psi_points", "psi_range", "chunk")
 LENGTH_KEYS = ("center", "width", "sigma", "edge", "thickness", "left", "right", "stack_origin")
@@ -21,10 +21,7 @@ MAX_AXIS_POINTS = 10_000_000  # one axis; the whole sweep is checked against the
 
 
 def _suggest(word, choices) -> str:
-    import difflib
-
-    close = difflib.get_close_matches(word, list(choices), n=1, cutoff=0.5)
-    return f"; did you mean '{close[0]}'?" if close else ""
+    return did_you_mean(word, choices, cutoff=0.5)
 
 
 def sweep_table(case) -> dict:

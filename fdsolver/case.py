@@ -10,7 +10,6 @@ to do.  The schema is documented in README.md; :data:`TOP_KEYS` and the
 
 from __future__ import annotations
 
-import difflib
 import math
 import os
 import tomllib
@@ -21,7 +20,7 @@ from typing import Any, Mapping
 import numpy as np
 
 from . import shapes as S
-from .errors import CaseError
+from .errors import CaseError, did_you_mean
 from .expressions import compile_expression, evaluate_number, resolve_params
 from .grid import GridSettings
 from .potential import Layer, LayerStack, Potential
@@ -74,9 +73,7 @@ class Case:
 
 
 # ----------------------------------------------------------------- helpers
-def _suggest(word: str, choices) -> str:
-    close = difflib.get_close_matches(word, list(choices), n=1, cutoff=0.6)
-    return f"; did you mean '{close[0]}'?" if close else ""
+_suggest = did_you_mean
 
 
 def _check_keys(table: Mapping, allowed, file, where: str) -> None:

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import shapes as S
-from .errors import CaseError
+from .errors import CaseError, did_you_mean
 from .zerorange import WELL_SHAPES, mean_distance, width_of
 
 TABLE_KEYS = ("shape", "widths", "tolerance", "map", "from_finite")
@@ -71,11 +71,7 @@ def read_options(case, *, shape=None, widths=None, tolerance=None, from_finite=N
     f = case.path
     for k in table:
         if k not in TABLE_KEYS:
-            import difflib
-
-            close = difflib.get_close_matches(k, TABLE_KEYS, n=1, cutoff=0.6)
-            hint = f"; did you mean '{close[0]}'?" if close else ""
-            raise CaseError(f"unknown key '{k}'{hint} (allowed: {', '.join(TABLE_KEYS)})", file=f, key=f"delta_check.{k}")
+            raise CaseError(f"unknown key '{k}'{did_you_mean(k, TABLE_KEYS)} (allowed: {', '.join(TABLE_KEYS)})", file=f, key=f"delta_check.{k}")
     src = lambda k, v: (v, None, "--" + k.replace("_", "-")) if v is not None else (table.get(k), f, f"delta_check.{k}")  # noqa: E731
     sh, sf, sk = src("shape", shape)
     sh = "square" if sh is None else sh

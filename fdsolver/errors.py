@@ -7,6 +7,14 @@ The core never prints or exits; it raises these. The command line turns a
 from __future__ import annotations
 
 
+def did_you_mean(word, choices, cutoff: float = 0.6) -> str:
+    """``"; did you mean 'x'?"`` for the closest of ``choices`` to ``word`` (difflib), or ``""``."""
+    import difflib
+
+    close = difflib.get_close_matches(str(word), [str(c) for c in choices], n=1, cutoff=cutoff)
+    return f"; did you mean '{close[0]}'?" if close else ""
+
+
 def _printable(text: str) -> str:
     """One line of printable text: control characters (newlines, escapes) shown as escapes."""
     return "".join(ch if ch.isprintable() else ch.encode("unicode_escape").decode("ascii") for ch in text)
