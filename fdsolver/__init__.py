@@ -1,6 +1,6 @@
 """fdsolver: bound states of 1D wells on adaptive finite-difference grids.
 
-Public API::
+Public API (every name is imported on first use, so ``import fdsolver`` stays light)::
 
     case = fdsolver.load_case("cases/pair.toml", d=4.0)   # params may be overridden
     ds = fdsolver.solve(case)                             # xarray.Dataset
@@ -8,28 +8,48 @@ Public API::
     ds2 = fdsolver.open_run("run.nc")
 
 Cases can also be built in code with :func:`case_from_dict` (the TOML schema
-as Python data) or :func:`case_from_text`.
+as Python data) or :func:`case_from_text`.  The pipeline reads from the
+subpackages: ``input`` (case files) -> ``model`` (potential) -> ``numerics``
+(grids, operators, marches) -> ``solve`` (bound states with error bars) ->
+``zerorange`` / ``scans`` (studies) -> ``io`` (archives) -> ``report`` /
+``plot`` / ``cli``.
 """
 
-__version__ = "0.1.0"
+from __future__ import annotations
 
-from .errors import ArchiveError, BudgetError, CaseError, FdsolverError  # noqa: E402
-from .case import Case, case_from_dict, case_from_text, load_case  # noqa: E402
-from .archive import open_run, write_dataset  # noqa: E402
-from .api import case_of_run, solve, solve_case  # noqa: E402
+import importlib
+from typing import Any
 
-__all__ = [
-    "ArchiveError",
-    "BudgetError",
-    "Case",
-    "CaseError",
-    "FdsolverError",
-    "case_from_dict",
-    "case_from_text",
-    "case_of_run",
-    "load_case",
-    "open_run",
-    "solve",
-    "solve_case",
-    "write_dataset",
-]
+from fdsolver._version import __version__
+
+#: public name -> module that defines it
+_LAZY = {
+    "FdsolverError": "fdsolver.errors",
+    "CaseError": "fdsolver.errors",
+    "BudgetError": "fdsolver.errors",
+    "ArchiveError": "fdsolver.errors",
+    "Case": "fdsolver.input.case",
+    "load_case": "fdsolver.input.case",
+    "case_from_dict": "fdsolver.input.case",
+    "case_from_text": "fdsolver.input.case",
+    "open_run": "fdsolver.io.archive",
+    "write_dataset": "fdsolver.io.archive",
+    "solve": "fdsolver.api",
+    "solve_case": "fdsolver.api",
+    "case_of_run": "fdsolver.api",
+}
+
+__all__ = sorted(_LAZY) + ["__version__"]
+
+
+def __getattr__(name: str) -> Any:
+    module = _LAZY.get(name)
+    if module is None:
+        raise AttributeError(f"module 'fdsolver' has no attribute {name!r}")
+    value = getattr(importlib.import_module(module), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(_LAZY))

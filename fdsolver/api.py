@@ -4,10 +4,10 @@ from __future__ import annotations
 
 import xarray as xr
 
-from .case import Case, case_from_text
-from .dataset import solution_dataset
-from .errors import ArchiveError, CaseError
-from .solver import Solution, solve_potential
+from fdsolver.input.case import Case, case_from_text
+from fdsolver.io.datasets import solution_dataset
+from fdsolver.errors import ArchiveError, CaseError
+from fdsolver.boundstates.driver import Solution, solve_potential
 
 
 def solve_case(case: Case) -> Solution:

@@ -47,9 +47,9 @@ def main() -> int:
     import numpy as np
 
     import fdsolver
-    from fdsolver.deltacheck import SHAPE_NAMES, compare, read_options, replacement, run_ladder
-    from fdsolver.deltamap import plan_map, run_map
-    from fdsolver.executors import ProcessExecutor, SerialExecutor
+    from fdsolver.zerorange.ladder import SHAPE_NAMES, compare, read_options, replacement, run_ladder
+    from fdsolver.scans.maps import plan_map, run_map
+    from fdsolver.parallel.executors import ProcessExecutor, SerialExecutor
 
     quick = "--quick" in sys.argv
     case = fdsolver.load_case(CASE)

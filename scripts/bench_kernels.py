@@ -13,7 +13,7 @@ import numpy as np
 from scipy.linalg import eigvalsh_tridiagonal
 from scipy.linalg.lapack import dgtsv
 
-from fdsolver import kernels
+from fdsolver.numerics import kernels
 
 
 def best(f, reps=7):

@@ -103,7 +103,7 @@ def peak_memory_1e6():
     """Working memory (tracemalloc peak) and process peak RSS of assembling + solving on 1e6 nodes."""
     code = (
         "import resource, tracemalloc, numpy as np, fdsolver\n"
-        "from fdsolver.operator import assemble\nfrom fdsolver.eigen import solve_window\n"
+        "from fdsolver.numerics.operator import assemble\nfrom fdsolver.boundstates.eigen import solve_window\n"
         f"case = fdsolver.load_case({CASE!r})\n"
         "x = np.unique(np.concatenate([np.linspace(-40.0, 54.0, 1_000_002), case.potential.features()]))\n"
         "solve_window(assemble(case.potential, x[:2000]), 220.0, 10)\n"

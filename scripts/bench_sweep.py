@@ -32,10 +32,10 @@ import resource
 from pathlib import Path
 
 import fdsolver
-from fdsolver import checkpoint as ck
-from fdsolver import sweep as sw
-from fdsolver import thresholds
-from fdsolver.executors import DaskExecutor, ProcessExecutor, SerialExecutor
+from fdsolver.parallel import checkpoint as ck
+from fdsolver.scans import sweep as sw
+from fdsolver.scans import thresholds
+from fdsolver.parallel.executors import DaskExecutor, ProcessExecutor, SerialExecutor
 
 CASE = Path(__file__).resolve().parent.parent / "cases" / "double_square.toml"
 SCENARIOS = {"bound": ("d=2.5:6:{n}", "depth=100:160:{n}"), "across": ("d=0.1:6:{n}", "depth=60:160:{n}")}

@@ -21,7 +21,7 @@ import pytest
 import xarray as xr
 
 import fdsolver
-from fdsolver.archive import write_dataset
+from fdsolver.io.archive import write_dataset
 from fdsolver.cli import main
 
 
@@ -197,7 +197,7 @@ WRITER = textwrap.dedent(
     import sys
     import numpy as np
     import fdsolver
-    from fdsolver.archive import write_dataset
+    from fdsolver.io.archive import write_dataset
 
     signal.signal(signal.SIGINT, signal.default_int_handler)
     template = fdsolver.open_run(sys.argv[1])

@@ -297,7 +297,7 @@ def test_entry_point_process_matches_in_process(corpus_run, name):
     work, results = corpus_run
     r = results[name]
     proc = subprocess.run(
-        [sys.executable, "-m", "fdsolver.cli", *r["argv"]], capture_output=True, text=True, cwd=work, timeout=120
+        [sys.executable, "-m", "fdsolver", *r["argv"]], capture_output=True, text=True, cwd=work, timeout=120
     )
     assert proc.returncode == r["code"] == 2
     assert proc.stderr == r["stderr"]

@@ -20,7 +20,7 @@ CASES = ROOT / "cases"
 def run_cli(*args, cwd=None):
     """Run the installed entry point as a user would; returns (code, stdout, stderr)."""
     proc = subprocess.run(
-        [sys.executable, "-m", "fdsolver.cli", *map(str, args)], capture_output=True, text=True, cwd=cwd
+        [sys.executable, "-m", "fdsolver", *map(str, args)], capture_output=True, text=True, cwd=cwd
     )
     return proc.returncode, proc.stdout, proc.stderr
 

@@ -15,7 +15,7 @@ from scipy.optimize import brentq
 from scipy.special import ai_zeros
 
 import fdsolver
-from fdsolver.units import get_units
+from fdsolver.model.units import get_units
 
 C_NM = get_units("nm-meV").hbar2_2me  # hbar^2/2m_e from scipy.constants (CODATA)
 

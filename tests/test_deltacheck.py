@@ -1,4 +1,4 @@
-"""The zero-range check (fdsolver.deltacheck, deltamap, cli_delta) against outside references.
+"""The zero-range check (fdsolver.zerorange.ladder, deltamap, cli_delta) against outside references.
 
 Sources beside each check:
 
@@ -33,7 +33,7 @@ from scipy.special import lambertw
 
 import fdsolver
 from fdsolver.cli import main
-from fdsolver.deltacheck import compare, deviation, ladder_dataset, read_options, replacement, run_ladder
+from fdsolver.zerorange.ladder import compare, deviation, ladder_dataset, read_options, replacement, run_ladder
 
 ROOT = Path(__file__).resolve().parents[1]
 PAIR = ROOT / "cases" / "impurity_pair.toml"
@@ -190,8 +190,8 @@ def test_from_finite_against_exact_square_pair():
 
 # ----------------------------------------------------------------- map
 def test_map_marks_where_the_models_disagree_on_existence():
-    from fdsolver.deltamap import map_dataset, plan_map, run_map
-    from fdsolver.executors import SerialExecutor
+    from fdsolver.scans.maps import map_dataset, plan_map, run_map
+    from fdsolver.parallel.executors import SerialExecutor
 
     case = fdsolver.load_case(PAIR)
     opts = read_options(case, maps=["width=0.3:6:3", "d=9.2:10.6:8"])
@@ -269,7 +269,7 @@ def test_bad_input_exit_2_nothing_written(name, tmp_path, capsys):
 
 
 def test_bad_input_from_a_shell_is_one_line():
-    proc = subprocess.run([sys.executable, "-m", "fdsolver.cli", "delta-check", str(FINITE)], capture_output=True, text=True)
+    proc = subprocess.run([sys.executable, "-m", "fdsolver", "delta-check", str(FINITE)], capture_output=True, text=True)
     assert proc.returncode == 2
     assert proc.stderr.count("\n") == 1 and "Traceback" not in proc.stderr and proc.stdout == ""
 
@@ -282,7 +282,7 @@ def test_points_below_the_round_off_floor_are_reported_not_resolved():
     assert list(ds.resolved.values[0]) == [0, 0] and list(ds.resolved.values[1]) == [1, 1]
     assert "round-off floor" in ds.attrs["messages"]
     assert list(ds.validity_flag.values) == [1, 1]  # judged only where resolved: holds at 1e-4 nm
-    from fdsolver.report_delta import format_delta
+    from fdsolver.report.delta import format_delta
 
     assert "NOT RESOLVED" in format_delta(ds)
 

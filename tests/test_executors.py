@@ -8,10 +8,10 @@ import pytest
 import xarray as xr
 
 import fdsolver
-from fdsolver import checkpoint as ck
-from fdsolver import sweep as sw
+from fdsolver.parallel import checkpoint as ck
+from fdsolver.scans import sweep as sw
 from fdsolver.errors import CaseError
-from fdsolver.executors import DaskExecutor, ProcessExecutor, SerialExecutor, make_executor, parse_cluster
+from fdsolver.parallel.executors import DaskExecutor, ProcessExecutor, SerialExecutor, make_executor, parse_cluster
 
 CASE = str(Path(__file__).resolve().parent.parent / "cases" / "double_square.toml")
 VARY = ["d=0.5:5:12", "depth=80,120"]
@@ -105,7 +105,7 @@ def test_workers_end_when_the_sweep_is_killed(tmp_path):
             return False
 
     out = tmp_path / "k.nc"
-    cmd = [sys.executable, "-m", "fdsolver.cli", "sweep", CASE, "--vary", "d=2:6:600", "-o", str(out), "-j", "2", "--chunk", "3", "-q"]
+    cmd = [sys.executable, "-m", "fdsolver", "sweep", CASE, "--vary", "d=2:6:600", "-o", str(out), "-j", "2", "--chunk", "3", "-q"]
     proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     try:
         path = ck.path_for(out)

@@ -1,4 +1,4 @@
-"""Tests of the safe arithmetic-expression evaluator (fdsolver.expressions)."""
+"""Tests of the safe arithmetic-expression evaluator (fdsolver.input._expressions)."""
 
 from __future__ import annotations
 
@@ -13,7 +13,7 @@ import pytest
 import scipy.special
 
 from fdsolver.errors import CaseError
-from fdsolver.expressions import (
+from fdsolver.input._expressions import (
     CONSTANT_NAMES,
     FUNCTION_NAMES,
     MAX_DEPTH,
@@ -407,7 +407,7 @@ def test_long_literals_are_refused():
 
 def test_module_never_calls_eval_exec_or_compile():
     # common practice, no source: the evaluator must walk the tree itself
-    import fdsolver.expressions as module
+    import fdsolver.input._expressions as module
 
     tree = ast.parse(pathlib.Path(module.__file__).read_text())
     called = {

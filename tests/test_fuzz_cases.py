@@ -5,7 +5,7 @@ or raises :class:`fdsolver.CaseError` with a one-line message; nothing else
 (no TypeError, KeyError, RecursionError, ...), and quickly.
 
 Inputs are TOML documents built from the schema's own keys (the tables in
-``fdsolver.case`` and ``fdsolver.shapes.SHAPES``, plus misspellings) filled
+``fdsolver.input.case`` and ``fdsolver.shapes.SHAPES``, plus misspellings) filled
 with hostile values (NaN, inf, huge and subnormal numbers, booleans, dates,
 arrays, inline tables, hostile expressions, control characters), rendered to
 TOML by this module and then, for some examples, damaged at the text level
@@ -31,9 +31,8 @@ from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
 import fdsolver
-from fdsolver import case as case_module
-from fdsolver import shapes as shapes_module
-
+from fdsolver.input import case as case_module
+from fdsolver.model import shapes as shapes_module
 SEEDS = pathlib.Path(__file__).parent / "fuzz_seeds" / "cases"
 SCALE = max(1, int(os.environ.get("FDSOLVER_FUZZ_SCALE", "1")))
 FUZZ = settings(

@@ -1,4 +1,4 @@
-"""Fuzz tests of the expression evaluator (fdsolver.expressions).
+"""Fuzz tests of the expression evaluator (fdsolver.input._expressions).
 
 Contract checked: any text given to compile_expression + evaluate either gives
 a finite float/array or raises CaseError, never another exception; and
@@ -22,7 +22,7 @@ from hypothesis import HealthCheck, assume, example, given, settings
 from hypothesis import strategies as st
 
 from fdsolver.errors import CaseError
-from fdsolver.expressions import compile_expression
+from fdsolver.input._expressions import compile_expression
 
 SEEDS_FILE = pathlib.Path(__file__).parent / "fuzz_seeds" / "expressions.txt"
 GRID = np.linspace(-2.0, 2.0, 9)

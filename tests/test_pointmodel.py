@@ -1,4 +1,4 @@
-"""Checks of the zero-range point-interaction model (fdsolver.pointmodel).
+"""Checks of the zero-range point-interaction model (fdsolver.zerorange.pointmodel).
 
 Every reference is outside the module under test: textbook closed forms,
 SciPy reference functions (scipy.special.lambertw, scipy.optimize.brentq,
@@ -22,7 +22,7 @@ from scipy.optimize import brentq
 from scipy.special import lambertw
 
 from fdsolver.errors import CaseError
-from fdsolver.pointmodel import (
+from fdsolver.zerorange.pointmodel import (
     PointSpectrum,
     Threshold,
     binding_thresholds,

@@ -12,13 +12,13 @@ import pytest
 import xarray as xr
 
 import fdsolver
-from fdsolver import checkpoint as ck
-from fdsolver import sweep as sw
-from fdsolver import thresholds
+from fdsolver.parallel import checkpoint as ck
+from fdsolver.scans import sweep as sw
+from fdsolver.scans import thresholds
 from fdsolver.api import solve_case
 from fdsolver.cli import main
 from fdsolver.errors import CaseError
-from fdsolver.executors import SerialExecutor
+from fdsolver.parallel.executors import SerialExecutor
 from fdsolver.report import format_archive
 
 CASE = str(Path(__file__).resolve().parent.parent / "cases" / "double_square.toml")
@@ -230,7 +230,7 @@ def test_partial_and_damaged_lines_are_tolerated(tmp_path):
 def test_sigkill_then_resume_gives_the_same_file(tmp_path):
     out = tmp_path / "kill.nc"
     path = ck.path_for(out)
-    cmd = [sys.executable, "-m", "fdsolver.cli", "sweep", CASE, "--vary", "d=2:6:240", "-o", str(out), "--executor", "serial", "--chunk", "2", "-q"]
+    cmd = [sys.executable, "-m", "fdsolver", "sweep", CASE, "--vary", "d=2:6:240", "-o", str(out), "--executor", "serial", "--chunk", "2", "-q"]
     proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
     try:
         deadline = time.time() + 60

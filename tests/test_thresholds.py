@@ -1,7 +1,7 @@
 """Binding thresholds from the zero-energy phase, checked against closed forms.
 
 Sources are named beside each check.  C = hbar^2 / 2m_e comes from
-fdsolver.units (scipy.constants CODATA values); masses are in m_e.
+fdsolver.model.units (scipy.constants CODATA values); masses are in m_e.
 """
 
 import json
@@ -12,12 +12,13 @@ import numpy as np
 import pytest
 
 import fdsolver
-from fdsolver import counting, thresholds
+from fdsolver.boundstates import counting
+from fdsolver.scans import thresholds
 from fdsolver.api import solve_case
 from fdsolver.cli import main
 from fdsolver.errors import CaseError
-from fdsolver.operator import assemble
-from fdsolver.units import UNIT_SYSTEMS
+from fdsolver.numerics.operator import assemble
+from fdsolver.model.units import UNIT_SYSTEMS
 
 CASE = str(Path(__file__).resolve().parent.parent / "cases" / "double_square.toml")
 C_NM = UNIT_SYSTEMS["nm-meV"].hbar2_2me

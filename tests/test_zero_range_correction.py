@@ -1,4 +1,4 @@
-"""The first-order width correction and the zero-energy counts of fdsolver.zerorange, checked from outside.
+"""The first-order width correction and the zero-energy counts of fdsolver.zerorange.narrow, checked from outside.
 
 References used here, none of them the module under test:
 
@@ -23,9 +23,9 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from fdsolver import shapes as S
-from fdsolver.pointmodel import point_spectrum
-from fdsolver.zerorange import critical_scale, first_order, mean_distance, scaled, zero_energy_count
+from fdsolver.model import shapes as S
+from fdsolver.zerorange.pointmodel import point_spectrum
+from fdsolver.zerorange.narrow import critical_scale, first_order, mean_distance, scaled, zero_energy_count
 
 C = 0.5  # hbar^2 / (2 m_e) in hartree bohr^2
 
@@ -125,7 +125,7 @@ def _brute_mean_distance(shape, reach):
 @pytest.mark.parametrize("kind,closed", [
     ("square", lambda w: w / 3.0),  # elementary: E|U - U'| = 1/3 for uniform U on [0, 1]
     ("gaussian", lambda s: 2.0 * s / math.sqrt(math.pi)),  # X - X' ~ N(0, 2 s^2), E|N(0, t^2)| = t sqrt(2/pi)
-    ("sech2", lambda w: w),  # logistic law of scale w/2: mean difference 2 * (w/2) (derived in fdsolver.zerorange; from memory)
+    ("sech2", lambda w: w),  # logistic law of scale w/2: mean difference 2 * (w/2) (derived in fdsolver.zerorange.narrow; from memory)
     ("smooth_square", None),
 ])
 def test_mean_distance_against_double_quadrature(kind, closed):
@@ -198,7 +198,7 @@ def test_critical_separation_of_a_square_pair_closed_form():
 
 def test_smooth_wells_count_like_points_when_narrow():
     """Narrow wells of any profile bind as many states as their point limit (count from pointmodel)."""
-    from fdsolver.pointmodel import zero_energy_solution
+    from fdsolver.zerorange.pointmodel import zero_energy_solution
 
     for d, expect in ((1.2, 2), (0.8, 1)):  # the odd state of a g = 1 pair binds for d > 1/g = 1
         for kind in S.FINITE_REPLACEMENTS:

@@ -1,0 +1,103 @@
+"""The computational box for open ends.
+
+A bound state of energy E decays beyond its outer turning point as
+exp(-int kappa dx), kappa = sqrt(m (V - E)/C).  Truncating the line at a box end
+with psi = 0 shifts E by about exp(-2 int kappa dx) relative, so each open end
+is placed where that WKB integral of the shallowest wanted state reaches a
+``budget`` (the solver uses ln(100/tol)/2 + 1).  Unbounded sides (harmonic,
+Morse wall) end where states below a guessed energy have decayed.  Lengths in
+the case length unit, energies in its energy unit.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from fdsolver.model.potential import Potential
+
+
+def length_scale(potential: Potential) -> float:
+    lo, hi = potential.support()
+    scales = [s for _, s in potential.feature_scales() if math.isfinite(s)]
+    scales += [s for _, s in potential.point_scales()]
+    scale = max([hi - lo] + scales + [0.0])
+    return scale if scale > 0 else 1.0  # nothing to measure (e.g. a bare expression): one length unit
+
+
+def decay_extent(potential: Potential, start: float, side: int, e_top: float, budget: float, scale: float) -> float:
+    """Position beyond ``start`` (direction ``side``) where the WKB decay integral of energy e_top reaches ``budget``."""
+    c = potential.hbar2_2me
+    t = scale * 1e-3 * 1.02 ** np.arange(0, 2500)
+    t = t[t < scale * 1e9]
+    x = start + side * np.concatenate([[0.0], t])
+    with np.errstate(over="ignore", invalid="ignore"):
+        v = potential.value(x)
+    v = np.where(np.isfinite(v), v, 1e300)
+    kappa = np.sqrt(np.maximum(0.0, potential.mass_at(x) * (v - e_top) / c))
+    allowed = np.flatnonzero(v <= e_top)
+    i0 = int(allowed[-1]) if allowed.size else 0
+    seg = kappa[i0:]
+    integral = np.concatenate([[0.0], np.cumsum(0.5 * (seg[1:] + seg[:-1]) * np.abs(np.diff(x[i0:])))])
+    hit = np.flatnonzero(integral >= budget)
+    if hit.size == 0:
+        return float(x[-1])
+    return float(x[i0 + hit[0]])
+
+
+def open_box(pot: Potential, dom, e_top: float, budget: float, minimum) -> tuple[float, float]:
+    """Box for open ends: WKB decay budget of energy e_top on both sides, at least ``minimum``, symmetric when V is."""
+    lo_s, hi_s = pot.support()
+    scale = length_scale(pot)
+    lo = decay_extent(pot, lo_s, -1, e_top, budget, scale)
+    hi = decay_extent(pot, hi_s, +1, e_top, budget, scale)
+    lo = min(lo, minimum[0], lo_s - 0.5 * scale)
+    hi = max(hi, minimum[1], hi_s + 0.5 * scale)
+    if dom.left is not None:
+        lo = min(lo, dom.left)
+    if dom.right is not None:
+        hi = max(hi, dom.right)
+    # a symmetric potential gets a symmetric box so mirror nodes exist
+    x0 = pot.mirror_center(lo_s - scale, hi_s + scale)
+    if x0 is not None:
+        half = max(x0 - lo, hi - x0)
+        lo, hi = x0 - half, x0 + half
+    return (lo, hi)
+
+
+def _attracts(shape) -> bool:
+    """True for wells (negative amplitude) and attractive point interactions."""
+    if getattr(shape, "alpha", None) is not None:
+        return shape.alpha > 0
+    return getattr(shape, "amplitude", 0.0) < 0
+
+
+def provisional_box(potential: Potential, domain, threshold: float, budget: float) -> tuple[float, float]:
+    """A first box before any state is known: walls for hard ends, 10 length scales (or a WKB end) otherwise."""
+    if domain.boundary == "hard":
+        return (float(domain.left), float(domain.right))
+    scale = length_scale(potential)
+    lo_s, hi_s = potential.support()
+    pad = 10.0 * scale
+    # a narrow well of integrated strength A binds with kappa ~ m A / hbar^2: its tail needs budget / kappa
+    attract = sum(
+        s.strength() for s in potential.shapes if math.isfinite(s.strength()) and _attracts(s)
+    )
+    if attract > 0 and math.isfinite(threshold):
+        kappa = potential.mass * attract / (2.0 * potential.hbar2_2me)
+        pad = max(pad, budget / kappa)
+    box = [lo_s - pad, hi_s + pad]
+    for i, side in enumerate((-1, 1)):
+        if not math.isfinite(potential.asymptote(side)):
+            # an unbounded side ends where states below the guess have decayed
+            edge = (lo_s, hi_s)[i]
+            far = potential.value(np.array([edge + side * pad]))[0]
+            guess = threshold if math.isfinite(threshold) else 0.5 * (far + potential.value(np.array([edge]))[0])
+            box[i] = decay_extent(potential, edge, side, guess, budget, scale)
+    lo, hi = min(box[0], lo_s - 0.5 * scale), max(box[1], hi_s + 0.5 * scale)
+    if domain.left is not None:
+        lo = min(lo, domain.left)
+    if domain.right is not None:
+        hi = max(hi, domain.right)
+    return (lo, hi)

@@ -1,0 +1,94 @@
+"""The ``fdsolver`` command line: parse, call the core, print.  Nothing else lives here.
+
+Subcommands are registered from small modules (``cli_*.py``), each with
+``register(subparsers)`` that adds its parser and sets ``func``.  Exit codes:
+0 success, 2 bad input (one line naming file, key and problem, on stderr),
+1 unexpected failure (one line; the traceback only with FDSOLVER_DEBUG=1).
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+
+from fdsolver._version import __version__
+from fdsolver.errors import CaseError, FdsolverError
+
+SUBCOMMAND_MODULES = ("solve", "delta", "sweep")
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that reports usage errors as one line and exit code 2."""
+
+    def error(self, message):  # noqa: D102
+        self.exit(2, f"fdsolver: error: {message} (see 'fdsolver {self.prog.split()[-1]} --help')\n")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    import importlib
+
+    parser = _Parser(prog="fdsolver", description="Bound states of 1D potentials on adaptive finite-difference grids.")
+    parser.add_argument("--version", action="version", version=f"fdsolver {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    for name in SUBCOMMAND_MODULES:
+        try:
+            mod = importlib.import_module(f"fdsolver.cli.{name}")
+        except ModuleNotFoundError as exc:
+            if exc.name and exc.name.endswith(name):
+                continue
+            raise
+        mod.register(sub)
+    return parser
+
+
+def parse_set(items) -> dict:
+    """--set NAME=VALUE pairs as a dict (VALUE a number or an expression string)."""
+    out = {}
+    for item in items or []:
+        if "=" not in item:
+            raise CaseError(f"'{item}' is not NAME=VALUE", key="--set")
+        name, value = item.split("=", 1)
+        name, value = name.strip(), value.strip()
+        try:
+            out[name] = float(value)
+        except ValueError:
+            out[name] = value
+    return out
+
+
+def main(argv=None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "func", None):
+        parser.print_help(sys.stderr)
+        return 2
+    try:
+        return int(args.func(args) or 0)
+    except CaseError as err:
+        print(f"fdsolver: error: {err}", file=sys.stderr)
+        return 2
+    except BrokenPipeError:  # output piped into e.g. `head`: stop quietly
+        try:
+            sys.stdout = open(os.devnull, "w")
+        except OSError:
+            pass
+        return 0
+    except KeyboardInterrupt:
+        print("fdsolver: interrupted", file=sys.stderr)
+        return 130
+    except FdsolverError as err:
+        print(f"fdsolver: error: {err}", file=sys.stderr)
+        return 1
+    except Exception as exc:  # a bug: one line, traceback on request
+        if os.environ.get("FDSOLVER_DEBUG"):
+            raise
+        print(
+            f"fdsolver: internal error: {type(exc).__name__}: {exc} (please report; FDSOLVER_DEBUG=1 shows the traceback)",
+            file=sys.stderr,
+        )
+        return 1
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,188 @@
+"""Archives: xarray Datasets with CF-1.13 attributes, written to NetCDF atomically.
+
+Every fdsolver result (a solve, a zero-range check, a sweep) is a Dataset
+whose global attribute ``fdsolver_kind`` says which; all carry the case file
+text verbatim (``case_text``), the resolved parameters (``params``, JSON), the
+table files the case read (``case_tables``, JSON), the fdsolver version
+(``source``) and a ``history`` line per write with a UTC timestamp.
+
+Units: every variable has ``units`` (UDUNITS spelling; atomic units as
+scaled SI units with ``units_name`` = bohr/hartree) and ``long_name``.
+Wavefunctions are stored as psi * sqrt(1 length unit), which is
+dimensionless (``units = "1"``), because UDUNITS cannot write half powers;
+``units_note`` says so on the variable.
+
+:func:`write_dataset` writes to a temporary file in the target folder and
+renames it over the target (``os.replace``), so a crash leaves the old file
+or the new one, never a truncated one.  :func:`open_run` reads an archive
+back fully into memory and checks that it is one of ours.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import json
+import os
+import signal
+import tempfile
+import threading
+from pathlib import Path
+
+import numpy as np
+import xarray as xr
+
+from fdsolver._version import __version__
+from fdsolver.errors import ArchiveError, CaseError
+
+CONVENTIONS = "CF-1.13"
+KINDS = ("solve", "delta_check", "sweep", "threshold")
+#: variables without which an archive of a kind cannot be shown
+REQUIRED = {
+    "solve": ("x", "energy", "energy_error", "converged", "nodes", "parity", "mean_x", "spread", "psi", "potential", "level_nodes"),
+    "sweep": ("energy", "energy_error"),
+    "delta_check": ("energy_limit",),
+    "threshold": ("phase_margin", "bound_states", "threshold_value", "threshold_uncertainty"),
+}
+
+
+def stamp(action: str) -> str:
+    """One history line: an ISO-8601 UTC timestamp and what was done."""
+    now = _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
+    return f"{now}: {action} (fdsolver {__version__})"
+
+
+def base_attrs(case, kind: str, action: str, comment: str = "") -> dict:
+    """Global attributes shared by every archive kind."""
+    return {
+        "Conventions": CONVENTIONS,
+        "title": case.title,
+        "institution": "",
+        "source": f"fdsolver {__version__}",
+        "history": stamp(action),
+        "references": (
+            "Flux-form three-point finite differences on nested adaptive grids with Richardson extrapolation; "
+            "BenDaniel-Duke matching, Phys. Rev. 152, 683 (1966); see README.md of fdsolver"
+        ),
+        "comment": comment or "Model calculation; check against measurement before relying on it.",
+        "fdsolver_kind": kind,
+        "units_system": case.units.name,
+        "units_note": case.units.units_note,
+        "hbar2_2me": float(case.units.hbar2_2me),
+        "hbar2_2me_units": f"{case.units.energy} {case.units.length}^2",
+        "particle_mass": float(case.mass),
+        "case_file": str(case.path or ""),
+        "case_text": case.text,
+        "case_tables": json.dumps(case.tables),
+        "params": json.dumps(case.params, sort_keys=True),
+    }
+
+
+def length_attrs(units, long_name: str) -> dict:
+    return {"units": units.length_udunits, "units_name": units.length, "long_name": long_name}
+
+
+def energy_attrs(units, long_name: str) -> dict:
+    return {"units": units.energy_udunits, "units_name": units.energy, "long_name": long_name}
+
+
+def _clean_attrs(attrs: dict) -> dict:
+    out = {}
+    for k, v in attrs.items():
+        if isinstance(v, (bool, np.bool_)):
+            v = int(v)
+        elif isinstance(v, dict):
+            v = json.dumps(v)
+        elif isinstance(v, (list, tuple)):
+            v = json.dumps(list(v))
+        elif v is None:
+            v = ""
+        out[k] = v
+    return out
+
+
+def write_dataset(ds: xr.Dataset, path) -> Path:
+    """Write ``ds`` to NetCDF at ``path`` atomically (temp file + os.replace)."""
+    path = Path(path)
+    folder = path.parent if str(path.parent) else Path(".")
+    if not folder.is_dir():
+        raise CaseError(f"folder '{folder}' does not exist; create it or choose another output path", key="--output")
+    if path.is_dir():
+        raise CaseError(f"'{path}' is a directory; give a file name for the archive", key="--output")
+    ds = ds.copy()
+    ds.attrs = _clean_attrs(ds.attrs)
+    for name in ds.variables:
+        ds[name].attrs = _clean_attrs(ds[name].attrs)
+    encoding = {}
+    for name in ds.variables:
+        var = ds[name]
+        if var.dtype.kind == "f":
+            encoding[name] = {"_FillValue": None} if name in ds.coords else {"_FillValue": np.nan}
+        if var.dtype.kind == "b":
+            raise TypeError(f"boolean variable {name} must be stored as int8")
+    for name in ds.data_vars:  # HDF5 checksums: a flipped byte is detected on reading
+        if ds[name].dtype.kind in "fiu" and ds[name].ndim > 0:
+            encoding.setdefault(name, {})["fletcher32"] = True
+    # Ctrl-C is held back until the file is complete: an interrupt inside the NetCDF library can leave
+    # its locks taken (the process would hang in the cleanup); it is raised right after the rename.
+    held: list[int] = []
+    old_handler = None
+    if threading.current_thread() is threading.main_thread():
+        old_handler = signal.signal(signal.SIGINT, lambda signum, frame: held.append(signum))
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
+    os.close(fd)
+    try:
+        ds.to_netcdf(tmp, engine="netcdf4", encoding=encoding)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; archives get the usual permissions
+        with open(tmp, "rb") as fh:  # on disk before the rename
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+    finally:
+        if old_handler is not None:
+            signal.signal(signal.SIGINT, old_handler)
+    if held:
+        raise KeyboardInterrupt
+    return path
+
+
+def open_run(path) -> xr.Dataset:
+    """Load an fdsolver archive fully into memory; :class:`ArchiveError` if it is not a readable one."""
+    p = Path(path)
+    if p.is_dir():
+        raise ArchiveError("is a directory, not an archive", file=str(path))
+    if not p.exists():
+        raise ArchiveError("no such archive file", file=str(path))
+    try:
+        with xr.open_dataset(p, engine="netcdf4") as ds:
+            ds = ds.load()
+    except Exception as exc:  # netCDF4/HDF5 raise OSError, RuntimeError, ValueError, KeyError ...
+        raise ArchiveError(
+            f"not a readable NetCDF archive ({type(exc).__name__}: {str(exc)[:120]}); it may be truncated or corrupt",
+            file=str(path),
+        ) from None
+    kind = ds.attrs.get("fdsolver_kind")
+    if kind not in KINDS:
+        raise ArchiveError("is a NetCDF file but not an fdsolver archive (no fdsolver_kind attribute)", file=str(path))
+    if "case_text" not in ds.attrs:
+        raise ArchiveError("archive has no case_text attribute; it was not written by fdsolver", file=str(path))
+    missing = [v for v in REQUIRED.get(kind, ()) if v not in ds.variables]
+    if missing:
+        raise ArchiveError(
+            f"archive of kind '{kind}' lacks the variable(s) {', '.join(missing)}; it is damaged or was not written by fdsolver",
+            file=str(path),
+        )
+    ds.encoding["source"] = str(path)
+    return ds
+
+
+def add_history(ds: xr.Dataset, action: str) -> None:
+    """Append a timestamped line to the history attribute."""
+    old = ds.attrs.get("history", "")
+    ds.attrs["history"] = (old + "\n" if old else "") + stamp(action)

@@ -1,0 +1,229 @@
+"""The potential of a case: a layer stack plus a sum of shapes.
+
+:class:`LayerStack` is a heterostructure: layers of given thickness, band
+edge (energy) and effective mass (in m_e).  The first and last layers extend
+to -infinity and +infinity; the first finite layer starts at ``origin``.
+
+:class:`Potential` sums the stack's band edge and every shape, carries the
+position-dependent mass m(x) (the stack's, or the particle mass where there is
+no stack) and answers the questions the grid and the solver ask: feature
+points, local length scales, asymptotic values, the continuum threshold,
+zero-range terms, and mirror symmetry.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from fdsolver.model.shapes import INF, Shape
+from fdsolver.model.units import UnitSystem
+
+
+@dataclass(frozen=True)
+class Layer:
+    """One layer: ``thickness`` (length; ignored for the two outer layers), band edge (energy), mass (m_e)."""
+
+    name: str | None
+    thickness: float
+    band_edge: float
+    mass: float
+
+
+@dataclass(frozen=True)
+class LayerStack:
+    """Layers left to right; interfaces at ``origin`` + cumulative thicknesses of the inner layers."""
+
+    layers: tuple[Layer, ...]
+    origin: float = 0.0
+
+    @property
+    def interfaces(self) -> np.ndarray:
+        inner = [layer.thickness for layer in self.layers[1:-1]]
+        return self.origin + np.concatenate([[0.0], np.cumsum(inner)]) if len(self.layers) > 1 else np.array([])
+
+    def index(self, x: np.ndarray) -> np.ndarray:
+        """Layer index of each position (a point on an interface belongs to the layer on its right)."""
+        return np.searchsorted(self.interfaces, np.asarray(x, dtype=float), side="right")
+
+    def band_edge(self, x):
+        edges = np.array([layer.band_edge for layer in self.layers])
+        return edges[self.index(x)]
+
+    def mass(self, x):
+        masses = np.array([layer.mass for layer in self.layers])
+        return masses[self.index(x)]
+
+    def regions(self) -> list[tuple[str | None, float, float]]:
+        bounds = np.concatenate([[-INF], self.interfaces, [INF]])
+        return [(layer.name, float(bounds[i]), float(bounds[i + 1])) for i, layer in enumerate(self.layers)]
+
+    def scale(self) -> float | None:
+        inner = [layer.thickness for layer in self.layers[1:-1]]
+        return min(inner) if inner else None
+
+
+@dataclass(frozen=True)
+class Potential:
+    """V(x) = band edge of the stack (if any) + sum of shapes; m(x) from the stack or ``mass``.
+
+    Energies are in ``units.energy``, lengths in ``units.length``, masses in m_e.
+    """
+
+    shapes: tuple[Shape, ...]
+    units: UnitSystem
+    mass: float = 1.0
+    stack: LayerStack | None = None
+
+    # ------------------------------------------------------------------ values
+    def value(self, x) -> np.ndarray:
+        """Potential energy at ``x`` (excluding zero-range terms)."""
+        x = np.asarray(x, dtype=float)
+        v = np.zeros_like(x) if self.stack is None else self.stack.band_edge(x).astype(float)
+        for shape in self.shapes:
+            v = v + shape.value(x)
+        return v
+
+    def mass_at(self, x) -> np.ndarray:
+        """Effective mass m(x) in m_e."""
+        x = np.asarray(x, dtype=float)
+        if self.stack is None:
+            return np.full_like(x, self.mass)
+        return self.stack.mass(x).astype(float)
+
+    @property
+    def hbar2_2me(self) -> float:
+        return self.units.hbar2_2me
+
+    def point_terms(self) -> list[tuple[float, float]]:
+        """All zero-range terms (position, alpha), -alpha delta(x - position)."""
+        out = []
+        for shape in self.shapes:
+            out.extend(shape.point_terms())
+        return out
+
+    # ------------------------------------------------------------ geometry
+    def features(self) -> np.ndarray:
+        """Sorted unique positions that must be grid nodes."""
+        pts = []
+        for shape in self.shapes:
+            pts.extend(shape.features())
+        if self.stack is not None:
+            pts.extend(self.stack.interfaces.tolist())
+        pts = np.unique(np.asarray(pts, dtype=float))
+        if pts.size > 1:  # merge positions closer than round-off
+            keep = np.concatenate([[True], np.diff(pts) > 1e-12 * max(1.0, np.max(np.abs(pts)))])
+            pts = pts[keep]
+        return pts
+
+    def feature_scales(self) -> list[tuple[float, float]]:
+        """(position, length scale) pairs: the grid must resolve ``scale`` around ``position``."""
+        out = []
+        for shape in self.shapes:
+            s = shape.scale()
+            if s is None:
+                continue
+            for p in shape.features():
+                out.append((p, s))
+        if self.stack is not None:
+            s = self.stack.scale()
+            for p in self.stack.interfaces:
+                out.append((float(p), s if s is not None else INF))
+        return out
+
+    def point_scales(self) -> list[tuple[float, float]]:
+        """(position, 1/g) for each attractive point term, g = m alpha / hbar^2: its bound-state decay length."""
+        out = []
+        for pos, alpha in self.point_terms():
+            m = float(self.mass_at(np.array([pos]))[0])
+            g = m * abs(alpha) / (2.0 * self.hbar2_2me)
+            if g > 0:
+                out.append((pos, 1.0 / g))
+        return out
+
+    def asymptote(self, side: int) -> float:
+        """Limit of V at side*infinity (+-inf for unbounded shapes)."""
+        total = 0.0
+        if self.stack is not None:
+            total += self.stack.layers[0 if side < 0 else -1].band_edge
+        for shape in self.shapes:
+            total += shape.asymptote(side)
+        return total
+
+    def asymptotic_mass(self, side: int) -> float:
+        if self.stack is None:
+            return self.mass
+        return self.stack.layers[0 if side < 0 else -1].mass
+
+    def support(self) -> tuple[float, float]:
+        """The interval holding every feature (and region) of the potential."""
+        pts = list(self.features())
+        for shape in self.shapes:
+            r = shape.region()
+            if r is not None:
+                pts.extend(v for v in r if math.isfinite(v))
+        if not pts:
+            return (0.0, 0.0)
+        return (min(pts), max(pts))
+
+    def regions(self) -> list[tuple[str, float, float]]:
+        """Named intervals for the 'probability inside' report: named shapes and named layers."""
+        out = []
+        for shape in self.shapes:
+            r = shape.region()
+            if shape.name and r is not None:
+                out.append((shape.name, r[0], r[1]))
+        if self.stack is not None:
+            for name, lo, hi in self.stack.regions():
+                if name:
+                    out.append((name, lo, hi))
+        return out
+
+    # --------------------------------------------------------------- symmetry
+    def mirror_center(self, lo: float, hi: float) -> float | None:
+        """The point x0 about which V, m and the point terms are mirror-symmetric, or None.
+
+        Tested on 257 sample points of [lo, hi] (the solver's box), to 1e-10
+        of the potential's range.
+        """
+        feats = self.features()
+        if feats.size:
+            x0 = 0.5 * (feats[0] + feats[-1])
+        else:
+            x0 = 0.0
+        pts = self.point_terms()
+        if pts:
+            pos = {round((p - x0), 12): a for p, a in pts}
+            for p, a in pts:
+                b = pos.get(round(-(p - x0), 12))
+                if b is None or abs(a - b) > 1e-12 * max(abs(a), abs(b)):
+                    return None
+        half = min(x0 - lo, hi - x0)
+        if half <= 0:
+            return None
+        if feats.size:
+            # the features themselves must mirror each other
+            span = max(float(feats[-1] - feats[0]), 1e-300)
+            mirrored = np.sort(2.0 * x0 - feats)
+            if np.max(np.abs(mirrored - feats)) > 1e-9 * span:
+                return None
+        # dense samples where the potential varies (the features' extent plus a few length scales), sparse beyond
+        scales = [s for _, s in self.feature_scales() if math.isfinite(s)]
+        inner = min(half, 0.5 * (float(feats[-1] - feats[0]) if feats.size else 0.0) + 3.0 * max(scales + [0.0]))
+        parts = [np.linspace(0.0, half, 257)[1:]]
+        if inner > 0:
+            parts.append(np.linspace(0.0, inner, 2049)[1:])
+        s = np.concatenate(parts)
+        # offset samples by an irrational fraction of their spacing so they avoid discontinuities
+        s = np.abs(s - 0.3183098861837907 * np.concatenate([np.full(256, half / 256), np.full(s.size - 256, inner / 2048 if inner > 0 else 0.0)]))
+        vl, vr = self.value(x0 - s), self.value(x0 + s)
+        if not (np.all(np.isfinite(vl)) and np.all(np.isfinite(vr))):
+            return None
+        span = max(np.ptp(np.concatenate([vl, vr])), 1e-300)
+        if np.max(np.abs(vl - vr)) > 1e-10 * span:
+            return None
+        if np.max(np.abs(self.mass_at(x0 - s) - self.mass_at(x0 + s))) > 1e-12:
+            return None
+        return float(x0)
