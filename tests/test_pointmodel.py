@@ -21,10 +21,10 @@ from scipy.integrate import quad
 from scipy.optimize import brentq
 from scipy.special import lambertw
 
+from fdsolver.boundstates.counting import Threshold
 from fdsolver.errors import CaseError
 from fdsolver.zerorange.pointmodel import (
     PointSpectrum,
-    Threshold,
     binding_thresholds,
     critical_separation,
     pair_closed_form,
@@ -477,8 +477,8 @@ def test_threshold_symmetric_pair_vs_separation():
     assert len(th) == 1
     assert isinstance(th[0], Threshold)
     # d_c = 1/g (common practice, no source)
-    assert th[0].param_value == pytest.approx(1.0 / g, rel=1e-10)
-    assert th[0].direction == 1 and th[0].state_index == 1
+    assert th[0].value == pytest.approx(1.0 / g, rel=1e-10)
+    assert th[0].direction == 1 and th[0].state == 1
 
 
 def test_threshold_symmetric_pair_nm_mev_units():
@@ -487,7 +487,7 @@ def test_threshold_symmetric_pair_nm_mev_units():
     th = binding_thresholds(lambda d: [0.0, d], lambda d: [alpha, alpha], 0.5, 40.0,
                             mass=mass, hbar2_2me=NM_MEV_C)
     assert len(th) == 1
-    assert th[0].param_value == pytest.approx(2 * NM_MEV_C / (mass * alpha), rel=1e-10)
+    assert th[0].value == pytest.approx(2 * NM_MEV_C / (mass * alpha), rel=1e-10)
 
 
 def test_threshold_unbinding_direction():
@@ -495,16 +495,16 @@ def test_threshold_unbinding_direction():
     g = 1.0
     th = binding_thresholds(lambda p: [0.0, 3.0 - p], lambda p: alpha_from_g([g, g]), 0.0, 2.9)
     assert len(th) == 1
-    assert th[0].param_value == pytest.approx(3.0 - 1.0 / g, rel=1e-10)
-    assert th[0].direction == -1 and th[0].state_index == 1
+    assert th[0].value == pytest.approx(3.0 - 1.0 / g, rel=1e-10)
+    assert th[0].direction == -1 and th[0].state == 1
 
 
 def test_threshold_strength_family():
     # fixed d, coupling g = p: odd state binds at g d = 1
     d = 2.0
     th = binding_thresholds(lambda p: [0.0, d], lambda p: alpha_from_g([p, p]), 0.05, 3.0)
-    assert [(t.state_index, t.direction) for t in th] == [(1, 1)]
-    assert th[0].param_value == pytest.approx(1.0 / d, rel=1e-10)
+    assert [(t.state, t.direction) for t in th] == [(1, 1)]
+    assert th[0].value == pytest.approx(1.0 / d, rel=1e-10)
 
 
 @pytest.mark.parametrize("g1,g2", [(1.0, 2.5), (0.3, 0.9), (2.0, 0.5)])
@@ -516,8 +516,8 @@ def test_threshold_asymmetric_pair(g1, g2):
     d_c = (g1 + g2) / (2 * g1 * g2)
     th = binding_thresholds(lambda d: [0.0, d], lambda d: alpha_from_g([g1, g2]), 0.05, 3 * d_c)
     assert len(th) == 1
-    assert th[0].param_value == pytest.approx(d_c, rel=1e-10)
-    assert th[0].direction == 1 and th[0].state_index == 1
+    assert th[0].value == pytest.approx(d_c, rel=1e-10)
+    assert th[0].direction == 1 and th[0].state == 1
     assert point_spectrum([0, 0.99 * d_c], alpha_from_g([g1, g2])).n_states == 1
     assert point_spectrum([0, 1.01 * d_c], alpha_from_g([g1, g2])).n_states == 2
 
@@ -530,8 +530,8 @@ def test_threshold_repulsive_neighbour_kills_binding():
     d_c = (g1 + g2) / (2 * g1 * g2)
     th = binding_thresholds(lambda d: [0.0, d], lambda d: alpha_from_g([g1, g2]), 0.01, 4.0)
     assert len(th) == 1
-    assert th[0].param_value == pytest.approx(d_c, rel=1e-10)
-    assert th[0].direction == 1 and th[0].state_index == 0
+    assert th[0].value == pytest.approx(d_c, rel=1e-10)
+    assert th[0].direction == 1 and th[0].state == 0
     assert point_spectrum([0, 0.9 * d_c], alpha_from_g([g1, g2])).n_states == 0
     assert point_spectrum([0, 1.1 * d_c], alpha_from_g([g1, g2])).n_states == 1
 
@@ -542,9 +542,9 @@ def test_threshold_three_equal_points():
     # g (-6 + 16 u - 8 u^2) = 0  <=>  4u^2 - 8u + 3 = 0  <=>  u = 1/2 or u = 3/2.
     g = 1.25
     th = binding_thresholds(lambda s: [-s, 0.0, s], lambda s: alpha_from_g([g, g, g]), 0.05, 4.0)
-    assert [(t.state_index, t.direction) for t in th] == [(1, 1), (2, 1)]
-    assert th[0].param_value == pytest.approx(0.5 / g, rel=1e-10)
-    assert th[1].param_value == pytest.approx(1.5 / g, rel=1e-10)
+    assert [(t.state, t.direction) for t in th] == [(1, 1), (2, 1)]
+    assert th[0].value == pytest.approx(0.5 / g, rel=1e-10)
+    assert th[1].value == pytest.approx(1.5 / g, rel=1e-10)
 
 
 # ---------------------------------------------------------------------------
@@ -663,11 +663,11 @@ def test_thresholds_consistent_with_counts_random_family():
     count = lambda p: point_spectrum(p * x0, alpha_from_g(g)).n_states  # noqa: E731
     assert count(hi) - count(lo) == sum(t.direction for t in th)
     for t in th:
-        before, after = count(t.param_value * (1 - 1e-7)), count(t.param_value * (1 + 1e-7))
+        before, after = count(t.value * (1 - 1e-7)), count(t.value * (1 + 1e-7))
         assert after - before == t.direction
-        assert t.state_index == min(before, after)
+        assert t.state == min(before, after)
         # the zero-energy tail slope vanishes there
-        assert abs(zero_energy_solution(t.param_value * x0, alpha_from_g(g))[1]) < 1e-9 * np.sum(np.abs(g))
+        assert abs(zero_energy_solution(t.value * x0, alpha_from_g(g))[1]) < 1e-9 * np.sum(np.abs(g))
 
 
 @pytest.mark.parametrize("d", [20.0, 40.0, 150.0])

@@ -27,7 +27,7 @@ length^-1/2.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -35,8 +35,10 @@ from fdsolver.boundstates import counting
 
 from fdsolver.numerics import kernels
 from fdsolver.boundstates.eigen import GridStates, count_nodes, solve_window
-from fdsolver.errors import BudgetError, CaseError
+from fdsolver.errors import BudgetError
 from fdsolver.boundstates.box import length_scale, open_box, provisional_box
+from fdsolver.boundstates.settings import SolveSettings
+from fdsolver.model.domain import Domain, continuum_threshold
 from fdsolver.numerics.grid import GridSettings, base_grid, refine, spacing_function
 from fdsolver.boundstates.result import Solution, observables
 from fdsolver.numerics.operator import Operator, assemble
@@ -46,47 +48,6 @@ from fdsolver.numerics.richardson import Romberg
 EPS = np.finfo(float).eps
 BYTES_PER_NODE = 8 * 40  # measured upper bound of the working arrays per node (see DEVELOPERS.md)
 BYTES_PER_NODE_STATE = 8 * 4
-
-
-@dataclass(frozen=True)
-class Domain:
-    """``boundary`` is "open" (whole line, box sized automatically) or "hard" (walls at left/right)."""
-
-    boundary: str = "open"
-    left: float | None = None
-    right: float | None = None
-
-
-@dataclass(frozen=True)
-class SolveSettings:
-    """Accuracy and size controls.  ``tolerance`` is relative to |E|; ``memory_mb`` bounds the grid."""
-
-    tolerance: float = 1e-8
-    max_states: int = 10
-    energy_window: tuple[float, float] | None = None
-    memory_mb: float = 1500.0
-    max_levels: int = 9
-    min_levels: int = 3
-    grid: GridSettings = field(default_factory=GridSettings)
-
-
-# ---------------------------------------------------------------- thresholds
-def continuum_threshold(potential: Potential, domain: Domain) -> float:
-    """Lowest energy of the continuum: min of the asymptotes at open ends, inf for two hard walls."""
-    if domain.boundary == "hard":
-        return math.inf
-    vals = []
-    for side in (-1, 1):
-        v = potential.asymptote(side)
-        if v == -math.inf or math.isnan(v):
-            where = "-infinity" if side < 0 else "+infinity"
-            raise CaseError(
-                f"the potential falls without bound toward {where}, so no state is bound on the open line; "
-                'use boundary = "hard" with left and right walls',
-                key="domain.boundary",
-            )
-        vals.append(v)
-    return min(vals)
 
 
 # -------------------------------------------------------------------- levels
@@ -157,6 +118,14 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
     lo_s, hi_s = potential.support()
     coarse = replace(settings.grid, wave_fraction=2.0 * settings.grid.wave_fraction)
 
+    counted: list[int] = []
+
+    def whole_line_count() -> int:
+        """The box-independent number of bound states (computed once)."""
+        if not counted:
+            counted.append(counting.bound_count(potential))
+        return counted[0]
+
     # ---- provisional box and energies
     box = provisional_box(potential, domain, threshold, budget)
     vs = potential.value(np.linspace(box[0], box[1], 4001)[1:-1])
@@ -174,7 +143,7 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
         expected = None
         for _attempt in range(40):
             if math.isfinite(threshold) and setup.e_hi == threshold and setup.e_lo is None:
-                expected = counting.bound_state_count(op, potential, threshold)
+                expected = whole_line_count()
                 if prov.count_below < expected and (box[1] - box[0]) < 1e12 * scale:
                     # a very shallow state: its decay length exceeds the box; grow the box fourfold
                     mid, half = 0.5 * (box[0] + box[1]), 2.0 * (box[1] - box[0])
@@ -209,7 +178,7 @@ def solve_potential(potential: Potential, domain: Domain, settings: SolveSetting
         if hard:
             break
         if math.isfinite(threshold) and setup.e_hi == threshold and setup.e_lo is None:
-            expected = counting.bound_state_count(run.op, potential, threshold)
+            expected = whole_line_count()
             if expected > run.states.count_below and (box[1] - box[0]) < 1e12 * scale:
                 # the fine grid binds a state the box cannot hold: grow the box fourfold
                 mid, half = 0.5 * (box[0] + box[1]), 2.0 * (box[1] - box[0])

@@ -24,7 +24,8 @@ from fdsolver.errors import CaseError, did_you_mean
 from fdsolver.input._expressions import compile_expression, evaluate_number, resolve_params
 from fdsolver.numerics.grid import GridSettings
 from fdsolver.model.potential import Layer, LayerStack, Potential
-from fdsolver.boundstates.driver import Domain, SolveSettings
+from fdsolver.boundstates.settings import SolveSettings
+from fdsolver.model.domain import Domain
 from fdsolver.model.units import UNIT_SYSTEMS, UnitSystem
 
 TOP_KEYS = {

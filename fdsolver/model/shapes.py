@@ -45,6 +45,8 @@ class Shape:
     name: str | None
 
     kind: ClassVar[str] = "shape"
+    #: True if V is constant between the features (marched exactly, one cell per segment)
+    piecewise_constant: ClassVar[bool] = False
 
     def value(self, x: np.ndarray) -> np.ndarray:  # pragma: no cover - interface
         raise NotImplementedError
@@ -89,6 +91,7 @@ class Square(_Localised):
 
     width: float = 1.0
     kind: ClassVar[str] = "square"
+    piecewise_constant: ClassVar[bool] = True
 
     def value(self, x):
         x = np.asarray(x, dtype=float)
@@ -407,6 +410,7 @@ class Point(Shape):
     center: float = 0.0
     alpha: float = 1.0
     kind: ClassVar[str] = "point"
+    piecewise_constant: ClassVar[bool] = True
 
     def value(self, x):
         return np.zeros_like(np.asarray(x, dtype=float))

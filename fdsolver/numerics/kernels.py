@@ -11,8 +11,6 @@
   sum w_i psi_i^2, computed from differences so that its round-off is a few
   ulps of the energy scale rather than of the matrix norm (which grows as
   1/h_min^2 on graded grids).
-* :func:`zero_energy_nodes` - the discrete solution of (K - E W) psi = 0
-  marched from the left with psi_0 = 0, psi_1 = 1, and its sign changes.
 * :func:`lipschitz_limit` - the lower envelope min_j (h_j + g |x_i - x_j|).
 
 Numba is used here because these loops are sequential recurrences that numpy
@@ -44,10 +42,11 @@ def _jit():
     return numba.njit(cache=True, nogil=True)
 
 
-_njit = _jit()
+#: numba.njit(cache=True, nogil=True) with a cache folder that is always writable
+njit = _jit()
 
 
-@_njit
+@njit
 def sturm_count(d, e, sigma):
     """Number of eigenvalues of tridiag(e, d, e) strictly below ``sigma``."""
     n = d.shape[0]
@@ -65,7 +64,7 @@ def sturm_count(d, e, sigma):
     return count
 
 
-@_njit
+@njit
 def tridiag_solve(d, e, sigma, b):
     """Solve (tridiag(e, d, e) - sigma I) y = b with partial pivoting; returns y."""
     n = d.shape[0]
@@ -121,7 +120,7 @@ def tridiag_solve(d, e, sigma, b):
     return y
 
 
-@_njit
+@njit
 def flux_quotient(psi, a, vw, w):
     """Rayleigh quotient of K psi = E W psi in flux form (psi at interior nodes; Dirichlet ends).
 
@@ -141,37 +140,7 @@ def flux_quotient(psi, a, vw, w):
     return num / den
 
 
-@_njit
-def zero_energy_nodes(a, vw, w, energy, start_prev):
-    """March (K - E W) psi = 0 from psi_end = start_prev, psi_1 = 1; return (sign changes, last value, last step).
-
-    ``a`` per cell (n + 1), ``vw`` and ``w`` per interior node (n).  The
-    count equals the number of eigenvalues below ``energy`` of the problem with
-    a Dirichlet left end (``start_prev`` = 0) or a flat start (``start_prev`` =
-    1, the E = V solution of a constant potential) and a free right end (a
-    discrete oscillation theorem).
-    The values are rescaled as they go, so no overflow occurs; the returned
-    pair (psi_n, psi_n - psi_{n-1}) is in arbitrary scale but with its sign.
-    """
-    n = w.shape[0]
-    prev = start_prev
-    cur = 1.0
-    changes = 0
-    for i in range(n - 1):
-        # a_i (cur - prev) - a_{i+1} (nxt - cur) + (vw_i - E w_i) cur = 0
-        nxt = cur + (a[i] * (cur - prev) + (vw[i] - energy * w[i]) * cur) / a[i + 1]
-        if (nxt < 0.0) != (cur < 0.0):
-            changes += 1
-        prev = cur
-        cur = nxt
-        big = abs(cur)
-        if big > 1e150:
-            prev /= big
-            cur /= big
-    return changes, cur, cur - prev
-
-
-@_njit
+@njit
 def lipschitz_limit(x, h, growth):
     """Return min over j of (h_j + growth |x_i - x_j|) for every i (x increasing)."""
     out = h.copy()

@@ -199,7 +199,7 @@ def _walls(model: Model, kappa: float, tol: float):
     A wall at distance L from the wells shifts a level of decay constant kappa
     by about 4 |E| exp(-2 kappa L): below tol/100 relative here.
     """
-    from fdsolver.boundstates.driver import Domain
+    from fdsolver.model.domain import Domain
 
     lo = min(w.region()[0] for w in model.wells)
     hi = max(w.region()[1] for w in model.wells)

@@ -47,13 +47,9 @@ l = w; smooth_square: F in closed form (ln cosh), l by scipy quad of
 Zero-energy count of separated wells
 ------------------------------------
 The number of bound states equals the number of zeros of the E = 0 solution
-that is constant left of all wells (oscillation theorem), counting the zero
-of the straight tail when psi psi' < 0 beyond the last well.  Each well acts
-on (psi, psi') through a 2 x 2 transfer matrix over its core (where
-|V| > 1e-17 of its peak): exact cos/sin for a square well, the fourth-order
-Magnus method (relative error ~1e-10) for the smooth profiles, whose zeros
-inside the core are counted on the Magnus nodes (spacing far below pi / q_max).
-Between cores psi is linear.  Cores that overlap are merged and integrated together.
+that is bounded at the left (oscillation theorem), counted as the phase
+margin of :mod:`fdsolver.boundstates.counting` (the one march: exact for square
+wells, midpoint cells far below the local wavelength for smooth profiles).
 Used for "does state n exist" in a finite-width model, independent of any
 box, and for the critical separation at which it binds.
 """
@@ -61,7 +57,7 @@ box, and for the critical separation at which it binds.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, replace
+from dataclasses import replace
 from functools import lru_cache
 
 import numpy as np
@@ -71,8 +67,6 @@ from fdsolver.errors import CaseError
 
 #: well shapes the zero-range comparison handles (a closed form or a quadrature for l)
 WELL_SHAPES = (S.Square, S.SmoothSquare, S.Gaussian, S.Sech2)
-#: how far each profile's core extends beyond its centre, in units of its width parameter
-_CORE = {S.Gaussian: 9.0, S.Sech2: 21.0}
 
 
 # --------------------------------------------------------------- mean distance
@@ -138,138 +132,30 @@ def first_order(spectrum, lengths) -> tuple[np.ndarray, np.ndarray]:
     return dk, -2.0 * dk / np.asarray(spectrum.kappa, dtype=float)
 
 
-# ------------------------------------------------------ zero-energy transfer
-@dataclass(frozen=True)
-class _Core:
-    """Transfer of (psi, psi') at E = 0 across [lo, hi]; u1, u2 sampled for zero counting."""
+# ------------------------------------------------------ zero-energy counts
+def wells_potential(shapes, mass: float, hbar2_2me: float):
+    """The wells as a :class:`~fdsolver.model.potential.Potential` of constant ``mass`` with kinetic constant C."""
+    from fdsolver.model.potential import Potential
+    from fdsolver.model.units import kinetic_units
 
-    lo: float
-    hi: float
-    matrix: np.ndarray
-    u1: np.ndarray
-    u2: np.ndarray
-
-
-def core_extent(shape) -> tuple[float, float]:
-    """Interval outside which the well's |V| is below 1e-17 of its peak (exactly its edges for a square)."""
-    c = float(shape.center)
-    if isinstance(shape, S.Square):
-        half = 0.5 * shape.width
-    elif isinstance(shape, S.SmoothSquare):
-        half = 0.5 * shape.width + 20.0 * shape.edge
-    else:
-        half = _CORE[type(shape)] * width_of(shape)
-    return c - half, c + half
-
-
-def _integrate(shapes, lo, hi, k2) -> _Core:
-    """Transfer across [lo, hi] of psi'' = k2 V(x) psi (k2 = m / C) by the fourth-order Magnus method.
-
-    Cells of h <= min(0.01 / q_max, scale / 40) (q_max = sqrt(k2 max|V|)),
-    split at the shapes' features; on each cell Omega = h/2 (A1 + A2) +
-    sqrt(3) h^2 / 12 [A2, A1] with A = [[0, 1], [k2 V, 0]] at the two Gauss
-    points, exp(Omega) in closed form (trace-free 2 x 2), and the prefix
-    products by recursive doubling.  Global error O((q h)^4), about 1e-10
-    relative here.
-    """
-    scale = min(float(s.scale()) for s in shapes)
-    probe = np.linspace(lo, hi, 2049)
-    vmax = float(np.max(np.abs(sum(s.value(probe) for s in shapes)))) + max(abs(s.amplitude) for s in shapes)
-    h_max = min(0.01 / math.sqrt(k2 * vmax), scale / 40.0)
-    breaks = sorted({lo, hi, *[f for s in shapes for f in s.features() if lo < f < hi]})
-    edges = [np.linspace(a, b, max(2, int(math.ceil((b - a) / h_max)) + 1))[:-1] for a, b in zip(breaks[:-1], breaks[1:])]
-    x = np.concatenate(edges + [np.array([hi])])
-    if x.size > 400001:
-        raise CaseError("a merged well region needs more than 4e5 integration cells; the wells are too wide for "
-                        "a zero-range comparison", key="potential")
-    h = np.diff(x)
-    r = math.sqrt(3.0) / 6.0
-    f1 = k2 * sum(s.value(x[:-1] + h * (0.5 - r)) for s in shapes)
-    f2 = k2 * sum(s.value(x[:-1] + h * (0.5 + r)) for s in shapes)
-    a = math.sqrt(3.0) / 12.0 * h**2 * (f1 - f2)
-    g = 0.5 * h * (f1 + f2)
-    mu2 = a * a + h * g
-    mu = np.sqrt(np.abs(mu2))
-    small = mu < 1e-4
-    safe = np.where(small, 1.0, mu)
-    ch = np.where(mu2 >= 0, np.cosh(mu), np.cos(mu))
-    sh = np.where(small, 1.0 + mu2 / 6.0, np.where(mu2 >= 0, np.sinh(mu), np.sin(mu)) / safe)
-    m = np.empty((h.size, 2, 2))
-    m[:, 0, 0], m[:, 0, 1] = ch + sh * a, sh * h
-    m[:, 1, 0], m[:, 1, 1] = sh * g, ch - sh * a
-    shift = 1
-    while shift < m.shape[0]:  # prefix products P_k = M_k ... M_0 (Hillis-Steele)
-        m[shift:] = m[shift:] @ m[:-shift]
-        shift *= 2
-    u1 = np.concatenate([[1.0], m[:, 0, 0]])
-    u2 = np.concatenate([[0.0], m[:, 0, 1]])
-    return _Core(lo, hi, m[-1].copy(), u1, u2)
-
-
-@lru_cache(maxsize=512)
-def _centred_core(shape, k2: float) -> _Core:
-    """Core of one well centred at 0 (cached: identical wells share it)."""
-    lo, hi = core_extent(shape)
-    if isinstance(shape, S.Square):
-        q = math.sqrt(k2 * abs(shape.amplitude))
-        s = np.linspace(0.0, shape.width, int(min(20001, max(17, math.ceil(shape.width * q * 8 / math.pi) + 1))))
-        u1, u2 = np.cos(q * s), np.sin(q * s) / q
-        qw = q * shape.width
-        mat = np.array([[math.cos(qw), math.sin(qw) / q], [-q * math.sin(qw), math.cos(qw)]])
-        return _Core(lo, hi, mat, u1, u2)
-    return _integrate((shape,), lo, hi, k2)
-
-
-def _cores(shapes, k2: float) -> list[_Core]:
-    items = sorted(((core_extent(s), s) for s in shapes), key=lambda t: t[0][0])
-    groups: list[list] = []
-    for (lo, hi), s in items:
-        if groups and lo < groups[-1][1]:
-            groups[-1][1] = max(groups[-1][1], hi)
-            groups[-1][2].append(s)
-        else:
-            groups.append([lo, hi, [s]])
-    out = []
-    for lo, hi, members in groups:
-        if len(members) == 1:
-            s = members[0]
-            base = _centred_core(replace(s, center=0.0, name=None), k2)
-            out.append(replace(base, lo=base.lo + s.center, hi=base.hi + s.center))
-        else:
-            out.append(_integrate(tuple(members), lo, hi, k2))
-    return out
+    return Potential(tuple(shapes), kinetic_units(hbar2_2me), float(mass), None)
 
 
 def zero_energy_count(shapes, mass: float, hbar2_2me: float) -> tuple[int, float]:
-    """Bound-state count of separated wells (module docstring) and the normalised tail slope.
+    """Bound-state count of separated wells and their zero-energy phase margin Phi.
 
-    Returns ``(count, slope)``: ``slope`` = L psi' sgn(psi) / |(psi, L psi')|
-    beyond the last well (L = the wells' total extent), in [-1, 1]; the count
-    changes where it passes through zero.  Exact up to the 1e-12 integration
-    tolerance (square wells: rounding).
+    The count is the number of states N < Phi (oscillation theorem, see
+    :mod:`fdsolver.boundstates.counting`): exact for square wells, and for smooth
+    profiles from the midpoint march on cells far below the local wavelength.
+    Phi is continuous in the wells' parameters; the count changes where it
+    passes an integer.
     """
-    k2 = float(mass) / float(hbar2_2me)
-    cores = _cores(shapes, k2)
-    length = max(cores[-1].hi - cores[0].lo, 1e-300)
-    v = np.array([1.0, 0.0])
-    nodes = 0
-    sign = 1.0
-    x = cores[0].lo
-    for core in cores:
-        psi_in = v[0] + v[1] * (core.lo - x)
-        v = np.array([psi_in, v[1]])
-        vals = v[0] * core.u1 + v[1] * core.u2
-        signs = np.where(vals >= 0.0, 1.0, -1.0)
-        nodes += int(signs[0] != sign) + int(np.count_nonzero(signs[1:] != signs[:-1]))
-        sign = signs[-1]
-        v = core.matrix @ v
-        v = v / max(abs(v[0]), abs(v[1]) * length, 1e-300)
-        x = core.hi
-    psi, dpsi = v
-    if psi * dpsi < 0.0:
-        nodes += 1
-    slope = length * dpsi * (1.0 if psi >= 0.0 else -1.0) / max(math.hypot(psi, length * dpsi), 1e-300)
-    return nodes, float(slope)
+    from fdsolver.boundstates.counting import count_from_margin, layout_for, phase_margin
+
+    pot = wells_potential(shapes, mass, hbar2_2me)
+    layout = layout_for([pot])
+    phi = phase_margin(pot, layout, level=0 if layout.compact else 1)
+    return count_from_margin(phi), float(phi)
 
 
 def critical_scale(make_shapes, state: int, guess: float, mass: float, hbar2_2me: float,
@@ -279,10 +165,14 @@ def critical_scale(make_shapes, state: int, guess: float, mass: float, hbar2_2me
     ``make_shapes(s)`` returns the wells with every separation scaled by s
     (s = 1: as given).  From ``guess`` (e.g. the point model's value) the
     bracket is widened by factors of 1.25 (at most ``span`` either way) until
-    the count changes, then the change is bisected on the integer count to
-    relative ``rtol``.  Assumes one threshold per state near ``guess`` (true
-    for equal couplings; otherwise the one found is reported).
+    the count changes; the threshold inside is then found as a root of the
+    phase margin (:func:`fdsolver.boundstates.counting.find_thresholds`, Richardson
+    over cell levels for smooth wells) to relative ``rtol``.  Assumes one
+    threshold per state near ``guess`` (true for equal couplings; otherwise the
+    one found is reported).
     """
+    from fdsolver.boundstates.counting import find_thresholds
+
     def bound(s):
         return zero_energy_count(make_shapes(s), mass, hbar2_2me)[0] > state
 
@@ -303,26 +193,10 @@ def critical_scale(make_shapes, state: int, guess: float, mass: float, hbar2_2me
             if bound(b):
                 break
             a = b
-    from scipy.optimize import brentq
-
-    def slope(s):
-        return zero_energy_count(make_shapes(s), mass, hbar2_2me)[1]
-
-    # the count changes where the tail slope passes through zero (continuous there)
-    if slope(a) > 0.0 > slope(b):
-        root = brentq(slope, a, b, rtol=max(rtol, 4.0 * np.finfo(float).eps), xtol=1e-300, maxiter=200)
-        lo_s, hi_s = root * (1.0 - 4.0 * rtol), root * (1.0 + 4.0 * rtol)
-        if not bound(lo_s) and bound(hi_s):
-            return float(root)
-    while b - a > rtol * b:  # fallback: bisect the integer count
-        mid = math.sqrt(a * b)
-        if not a < mid < b:
-            break
-        if bound(mid):
-            b = mid
-        else:
-            a = mid
-    return 0.5 * (a + b)
+    found = find_thresholds(lambda s: wells_potential(make_shapes(s), mass, hbar2_2me), "scale", a, b, state=state,
+                            scan=3, rtol=rtol)
+    ups = [t for t in found.thresholds if t.direction > 0]
+    return float(ups[0].value) if ups else 0.5 * (a + b)
 
 
 def scaled(shapes, s: float, centre: float) -> list:
@@ -346,6 +220,6 @@ def point_critical_scales(positions, strengths, mass: float, hbar2_2me: float, n
                                mass=mass, hbar2_2me=hbar2_2me, n_scan=240)
     out = np.full(n_states, np.nan)
     for th in found:
-        if th.direction > 0 and th.state_index < n_states and not np.isfinite(out[th.state_index]):
-            out[th.state_index] = math.exp(th.param_value)
+        if th.direction > 0 and th.state < n_states and not np.isfinite(out[th.state]):
+            out[th.state] = math.exp(th.value)
     return out

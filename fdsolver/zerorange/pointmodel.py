@@ -83,7 +83,7 @@ from scipy.optimize import brentq
 from scipy.special import lambertw
 
 from fdsolver.errors import CaseError
-from fdsolver.zerorange._pointcount import (  # noqa: F401
+from fdsolver.zerorange._pointstates import (  # noqa: F401
     _EPS,
     _KAPPA_RTOL,
     _as_points,
@@ -92,7 +92,7 @@ from fdsolver.zerorange._pointcount import (  # noqa: F401
     _positive,
     _zero_energy,
 )
-from fdsolver.zerorange._pointwaves import (  # noqa: F401
+from fdsolver.zerorange._pointstates import (  # noqa: F401
     _evaluate,
     _mirror_symmetric,
     _moments,
@@ -101,7 +101,6 @@ from fdsolver.zerorange._pointwaves import (  # noqa: F401
 
 __all__ = [
     "PointSpectrum",
-    "Threshold",
     "point_spectrum",
     "pair_closed_form",
     "zero_energy_solution",
@@ -398,21 +397,6 @@ def critical_separation(g: float) -> float:
     return 1.0 / _positive(g, "g")
 
 
-@dataclass(frozen=True)
-class Threshold:
-    """A parameter value at which the number of bound states changes.
-
-    ``param_value`` is in the family parameter's unit, ``state_index`` the
-    index of the state that appears/disappears (the smaller of the counts on
-    the two sides), ``direction`` +1 if it binds as the parameter increases,
-    -1 if it unbinds.
-    """
-
-    param_value: float
-    state_index: int
-    direction: int
-
-
 def binding_thresholds(
     positions_fn: Callable[[float], object],
     strengths_fn: Callable[[float], object],
@@ -423,23 +407,27 @@ def binding_thresholds(
     hbar2_2me: float = 0.5,
     rtol: float = 1e-12,
     n_scan: int = 200,
-) -> list[Threshold]:
+) -> list:
     """Parameter values in [lo, hi] where a state binds or unbinds.
 
     ``positions_fn(p)`` and ``strengths_fn(p)`` give the point set of a family
     that is continuous in p with a fixed number of points.  A state reaches
-    E = 0 exactly when the zero-energy solution's tail slope psi'(+inf) passes
-    through zero: the zeros of the piecewise-linear solution are simple and
-    move continuously, so the count can only change through the tail zero
-    coming in from infinity, i.e. when the slope (equivalently the inverse
-    scattering length) changes sign.  The slope is scanned on ``n_scan`` equal
-    cells, cells whose counts and slope signs disagree are bisected, and each
-    sign change is solved with brentq to relative ``rtol`` (>= 4 eps) in p.
+    E = 0 exactly when the zero-energy phase margin Phi of the point set
+    passes through its node count (:mod:`fdsolver.boundstates.counting`; for
+    points the march is exact).  Phi is scanned at ``n_scan`` + 1 equal steps
+    and every crossing is solved with brentq to relative ``rtol`` (>= 4 eps)
+    in p.
 
-    Returns the thresholds sorted by ``param_value``.  A bind/unbind pair that
-    falls inside one scan cell without changing the count at the cell ends is
-    not seen; refine ``n_scan`` if that matters.
+    Returns :class:`~fdsolver.boundstates.counting.Threshold` objects (``state``
+    is the node count of the state that binds, ``direction`` +1 if it binds as
+    p increases) sorted by ``value``.  A bind/unbind pair that falls inside one
+    scan step is not seen; raise ``n_scan`` if that matters.
     """
+    from fdsolver.boundstates.counting import find_thresholds
+    from fdsolver.model import shapes as S
+    from fdsolver.model.potential import Potential
+    from fdsolver.model.units import kinetic_units
+
     lo = float(lo)
     hi = float(hi)
     if not (math.isfinite(lo) and math.isfinite(hi) and lo < hi):
@@ -448,45 +436,11 @@ def binding_thresholds(
     n_scan = int(n_scan)
     if n_scan < 1:
         raise CaseError("n_scan must be >= 1", key="n_scan")
-    _positive(mass, "mass")
-    _positive(hbar2_2me, "hbar2_2me")
+    m = _positive(mass, "mass")
+    units = kinetic_units(_positive(hbar2_2me, "hbar2_2me"))
 
-    def evaluate(p):
+    def family(p):
         x, a = _as_points(positions_fn(p), strengths_fn(p))
-        xs, gs, _ = _couplings(x, a, mass, hbar2_2me)
-        nodes, _, slope = _zero_energy(xs, gs)
-        return nodes, slope
+        return Potential(tuple(S.Point(None, float(xi), float(ai)) for xi, ai in zip(x, a)), units, m, None)
 
-    def slope(p):
-        return evaluate(p)[1]
-
-    found: list[Threshold] = []
-
-    def record(p, na, nb):
-        found.append(Threshold(float(p), int(min(na, nb)), 1 if nb > na else -1))
-
-    def refine(pa, va, pb, vb, depth):
-        (na, sa), (nb, sb) = va, vb
-        pos_a, pos_b = sa > 0.0, sb > 0.0
-        if pos_a == pos_b and na == nb:
-            return
-        if pos_a != pos_b and abs(na - nb) == 1:
-            xtol = max(1e-3 * rtol * max(abs(pa), abs(pb)), 1e-300)
-            record(brentq(slope, pa, pb, xtol=xtol, rtol=rtol, maxiter=500), na, nb)
-            return
-        pm = 0.5 * (pa + pb)
-        if depth >= 60 or not (pa < pm < pb):
-            step = 1 if nb > na else -1
-            for n in range(na, nb, step):
-                record(pm, n, n + step)
-            return
-        vm = evaluate(pm)
-        refine(pa, va, pm, vm, depth + 1)
-        refine(pm, vm, pb, vb, depth + 1)
-
-    grid = np.linspace(lo, hi, n_scan + 1)
-    vals = [evaluate(p) for p in grid]
-    for i in range(n_scan):
-        refine(grid[i], vals[i], grid[i + 1], vals[i + 1], 0)
-    found.sort(key=lambda th: th.param_value)
-    return found
+    return list(find_thresholds(family, "p", lo, hi, scan=n_scan + 1, rtol=rtol).thresholds)

@@ -1,24 +1,225 @@
-"""Point-interaction model, part 2: the bound states as functions of x.
+"""The zero-range point model's private machinery: input checks, node counts and root brackets, and the states as functions of x.
 
-Between two neighbouring (active) points a < b, L = b - a, a bound state is
+Counting.  The number N(k) of bound states with kappa > k is the number of
+zeros of the solution that decays on the left at E = -C k^2/m, carried across
+the points by the one march (:mod:`fdsolver.numerics.march`); bisecting N(k)
+isolates every state in its own bracket.
+
+States.  Between two neighbouring (active) points a < b, L = b - a, a bound state is
     psi(a + L s) = psi_a A(s) + psi_b B(s),  s in [0, 1],
     A(s) = sinh(x (1 - s)) / sinh(x),  B(s) = sinh(x s) / sinh(x),  x = kappa L,
 and outside it is psi_1 exp(kappa (x - x_1)) / psi_N exp(-kappa (x - x_N)).
 Built from the values psi(x_i) this form has no cancellation, unlike the sum
 of exponentials when kappa |x_i - x_j| << 1 (states close to threshold).
 Moments and norms are closed forms of these pieces (Gauss-Legendre for the
-few integrals without one, exact to round-off).  See :mod:`fdsolver.pointmodel`."""
+few integrals without one, exact to round-off).
+
+See :mod:`fdsolver.zerorange.pointmodel` for the physics and the public API.
+Lengths in the caller's unit, kappa in 1/length.
+"""
 
 from __future__ import annotations
 import math
+
 import numpy as np
-from fdsolver.zerorange._pointcount import (
-    _step,
-    _EPS,
-    _NODE_FLOOR,
-    _SIGN_FLOOR,
-    _SYM_RTOL,
-)
+from scipy.optimize import brentq
+from fdsolver.errors import CaseError
+from fdsolver.numerics.march import carry
+
+
+_EPS = float(np.finfo(float).eps)
+#: mirror symmetry is accepted within this relative tolerance
+_SYM_RTOL = 1e-12
+#: inside the main body of a state, |psi(x_i)| below this fraction of
+#: max |psi(x_j)| (underflow) is skipped when counting nodes
+_NODE_FLOOR = 1e-300
+#: the sign rule looks at the leftmost point with |psi| above this fraction
+_SIGN_FLOOR = 1e-6
+#: states with kappa below this fraction of kappa_max are not searched for
+_KAPPA_FLOOR = 1e-280
+#: brentq relative tolerance on kappa (the smallest scipy accepts)
+_KAPPA_RTOL = 4.0 * _EPS
+
+
+# ---------------------------------------------------------------------------
+# input checks
+
+
+def _as_points(positions, strengths) -> tuple[np.ndarray, np.ndarray]:
+    """Return float copies of the point positions and strengths, validated."""
+    try:
+        x = np.atleast_1d(np.asarray(positions, dtype=float)).copy()
+        a = np.atleast_1d(np.asarray(strengths, dtype=float)).copy()
+    except (TypeError, ValueError) as exc:
+        raise CaseError(f"positions and strengths must be real numbers ({exc})", key="point") from exc
+    if x.ndim != 1 or a.ndim != 1:
+        raise CaseError("positions and strengths must be one-dimensional lists", key="point")
+    if x.size == 0:
+        raise CaseError("at least one point interaction is needed", key="point")
+    if x.size != a.size:
+        raise CaseError(
+            f"{x.size} positions but {a.size} strengths; give one strength per point", key="point"
+        )
+    if not (np.all(np.isfinite(x)) and np.all(np.isfinite(a))):
+        raise CaseError("positions and strengths must be finite", key="point")
+    xs = np.sort(x)
+    if np.any(np.diff(xs) <= 0.0):
+        dup = xs[1:][np.diff(xs) <= 0.0][0]
+        raise CaseError(f"two points share the position {float(dup)!r}; positions must be distinct", key="point")
+    return x, a
+
+
+def _positive(value, key: str) -> float:
+    try:
+        v = float(value)
+    except (TypeError, ValueError) as exc:
+        raise CaseError(f"must be a number, got {value!r}", key=key) from exc
+    if not (math.isfinite(v) and v > 0.0):
+        raise CaseError(f"must be finite and > 0, got {value!r}", key=key)
+    return v
+
+
+def _couplings(x, a, mass, hbar2_2me):
+    """Sorted positions and couplings g = m alpha / (2 C), plus the sort order."""
+    m = _positive(mass, "mass")
+    c = _positive(hbar2_2me, "hbar2_2me")
+    order = np.argsort(x, kind="stable")
+    xs = x[order]
+    gs = m * a[order] / (2.0 * c)
+    return xs, gs, order
+
+
+# ---------------------------------------------------------------------------
+# shooting: node counts and tail growth, carried by the one march
+
+
+def _march_points(k: float, xs: np.ndarray, gs: np.ndarray, record: bool = False):
+    """The solution decaying on the left (psi = 1, psi' = k at x_1) marched across the points at E = -C k^2/m.
+
+    In the march's units C = m = 1, so the flux is psi' and a point of
+    coupling g makes it jump by -2 g psi.  Returns the march's
+    ``(nodes, psi, psi', log_scale[, signs, log|psi|])``.
+    """
+    n = len(xs)
+    return carry(xs, np.full(n - 1, k * k), np.ones(n - 1), 2.0 * gs, 1.0, k, 1.0, k, record=record)
+
+
+def _shoot(k: float, xs: np.ndarray, gs: np.ndarray) -> tuple[int, float]:
+    """Zeros of the left-decaying solution at E = -C k^2/m, and its tail growth.
+
+    Returns ``(nodes, growth)``.  ``nodes`` is the number of zeros on the real
+    line (= number of bound states with kappa > k, oscillation theorem).
+    ``growth`` is the coefficient of exp(+k x) right of the last point, scaled by
+    a positive continuous factor into [-1, 1]; it is continuous in k and zero
+    exactly at bound states.  k in 1/length.  The march keeps growing and
+    decaying parts apart (:mod:`fdsolver.numerics.march`), so exponentially
+    small admixtures (far-apart wells) and k -> 0 both keep their accuracy.
+    """
+    nodes, u, dpsi, _ = _march_points(k, xs, gs)
+    w = dpsi / k
+    if u == 0.0:  # a zero exactly on the last point
+        nodes += 1
+    elif u * w < 0.0 and abs(w) > abs(u):  # the tail crosses zero once more
+        nodes += 1
+    growth = (u + w) / (abs(u) + abs(w))
+    return nodes, growth
+
+
+def _zero_energy(xs: np.ndarray, gs: np.ndarray) -> tuple[int, float, float]:
+    """Zero-energy solution psi = 1 on the left: (nodes, psi(x_N), psi'(+inf)), psi dimensionless."""
+    n = len(xs)
+    span = max(float(xs[-1] - xs[0]), 1e-300) if n > 1 else 1.0
+    nodes, psi, dpsi, log_scale = carry(xs, np.zeros(n - 1), np.ones(n - 1), 2.0 * gs, 1.0, 1.0 / span, 1.0, 0.0)
+    if psi == 0.0:
+        nodes += 1
+    elif psi * dpsi < 0.0:
+        nodes += 1
+    f = math.exp(log_scale)
+    return nodes, psi * f, dpsi * f
+
+
+# ---------------------------------------------------------------------------
+# root isolation
+
+
+def _solve_bracket(a: float, b: float, xs, gs, n_above_b: int) -> float:
+    """The single bound state kappa in (a, b]; brentq, count bisection as fallback."""
+    fa = _shoot(a, xs, gs)[1]
+    fb = _shoot(b, xs, gs)[1]
+    if fa == 0.0:
+        return a
+    if fb == 0.0:
+        return b
+    if fa * fb < 0.0:
+        return brentq(
+            lambda k: _shoot(k, xs, gs)[1], a, b, xtol=1e-300, rtol=_KAPPA_RTOL, maxiter=500
+        )
+    # rounding hid the sign change (only when a and b are already a few ulps
+    # from the root): finish by bisecting the exact count
+    while True:
+        mid = 0.5 * (a + b)
+        if not (a < mid < b):
+            return mid
+        if _shoot(mid, xs, gs)[0] > n_above_b:
+            a = mid
+        else:
+            b = mid
+
+
+def _kappas(xs: np.ndarray, gs: np.ndarray) -> np.ndarray:
+    """All bound-state decay constants, descending (see module docstring)."""
+    n_b = _zero_energy(xs, gs)[0]
+    if n_b == 0:
+        return np.zeros(0)
+    kmax = float(np.sum(gs[gs > 0.0]))
+
+    def count(k, lo_n, hi_n):
+        return min(max(_shoot(k, xs, gs)[0], lo_n), hi_n)
+
+    hi = kmax * (1.0 + 1e-6)
+    n_hi = _shoot(hi, xs, gs)[0]
+    for _ in range(64):  # never taken in exact arithmetic (kappa <= kmax)
+        if n_hi == 0:
+            break
+        hi *= 2.0
+        n_hi = _shoot(hi, xs, gs)[0]
+    # walk down geometrically until every state lies above the current k
+    samples = [(hi, 0)]
+    k, n = hi, 0
+    floor = kmax * _KAPPA_FLOOR
+    while n < n_b:
+        k_new = k / 16.0
+        if k_new < floor:
+            break  # remaining states are bound by less than floor: not resolvable
+        n = count(k_new, n, n_b)
+        k = k_new
+        samples.append((k, n))
+    samples.reverse()
+
+    kappa = np.full(n, np.nan)
+    stack = [(samples[i][0], samples[i][1], samples[i + 1][0], samples[i + 1][1])
+             for i in range(len(samples) - 1)]
+    while stack:
+        a, na, b, nb = stack.pop()
+        if na == nb:
+            continue
+        if na - nb == 1:
+            kappa[nb] = _solve_bracket(a, b, xs, gs, nb)
+            continue
+        mid = math.sqrt(a * b) if b > 4.0 * a else 0.5 * (a + b)
+        if not (a < mid < b):
+            # several states inside one floating-point interval: their splitting
+            # is below double precision; they share one kappa
+            kappa[nb:na] = mid
+            continue
+        nm = count(mid, nb, na)
+        stack.append((a, na, mid, nm))
+        stack.append((mid, nm, b, nb))
+    return kappa
+
+
+# ---------------------------------------------------------------------------
+# states as functions of x
 
 
 _GL_NODES, _GL_WEIGHTS = np.polynomial.legendre.leggauss(32)
@@ -164,27 +365,12 @@ def _parity_bases(n_a: int) -> tuple[np.ndarray, np.ndarray]:
 def _sweep_log_values(k: float, xs: np.ndarray, gs: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Left-decaying solution at E = -C k^2/m at the points, as (sign, log|u|).
 
-    Same forward sweep as :func:`_shoot`, with the dropped positive factors
-    accumulated in a logarithm so that values far below the double range keep
-    their sign and relative accuracy.
+    The march of :func:`_shoot`, recording every point with the dropped
+    positive factors kept in a logarithm, so that values far below the double
+    range keep their sign and relative accuracy.
     """
-    n = len(xs)
-    sign = np.ones(n)
-    logabs = np.zeros(n)
-    u, w, log_scale = 1.0, 1.0, 0.0
-    for i in range(n):
-        if i:
-            d = xs[i] - xs[i - 1]
-            u, w = _step(u, w, 2.0 * k * d)
-            log_scale += k * d
-            s = max(abs(u), abs(w))
-            u /= s
-            w /= s
-            log_scale += math.log(s)
-        sign[i] = 1.0 if u > 0 else (-1.0 if u < 0 else 0.0)
-        logabs[i] = (math.log(abs(u)) if u != 0.0 else -math.inf) + log_scale
-        w -= 2.0 * gs[i] * u / k
-    return sign, logabs
+    out = _march_points(k, xs, gs, record=True)
+    return out[4], out[5]
 
 
 def _refine_small_values(kappa: float, xa: np.ndarray, ga: np.ndarray, v: np.ndarray) -> np.ndarray:

@@ -1,0 +1,26 @@
+"""How hard to work on a solve: accuracy, number of states, energy window, memory and level limits."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from fdsolver.numerics.grid import GridSettings
+
+
+@dataclass(frozen=True)
+class SolveSettings:
+    """Accuracy and size controls of a solve.
+
+    ``tolerance`` is the target error of every energy relative to |E|;
+    ``max_states`` the most states returned; ``energy_window`` (low, high) in
+    the case energy unit restricts them; ``memory_mb`` bounds the grid;
+    ``max_levels`` / ``min_levels`` bound the nested refinements.
+    """
+
+    tolerance: float = 1e-8
+    max_states: int = 10
+    energy_window: tuple[float, float] | None = None
+    memory_mb: float = 1500.0
+    max_levels: int = 9
+    min_levels: int = 3
+    grid: GridSettings = field(default_factory=GridSettings)
