@@ -5,7 +5,7 @@ or raises :class:`fdsolver.CaseError` with a one-line message; nothing else
 (no TypeError, KeyError, RecursionError, ...), and quickly.
 
 Inputs are TOML documents built from the schema's own keys (the tables in
-``fdsolver.input.case`` and ``fdsolver.shapes.SHAPES``, plus misspellings) filled
+``fdsolver.input.schema`` and ``fdsolver.model.shapes.SHAPES``, plus misspellings) filled
 with hostile values (NaN, inf, huge and subnormal numbers, booleans, dates,
 arrays, inline tables, hostile expressions, control characters), rendered to
 TOML by this module and then, for some examples, damaged at the text level
@@ -31,7 +31,7 @@ from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
 import fdsolver
-from fdsolver.input import case as case_module
+from fdsolver.input import schema as schema_module
 from fdsolver.model import shapes as shapes_module
 SEEDS = pathlib.Path(__file__).parent / "fuzz_seeds" / "cases"
 SCALE = max(1, int(os.environ.get("FDSOLVER_FUZZ_SCALE", "1")))
@@ -257,7 +257,7 @@ def table_of(draw, keys):
 @st.composite
 def documents(draw):
     doc = {}
-    keys = draw(st.lists(near_names([k for k in case_module.TOP_KEYS if k not in ("potential", "layer")]),
+    keys = draw(st.lists(near_names([k for k in schema_module.TOP if k not in ("potential", "layer")]),
                          max_size=3, unique=True))
     if draw(st.integers(0, 3)) > 0:
         keys.append("potential")
@@ -268,14 +268,14 @@ def documents(draw):
             doc[key] = draw(st.one_of(st.lists(component(), min_size=1, max_size=3), values)) \
                 if draw(st.integers(0, 9)) == 0 else draw(st.lists(component(), min_size=1, max_size=3))
         elif key == "layer":
-            doc[key] = draw(st.lists(table_of(case_module.LAYER_KEYS), min_size=0, max_size=4))
+            doc[key] = draw(st.lists(table_of(schema_module.LAYER), min_size=0, max_size=4))
         elif key == "params":
             names = st.sampled_from(PARAM_NAMES * 4 + ["x", "pi", "e", "sqrt", "_p", "__class__", "1a", "é"])
             doc[key] = draw(st.dictionaries(names, value_for("param"), max_size=5))
         elif key == "domain":
-            doc[key] = draw(table_of(case_module.DOMAIN_KEYS))
+            doc[key] = draw(table_of(schema_module.DOMAIN))
         elif key == "solve":
-            doc[key] = draw(table_of(case_module.SOLVE_KEYS))
+            doc[key] = draw(table_of(schema_module.SOLVE))
         elif key in ("sweep", "delta_check"):
             doc[key] = draw(st.one_of(table_of(("vary", "units", "memory_mb", "psi_points", "chunk")), values))
         else:

@@ -1,8 +1,4 @@
-"""The potential of a case: a layer stack plus a sum of shapes.
-
-:class:`LayerStack` is a heterostructure: layers of given thickness, band
-edge (energy) and effective mass (in m_e).  The first and last layers extend
-to -infinity and +infinity; the first finite layer starts at ``origin``.
+"""The potential of a case: a layer stack (:mod:`fdsolver.model.stack`) plus a sum of shapes.
 
 :class:`Potential` sums the stack's band edge and every shape, carries the
 position-dependent mass m(x) (the stack's, or the particle mass where there is
@@ -19,50 +15,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from fdsolver.model.shapes import INF, Shape
+from fdsolver.model.stack import LayerStack
 from fdsolver.model.units import UnitSystem
-
-
-@dataclass(frozen=True)
-class Layer:
-    """One layer: ``thickness`` (length; ignored for the two outer layers), band edge (energy), mass (m_e)."""
-
-    name: str | None
-    thickness: float
-    band_edge: float
-    mass: float
-
-
-@dataclass(frozen=True)
-class LayerStack:
-    """Layers left to right; interfaces at ``origin`` + cumulative thicknesses of the inner layers."""
-
-    layers: tuple[Layer, ...]
-    origin: float = 0.0
-
-    @property
-    def interfaces(self) -> np.ndarray:
-        inner = [layer.thickness for layer in self.layers[1:-1]]
-        return self.origin + np.concatenate([[0.0], np.cumsum(inner)]) if len(self.layers) > 1 else np.array([])
-
-    def index(self, x: np.ndarray) -> np.ndarray:
-        """Layer index of each position (a point on an interface belongs to the layer on its right)."""
-        return np.searchsorted(self.interfaces, np.asarray(x, dtype=float), side="right")
-
-    def band_edge(self, x):
-        edges = np.array([layer.band_edge for layer in self.layers])
-        return edges[self.index(x)]
-
-    def mass(self, x):
-        masses = np.array([layer.mass for layer in self.layers])
-        return masses[self.index(x)]
-
-    def regions(self) -> list[tuple[str | None, float, float]]:
-        bounds = np.concatenate([[-INF], self.interfaces, [INF]])
-        return [(layer.name, float(bounds[i]), float(bounds[i + 1])) for i, layer in enumerate(self.layers)]
-
-    def scale(self) -> float | None:
-        inner = [layer.thickness for layer in self.layers[1:-1]]
-        return min(inner) if inner else None
 
 
 @dataclass(frozen=True)

@@ -58,53 +58,28 @@ from __future__ import annotations
 
 import math
 from dataclasses import replace
-from functools import lru_cache
 
 import numpy as np
 
 from fdsolver.model import shapes as S
 from fdsolver.errors import CaseError
 
-#: well shapes the zero-range comparison handles (a closed form or a quadrature for l)
-WELL_SHAPES = (S.Square, S.SmoothSquare, S.Gaussian, S.Sech2)
+#: well shapes the zero-range comparison handles (those that can replace a point, with a mean distance l)
+WELL_SHAPES = tuple(cls for cls in S.SHAPES.values() if cls.replaces_points)
 
 
 # --------------------------------------------------------------- mean distance
 def width_of(shape) -> float:
     """The width parameter of a well (square/smooth_square/sech2 width, gaussian sigma), length unit."""
-    return float(shape.sigma if isinstance(shape, S.Gaussian) else shape.width)
+    return float(shape.width_parameter)
 
 
 def mean_distance(shape) -> float:
-    """l = mean |x - x'| of two points drawn from the well profile |V| (length unit); see module docstring."""
-    if isinstance(shape, (S.Square, S.Gaussian)):
+    """l = mean |x - x'| of two points drawn from the well profile |V| (length unit); see the shapes' docstrings."""
+    if isinstance(shape, WELL_SHAPES):
         return float(shape.mean_distance())
-    if isinstance(shape, S.Sech2):
-        return float(shape.width)
-    if isinstance(shape, S.SmoothSquare):
-        return _smooth_square_distance(float(shape.width), float(shape.edge))
     raise CaseError(f"no mean distance for a '{shape.kind}' component; use square, smooth_square, gaussian or sech2",
                     key="potential")
-
-
-@lru_cache(maxsize=256)
-def _smooth_square_distance(width: float, edge: float) -> float:
-    from scipy.integrate import quad
-
-    h = 0.5 * width
-
-    def lncosh(a):
-        a = abs(a)
-        return a + math.log1p(math.exp(-2.0 * a)) - math.log(2.0)
-
-    def f1mf(x):
-        cdf = 0.5 + edge / (2.0 * width) * (lncosh((x + h) / edge) - lncosh((x - h) / edge))
-        return cdf * (1.0 - cdf)
-
-    reach = h + 40.0 * edge
-    pts = sorted({p for p in (-h - edge, -h, -h + edge, h - edge, h, h + edge) if -reach < p < reach})
-    total, _ = quad(f1mf, -reach, reach, points=pts, limit=400, epsabs=0.0, epsrel=1e-13)
-    return 2.0 * total
 
 
 # ------------------------------------------------------------ first order
