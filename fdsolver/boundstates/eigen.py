@@ -1,147 +1,299 @@
-"""Bound states of one assembled operator.
+"""Bound states of one grid: eigenpairs of the assembled operator, numbered by Sturm counts.
 
-:func:`solve_window` returns the lowest eigenpairs of T below ``e_hi`` (at
-most ``max_states``), each polished to near machine precision of the energy
-scale:
+A grid problem is one operator (:class:`Sector` with parity 0) or, for a
+mirror-symmetric potential, two: the even and odd sectors on the right half
+line (:mod:`fdsolver.numerics.operator`), whose spectra together are exactly
+the spectrum of the whole symmetric grid, with exact parities and doublets
+apart by construction.  :func:`solve_grid` returns the lowest states with
+e_lo <= E < e_hi (at most ``max_states``):
 
-1. a Sturm count (:func:`fdsolver.kernels.sturm_count`) says how many there
-   are;
-2. LAPACK bisection and inverse iteration (``stebz``/``stein`` through
-   :func:`scipy.linalg.eigh_tridiagonal`, O(N) memory) gives them to an
-   absolute accuracy of about eps * ||T||, which on graded grids with tiny
-   cells (||T|| ~ C / (m h_min^2)) can be far worse than the target;
-3. two steps of Rayleigh-quotient iteration with the flux-form quotient
-   (:func:`fdsolver.kernels.flux_quotient`) bring each energy to a few ulps of
-   the energy scale.  A polish that would move an energy further than
-   LAPACK's error bound, or change its node count, is rejected.
+1. Sturm counts (:func:`fdsolver.numerics.kernels.sturm_count`) in every sector
+   say how many states lie in the window, and give each state its global
+   index: the number of states of the whole grid below it.  The accuracy of
+   an eigenvalue of a symmetric tridiagonal matrix does not depend on its
+   distance to the next one, so no cluster of near-degenerate states can hide
+   a state or duplicate one.
+2. The eigenvalues come from LAPACK bisection (``stebz``, O(N) per value), or,
+   on finer levels, are predicted from the coarser ones and proved by Sturm
+   counts (two per state, falling back to bisection when a proof fails).
+3. Eigenvectors by inverse iteration from those eigenvalues
+   (:func:`fdsolver.numerics.kernels.inverse_iteration`): O(N) per state, with
+   Gram-Schmidt only inside a cluster of states closer than
+   :data:`CLUSTER_RTOL` of their energy, whose members then form an
+   orthonormal basis of the cluster.  Each vector's residual is checked and a
+   state that fails is redone with more steps.
+4. Each energy is the flux-form Rayleigh quotient of its vector
+   (:func:`fdsolver.numerics.kernels.flux_quotient`), a few ulps of the energy
+   scale where LAPACK's bisection is only accurate to eps * ||T||, which grows
+   as 1/h_min^2 on graded grids; an isolated state is polished by one more
+   Rayleigh-quotient step.
 
-Energies are in the case energy unit; ``psi`` are the grid values of the
-wavefunctions, normalised so that sum w_i psi_i^2 = 1 (integral |psi|^2 dx = 1
-with the lumped node weights), in length^-1/2.
+Energies are in the case energy unit, measured from the operator's shift;
+eigenvectors ``u`` of T are kept per sector (psi = u / sqrt(w), normalised so
+that sum w psi^2 = 1 over the sector).
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.linalg import eigh_tridiagonal
+from scipy.linalg import eigvalsh_tridiagonal
 
 from fdsolver.numerics import kernels
 from fdsolver.numerics.operator import Operator
+from fdsolver.numerics.precision import EPS
 
-EPS = np.finfo(float).eps
+#: states closer than this fraction of their energy scale are a cluster (Gram-Schmidt between them)
+CLUSTER_RTOL = 1e-4
+#: inverse-iteration steps per vector (from an eigenvalue accurate to bisection)
+INVERSE_STEPS = 3
+#: a residual |T u - lambda u| above this many times the state's round-off scale is redone
+RESIDUAL_FACTOR = 1e3
+#: the flux-form Rayleigh quotient is trusted to this many ulps of its scale
+QUOTIENT_ULPS = 64.0
+
+
+@dataclass(frozen=True)
+class Sector:
+    """One operator of a grid problem: the whole grid (parity 0), or the even (+1) / odd (-1) half."""
+
+    op: Operator
+    parity: int = 0
 
 
 @dataclass(frozen=True)
 class GridStates:
-    """Eigenpairs on one grid: ``energy`` (n,), ``psi`` (n, N) at interior nodes, ``count_below`` total below e_hi."""
+    """The states of one grid, ascending in energy.
+
+    ``energy`` (n,) relative to the operators' shift; ``index`` the global
+    Sturm index (states of the whole grid below); ``sector`` and ``parity`` of
+    each; ``vectors[k]`` the unit eigenvector of T in its sector;
+    ``roundoff`` the round-off floor of each energy (:func:`_roundoff`); ``count_below`` the number
+    of states below e_hi on this grid; ``first_index`` the global index of the
+    lowest state in the window.
+    """
 
     energy: np.ndarray
-    psi: np.ndarray
+    index: np.ndarray
+    sector: np.ndarray
+    parity: np.ndarray
+    vectors: tuple
+    roundoff: np.ndarray
     count_below: int
+    first_index: int
+
+    @property
+    def size(self) -> int:
+        return int(self.energy.size)
 
 
-def count_nodes(psi: np.ndarray, rel: float = 1e-7) -> int:
-    """Sign changes of ``psi``, ignoring values below ``rel`` of its maximum (round-off tails)."""
-    big = np.abs(psi) > rel * np.max(np.abs(psi))
-    s = np.sign(psi[big])
-    return int(np.count_nonzero(s[1:] != s[:-1]))
+def _count(op: Operator, e: float | None, default: int) -> int:
+    if e is None:
+        return 0
+    if not math.isfinite(e):
+        return default
+    return int(kernels.sturm_count(op.d, op.e, e))
 
 
-def _from_guess(op: Operator, guess: np.ndarray, i0: int):
-    """Eigenpairs i0, i0+1, ... by shifted inverse iteration from predicted energies; None if any check fails.
+def _bisection(op: Operator, lo: int, hi: int) -> np.ndarray:
+    """Eigenvalues number lo .. hi - 1 of the sector by LAPACK bisection."""
+    if hi <= lo:
+        return np.empty(0)
+    if op.size == 1:
+        return np.array([op.d[0]])
+    return eigvalsh_tridiagonal(op.d, op.e, select="i", select_range=(lo, hi - 1), lapack_driver="stebz")
 
-    Each state: three inverse-iteration steps at the predicted energy, one
-    Rayleigh-quotient step, then two Sturm counts that prove it is eigenvalue
-    number i0 + k (no state skipped or taken twice).  Costs O(N) per state
-    instead of a full bisection.
+
+def _clusters(values: np.ndarray, floor: float) -> np.ndarray:
+    """first[j]: the first member of the cluster of state j (states closer than CLUSTER_RTOL of their scale)."""
+    first = np.arange(values.size)
+    for j in range(1, values.size):
+        scale = max(abs(values[j]), abs(values[j - 1]), floor)
+        if values[j] - values[j - 1] < CLUSTER_RTOL * scale:
+            first[j] = first[j - 1]
+    return first
+
+
+def _scales(op: Operator, u: np.ndarray, energy: float) -> tuple[float, float]:
+    """(matrix, quotient) round-off scales of one state.
+
+    *matrix*: eps * sum |T_ii| u_i^2, the backward error of a Sturm count or of
+    the vector's residual where the state lives (it grows as 1/h^2 there, not
+    with the largest entry of T).  *quotient*: a few ulps of |E| + <|V - shift|>,
+    the rounding of the flux-form Rayleigh quotient, which gives the energy.
     """
-    d, e = op.d, op.e
+    psi2 = u * u
+    matrix = EPS * float(np.sum(np.abs(op.d) * psi2))
+    potential = float(np.sum(np.abs(op.vw / op.w) * psi2))
+    return matrix, QUOTIENT_ULPS * EPS * (abs(energy) + potential)
+
+
+def _roundoff(matrix: np.ndarray, quotient: np.ndarray, energies: np.ndarray) -> np.ndarray:
+    """Round-off floor of each energy: the quotient's ulps, plus matrix^2 / gap (a vector mixed with its nearest
+    neighbour of the same sector moves the quotient by gap * mixing^2, mixing ~ matrix / gap), at most the gap."""
+    gap = np.full(energies.size, np.inf)
+    if energies.size > 1:
+        d = np.diff(energies)
+        gap[:-1] = d
+        gap[1:] = np.minimum(gap[1:], d)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        mixing = np.where(np.isfinite(gap), np.minimum(matrix**2 / gap, gap), 0.0)
+    return quotient + np.nan_to_num(mixing, nan=0.0, posinf=0.0)
+
+
+def _residual(op: Operator, u: np.ndarray, lam: float) -> float:
+    r = (op.d - lam) * u
+    r[:-1] += op.e * u[1:]
+    r[1:] += op.e * u[:-1]
+    return float(np.sqrt(np.sum(r * r)))
+
+
+def _vectors(op: Operator, values: np.ndarray, floor: float, polish: bool) -> tuple[np.ndarray, np.ndarray] | None:
+    """Unit eigenvectors (rows) and polished energies for the sector's eigenvalues ``values`` (ascending)."""
+    k = values.size
+    out = np.empty((k, op.size))
+    first = _clusters(values, floor)
+    if not kernels.inverse_iteration(op.d, op.e, values, first, INVERSE_STEPS, out):
+        return None
     sqw = np.sqrt(op.w)
-    n = guess.size
-    vals = np.empty(n)
-    vecs = np.empty((op.size, n))
-    start = 1.0 + 0.01 * np.sin(np.arange(op.size) * 0.7548776662466927)  # deterministic, not an eigenvector
-    for k in range(n):
-        u = start / np.sqrt(np.sum(start * start))
-        sigma = float(guess[k])
-        for step in range(4):
-            y = kernels.tridiag_solve(d, e, sigma, u)
-            big = np.max(np.abs(y))
-            if not np.isfinite(big) or big == 0.0:
-                return None
-            y = y / big
-            u = y / np.sqrt(np.sum(y * y))
-            if step == 2:
-                sigma = kernels.flux_quotient(u / sqw, op.a, op.vw, op.w)
+    energy = np.empty(k)
+    for j in range(k):
+        u = out[j]
         lam = kernels.flux_quotient(u / sqw, op.a, op.vw, op.w)
-        gap = abs(lam) * 1e-7 + 1e-300
-        if kernels.sturm_count(d, e, lam - gap) != i0 + k or kernels.sturm_count(d, e, lam + gap) != i0 + k + 1:
-            return None
-        vals[k] = lam
-        vecs[:, k] = u
-    return vals, vecs
+        if _residual(op, u, lam) > RESIDUAL_FACTOR * sum(_scales(op, u, lam)) + 1e-12 * abs(lam):
+            redo = np.empty((1, op.size))
+            if kernels.inverse_iteration(op.d, op.e, np.array([lam]), np.zeros(1, np.int64), 2 * INVERSE_STEPS, redo):
+                u = redo[0]
+                lam = kernels.flux_quotient(u / sqw, op.a, op.vw, op.w)
+        alone = first[j] == j and (j + 1 >= k or first[j + 1] != j)
+        if polish and alone:  # one Rayleigh-quotient step: cubic convergence from an accurate vector
+            y = kernels.tridiag_solve(op.d, op.e, lam, u)
+            big = float(np.max(np.abs(y)))
+            nrm = float(np.sqrt(np.sum((y / big) ** 2))) * big if math.isfinite(big) and big > 0.0 else math.nan
+            if math.isfinite(nrm) and nrm > 0.0:
+                y = y / nrm
+                lam_y = kernels.flux_quotient(y / sqw, op.a, op.vw, op.w)
+                if abs(lam_y - lam) <= 1e-6 * max(abs(lam), floor):  # the same state, only sharper
+                    u, lam = y, lam_y
+        out[j] = u
+        energy[j] = lam
+    return out, energy
 
 
-def solve_window(
-    op: Operator, e_hi: float, max_states: int, e_lo: float | None = None, guess: np.ndarray | None = None
-) -> GridStates:
-    """Lowest eigenpairs with e_lo <= E < e_hi (at most ``max_states``), polished.
+def _proved(op: Operator, values: np.ndarray, lo: int, floor: float, r: np.ndarray) -> bool:
+    """Sturm proof that ``values`` are the sector's eigenvalues number lo, lo + 1, ... (clusters as a whole)."""
+    k = values.size
+    first = _clusters(values, floor)
+    j = 0
+    while j < k:
+        end = j
+        while end + 1 < k and first[end + 1] == first[j]:
+            end += 1
+        gap_lo = values[j] - values[j - 1] if j > 0 else math.inf
+        gap_hi = values[end + 1] - values[end] if end + 1 < k else math.inf
+        delta_lo = min(0.5 * gap_lo, max(1e-7 * max(abs(values[j]), floor), 100.0 * r[j]))
+        delta_hi = min(0.5 * gap_hi, max(1e-7 * max(abs(values[end]), floor), 100.0 * r[end]))
+        if kernels.sturm_count(op.d, op.e, values[j] - delta_lo) != lo + j:
+            return False
+        if kernels.sturm_count(op.d, op.e, values[end] + delta_hi) != lo + end + 1:
+            return False
+        j = end + 1
+    return True
 
-    ``guess``, predicted energies of exactly these states (from a coarser
-    level), lets each be found by inverse iteration instead of bisection; the
-    result is checked by Sturm counts and falls back to LAPACK if it fails.
+
+def solve_grid(sectors, e_lo: float | None, e_hi: float, max_states: int, floor: float,
+               guess: list | None = None) -> GridStates:
+    """The lowest states with e_lo <= E < e_hi (at most ``max_states``) of the sectors (module docstring).
+
+    ``floor`` is the smallest energy scale that counts (for relative
+    comparisons near E = 0).  ``guess``, predicted (energy, sector) pairs of
+    exactly these states from a coarser grid, lets the eigenvalues be found
+    by inverse iteration instead of bisection; the prediction is proved by
+    Sturm counts and replaced by bisection where the proof fails.
     """
-    d, e = op.d, op.e
-    n_below = kernels.sturm_count(d, e, e_hi) if np.isfinite(e_hi) else op.size
-    i0 = kernels.sturm_count(d, e, e_lo) if e_lo is not None else 0
-    n = min(n_below - i0, max_states)
+    lows = [_count(s.op, e_lo, 0) for s in sectors]
+    highs = [_count(s.op, e_hi, s.op.size) for s in sectors]
+    total = sum(h - lo for h, lo in zip(highs, lows))
+    n = min(total, max_states)
+    first_index, count_below = sum(lows), sum(highs)
     if n <= 0:
-        return GridStates(np.empty(0), np.empty((0, op.size)), n_below)
-    found = _from_guess(op, np.asarray(guess, dtype=float), i0) if guess is not None and len(guess) == n else None
-    if found is None:
-        vals, vecs = eigh_tridiagonal(d, e, select="i", select_range=(i0, i0 + n - 1), lapack_driver="stebz")
-    else:
-        vals, vecs = found
-    norm_t = float(np.max(np.abs(d)) + 2.0 * np.max(np.abs(e))) if e.size else float(np.max(np.abs(d)))
-    lapack_bound = 8.0 * EPS * norm_t * max(1.0, np.sqrt(op.size) / 10.0)
-    sqw = np.sqrt(op.w)
-    energies = np.empty(n)
-    psis = np.empty((n, op.size))
-    for k in range(n):
-        u = vecs[:, k]
-        lam0 = vals[k]
-        psi = u / sqw
-        nodes0 = count_nodes(psi)
-        lam = kernels.flux_quotient(psi, op.a, op.vw, op.w)
-        best_psi, best_lam = psi, lam
-        if abs(lam - lam0) <= lapack_bound + 1e-12 * abs(lam0):
-            for _ in range(2):
-                y = kernels.tridiag_solve(d, e, lam, u)
-                big = np.max(np.abs(y))
-                if not np.isfinite(big) or big == 0.0:
-                    break
-                y = y / big
-                nrm = np.sqrt(np.sum(y * y))  # pairwise sum: the same result for any BLAS thread count
-                if not np.isfinite(nrm) or nrm == 0.0:
-                    break
-                u_new = y / nrm
-                psi_new = u_new / sqw
-                lam_new = kernels.flux_quotient(psi_new, op.a, op.vw, op.w)
-                if abs(lam_new - lam0) > lapack_bound + 1e-12 * abs(lam0) or count_nodes(psi_new) != nodes0:
-                    break
-                u, psi, lam = u_new, psi_new, lam_new
-                best_psi, best_lam = psi, lam
-        norm = np.sqrt(np.sum(op.w * best_psi**2))
-        best_psi = best_psi / norm
-        # sign convention: the first lobe (leftmost significant extremum) is positive
-        big = np.flatnonzero(np.abs(best_psi) > 1e-3 * np.max(np.abs(best_psi)))
-        if big.size and best_psi[big[0]] < 0:
-            best_psi = -best_psi
-        energies[k] = best_lam
-        psis[k] = best_psi
-    order = np.argsort(energies)
-    energies, psis = energies[order], psis[order]
-    keep = energies < e_hi if np.isfinite(e_hi) else np.ones(n, dtype=bool)
-    return GridStates(energies[keep], psis[keep], n_below - int(np.count_nonzero(~keep)))
+        return GridStates(np.empty(0), np.empty(0, int), np.empty(0, int), np.empty(0, int), (), np.empty(0),
+                          count_below, first_index)
+    # candidates: the lowest n of every sector, merged; the n lowest of them are the states
+    wanted: list[int] = []
+    values_of: list[np.ndarray] = []
+    predicted = _predicted(guess, len(sectors), n)
+    for s, (sector, lo, hi) in enumerate(zip(sectors, lows, highs)):
+        m = min(hi - lo, n) if predicted is None else predicted[s].size
+        values_of.append(predicted[s] if predicted is not None else _bisection(sector.op, lo, lo + m))
+        wanted.append(m)
+    if predicted is None:
+        allv = np.concatenate(values_of)
+        tags = np.concatenate([np.full(v.size, s) for s, v in enumerate(values_of)])
+        keep = np.lexsort((tags, allv))[:n]
+        wanted = [int(np.count_nonzero(tags[keep] == s)) for s in range(len(sectors))]
+        values_of = [values_of[s][: wanted[s]] for s in range(len(sectors))]
+    vecs, energies, rounds = [], [], []
+    for s, sector in enumerate(sectors):
+        got = _sector_states(sector.op, values_of[s], lows[s], floor, predicted is not None)
+        if got is None:  # the prediction failed its proof: bisection
+            got = _sector_states(sector.op, _bisection(sector.op, lows[s], lows[s] + wanted[s]), lows[s], floor, False)
+        if got is None:
+            raise FloatingPointError("inverse iteration broke down on this grid")
+        vecs.append(got[0])
+        energies.append(got[1])
+        rounds.append(got[2])
+    energy = np.concatenate(energies)
+    sector_of = np.concatenate([np.full(e.size, s) for s, e in enumerate(energies)])
+    order = np.lexsort((sector_of, energy))
+    if predicted is not None and not _complete(sectors, energy[order][-1], first_index + n, floor):
+        return solve_grid(sectors, e_lo, e_hi, max_states, floor, None)
+    flat_vecs = [v for block in vecs for v in block]
+    parity = np.array([sectors[s].parity for s in sector_of], dtype=int)
+    keep = energy[order] < e_hi if math.isfinite(e_hi) else np.ones(order.size, dtype=bool)
+    order = order[keep]
+    return GridStates(energy[order], first_index + np.arange(order.size), sector_of[order], parity[order],
+                      tuple(flat_vecs[i] for i in order), np.concatenate(rounds)[order],
+                      count_below - int(np.count_nonzero(~keep)), first_index)
+
+
+def _predicted(guess, n_sectors: int, n: int):
+    """Per-sector arrays of predicted energies, or None if the guess does not describe exactly n states."""
+    if guess is None or len(guess) != n:
+        return None
+    per = [[] for _ in range(n_sectors)]
+    for energy, sector in guess:
+        if not (0 <= sector < n_sectors and math.isfinite(energy)):
+            return None
+        per[sector].append(float(energy))
+    return [np.sort(np.asarray(v, dtype=float)) for v in per]
+
+
+def _sector_states(op: Operator, values: np.ndarray, lo: int, floor: float, prove: bool):
+    """(vectors, energies, round-off) of one sector's states, or None when a predicted set fails its proof."""
+    if values.size == 0:
+        return np.empty((0, op.size)), np.empty(0), np.empty(0)
+    got = _vectors(op, values, floor, polish=True)
+    if got is None:
+        return None
+    vectors, energies = got
+    order = np.argsort(energies, kind="stable")
+    vectors, energies = vectors[order], energies[order]
+    matrix, quotient = np.array([_scales(op, u, lam) for u, lam in zip(vectors, energies)]).reshape(-1, 2).T
+    r = _roundoff(matrix, quotient, energies)
+    if prove and not _proved(op, energies, lo, floor, matrix):
+        return None
+    for j in range(vectors.shape[0]):  # sign convention: the first significant lobe is positive
+        u = vectors[j]
+        big = np.flatnonzero(np.abs(u) > 1e-3 * np.max(np.abs(u)))
+        if big.size and u[big[0]] < 0:
+            vectors[j] = -u
+    return vectors, energies, r
+
+
+def _complete(sectors, top: float, expected: int, floor: float) -> bool:
+    """True if exactly ``expected`` states of the whole grid lie at or below ``top`` (nothing was skipped)."""
+    delta = max(1e-7 * max(abs(top), floor), 0.0)
+    return sum(int(kernels.sturm_count(s.op.d, s.op.e, top + delta)) for s in sectors) == expected

@@ -1,5 +1,26 @@
-"""Per-state observables of a converged solve: normalised psi on all nodes, nodes, parity, <x>, spread,
-probability inside each named region.  Lengths in the case length unit, psi in length^-1/2."""
+"""The result of a solve and its per-state observables.
+
+:func:`finish` turns the finest level of a solve into a :class:`Solution`:
+wavefunctions on the whole grid (mirror halves unfolded), normalised so that
+sum w psi^2 = 1 with the lumped node weights; <x>, the spread, the
+probability inside every named component or layer and the one holding most
+of it; parity; the hard-wall flag; the convergence flag and every note.
+
+A state's number is its Sturm index (its node count, by the oscillation
+theorem).  The wavefunction's sign changes are checked only where it can be
+resolved (|psi| above :data:`RESOLVED_FRACTION` of its peak): more sign
+changes there than the index allows means the vector is mixed with another
+state, and the state is flagged; fewer is normal where nodes lie in regions
+where psi is below double precision (far walls, deep tunnelling).
+
+A *hard-wall state* lives next to a wall rather than in the potential's
+structure: more than half of its probability lies between a hard wall and the
+potential feature nearest to it.  Without features inside the box (a plain
+box, a field between walls) no state is flagged.
+
+Energies in the case energy unit, lengths in its length unit, psi in
+length^-1/2.
+"""
 
 from __future__ import annotations
 
@@ -8,12 +29,17 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fdsolver.boundstates.eigen import count_nodes
+from fdsolver.numerics.operator import NEUMANN
+
+#: psi is resolved where |psi| exceeds this fraction of its peak (eigenvector noise lies far below)
+RESOLVED_FRACTION = 1e-6
+#: a state with more than this share of its probability in a wall zone is a hard-wall state
+WALL_SHARE = 0.5
 
 
 @dataclass(frozen=True)
 class Solution:
-    """Result of :func:`solve_potential`; arrays over ``state`` and over the nodes ``x``."""
+    """Result of :func:`~fdsolver.boundstates.driver.solve_potential`; arrays over ``state`` and the nodes ``x``."""
 
     x: np.ndarray
     potential: np.ndarray
@@ -38,63 +64,170 @@ class Solution:
     box_error: np.ndarray
     bound_count: int
     messages: tuple[str, ...]
+    index: np.ndarray  # global Sturm index of every state (= its node count)
+    home: np.ndarray  # region holding most of the state's probability (-1: none named)
+    wall: np.ndarray  # -1 / +1: a hard-wall state at the left / right wall; 0 otherwise
+    splitting: np.ndarray  # E_{k+1} - E_k, extrapolated as a sequence of its own
+    splitting_error: np.ndarray
+    splitting_bound: np.ndarray  # True: splitting is only an upper bound (below double precision)
+    resolved_count: int  # states the box resolved below the window top
+    reference: float  # the energy the solver measured from (continuum threshold or lowest V)
 
 
-def observables(setup, op, states, energy, err, conv, center, box, level_e, level_n, box_err, messages) -> Solution:
-    """Assemble the :class:`Solution` from the finest level's operator and states."""
+def _unfold(sector, u: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(nodes of the whole grid, psi on them) of a sector's eigenvector, normalised over the whole grid."""
+    op = sector.op
+    psi = u / np.sqrt(op.w)
+    if sector.parity == 0:
+        return op.nodes, np.concatenate([[0.0], psi, [0.0]])
+    half = op.nodes
+    half_psi = np.concatenate([psi, [0.0]]) if op.left == NEUMANN else np.concatenate([[0.0], psi, [0.0]])
+    center = half[0]
+    nodes = np.concatenate([2.0 * center - half[:0:-1], half])
+    full = np.concatenate([sector.parity * half_psi[:0:-1], half_psi]) / math.sqrt(2.0)
+    return nodes, full
 
-    pot = setup.potential
-    x_all = op.nodes
-    n = energy.size
-    npts = x_all.size
-    psi = np.zeros((n, npts))
-    psi[:, 1:-1] = states.psi
-    w_all = np.concatenate([[0.0], op.w, [0.0]])
-    mean_x = np.array([np.sum(w_all * p**2 * x_all) for p in psi])
-    spread = np.array([math.sqrt(max(0.0, np.sum(w_all * p**2 * (x_all - mx) ** 2))) for p, mx in zip(psi, mean_x)])
-    nodes = np.array([count_nodes(p) for p in states.psi], dtype=int)
-    parity = np.zeros(n, dtype=int)
-    if center is not None and np.allclose(x_all + x_all[::-1], 2 * center, rtol=0, atol=1e-9 * (box[1] - box[0])):
-        for k in range(n):
-            overlap = np.sum(w_all * psi[k] * psi[k][::-1])
-            parity[k] = 1 if overlap > 0 else -1
-    regions = pot.regions()
+
+def _potential_on(pot, x_all: np.ndarray) -> np.ndarray:
+    """V at the nodes: its dual-cell average at interior nodes (as the operator sees it), the value at the ends."""
+    v_nodes = pot.value(x_all)
+    if x_all.size > 2:
+        il, ir = pot.half_cell_integrals(x_all)
+        h = np.diff(x_all)
+        v_nodes[1:-1] = (ir[:-1] + il[1:]) / (0.5 * (h[:-1] + h[1:]))
+    return v_nodes
+
+
+def _sign_changes(psi: np.ndarray) -> int:
+    """Sign changes of psi inside the stretches where it is resolved (never across an unresolved gap)."""
+    big = np.abs(psi) > RESOLVED_FRACTION * np.max(np.abs(psi))
+    s = np.sign(psi)
+    adjacent = big[1:] & big[:-1]
+    return int(np.count_nonzero(adjacent & (s[1:] != s[:-1])))
+
+
+def _wall_zones(problem, box) -> list[tuple[int, float, float]]:
+    """(side, lo, hi) between each hard wall and the potential feature nearest to it."""
+    if not problem.domain.hard:
+        return []
+    feats = problem.potential.features()
+    feats = feats[(feats > box[0]) & (feats < box[1])]
+    if feats.size == 0:
+        return []
+    return [(-1, box[0], float(feats[0])), (1, float(feats[-1]), box[1])]
+
+
+def _cell_overlap(x_all: np.ndarray, lo: float, hi: float) -> np.ndarray:
+    """Length of each node's dual cell inside [lo, hi]."""
     h = np.diff(x_all)
     lo_cell = np.concatenate([[x_all[0]], x_all[1:] - 0.5 * h])
     hi_cell = np.concatenate([x_all[:-1] + 0.5 * h, [x_all[-1]]])
+    return np.clip(np.minimum(hi_cell, hi) - np.maximum(lo_cell, lo), 0.0, None)
+
+
+def finish(problem, box, center, run, box_error: np.ndarray, messages: list) -> Solution:
+    """The :class:`Solution` of the finest level (module docstring)."""
+    states, pot = run.states, problem.potential
+    tol = problem.settings.tolerance
+    n = run.energy.size
+    if run.sectors:
+        x_all = _unfold(run.sectors[0], np.zeros(run.sectors[0].op.size))[0]
+    else:
+        x_all = np.asarray(run.nodes, dtype=float)
+    psi = np.zeros((n, x_all.size))
+    for k in range(n):
+        psi[k] = _unfold(run.sectors[states.sector[k]], states.vectors[k])[1]
+    h = np.diff(x_all)
+    w_all = np.concatenate([[0.0], 0.5 * (h[:-1] + h[1:]), [0.0]])
+    mean_x = psi**2 @ (w_all * x_all)
+    spread = np.sqrt(np.maximum(0.0, np.einsum("kx,x,kx->k", psi, w_all, (x_all[None, :] - mean_x[:, None]) ** 2)))
+    regions = pot.regions()
     inside = np.zeros((n, len(regions)))
     for j, (_, rlo, rhi) in enumerate(regions):
-        overlap = np.clip(np.minimum(hi_cell, rhi) - np.maximum(lo_cell, rlo), 0.0, None)
-        inside[:, j] = np.sum(psi**2 * overlap, axis=1)
-    v_nodes = pot.value(x_all)
-    v_nodes[1:-1] = op.v
-    m_nodes = pot.mass_at(x_all)
-    nlev = len(level_e)
-    le = np.full((nlev, n), np.nan)
-    for i, row in enumerate(level_e):
-        le[i, : min(n, row.size)] = row[:n]
+        inside[:, j] = psi**2 @ _cell_overlap(x_all, rlo, rhi)
+    home = np.where(inside.max(axis=1) > 0, inside.argmax(axis=1), -1) if regions and n else np.full(n, -1)
+    wall = np.zeros(n, dtype=int)
+    for side, lo, hi in _wall_zones(problem, box):
+        share = psi**2 @ _cell_overlap(x_all, lo, hi) if n else np.zeros(0)
+        wall[share > WALL_SHARE] = side
+    error = run.error + box_error
+    energy = problem.absolute(run.energy)
+    scale = problem.energy_scale(run.energy)
+    conv = error <= tol * scale if n else np.zeros(0, dtype=bool)
+    index = states.index.copy() if n else np.zeros(0, dtype=int)
+    for k in range(n):
+        found = _sign_changes(psi[k])
+        if found > index[k]:
+            conv[k] = False
+            messages.append(
+                f"state {index[k]}: its wavefunction changes sign {found} times where it is resolved, more than its "
+                f"index allows: the grid does not separate it from a neighbouring state"
+            )
+    _convergence_notes(problem, run, error, scale, conv, index, messages)
+    _existence_notes(problem, run, index, messages)
+    le = np.full((len(run.level_energies), n), np.nan)
+    for i, row in enumerate(run.level_energies):
+        le[i, : min(n, row.size)] = problem.absolute(row[:n])
+    whole = problem.whole_line_count() if problem.whole_spectrum else None
+    bound = whole if whole is not None else (int(states.count_below) if math.isfinite(problem.e_hi) else n)
     return Solution(
         x=x_all,
-        potential=v_nodes,
-        mass=m_nodes,
+        potential=_potential_on(pot, x_all),
+        mass=pot.mass_at(x_all),
         weights=w_all,
         energy=energy,
-        energy_error=err,
+        energy_error=error,
         converged=conv,
         psi=psi,
-        nodes=nodes,
-        parity=parity,
+        nodes=index.copy(),
+        parity=states.parity.copy() if n else np.zeros(0, dtype=int),
         mean_x=mean_x,
         spread=spread,
         inside=inside,
         region_names=tuple(r[0] for r in regions),
-        threshold=setup.threshold,
+        threshold=problem.threshold,
         box=(float(box[0]), float(box[1])),
-        boundary=setup.domain.boundary,
+        boundary=problem.domain.boundary,
         mirror_center=center,
         level_energies=le,
-        level_sizes=np.array(level_n, dtype=int),
-        box_error=box_err,
-        bound_count=int(states.count_below) if math.isfinite(setup.e_hi) else n,
-        messages=tuple(messages),
+        level_sizes=np.array(run.level_sizes, dtype=int),
+        box_error=box_error,
+        bound_count=int(bound),
+        messages=tuple(dict.fromkeys(messages)),
+        index=index,
+        home=home.astype(int),
+        wall=wall,
+        splitting=run.splitting,
+        splitting_error=run.splitting_error,
+        splitting_bound=run.splitting_bound,
+        resolved_count=int(states.count_below),
+        reference=problem.reference,
     )
+
+
+def _convergence_notes(problem, run, error, scale, conv, index, messages) -> None:
+    tol = problem.settings.tolerance
+    unit = problem.potential.units.energy
+    for k in np.flatnonzero(~conv):
+        if not error[k] > tol * scale[k]:
+            continue  # flagged for another reason, said above
+        why = " (round-off at the finest affordable grid limits it)" if k < run.roundoff_limited.size and \
+            run.roundoff_limited[k] else ""
+        messages.append(
+            f"state {index[k]} is not converged: estimated error {error[k]:.2e} is above the tolerance "
+            f"{tol * scale[k]:.2e} ({unit}){why}"
+        )
+
+
+def _existence_notes(problem, run, index, messages) -> None:
+    """Bound states the box-independent count knows of but the grid did not resolve, and states left out."""
+    states = run.states
+    n = run.energy.size
+    whole = problem.whole_line_count() if problem.whole_spectrum else None
+    if whole is not None and whole > states.count_below:
+        missing = whole - states.count_below
+        messages.insert(0, f"{whole} bound state(s) exist, {missing} not resolved: bound too weakly for the box or "
+                           "narrower than double precision can resolve on the grid (see the notes below)")
+    shown = states.count_below if whole is None else min(whole, states.count_below)
+    if problem.whole_spectrum and math.isfinite(problem.e_hi) and shown > n:
+        messages.append(f"{shown - n} more bound state(s) exist above the {n} returned (raise [solve] max_states)")

@@ -49,15 +49,25 @@ class GridSettings:
     min_cells_per_segment: int = 2
 
 
-def _segment_nodes(a: float, b: float, xs: np.ndarray, hs: np.ndarray, min_cells: int) -> np.ndarray:
-    """Nodes on [a, b] (a and b included) with local spacing close to h, from samples (xs, hs)."""
+def _segment_nodes(bounds: np.ndarray, xs: np.ndarray, hs: np.ndarray, min_cells: int) -> np.ndarray:
+    """Nodes on [bounds[0], bounds[-1]] with every bound a node and local spacing close to h(x).
+
+    xi(x) = int dx / h counts the cells wanted up to x (trapezoid over the
+    samples, which include every bound); segment k gets
+    max(min_cells, ceil(xi(b_k+1) - xi(b_k))) cells placed at equal steps of xi.
+    All segments at once: O(samples + nodes).
+    """
     inv = 1.0 / hs
     xi = np.concatenate([[0.0], np.cumsum(0.5 * (inv[1:] + inv[:-1]) * np.diff(xs))])
-    n = max(min_cells, int(np.ceil(xi[-1] - 1e-9)))
-    targets = np.linspace(0.0, xi[-1], n + 1)
+    xb = np.interp(bounds, xs, xi)
+    n = np.maximum(min_cells, np.ceil(np.diff(xb) - 1e-9)).astype(np.int64)
+    start = np.concatenate([[0], np.cumsum(n)])
+    seg = np.repeat(np.arange(n.size), n)
+    j = np.arange(start[-1]) - start[seg]
+    targets = xb[seg] + (xb[seg + 1] - xb[seg]) * (j / n[seg])
     nodes = np.interp(targets, xi, xs)
-    nodes[0], nodes[-1] = a, b
-    return nodes
+    nodes[j == 0] = bounds[:-1]  # the bounds themselves, exactly
+    return np.concatenate([nodes, bounds[-1:]])
 
 
 def base_grid(
@@ -77,22 +87,28 @@ def base_grid(
         left = 2.0 * center - right[:0:-1]
         return np.concatenate([left, right])
     tiny = 64.0 * np.finfo(float).eps * max(abs(lo), abs(hi), hi - lo)  # closer than this is round-off
-    kept: list[float] = []
-    for b in sorted({float(b) for b in breakpoints if lo + tiny < b < hi - tiny}):
-        if not kept or b - kept[-1] > tiny:  # features closer than round-off are one node
-            kept.append(b)
-    bps = np.asarray(kept, dtype=float)
+    bps = np.unique(np.asarray(list(breakpoints), dtype=float))
+    bps = bps[(bps > lo + tiny) & (bps < hi - tiny)]
+    if bps.size > 1 and np.any(np.diff(bps) <= tiny):  # features closer than round-off are one node
+        kept = [bps[0]]
+        for b in bps[1:]:
+            if b - kept[-1] > tiny:
+                kept.append(b)
+        bps = np.asarray(kept)
     bounds = np.concatenate([[lo], bps, [hi]])
     # samples: dense near every bound (geometric), plus a uniform background
     width = hi - lo
     sample = [np.linspace(lo, hi, 2049)]
     local = spacing(bounds)
-    for b, hb in zip(bounds, local):
-        steps = 0.05 * hb * (1.0 + settings.growth * 0.5) ** np.arange(0, 400)
-        offs = np.cumsum(steps)
-        offs = offs[offs < width]
-        sample.append(b + offs)
-        sample.append(b - offs)
+    # geometric offsets from every bound, each reaching only as far as the farther neighbouring bound
+    offs = np.cumsum(0.05 * (1.0 + settings.growth * 0.5) ** np.arange(0, 400))
+    gap = np.maximum(np.diff(bounds, prepend=bounds[0]), np.diff(bounds, append=bounds[-1]))
+    reach = np.minimum(np.maximum(gap, 0.0), width)
+    steps = local[:, None] * offs[None, :]
+    keep = steps < reach[:, None]
+    around = bounds[:, None] + np.where(keep, steps, np.nan)
+    below = bounds[:, None] - np.where(keep, steps, np.nan)
+    sample.extend([around[keep], below[keep]])
     xs = np.unique(np.clip(np.concatenate(sample + [bounds]), lo, hi))
     for _ in range(8):
         hs = lipschitz_limit(xs, np.minimum(spacing(xs), width / 4.0), settings.growth)
@@ -114,13 +130,7 @@ def base_grid(
                 "raise [solve] memory_mb or loosen the tolerance",
                 key="solve.memory_mb",
             )
-    nodes = [np.array([lo])]
-    for a, b in zip(bounds[:-1], bounds[1:]):
-        i0, i1 = np.searchsorted(xs, [a, b])
-        seg_x = xs[i0 : i1 + 1]
-        seg_h = hs[i0 : i1 + 1]
-        nodes.append(_segment_nodes(a, b, seg_x, seg_h, settings.min_cells_per_segment)[1:])
-    return np.concatenate(nodes)
+    return _segment_nodes(bounds, xs, hs, settings.min_cells_per_segment)
 
 
 def refine(nodes: np.ndarray, level: int) -> np.ndarray:
@@ -167,11 +177,32 @@ def spacing_function(potential, e_lo: float, e_hi: float, gs: GridSettings, deep
             r2 = m * np.maximum(deep, np.abs(v - e_hi)) / c
         r2 = np.minimum(np.where(np.isfinite(r2), r2, np.inf), r2_cap * m_max / potential.mass)
         h = gs.wave_fraction / np.sqrt(r2 + 1e-300)
-        for p, s in feats:
-            if math.isfinite(s):
-                h = np.minimum(h, gs.feature_fraction * s + gs.growth * np.abs(x - p))
-        for p, s in pts:
-            h = np.minimum(h, 0.5 * gs.wave_fraction * s + gs.growth * np.abs(x - p))
-        return h
+        return np.minimum(h, cones(x))
 
+    cone_p = [p for p, s in feats if math.isfinite(s)] + [p for p, _ in pts]
+    cone_c = [gs.feature_fraction * s for _, s in feats if math.isfinite(s)] + [0.5 * gs.wave_fraction * s for _, s in pts]
+    cones = cone_envelope(np.asarray(cone_p, dtype=float), np.asarray(cone_c, dtype=float), gs.growth)
     return spacing
+
+
+def cone_envelope(p: np.ndarray, c: np.ndarray, slope: float):
+    """x -> min_j (c_j + slope |x - p_j|) (inf without cones), in O((N + K) log K) for N samples and K cones.
+
+    Left of x the minimum is min_{p_j <= x} (c_j - slope p_j) + slope x, right of
+    it min_{p_j >= x} (c_j + slope p_j) - slope x: prefix and suffix minima over
+    the sorted apexes.
+    """
+    if p.size == 0:
+        return lambda x: np.full(np.shape(x), np.inf)
+    order = np.argsort(p)
+    p, c = p[order], c[order]
+    left = np.concatenate([[np.inf], np.minimum.accumulate(c - slope * p)])
+    right = np.concatenate([np.minimum.accumulate((c + slope * p)[::-1])[::-1], [np.inf]])
+
+    def envelope(x):
+        x = np.asarray(x, dtype=float)
+        k = np.searchsorted(p, x, side="right")  # apexes p[:k] are <= x
+        j = np.searchsorted(p, x, side="left")  # apexes p[j:] are >= x
+        return np.minimum(left[k] + slope * x, right[j] - slope * x)
+
+    return envelope

@@ -4,8 +4,10 @@
   matrix (diagonal d, off-diagonal e) below a shift, from the signs of the
   LDL^T pivots (Sturm sequence).  Exact in exact arithmetic; in floating point
   it is the count of a matrix within a few ulps of the given one.
-* :func:`tridiag_solve` - solve (T - sigma I) y = b by Gaussian elimination
-  with partial pivoting, for inverse iteration near an eigenvalue.
+* :func:`tridiag_factor` / :func:`tridiag_apply` / :func:`tridiag_solve` -
+  (T - sigma I) y = b by Gaussian elimination with partial pivoting;
+  :func:`inverse_iteration` - eigenvectors of a batch of shifts from one
+  factorisation each, orthonormal within clusters.
 * :func:`flux_quotient` - the Rayleigh quotient of the flux-form operator,
   sum a_j (psi_{j+1} - psi_j)^2 + sum (Vw_i - alpha_i) psi_i^2 over
   sum w_i psi_i^2, computed from differences so that its round-off is a few
@@ -21,6 +23,7 @@ package folder), and silently not cached otherwise.
 
 from __future__ import annotations
 
+import math
 import os
 import tempfile
 
@@ -65,16 +68,20 @@ def sturm_count(d, e, sigma):
 
 
 @njit
-def tridiag_solve(d, e, sigma, b):
-    """Solve (tridiag(e, d, e) - sigma I) y = b with partial pivoting; returns y."""
+def tridiag_factor(d, e, sigma):
+    """LU factors of tridiag(e, d, e) - sigma I with partial pivoting: (u0, u1, u2, lmul, piv).
+
+    u0/u1/u2 are the diagonal and the first and second superdiagonals of U
+    (the second appears where rows were swapped), lmul the multipliers and piv
+    the swaps.  A zero pivot is replaced by 1e-300 (inverse iteration at an
+    exact eigenvalue).  O(N).
+    """
     n = d.shape[0]
-    # rows of the banded LU: u0 (diag), u1 (first super), u2 (second super, from pivoting)
     u0 = np.empty(n)
     u1 = np.zeros(n)
     u2 = np.zeros(n)
     lmul = np.zeros(n)
     piv = np.zeros(n, dtype=np.bool_)
-    y = b.copy()
     diag = d[0] - sigma
     sup = e[0] if n > 1 else 0.0
     for i in range(n - 1):
@@ -87,12 +94,10 @@ def tridiag_solve(d, e, sigma, b):
             m = sub / diag
             u0[i] = diag
             u1[i] = sup
-            u2[i] = 0.0
             lmul[i] = m
             diag = nd - m * sup
             sup = nsup
-        else:
-            # swap rows i and i+1
+        else:  # swap rows i and i+1
             m = diag / sub
             u0[i] = sub
             u1[i] = nd
@@ -101,23 +106,85 @@ def tridiag_solve(d, e, sigma, b):
             piv[i] = True
             diag = sup - m * nd
             sup = -m * nsup
-        # apply to rhs
+    if diag == 0.0:
+        diag = 1e-300
+    u0[n - 1] = diag
+    return u0, u1, u2, lmul, piv
+
+
+@njit
+def tridiag_apply(u0, u1, u2, lmul, piv, b):
+    """Solve with the factors of :func:`tridiag_factor`; returns a new array.  O(N)."""
+    n = u0.shape[0]
+    y = b.copy()
+    for i in range(n - 1):
         if piv[i]:
             t = y[i]
             y[i] = y[i + 1]
             y[i + 1] = t - lmul[i] * y[i]
         else:
             y[i + 1] = y[i + 1] - lmul[i] * y[i]
-    if diag == 0.0:
-        diag = 1e-300
-    u0[n - 1] = diag
-    # back substitution
     y[n - 1] = y[n - 1] / u0[n - 1]
     if n > 1:
         y[n - 2] = (y[n - 2] - u1[n - 2] * y[n - 1]) / u0[n - 2]
     for i in range(n - 3, -1, -1):
         y[i] = (y[i] - u1[i] * y[i + 1] - u2[i] * y[i + 2]) / u0[i]
     return y
+
+
+@njit
+def tridiag_solve(d, e, sigma, b):
+    """Solve (tridiag(e, d, e) - sigma I) y = b with partial pivoting; returns y."""
+    u0, u1, u2, lmul, piv = tridiag_factor(d, e, sigma)
+    return tridiag_apply(u0, u1, u2, lmul, piv, b)
+
+
+@njit
+def inverse_iteration(d, e, shifts, first, steps, out):
+    """Eigenvectors of tridiag(e, d, e) for the eigenvalues near ``shifts``, into the rows of ``out``.
+
+    Each vector: ``steps`` solves with the factors of T - shift I from a fixed
+    start vector, each followed by Gram-Schmidt against the vectors of the
+    same cluster computed before it (rows ``first[j]`` .. j-1), and
+    normalisation.  States closer than their eigenvector accuracy thus come
+    out as an orthonormal basis of their cluster.  Sums run sequentially, so
+    the result does not depend on any thread count.  Returns False if a
+    solve broke down (a non-finite vector).  O(N (steps + cluster size)) per
+    vector.
+    """
+    n = d.shape[0]
+    k = shifts.shape[0]
+    for j in range(k):
+        u = np.empty(n)
+        for i in range(n):
+            u[i] = 1.0 + 0.01 * math.sin(i * 0.7548776662466927 + j)  # deterministic, not an eigenvector
+        u0, u1, u2, lmul, piv = tridiag_factor(d, e, shifts[j])
+        for _ in range(steps):
+            y = tridiag_apply(u0, u1, u2, lmul, piv, u)
+            big = 0.0
+            for i in range(n):
+                if abs(y[i]) > big:
+                    big = abs(y[i])
+            if not (big > 0.0 and big < math.inf):
+                return False
+            for i in range(n):
+                y[i] /= big
+            for m in range(first[j], j):
+                dot = 0.0
+                for i in range(n):
+                    dot += y[i] * out[m, i]
+                for i in range(n):
+                    y[i] -= dot * out[m, i]
+            nrm = 0.0
+            for i in range(n):
+                nrm += y[i] * y[i]
+            nrm = math.sqrt(nrm)
+            if not (nrm > 0.0 and nrm < math.inf):
+                return False
+            for i in range(n):
+                u[i] = y[i] / nrm
+        out[j] = u
+    return True
 
 
 @njit

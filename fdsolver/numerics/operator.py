@@ -1,20 +1,33 @@
-"""Finite-difference assembly of H = -C d/dx (1/m) d/dx + V(x) - sum alpha_p delta(x - x_p).
+"""Finite-difference assembly of H = -C d/dx (1/m) d/dx + V(x) - shift - sum alpha_p delta(x - x_p).
 
-On nodes x_0 < ... < x_{n+1} with Dirichlet ends (psi_0 = psi_{n+1} = 0) the
-flux-conservative three-point scheme for interior node i reads
+On nodes x_0 < ... < x_{n+1} the flux-conservative three-point scheme for an
+unknown node i reads
 
     (K psi)_i = a_{i-1} (psi_i - psi_{i-1}) + a_i (psi_i - psi_{i+1}) + Vw_i psi_i
     a_j = C / (m_j h_j)        (cell j between x_j and x_{j+1}, mass at its midpoint)
     w_i = (h_{i-1} + h_i) / 2  (node weight)
-    Vw_i = integral of V over the dual cell [x_i - h_{i-1}/2, x_i + h_i/2] - alpha_i
+    Vw_i = integral of (V - shift) over the dual cell [x_i - h_{i-1}/2, x_i + h_i/2] - alpha_i
 
 and K psi = E W psi.  This is the piecewise-linear finite-element stiffness
 with a lumped mass; interfaces of m and discontinuities of V on nodes are
 treated exactly (BenDaniel-Duke matching: psi and psi'/m continuous), and a
 point interaction on a node is the exact discrete jump condition.  The dual
-cell integral uses 3-point Gauss-Legendre on each half cell (exact for
-piecewise polynomials up to degree 5 between nodes).  The eigenvalue error is
-O(h^2) and, on nested refinements, expands in even powers of h.
+cell integrals come from :meth:`fdsolver.model.potential.Potential.half_cell_integrals`
+(exact for piecewise polynomials up to degree 5 between nodes, and for
+tabulated profiles).  The eigenvalue error is O(h^2) and, on nested
+refinements, expands in even powers of h.
+
+``shift`` is subtracted from V *before* integration, so that energies are
+measured from a reference (the continuum threshold): where V equals the
+reference, V - shift is exactly zero and no rounding of the baseline enters
+the spectrum.
+
+Ends: the right end is a Dirichlet node (psi = 0).  The left end is Dirichlet
+too, or, with ``left="neumann"``, an unknown with psi' = 0 and the half dual
+cell [x_0, x_0 + h_0/2] (a point term on x_0 counts half): the even sector of
+a mirror-symmetric problem on its right half, whose eigenvalues are exactly
+the even eigenvalues of the full discrete problem.  ``a`` has one entry per
+coupling, ``a[0]`` to the left end (0 for Neumann) and ``a[n]`` to the right.
 
 The symmetric tridiagonal T = W^-1/2 K W^-1/2 (diagonal ``d``, off-diagonal
 ``e``) has the same eigenvalues; psi = W^-1/2 u for an eigenvector u of T.
@@ -28,72 +41,75 @@ from dataclasses import dataclass
 import numpy as np
 
 from fdsolver.errors import CaseError
-from fdsolver.model.potential import Potential
 
-_GL_X = np.array([-np.sqrt(0.6), 0.0, np.sqrt(0.6)])
-_GL_W = np.array([5.0, 8.0, 5.0]) / 9.0
+DIRICHLET, NEUMANN = "dirichlet", "neumann"
 
 
 @dataclass(frozen=True)
 class Operator:
-    """Assembled operator on one grid.  Arrays over interior nodes unless noted."""
+    """Assembled operator on one grid.  Arrays over the unknown nodes unless noted."""
 
-    nodes: np.ndarray  # all nodes including the two Dirichlet ends (n + 2)
-    a: np.ndarray  # cell coefficients C / (m h), n + 1
+    nodes: np.ndarray  # all nodes including the ends (n + 2 Dirichlet, n + 1 with a Neumann left end)
+    a: np.ndarray  # couplings C / (m h), n + 1 (a[0] = 0 for a Neumann left end)
     w: np.ndarray  # node weights, n
-    vw: np.ndarray  # dual-cell integral of V minus point strengths, n
-    v: np.ndarray  # dual-cell average of V, n (for plots and the archive)
-    mass: np.ndarray  # cell masses, n + 1
+    vw: np.ndarray  # dual-cell integral of V - shift minus point strengths, n
+    v: np.ndarray  # dual-cell average of V (unshifted), n (for plots and the archive)
+    mass: np.ndarray  # cell masses, one per cell
     d: np.ndarray  # diagonal of T, n
     e: np.ndarray  # off-diagonal of T, n - 1
+    shift: float = 0.0
+    left: str = DIRICHLET
 
     @property
     def x(self) -> np.ndarray:
-        return self.nodes[1:-1]
+        """Positions of the unknowns."""
+        return self.nodes[:-1] if self.left == NEUMANN else self.nodes[1:-1]
 
     @property
     def size(self) -> int:
         return self.w.size
 
 
-def _half_cell_integrals(potential: Potential, nodes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Integrals of V over the left and right half of every cell (Gauss-Legendre, 3 points each)."""
-    left, right = nodes[:-1], nodes[1:]
-    mid = 0.5 * (left + right)
-    quarter = 0.25 * (right - left)
-    out = []
-    for centre in (0.5 * (left + mid), 0.5 * (mid + right)):
-        pts = centre[:, None] + quarter[:, None] * _GL_X[None, :]
-        vals = potential.value(pts.ravel()).reshape(pts.shape)
-        out.append(quarter * (vals[:, 0] * _GL_W[0] + vals[:, 1] * _GL_W[1] + vals[:, 2] * _GL_W[2]))
-    return out[0], out[1]
-
-
-def assemble(potential: Potential, nodes: np.ndarray) -> Operator:
-    """Assemble the operator of ``potential`` on ``nodes`` (Dirichlet at both ends)."""
+def assemble(potential, nodes: np.ndarray, shift: float = 0.0, left: str = DIRICHLET) -> Operator:
+    """Assemble the operator of ``potential`` on ``nodes`` (see module docstring)."""
     h = np.diff(nodes)
     if np.any(h <= 0):
         raise ValueError("grid nodes must be strictly increasing")
     mid = 0.5 * (nodes[:-1] + nodes[1:])
     mass = potential.mass_at(mid)
-    a = potential.hbar2_2me / (mass * h)
-    w = 0.5 * (h[:-1] + h[1:])
-    il, ir = _half_cell_integrals(potential, nodes)
-    vint = ir[:-1] + il[1:]
+    cell = potential.hbar2_2me / (mass * h)
+    il, ir = potential.half_cell_integrals(nodes, shift)
+    if left == NEUMANN:
+        a = np.concatenate([[0.0], cell])
+        w = np.concatenate([[0.5 * h[0]], 0.5 * (h[:-1] + h[1:])])
+        vint = np.concatenate([[il[0]], ir[:-1] + il[1:]])
+        x = nodes[:-1]
+    else:
+        a = cell
+        w = 0.5 * (h[:-1] + h[1:])
+        vint = ir[:-1] + il[1:]
+        x = nodes[1:-1]
     if not np.all(np.isfinite(vint)):
-        bad = nodes[1:-1][~np.isfinite(vint)][0]
+        bad = x[~np.isfinite(vint)][0]
         raise CaseError(
             f"the potential is not finite near x = {bad:g}; check its expression or table, or set [domain] left/right",
             key="potential",
         )
-    v = vint / w
+    v = vint / w + shift
     vw = vint.copy()
-    x = nodes[1:-1]
-    for pos, alpha in potential.point_terms():
-        i = int(np.argmin(np.abs(x - pos)))
-        if abs(x[i] - pos) > 1e-9 * max(1.0, abs(pos)) + 1e-12 * (nodes[-1] - nodes[0]):
-            raise ValueError(f"point interaction at {pos} is not on a grid node")
-        vw[i] -= alpha
+    terms = potential.point_terms()
+    if terms:
+        pos, alpha = (np.array(t, dtype=float) for t in zip(*terms))
+        inside = (pos >= x[0] - 1e-12 * abs(x[0])) & (pos <= x[-1] + 1e-12 * abs(x[-1]))
+        pos, alpha = pos[inside], alpha[inside]
+        i = np.clip(np.searchsorted(x, pos), 0, x.size - 1)
+        i = np.where((i > 0) & (np.abs(x[np.maximum(i - 1, 0)] - pos) < np.abs(x[i] - pos)), i - 1, i)
+        tol = 1e-9 * np.maximum(1.0, np.abs(pos)) + 1e-12 * (nodes[-1] - nodes[0])
+        if np.any(np.abs(x[i] - pos) > tol):
+            raise ValueError(f"point interaction at {pos[np.abs(x[i] - pos) > tol][0]} is not on a grid node")
+        if left == NEUMANN:  # a point on the mirror centre acts half on each half line
+            alpha = np.where(i == 0, 0.5 * alpha, alpha)
+        np.subtract.at(vw, i, alpha)
     d = (a[:-1] + a[1:] + vw) / w
     e = -a[1:-1] / np.sqrt(w[:-1] * w[1:])
-    return Operator(nodes=nodes, a=a, w=w, vw=vw, v=v, mass=mass, d=d, e=e)
+    return Operator(nodes=nodes, a=a, w=w, vw=vw, v=v, mass=mass, d=d, e=e, shift=float(shift), left=left)

@@ -97,6 +97,20 @@ class Shape:
     piecewise_constant: ClassVar[bool] = False
     #: True for wells that can replace a point interaction of the same integrated strength
     replaces_points: ClassVar[bool] = False
+    #: True if ``integrate(a, b)`` gives exact integrals of V over intervals (else Gauss quadrature is used)
+    exact_integrals: ClassVar[bool] = False
+
+    @classmethod
+    def sum_values(cls, shapes, x: np.ndarray) -> np.ndarray:
+        """Sum of the values of several instances at ``x``; classes override it to avoid O(N K) work."""
+        v = np.zeros_like(x)
+        for shape in shapes:
+            v = v + shape.value(x)
+        return v
+
+    def integrate(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:  # pragma: no cover - optional
+        """Exact integrals of V over [a_i, b_i] (only for classes with ``exact_integrals``)."""
+        raise NotImplementedError
 
     @classmethod
     def build(cls, name: str | None, values: Mapping[str, Any], ctx: BuildContext) -> "Shape":

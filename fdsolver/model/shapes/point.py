@@ -30,6 +30,11 @@ class Point(Shape):
     def value(self, x):
         return np.zeros_like(np.asarray(x, dtype=float))
 
+    @classmethod
+    def sum_values(cls, shapes, x):
+        """Point terms have no value: the operator adds them as derivative jumps."""
+        return np.zeros_like(np.asarray(x, dtype=float))
+
     def features(self):
         return [self.center]
 

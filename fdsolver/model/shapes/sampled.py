@@ -12,6 +12,10 @@ from fdsolver.errors import CaseError, did_you_mean
 from fdsolver.model.shapes.base import COUNT, INF, TEXT, Shape, register
 
 INTERPOLATIONS = ("linear", "cubic")
+#: a linear table with at most this many rows has every row as a grid feature
+SHORT_TABLE_ROWS = 200
+#: a longer table keeps at most this many of its kinks as features
+MAX_TABLE_FEATURES = 2000
 
 
 @register("table", keys={"file": TEXT}, optional={"interpolation": TEXT, "x_column": COUNT, "v_column": COUNT},
@@ -20,8 +24,10 @@ INTERPOLATIONS = ("linear", "cubic")
 class Table(Shape):
     """V(x) interpolated from a tabulated profile (x, V), constant beyond its ends.
 
-    ``interpolation`` is ``"linear"`` (exact piecewise linear; table points are
-    grid features) or ``"cubic"`` (a not-a-knot cubic spline through the table).
+    ``interpolation`` is ``"linear"`` (the piecewise-linear interpolant, whose
+    integrals over grid cells are exact, so its rows need not be grid nodes:
+    a long table is a sampled function, and only its kinks become features) or
+    ``"cubic"`` (a not-a-knot cubic spline through the table).
     """
 
     xs: tuple = ()
@@ -29,6 +35,8 @@ class Table(Shape):
     interpolation: str = "linear"
     source: str = ""
     _spline: object = field(default=None, compare=False, repr=False)
+    _arrays: tuple = field(default=(), compare=False, repr=False)
+    _cache: dict = field(default_factory=dict, compare=False, repr=False)
 
     @classmethod
     def build(cls, name, values, ctx):
@@ -43,26 +51,78 @@ class Table(Shape):
         return cls(name, tuple(np.asarray(xs).tolist()), tuple(np.asarray(vs).tolist()), interp, fname)
 
     def __post_init__(self):
+        xs, vs = np.asarray(self.xs, dtype=float), np.asarray(self.vs, dtype=float)
+        object.__setattr__(self, "_arrays", (xs, vs))
         if self.interpolation == "cubic":
             from scipy.interpolate import CubicSpline
 
-            object.__setattr__(self, "_spline", CubicSpline(np.asarray(self.xs), np.asarray(self.vs)))
+            object.__setattr__(self, "_spline", CubicSpline(xs, vs))
+
+    @property
+    def exact_integrals(self) -> bool:  # type: ignore[override]
+        """The linear interpolant is integrated exactly over any interval (no nodes needed at its rows)."""
+        return self.interpolation == "linear"
 
     def value(self, x):
         x = np.asarray(x, dtype=float)
-        xs = np.asarray(self.xs)
-        vs = np.asarray(self.vs)
+        xs, vs = self._arrays
         if self._spline is None:
             return np.interp(x, xs, vs)
         inside = self._spline(np.clip(x, xs[0], xs[-1]))
         return np.where(x <= xs[0], vs[0], np.where(x >= xs[-1], vs[-1], inside))
 
+    def integrate(self, a, b):
+        """Exact integrals of the linear interpolant (constant beyond the ends) over [a_i, b_i], energy * length.
+
+        Within one table segment the trapezoid of the end values (no
+        cancellation); across rows the difference of the running integral.
+        """
+        xs, vs = self._arrays
+        a, b = np.asarray(a, dtype=float), np.asarray(b, dtype=float)
+        va, vb = np.interp(a, xs, vs), np.interp(b, xs, vs)
+        out = 0.5 * (b - a) * (va + vb)
+        ia, ib = np.searchsorted(xs, a, side="right"), np.searchsorted(xs, b, side="left")
+        across = ib > ia  # a row lies strictly inside (a, b): the trapezoid alone is not exact
+        if np.any(across):
+            out[across] = self._running(b[across]) - self._running(a[across])
+        return out
+
+    def _running(self, t):
+        """int_{x_0}^{t} V for the interpolant extended by constants."""
+        xs, vs = self._arrays
+        if "prefix" not in self._cache:
+            self._cache["prefix"] = np.concatenate([[0.0], np.cumsum(0.5 * np.diff(xs) * (vs[1:] + vs[:-1]))])
+        prefix = self._cache["prefix"]
+        j = np.clip(np.searchsorted(xs, t, side="right") - 1, 0, xs.size - 1)
+        inside = prefix[j] + 0.5 * (np.minimum(t, xs[-1]) - xs[j]) * (vs[j] + np.interp(np.minimum(t, xs[-1]), xs, vs))
+        return np.where(t < xs[0], vs[0] * (t - xs[0]), np.where(t > xs[-1], prefix[-1] + vs[-1] * (t - xs[-1]), inside))
+
     def features(self):
-        xs = list(self.xs)
-        return xs if self.interpolation == "linear" else [xs[0], xs[-1]]
+        """Rows that must be grid nodes: every row of a short linear table; of a long one (a sampled profile)
+        the ends and the kinks that matter (a row more than 1e-3 of the profile's range off the straight
+        line through its neighbours), at most :data:`MAX_TABLE_FEATURES`; a cubic table: its ends."""
+        xs, vs = self._arrays
+        if self.interpolation != "linear":
+            return [float(xs[0]), float(xs[-1])]
+        if xs.size <= SHORT_TABLE_ROWS:
+            return xs.tolist()
+        return self._kinks().tolist()
+
+    def _kinks(self) -> np.ndarray:
+        if "kinks" not in self._cache:
+            xs, vs = self._arrays
+            t = (xs[1:-1] - xs[:-2]) / (xs[2:] - xs[:-2])
+            off = np.abs(vs[1:-1] - (vs[:-2] + t * (vs[2:] - vs[:-2])))
+            span = float(np.ptp(vs)) or 1.0
+            big = np.flatnonzero(off > 1e-3 * span)
+            if big.size > MAX_TABLE_FEATURES:
+                big = np.sort(big[np.argsort(off[big])[-MAX_TABLE_FEATURES:]])
+            self._cache["kinks"] = np.concatenate([[xs[0]], xs[1:-1][big], [xs[-1]]])
+        return self._cache["kinks"]
 
     def scale(self):
-        dx = np.diff(np.asarray(self.xs))
+        feats = np.asarray(self.features())
+        dx = np.diff(feats)
         return float(np.min(dx)) if dx.size else None
 
     def asymptote(self, side):

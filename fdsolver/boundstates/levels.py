@@ -1,0 +1,149 @@
+"""Nested grid levels of one box, and Richardson extrapolation of every energy and every splitting.
+
+Level k splits every cell of the base grid into 2^k (:func:`fdsolver.numerics.grid.refine`);
+on such nested grids the flux-form energies expand in even powers of the
+step, and :class:`~fdsolver.numerics.richardson.Romberg` removes the h^2 and
+h^4 terms.  Each state is judged on its own: its error estimate (the change of
+its extrapolated energy between levels, plus its round-off scale) against
+the tolerance times its own energy scale.  Refinement stops when every state
+has converged, when the next level would exceed the memory budget or the
+level limit, or when every state still open is limited by round-off (its
+round-off scale grows about 4x per level with the matrix norm where it
+lives); the distance between two states never stops it, because an
+eigenvalue's accuracy does not depend on it.
+
+Splittings E_{k+1} - E_k are extrapolated as sequences of their own: their
+discretisation error is far smaller than either energy's, so a tunnel
+splitting of 1e-10 of E keeps a meaningful error bar.  A splitting below its
+round-off scale is only known to be smaller than that (an upper bound).
+Energies relative to the problem's reference, in the case energy unit.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from fdsolver.boundstates.eigen import GridStates, Sector, solve_grid
+from fdsolver.boundstates.problem import Problem
+from fdsolver.numerics.grid import refine
+from fdsolver.numerics.operator import NEUMANN, assemble
+from fdsolver.numerics.richardson import Romberg
+
+#: round-off grows by about this factor per level (matrix norm ~ 1/h^2)
+ROUNDOFF_GROWTH = 4.0
+
+
+def sectors_on(problem: Problem, nodes: np.ndarray, center: float | None) -> list[Sector]:
+    """The operators of a grid: the whole grid, or its even and odd halves about the mirror centre."""
+    pot, shift = problem.potential, problem.reference
+    if center is None:
+        return [Sector(assemble(pot, nodes, shift), 0)]
+    half = nodes[np.searchsorted(nodes, center, side="left"):]
+    return [Sector(assemble(pot, half, shift, left=NEUMANN), 1), Sector(assemble(pot, half, shift), -1)]
+
+
+def solve_nodes(problem: Problem, nodes: np.ndarray, center: float | None, guess=None) -> tuple[list[Sector], GridStates]:
+    """The states of ``problem`` on one grid."""
+    sectors = sectors_on(problem, nodes, center)
+    s = problem.settings
+    states = solve_grid(sectors, problem.e_lo, problem.e_hi, s.max_states, problem.floor, guess)
+    return sectors, states
+
+
+@dataclass
+class LevelRun:
+    """The finest level reached and the extrapolated energies and splittings (relative energies)."""
+
+    energy: np.ndarray
+    error: np.ndarray
+    splitting: np.ndarray
+    splitting_error: np.ndarray
+    splitting_bound: np.ndarray  # True where the splitting is below its round-off: an upper bound
+    states: GridStates
+    sectors: list
+    nodes: np.ndarray
+    level: int
+    level_energies: list
+    level_sizes: list
+    roundoff_limited: np.ndarray  # states whose next level would be limited by round-off
+    base: np.ndarray | None = None  # the base grid the levels refine
+
+
+def _prediction(level_e: list, sectors: np.ndarray):
+    """(energy, sector) predictions for the next level: E_{k+1} ~ E_k - (E_{k-1} - E_k)/4 for an h^2 error."""
+    if not level_e:
+        return None
+    nxt = level_e[-1] - (level_e[-2] - level_e[-1]) / 4.0 if len(level_e) >= 2 else level_e[-1]
+    return list(zip(nxt.tolist(), sectors.tolist()))
+
+
+def refine_levels(problem: Problem, base: np.ndarray, center: float | None, messages: list) -> LevelRun:
+    """Solve nested refinements of ``base`` until every state has converged (module docstring)."""
+    settings = problem.settings
+    tol = settings.tolerance
+    table, gaps = Romberg(), Romberg()
+    level_e: list[np.ndarray] = []
+    level_n: list[int] = []
+    states = sectors = nodes = None
+    last, n_expected = 0, None
+    limited = np.zeros(0, dtype=bool)
+    for level in range(settings.max_levels):
+        size = (base.size - 1) * 2**level + 1
+        if size > problem.max_nodes:
+            messages.append(
+                f"refinement stopped at {level_n[-1] if level_n else 0} nodes: the next level ({size} nodes) "
+                f"exceeds the memory budget (memory_mb = {settings.memory_mb:g})"
+            )
+            break
+        guess = _prediction(level_e, states.sector) if states is not None else None
+        grid = refine(base, level)
+        sectors_k, st_k = solve_nodes(problem, grid, center, guess)
+        if n_expected is not None and st_k.size < n_expected:
+            # the top state(s) rose out of the window on the finer grid: they are not resolved; the others keep
+            # their levels (states are numbered from the bottom, so the rows are cut, not shifted)
+            messages.append(
+                f"state(s) {st_k.first_index + st_k.size} to {st_k.first_index + n_expected - 1} vanished on the grid "
+                f"of {grid.size} nodes: bound too weakly to be resolved here (not resolved)"
+            )
+            level_e = [row[: st_k.size] for row in level_e]
+            table, gaps = Romberg(), Romberg()
+            for row in level_e:
+                table.add(row)
+                gaps.add(np.diff(row))
+        elif n_expected is not None and st_k.size != n_expected:
+            table, gaps, level_e, level_n = Romberg(), Romberg(), [], []  # a state appeared: restart the tables
+        n_expected = st_k.size
+        states, sectors, nodes, last = st_k, sectors_k, grid, level
+        table.add(states.energy)
+        gaps.add(np.diff(states.energy))
+        level_e.append(states.energy)
+        level_n.append(grid.size)
+        if states.size == 0:
+            if level >= 1:
+                break
+            continue
+        err = table.error() + states.roundoff
+        scale = problem.energy_scale(states.energy)
+        done = err <= tol * scale
+        limited = ~done & (ROUNDOFF_GROWTH * states.roundoff > tol * scale)
+        if table.levels >= settings.min_levels and (np.all(done) or np.all(done | limited)):
+            break
+    if states is None or states.size == 0:
+        empty = np.empty(0)
+        return LevelRun(empty, empty, empty, empty, np.zeros(0, bool),
+                        states if states is not None else solve_nodes(problem, base, center)[1],
+                        sectors or [], nodes if nodes is not None else base, last, level_e, level_n, np.zeros(0, bool),
+                        base)
+    energy = table.value()
+    error = table.error() + states.roundoff
+    r = states.roundoff
+    pair_round = r[:-1] + r[1:]
+    splitting = gaps.value() if gaps.levels else np.empty(0)
+    splitting_error = (gaps.error() if gaps.levels else np.empty(0)) + pair_round
+    bound = splitting <= pair_round
+    if np.any(bound):
+        splitting = np.where(bound, pair_round, splitting)  # only an upper bound is known
+    return LevelRun(energy, error, splitting, splitting_error, bound, states, sectors, nodes, last, level_e, level_n,
+                    limited, base)

@@ -1,0 +1,121 @@
+"""The fixed facts of one solve, worked out once before any grid: thresholds, reference, budgets, symmetry.
+
+Energies inside the solver are measured from a *reference*: the continuum
+threshold V_t (the lower asymptote of V at open ends) where there is one,
+else the lowest value of V in the box (hard walls, confining potentials).
+The operator subtracts it from V before integrating (exactly zero where V
+equals it), so a baseline of -100 meV or +1e6 changes no digit of the
+spectrum, and "bound" means exactly "below the continuum threshold".  The
+tolerance is relative to a state's energy measured from the same reference
+(its binding energy at open ends), with a floor of 1e-6 of the potential's
+range.  Energies in the case energy unit, lengths in its length unit.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from fdsolver.boundstates import counting
+from fdsolver.boundstates.box import length_scale, provisional_box
+from fdsolver.boundstates.settings import SolveSettings
+from fdsolver.errors import CaseError
+from fdsolver.model.domain import Domain, continuum_threshold
+
+#: measured upper bound of the working arrays per grid node (see DEVELOPERS.md)
+BYTES_PER_NODE = 8 * 40
+#: and per node and kept state (eigenvectors)
+BYTES_PER_NODE_STATE = 8 * 4
+#: the WKB decay budget of a box end is ln(DECAY_TARGET / tol) / 2 + 1: truncation shift below tol / 100
+DECAY_TARGET = 100.0
+#: the energy scale of relative tolerances never falls below this fraction of the potential's range
+ENERGY_FLOOR = 1e-6
+#: samples of V over the provisional box for its range and minimum
+RANGE_SAMPLES = 4001
+
+
+@dataclass
+class Problem:
+    """What to solve and the limits to solve it in; energies ``e_lo``/``e_hi`` are relative to ``reference``."""
+
+    potential: object
+    domain: Domain
+    settings: SolveSettings
+    threshold: float  # continuum threshold (absolute; inf for walls or confining V)
+    reference: float  # absolute energy the solver measures from
+    e_lo: float | None  # window, relative
+    e_hi: float  # relative (inf: every state below the window top is bound)
+    max_nodes: int
+    budget: float  # WKB decay integral of a box end
+    scale: float  # the potential's largest length (box growth limits)
+    box: tuple[float, float]  # provisional box
+    v_range: tuple[float, float]  # min and max of V - reference over the provisional box
+    floor: float  # smallest energy scale of relative tolerances
+    messages: list[str] = field(default_factory=list)
+    _count: list[int] = field(default_factory=list, repr=False)
+
+    @property
+    def open(self) -> bool:
+        """True if the ends are open and a continuum threshold exists (states can be unbound)."""
+        return not self.domain.hard and math.isfinite(self.threshold)
+
+    @property
+    def whole_spectrum(self) -> bool:
+        """True if every state below the threshold is wanted (no energy window)."""
+        return self.settings.energy_window is None
+
+    def absolute(self, energy):
+        """Energies measured from the reference, back in the case's absolute scale."""
+        return np.asarray(energy) + self.reference
+
+    def energy_scale(self, energy: np.ndarray) -> np.ndarray:
+        """|E - reference| with the floor: what relative tolerances are relative to."""
+        return np.maximum(np.abs(energy), self.floor)
+
+    def whole_line_count(self) -> int | None:
+        """The box-independent number of bound states (zero-energy phase, computed once); None without a threshold."""
+        if not self.open:
+            return None
+        if not self._count:
+            self._count.append(counting.bound_count(self.potential))
+        return self._count[0]
+
+
+def plan(potential, domain: Domain, settings: SolveSettings) -> Problem:
+    """The problem's facts: threshold, reference, window, node budget, decay budget and a first box."""
+    tol = settings.tolerance
+    threshold = continuum_threshold(potential, domain)
+    max_nodes = int(settings.memory_mb * 2**20 / (BYTES_PER_NODE + BYTES_PER_NODE_STATE * settings.max_states))
+    budget = 0.5 * math.log(DECAY_TARGET / tol) + 1.0
+    box = provisional_box(potential, domain, threshold, budget)
+    with np.errstate(all="ignore"):
+        vs = potential.value(np.linspace(box[0], box[1], RANGE_SAMPLES)[1:-1])
+    if not np.all(np.isfinite(vs)):
+        raise CaseError("the potential is not finite everywhere in the box; check its expression or table, "
+                        "or set [domain] left/right", key="potential")
+    vmin, vmax = float(np.min(vs)), float(np.max(vs))
+    reference = threshold if math.isfinite(threshold) else vmin
+    e_hi = threshold if math.isfinite(threshold) else math.inf
+    e_lo = None
+    if settings.energy_window is not None:
+        e_lo = settings.energy_window[0]
+        e_hi = min(e_hi, settings.energy_window[1])
+    span = max(vmax - vmin, abs(vmin - reference), abs(vmax - reference))
+    floor = ENERGY_FLOOR * span if span > 0 else ENERGY_FLOOR * max(abs(reference), 1.0)
+    return Problem(
+        potential=potential,
+        domain=domain,
+        settings=settings,
+        threshold=threshold,
+        reference=reference,
+        e_lo=None if e_lo is None else e_lo - reference,
+        e_hi=e_hi - reference,
+        max_nodes=max_nodes,
+        budget=budget,
+        scale=length_scale(potential),
+        box=box,
+        v_range=(vmin - reference, vmax - reference),
+        floor=floor,
+    )
