@@ -93,9 +93,17 @@ def phase_margin(potential, layout: Layout | None = None, level: int = 0, vt: fl
     ks = layout.kscale
     u0 = _end_flux(potential, vt, -1, edges[0])
     nodes, psi, u, _ = carry(edges, k2, m, jump, potential.hbar2_2me, ks, 1.0, u0)
-    alpha = phase(psi, u, ks, 1.0 if nodes % 2 == 0 else -1.0)
-    theta_dec = math.atan2(1.0, _end_flux(potential, vt, 1, edges[-1]) / ks)
-    return nodes + (alpha - theta_dec) / PI
+    sign = 1.0 if nodes % 2 == 0 else -1.0
+    alpha = phase(psi, u, ks, sign)
+    u_dec = _end_flux(potential, vt, 1, edges[-1]) / ks
+    theta_dec = math.atan2(1.0, u_dec)
+    # alpha - theta_dec from the cross and dot products of the two phase vectors: full relative accuracy when
+    # the two angles nearly agree (a state at its binding threshold, a very light particle)
+    p, q = sign * psi, sign * u / ks
+    delta = math.atan2(u_dec * p - q, u_dec * q + p)
+    if abs(delta - (alpha - theta_dec)) > 1e-6:  # the branch of the direct difference is the right one
+        delta = alpha - theta_dec
+    return nodes + delta / PI
 
 
 def count_from_margin(phi: float) -> int:

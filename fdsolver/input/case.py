@@ -33,8 +33,8 @@ from fdsolver.numerics.grid import GridSettings
 BOUNDARIES = ("open", "hard")
 #: the two ways to give the amplitude of a signed shape
 SIGN_KEYS = ("depth", "height")
-#: a component more than this many times its own size from x = 0 would lose its shape to round-off
-MAX_OFFSET_IN_SIZES = 1e15
+#: a component more than this many times its own size from x = 0 gets grid positions rounded to more than 2e-9 of its size
+MAX_OFFSET_IN_SIZES = 1e7
 
 
 @dataclass(frozen=True)
@@ -67,8 +67,9 @@ def _build_shape(i: int, comp: Mapping, ctx: BuildContext, file) -> Shape:
     feats = shape.features()
     if scale is not None and feats and max(abs(f) for f in feats) > MAX_OFFSET_IN_SIZES * scale:
         raise CaseError(
-            f"the component sits at {max(abs(f) for f in feats):.3g}, more than 1e15 times its own size "
-            f"({scale:.3g}) from x = 0: its shape would be lost to round-off; move the origin closer",
+            f"the component sits at {max(abs(f) for f in feats):.3g}, more than {MAX_OFFSET_IN_SIZES:g} times its own size "
+            f"({scale:.3g}) from x = 0, where grid positions are rounded to "
+            f"{2.2e-16 * max(abs(f) for f in feats) / scale:.1e} of its size; move the origin closer",
             file=file,
             key=f"potential[{i}].center",
         )
@@ -145,12 +146,10 @@ def _build_stack(layers, params, mass, origin, file) -> LayerStack:
         outer = i == 1 or i == n
         thick = F.number(lay, "thickness", params, file, where, positive=True, required=not outer)
         edge = F.number(lay, "band_edge", params, file, where)
-        m = F.number(lay, "mass", params, file, where, default=mass, positive=True)
+        m = F.mass(lay, "mass", params, file, where, default=mass)
         name = F.name_of(lay, file, where)
         out.append(Layer(name, float(thick) if thick is not None else math.inf, edge, m))
-    if n < 2:
-        raise CaseError("a layer stack needs at least two layers (the two outer layers extend to infinity)", file=file, key="layer")
-    return LayerStack(tuple(out), origin)
+    return LayerStack(tuple(out), origin)  # a single layer is a flat stack over the whole line
 
 
 # -------------------------------------------------------------------- entry
@@ -196,7 +195,7 @@ def case_from_dict(data: Mapping[str, Any], *, path=None, text=None, overrides=N
     if not isinstance(title, str):
         raise CaseError("must be a string", file=file, key="title")
     params = _params(data, overrides, file)
-    mass = F.number(data, "mass", params, file, "", default=1.0, positive=True)
+    mass = F.mass(data, "mass", params, file, "", default=1.0)
     origin = F.number(data, "stack_origin", params, file, "", default=0.0)
     tables = dict(tables or {})
     base_dir = os.path.dirname(os.path.abspath(path)) if path else None

@@ -11,6 +11,13 @@ from typing import Mapping
 from fdsolver.errors import CaseError, did_you_mean
 from fdsolver.input._expressions import evaluate_number
 
+#: a number of smaller or larger magnitude (but not 0) cannot be carried through a solve in double precision
+TINY, HUGE = 1e-200, 1e200
+#: keys whose non-zero values must also not be tiny (sizes and strengths; positions may be anything near 0)
+AMPLITUDES = ("depth", "height", "strength", "field", "omega", "a")
+#: masses in m_e outside this range make hbar^2/2m leave the range a grid can resolve
+MASS_RANGE = (1e-8, 1e8)
+
 
 def dotted(where: str, key: str) -> str:
     return f"{where}.{key}" if where else key
@@ -26,6 +33,19 @@ def number(table: Mapping, key: str, params, file, where: str, default=None, pos
     val = evaluate_number(table[key], params, file=file, key=kname)
     if positive and not val > 0:
         raise CaseError(f"must be positive, got {val:g}", file=file, key=kname)
+    tiny = (positive or key in AMPLITUDES) and val != 0.0 and abs(val) < TINY
+    if tiny or abs(val) > HUGE:
+        raise CaseError(f"{val:g} is outside what double precision can carry through a solve ({TINY:g} to {HUGE:g} "
+                        "in magnitude); choose units in which it is nearer to 1", file=file, key=kname)
+    return val
+
+
+def mass(table: Mapping, key: str, params, file, where: str, default: float) -> float:
+    """A positive mass in m_e, within :data:`MASS_RANGE`."""
+    val = number(table, key, params, file, where, default=default, positive=True)
+    if not MASS_RANGE[0] <= val <= MASS_RANGE[1]:
+        raise CaseError(f"a mass of {val:g} m_e is outside {MASS_RANGE[0]:g} to {MASS_RANGE[1]:g} m_e, where the "
+                        "kinetic energy can be resolved in double precision", file=file, key=dotted(where, key))
     return val
 
 

@@ -208,6 +208,29 @@ def flux_quotient(psi, a, vw, w):
 
 
 @njit
+def flux_matrix(psis, a, vw):
+    """The symmetric matrix of K in flux form between the rows of ``psis`` (k x n, psi at the unknowns).
+
+    H_ij = sum a_c (psi_i,c+1 - psi_i,c)(psi_j,c+1 - psi_j,c) + sum Vw psi_i psi_j,
+    with the ends' couplings a[0] and a[n] to Dirichlet nodes (a[0] = 0 for a
+    Neumann end): the Rayleigh-Ritz matrix of a cluster's basis, accurate to
+    a few ulps of the energy scale like :func:`flux_quotient`.
+    """
+    k, n = psis.shape
+    out = np.zeros((k, k))
+    for i in range(k):
+        for j in range(i, k):
+            acc = a[0] * psis[i, 0] * psis[j, 0] + a[n] * psis[i, n - 1] * psis[j, n - 1]
+            for c in range(n - 1):
+                acc += a[c + 1] * (psis[i, c + 1] - psis[i, c]) * (psis[j, c + 1] - psis[j, c])
+            for c in range(n):
+                acc += vw[c] * psis[i, c] * psis[j, c]
+            out[i, j] = acc
+            out[j, i] = acc
+    return out
+
+
+@njit
 def lipschitz_limit(x, h, growth):
     """Return min over j of (h_j + growth |x_i - x_j|) for every i (x increasing)."""
     out = h.copy()
