@@ -131,9 +131,7 @@ def _provisional(problem: Problem) -> Provisional:
     """A coarse solve; for open ends, the box sized for the shallowest state (module docstring, phase 2)."""
     pot, settings = problem.potential, problem.settings
     coarse = replace(settings.grid, wave_fraction=2.0 * settings.grid.wave_fraction)
-    # attractive point terms bind at most as deeply as one point of their summed strength: E >= -m A^2 / (4 C)
-    attract = sum(a for _, a in pot.point_terms() if a > 0)
-    e_lo = problem.reference + problem.v_range[0] - pot.mass * attract**2 / (4.0 * pot.hbar2_2me)
+    e_lo = problem.reference + problem.v_range[0] - _point_depth(pot)
     e_hi = problem.threshold if math.isfinite(problem.threshold) else problem.reference + problem.v_range[1]
     box = problem.box
     center = _center_for(problem, box)
@@ -151,6 +149,18 @@ def _provisional(problem: Problem) -> Provisional:
         center = _center_for(problem, box)
         _, states = solve_nodes(problem, _grid(problem, box, e_lo, e_hi, coarse, center), center)
     return Provisional(box, center, e_lo, e_hi, states)
+
+
+def _point_depth(pot) -> float:
+    """How deep the strongest single point term binds, m alpha^2 / (4 C), for the provisional grid.
+
+    It sets the resolution the provisional solve asks for; points that act
+    together bind more deeply, but the provisional grid only has to find the
+    states roughly (every point's neighbourhood is resolved to its own decay
+    length), and the final grid is sized from the energies it finds.
+    """
+    alphas = [a for _, a in pot.point_terms() if a > 0]
+    return pot.mass * max(alphas) ** 2 / (4.0 * pot.hbar2_2me) if alphas else 0.0
 
 
 def _top(problem: Problem, states, box) -> float:
