@@ -1,54 +1,11 @@
-"""Figures of archives (matplotlib, Agg backend; imported only when a figure is asked for).
-
-:func:`plot_archive` dispatches on the archive kind.  A solve figure shows
-the potential, each bound-state energy as a horizontal line, and each
-wavefunction offset at its energy (scaled to a fraction of the level
-spacing), with axes in the case units.
-"""
+"""The figure of a solve archive: the potential, each bound-state energy as a horizontal line, and each
+wavefunction offset at its energy (scaled to a fraction of the level spacing), with axes in the case units."""
 
 from __future__ import annotations
 
-import importlib
-
 import numpy as np
 
-PLOTTERS = {
-    "solve": "fdsolver.plot:plot_solve",
-    "delta_check": "fdsolver.plot.delta:plot_delta",
-    "sweep": "fdsolver.plot.sweep:plot_sweep",
-    "threshold": "fdsolver.plot.sweep:plot_sweep",
-}
-
-
-def figure():
-    """A new (figure, axes) pair on the non-interactive Agg backend."""
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
-    return plt.subplots(figsize=(7.5, 5.0), dpi=120)
-
-
-def save(fig, path) -> None:
-    fig.tight_layout()
-    fig.savefig(path)
-    import matplotlib.pyplot as plt
-
-    plt.close(fig)
-
-
-def plot_archive(ds, path) -> None:
-    """Draw archive ``ds`` to the image file ``path``."""
-    from fdsolver.errors import ArchiveError
-
-    mod, func = PLOTTERS[ds.attrs["fdsolver_kind"]].split(":")
-    try:
-        getattr(importlib.import_module(mod), func)(ds, path)
-    except (KeyError, AttributeError, IndexError, TypeError) as exc:
-        raise ArchiveError(
-            f"archive is damaged or incomplete ({type(exc).__name__}: {str(exc)[:80]})", file=ds.encoding.get("source")
-        ) from None
+from fdsolver.plot._common import figure, label, save, units_of
 
 
 def _window(x, v, psi, energy):
@@ -67,13 +24,13 @@ def _window(x, v, psi, energy):
 
 
 def plot_solve(ds, path) -> None:
-    fig, ax = figure()
+    """Draw a solve archive to ``path``."""
+    fig, (ax,) = figure()
     x = ds.x.values
     v = ds.potential.values
     energy = ds.energy.values
     psi = ds.psi.values
-    eu = ds.energy.attrs.get("units_name", ds.energy.attrs.get("units"))
-    lu = ds.x.attrs.get("units_name", ds.x.attrs.get("units"))
+    eu = units_of(ds, "energy")
     lo, hi = _window(x, v, psi, energy)
     sel = (x >= lo) & (x <= hi)
     thr = ds.attrs.get("continuum_threshold", np.inf)
@@ -96,8 +53,8 @@ def plot_solve(ds, path) -> None:
         if lo <= pos <= hi:
             ax.axvline(pos, color="0.6", lw=0.8, ls="-.")
     ax.set_xlim(lo, hi)
-    ax.set_xlabel(f"x [{lu}]")
-    ax.set_ylabel(f"energy [{eu}]  (wavefunctions offset at their energies)")
+    ax.set_xlabel(label(ds, "x"))
+    ax.set_ylabel(label(ds, "energy") + "  (wavefunctions offset at their energies)")
     ax.set_title(ds.attrs.get("title", ""))
     if energy.size <= 12:
         ax.legend(fontsize=7, loc="best")

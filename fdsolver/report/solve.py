@@ -1,4 +1,4 @@
-"""Plain-text tables of archives, with units in every column header."""
+"""The table of a solve archive: one row per bound state, units in every column header."""
 
 from __future__ import annotations
 
@@ -8,15 +8,12 @@ import math
 import numpy as np
 import xarray as xr
 
-
-def _unit(ds: xr.Dataset, name: str) -> str:
-    a = ds[name].attrs
-    return a.get("units_name") or a.get("units", "")
+from fdsolver.report._common import units_of
 
 
 def format_solve(ds: xr.Dataset) -> str:
     """The bound-state table of a solve archive."""
-    eu, lu = _unit(ds, "energy"), _unit(ds, "x")
+    eu, lu = units_of(ds, "energy"), units_of(ds, "x")
     a = ds.attrs
     lines = [a.get("title", "")]
     thr = a.get("continuum_threshold", math.inf)
@@ -51,27 +48,3 @@ def format_solve(ds: xr.Dataset) -> str:
         if m:
             lines.append(f"note: {m}")
     return "\n".join(lines)
-
-
-#: archive kind -> "module:function" that formats it (modules imported on demand)
-FORMATTERS = {
-    "solve": "fdsolver.report:format_solve",
-    "delta_check": "fdsolver.report.delta:format_delta",
-    "sweep": "fdsolver.report.sweep:format_sweep",
-    "threshold": "fdsolver.report.sweep:format_sweep",
-}
-
-
-def format_archive(ds: xr.Dataset) -> str:
-    """The table of any fdsolver archive, chosen by its ``fdsolver_kind``."""
-    import importlib
-
-    from fdsolver.errors import ArchiveError
-
-    mod, func = FORMATTERS[ds.attrs["fdsolver_kind"]].split(":")
-    try:
-        return getattr(importlib.import_module(mod), func)(ds)
-    except (KeyError, AttributeError, IndexError, TypeError, ValueError) as exc:
-        raise ArchiveError(
-            f"archive is damaged or incomplete ({type(exc).__name__}: {str(exc)[:80]})", file=ds.encoding.get("source")
-        ) from None

@@ -1,0 +1,31 @@
+"""Figures of archives (matplotlib on the Agg backend; imported only when a figure is asked for).
+
+:func:`plot_archive` draws any archive by its kind: :mod:`.solve` (levels and
+wavefunctions), :mod:`.sweep` (sweeps and threshold searches), :mod:`.delta`
+(zero-range checks and validity maps); :mod:`._common` holds the figure
+factory and the axis labels they share.
+"""
+
+from __future__ import annotations
+
+import importlib
+
+PLOTTERS = {
+    "solve": "fdsolver.plot.solve:plot_solve",
+    "delta_check": "fdsolver.plot.delta:plot_delta",
+    "sweep": "fdsolver.plot.sweep:plot_sweep",
+    "threshold": "fdsolver.plot.sweep:plot_sweep",
+}
+
+
+def plot_archive(ds, path) -> None:
+    """Draw archive ``ds`` to the image file ``path``."""
+    from fdsolver.errors import ArchiveError
+
+    mod, func = PLOTTERS[ds.attrs["fdsolver_kind"]].split(":")
+    try:
+        getattr(importlib.import_module(mod), func)(ds, path)
+    except (KeyError, AttributeError, IndexError, TypeError) as exc:
+        raise ArchiveError(
+            f"archive is damaged or incomplete ({type(exc).__name__}: {str(exc)[:80]})", file=ds.encoding.get("source")
+        ) from None

@@ -1,0 +1,33 @@
+"""Plain-text tables of archives, units in every column header.
+
+:func:`format_archive` picks the table of any archive by its kind:
+:mod:`.solve` (one solve), :mod:`.sweep` (sweeps and threshold searches),
+:mod:`.delta` (zero-range checks and validity maps); :mod:`._common` holds
+the unit labels they share.
+"""
+
+from __future__ import annotations
+
+#: archive kind -> "module:function" that formats it (modules imported on demand)
+FORMATTERS = {
+    "solve": "fdsolver.report.solve:format_solve",
+    "delta_check": "fdsolver.report.delta:format_delta",
+    "sweep": "fdsolver.report.sweep:format_sweep",
+    "threshold": "fdsolver.report.sweep:format_sweep",
+}
+
+
+def format_archive(ds) -> str:
+    """The table of any fdsolver archive, chosen by its ``fdsolver_kind``."""
+    import importlib
+
+    from fdsolver.errors import ArchiveError
+
+    mod, func = FORMATTERS[ds.attrs["fdsolver_kind"]].split(":")
+    try:
+        return getattr(importlib.import_module(mod), func)(ds)
+    except (KeyError, AttributeError, IndexError, TypeError, ValueError) as exc:
+        raise ArchiveError(
+            f"archive is damaged or incomplete ({type(exc).__name__}: {str(exc)[:80]})", file=ds.encoding.get("source")
+        ) from None
+
