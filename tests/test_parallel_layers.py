@@ -10,6 +10,7 @@ threadpoolctl, the library that sets them.
 from __future__ import annotations
 
 import ast
+import functools
 import os
 from pathlib import Path
 
@@ -63,18 +64,19 @@ def test_serial_executor_pins_blas_without_with():
     assert blas_threads() == before
 
 
-def mark_worker():
-    """An initializer: leave a file named after the worker's process id (the test reads the folder)."""
-    Path(os.environ["FDSOLVER_TEST_MARKS"], str(os.getpid())).write_text("warm")
+def mark_worker(folder=None):
+    """An initializer: leave a file named after the worker's process id in ``folder`` (the test reads it)."""
+    if folder is not None:
+        Path(folder, str(os.getpid())).write_text("warm")
 
 
 def worker_state(_):
     return os.getpid(), blas_threads()
 
 
-def test_process_workers_run_the_callers_initializer_with_one_blas_thread(tmp_path, monkeypatch):
-    monkeypatch.setenv("FDSOLVER_TEST_MARKS", str(tmp_path))
-    with ProcessExecutor(2, initializer=mark_worker) as ex:
+def test_process_workers_run_the_callers_initializer_with_one_blas_thread(tmp_path):
+    # a partial of a module-level function: workers may start from a fork server that predates this test
+    with ProcessExecutor(2, initializer=functools.partial(mark_worker, str(tmp_path))) as ex:
         seen = list(ex.imap_unordered(worker_state, range(8)))
     pids = {pid for pid, _ in seen}
     assert all(set(threads) == {1} for _, threads in seen)

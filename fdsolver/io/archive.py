@@ -73,7 +73,7 @@ def write_dataset(ds: xr.Dataset, path) -> Path:
     ds.attrs = _clean_attrs(ds.attrs)
     for name in ds.variables:
         ds[name].attrs = _clean_attrs(ds[name].attrs)
-    encoding = {}
+    encoding: dict = {}
     for name in ds.variables:
         var = ds[name]
         if var.dtype.kind == "f":
@@ -135,9 +135,3 @@ def open_run(path) -> xr.Dataset:
     check(ds, path)
     ds.encoding["source"] = str(path)
     return ds
-
-
-def add_history(ds: xr.Dataset, action: str) -> None:
-    """Append a timestamped line to the history attribute."""
-    old = ds.attrs.get("history", "")
-    ds.attrs["history"] = (old + "\n" if old else "") + stamp(action)

@@ -253,7 +253,7 @@ def check(ds: xr.Dataset, path) -> Kind:
             wrong = got.dtype.kind not in (want + ("iu" if want in "iu" else ""))
         if wrong:
             raise ArchiveError(
-                f"variable {var.name} of this '{kind.name}' archive is {got.dtype} over ({', '.join(got.dims)}), "
-                f"expected {var.dtype} over ({', '.join(dims)}); it is damaged or was not written by fdsolver",
+                f"variable {var.name} of this '{kind.name}' archive is {got.dtype} over ({', '.join(map(str, got.dims))}), "
+                f"expected {var.dtype} over ({', '.join(map(str, dims))}); it is damaged or was not written by fdsolver",
                 file=str(path))
     return kind

@@ -142,8 +142,9 @@ class ProcessExecutor:
         linux = sys.platform.startswith("linux")
         method = ("fork" if threading.active_count() == 1 else "forkserver") if linux else "spawn"
         ctx = mp.get_context(method)
-        if method == "forkserver" and self.initializer is not None:
-            ctx.set_forkserver_preload([self.initializer.__module__])
+        module = getattr(self.initializer, "__module__", None)
+        if method == "forkserver" and module:
+            ctx.set_forkserver_preload([module])
         self.method = method
         self._pool = ProcessPoolExecutor(max_workers=self.workers, mp_context=ctx, initializer=_local_worker_init,
                                          initargs=(self.initializer,))

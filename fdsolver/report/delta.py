@@ -96,7 +96,7 @@ def _state_block(ds, k, eu, lu) -> list[str]:
     if np.isfinite(a_fit) or np.isfinite(a_pred):
         lines.append(f"  leading order: deviation = a * width, a = {_g(a_fit, '.5g')} {iu} fitted (log-log slope "
                      f"{_g(ds.law_exponent.values[k], '.3f')}); first-order prediction a = {_g(a_pred, '.5g')} {iu}")
-    flag = int(ds.validity_flag.values[k])
+    code = int(ds.validity_flag.values[k])
     v = ds.validity_width.values[k]
     tol = ds.attrs["tolerance"]
     text = {
@@ -108,7 +108,7 @@ def _state_block(ds, k, eu, lu) -> list[str]:
         4: f"valid up to at least {_g(v, '.4g')} {lu}; beyond it the state is lost or not resolved",
         5: "",
         6: "no width of the ladder could be resolved: no validity width (see the notes)",
-    }[flag]
+    }[code]
     if text:
         lines.append("  " + text)
     bw = ds.binding_width.values[k]

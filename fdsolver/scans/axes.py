@@ -213,8 +213,11 @@ def parse_axis(text, case, key: str = "--vary", *, extra: Mapping[str, Extra] | 
     name, rest = split_spec(text, case, key, extra)
     ex = (extra or {}).get(name) if name not in case.params else None
     units, units_name = (ex.units, ex.units_name) if ex else param_units(case, name)
-    made = dict(units=units, units_name=units_name, key=key, long_name=ex.long_name if ex else long_name.format(name=name),
-                param=ex is None)
+    description = ex.long_name if ex else long_name.format(name=name)
+
+    def made(values, spacing) -> Axis:
+        return Axis(name, values, text.strip(), spacing, units, units_name, key, description, ex is None)
+
     if ":" in rest:
         parts = [p.strip() for p in rest.split(":")]
         spacing = ex.spacing if ex else "linear"
@@ -226,8 +229,7 @@ def parse_axis(text, case, key: str = "--vary", *, extra: Mapping[str, Extra] | 
         if (spacing == "log" or (ex and ex.positive)) and lo <= 0:
             what = f"'{name}' must be > 0" if ex and ex.positive else "log spacing needs START > 0"
             raise CaseError(f"{what} in '{text}'", key=key)
-        values = np.geomspace(lo, hi, count) if spacing == "log" else np.linspace(lo, hi, count)
-        return Axis(name, values, text.strip(), spacing, **made)
+        return made(np.geomspace(lo, hi, count) if spacing == "log" else np.linspace(lo, hi, count), spacing)
     values = np.array([_number(s, text, key) for s in rest.split(",") if s.strip()] or [])
     if values.size == 0:
         raise CaseError(f"'{text}' is an empty list", key=key)
@@ -237,7 +239,7 @@ def parse_axis(text, case, key: str = "--vary", *, extra: Mapping[str, Extra] | 
         raise CaseError(f"'{text}' lists {values.size} values on one axis (at most {max_count} here)", key=key)
     if ex and ex.positive and values[0] <= 0:
         raise CaseError(f"'{name}' must be > 0 in '{text}'", key=key)
-    return Axis(name, values, text.strip(), "list", **made)
+    return made(values, "list")
 
 
 def parse_axes(texts, case, key: str = "--vary", *, reserved=(), **kw) -> tuple[Axis, ...]:

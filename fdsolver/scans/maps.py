@@ -19,6 +19,7 @@ from __future__ import annotations
 import hashlib
 import json
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -136,7 +137,10 @@ def map_point(spec: MapSpec, base, values: dict):
     if spec.from_finite:
         model = DM.from_finite(case)
     else:
-        model = DM.replacement(case, spec.shape, values.get("width", spec.width))
+        width = values["width"] if "width" in values else spec.width
+        if width is None:  # plan_map asks for one when no axis is the width
+            raise CaseError("a map without a 'width' axis needs one replacement width: --widths W", key="--widths")
+        model = DM.replacement(case, spec.shape, float(width))
     if DM.overlap_of(model) >= 0:
         return None
     lim, pred = DC.limit_of(model, case)
@@ -149,7 +153,7 @@ ROW_FIELDS = ("energy", "error", "resolved", "limit", "predicted")
 def solve_points(spec: MapSpec, base, indices) -> dict:
     """Compare the models at the points ``indices`` (flat, row-major over the two axes): compact arrays."""
     n = len(indices)
-    out = {"index": np.asarray(indices, dtype=np.int64), "overlap": np.zeros(n, np.int8), "solved": np.zeros(n, np.int8),
+    out: dict[str, Any] = {"index": np.asarray(indices, dtype=np.int64), "overlap": np.zeros(n, np.int8), "solved": np.zeros(n, np.int8),
            "n_finite": np.zeros(n, np.int32), "n_limit": np.zeros(n, np.int32), "n_predicted": np.zeros(n, np.int32)}
     rows: dict[str, list] = {k: [] for k in ROW_FIELDS}
     messages = []

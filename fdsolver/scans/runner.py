@@ -45,14 +45,25 @@ class Collector(Protocol):
 class Scan(Protocol):
     """What :func:`run` needs of a scan (see the module docstring)."""
 
-    case_text: str
-    case_path: str | None
-    tables: dict
-    chunk: int | None
-    #: "sweep" or "validity map": the scan in messages
-    what: str
-    #: most points per chunk by default
-    max_chunk: int
+    @property
+    def case_text(self) -> str: ...
+
+    @property
+    def case_path(self) -> str | None: ...
+
+    @property
+    def tables(self) -> dict: ...
+
+    @property
+    def chunk(self) -> int | None: ...
+
+    @property
+    def what(self) -> str:
+        """"sweep" or "validity map": the scan in messages."""
+
+    @property
+    def max_chunk(self) -> int:
+        """Most points per chunk by default."""
 
     @property
     def n_points(self) -> int: ...
@@ -71,7 +82,7 @@ class Scan(Protocol):
 _BASE: dict = {}
 
 
-def base_case(scan):
+def base_case(scan: Scan):
     """The case of ``scan``, built from its text once per process (the last one is kept)."""
     key = (scan.case_text, scan.case_path, json.dumps(scan.tables, sort_keys=True))
     case = _BASE.get(key)
@@ -130,7 +141,7 @@ def _chunks(todo: np.ndarray, size: int):
             yield part[i: i + size]
 
 
-def _open_checkpoint(scan, collector, output, resume: bool, restart: bool, history: str):
+def _open_checkpoint(scan: Scan, collector: Collector, output, resume: bool, restart: bool, history: str):
     from fdsolver.parallel.checkpoint import Checkpoint, path_for
 
     path = path_for(output)
@@ -146,7 +157,7 @@ def _open_checkpoint(scan, collector, output, resume: bool, restart: bool, histo
     return Checkpoint.create(path, scan.identity(), scan.key, history)
 
 
-def run(scan, executor, finish: Callable[[Any, str], Any], *, action: str, output=None, resume: bool = False,
+def run(scan: Scan, executor, finish: Callable[[Any, str], Any], *, action: str, output=None, resume: bool = False,
         restart: bool = False, progress=None):
     """Run ``scan`` on ``executor``; ``finish(collector, history)`` builds the Dataset, written to ``output``.
 
@@ -192,6 +203,7 @@ def run(scan, executor, finish: Callable[[Any, str], Any], *, action: str, outpu
         ds = finish(collector, history)
         if output is not None:
             write_dataset(ds, output)
+        if ck is not None:
             ck.discard()
             ck = None
         return ds

@@ -23,6 +23,7 @@ import hashlib
 import itertools
 import json
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -148,7 +149,8 @@ def solve_points(spec: SweepSpec, base, indices) -> dict:
     from fdsolver.scans import thresholds
 
     n = len(indices)
-    out = {"index": np.asarray(indices, dtype=np.int64), "solved": np.zeros(n, np.int8), "bound": np.full(n, -1, np.int32),
+    psi_x = spec.psi_x if spec.save_psi and spec.psi_x is not None else np.zeros(0)
+    out: dict[str, Any] = {"index": np.asarray(indices, dtype=np.int64), "solved": np.zeros(n, np.int8), "bound": np.full(n, -1, np.int32),
            "resolved": np.zeros(n, np.int32), "vt": np.full(n, np.nan), "count": np.zeros(n, np.int32)}
     rows: dict[str, list] = {k: [] for k in ("label", "energy", "error", "converged", "parity", "psi")}
     messages = []
@@ -175,7 +177,7 @@ def solve_points(spec: SweepSpec, base, indices) -> dict:
         rows["converged"].append(sol.converged.astype(np.int8))
         rows["parity"].append(sol.parity.astype(np.int8))
         if spec.save_psi:
-            rows["psi"].append(np.array([np.interp(spec.psi_x, sol.x, p, left=0.0, right=0.0) for p in sol.psi]).reshape(-1, spec.psi_x.size))
+            rows["psi"].append(np.array([np.interp(psi_x, sol.x, p, left=0.0, right=0.0) for p in sol.psi]).reshape(-1, psi_x.size))
         messages.extend([int(flat), f"at {where}: {m}"] for m in sol.messages)
     empty = {"label": np.int32, "converged": np.int8, "parity": np.int8}
     for k, parts in rows.items():
@@ -184,7 +186,7 @@ def solve_points(spec: SweepSpec, base, indices) -> dict:
         if parts:
             out[k] = np.concatenate(parts)
         else:
-            out[k] = np.zeros((0, spec.psi_x.size) if k == "psi" else 0, dtype=empty.get(k, np.float64))
+            out[k] = np.zeros((0, psi_x.size) if k == "psi" else 0, dtype=empty.get(k, np.float64))
     out["messages"] = messages
     return out
 
@@ -200,17 +202,13 @@ class Results:
         self.error = np.full((n, s), np.nan)
         self.converged = np.full((n, s), -1, np.int8)
         self.parity = np.zeros((n, s), np.int8)
-        self.psi = np.full((n, s, spec.psi_x.size), np.nan) if spec.save_psi else None
+        self.psi = np.full((n, s, spec.psi_x.size), np.nan) if spec.save_psi and spec.psi_x is not None else None
         self.solved = np.zeros(n, np.int8)
         self.bound = np.full(n, -1, np.int32)
         self.resolved = np.zeros(n, np.int32)
         self.vt = np.full(n, np.nan)
         self.done = np.zeros(n, bool)
         self.messages: dict[int, list[str]] = {}
-
-    @property
-    def n_done(self) -> int:
-        return int(np.count_nonzero(self.done))
 
     def _grow(self, need: int) -> None:
         extra = need - self.energy.shape[1]
@@ -280,7 +278,7 @@ class Results:
             out["tunnel_splitting_error"] = error[..., 1] + error[..., 0]
         if self.psi is not None:
             out["x"] = spec.psi_x
-            out["psi"] = self.psi[:, :s].reshape(shape + (s, spec.psi_x.size))
+            out["psi"] = self.psi[:, :s].reshape(shape + (s, self.psi.shape[2]))
         return out
 
 
@@ -291,7 +289,7 @@ def locate_along(spec: SweepSpec, bound: np.ndarray, rtol: float = 1e-9) -> list
     if len(spec.axes) != 1:
         return []
     axis, base = spec.axes[0], base_case(spec)
-    found = []
+    found: list = []
     for i in np.flatnonzero((bound[:-1] >= 0) & (bound[1:] >= 0) & (bound[:-1] != bound[1:])):
         a, b = float(axis.values[i]), float(axis.values[i + 1])
         try:
