@@ -6,11 +6,16 @@ Public API (every name is imported on first use, so ``import fdsolver`` stays li
     ds = fdsolver.solve(case)                             # xarray.Dataset
     fdsolver.write_dataset(ds, "run.nc")
     ds2 = fdsolver.open_run("run.nc")
+    sw = fdsolver.sweep(case, ["d=1:6:50"], output="sw.nc")   # checkpointed; resume=True goes on
+    th = fdsolver.threshold(case, "d=0.1:6")               # where a state binds, no box
+    dc = fdsolver.delta_check(case)                       # finite wells vs point model, over widths
+    dm = fdsolver.delta_map(case, ["width=0.01:1:20", "d=5:15:20"])
 
+Every call returns the Dataset the command line writes (see :mod:`fdsolver.api`).
 Cases can also be built in code with :func:`case_from_dict` (the TOML schema
 as Python data) or :func:`case_from_text`.  The pipeline reads from the
 subpackages: ``input`` (case files) -> ``model`` (potential) -> ``numerics``
-(grids, operators, marches) -> ``solve`` (bound states with error bars) ->
+(grids, operators, marches) -> ``boundstates`` (bound states with error bars) ->
 ``zerorange`` / ``scans`` (studies) -> ``io`` (archives) -> ``report`` /
 ``plot`` / ``cli``.
 """
@@ -37,6 +42,10 @@ _LAZY = {
     "solve": "fdsolver.api",
     "solve_case": "fdsolver.api",
     "case_of_run": "fdsolver.api",
+    "sweep": "fdsolver.api",
+    "threshold": "fdsolver.api",
+    "delta_check": "fdsolver.api",
+    "delta_map": "fdsolver.api",
 }
 
 __all__ = sorted(_LAZY) + ["__version__"]

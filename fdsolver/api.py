@@ -1,27 +1,59 @@
-"""The pipeline as one call: case -> potential -> grid -> operator -> states -> refinement -> dataset."""
+"""Every command as one call, returning the Dataset the command line archives.
+
+=====================  ==================================================  =======================
+call                   what                                                archive kind
+=====================  ==================================================  =======================
+:func:`solve`          bound states of a case                               ``solve``
+:func:`sweep`          a case solved over a grid of param values           ``sweep``
+:func:`threshold`      param values where a state binds (no box)           ``threshold``
+:func:`delta_check`    finite wells against the zero-range point model,    ``delta_check``
+                       over a ladder of widths
+:func:`delta_map`      the same comparison over a plane of two params      ``delta_check`` (a map)
+=====================  ==================================================  =======================
+
+``case`` is a :class:`~fdsolver.input.case.Case` (params already set with
+``load_case(path, NAME=value)`` stay fixed in a scan) or the path of a case
+file.  Bad input raises :class:`~fdsolver.errors.CaseError`.  Scans
+(``sweep``, ``delta_map``) run on ``executor`` ("serial", "processes" (the
+default), "dask", or an executor object), keep a checkpoint beside
+``output`` when it is given and write it atomically at the end.
+"""
 
 from __future__ import annotations
 
+import os
+from collections.abc import Sequence
+
 import xarray as xr
 
-from fdsolver.input.case import Case, case_from_text
-from fdsolver.io.datasets import solution_dataset
-from fdsolver.errors import ArchiveError, CaseError
 from fdsolver.boundstates.driver import Solution, solve_potential
+from fdsolver.errors import ArchiveError, CaseError
+from fdsolver.input.case import Case, case_from_text, load_case
+from fdsolver.io.archive import stamp
+from fdsolver.io.datasets import solve_dataset
+
+
+def _case(case) -> Case:
+    return load_case(case) if isinstance(case, (str, os.PathLike)) else case
+
+
+def _where(case: Case) -> str:
+    return str(case.path or case.title)
 
 
 def solve_case(case: Case) -> Solution:
-    """Solve ``case`` and return the raw :class:`~fdsolver.solver.Solution`."""
+    """Solve ``case`` and return the raw :class:`~fdsolver.boundstates.result.Solution`."""
     try:
         return solve_potential(case.potential, case.domain, case.settings)
     except CaseError as err:  # the core does not know the file; name it here
         raise err.located(file=case.path) from None
 
 
-def solve(case: Case, action: str | None = None) -> xr.Dataset:
-    """Bound states of ``case`` as an archive-ready :class:`xarray.Dataset` (see :mod:`fdsolver.dataset`)."""
+def solve(case: Case | str | os.PathLike, action: str | None = None) -> xr.Dataset:
+    """Bound states of ``case`` as an archive-ready Dataset (kind ``solve``, :data:`fdsolver.io.specs.SOLVE`)."""
+    case = _case(case)
     sol = solve_case(case)
-    return solution_dataset(case, sol, action or f"solve {case.path or case.title}")
+    return solve_dataset(case, sol, stamp(action or f"solve {_where(case)}"))
 
 
 def case_of_run(ds: xr.Dataset) -> Case:
@@ -41,3 +73,142 @@ def case_of_run(ds: xr.Dataset) -> Case:
     params = json.loads(ds.attrs.get("params", "{}"))
     changed = {k: v for k, v in params.items() if case.params.get(k) != v}
     return case.with_params(**changed) if changed else case
+
+
+# ------------------------------------------------------------------ scans
+def _texts(vary) -> list[str]:
+    return [vary] if isinstance(vary, str) else list(vary or [])
+
+
+def _scan_checks(output, resume: bool, restart: bool, chunk) -> None:
+    if resume and restart:
+        raise CaseError("give --resume or --restart, not both", key="--resume")
+    if (resume or restart) and output is None:
+        raise CaseError("a checkpoint lives beside an output file; give one (-o) to resume or restart", key="--resume")
+    if chunk is not None and (isinstance(chunk, bool) or not isinstance(chunk, int) or chunk < 1):
+        raise CaseError(f"needs at least 1 point per task, got {chunk!r}", key="--chunk")
+
+
+def _run_on(executor, workers, cluster, scheduler, work):
+    """``work(executor)`` on the executor asked for; one given as an object is used as it is (not entered)."""
+    from fdsolver.scans.runner import executor_for
+
+    ex = executor_for(executor, workers, cluster, scheduler)
+    if ex is executor:
+        return work(ex)
+    with ex:
+        return work(ex)
+
+
+def sweep(case, vary: str | Sequence[str] = (), *, save_psi: bool = False, output=None, resume: bool = False,
+          restart: bool = False, executor=None, workers: int | None = None, cluster: str | None = None,
+          scheduler: str | None = None, memory_mb: float | None = None, chunk: int | None = None,
+          thresholds: bool = True, progress=None, action: str | None = None) -> xr.Dataset:
+    """Solve ``case`` at every point of the cartesian product of the ``vary`` axes (kind ``sweep``).
+
+    ``vary``: ``"NAME=START:STOP:COUNT"`` (``:log`` for geometric spacing) or
+    ``"NAME=v1,v2,..."``, one per swept param (default: the case's
+    ``[sweep] vary``).  ``save_psi`` keeps the wavefunctions on one common x
+    grid.  ``output``: the archive to write, with its checkpoint beside it
+    (``resume`` continues an interrupted run, ``restart`` discards its
+    checkpoint).  ``executor``/``workers``/``cluster`` ("local:N")/``scheduler``
+    (a Dask address) say where points run.  ``memory_mb`` is the budget of the
+    result, ``chunk`` the points per task, ``thresholds`` whether binding
+    thresholds are located along a single swept param.  ``progress(n)`` is
+    called as points finish (see :func:`fdsolver.scans.runner.run`).
+    """
+    from fdsolver.scans.sweep import plan_sweep, run_sweep, sweep_axes
+
+    case = _case(case)
+    _scan_checks(output, resume, restart, chunk)
+    if memory_mb is not None and (isinstance(memory_mb, bool) or not memory_mb > 0):
+        raise CaseError(f"must be positive, got {memory_mb!r}", key="--memory-mb")
+    fixed = dict(case.overrides)
+    axes = sweep_axes(_texts(vary), case)
+    spec = plan_sweep(case, axes, fixed, save_psi, memory_mb, chunk)
+    action = action or f"sweep {_where(case)} " + " ".join(f"--vary {a.text}" for a in axes)
+    return _run_on(executor, workers, cluster, scheduler,
+                   lambda ex: run_sweep(spec, ex, output=output, resume=resume, restart=restart, action=action,
+                                        progress=progress, locate=thresholds))
+
+
+def threshold(case, vary: str, *, state: int | None = None, scan: int = 129, rtol: float = 1e-9,
+              action: str | None = None) -> xr.Dataset:
+    """Every value of a param in an interval at which a bound state appears (kind ``threshold``; no box is used).
+
+    ``vary``: ``"NAME=LO:HI"``.  ``state``: only the state with that many
+    nodes.  The interval is scanned at ``scan`` points to bracket the
+    thresholds, each then found to the relative accuracy ``rtol``.
+    """
+    from fdsolver.io.datasets import Param, threshold_dataset
+    from fdsolver.scans.axes import parse_interval, param_units
+    from fdsolver.scans.thresholds import find_thresholds
+
+    case = _case(case)
+    if state is not None and (isinstance(state, bool) or not isinstance(state, int) or state < 0):
+        raise CaseError(f"a state label is its node count, 0 or more; got {state}", key="--state")
+    if isinstance(scan, bool) or not isinstance(scan, int) or not 3 <= scan <= 100000:
+        raise CaseError(f"must be from 3 to 100000, got {scan}", key="--scan")
+    if not 1e-14 <= rtol <= 1e-3:
+        raise CaseError(f"must be from 1e-14 to 1e-3, got {rtol:g}", key="--rtol")
+    name, lo, hi = parse_interval(vary, case)
+    units = param_units(case, name)
+    search = find_thresholds(case, name, lo, hi, fixed=dict(case.overrides), state=state, scan=scan, rtol=rtol,
+                             units=units[1])
+    param = Param(name, *units)
+    return threshold_dataset(case, search, stamp(action or f"threshold {_where(case)} --vary {vary}"), param)
+
+
+def delta_check(case, *, shape: str | None = None, widths=None, tolerance: float | None = None,
+                from_finite: bool | None = None, progress=None, action: str | None = None) -> xr.Dataset:
+    """Finite wells against the zero-range point model over a ladder of widths (kind ``delta_check``).
+
+    Each point component is replaced by a ``shape`` well ("square",
+    "smooth_square", "gaussian", "sech2") of the same strength and centroid,
+    at the ``widths`` "LO:HI:N" (default: automatic from the decay length);
+    with ``from_finite`` the case's own narrow wells are compared with their
+    point model instead.  ``tolerance`` is the relative deviation the point
+    model must stay below.  Unset options come from the case's
+    ``[delta_check]`` table.
+    """
+    from fdsolver.io.datasets import ladder_dataset
+    from fdsolver.scans.options import read_options
+    from fdsolver.zerorange.ladder import run_ladder
+
+    case = _case(case)
+    if from_finite and shape is not None:
+        raise CaseError("--shape chooses the wells that replace points; --from-finite uses the case's own wells", key="--shape")
+    options = read_options(case, shape=shape, widths=widths, tolerance=tolerance, from_finite=from_finite)
+    if options.from_finite and options.widths is not None:
+        raise CaseError("--widths sets the replacement widths; --from-finite keeps the case's own wells", key="--widths")
+    lad = run_ladder(case, options, progress=progress)
+    return ladder_dataset(case, lad, stamp(action or f"delta-check {_where(case)}"))
+
+
+def delta_map(case, maps: Sequence[str] | None = None, *, shape: str | None = None, widths=None,
+              tolerance: float | None = None, from_finite: bool | None = None, output=None, resume: bool = False,
+              restart: bool = False, executor=None, workers: int | None = None, cluster: str | None = None,
+              scheduler: str | None = None, chunk: int | None = None, progress=None,
+              action: str | None = None) -> xr.Dataset:
+    """The zero-range comparison over a plane of two params (kind ``delta_check``, a validity map).
+
+    ``maps``: two axes ``"NAME=LO:HI:N"`` (``:log``/``:lin``), each a case
+    param or ``"width"`` (the replacement width; without it give one width in
+    ``widths``); default: the case's ``[delta_check] map``.  The other
+    options are those of :func:`delta_check` and, for where the points run,
+    the checkpoint and ``progress``, those of :func:`sweep`.
+    """
+    from fdsolver.scans.maps import plan_map, run_map
+    from fdsolver.scans.options import read_options
+
+    case = _case(case)
+    _scan_checks(output, resume, restart, chunk)
+    if from_finite and shape is not None:
+        raise CaseError("--shape chooses the wells that replace points; --from-finite uses the case's own wells", key="--shape")
+    options = read_options(case, shape=shape, widths=widths, tolerance=tolerance, from_finite=from_finite,
+                           maps=_texts(maps) or None)
+    spec = plan_map(case, options, dict(case.overrides), chunk)
+    action = action or f"delta-check {_where(case)} " + " ".join(f"--map {a.text}" for a in spec.axes)
+    return _run_on(executor, workers, cluster, scheduler,
+                   lambda ex: run_map(spec, ex, case=case, output=output, resume=resume, restart=restart, action=action,
+                                      progress=progress))

@@ -1,4 +1,4 @@
-"""The zero-range check (fdsolver.zerorange.ladder, deltamap, cli_delta) against outside references.
+"""The zero-range check (fdsolver.zerorange.ladder, scans.maps, cli.delta) against outside references.
 
 Sources beside each check:
 
@@ -33,7 +33,9 @@ from scipy.special import lambertw
 
 import fdsolver
 from fdsolver.cli import main
-from fdsolver.zerorange.ladder import compare, deviation, ladder_dataset, read_options, replacement, run_ladder
+from fdsolver.io.datasets import ladder_dataset
+from fdsolver.scans.options import read_options
+from fdsolver.zerorange.ladder import compare, deviation, replacement, run_ladder
 
 ROOT = Path(__file__).resolve().parents[1]
 PAIR = ROOT / "cases" / "impurity_pair.toml"
@@ -190,14 +192,14 @@ def test_from_finite_against_exact_square_pair():
 
 # ----------------------------------------------------------------- map
 def test_map_marks_where_the_models_disagree_on_existence():
-    from fdsolver.scans.maps import map_dataset, plan_map, run_map
+    from fdsolver.scans.maps import plan_map, run_map
     from fdsolver.parallel.executors import SerialExecutor
 
     case = fdsolver.load_case(PAIR)
     opts = read_options(case, maps=["width=0.3:6:3", "d=9.2:10.6:8"])
     spec = plan_map(case, opts, {})
     with SerialExecutor() as ex:
-        ds = map_dataset(case, spec, run_map(spec, ex), "test")
+        ds = run_map(spec, ex, action="test")
     d_point = 1.0 / G  # point model: odd state for d > 1/g (common practice, no source)
     for i, w in enumerate(ds.width.values):
         q = math.sqrt(M * (ALPHA / w) / C)

@@ -19,7 +19,7 @@ VARY = ["d=0.5:5:12", "depth=80,120"]
 
 def spec():
     case = fdsolver.load_case(CASE)
-    return sw.plan_sweep(case, sw.parse_axes(VARY, case), chunk=3)
+    return sw.plan_sweep(case, sw.sweep_axes(VARY, case), chunk=3)
 
 
 def values(ds):
@@ -30,13 +30,13 @@ def values(ds):
 
 @pytest.fixture(scope="module")
 def serial_result():
-    return ck.run_sweep(spec(), SerialExecutor())
+    return sw.run_sweep(spec(), SerialExecutor())
 
 
 def test_processes_equal_serial(serial_result):
     with ProcessExecutor(2) as ex:
         assert ex.workers == 2
-        ds = ck.run_sweep(spec(), ex)
+        ds = sw.run_sweep(spec(), ex)
     xr.testing.assert_identical(values(ds), values(serial_result))
 
 
@@ -48,7 +48,7 @@ def test_dask_local_cluster_equals_local_run(serial_result, processes):
                       dashboard_address=None) as cluster:
         with DaskExecutor(address=cluster.scheduler_address, dashboard=False) as ex:
             assert ex.workers == 2
-            ds = ck.run_sweep(spec(), ex)
+            ds = sw.run_sweep(spec(), ex)
     xr.testing.assert_identical(values(ds), values(serial_result))
 
 

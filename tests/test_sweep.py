@@ -15,6 +15,7 @@ import fdsolver
 from fdsolver.parallel import checkpoint as ck
 from fdsolver.scans import sweep as sw
 from fdsolver.scans import thresholds
+from fdsolver.scans.axes import parse_axis
 from fdsolver.api import solve_case
 from fdsolver.cli import main
 from fdsolver.errors import CaseError
@@ -26,8 +27,8 @@ CASE = str(Path(__file__).resolve().parent.parent / "cases" / "double_square.tom
 
 def run(case_path, varies, fixed=None, save_psi=False, **kw):
     case = fdsolver.load_case(case_path, **(fixed or {}))
-    spec = sw.plan_sweep(case, sw.parse_axes(varies, case), fixed, save_psi)
-    return ck.run_sweep(spec, SerialExecutor(), **kw)
+    spec = sw.plan_sweep(case, sw.sweep_axes(varies, case), fixed, save_psi)
+    return sw.run_sweep(spec, SerialExecutor(), **kw)
 
 
 def without_history(ds):
@@ -39,11 +40,11 @@ def without_history(ds):
 # ------------------------------------------------------------------ axes
 def test_axis_forms():
     case = fdsolver.load_case(CASE)
-    lin = sw.parse_axis("d=1:3:5", case)
+    lin = parse_axis("d=1:3:5", case)
     assert np.array_equal(lin.values, np.linspace(1, 3, 5)) and lin.units == "nm"
-    log = sw.parse_axis("depth=10:1000:3:log", case)
+    log = parse_axis("depth=10:1000:3:log", case)
     assert np.allclose(log.values, [10, 100, 1000], rtol=1e-14) and log.spacing == "log"
-    lst = sw.parse_axis("width=2, 2.5,4", case)
+    lst = parse_axis("width=2, 2.5,4", case)
     assert list(lst.values) == [2.0, 2.5, 4.0] and lst.spacing == "list"
 
 
@@ -54,12 +55,12 @@ def test_axis_forms():
 ])
 def test_bad_axes(spec, words):
     with pytest.raises(CaseError, match=words.replace("(", r"\(")):
-        sw.parse_axes([spec], fdsolver.load_case(CASE))
+        sw.sweep_axes([spec], fdsolver.load_case(CASE))
 
 
 def test_same_param_twice_is_refused():
     with pytest.raises(CaseError, match="swept twice"):
-        sw.parse_axes(["d=1:2:3", "d=4,5"], fdsolver.load_case(CASE))
+        sw.sweep_axes(["d=1:2:3", "d=4,5"], fdsolver.load_case(CASE))
 
 
 # ------------------------------------------------------------ the values
@@ -160,7 +161,7 @@ def test_result_too_big_is_refused_before_any_work(tmp_path, capsys):
     case = fdsolver.load_case(CASE)
     # psi alone is 4e6 points x 10 states x 401 x 8 bytes = 119.5 GiB; the other variables add ~1.3 GiB
     with pytest.raises(CaseError, match=r"about 121 GB .*4000000 points x 10 states x 401 x-points"):
-        sw.plan_sweep(case, sw.parse_axes(["d=0.1:6:2000", "depth=50:150:2000"], case), save_psi=True)
+        sw.plan_sweep(case, sw.sweep_axes(["d=0.1:6:2000", "depth=50:150:2000"], case), save_psi=True)
     out = tmp_path / "big.nc"
     rc = main(["sweep", CASE, "--vary", "d=0.1:6:100000", "--vary", "depth=1:2:1000", "-o", str(out), "-q"])
     err = capsys.readouterr().err
@@ -187,9 +188,9 @@ def interrupted(case_path, varies, out, after_chunks):
             raise KeyboardInterrupt
 
     case = fdsolver.load_case(case_path)
-    spec = sw.plan_sweep(case, sw.parse_axes(varies, case), chunk=3)
+    spec = sw.plan_sweep(case, sw.sweep_axes(varies, case), chunk=3)
     with pytest.raises(KeyboardInterrupt):
-        ck.run_sweep(spec, SerialExecutor(), output=out, progress=progress)
+        sw.run_sweep(spec, SerialExecutor(), output=out, progress=progress)
     return spec
 
 
@@ -216,11 +217,11 @@ def test_partial_and_damaged_lines_are_tolerated(tmp_path):
             raise KeyboardInterrupt
 
     with pytest.raises(KeyboardInterrupt):
-        ck.run_sweep(spec, SerialExecutor(), output=out, resume=True, progress=stop_after_one)
+        sw.run_sweep(spec, SerialExecutor(), output=out, resume=True, progress=stop_after_one)
     assert seen == [6, 3]  # 2 good records kept; the damaged one is solved again
     assert ck.Checkpoint.count_points(path) == 9  # the new record was not glued to the partial line
     seen.clear()
-    ck.run_sweep(spec, SerialExecutor(), output=out, resume=True, progress=seen.append)
+    sw.run_sweep(spec, SerialExecutor(), output=out, resume=True, progress=seen.append)
     assert seen[0] == 9 and sum(seen) == 15
     final = fdsolver.open_run(out)
     xr.testing.assert_identical(without_history(final), without_history(ref))

@@ -1,7 +1,8 @@
-"""The ``fdsolver`` command line: parse, call the core, print.  Nothing else lives here.
+"""The ``fdsolver`` command line: parse, call the API (:mod:`fdsolver.api`), print.  Nothing else lives here.
 
-Subcommands are registered from small modules (``cli_*.py``), each with
-``register(subparsers)`` that adds its parser and sets ``func``.  Exit codes:
+Subcommands are registered from small modules (:mod:`.solve`, :mod:`.sweep`,
+:mod:`.delta`), each with ``register(subparsers)`` that adds its parser and
+sets ``func``; what they share is :mod:`._common`.  Exit codes:
 0 success, 2 bad input (one line naming file, key and problem, on stderr),
 1 unexpected failure (one line; the traceback only with FDSOLVER_DEBUG=1).
 """
@@ -40,21 +41,6 @@ def build_parser() -> argparse.ArgumentParser:
             raise
         mod.register(sub)
     return parser
-
-
-def parse_set(items) -> dict:
-    """--set NAME=VALUE pairs as a dict (VALUE a number or an expression string)."""
-    out = {}
-    for item in items or []:
-        if "=" not in item:
-            raise CaseError(f"'{item}' is not NAME=VALUE", key="--set")
-        name, value = item.split("=", 1)
-        name, value = name.strip(), value.strip()
-        try:
-            out[name] = float(value)
-        except ValueError:
-            out[name] = value
-    return out
 
 
 def main(argv=None) -> int:

@@ -1,4 +1,4 @@
-"""``fdsolver delta-check``: parse, call the zero-range study, print, write."""
+"""``fdsolver delta-check``: parse, call the API (a width ladder or a validity map), print, write."""
 
 from __future__ import annotations
 
@@ -27,71 +27,52 @@ def register(sub) -> None:
     p.add_argument("-o", "--output", metavar="CHECK.nc", help="write the result to this NetCDF archive")
     p.add_argument("--plot", metavar="FIG.png", help="draw the deviation against width (or the map) to this image")
     p.add_argument("-j", "--workers", type=int, metavar="N", help="worker processes for a map (default: all cores)")
+    p.add_argument("--executor", choices=("serial", "processes", "dask"), help="where map points run (default: processes)")
+    p.add_argument("--resume", action="store_true", help="continue a map from its checkpoint (CHECK.nc.checkpoint)")
+    p.add_argument("--restart", action="store_true", help="discard an old checkpoint of this map and start over")
     p.add_argument("-q", "--quiet", action="store_true", help="no progress bar")
     p.set_defaults(func=run_delta)
 
 
-def _command(args) -> str:
-    parts = [f"fdsolver delta-check {args.case}"]
-    for flag, val in (("--shape", args.shape), ("--widths", args.widths), ("--tolerance", args.tolerance)):
-        if val is not None:
-            parts.append(f"{flag} {val}")
-    if args.from_finite:
-        parts.append("--from-finite")
-    parts += [f"--map {m}" for m in args.map or []] + [f"--set {s}" for s in args.set or []]
-    return " ".join(parts)
+OPTIONS = (("--shape", "shape"), ("--widths", "widths"), ("--tolerance", "tolerance"), ("--from-finite", "from_finite"),
+           ("--map", "map"), ("--set", "set"))
 
 
 def run_delta(args) -> int:
-    from fdsolver.zerorange import ladder as D
-    from fdsolver.input.case import load_case
-    from fdsolver.cli import parse_set
-    from fdsolver.cli.solve import FIG_SUFFIXES, check_output
+    import fdsolver
+    from fdsolver.cli._common import ARCHIVE_SUFFIXES, FIG_SUFFIXES, ProgressBar, check_output, command, parse_set, write_figure
     from fdsolver.report.delta import format_delta
+    from fdsolver.scans.options import read_options
 
-    check_output(args.output, "--output", (".nc",))
+    check_output(args.output, "--output", ARCHIVE_SUFFIXES)
     check_output(args.plot, "--plot", FIG_SUFFIXES)
-    if args.workers is not None and args.workers < 1:
-        raise CaseError(f"needs at least 1 worker, got {args.workers}", key="--workers")
-    if args.from_finite and args.shape is not None:
-        raise CaseError("--shape chooses the wells that replace points; --from-finite uses the case's own wells",
-                        key="--shape")
-    fixed = parse_set(args.set)
-    case = load_case(args.case, **fixed)
-    options = D.read_options(case, shape=args.shape, widths=args.widths, tolerance=args.tolerance,
-                             from_finite=args.from_finite, maps=args.map)
-    if options.from_finite and options.widths is not None and not options.maps:
-        raise CaseError("--widths sets the replacement widths; --from-finite keeps the case's own wells", key="--widths")
-    if options.maps:
-        ds = _run_map(case, options, fixed, args)
+    case = fdsolver.load_case(args.case, **parse_set(args.set))
+    settings = dict(shape=args.shape, widths=args.widths, tolerance=args.tolerance, from_finite=args.from_finite)
+    action = command("delta-check", args, OPTIONS)
+    is_map = bool(read_options(case, **settings, maps=args.map).maps)  # --map, or the case's [delta_check] map
+    if is_map:
+        bar = ProgressBar("delta map", args.quiet)
+        try:
+            ds = fdsolver.delta_map(case, args.map, **settings, output=args.output, resume=args.resume,
+                                    restart=args.restart, executor=args.executor, workers=args.workers, progress=bar,
+                                    action=action)
+        except KeyboardInterrupt:
+            bar.close()
+            if args.output:
+                print(f"interrupted: finished points are kept in {args.output}.checkpoint; run the same command with "
+                      "--resume to finish", file=sys.stderr)
+            return 130
+        finally:
+            bar.close()
     else:
-        ds = D.ladder_dataset(case, D.run_ladder(case, options), _command(args))
+        if args.resume or args.restart:
+            raise CaseError("--resume and --restart continue a validity map (--map); a width ladder has no checkpoint",
+                            key="--resume" if args.resume else "--restart")
+        ds = fdsolver.delta_check(case, **settings, action=action)
     print(format_delta(ds))
     if args.output:
-        from fdsolver.io.archive import write_dataset
-
-        write_dataset(ds, args.output)
+        if not is_map:  # a map is written by its run, which keeps the checkpoint until then
+            fdsolver.write_dataset(ds, args.output)
         print(f"wrote {args.output}")
-    if args.plot:
-        from fdsolver.plot import plot_archive
-
-        plot_archive(ds, args.plot)
-        print(f"wrote {args.plot}")
+    write_figure(ds, args.plot)
     return 0
-
-
-def _run_map(case, options, fixed, args):
-    from fdsolver.scans.maps import map_dataset, plan_map, run_map
-    from fdsolver.parallel.executors import ProcessExecutor, SerialExecutor
-
-    spec = plan_map(case, options, fixed)
-    n = spec.shape2[0] * spec.shape2[1]
-    ex = SerialExecutor() if args.workers == 1 else ProcessExecutor(args.workers)
-    from tqdm import tqdm
-
-    with ex:
-        print(f"mapping {n} points on {ex.workers} worker process(es)", file=sys.stderr)
-        with tqdm(total=n, unit="point", desc="delta map", file=sys.stderr, disable=args.quiet or not sys.stderr.isatty(),
-                  dynamic_ncols=True) as bar:
-            res = run_map(spec, ex, progress=bar.update)
-    return map_dataset(case, spec, res, _command(args))

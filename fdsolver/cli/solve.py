@@ -2,9 +2,7 @@
 
 from __future__ import annotations
 
-from pathlib import Path
-
-from fdsolver.errors import CaseError
+from fdsolver.cli._common import ARCHIVE_SUFFIXES, FIG_SUFFIXES, check_output, command, parse_set, write_figure
 
 
 def register(sub) -> None:
@@ -25,59 +23,33 @@ def register(sub) -> None:
     p.set_defaults(func=run_plot)
 
 
-def check_output(path: str | None, key: str, suffixes=None) -> None:
-    """Refuse an output path before any work is done (missing folder, a directory, wrong suffix)."""
-    if not path:
-        return
-    p = Path(path)
-    if p.is_dir():
-        raise CaseError(f"'{path}' is a directory; give a file name", key=key)
-    if not (p.parent if str(p.parent) else Path(".")).is_dir():
-        raise CaseError(f"folder '{p.parent}' does not exist; create it first", key=key)
-    if suffixes and p.suffix.lower() not in suffixes:
-        raise CaseError(f"'{path}' should end in one of {', '.join(suffixes)}", key=key)
-
-
-FIG_SUFFIXES = (".png", ".pdf", ".svg")
-
-
 def run_solve(args) -> int:
-    from fdsolver import api
-    from fdsolver.io import archive
-    from fdsolver.input.case import load_case
-    from fdsolver.cli import parse_set
-    from fdsolver.report import format_solve
+    import fdsolver
+    from fdsolver.report.solve import format_solve
 
-    check_output(args.output, "--output", (".nc",))
+    check_output(args.output, "--output", ARCHIVE_SUFFIXES)
     check_output(args.plot, "--plot", FIG_SUFFIXES)
-    case = load_case(args.case, **parse_set(args.set))
-    cmd = "fdsolver solve " + args.case + "".join(f" --set {s}" for s in (args.set or []))
-    ds = api.solve(case, action=cmd)
+    case = fdsolver.load_case(args.case, **parse_set(args.set))
+    ds = fdsolver.solve(case, action=command("solve", args, [("--set", "set")]))
     print(format_solve(ds))
     if args.output:
-        archive.write_dataset(ds, args.output)
+        fdsolver.write_dataset(ds, args.output)
         print(f"wrote {args.output}")
-    if args.plot:
-        from fdsolver.plot import plot_archive
-
-        plot_archive(ds, args.plot)
-        print(f"wrote {args.plot}")
+    write_figure(ds, args.plot)
     return 0
 
 
 def run_show(args) -> int:
-    from fdsolver.io.archive import open_run
+    import fdsolver
     from fdsolver.report import format_archive
 
-    print(format_archive(open_run(args.archive)))
+    print(format_archive(fdsolver.open_run(args.archive)))
     return 0
 
 
 def run_plot(args) -> int:
-    from fdsolver.io.archive import open_run
-    from fdsolver.plot import plot_archive
+    import fdsolver
 
     check_output(args.output, "--output", FIG_SUFFIXES)
-    plot_archive(open_run(args.archive), args.output)
-    print(f"wrote {args.output}")
+    write_figure(fdsolver.open_run(args.archive), args.output)
     return 0

@@ -1,21 +1,24 @@
-"""Archives: xarray Datasets with CF-1.13 attributes, written to NetCDF atomically.
+"""Archives: xarray Datasets with CF-1.13 attributes, written to NetCDF atomically and read back checked.
 
-Every fdsolver result (a solve, a zero-range check, a sweep) is a Dataset
-whose global attribute ``fdsolver_kind`` says which; all carry the case file
-text verbatim (``case_text``), the resolved parameters (``params``, JSON), the
-table files the case read (``case_tables``, JSON), the fdsolver version
-(``source``) and a ``history`` line per write with a UTC timestamp.
+Every fdsolver result (a solve, a zero-range check or map, a sweep, a
+threshold search) is a Dataset whose global attribute ``fdsolver_kind`` says
+which; all carry the case file text verbatim (``case_text``), the resolved
+parameters (``params``, JSON), the table files the case read (``case_tables``,
+JSON), the fdsolver version (``source``) and a ``history`` line per write
+with a UTC timestamp.  Their variables are declared in :mod:`fdsolver.io.specs`
+and built by :mod:`fdsolver.io.datasets`.
 
-Units: every variable has ``units`` (UDUNITS spelling; atomic units as
+Units: every number has ``units`` (UDUNITS-2 spelling; atomic units as
 scaled SI units with ``units_name`` = bohr/hartree) and ``long_name``.
 Wavefunctions are stored as psi * sqrt(1 length unit), which is
 dimensionless (``units = "1"``), because UDUNITS cannot write half powers;
 ``units_note`` says so on the variable.
 
-:func:`write_dataset` writes to a temporary file in the target folder and
-renames it over the target (``os.replace``), so a crash leaves the old file
-or the new one, never a truncated one.  :func:`open_run` reads an archive
-back fully into memory and checks that it is one of ours.
+:func:`write_dataset` writes to a temporary file in the target folder,
+fsyncs it and renames it over the target (``os.replace``), holding Ctrl-C
+until the file is complete, so a crash leaves the old file or the new one,
+never a truncated one.  :func:`open_run` reads an archive back fully into
+memory and checks it against the variable table of its kind.
 """
 
 from __future__ import annotations
@@ -33,56 +36,14 @@ import xarray as xr
 
 from fdsolver._version import __version__
 from fdsolver.errors import ArchiveError, CaseError
-
-CONVENTIONS = "CF-1.13"
-KINDS = ("solve", "delta_check", "sweep", "threshold")
-#: variables without which an archive of a kind cannot be shown
-REQUIRED = {
-    "solve": ("x", "energy", "energy_error", "converged", "nodes", "parity", "mean_x", "spread", "psi", "potential", "level_nodes"),
-    "sweep": ("energy", "energy_error"),
-    "delta_check": ("energy_limit",),
-    "threshold": ("phase_margin", "bound_states", "threshold_value", "threshold_uncertainty"),
-}
+from fdsolver.io.datasets import check
+from fdsolver.io.specs import ARCHIVE_KINDS
 
 
 def stamp(action: str) -> str:
     """One history line: an ISO-8601 UTC timestamp and what was done."""
     now = _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
     return f"{now}: {action} (fdsolver {__version__})"
-
-
-def base_attrs(case, kind: str, action: str, comment: str = "") -> dict:
-    """Global attributes shared by every archive kind."""
-    return {
-        "Conventions": CONVENTIONS,
-        "title": case.title,
-        "institution": "",
-        "source": f"fdsolver {__version__}",
-        "history": stamp(action),
-        "references": (
-            "Flux-form three-point finite differences on nested adaptive grids with Richardson extrapolation; "
-            "BenDaniel-Duke matching, Phys. Rev. 152, 683 (1966); see README.md of fdsolver"
-        ),
-        "comment": comment or "Model calculation; check against measurement before relying on it.",
-        "fdsolver_kind": kind,
-        "units_system": case.units.name,
-        "units_note": case.units.units_note,
-        "hbar2_2me": float(case.units.hbar2_2me),
-        "hbar2_2me_units": f"{case.units.energy} {case.units.length}^2",
-        "particle_mass": float(case.mass),
-        "case_file": str(case.path or ""),
-        "case_text": case.text,
-        "case_tables": json.dumps(case.tables),
-        "params": json.dumps(case.params, sort_keys=True),
-    }
-
-
-def length_attrs(units, long_name: str) -> dict:
-    return {"units": units.length_udunits, "units_name": units.length, "long_name": long_name}
-
-
-def energy_attrs(units, long_name: str) -> dict:
-    return {"units": units.energy_udunits, "units_name": units.energy, "long_name": long_name}
 
 
 def _clean_attrs(attrs: dict) -> dict:
@@ -112,7 +73,7 @@ def write_dataset(ds: xr.Dataset, path) -> Path:
     ds.attrs = _clean_attrs(ds.attrs)
     for name in ds.variables:
         ds[name].attrs = _clean_attrs(ds[name].attrs)
-    encoding = {}
+    encoding: dict = {}
     for name in ds.variables:
         var = ds[name]
         if var.dtype.kind == "f":
@@ -167,22 +128,10 @@ def open_run(path) -> xr.Dataset:
             f"not a readable NetCDF archive ({type(exc).__name__}: {str(exc)[:120]}); it may be truncated or corrupt",
             file=str(path),
         ) from None
-    kind = ds.attrs.get("fdsolver_kind")
-    if kind not in KINDS:
+    if ds.attrs.get("fdsolver_kind") not in ARCHIVE_KINDS:
         raise ArchiveError("is a NetCDF file but not an fdsolver archive (no fdsolver_kind attribute)", file=str(path))
     if "case_text" not in ds.attrs:
         raise ArchiveError("archive has no case_text attribute; it was not written by fdsolver", file=str(path))
-    missing = [v for v in REQUIRED.get(kind, ()) if v not in ds.variables]
-    if missing:
-        raise ArchiveError(
-            f"archive of kind '{kind}' lacks the variable(s) {', '.join(missing)}; it is damaged or was not written by fdsolver",
-            file=str(path),
-        )
+    check(ds, path)
     ds.encoding["source"] = str(path)
     return ds
-
-
-def add_history(ds: xr.Dataset, action: str) -> None:
-    """Append a timestamped line to the history attribute."""
-    old = ds.attrs.get("history", "")
-    ds.attrs["history"] = (old + "\n" if old else "") + stamp(action)

@@ -1,78 +1,259 @@
-"""The Dataset of one solve: :class:`~fdsolver.solver.Solution` + :class:`~fdsolver.case.Case` -> xarray.
+"""Datasets of every archive kind, generated from the variable table :mod:`fdsolver.io.specs`.
 
-Coordinates ``x`` (grid nodes, walls or box ends included), ``state``
-(0 = ground state), ``region`` (named components and layers) and ``level``
-(grid refinement level); variables ``energy``, ``energy_error``, ``converged``,
-``nodes``, ``parity``, ``mean_x``, ``spread``, ``psi``, ``potential``,
-``mass``, ``probability_inside``, ``box_error``, ``level_energy``,
-``level_nodes``.  Attributes and units as described in :mod:`fdsolver.archive`.
+:func:`build` turns a result object and a kind's rows into an
+:class:`xarray.Dataset` with CF attributes (``long_name``, UDUNITS
+``units`` and the plain ``units_name``, flags); one small function per kind
+adds the kind's global attributes:
+
+=====================  =====================================================
+:func:`solve_dataset`  one solve (:class:`fdsolver.boundstates.result.Solution`)
+:func:`sweep_dataset`  a parameter sweep (:class:`fdsolver.scans.sweep.Results`)
+:func:`threshold_dataset`  a threshold search (:class:`fdsolver.boundstates.counting.Search`)
+:func:`ladder_dataset`  a zero-range check over widths (:class:`fdsolver.zerorange.ladder.Ladder`)
+:func:`map_dataset`    a zero-range validity map (:class:`fdsolver.scans.maps.MapResults`)
+=====================  =====================================================
+
+:func:`check` is the reader's side: it refuses a Dataset whose variables do
+not match its kind's rows.  Energies and lengths are in the case units.
 """
 
 from __future__ import annotations
 
+import json
 import math
+from dataclasses import dataclass
 
 import numpy as np
 import xarray as xr
 
-from fdsolver.io.archive import base_attrs, energy_attrs, length_attrs
-from fdsolver.boundstates.driver import Solution
+from fdsolver._version import __version__
+from fdsolver.errors import ArchiveError
+from fdsolver.io.specs import KINDS, PARAM, PARAMS, Kind, Var, kind_of
+from fdsolver.io.units import units_of
+
+CONVENTIONS = "CF-1.13"
+REFERENCES = (
+    "Flux-form three-point finite differences on nested adaptive grids with Richardson extrapolation; "
+    "BenDaniel-Duke matching, Phys. Rev. 152, 683 (1966); see README.md of fdsolver"
+)
+UNDECLARED = "units not declared; add [sweep] units = {NAME = \"UNIT\"} to the case"
 
 
-def solution_dataset(case, sol: Solution, action: str = "solve") -> xr.Dataset:
-    """Build the archive Dataset of ``sol`` for ``case``."""
-    u = case.units
-    n = sol.energy.size
-    coords = {
-        "x": ("x", sol.x, length_attrs(u, "position")),
-        "state": ("state", np.arange(n, dtype=np.int32), {"long_name": "bound state index (0 = ground state)", "units": "1"}),
-        "region": ("region", np.array(sol.region_names, dtype=object), {"long_name": "named component or layer"}),
-        "level": ("level", np.arange(sol.level_sizes.size, dtype=np.int32), {"long_name": "grid refinement level", "units": "1"}),
+@dataclass(frozen=True)
+class Param:
+    """A scanned param as the builders read it: its name, UDUNITS-2 ``units`` ("" if not declared), ``units_name``."""
+
+    name: str
+    units: str = ""
+    units_name: str = ""
+
+
+def base_attrs(case, kind: str, history: str) -> dict:
+    """Global attributes shared by every archive kind (CF: Conventions, title, history, source, references, comment)."""
+    return {
+        "Conventions": CONVENTIONS,
+        "title": case.title,
+        "source": f"fdsolver {__version__}",
+        "history": history,
+        "references": REFERENCES,
+        "comment": "Model calculation; check against measurement before relying on it.",
+        "fdsolver_kind": kind,
+        "units_system": case.units.name,
+        "units_note": case.units.units_note,
+        "hbar2_2me": float(case.units.hbar2_2me),
+        "hbar2_2me_units": f"{case.units.energy} {case.units.length}^2",
+        "particle_mass": float(case.mass),
+        "case_file": str(case.path or ""),
+        "case_text": case.text,
+        "case_tables": json.dumps(case.tables),
+        "params": json.dumps(case.params, sort_keys=True),
     }
-    ea = lambda name: energy_attrs(u, name)  # noqa: E731
-    data = {
-        "energy": ("state", sol.energy, ea("bound-state energy (Richardson-extrapolated)")),
-        "energy_error": ("state", sol.energy_error, ea("estimated absolute error of energy")),
-        "converged": (
-            "state",
-            sol.converged.astype(np.int8),
-            {"long_name": "1 if energy_error is below the tolerance", "units": "1", "flag_values": np.array([0, 1], dtype=np.int8), "flag_meanings": "not_converged converged"},
-        ),
-        "nodes": ("state", sol.nodes.astype(np.int32), {"long_name": "number of nodes of the wavefunction", "units": "1"}),
-        "parity": ("state", sol.parity.astype(np.int8), {"long_name": "mirror parity (+1 even, -1 odd, 0 no mirror symmetry)", "units": "1"}),
-        "mean_x": ("state", sol.mean_x, length_attrs(u, "expectation value of position <x>")),
-        "spread": ("state", sol.spread, length_attrs(u, "position spread sqrt(<x^2> - <x>^2)")),
-        "box_error": ("state", sol.box_error, ea("estimated shift from truncating the open line to the box")),
-        "psi": (
-            ("state", "x"),
-            sol.psi,
-            {
-                "long_name": "normalised wavefunction times sqrt(length unit)",
-                "units": "1",
-                "units_note": f"psi in {u.length}^-1/2; integral psi^2 dx = 1 over the grid (lumped node weights)",
-            },
-        ),
-        "potential": ("x", sol.potential, ea("potential energy (dual-cell average at interior nodes)")),
-        "mass": ("x", sol.mass, {"long_name": "effective mass in units of the free-electron mass", "units": "1"}),
-        "probability_inside": (
-            ("state", "region"),
-            sol.inside,
-            {"long_name": "probability inside each named component or layer", "units": "1"},
-        ),
-        "level_energy": (("level", "state"), sol.level_energies, ea("unextrapolated energy on each refinement level")),
-        "level_nodes": ("level", sol.level_sizes.astype(np.int64), {"long_name": "number of grid nodes per level", "units": "1"}),
-    }
-    attrs = base_attrs(case, "solve", action)
-    attrs.update(
-        {
-            "continuum_threshold": float(sol.threshold) if math.isfinite(sol.threshold) else np.inf,
-            "box_left": sol.box[0],
-            "box_right": sol.box[1],
-            "boundary": sol.boundary,
-            "mirror_center": np.nan if sol.mirror_center is None else float(sol.mirror_center),
-            "tolerance": float(case.settings.tolerance),
-            "bound_state_count": int(sol.bound_count),
-            "messages": "\n".join(sol.messages),
-        }
-    )
+
+
+def _units_attrs(udunits: str, name: str) -> dict:
+    return {"units": udunits} if name in ("", udunits) else {"units": udunits, "units_name": name}
+
+
+def _param_attrs(param) -> dict:
+    """Units of a scanned param (an object with ``units`` (UDUNITS, "" if undeclared) and ``units_name``)."""
+    if param is None or not getattr(param, "units", ""):
+        return {"units": "1", "units_note": UNDECLARED}
+    return _units_attrs(param.units, getattr(param, "units_name", "") or param.units)
+
+
+def var_attrs(var: Var, system, param=None) -> dict:
+    """The attributes of one row in the unit system ``system`` (``param``: the scanned param for PARAM units)."""
+    attrs: dict = {"long_name": var.long_name.format(param=getattr(param, "name", "the param"))}
+    if var.units == PARAM:
+        attrs.update(_param_attrs(param))
+    elif var.units is not None:
+        attrs.update(_units_attrs(*units_of(var.units, system)))
+    if var.flags:
+        attrs["flag_values"] = var.flag_values()
+        attrs["flag_meanings"] = " ".join(var.meanings())
+    if var.note:
+        attrs["units_note"] = var.note.format(length=system.length)
+    return attrs
+
+
+def axis_attrs(axis) -> dict:
+    """A scanned axis as a coordinate: its long name, units and spacing."""
+    return {"long_name": axis.long_name, **_param_attrs(axis), "spacing": axis.spacing}
+
+
+def _array(var: Var, value) -> np.ndarray:
+    if var.dtype == "str":  # numpy text, not objects: an empty list of names must still be text on disk
+        return np.array([str(v) for v in value], dtype=str)
+    return np.asarray(value).astype(np.dtype(var.dtype))
+
+
+def build(kind: str, result, system, attrs: dict, *, axes=(), param=None) -> xr.Dataset:
+    """The Dataset of ``kind`` from ``result``: every row whose source gives a value, in the table's order.
+
+    ``axes`` are the scanned axes (what :data:`PARAMS` stands for; each with
+    ``name``, ``values``, ``units``, ``units_name``, ``long_name``,
+    ``spacing``), ``param`` the scanned param whose units :data:`PARAM` rows
+    take (default: the only axis).
+    """
+    spec = KINDS[kind]
+    names = tuple(a.name for a in axes)
+    param = param if param is not None else (axes[0] if len(axes) == 1 else None)
+    coords: dict = {a.name: (a.name, np.asarray(a.values), axis_attrs(a)) for a in axes}
+    data: dict = {}
+    for var in spec.rows:
+        value = var.value(result)
+        if value is None:
+            if var.required:
+                raise ValueError(f"{kind} archive: the result gives no value for the required variable {var.name}")
+            continue
+        dims = tuple(d for dim in var.dims for d in (names if dim == PARAMS else (dim,)))
+        (coords if var.coord else data)[var.name] = (dims, _array(var, value), var_attrs(var, system, param))
     return xr.Dataset(data_vars=data, coords=coords, attrs=attrs)
+
+
+# ------------------------------------------------------------ the kinds
+def solve_dataset(case, sol, history: str) -> xr.Dataset:
+    """The archive of one solve: coordinates x, state, region (with region_name), level; see :data:`specs.SOLVE`."""
+    attrs = base_attrs(case, "solve", history)
+    attrs.update({
+        "continuum_threshold": float(sol.threshold) if math.isfinite(sol.threshold) else np.inf,
+        "box_left": sol.box[0],
+        "box_right": sol.box[1],
+        "boundary": sol.boundary,
+        "mirror_center": np.nan if sol.mirror_center is None else float(sol.mirror_center),
+        "tolerance": float(case.settings.tolerance),
+        "bound_state_count": int(sol.bound_count),
+        "messages": "\n".join(sol.messages),
+    })
+    return build("solve", sol, case.units, attrs)
+
+
+NOTES_SHOWN = 20
+
+
+def sweep_dataset(case, spec, results, history: str, found=()) -> xr.Dataset:
+    """The archive of a sweep: one dimension per swept param plus ``state`` (and ``x``, ``threshold``)."""
+    values = results.arrays()
+    if found:
+        values.update({
+            "threshold_value": np.array([t.value for t in found]),
+            "threshold_uncertainty": np.array([t.uncertainty for t in found]),
+            "threshold_state": np.array([t.state for t in found]),
+            "threshold_direction": np.array([t.direction for t in found]),
+        })
+    notes = results.notes()
+    attrs = base_attrs(case, "sweep", history)
+    attrs.update({
+        "swept_params": json.dumps([a.name for a in spec.axes]),
+        "axes": json.dumps([a.text for a in spec.axes]),
+        "fixed_params": json.dumps(spec.fixed, sort_keys=True),
+        "points": int(spec.n_points),
+        "failed_points": int(np.count_nonzero(values["solved"] == 0)),
+        "state_labels": "states are labelled by their number of nodes",
+        "tolerance": float(case.settings.tolerance),
+        "notes_count": len(notes),
+        "notes": "\n".join(notes[:NOTES_SHOWN] + ([f"... and {len(notes) - NOTES_SHOWN} more"] if len(notes) > NOTES_SHOWN else [])),
+    })
+    return build("sweep", values, case.units, attrs, axes=spec.axes)
+
+
+def threshold_dataset(case, search, history: str, param) -> xr.Dataset:
+    """The archive of a threshold search: the thresholds found and the scan of the phase margin behind them."""
+    attrs = base_attrs(case, "threshold", history)
+    attrs.update({
+        "swept_params": json.dumps([search.param]),
+        "interval": [search.lo, search.hi],
+        "bound_states_at_lo": search.count_lo,
+        "bound_states_at_hi": search.count_hi,
+        "notes": "\n".join(search.notes),
+        "method": "Pruefer phase of the zero-energy solution (node count, no box); Brent root of Phi - N",
+    })
+    return build("threshold", search, case.units, attrs, param=param)
+
+
+def ladder_dataset(case, lad, history: str) -> xr.Dataset:
+    """The archive of a zero-range check over widths: coordinates width, state and well."""
+    attrs = base_attrs(case, "delta_check", history)
+    attrs.update({
+        "delta_mode": lad.mode,
+        "replacement_shape": lad.shape if lad.mode == "replace" else "",
+        "tolerance": float(lad.tolerance),
+        "messages": "\n".join(lad.notes),
+        "well_shapes": ", ".join(w.kind for w in lad.models[0].wells),
+    })
+    return build("delta_check", lad, case.units, attrs)
+
+
+MESSAGES_SHOWN = 200
+
+
+def map_dataset(case, spec, results, history: str) -> xr.Dataset:
+    """The archive of a validity map: the two map axes and ``state`` as dimensions."""
+    attrs = base_attrs(case, "delta_check", history)
+    attrs.update({
+        "delta_mode": "from_finite_map" if spec.from_finite else "replace_map",
+        "replacement_shape": "" if spec.from_finite else spec.shape,
+        "tolerance": float(spec.tolerance),
+        "replacement_width": float(spec.width) if spec.width is not None else np.nan,
+        "map_axes": json.dumps([a.name for a in spec.axes]),
+        "fixed_params": json.dumps(spec.fixed),
+        "messages": "\n".join(results.notes()[:MESSAGES_SHOWN]),
+    })
+    return build("delta_map", results.arrays(spec.tolerance), case.units, attrs, axes=spec.axes)
+
+
+# ------------------------------------------------------------ reading
+def check(ds: xr.Dataset, path) -> Kind:
+    """The kind of archive ``ds``; :class:`ArchiveError` if it lacks a required variable or one has the wrong shape."""
+    kind = kind_of(ds.attrs)
+    if kind is None:
+        raise ArchiveError("is a NetCDF file but not an fdsolver archive (no fdsolver_kind attribute)", file=str(path))
+    names: tuple = ()
+    if kind.axes_attr:
+        try:
+            names = tuple(json.loads(ds.attrs[kind.axes_attr]))
+        except (KeyError, ValueError, TypeError):
+            names = None  # type: ignore[assignment]
+        if not isinstance(names, tuple) or not all(isinstance(n, str) for n in names):
+            raise ArchiveError(f"archive of kind '{kind.name}' has no readable {kind.axes_attr} attribute; it is damaged "
+                               "or was not written by fdsolver", file=str(path))
+    missing = [v.name for v in kind.rows if v.required and v.name not in ds.variables]
+    if missing:
+        raise ArchiveError(
+            f"archive of kind '{kind.fdsolver_kind}' lacks the variable(s) {', '.join(missing)}; it is damaged or was not "
+            "written by fdsolver", file=str(path))
+    for var in kind.rows:
+        if var.name not in ds.variables:
+            continue
+        dims = tuple(d for dim in var.dims for d in (names if dim == PARAMS else (dim,)))
+        got = ds[var.name]
+        wrong = got.dims != dims
+        if var.required and not wrong:
+            want = "OUS" if var.dtype == "str" else np.dtype(var.dtype).kind
+            wrong = got.dtype.kind not in (want + ("iu" if want in "iu" else ""))
+        if wrong:
+            raise ArchiveError(
+                f"variable {var.name} of this '{kind.name}' archive is {got.dtype} over ({', '.join(map(str, got.dims))}), "
+                f"expected {var.dtype} over ({', '.join(map(str, dims))}); it is damaged or was not written by fdsolver",
+                file=str(path))
+    return kind

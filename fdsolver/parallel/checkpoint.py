@@ -1,18 +1,18 @@
-"""Checkpoint and resume of a sweep: finished chunks appended to a file beside the output.
+"""The checkpoint format: finished chunks of a scan appended to a file beside its output.
 
 The checkpoint ``OUT.nc.checkpoint`` is JSON lines.  The first line is the
-header: what defines the result (case text, table files, fixed params, exact
-axis values, psi grid, fdsolver version; :meth:`SweepSpec.identity`), its
+header: what defines the result (the scan's ``identity()``: case text, table
+files, fixed params, exact axis values, settings, fdsolver version), its
 SHA-256 and the history line of the run that started it.  Every further line
 is one finished chunk, ``CRC32 JSON``, its arrays stored as base64 of their
 raw bytes (so values come back bit for bit).  Each line is written with one
 ``write``, flushed and fsync'ed; the header is written to a temporary file
 and renamed into place.  A kill at any moment (even SIGKILL) leaves complete
 lines plus at most one partial last line, which resume drops.  Resuming a
-different sweep is refused with the first difference named.  The final NetCDF
-is built from the same arrays whether they came from the checkpoint or were
-just computed, and carries the original history line, so a resumed run
-writes the same file as an uninterrupted one.
+different scan is refused with the first difference named (:func:`difference`).
+The file is held under ``flock`` while open.  What runs the chunks and when
+the checkpoint is created, resumed and removed is
+:mod:`fdsolver.scans.runner`.
 """
 
 from __future__ import annotations
@@ -27,7 +27,7 @@ import numpy as np
 
 from fdsolver.errors import CaseError
 
-MAGIC = "fdsolver sweep checkpoint"
+MAGIC = "fdsolver sweep checkpoint"  # the format's name since its first version (it now serves every scan)
 VERSION = 1
 
 
@@ -66,8 +66,20 @@ def decode(line: bytes) -> dict | None:
         return None
 
 
-def difference(old: dict, new: dict) -> str | None:
-    """The first way two sweep identities differ, in words (None if they agree)."""
+#: identity key -> how a difference in it is named (keys not listed are named by themselves)
+LABELS = {
+    "fixed": "the fixed params (--set)",
+    "save_psi": "the wavefunction settings (--save-psi or [sweep] psi_points/psi_range)",
+    "psi_x": "the wavefunction settings (--save-psi or [sweep] psi_points/psi_range)",
+    "shape": "the replacement shape (--shape)",
+    "tolerance": "the tolerance (--tolerance)",
+    "from_finite": "the direction (--from-finite)",
+    "width": "the replacement width (--widths)",
+    "study": "the kind of scan",
+}
+
+
+def _case_difference(old: dict, new: dict) -> str | None:
     if old.get("case_text") != new["case_text"]:
         a, b = (old.get("case_text") or "").splitlines(), new["case_text"].splitlines()
         for i in range(max(len(a), len(b))):
@@ -78,16 +90,36 @@ def difference(old: dict, new: dict) -> str | None:
         names = sorted(set(old.get("case_tables", {})) ^ set(new["case_tables"])) or sorted(
             k for k in new["case_tables"] if old["case_tables"].get(k) != new["case_tables"][k])
         return f"the table file(s) {', '.join(names)} differ"
-    if old.get("fixed") != new["fixed"]:
-        return f"the fixed params (--set) differ: checkpoint {old.get('fixed')}, this run {new['fixed']}"
+    return None
+
+
+def _axes_difference(old: dict, new: dict) -> str | None:
     oa, na = old.get("axes", []), new["axes"]
     if [a["name"] for a in oa] != [a["name"] for a in na]:
-        return f"the checkpoint sweeps {', '.join(a['name'] for a in oa)}; this run sweeps {', '.join(a['name'] for a in na)}"
+        return f"the checkpoint scans {', '.join(a['name'] for a in oa)}; this run scans {', '.join(a['name'] for a in na)}"
     for a, b in zip(oa, na):
         if a["values"] != b["values"]:
-            return f"the values of {a['name']} differ: checkpoint {a['text']} ({len(a['values'])} values), this run {b['text']} ({len(b['values'])} values)"
-    if old.get("save_psi") != new["save_psi"] or old.get("psi_x") != new["psi_x"]:
-        return "the wavefunction settings differ (--save-psi or [sweep] psi_points/psi_range)"
+            return (f"the values of {a['name']} differ: checkpoint {a['text']} ({len(a['values'])} values), "
+                    f"this run {b['text']} ({len(b['values'])} values)")
+    return None
+
+
+def difference(old: dict, new: dict) -> str | None:
+    """The first way two scan identities differ, in words (None if they agree)."""
+    if old.get("study", "sweep") != new.get("study", "sweep"):
+        return f"it is a checkpoint of a {old.get('study', 'sweep')}, not of a {new.get('study', 'sweep')}"
+    why = _case_difference(old, new)
+    if why:
+        return why
+    if old.get("fixed") != new.get("fixed"):
+        return f"{LABELS['fixed']} differ: checkpoint {old.get('fixed')}, this run {new.get('fixed')}"
+    why = _axes_difference(old, new)
+    if why:
+        return why
+    for key in new:
+        if key in ("case_text", "case_tables", "fixed", "axes", "fdsolver", "study") or old.get(key) == new[key]:
+            continue
+        return f"{LABELS.get(key, 'the ' + key.replace('_', ' '))} differ: checkpoint {old.get(key)!r}, this run {new[key]!r}"[:400]
     if old.get("fdsolver") != new["fdsolver"]:
         return f"it was written by fdsolver {old.get('fdsolver')}, this is {new['fdsolver']}"
     return None
@@ -109,7 +141,7 @@ class Checkpoint:
             fcntl.flock(fh.fileno(), fcntl.LOCK_EX | fcntl.LOCK_NB)
         except OSError:
             fh.close()
-            raise CaseError("another fdsolver sweep is writing this checkpoint; wait for it to finish", file=str(path)) from None
+            raise CaseError("another fdsolver run is writing this checkpoint; wait for it to finish", file=str(path)) from None
 
     @classmethod
     def create(cls, path: Path, identity: dict, key: str, history: str) -> "Checkpoint":
@@ -132,18 +164,18 @@ class Checkpoint:
         except (OSError, ValueError):
             header = None
         if not isinstance(header, dict) or header.get("magic") != MAGIC:
-            raise CaseError("is not an fdsolver sweep checkpoint (or its header is damaged); move it away", file=str(path))
+            raise CaseError("is not an fdsolver checkpoint (or its header is damaged); move it away", file=str(path))
         if header.get("version") != VERSION:
             raise CaseError(f"checkpoint format {header.get('version')} is not {VERSION}; finish it with the fdsolver that wrote it", file=str(path))
         return header
 
     @classmethod
-    def resume(cls, path: Path, identity: dict, key: str, on_record) -> "Checkpoint":
-        """Check that ``path`` belongs to this sweep, feed its records to ``on_record``, open it for appending."""
+    def resume(cls, path: Path, identity: dict, key: str, on_record, what: str = "sweep") -> "Checkpoint":
+        """Check that ``path`` belongs to this scan (a ``what``), feed its records to ``on_record``, open it for appending."""
         header = cls.read_header(path)
         if header.get("key") != key:
-            why = difference(header.get("identity", {}), identity) or "its sweep definition differs"
-            raise CaseError(f"refusing to resume: this checkpoint is of a different sweep ({why}); "
+            why = difference(header.get("identity", {}), identity) or f"its {what} definition differs"
+            raise CaseError(f"refusing to resume: this checkpoint is of a different {what} ({why}); "
                             "use another output name, or --restart to discard it", file=str(path))
         fh = open(path, "r+b")
         cls._lock(fh, path)
@@ -185,71 +217,3 @@ class Checkpoint:
     def discard(self) -> None:
         self.close()
         self.path.unlink(missing_ok=True)
-
-
-def _chunks(todo: np.ndarray, size: int):
-    """Contiguous runs of the flat indices still to do, cut to ``size``."""
-    if todo.size == 0:
-        return
-    breaks = np.flatnonzero(np.diff(todo) != 1) + 1
-    for run in np.split(todo, breaks):
-        for i in range(0, run.size, size):
-            yield run[i : i + size]
-
-
-def run_sweep(spec, executor, *, output=None, resume=False, restart=False, action=None, progress=None, locate=True):
-    """Run ``spec`` on ``executor`` with a checkpoint beside ``output``; write ``output`` atomically at the end.
-
-    ``progress(n)`` is called with the number of points each finished chunk
-    (or the resumed checkpoint) adds.  Returns the sweep Dataset.
-    """
-    from fdsolver.io.archive import stamp, write_dataset
-    from fdsolver.scans.sweep import Results, base_case, locate_along
-
-    base = base_case(spec)
-    case = base.with_params(**spec.fixed) if spec.fixed else base
-    action = action or f"fdsolver sweep {spec.case_path or case.title} " + " ".join(f"--vary {a.text}" for a in spec.axes)
-    results = Results(spec, case.settings.max_states)
-    ck, history = None, None
-    if output is not None:
-        path = path_for(output)
-        if path.exists() and restart:
-            Checkpoint.read_header(path)  # only ever delete our own files
-            path.unlink()
-        if path.exists() and not resume:
-            done = Checkpoint.count_points(path) if path.stat().st_size else 0
-            raise CaseError(f"a checkpoint of an unfinished sweep is here ({done} of its points done); add --resume to "
-                            "continue it or --restart to discard it", file=str(path))
-        if path.exists():
-            ck = Checkpoint.resume(path, spec.identity(), spec.key, results.add)
-        else:
-            ck = Checkpoint.create(path, spec.identity(), spec.key, stamp(action))
-        history = ck.header["history"]
-    try:
-        if progress and results.n_done:
-            progress(results.n_done)
-        todo = np.flatnonzero(~results.done)
-        size = spec.chunk or max(1, min(200, -(-todo.size // (8 * max(1, executor.workers)))))
-        jobs = ((spec, idx) for idx in _chunks(todo, size))
-        for rec in executor.imap_unordered(_run_chunk, jobs):
-            if ck is not None:
-                ck.append(rec)
-            n = results.add(rec)
-            if progress:
-                progress(n)
-        found = locate_along(spec, results.bound) if locate else []
-        ds = results.dataset(case, action, history, found)
-        if output is not None:
-            write_dataset(ds, output)
-            ck.discard()
-            ck = None
-        return ds
-    finally:
-        if ck is not None:
-            ck.close()
-
-
-def _run_chunk(job):
-    from fdsolver.scans.sweep import run_chunk
-
-    return run_chunk(job)

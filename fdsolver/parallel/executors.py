@@ -1,11 +1,16 @@
-"""Where sweep chunks run: in this process, in local worker processes, or on a Dask cluster.
+"""Where jobs run: in this process, in local worker processes, or on a Dask cluster.
 
 Every executor is a context manager with ``imap_unordered(fn, jobs)``: it
 pulls jobs from the iterator lazily, keeps at most ``in_flight`` of them
-submitted at once (so memory holds the result, not a queue of every point),
+submitted at once (so memory holds the result, not a queue of every job),
 and yields each result as soon as it is done.  ``fn`` must be a module-level
-function (it is sent to other processes by reference).  Dask is imported only
-inside :class:`DaskExecutor` and is an optional extra (``pip install .[cluster]``).
+function (it is sent to other processes by reference).  Every process that
+runs jobs limits its BLAS to one thread (:func:`one_blas_thread`), so the
+results do not depend on the executor.  The caller may give an
+``initializer``, a module-level function run once in each worker process
+(the studies warm up their compiled kernels with it).  Nothing here knows
+what the jobs compute.  Dask is imported only inside :class:`DaskExecutor`
+and is an optional extra (``pip install .[cluster]``).
 """
 
 from __future__ import annotations
@@ -19,54 +24,47 @@ from fdsolver.errors import CaseError, FdsolverError
 THREAD_VARS = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "NUMBA_NUM_THREADS")
 
 
-_SETTERS = ("scipy_openblas_set_num_threads64_", "scipy_openblas_set_num_threads", "openblas_set_num_threads64_", "openblas_set_num_threads")
-_GETTERS = ("scipy_openblas_get_num_threads64_", "scipy_openblas_get_num_threads", "openblas_get_num_threads64_", "openblas_get_num_threads")
-
-
-def blas_threads(n: int | None = None) -> int | None:
-    """Set every loaded OpenBLAS to ``n`` threads (None: only ask); returns the previous count, None if none found.
+def one_blas_thread():
+    """Limit every loaded BLAS/OpenMP library of this process to one thread (threadpoolctl); returns the limiter.
 
     Multithreaded BLAS reductions change the last bits of large-grid energies
-    with the thread count, so every process that solves sweep points runs with
-    one BLAS thread: serial, local and Dask runs then agree bit for bit.
-    Found through /proc/self/maps (Linux); elsewhere nothing is changed.
+    with the thread count, so every process that runs jobs does so with one
+    BLAS thread: serial, local and Dask runs then agree bit for bit.  numpy
+    and scipy.linalg are imported first, so their BLAS libraries are loaded
+    (threadpoolctl limits the libraries loaded when it is called).
+    ``.restore_original_limits()`` on the result undoes it.
     """
-    import ctypes
+    import numpy  # noqa: F401
+    import scipy.linalg  # noqa: F401
+    from threadpoolctl import threadpool_limits
 
-    try:
-        with open("/proc/self/maps") as fh:
-            paths = sorted({ln.split()[-1] for ln in fh if "openblas" in ln.rsplit("/", 1)[-1].lower()})
-    except OSError:
-        return None
-    previous = None
-    for path in paths:
-        try:
-            lib = ctypes.CDLL(path)
-        except OSError:
-            continue
-        get = next((getattr(lib, g) for g in _GETTERS if hasattr(lib, g)), None)
-        put = next((getattr(lib, g) for g in _SETTERS if hasattr(lib, g)), None)
-        if get is not None and previous is None:
-            previous = int(get())
-        if put is not None and n is not None:
-            put(int(n))
-    return previous
+    return threadpool_limits(limits=1)
 
 
-def warm_up() -> None:
-    """Pin BLAS to one thread and load the compiled kernels once in a worker (numba disk cache) with a tiny solve."""
-    blas_threads(1)
-    from fdsolver.api import solve_case
-    from fdsolver.input.case import case_from_dict
-
-    solve_case(case_from_dict({"potential": [{"shape": "square", "center": 0.0, "width": 1.0, "depth": 4.0}],
-                               "solve": {"tolerance": 1e-4}}))
+_PINNED = [False]
 
 
-def _worker_init() -> None:
-    """Initializer of local worker processes: warm up, and end when the sweep process dies.
+def _in_worker(fn, job):
+    """Run ``fn(job)`` in a worker process whose BLAS is limited to one thread (done once per process)."""
+    if not _PINNED[0]:
+        one_blas_thread()
+        _PINNED[0] = True
+    return fn(job)
 
-    A sweep killed with SIGKILL cannot stop its workers, and they would wait on
+
+def _worker_setup(initializer=None) -> None:
+    """Start of a worker process: one BLAS thread, then the caller's ``initializer`` (if any)."""
+    if not _PINNED[0]:
+        one_blas_thread()
+        _PINNED[0] = True
+    if initializer is not None:
+        initializer()
+
+
+def _local_worker_init(initializer=None) -> None:
+    """Initializer of local worker processes: set up, and end when the parent process dies.
+
+    A run killed with SIGKILL cannot stop its workers, and they would wait on
     their job queue forever; a daemon thread checks every 0.5 s that the parent
     is still the same process and ends the worker otherwise.
     """
@@ -81,7 +79,7 @@ def _worker_init() -> None:
         os._exit(1)
 
     threading.Thread(target=watch, daemon=True, name="fdsolver-parent-watch").start()
-    warm_up()
+    _worker_setup(initializer)
 
 
 class SerialExecutor:
@@ -91,18 +89,28 @@ class SerialExecutor:
     workers = 1
     dashboard = None
 
+    def __init__(self, initializer=None):
+        self.initializer = initializer  # not run: this process needs no warming up for itself
+        self._limits = None
+
     def __enter__(self):
-        self._blas = blas_threads(1)
+        self._limits = one_blas_thread()
         return self
 
     def __exit__(self, *exc):
-        if getattr(self, "_blas", None):
-            blas_threads(self._blas)
+        if self._limits is not None:
+            self._limits.restore_original_limits()
+            self._limits = None
         return False
 
     def imap_unordered(self, fn, jobs):
-        for job in jobs:
-            yield fn(job)
+        limits = one_blas_thread()  # also when used without `with`
+        try:
+            for job in jobs:
+                yield fn(job)
+        finally:
+            if self._limits is None:
+                limits.restore_original_limits()
 
 
 class ProcessExecutor:
@@ -111,7 +119,8 @@ class ProcessExecutor:
     name = "processes"
     dashboard = None
 
-    def __init__(self, workers: int | None = None, in_flight: int | None = None):
+    def __init__(self, workers: int | None = None, in_flight: int | None = None, initializer=None):
+        self.initializer = initializer
         self.workers = int(workers or os.cpu_count() or 1)
         if self.workers < 1:
             raise CaseError(f"needs at least one worker, got {workers}", key="--workers")
@@ -133,10 +142,12 @@ class ProcessExecutor:
         linux = sys.platform.startswith("linux")
         method = ("fork" if threading.active_count() == 1 else "forkserver") if linux else "spawn"
         ctx = mp.get_context(method)
-        if method == "forkserver":
-            ctx.set_forkserver_preload(["fdsolver.scans.sweep", "fdsolver.api"])
+        module = getattr(self.initializer, "__module__", None)
+        if method == "forkserver" and module:
+            ctx.set_forkserver_preload([module])
         self.method = method
-        self._pool = ProcessPoolExecutor(max_workers=self.workers, mp_context=ctx, initializer=_worker_init)
+        self._pool = ProcessPoolExecutor(max_workers=self.workers, mp_context=ctx, initializer=_local_worker_init,
+                                         initargs=(self.initializer,))
         try:
             self._pool.submit(int).result()  # start every worker now, before any progress-bar thread
         except Exception:
@@ -220,7 +231,8 @@ class DaskExecutor:
     name = "dask"
 
     def __init__(self, workers: int | None = None, address: str | None = None, in_flight: int | None = None,
-                 processes: bool = True, dashboard: bool = True):
+                 processes: bool = True, dashboard: bool = True, initializer=None):
+        self.initializer = initializer
         self.address, self.n_workers, self.processes, self.want_dashboard = address, workers, processes, dashboard
         self.in_flight_arg = in_flight
         self.client = self.cluster = None
@@ -268,7 +280,7 @@ class DaskExecutor:
         if self.want_dashboard:
             served = "dashboard" in (info.get("services") or {})
             self.dashboard = self.client.dashboard_link if served else "not served by this scheduler (it needs bokeh: pip install bokeh)"
-        self.client.run(warm_up)
+        self.client.run(_worker_setup, self.initializer)
         return self
 
     def __exit__(self, *exc):
@@ -285,7 +297,7 @@ class DaskExecutor:
         ac = as_completed()
         count = 0
         for job in jobs:
-            ac.add(self.client.submit(fn, job, pure=False))
+            ac.add(self.client.submit(_in_worker, fn, job, pure=False))
             count += 1
             if count >= self.in_flight:
                 break
@@ -295,21 +307,25 @@ class DaskExecutor:
                 fut.release()
                 job = next(jobs, None)
                 if job is not None:
-                    ac.add(self.client.submit(fn, job, pure=False))
+                    ac.add(self.client.submit(_in_worker, fn, job, pure=False))
                 yield result
         finally:
             for fut in list(ac.futures):
                 fut.cancel()
 
 
-def make_executor(kind: str | None = None, workers: int | None = None, cluster: str | None = None, scheduler: str | None = None):
-    """The executor the command line asked for (``processes`` unless a cluster or scheduler is named)."""
+def make_executor(kind: str | None = None, workers: int | None = None, cluster: str | None = None,
+                  scheduler: str | None = None, initializer=None):
+    """The executor asked for (``processes`` unless a cluster or scheduler is named); ``initializer`` runs once in
+    each worker process."""
     if cluster and scheduler:
         raise CaseError("give --cluster or --scheduler, not both", key="--cluster")
+    if workers is not None and (isinstance(workers, bool) or workers < 1):
+        raise CaseError(f"needs at least 1 worker, got {workers}", key="--workers")
     if cluster or scheduler or kind == "dask":
-        return DaskExecutor(workers=parse_cluster(cluster) if cluster else workers, address=scheduler)
+        return DaskExecutor(workers=parse_cluster(cluster) if cluster else workers, address=scheduler, initializer=initializer)
     if kind == "serial" or (workers == 1 and kind is None):
-        return SerialExecutor()
+        return SerialExecutor(initializer)
     if kind in (None, "processes"):
-        return ProcessExecutor(workers)
+        return ProcessExecutor(workers, initializer=initializer)
     raise CaseError(f"unknown executor '{kind}' (serial, processes, dask)", key="--executor")

@@ -16,22 +16,12 @@ import json
 
 import numpy as np
 
-from fdsolver.plot import save
+from fdsolver.plot._common import figure, label, save, units_of
 
 
-def _figure(ncols, width=6.0, height=4.8):
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
-    fig, axes = plt.subplots(1, ncols, figsize=(width * ncols, height), dpi=120, squeeze=False)
-    return fig, axes[0]
-
-
-def _unit(ds, name):
-    a = ds[name].attrs
-    return a.get("units_name") or a.get("units", "")
+def _panels(ncols: int, width: float = 6.0, height: float = 4.8):
+    """One row of ``ncols`` panels, each ``width`` x ``height`` inches."""
+    return figure(1, ncols, width=width * ncols, height=height)
 
 
 def plot_delta(ds, path) -> None:
@@ -48,10 +38,10 @@ def plot_delta(ds, path) -> None:
 def _plot_ladder(ds, path) -> None:
     crit = ds.critical_separation.values
     has_crit = np.isfinite(crit).any() or np.isfinite(ds.critical_separation_limit.values).any()
-    fig, axes = _figure(3 if has_crit else 2, 5.0 if has_crit else 6.0)
+    fig, axes = _panels(3 if has_crit else 2, 5.0 if has_crit else 6.0)
     ax, ax2 = axes[0], axes[1]
     w = ds.width.values
-    lu, eu = _unit(ds, "width"), _unit(ds, "energy")
+    lu, eu = units_of(ds, "width"), units_of(ds, "energy")
     tol = ds.attrs["tolerance"]
     colors = [f"C{k}" for k in range(ds.sizes["state"])]
     for k in range(ds.sizes["state"]):
@@ -64,7 +54,7 @@ def _plot_ladder(ds, path) -> None:
             ax.loglog(w[ok & ~res], dev[ok & ~res], "o", mfc="none", color=c, ms=6, label=f"state {k}: not resolved")
         a = ds.predicted_coefficient.values[k]
         if np.isfinite(a) and a > 0:
-            ax.loglog(w, a * w, "--", color=c, lw=0.9, label=f"first order {a:.3g} {_unit(ds, 'predicted_coefficient')} x width")
+            ax.loglog(w, a * w, "--", color=c, lw=0.9, label=f"first order {a:.3g} {units_of(ds, 'predicted_coefficient')} x width")
         v = ds.validity_width.values[k]
         if np.isfinite(v) and int(ds.validity_flag.values[k]) in (0, 4):
             ax.axvline(v, color=c, ls=":", lw=1.0)
@@ -123,10 +113,10 @@ def _plot_critical(ds, ax, colors, lu) -> None:
 
 
 def _plot_levels(ds, path) -> None:
-    fig, (ax,) = _figure(1, 6.5, 4.8)
-    eu = _unit(ds, "energy")
+    fig, (ax,) = _panels(1, 6.5, 4.8)
+    eu = units_of(ds, "energy")
     for k in range(ds.sizes["state"]):
-        for x0, e, label in ((0.0, ds.energy.values[0, k], "finite wells"), (1.0, ds.energy_limit.values[k], "zero-range")):
+        for x0, e in ((0.0, ds.energy.values[0, k]), (1.0, ds.energy_limit.values[k])):
             if np.isfinite(e):
                 ax.hlines(e, x0 + 0.1, x0 + 0.9, color=f"C{k}", lw=2)
                 ax.annotate(f"{e:.5g}", (x0 + 0.5, e), xytext=(0, 3), textcoords="offset points", ha="center", fontsize=7)
@@ -147,10 +137,9 @@ def _plot_map(ds, path) -> None:
 
     names = json.loads(ds.attrs["map_axes"])
     n_s = ds.sizes["state"]
-    fig, axes = _figure(n_s, 5.6, 4.8)
+    fig, axes = _panels(n_s, 5.6, 4.8)
     tol = ds.attrs["tolerance"]
     xa, ya = ds[names[0]], ds[names[1]]
-    units = [_unit(ds, n) for n in names]
     for k, ax in enumerate(axes):
         dev = np.abs(ds.deviation.values[:, :, k]).T  # rows = second axis
         with np.errstate(divide="ignore"):
@@ -179,8 +168,8 @@ def _plot_map(ds, path) -> None:
         for axis, coord in ((ax.set_xscale, xa), (ax.set_yscale, ya)):
             if coord.attrs.get("spacing") == "log":
                 axis("log")
-        ax.set_xlabel(f"{names[0]} [{units[0]}]")
-        ax.set_ylabel(f"{names[1]} [{units[1]}]")
+        ax.set_xlabel(label(ds, names[0]))
+        ax.set_ylabel(label(ds, names[1]))
         ax.set_title(f"state {k}", fontsize=10)
     from matplotlib.lines import Line2D
 
@@ -195,8 +184,4 @@ def _plot_map(ds, path) -> None:
         handles.append(Patch(facecolor="white", edgecolor="0.5", label="wells overlap (not solved)"))
     fig.legend(handles=handles, loc="lower center", ncol=3, fontsize=7, frameon=False)
     fig.suptitle(f"{ds.attrs.get('title', '')}: validity of the zero-range model", fontsize=10)
-    fig.tight_layout(rect=(0, 0.12, 1, 0.95))
-    fig.savefig(path)  # not plots.save: it would redo the layout without room for the legend
-    import matplotlib.pyplot as plt
-
-    plt.close(fig)
+    save(fig, path, rect=(0, 0.12, 1, 0.95))  # room for the legend below the panels

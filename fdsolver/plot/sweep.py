@@ -15,25 +15,14 @@ import json
 
 import numpy as np
 
-from fdsolver.plot import save
+from fdsolver.plot._common import figure, label, save, units_of
 
 
-def _label(ds, name) -> str:
-    u = ds[name].attrs.get("units_name") or ds[name].attrs.get("units", "")
-    return f"{name} [{u}]" if u and u != "1" else f"{name} [units not declared]"
-
-
-def _subplots(rows: int):
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
-    if rows == 1:
-        fig, ax = plt.subplots(figsize=(7.5, 5.0), dpi=120)
-        return fig, [ax]
-    fig, axes = plt.subplots(rows, 1, figsize=(7.5, 7.0), dpi=120, sharex=True, gridspec_kw={"height_ratios": [3, 1.3]})
-    return fig, list(axes)
+def _with_splitting(has_split: bool):
+    """One panel, or the energies above the tunnel splitting (sharing the param axis)."""
+    if not has_split:
+        return figure()
+    return figure(2, 1, height=7.0, sharex=True, gridspec_kw={"height_ratios": [3, 1.3]})
 
 
 def _log(ds, name) -> bool:
@@ -53,20 +42,20 @@ def plot_sweep(ds, path) -> None:
 def _markers(ax, ds, name, eu=None) -> None:
     if "threshold_value" not in ds:
         return
-    u = ds[name].attrs.get("units", "")
+    u = units_of(ds, name)
     for v, s in zip(ds.threshold_value.values, ds.threshold_state.values):
         ax.axvline(v, color="0.35", lw=0.9, ls="--")
         if eu is not None:
-            ax.annotate(f"state {int(s)} binds\n{name} = {v:.6g} {u if u != '1' else ''}".rstrip(), (v, 1.0), xycoords=("data", "axes fraction"),
+            ax.annotate(f"state {int(s)} binds\n{name} = {v:.6g} {u}".rstrip(), (v, 1.0), xycoords=("data", "axes fraction"),
                         xytext=(3, -4), textcoords="offset points", va="top", fontsize=7, color="0.25")
 
 
 def _plot_line(ds, name, path) -> None:
     x = ds[name].values
-    eu = ds.energy.attrs.get("units_name", ds.energy.attrs.get("units"))
+    eu = units_of(ds, "energy")
     split = ds["tunnel_splitting"].values if "tunnel_splitting" in ds else np.array([np.nan])
     has_split = bool(np.any(np.isfinite(split) & (split > 0)))
-    fig, axes = _subplots(2 if has_split else 1)
+    fig, axes = _with_splitting(has_split)
     ax = axes[0]
     for s in ds.state.values:
         e = ds.energy.sel(state=s).values
@@ -76,7 +65,7 @@ def _plot_line(ds, name, path) -> None:
     if np.isfinite(vt).any():
         ax.plot(x, vt, color="0.5", lw=0.9, ls=":", label="continuum threshold")
     _markers(ax, ds, name, eu)
-    ax.set_ylabel(f"energy [{eu}]")
+    ax.set_ylabel(label(ds, "energy"))
     ax.set_title(ds.attrs.get("title", ""))
     if ds.sizes.get("state", 0) <= 12:
         ax.legend(fontsize=7, loc="best")
@@ -84,12 +73,12 @@ def _plot_line(ds, name, path) -> None:
         ax2 = axes[1]
         ok = np.isfinite(split) & (split > 0)
         ax2.semilogy(x[ok], split[ok], color="C3", lw=1.3)
-        ax2.set_ylabel(f"E1 - E0 [{eu}]")
+        ax2.set_ylabel(label(ds, "tunnel_splitting", "E1 - E0"))
         _markers(ax2, ds, name)
     for a in axes:
         if _log(ds, name):
             a.set_xscale("log")
-    axes[-1].set_xlabel(_label(ds, name))
+    axes[-1].set_xlabel(label(ds, name))
     save(fig, path)
 
 
@@ -99,8 +88,7 @@ def _plot_map(ds, names, path) -> None:
     xa, ya = names[0], names[1]
     sel = {n: ds.sizes[n] // 2 for n in names[2:]}
     b = ds.bound_states.isel(sel).transpose(ya, xa).values
-    fig, axs = _subplots(1)
-    ax = axs[0]
+    fig, (ax,) = figure()
     valid = b[b >= 0]
     low = int(valid.min()) if valid.size else 0
     top = max(int(valid.max()) if valid.size else 0, low + 1)
@@ -111,8 +99,8 @@ def _plot_map(ds, names, path) -> None:
     cb.set_label("number of bound states (whole line, no box)")
     if top >= 1 and min(b.shape) >= 2:
         ax.contour(ds[xa].values, ds[ya].values, b, levels=np.arange(low + 0.5, top + 0.5), colors="k", linewidths=0.8)
-    ax.set_xlabel(_label(ds, xa))
-    ax.set_ylabel(_label(ds, ya))
+    ax.set_xlabel(label(ds, xa))
+    ax.set_ylabel(label(ds, ya))
     if _log(ds, xa):
         ax.set_xscale("log")
     if _log(ds, ya):
@@ -131,18 +119,16 @@ def _colors(n: int):
 
 def _plot_threshold(ds, path) -> None:
     name = json.loads(ds.attrs.get("swept_params", '["param"]'))[0]
-    fig, axs = _subplots(1)
-    ax = axs[0]
+    fig, (ax,) = figure()
     x, phi = ds.scan.values, ds.phase_margin.values
     ax.plot(x, phi, color="C0", lw=1.4, label="zero-energy phase margin")
     for n in range(max(0, int(np.floor(phi.min()))), int(np.ceil(phi.max())) + 1):
         ax.axhline(n, color="0.7", lw=0.7, ls=":")
-    u = ds.scan.attrs.get("units", "")
+    u = units_of(ds, "scan")
     for v, s in zip(ds.threshold_value.values, ds.threshold_state.values):
         ax.axvline(v, color="0.35", lw=0.9, ls="--")
-        ax.annotate(f"state {int(s)}: {v:.8g} {u if u != '1' else ''}".rstrip(), (v, int(s)), xytext=(4, 4), textcoords="offset points", fontsize=7)
-    unit = u if u and u != "1" else "units not declared"
-    ax.set_xlabel(f"{name} [{unit}]")
+        ax.annotate(f"state {int(s)}: {v:.8g} {u}".rstrip(), (v, int(s)), xytext=(4, 4), textcoords="offset points", fontsize=7)
+    ax.set_xlabel(label(ds, "scan", name))
     ax.set_ylabel("phase margin (state N bound where it exceeds N) [1]")
     ax.set_title(ds.attrs.get("title", ""))
     ax.legend(fontsize=7, loc="best")

@@ -7,12 +7,9 @@ import json
 import numpy as np
 import xarray as xr
 
+from fdsolver.report._common import label, units_of
+
 ORDINAL = {0: "ground", 1: "first excited", 2: "second excited"}
-
-
-def _u(ds, name) -> str:
-    a = ds[name].attrs
-    return a.get("units_name") or a.get("units", "")
 
 
 def _g(v, fmt=".6g") -> str:
@@ -21,7 +18,7 @@ def _g(v, fmt=".6g") -> str:
 
 def _head(ds) -> list[str]:
     a = ds.attrs
-    eu = _u(ds, "energy")
+    eu = units_of(ds, "energy")
     lines = [a.get("title", "")]
     params = json.loads(a.get("params", "{}"))
     lines.append(f"units: {a.get('units_system')} (energies in {eu}); deviation = (E_finite - E_point) / |E_point|, "
@@ -39,11 +36,11 @@ def format_delta(ds: xr.Dataset) -> str:
 
 def _format_ladder(ds) -> str:
     a = ds.attrs
-    eu, lu = _u(ds, "energy"), _u(ds, "width")
+    eu, lu = units_of(ds, "energy"), units_of(ds, "width")
     lines = _head(ds)
     n_w = ds.sizes["well"]
     wells = ", ".join(f"{ds.well_name.values[k]} at {ds.well_center.values[k]:.6g} {lu} "
-                      f"(alpha {ds.well_strength.values[k]:.6g} {_u(ds, 'well_strength')})" for k in range(n_w))
+                      f"(alpha {ds.well_strength.values[k]:.6g} {units_of(ds, 'well_strength')})" for k in range(n_w))
     if a.get("delta_mode") == "from_finite":
         lines.append(f"zero-range model of {n_w} finite well(s) ({a.get('well_shapes')}): alpha_j = int |V_j| dx, "
                      f"x_j = centroid; {wells}")
@@ -95,11 +92,11 @@ def _state_block(ds, k, eu, lu) -> list[str]:
             row += f"  {_g(crit[i], '11.6g'):>11}"
         lines.append(row + f"  {flag}")
     a_fit, a_pred = ds.law_coefficient.values[k], ds.predicted_coefficient.values[k]
-    iu = _u(ds, "law_coefficient")
+    iu = units_of(ds, "law_coefficient")
     if np.isfinite(a_fit) or np.isfinite(a_pred):
         lines.append(f"  leading order: deviation = a * width, a = {_g(a_fit, '.5g')} {iu} fitted (log-log slope "
                      f"{_g(ds.law_exponent.values[k], '.3f')}); first-order prediction a = {_g(a_pred, '.5g')} {iu}")
-    flag = int(ds.validity_flag.values[k])
+    code = int(ds.validity_flag.values[k])
     v = ds.validity_width.values[k]
     tol = ds.attrs["tolerance"]
     text = {
@@ -111,7 +108,7 @@ def _state_block(ds, k, eu, lu) -> list[str]:
         4: f"valid up to at least {_g(v, '.4g')} {lu}; beyond it the state is lost or not resolved",
         5: "",
         6: "no width of the ladder could be resolved: no validity width (see the notes)",
-    }[flag]
+    }[code]
     if text:
         lines.append("  " + text)
     bw = ds.binding_width.values[k]
@@ -162,13 +159,12 @@ def _count_warnings(ds, lu) -> list[str]:
 def _format_map(ds) -> str:
     a = ds.attrs
     ax = json.loads(a["map_axes"])
-    eu = _u(ds, "energy")
+    eu = units_of(ds, "energy")
     lines = _head(ds)
     what = (f"{a.get('replacement_shape')} wells replacing the points" if a["delta_mode"] == "replace_map"
             else "the case's finite wells against their zero-range model")
     fixed = "" if not np.isfinite(a.get("replacement_width", np.nan)) else f", width {a['replacement_width']:.6g}"
-    units = [ds[n].attrs.get("units_name") or ds[n].attrs.get("units", "") for n in ax]
-    lines.append(f"validity map of {what}{fixed}: {ax[0]} [{units[0]}] x {ax[1]} [{units[1]}], "
+    lines.append(f"validity map of {what}{fixed}: {label(ds, ax[0])} x {label(ds, ax[1])}, "
                  f"{ds.sizes[ax[0]]} x {ds.sizes[ax[1]]} points, energies in {eu}")
     solved = ds.solved.values > 0
     if ds.overlap.values.any():
@@ -198,11 +194,10 @@ def _format_map(ds) -> str:
 def _width_rows(ds, ax, tol) -> list[str]:
     """Per value of the other axis: the validity width of each state (largest width valid at all narrower ones)."""
     other = ax[1] if ax[0] == "width" else ax[0]
-    lu = ds.width.attrs.get("units_name", "")
-    ou = ds[other].attrs.get("units_name") or ds[other].attrs.get("units", "")
     w = ds.width.values
-    lines = [f"validity width [{lu}] per {other} (largest width with |deviation| < {tol:.1e} at it and all narrower widths):",
-             f"{other + ' [' + ou + ']':>14}" + "".join(f"  {'state ' + str(k):>12}" for k in range(ds.sizes["state"]))]
+    lines = [f"{label(ds, 'width', 'validity width')} per {other} (largest width with |deviation| < {tol:.1e} at it and "
+             "all narrower widths):",
+             f"{label(ds, other):>14}" + "".join(f"  {'state ' + str(k):>12}" for k in range(ds.sizes["state"]))]
     dev = ds.deviation.transpose(other, "width", "state").values
     for i, v in enumerate(ds[other].values):
         row = f"{v:14.6g}"

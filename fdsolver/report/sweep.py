@@ -6,52 +6,79 @@ import json
 
 import numpy as np
 
+from fdsolver.report._common import declared, units_of
+
 TABLE_ROWS = 30
-
-
-def _u(attrs) -> str:
-    u = attrs.get("units_name") or attrs.get("units", "")
-    return "" if u == "1" else u
 
 
 def _with_units(value: float, units: str, fmt: str = ".10g") -> str:
     return f"{value:{fmt}} {units}".rstrip()
 
 
-def describe(t, units: str = "") -> str:
+def _interval(ds) -> tuple[float, float]:
+    iv = ds.attrs["interval"]
+    lo, hi = json.loads(iv) if isinstance(iv, str) else iv
+    return float(lo), float(hi)
+
+
+def _found(ds, first_only: bool) -> list[dict]:
+    """The thresholds of a threshold archive (only the first if ``first_only``), as plain values."""
+    rows = [{"state": int(s), "value": float(v), "uncertainty": float(e), "direction": int(d)}
+            for v, e, s, d in zip(ds.threshold_value.values, ds.threshold_uncertainty.values,
+                                  ds.threshold_state.values, ds.threshold_direction.values)]
+    return rows[:1] if first_only else rows
+
+
+def describe(t: dict, param: str, units: str = "") -> str:
     """One line for one threshold."""
-    units = units or t.units
-    way = "increases" if t.direction > 0 else "decreases"
-    nodes = f"{t.state} node" + ("" if t.state == 1 else "s")
-    return (f"state {t.state} ({nodes}) appears at {t.param} = {_with_units(t.value, units, '.12g')} "
-            f"(+- {t.uncertainty:.2g} {units}".rstrip() + f"); it binds as {t.param} {way}")
+    way = "increases" if t["direction"] > 0 else "decreases"
+    nodes = f"{t['state']} node" + ("" if t["state"] == 1 else "s")
+    return (f"state {t['state']} ({nodes}) appears at {param} = {_with_units(t['value'], units, '.12g')} "
+            f"(+- {t['uncertainty']:.2g} {units}".rstrip() + f"); it binds as {param} {way}")
 
 
-def format_search(search, chosen, all_requested: bool = False, state=None) -> str:
-    """The answer of ``fdsolver threshold``."""
-    u = search.units
-    rng = f"{search.param} from {_with_units(search.lo, u, 'g')} to {_with_units(search.hi, u, 'g')}"
+def threshold_summary(ds, first_only: bool = True, state=None) -> dict:
+    """The answer of ``fdsolver threshold --json``: param, units, interval, the first (or asked) threshold, all found."""
+    chosen = _found(ds, first_only)
+    first = chosen[0] if chosen else None
+    a = ds.attrs
+    return {
+        "param": json.loads(a["swept_params"])[0], "units": units_of(ds, "scan"), "interval": list(_interval(ds)),
+        "state": first["state"] if first else state, "value": first["value"] if first else None,
+        "uncertainty": first["uncertainty"] if first else None, "direction": first["direction"] if first else None,
+        "found": bool(chosen), "bound_states_at_lo": int(a["bound_states_at_lo"]), "bound_states_at_hi": int(a["bound_states_at_hi"]),
+        "thresholds": chosen, "notes": [n for n in str(a.get("notes", "")).splitlines() if n],
+    }
+
+
+def format_threshold(ds, first_only: bool = True, state=None) -> str:
+    """The answer of ``fdsolver threshold``: the first threshold (or every one, or those of ``state``)."""
+    info = threshold_summary(ds, first_only, state)
+    u, name = info["units"], info["param"]
+    lo, hi = info["interval"]
+    n_lo, n_hi = info["bound_states_at_lo"], info["bound_states_at_hi"]
+    rng = f"{name} from {_with_units(lo, u, 'g')} to {_with_units(hi, u, 'g')}"
     lines = []
-    if not chosen:
+    if not info["found"]:
         who = f"state {state} neither appears nor disappears" if state is not None else "no bound state appears or disappears"
-        lines.append(f"{who} for {rng}: {search.count_lo} bound state(s) at {search.param} = {_with_units(search.lo, u, 'g')}, "
-                     f"{search.count_hi} at {_with_units(search.hi, u, 'g')} (scanned {search.scan_values.size} points)")
+        lines.append(f"{who} for {rng}: {n_lo} bound state(s) at {name} = {_with_units(lo, u, 'g')}, "
+                     f"{n_hi} at {_with_units(hi, u, 'g')} (scanned {ds.sizes['scan']} points)")
     else:
-        lines.extend(describe(t, u) for t in chosen)
-        rest = len(search.thresholds) - len(chosen)
-        if rest > 0 and not all_requested:
+        lines.extend(describe(t, name, u) for t in info["thresholds"])
+        rest = ds.sizes.get("threshold", 0) - len(info["thresholds"])
+        if rest > 0 and first_only:
             lines.append(f"{rest} more threshold(s) for {rng}; --all lists them")
-        lines.append(f"bound states: {search.count_lo} at {search.param} = {_with_units(search.lo, u, 'g')}, "
-                     f"{search.count_hi} at {_with_units(search.hi, u, 'g')} (zero-energy phase count, no box)")
-    if not u:
-        lines.append(f"note: the units of {search.param} are not declared; add [sweep] units = {{{search.param} = \"...\"}} to the case")
-    lines.extend(f"note: {n}" for n in search.notes)
+        lines.append(f"bound states: {n_lo} at {name} = {_with_units(lo, u, 'g')}, "
+                     f"{n_hi} at {_with_units(hi, u, 'g')} (zero-energy phase count, no box)")
+    if not declared(ds, "scan"):
+        lines.append(f"note: the units of {name} are not declared; add [sweep] units = {{{name} = \"...\"}} to the case")
+    lines.extend(f"note: {n}" for n in info["notes"])
     return "\n".join(lines)
 
 
 def _axis_text(ds, name) -> str:
     v = ds[name].values
-    u = _u(ds[name].attrs)
+    u = units_of(ds, name)
     return f"{name} = {v[0]:.6g} .. {v[-1]:.6g} {u}".rstrip() + f" ({v.size} values, {ds[name].attrs.get('spacing', '')} spacing)"
 
 
@@ -60,7 +87,7 @@ def _thresholds(ds) -> list[str]:
         return []
     names = json.loads(ds.attrs.get("swept_params", "[]"))
     name = names[0] if names else "param"
-    u = _u(ds.threshold_value.attrs)
+    u = units_of(ds, "threshold_value")
     out = []
     for v, e, s, d in zip(ds.threshold_value.values, ds.threshold_uncertainty.values, ds.threshold_state.values, ds.threshold_direction.values):
         way = "increases" if d > 0 else "decreases"
@@ -74,7 +101,7 @@ def format_sweep(ds) -> str:
         return _format_threshold_archive(ds)
     a = ds.attrs
     names = json.loads(a.get("swept_params", "[]"))
-    eu = _u(ds.energy.attrs)
+    eu = units_of(ds, "energy")
     lines = [a.get("title", ""), f"sweep of {int(a.get('points', 0))} points; energies in {eu}; states labelled by node count"]
     lines.extend("  " + _axis_text(ds, n) for n in names)
     fixed = json.loads(a.get("fixed_params", "{}"))
@@ -112,7 +139,7 @@ def format_sweep(ds) -> str:
 
 
 def _table(ds, name, eu) -> list[str]:
-    pu = _u(ds[name].attrs)
+    pu = units_of(ds, name)
     states = [int(s) for s in ds.state.values]
     head = f"{name + (' [' + pu + ']' if pu else ''):>14}" + "".join(f"  {'E' + str(s) + ' [' + eu + ']':>18}" for s in states)
     has_split = "tunnel_splitting" in ds
@@ -131,7 +158,7 @@ def _table(ds, name, eu) -> list[str]:
 def _format_threshold_archive(ds) -> str:
     a = ds.attrs
     name = json.loads(a.get("swept_params", '["param"]'))[0]
-    u = _u(ds.threshold_value.attrs)
+    u = units_of(ds, "threshold_value")
     lines = [a.get("title", ""), f"binding thresholds of {name} (zero-energy phase, no box)"]
     lo, hi = ds.scan.values[0], ds.scan.values[-1]
     lines.append(f"interval {name} = {lo:g} .. {hi:g} {u}; bound states {a.get('bound_states_at_lo')} at {lo:g}, {a.get('bound_states_at_hi')} at {hi:g}")

@@ -1,73 +1,168 @@
-"""Swept-parameter axes: parsing ``--vary`` specs, the [sweep] table, and the units of a param.
+"""Scanned axes: one parser for ``sweep --vary``, ``delta-check --map`` and ``threshold --vary``; the units of a param.
 
-``NAME=START:STOP:COUNT`` (linear), ``NAME=START:STOP:COUNT:log`` (geometric)
-or ``NAME=v1,v2,...`` (a strictly increasing list).  Every problem is a
+An axis is written ``NAME=START:STOP:COUNT`` (linear spacing),
+``NAME=START:STOP:COUNT:log`` (geometric; ``:lin`` forces linear) or
+``NAME=v1,v2,...`` (a strictly increasing list); a search interval is
+``NAME=LO:HI``.  NAME is a param of the case, or one of the extra axes a
+study offers (the validity map's ``width``).  Every problem is a
 :class:`~fdsolver.errors.CaseError` naming the option and what to write.
+
+Units of a param (:func:`param_units`): those declared in the case's
+``[sweep] units`` table (checked as UDUNITS-2 strings), else inferred from
+the keys the param is given to.  A key's dimension comes from the shape
+registry and the case schema (:func:`fdsolver.input.schema.dimension_of`);
+a param takes it where it enters the key's value linearly: alone, times or
+over a number, or in a sum or difference (``center = "-(d + width)/2"``
+gives ``d`` and ``width`` the dimension of a length).  Uses that disagree
+leave the units undeclared.
 """
 
 from __future__ import annotations
 
+import ast
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass
 
 import numpy as np
 
 from fdsolver.errors import CaseError, did_you_mean
+from fdsolver.input.schema import dimension_of
+from fdsolver.io.units import parses_as_udunits, units_of
 
-SWEEP_KEYS = ("vary", "units", "memory_mb", "psi_points", "psi_range", "chunk")
-LENGTH_KEYS = ("center", "width", "sigma", "edge", "thickness", "left", "right", "stack_origin")
-ENERGY_KEYS = ("depth", "height", "band_edge", "omega")
-MAX_AXIS_POINTS = 10_000_000  # one axis; the whole sweep is checked against the memory budget later
-
-
-def _suggest(word, choices) -> str:
-    return did_you_mean(word, choices, cutoff=0.5)
-
-
-def sweep_table(case) -> dict:
-    """The case's [sweep] table, its keys checked."""
-    table = case.data.get("sweep", {})
-    for k in table:
-        if k not in SWEEP_KEYS:
-            raise CaseError(f"unknown key '{k}'{_suggest(k, SWEEP_KEYS)} (allowed: {', '.join(SWEEP_KEYS)})", file=case.path, key=f"sweep.{k}")
-    return table
+SPACINGS = {"log": "log", "lin": "linear", "linear": "linear"}
+#: names that are numbers in an expression, not params
+CONSTANTS = ("pi", "e")
+#: dimensions that are not physical quantities (no units to infer)
+NOT_QUANTITIES = ("text", "count", "table", "array of tables", "true/false", "list")
 
 
-def param_units(case, name: str) -> str:
-    """Units of a param: declared in [sweep] units, else inferred where a key is exactly that param ("" if unknown)."""
-    declared = sweep_table(case).get("units", {})
-    if not isinstance(declared, dict):
-        raise CaseError("must be a table of param = \"unit\"", file=case.path, key="sweep.units")
-    if name in declared:
-        return str(declared[name])
-    u = case.units
-    kinds = {**{k: u.length for k in LENGTH_KEYS}, **{k: u.energy for k in ENERGY_KEYS},
-             "strength": f"{u.energy} {u.length}", "field": f"{u.energy}/{u.length}", "a": f"1/{u.length}", "mass": "m_e"}
-    found = set()
-    for section in ("potential", "layer"):
-        for item in case.data.get(section, []) or []:
-            for k, v in item.items():
-                if isinstance(v, str) and v.strip() == name and k in kinds:
-                    found.add(kinds[k])
-    for k, v in (case.data.get("domain") or {}).items():
-        if isinstance(v, str) and v.strip() == name and k in kinds:
-            found.add(kinds[k])
-    return found.pop() if len(found) == 1 else ""
-
-
-# ----------------------------------------------------------------- axes
 @dataclass(frozen=True)
 class Axis:
-    """One swept param: its name, values (strictly increasing), spec text as given, spacing, units."""
+    """One scanned axis: ``name``, strictly increasing ``values``, the ``text`` as given, ``spacing``
+    ("linear", "log" or "list"), ``units`` (UDUNITS-2, "" if not declared) and ``units_name`` (what a reader
+    calls them), the option ``key`` it came from, its ``long_name``, and whether it is a case ``param``."""
 
     name: str
     values: np.ndarray
     text: str
     spacing: str
     units: str = ""
+    units_name: str = ""
     key: str = "--vary"
+    long_name: str = ""
+    param: bool = True
 
 
+@dataclass(frozen=True)
+class Extra:
+    """An axis that is not a case param (the validity map's ``width``): its units, long name, default spacing."""
+
+    units: str
+    units_name: str
+    long_name: str
+    spacing: str = "linear"
+    positive: bool = False
+
+
+# ------------------------------------------------------------------ units
+def declared_units(case) -> dict[str, str]:
+    """The case's ``[sweep] units`` table, checked: each key a param, each value a UDUNITS-2 unit string."""
+    table = (case.data.get("sweep") or {}).get("units", {})
+    if not isinstance(table, Mapping):
+        raise CaseError('must be a table of param = "unit"', file=case.path, key="sweep.units")
+    for name, unit in table.items():
+        key = f"sweep.units.{name}"
+        if name not in case.params:
+            raise CaseError(f"no param named '{name}' in [params]{did_you_mean(name, case.params, cutoff=0.5)}",
+                            file=case.path, key=key)
+        if not isinstance(unit, str) or not parses_as_udunits(unit):
+            raise CaseError(f"{unit!r} is not a unit UDUNITS-2 understands; write e.g. \"nm\", \"meV\", \"meV nm\", \"1\"",
+                            file=case.path, key=key)
+    return dict(table)
+
+
+def _linear_names(node, out: set) -> None:
+    """Names that enter ``node`` linearly with a number coefficient (they share the expression's dimension)."""
+    if isinstance(node, ast.Name):
+        if node.id not in CONSTANTS:
+            out.add(node.id)
+    elif isinstance(node, ast.UnaryOp) and isinstance(node.op, (ast.UAdd, ast.USub)):
+        _linear_names(node.operand, out)
+    elif isinstance(node, ast.BinOp) and isinstance(node.op, (ast.Add, ast.Sub)):
+        _linear_names(node.left, out)
+        _linear_names(node.right, out)
+    elif isinstance(node, ast.BinOp) and isinstance(node.op, (ast.Mult, ast.Div)):
+        left_number, right_number = _is_number(node.left), _is_number(node.right)
+        if right_number:
+            _linear_names(node.left, out)
+        elif left_number and isinstance(node.op, ast.Mult):
+            _linear_names(node.right, out)
+
+
+def _is_number(node) -> bool:
+    if isinstance(node, ast.Constant):
+        return isinstance(node.value, (int, float)) and not isinstance(node.value, bool)
+    if isinstance(node, ast.Name):
+        return node.id in CONSTANTS
+    if isinstance(node, ast.UnaryOp):
+        return _is_number(node.operand)
+    if isinstance(node, ast.BinOp):
+        return _is_number(node.left) and _is_number(node.right)
+    return False
+
+
+def _uses(case):
+    """(dimension, value) of every value of the case data that has a physical dimension."""
+    data = case.data
+
+    def entries(section, table, kind=None):
+        if not isinstance(table, Mapping):
+            return
+        for key, value in table.items():
+            dim = dimension_of(section, key, kind)
+            if dim is None or dim in NOT_QUANTITIES:
+                continue
+            for v in value if isinstance(value, list) else [value]:
+                yield dim, v
+
+    yield from entries("", {k: v for k, v in data.items() if k in ("mass", "stack_origin")})
+    for item in data.get("potential") or []:
+        if isinstance(item, Mapping):
+            yield from entries("potential", item, item.get("shape"))
+    for item in data.get("layer") or []:
+        yield from entries("layer", item)
+    for section in ("domain", "solve"):
+        yield from entries(section, data.get(section) or {})
+
+
+def inferred_dimension(case, name: str) -> str | None:
+    """The one dimension of the keys ``name`` enters linearly (module docstring), None if none or several."""
+    found = set()
+    for dim, value in _uses(case):
+        if not isinstance(value, str):
+            continue
+        try:
+            tree = ast.parse(value.strip(), mode="eval")
+        except (SyntaxError, ValueError, RecursionError, MemoryError):
+            continue
+        names: set = set()
+        _linear_names(tree.body, names)
+        if name in names:
+            found.add(dim)
+    return found.pop() if len(found) == 1 else None
+
+
+def param_units(case, name: str) -> tuple[str, str]:
+    """(UDUNITS-2 units, plain name) of the param ``name``: declared in [sweep] units, else inferred; ("", "") if unknown."""
+    declared = declared_units(case)
+    if name in declared:
+        return declared[name], declared[name]
+    dim = inferred_dimension(case, name)
+    return units_of(dim, case.units) if dim else ("", "")
+
+
+# ------------------------------------------------------------------ parsing
 def _number(s: str, text: str, key: str) -> float:
     try:
         v = float(s)
@@ -78,71 +173,101 @@ def _number(s: str, text: str, key: str) -> float:
     return v
 
 
-def split_spec(text: str, case, key: str = "--vary") -> tuple[str, str]:
-    """NAME and the rest of NAME=..., the name checked against the case params."""
-    if "=" not in text:
+def split_spec(text, case, key: str = "--vary", extra: Mapping[str, Extra] | None = None) -> tuple[str, str]:
+    """NAME and the rest of NAME=..., the name checked against the case params (and the study's extra axes)."""
+    if not isinstance(text, str) or "=" not in text:
         raise CaseError(f"'{text}' is not NAME=START:STOP:COUNT or NAME=v1,v2,...", key=key)
     name, rest = (s.strip() for s in text.split("=", 1))
-    if name not in case.params:
-        names = ", ".join(case.params) or "none"
-        raise CaseError(f"no param named '{name}' in the case{_suggest(name, case.params)} (params: {names})", file=case.path, key=key)
+    extra = dict(extra or {})
+    if name not in case.params and name not in extra:
+        choices = list(extra) + list(case.params)
+        what = f"neither a param of the case nor {' or '.join(repr(e) for e in extra)}" if extra else "not a param of the case"
+        raise CaseError(f"'{name}' is {what}{did_you_mean(name, choices, cutoff=0.5)} "
+                        f"(choose from: {', '.join(choices) or 'none'})", file=case.path, key=key)
     if not rest:
         raise CaseError(f"'{text}' gives no values: the range is empty", key=key)
     return name, rest
 
 
-def parse_axis(text: str, case, key: str = "--vary") -> Axis:
-    """NAME=START:STOP:COUNT (linear), NAME=START:STOP:COUNT:log (geometric) or NAME=v1,v2,... (a list)."""
-    name, rest = split_spec(text, case, key)
-    units = param_units(case, name)
+def _range(name, parts, text, key, max_count):
+    lo, hi = _number(parts[0], text, key), _number(parts[1], text, key)
+    try:
+        count = int(parts[2])
+    except ValueError:
+        raise CaseError(f"COUNT '{parts[2]}' in '{text}' is not a whole number", key=key) from None
+    if count < 1 or (count > 1 and lo == hi):
+        raise CaseError(f"'{text}' is an empty range (need START < STOP and COUNT >= 2)", key=key)
+    if lo > hi:
+        raise CaseError(f"'{text}' is a reversed range: START {lo:g} is above STOP {hi:g}; "
+                        f"write {name}={parts[1]}:{parts[0]}:{parts[2]}", key=key)
+    if count == 1:
+        raise CaseError(f"'{text}' has COUNT 1; a single value is written {name}={parts[0]}", key=key)
+    if count > max_count:
+        raise CaseError(f"'{text}' asks for {count} values on one axis (at most {max_count} here); use fewer", key=key)
+    return lo, hi, count
+
+
+def parse_axis(text, case, key: str = "--vary", *, extra: Mapping[str, Extra] | None = None,
+               max_count: int = 10_000_000, long_name: str = "swept param {name}") -> Axis:
+    """One axis: NAME=START:STOP:COUNT[:log|:lin] or NAME=v1,v2,... (module docstring)."""
+    name, rest = split_spec(text, case, key, extra)
+    ex = (extra or {}).get(name) if name not in case.params else None
+    units, units_name = (ex.units, ex.units_name) if ex else param_units(case, name)
+    description = ex.long_name if ex else long_name.format(name=name)
+
+    def made(values, spacing) -> Axis:
+        return Axis(name, values, text.strip(), spacing, units, units_name, key, description, ex is None)
+
     if ":" in rest:
-        parts = rest.split(":")
-        log = len(parts) == 4 and parts[3].strip().lower() == "log"
-        if len(parts) not in (3, 4) or (len(parts) == 4 and not log):
+        parts = [p.strip() for p in rest.split(":")]
+        spacing = ex.spacing if ex else "linear"
+        if len(parts) == 4 and parts[3].lower() in SPACINGS:
+            spacing = SPACINGS[parts[3].lower()]
+        elif len(parts) != 3:
             raise CaseError(f"'{text}' should be {name}=START:STOP:COUNT or {name}=START:STOP:COUNT:log", key=key)
-        lo, hi = _number(parts[0], text, key), _number(parts[1], text, key)
-        try:
-            count = int(parts[2])
-        except ValueError:
-            raise CaseError(f"COUNT '{parts[2]}' in '{text}' is not a whole number", key=key) from None
-        if count < 1 or (count > 1 and lo == hi):
-            raise CaseError(f"'{text}' is an empty range (need START < STOP and COUNT >= 2)", key=key)
-        if lo > hi:
-            raise CaseError(f"'{text}' is a reversed range: START {lo:g} is above STOP {hi:g}; write {name}={parts[1]}:{parts[0]}:{parts[2]}", key=key)
-        if count == 1:
-            raise CaseError(f"'{text}' has COUNT 1; a single value is written {name}={parts[0]}", key=key)
-        if count > MAX_AXIS_POINTS:
-            raise CaseError(
-                f"'{text}' asks for {count} values on one axis (at most {MAX_AXIS_POINTS}); "
-                f"a sweep of that size would not fit in memory", key=key)
-        if log and lo <= 0:
-            raise CaseError(f"log spacing needs START > 0 in '{text}'", key=key)
-        values = np.geomspace(lo, hi, count) if log else np.linspace(lo, hi, count)
-        return Axis(name, values, text.strip(), "log" if log else "linear", units, key)
+        lo, hi, count = _range(name, parts, text, key, max_count)
+        if (spacing == "log" or (ex and ex.positive)) and lo <= 0:
+            what = f"'{name}' must be > 0" if ex and ex.positive else "log spacing needs START > 0"
+            raise CaseError(f"{what} in '{text}'", key=key)
+        return made(np.geomspace(lo, hi, count) if spacing == "log" else np.linspace(lo, hi, count), spacing)
     values = np.array([_number(s, text, key) for s in rest.split(",") if s.strip()] or [])
     if values.size == 0:
         raise CaseError(f"'{text}' is an empty list", key=key)
     if np.any(np.diff(values) <= 0):
         raise CaseError(f"the values in '{text}' must increase strictly (no repeats, low to high)", key=key)
-    return Axis(name, values, text.strip(), "list", units, key)
+    if values.size > max_count:
+        raise CaseError(f"'{text}' lists {values.size} values on one axis (at most {max_count} here)", key=key)
+    if ex and ex.positive and values[0] <= 0:
+        raise CaseError(f"'{name}' must be > 0 in '{text}'", key=key)
+    return made(values, "list")
 
 
-def parse_axes(texts, case, key: str = "--vary") -> tuple[Axis, ...]:
-    """All axes; [sweep] vary of the case when ``texts`` is empty."""
-    texts = list(texts or [])
-    if not texts:
-        texts = sweep_table(case).get("vary", [])
-        key = "sweep.vary"
-        if not isinstance(texts, list) or not all(isinstance(t, str) for t in texts):
-            raise CaseError('must be a list of strings like "d=1:5:20"', file=case.path, key=key)
-    if not texts:
-        raise CaseError(f"nothing to sweep: give --vary NAME=START:STOP:COUNT (params: {', '.join(case.params)})", key="--vary")
+def parse_axes(texts, case, key: str = "--vary", *, reserved=(), **kw) -> tuple[Axis, ...]:
+    """Every axis of ``texts``, each name once and none of the ``reserved`` names (the result's own variables)."""
     try:
-        axes = tuple(parse_axis(t, case, key) for t in texts)
+        axes = tuple(parse_axis(t, case, key, **kw) for t in texts)
     except CaseError as err:
         raise err.located(file=case.path) from None
     names = [a.name for a in axes]
     for n in names:
         if names.count(n) > 1:
-            raise CaseError(f"param '{n}' is swept twice; give one --vary per param", key=key)
+            raise CaseError(f"param '{n}' is swept twice; give one {key} per param", key=key)
+        if n in reserved:
+            raise CaseError(f"param '{n}' has the name of a variable or dimension of the result "
+                            f"({', '.join(sorted(reserved))}); rename it in [params] to scan it",
+                            file=case.path, key=key)
     return axes
+
+
+def parse_interval(text, case, key: str = "--vary") -> tuple[str, float, float]:
+    """NAME=LO:HI with LO < HI (a search interval)."""
+    name, rest = split_spec(text, case, key)
+    parts = rest.split(":")
+    if len(parts) != 2:
+        raise CaseError(f"'{text}' should be {name}=LO:HI (the interval to search)", key=key)
+    lo, hi = _number(parts[0], text, key), _number(parts[1], text, key)
+    if lo == hi:
+        raise CaseError(f"'{text}' is an empty interval", key=key)
+    if lo > hi:
+        raise CaseError(f"'{text}' is reversed: LO {lo:g} is above HI {hi:g}; write {name}={parts[1]}:{parts[0]}", key=key)
+    return name, lo, hi

@@ -1,4 +1,4 @@
-"""Parameter sweeps: axes, the solve at one point, and the Dataset of a whole sweep.
+"""Parameter sweeps: the plan, the solve at each point, the arrays of a whole sweep, and the sweep as one call.
 
 A sweep solves ``case.with_params(**fixed, **point)`` at every point of the
 cartesian product of its axes, exactly as a single ``solve`` would, and keeps
@@ -11,7 +11,10 @@ zero-energy phase, :mod:`fdsolver.thresholds`, independent of the box), the
 number the box solve resolved, the continuum threshold and the tunnel
 splitting E1 - E0.  Wavefunctions are interpolated linearly (error O(h^2) of
 the solver's local spacing) onto the common grid, zero outside the solver's
-box.  Energies and lengths in the case units; params in their own units.
+box.  The points run through :func:`fdsolver.scans.runner.run` (chunks,
+executors, checkpoint and resume); the archive is
+:func:`fdsolver.io.datasets.sweep_dataset`.  Energies and lengths in the
+case units; params in their own units.
 """
 
 from __future__ import annotations
@@ -20,23 +23,13 @@ import hashlib
 import itertools
 import json
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
-from fdsolver.scans.axes import (  # noqa: F401  (re-exported: the sweep's public names)
-    ENERGY_KEYS,
-    LENGTH_KEYS,
-    SWEEP_KEYS,
-    Axis,
-    _number,
-    _suggest,
-    param_units,
-    parse_axes,
-    parse_axis,
-    split_spec,
-    sweep_table,
-)
 from fdsolver.errors import CaseError
+from fdsolver.scans.axes import Axis, declared_units, parse_axes
+from fdsolver.scans.runner import base_case
 
 BYTES_PER_STATE = 8 + 8 + 8 + 4 + 1 + 1  # energy, error, binding energy, nodes, converged, parity
 BYTES_PER_POINT = 4 + 4 + 8 + 8 + 8 + 1  # bound, resolved, threshold, splitting (+ error), solved
@@ -56,6 +49,10 @@ class SweepSpec:
     psi_x: np.ndarray | None = None
     chunk: int | None = None
     key: str = field(default="", compare=False)
+
+    what = "sweep"
+    #: most points per chunk by default
+    max_chunk = 200
 
     @property
     def shape(self) -> tuple[int, ...]:
@@ -83,6 +80,12 @@ class SweepSpec:
             "psi_x": None if self.psi_x is None else [float(v) for v in self.psi_x],
         }
 
+    def solve_points(self, base, indices) -> dict:
+        return solve_points(self, base, indices)
+
+    def collector(self) -> "Results":
+        return Results(self, base_case(self).settings.max_states)
+
 
 def estimate_bytes(n_points: int, n_states: int, n_x: int) -> int:
     """Memory of a sweep result: per point and state variables, plus psi (n_x values per state) if kept."""
@@ -95,8 +98,9 @@ def _mb(n: float) -> str:
 
 def plan_sweep(case, axes, fixed=None, save_psi=False, memory_mb=None, chunk=None) -> SweepSpec:
     """Check a sweep before any work: the corner points (up to 256) are valid cases, the result fits the memory budget."""
-    fixed = dict(fixed or {})
-    table = sweep_table(case)
+    fixed = {k: v for k, v in (fixed or {}).items() if k not in {a.name for a in axes}}  # a swept param is not fixed
+    table = case.data.get("sweep") or {}
+    declared_units(case)  # every [sweep] units entry a param and a UDUNITS string
     budget = memory_mb if memory_mb is not None else table.get("memory_mb", 1000.0)
     if isinstance(budget, bool) or not isinstance(budget, (int, float)) or not budget > 0:
         raise CaseError(f"must be a positive number of MB, got {budget!r}", file=case.path, key="sweep.memory_mb")
@@ -118,7 +122,7 @@ def plan_sweep(case, axes, fixed=None, save_psi=False, memory_mb=None, chunk=Non
     corners = itertools.product(*[(a.values[0], a.values[-1]) for a in axes])
     spans = []
     for point in (dict(zip([a.name for a in axes], c)) for c in itertools.islice(corners, 256)):
-        c = case.with_params(**fixed, **{k: float(v) for k, v in point.items()})
+        c = case.with_params(**{**fixed, **{k: float(v) for k, v in point.items()}})
         spans.append(c.potential.support())
     psi_x = None
     if save_psi:
@@ -139,41 +143,22 @@ def plan_sweep(case, axes, fixed=None, save_psi=False, memory_mb=None, chunk=Non
 
 
 # --------------------------------------------------------------- points
-_BASE: dict[str, object] = {}
-
-
-def base_case(spec: SweepSpec):
-    """The case of ``spec`` (built once per process)."""
-    case = _BASE.get(spec.key)
-    if case is None:
-        from fdsolver.input.case import case_from_text
-
-        case = case_from_text(spec.case_text, path=spec.case_path, tables=spec.tables)
-        _BASE.clear()
-        _BASE[spec.key] = case
-    return case
-
-
-def run_chunk(job) -> dict:
-    """Solve the points ``indices`` of ``spec``; returns compact arrays (one row per state found)."""
-    spec, indices = job
-    from fdsolver.scans import thresholds
+def solve_points(spec: SweepSpec, base, indices) -> dict:
+    """Solve the points ``indices`` of ``spec`` (``base``: its case); compact arrays, one row per state found."""
     from fdsolver.api import solve_case
-    from fdsolver.parallel.executors import blas_threads
+    from fdsolver.scans import thresholds
 
-    blas_threads(1)  # same bits in every process (see executors.blas_threads)
-
-    base = base_case(spec)
     n = len(indices)
-    out = {"index": np.asarray(indices, dtype=np.int64), "solved": np.zeros(n, np.int8), "bound": np.full(n, -1, np.int32),
+    psi_x = spec.psi_x if spec.save_psi and spec.psi_x is not None else np.zeros(0)
+    out: dict[str, Any] = {"index": np.asarray(indices, dtype=np.int64), "solved": np.zeros(n, np.int8), "bound": np.full(n, -1, np.int32),
            "resolved": np.zeros(n, np.int32), "vt": np.full(n, np.nan), "count": np.zeros(n, np.int32)}
-    rows = {k: [] for k in ("label", "energy", "error", "converged", "parity", "psi")}
+    rows: dict[str, list] = {k: [] for k in ("label", "energy", "error", "converged", "parity", "psi")}
     messages = []
     for j, flat in enumerate(indices):
         point = spec.point(flat)
         where = ", ".join(f"{k} = {v:.10g}" for k, v in point.items())
         try:
-            case = base.with_params(**spec.fixed, **point)
+            case = base.with_params(**{**spec.fixed, **point})
             sol = solve_case(case)
         except CaseError as err:
             messages.append([int(flat), f"at {where}: {err}"])
@@ -192,7 +177,7 @@ def run_chunk(job) -> dict:
         rows["converged"].append(sol.converged.astype(np.int8))
         rows["parity"].append(sol.parity.astype(np.int8))
         if spec.save_psi:
-            rows["psi"].append(np.array([np.interp(spec.psi_x, sol.x, p, left=0.0, right=0.0) for p in sol.psi]).reshape(-1, spec.psi_x.size))
+            rows["psi"].append(np.array([np.interp(psi_x, sol.x, p, left=0.0, right=0.0) for p in sol.psi]).reshape(-1, psi_x.size))
         messages.extend([int(flat), f"at {where}: {m}"] for m in sol.messages)
     empty = {"label": np.int32, "converged": np.int8, "parity": np.int8}
     for k, parts in rows.items():
@@ -201,7 +186,7 @@ def run_chunk(job) -> dict:
         if parts:
             out[k] = np.concatenate(parts)
         else:
-            out[k] = np.zeros((0, spec.psi_x.size) if k == "psi" else 0, dtype=empty.get(k, np.float64))
+            out[k] = np.zeros((0, psi_x.size) if k == "psi" else 0, dtype=empty.get(k, np.float64))
     out["messages"] = messages
     return out
 
@@ -217,17 +202,13 @@ class Results:
         self.error = np.full((n, s), np.nan)
         self.converged = np.full((n, s), -1, np.int8)
         self.parity = np.zeros((n, s), np.int8)
-        self.psi = np.full((n, s, spec.psi_x.size), np.nan) if spec.save_psi else None
+        self.psi = np.full((n, s, spec.psi_x.size), np.nan) if spec.save_psi and spec.psi_x is not None else None
         self.solved = np.zeros(n, np.int8)
         self.bound = np.full(n, -1, np.int32)
         self.resolved = np.zeros(n, np.int32)
         self.vt = np.full(n, np.nan)
         self.done = np.zeros(n, bool)
         self.messages: dict[int, list[str]] = {}
-
-    @property
-    def n_done(self) -> int:
-        return int(np.count_nonzero(self.done))
 
     def _grow(self, need: int) -> None:
         extra = need - self.energy.shape[1]
@@ -262,70 +243,43 @@ class Results:
             self.messages.setdefault(int(flat), []).append(str(msg))
         return int(idx.size)
 
-    def dataset(self, case, action: str, history: str | None = None, found=()):
-        """The archive Dataset (kind "sweep"); ``found`` are located thresholds of a one-param sweep."""
-        import xarray as xr
+    def notes(self) -> list[str]:
+        """Every message, in point order."""
+        return [m for k in sorted(self.messages) for m in self.messages[k]]
 
-        from fdsolver.io.archive import base_attrs, energy_attrs, length_attrs
+    def arrays(self) -> dict:
+        """The values of the sweep archive's variables (:data:`fdsolver.io.specs.SWEEP`), on the grid of the axes.
 
-        spec, u = self.spec, case.units
+        States are the node counts 0 .. the highest found; binding energy = continuum threshold - energy;
+        the tunnel splitting E1 - E0 (error: the sum of both errors) where there are two labels.
+        """
+        spec = self.spec
         labels = np.flatnonzero(np.any(np.isfinite(self.energy), axis=0))
         s = int(labels[-1]) + 1 if labels.size else 0
-        shape, dims = spec.shape, tuple(a.name for a in spec.axes)
-        sdims = dims + ("state",)
-        r = lambda a: a[:, :s].reshape(shape + (s,))  # noqa: E731
-        energy = r(self.energy)
-        exists = np.isfinite(energy)
+        shape = spec.shape
+        grid = lambda a: a[:, :s].reshape(shape + (s,))  # noqa: E731
+        energy, error = grid(self.energy), grid(self.error)
         vt = self.vt.reshape(shape)
-        ea = lambda name: energy_attrs(u, name)  # noqa: E731
-        coords = {a.name: (a.name, a.values, {"long_name": f"swept param {a.name}", "spacing": a.spacing, "units": a.units or "1",
-                                              **({} if a.units else {"units_note": "units not declared; add [sweep] units to the case"})})
-                  for a in spec.axes}
-        coords["state"] = ("state", np.arange(s, dtype=np.int32), {"long_name": "bound state labelled by its number of nodes", "units": "1"})
-        data = {
-            "energy": (sdims, energy, ea("bound-state energy (Richardson-extrapolated); NaN where the state does not exist")),
-            "energy_error": (sdims, r(self.error), ea("estimated absolute error of energy")),
-            "binding_energy": (sdims, vt[..., None] - energy, ea("continuum threshold minus energy")),
-            "converged": (sdims, r(self.converged), {"long_name": "1 if energy_error is below the tolerance", "units": "1",
-                                                     "flag_values": np.array([-1, 0, 1], np.int8), "flag_meanings": "no_such_state not_converged converged"}),
-            "nodes": (sdims, np.where(exists, np.arange(s, dtype=np.int32), -1).astype(np.int32),
-                      {"long_name": "number of nodes of the wavefunction (-1: no such state)", "units": "1"}),
-            "parity": (sdims, r(self.parity), {"long_name": "mirror parity (+1 even, -1 odd, 0 no mirror symmetry or no state)", "units": "1"}),
-            "bound_states": (dims, self.bound.reshape(shape), {"long_name": "number of bound states on the whole open line (zero-energy phase count, no box); -1 where every state is bound", "units": "1"}),
-            "resolved_states": (dims, self.resolved.reshape(shape), {"long_name": "number of states the box solve returned", "units": "1"}),
-            "continuum_threshold": (dims, vt, ea("continuum threshold (lower asymptote of V)")),
-            "solved": (dims, self.solved.reshape(shape), {"long_name": "1 if the point was solved, 0 if its case was invalid", "units": "1"}),
+        out = {
+            "state": np.arange(s),
+            "energy": energy,
+            "energy_error": error,
+            "binding_energy": vt[..., None] - energy,
+            "converged": grid(self.converged),
+            "nodes": np.where(np.isfinite(energy), np.arange(s), -1),
+            "parity": grid(self.parity),
+            "bound_states": self.bound.reshape(shape),
+            "resolved_states": self.resolved.reshape(shape),
+            "continuum_threshold": vt,
+            "solved": self.solved.reshape(shape),
         }
         if s >= 2:
-            data["tunnel_splitting"] = (dims, energy[..., 1] - energy[..., 0], ea("tunnel splitting E1 - E0 where both states exist"))
-            data["tunnel_splitting_error"] = (dims, r(self.error)[..., 1] + r(self.error)[..., 0], ea("error bound of the tunnel splitting"))
+            out["tunnel_splitting"] = energy[..., 1] - energy[..., 0]
+            out["tunnel_splitting_error"] = error[..., 1] + error[..., 0]
         if self.psi is not None:
-            coords["x"] = ("x", spec.psi_x, length_attrs(u, "position (common grid of the stored wavefunctions)"))
-            data["psi"] = (sdims + ("x",), self.psi[:, :s].reshape(shape + (s, spec.psi_x.size)),
-                           {"long_name": "normalised wavefunction times sqrt(length unit), linearly interpolated", "units": "1",
-                            "units_note": f"psi in {u.length}^-1/2; zero outside the solver's box; NaN where the state does not exist"})
-        if found:
-            punits = spec.axes[0].units or "1"
-            data["threshold_value"] = ("threshold", np.array([t.value for t in found]), {"long_name": f"value of {spec.axes[0].name} where the state appears", "units": punits})
-            data["threshold_uncertainty"] = ("threshold", np.array([t.uncertainty for t in found]), {"long_name": "uncertainty of threshold_value", "units": punits})
-            data["threshold_state"] = ("threshold", np.array([t.state for t in found], np.int32), {"long_name": "node count of the state that appears", "units": "1"})
-            data["threshold_direction"] = ("threshold", np.array([t.direction for t in found], np.int8), {"long_name": "+1 binds as the param increases, -1 as it decreases", "units": "1"})
-        attrs = base_attrs(case, "sweep", action)
-        if history:
-            attrs["history"] = history
-        notes = [m for k in sorted(self.messages) for m in self.messages[k]]
-        attrs.update({
-            "swept_params": json.dumps([a.name for a in spec.axes]),
-            "axes": json.dumps([a.text for a in spec.axes]),
-            "fixed_params": json.dumps(spec.fixed, sort_keys=True),
-            "points": int(spec.n_points),
-            "failed_points": int(np.count_nonzero(self.solved == 0)),
-            "state_labels": "states are labelled by their number of nodes",
-            "tolerance": float(case.settings.tolerance),
-            "notes_count": len(notes),
-            "notes": "\n".join(notes[:20] + ([f"... and {len(notes) - 20} more"] if len(notes) > 20 else [])),
-        })
-        return xr.Dataset(data_vars=data, coords=coords, attrs=attrs)
+            out["x"] = spec.psi_x
+            out["psi"] = self.psi[:, :s].reshape(shape + (s, self.psi.shape[2]))
+        return out
 
 
 def locate_along(spec: SweepSpec, bound: np.ndarray, rtol: float = 1e-9) -> list:
@@ -335,12 +289,50 @@ def locate_along(spec: SweepSpec, bound: np.ndarray, rtol: float = 1e-9) -> list
     if len(spec.axes) != 1:
         return []
     axis, base = spec.axes[0], base_case(spec)
-    found = []
+    found: list = []
     for i in np.flatnonzero((bound[:-1] >= 0) & (bound[1:] >= 0) & (bound[:-1] != bound[1:])):
         a, b = float(axis.values[i]), float(axis.values[i + 1])
         try:
-            res = thresholds.find_thresholds(base, axis.name, a, b, fixed=spec.fixed, scan=3, rtol=rtol, units=axis.units)
+            res = thresholds.find_thresholds(base, axis.name, a, b, fixed=spec.fixed, scan=3, rtol=rtol, units=axis.units_name)
         except CaseError:  # a point the zero-energy march cannot take; the sweep's own values stand
             continue
         found.extend(res.thresholds)
     return sorted(found, key=lambda t: (t.value, t.state))
+
+
+# ----------------------------------------------------------------- the run
+def sweep_axes(texts, case) -> tuple[Axis, ...]:
+    """The axes of a sweep: ``texts`` (``--vary``), else the case's ``[sweep] vary`` list; no param may take the name
+    of a variable or dimension of the sweep archive."""
+    from fdsolver.io.specs import KINDS
+
+    texts, key = list(texts or []), "--vary"
+    if not texts:
+        texts, key = (case.data.get("sweep") or {}).get("vary", []), "sweep.vary"
+        if not isinstance(texts, list) or not all(isinstance(t, str) for t in texts):
+            raise CaseError('must be a list of strings like "d=1:5:20"', file=case.path, key=key)
+    if not texts:
+        raise CaseError(f"nothing to sweep: give --vary NAME=START:STOP:COUNT (params: {', '.join(case.params)})", key="--vary")
+    return parse_axes(texts, case, key, reserved=KINDS["sweep"].names())
+
+
+def run_sweep(spec: SweepSpec, executor, *, output=None, resume=False, restart=False, action=None, progress=None,
+              locate=True):
+    """Run ``spec`` on ``executor`` (checkpointed beside ``output``, written there at the end); the sweep Dataset.
+
+    ``locate``: refine the binding thresholds between neighbouring points of a
+    one-param sweep.  See :func:`fdsolver.scans.runner.run` for ``output``,
+    ``resume``, ``restart`` and ``progress``.
+    """
+    from fdsolver.io.datasets import sweep_dataset
+    from fdsolver.scans.runner import run
+
+    base = base_case(spec)
+    case = base.with_params(**spec.fixed) if spec.fixed else base
+    action = action or f"fdsolver sweep {spec.case_path or case.title} " + " ".join(f"--vary {a.text}" for a in spec.axes)
+
+    def finish(results: Results, history: str):
+        found = locate_along(spec, results.bound) if locate else []
+        return sweep_dataset(case, spec, results, history, found)
+
+    return run(spec, executor, finish, action=action, output=output, resume=resume, restart=restart, progress=progress)

@@ -2,13 +2,11 @@
 
 The counting and the root finding are :mod:`fdsolver.boundstates.counting`
 (the zero-energy Pruefer phase, carried by the one march); this module makes a
-family of potentials out of a case and a param, and builds the archive of a
-search.  Params in the case's own units.
+family of potentials out of a case and a param; the archive of a search is
+:func:`fdsolver.io.datasets.threshold_dataset`.  Params in the case's own units.
 """
 
 from __future__ import annotations
-
-import numpy as np
 
 from fdsolver.boundstates import counting
 from fdsolver.boundstates.counting import Search, Threshold  # noqa: F401  (the result types of a search)
@@ -48,28 +46,3 @@ def find_thresholds(case, name: str, lo: float, hi: float, *, fixed=None, state:
         return counting.find_thresholds(family, name, lo, hi, state=state, scan=scan, rtol=rtol, units=units)
     except CaseError as err:
         raise err.located(file=case.path) from None
-
-
-def search_dataset(case, search: Search, action: str):
-    """Archive (kind "threshold") of a search: the thresholds found and the scan of Phi behind them."""
-    import xarray as xr
-
-    from fdsolver.io.archive import base_attrs
-
-    pu = search.units or "1"
-    t = search.thresholds
-    counts = np.array([counting.count_from_margin(f) for f in search.scan_margin], dtype=np.int32)
-    data = {
-        "phase_margin": ("scan", search.scan_margin, {"long_name": "zero-energy phase margin Phi (state N is bound where Phi > N)", "units": "1"}),
-        "bound_states": ("scan", counts, {"long_name": "number of bound states on the whole open line", "units": "1"}),
-        "threshold_value": ("threshold", np.array([x.value for x in t]), {"long_name": f"value of {search.param} where the state appears", "units": pu}),
-        "threshold_uncertainty": ("threshold", np.array([x.uncertainty for x in t]), {"long_name": "uncertainty of threshold_value", "units": pu}),
-        "threshold_state": ("threshold", np.array([x.state for x in t], np.int32), {"long_name": "node count of the state that appears", "units": "1"}),
-        "threshold_direction": ("threshold", np.array([x.direction for x in t], np.int8), {"long_name": "+1 binds as the param increases, -1 as it decreases", "units": "1"}),
-    }
-    coords = {"scan": ("scan", search.scan_values, {"long_name": f"scanned values of {search.param}", "units": pu})}
-    attrs = base_attrs(case, "threshold", action)
-    attrs.update({"swept_params": f'["{search.param}"]', "interval": [search.lo, search.hi],
-                  "bound_states_at_lo": search.count_lo, "bound_states_at_hi": search.count_hi, "notes": "\n".join(search.notes),
-                  "method": "Pruefer phase of the zero-energy solution (node count, no box); Brent root of Phi - N"})
-    return xr.Dataset(data_vars=data, coords=coords, attrs=attrs)

@@ -24,7 +24,8 @@ from :func:`fdsolver.pointmodel.point_spectrum`.  States are matched by node cou
 (E_finite - E_point) / |E_point| (dimensionless, > 0 when the finite wells bind
 less).  :func:`run_ladder` walks a ladder of widths and fits the leading-order
 law, the validity width and the critical separations; the two-parameter map
-is :mod:`fdsolver.deltamap`.  Energies and lengths are in the case units.
+is :mod:`fdsolver.scans.maps`, the archive :func:`fdsolver.io.datasets.ladder_dataset`.  Energies and
+lengths are in the case units.
 """
 
 from __future__ import annotations
@@ -44,7 +45,6 @@ from fdsolver.zerorange.models import (  # noqa: F401  (public names of the stud
     check_separated,
     from_finite,
     point_terms,
-    read_options,
     replacement,
 )
 from fdsolver.zerorange.narrow import zero_energy_count
@@ -290,68 +290,3 @@ def _critical(case, lad: Ladder, spec) -> None:
         for i, model in enumerate(lad.models):
             s = critical_scale(lambda f, wells=model.wells: scaled(wells, f, centre), n, guess, m, c)
             lad.critical[i, n] = s * spacing
-
-
-# ------------------------------------------------------------------ archive
-def _inverse_length(u) -> dict:
-    unit = u.length_udunits
-    return {"units": f"1/({unit})" if " " in unit else f"1/{unit}", "units_name": f"1/{u.length}"}
-
-
-def _flags(meanings) -> dict:
-    return {"flag_values": np.arange(len(meanings), dtype=np.int8), "flag_meanings": " ".join(meanings), "units": "1"}
-
-
-def ladder_dataset(case, lad: Ladder, action: str):
-    """The archive Dataset of a ladder (coordinates width, state, well; see README for the variables)."""
-    import xarray as xr
-
-    from fdsolver.io.archive import base_attrs, energy_attrs, length_attrs
-
-    u = case.units
-    la = lambda name: length_attrs(u, name)  # noqa: E731
-    ea = lambda name: energy_attrs(u, name)  # noqa: E731
-    one = lambda name: {"units": "1", "long_name": name}  # noqa: E731
-    ws, st = ("width", "state"), ("state",)
-    n_s = lad.n_states
-    lim = np.full(n_s, np.nan)
-    lim[: lad.energy_limit.size] = lad.energy_limit
-    exists_lim = (np.arange(n_s) < lad.energy_limit.size).astype(np.int8)
-    m0 = lad.models[0]
-    width_name = "width parameter of the wells (square/smooth_square/sech2: width, gaussian: sigma)"
-    data = {
-        "energy": (ws, lad.table("energy"), ea("bound-state energy of the finite-width wells")),
-        "energy_error": (ws, lad.table("energy_error"), ea("estimated absolute error of energy")),
-        "resolved": (ws, lad.table("resolved").astype(np.int8),
-                     {**_flags(("not_resolved", "resolved")), "long_name": "1 if energy_error <= |energy - energy_limit| / 10"}),
-        "exists": (ws, lad.table("exists").astype(np.int8),
-                   {**_flags(("absent", "bound")), "long_name": "1 if the finite-width wells bind this state (zero-energy count)"}),
-        "energy_limit": (st, lim, ea("bound-state energy of the zero-range point model")),
-        "exists_limit": (st, exists_lim, {**_flags(("absent", "bound")), "long_name": "1 if the point model binds this state"}),
-        "deviation": (ws, lad.table("deviation"), one("relative deviation (energy - energy_limit) / |energy_limit|")),
-        "predicted_deviation": (ws, lad.table("predicted"), one("first-order predicted relative deviation")),
-        "solve_tolerance": (("width",), np.array([r.tolerance for r in lad.results]), one("relative tolerance of the finite-width solve")),
-        "law_coefficient": (st, lad.law_coefficient, {**_inverse_length(u), "long_name": "fitted a in deviation = a * width"}),
-        "law_exponent": (st, lad.law_exponent, one("fitted log-log slope of |deviation| against width")),
-        "predicted_coefficient": (st, lad.predicted_coefficient, {**_inverse_length(u), "long_name": "first-order a in deviation = a * width"}),
-        "validity_width": (st, lad.validity, la("largest width with |deviation| below the tolerance")),
-        "validity_flag": (st, lad.validity_flag, {**_flags(VALIDITY_FLAGS), "long_name": "how validity_width was found"}),
-        "binding_width": (st, lad.binding_width, la("width at which the finite-width wells bind or unbind the state")),
-        "critical_separation": (ws, lad.critical, la("nearest-neighbour separation above which the finite-width wells bind the state")),
-        "critical_separation_limit": (st, lad.critical_limit, la("nearest-neighbour separation above which the point model binds the state")),
-        "well_name": (("well",), np.array(m0.names, dtype=object), {"long_name": "name of the well or point"}),
-        "well_center": (("well",), m0.positions, la("centroid of each well (position of the point)")),
-        "well_strength": (("well",), m0.strengths, {"units": f"{u.energy_udunits} {u.length_udunits}", "units_name": f"{u.energy} {u.length}",
-                                                    "long_name": "integrated strength int |V| dx of each well"}),
-        "well_mean_distance": (("well",), m0.lengths, la("mean distance |x - x'| over the well profile (first model)")),
-    }
-    coords = {
-        "width": ("width", lad.widths, la(width_name)),
-        "state": ("state", np.arange(n_s, dtype=np.int32), {"long_name": "bound state index = node count (0 = ground state)", "units": "1"}),
-        "well": ("well", np.arange(m0.positions.size, dtype=np.int32), {"long_name": "well index, left to right", "units": "1"}),
-    }
-    attrs = base_attrs(case, "delta_check", action)
-    attrs.update({"delta_mode": lad.mode, "replacement_shape": lad.shape if lad.mode == "replace" else "",
-                  "tolerance": float(lad.tolerance), "messages": "\n".join(lad.notes),
-                  "well_shapes": ", ".join(w.kind for w in m0.wells)})
-    return xr.Dataset(data, coords=coords, attrs=attrs)

@@ -1,6 +1,7 @@
-"""Zero-range check, part 1: options of a study and the two models (point interactions, finite wells).
+"""Zero-range check, part 1: the options of a study and the two models (point interactions, finite wells).
 
-See :mod:`fdsolver.deltacheck` for the study as a whole.  Lengths and energies in the case units.
+The options are read from a case and the command line by :func:`fdsolver.scans.options.read_options`.  See
+:mod:`fdsolver.zerorange.ladder` for the study as a whole.  Lengths and energies in the case units.
 """
 
 from __future__ import annotations
@@ -11,10 +12,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from fdsolver.model import shapes as S
-from fdsolver.errors import CaseError, did_you_mean
+from fdsolver.errors import CaseError
 from fdsolver.zerorange.narrow import WELL_SHAPES, mean_distance, width_of
 
-TABLE_KEYS = ("shape", "widths", "tolerance", "map", "from_finite")
 SHAPE_NAMES = tuple(S.FINITE_REPLACEMENTS)
 #: full width at half maximum of each replacement, in units of its width parameter
 FWHM = {"square": 1.0, "smooth_square": 1.0, "gaussian": 2.0 * math.sqrt(2.0 * math.log(2.0)),
@@ -27,7 +27,8 @@ EPS = float(np.finfo(float).eps)
 # ------------------------------------------------------------------ options
 @dataclass(frozen=True)
 class Options:
-    """What to compare: replacement ``shape``, ``widths`` (lo, hi, n) or None (automatic), ``tolerance``."""
+    """What to compare: replacement ``shape``, ``widths`` (lo, hi, n) or None (automatic), ``tolerance``,
+    ``from_finite``, the validity-map axes ``maps`` (texts), and where the widths came from."""
 
     shape: str = "square"
     widths: tuple | None = None
@@ -35,62 +36,6 @@ class Options:
     from_finite: bool = False
     maps: tuple[str, ...] = ()
     widths_key: tuple = (None, "--widths")  # (file, key) the widths came from, for messages
-
-
-def parse_widths(text, key: str, file=None) -> tuple[float, float, int]:
-    """'LO:HI:N' (N geometric widths) or a single width 'W' -> (lo, hi, n)."""
-    if isinstance(text, (int, float)) and not isinstance(text, bool):
-        text = repr(float(text))
-    if not isinstance(text, str):
-        raise CaseError(f"must be 'LO:HI:N' or a single width, got {text!r}", file=file, key=key)
-    parts = [p.strip() for p in text.split(":")]
-    try:
-        if len(parts) == 1:
-            lo = hi = float(parts[0])
-            n = 1
-        elif len(parts) == 3:
-            lo, hi, n = float(parts[0]), float(parts[1]), int(parts[2])
-        else:
-            raise ValueError
-    except ValueError:
-        raise CaseError(f"'{text}' is not LO:HI:N (two widths and a count) or a single width", file=file, key=key) from None
-    if not (math.isfinite(lo) and math.isfinite(hi) and lo > 0 and hi > 0):
-        raise CaseError(f"widths must be finite and > 0, got '{text}'", file=file, key=key)
-    if n > 1 and not lo < hi:
-        raise CaseError(f"LO must be below HI in '{text}'", file=file, key=key)
-    if not 1 <= n <= 400:
-        raise CaseError(f"the count must be from 1 to 400 (or 2 to 400 for a range), got {n}", file=file, key=key)
-    if n == 1 and lo != hi:
-        raise CaseError(f"a range needs at least 2 widths, got '{text}'", file=file, key=key)
-    return lo, hi, n
-
-
-def read_options(case, *, shape=None, widths=None, tolerance=None, from_finite=None, maps=None) -> Options:
-    """Options from the case's [delta_check] table, overridden by the given (command-line) values."""
-    table = case.data.get("delta_check", {}) or {}
-    f = case.path
-    for k in table:
-        if k not in TABLE_KEYS:
-            raise CaseError(f"unknown key '{k}'{did_you_mean(k, TABLE_KEYS)} (allowed: {', '.join(TABLE_KEYS)})", file=f, key=f"delta_check.{k}")
-    src = lambda k, v: (v, None, "--" + k.replace("_", "-")) if v is not None else (table.get(k), f, f"delta_check.{k}")  # noqa: E731
-    sh, sf, sk = src("shape", shape)
-    sh = "square" if sh is None else sh
-    if sh not in SHAPE_NAMES:
-        raise CaseError(f"'{sh}' is not a replacement shape; use one of {', '.join(SHAPE_NAMES)}", file=sf, key=sk)
-    wv, wf, wk = src("widths", widths)
-    ws = parse_widths(wv, wk, wf) if wv is not None else None
-    tv, tf, tk = src("tolerance", tolerance)
-    tv = 1e-2 if tv is None else tv
-    if isinstance(tv, bool) or not isinstance(tv, (int, float)) or not (math.isfinite(tv) and 1e-9 <= tv <= 0.5):
-        raise CaseError(f"must be a relative deviation from 1e-9 to 0.5, got {tv!r}", file=tf, key=tk)
-    ff, ffile, fk = src("from_finite", from_finite)
-    if ff is not None and not isinstance(ff, bool):
-        raise CaseError(f"must be true or false, got {ff!r}", file=ffile, key=fk)
-    mv, mf, mk = src("map", list(maps) if maps else None)
-    mv = [] if mv is None else mv
-    if not isinstance(mv, list) or not all(isinstance(m, str) for m in mv):
-        raise CaseError('must be a list of "NAME=LO:HI:N" strings', file=mf, key=mk)
-    return Options(sh, ws, float(tv), bool(ff), tuple(mv), (wf, wk))
 
 
 # ------------------------------------------------------------------- models

@@ -1,0 +1,212 @@
+"""One runner for every scan over points (sweeps, validity maps): chunked, parallel, checkpointed, resumable.
+
+A scan (a :class:`Scan`) is plain data that can be sent to other processes:
+its case (text, path, table files), its points numbered 0 .. n_points - 1,
+and ``solve_points(base, indices)``, which does the work of some points and
+returns one record (a dict of numpy arrays and JSON values).  Its
+``collector()`` gathers records in any order (``add(record)`` returns the
+number of points it held; ``done`` marks the points done).
+
+:func:`run` cuts the points still to do into chunks of consecutive points
+(``scan.chunk``, or up to ``scan.max_chunk`` and 1/8 of the points per
+worker), sends them through an executor (:mod:`fdsolver.parallel.executors`),
+appends each finished record to the checkpoint beside ``output``
+(:mod:`fdsolver.parallel.checkpoint`), and at the end builds the Dataset
+with ``finish(collector, history)``, writes it atomically and removes the
+checkpoint.  Records are stored by point index, so the result does not
+depend on the executor or on the order records arrive, and a resumed run
+writes the same file as an uninterrupted one (the history line is that of
+the run that started the checkpoint).
+
+The case of a scan is rebuilt from its text once per process
+(:func:`base_case`); :func:`warm_up` is the initializer the scans give their
+executors (it loads the compiled kernels once per worker).
+"""
+
+from __future__ import annotations
+
+import json
+from typing import Any, Callable, Protocol
+
+import numpy as np
+
+from fdsolver.errors import CaseError
+
+#: default number of points per chunk is at most this many, and at most 1/CHUNKS_PER_WORKER of the points per worker
+CHUNKS_PER_WORKER = 8
+
+
+class Collector(Protocol):
+    done: np.ndarray
+
+    def add(self, record: dict) -> int: ...
+
+
+class Scan(Protocol):
+    """What :func:`run` needs of a scan (see the module docstring)."""
+
+    @property
+    def case_text(self) -> str: ...
+
+    @property
+    def case_path(self) -> str | None: ...
+
+    @property
+    def tables(self) -> dict: ...
+
+    @property
+    def chunk(self) -> int | None: ...
+
+    @property
+    def what(self) -> str:
+        """"sweep" or "validity map": the scan in messages."""
+
+    @property
+    def max_chunk(self) -> int:
+        """Most points per chunk by default."""
+
+    @property
+    def n_points(self) -> int: ...
+
+    @property
+    def key(self) -> str: ...
+
+    def identity(self) -> dict: ...
+
+    def solve_points(self, base, indices: np.ndarray) -> dict: ...
+
+    def collector(self) -> Collector: ...
+
+
+# ------------------------------------------------------------ in every process
+_BASE: dict = {}
+
+
+def base_case(scan: Scan):
+    """The case of ``scan``, built from its text once per process (the last one is kept)."""
+    key = (scan.case_text, scan.case_path, json.dumps(scan.tables, sort_keys=True))
+    case = _BASE.get(key)
+    if case is None:
+        from fdsolver.input.case import case_from_text
+
+        case = case_from_text(scan.case_text, path=scan.case_path, tables=scan.tables)
+        _BASE.clear()
+        _BASE[key] = case
+    return case
+
+
+def solve_chunk(job) -> dict:
+    """The work of one chunk: ``job`` = (scan, indices)."""
+    scan, indices = job
+    return scan.solve_points(base_case(scan), indices)
+
+
+def warm_up() -> None:
+    """Initializer of worker processes: load the compiled kernels (numba cache) with one tiny solve."""
+    from fdsolver.api import solve_case
+    from fdsolver.input.case import case_from_dict
+
+    solve_case(case_from_dict({"potential": [{"shape": "square", "center": 0.0, "width": 1.0, "depth": 4.0}],
+                               "solve": {"tolerance": 1e-4}}))
+
+
+def executor_for(executor=None, workers: int | None = None, cluster: str | None = None, scheduler: str | None = None):
+    """An executor (an instance is returned as it is; a name "serial"/"processes"/"dask" or None is made),
+    with :func:`warm_up` as its initializer."""
+    if executor is not None and not isinstance(executor, str):
+        return executor
+    from fdsolver.parallel.executors import make_executor
+
+    return make_executor(executor, workers, cluster, scheduler, initializer=warm_up)
+
+
+def where(executor) -> str:
+    """Where an executor runs its jobs, in words."""
+    if executor.name == "serial":
+        return "in this process"
+    if executor.name == "processes":
+        return f"on {executor.workers} local worker processes"
+    text = f"on {executor.workers} Dask workers"
+    return text + (f" (dashboard: {executor.dashboard})" if getattr(executor, "dashboard", None) else "")
+
+
+# ------------------------------------------------------------ the run
+def _chunks(todo: np.ndarray, size: int):
+    """Contiguous runs of the indices still to do, cut to ``size``."""
+    if todo.size == 0:
+        return
+    breaks = np.flatnonzero(np.diff(todo) != 1) + 1
+    for part in np.split(todo, breaks):
+        for i in range(0, part.size, size):
+            yield part[i: i + size]
+
+
+def _open_checkpoint(scan: Scan, collector: Collector, output, resume: bool, restart: bool, history: str):
+    from fdsolver.parallel.checkpoint import Checkpoint, path_for
+
+    path = path_for(output)
+    if path.exists() and restart:
+        Checkpoint.read_header(path)  # only ever delete our own files
+        path.unlink()
+    if path.exists() and not resume:
+        done = Checkpoint.count_points(path) if path.stat().st_size else 0
+        raise CaseError(f"a checkpoint of an unfinished {scan.what} is here ({done} of its points done); add --resume "
+                        "to continue it or --restart to discard it", file=str(path))
+    if path.exists():
+        return Checkpoint.resume(path, scan.identity(), scan.key, collector.add, scan.what)
+    return Checkpoint.create(path, scan.identity(), scan.key, history)
+
+
+def run(scan: Scan, executor, finish: Callable[[Any, str], Any], *, action: str, output=None, resume: bool = False,
+        restart: bool = False, progress=None):
+    """Run ``scan`` on ``executor``; ``finish(collector, history)`` builds the Dataset, written to ``output``.
+
+    With ``output`` the finished chunks go to ``OUTPUT.checkpoint``: a
+    checkpoint left by an unfinished run is refused unless ``resume`` (go on)
+    or ``restart`` (discard it) is given; a checkpoint of a different scan is
+    refused naming the first difference.  ``progress`` is called with the
+    number of points each finished chunk (or the resumed checkpoint) adds; if
+    it has a ``start(total, text)`` method, that is called first with the
+    number of points and one line saying what runs where.  Returns the Dataset.
+    """
+    from fdsolver.io.archive import stamp, write_dataset
+    from fdsolver.parallel.checkpoint import path_for
+
+    collector = scan.collector()
+    history = stamp(action)
+    ck, lines = None, []
+    if output is not None:
+        if resume and not path_for(output).exists():
+            lines.append(f"note: no checkpoint at {path_for(output)}; starting from the beginning")
+        ck = _open_checkpoint(scan, collector, output, resume, restart, history)
+        history = ck.header["history"]
+    try:
+        start = getattr(progress, "start", None)
+        if start is not None:
+            verb = "sweeping" if scan.what == "sweep" else "mapping"
+            text = f"{verb} {scan.n_points} points {where(executor)}"
+            lines.append(text + (f"; checkpoint {path_for(output)}" if output is not None else ""))
+            start(scan.n_points, "\n".join(lines))
+        done = int(np.count_nonzero(collector.done))
+        if progress is not None and done:
+            progress(done)
+        todo = np.flatnonzero(~collector.done)
+        workers = max(1, getattr(executor, "workers", 1))
+        size = scan.chunk or max(1, min(scan.max_chunk, -(-todo.size // (CHUNKS_PER_WORKER * workers))))
+        jobs = ((scan, idx) for idx in _chunks(todo, size))
+        for record in executor.imap_unordered(solve_chunk, jobs):
+            if ck is not None:
+                ck.append(record)
+            n = collector.add(record)
+            if progress is not None:
+                progress(n)
+        ds = finish(collector, history)
+        if output is not None:
+            write_dataset(ds, output)
+        if ck is not None:
+            ck.discard()
+            ck = None
+        return ds
+    finally:
+        if ck is not None:
+            ck.close()

@@ -1,0 +1,145 @@
+"""Every archive kind follows the CF conventions and its units are UDUNITS-2 units.
+
+Outside references:
+
+* UDUNITS-2, the unit library CF names for ``units`` (CF conventions sec. 3.1),
+  through its Python binding ``cf-units``: every ``units`` attribute must parse
+  and not be "unknown";
+* the IOOS compliance-checker (``compliance-checker`` on PyPI), a
+  general-purpose CF checker: its CF suite of the newest CF version it knows
+  must find nothing wrong, except that our declared version (CF-1.13) is newer
+  than that one, and must not fail inside (an exception in a check counts as a
+  failure: a string coordinate made it crash before).
+
+The archives are written by the API in both unit systems (nm-meV, and atomic
+units, whose bohr and hartree UDUNITS does not know), for every kind in the
+variable table :data:`fdsolver.io.specs.KINDS`.
+"""
+
+from __future__ import annotations
+
+import re
+import warnings
+from pathlib import Path
+
+import pytest
+from scipy.constants import physical_constants
+
+import fdsolver
+from fdsolver.io.specs import KINDS, kind_of
+
+cf_units = pytest.importorskip("cf_units", reason="the test extra installs cf-units")
+runner = pytest.importorskip("compliance_checker.runner", reason="the test extra installs compliance-checker")
+
+ROOT = Path(__file__).resolve().parents[1]
+CASES = ROOT / "cases"
+ATOMIC = {  # an invented pair of square wells in Hartree atomic units; d and V0 get their units from the keys they set
+    "title": "atomic-unit pair (invented)", "units": "atomic", "params": {"d": 2.0, "V0": 1.0, "w": 1.0},
+    "potential": [{"shape": "square", "center": "-d/2", "width": "w", "depth": "V0"},
+                  {"shape": "square", "center": "d/2", "width": "w", "depth": "V0"}],
+}
+ATOMIC_POINTS = {  # the same as two point interactions
+    "title": "atomic-unit point pair (invented)", "units": "atomic", "params": {"d": 4.0, "alpha": 1.0},
+    "potential": [{"shape": "point", "center": "-d/2", "strength": "alpha"},
+                  {"shape": "point", "center": "d/2", "strength": "alpha"}],
+}
+
+
+def _archives(folder: Path) -> dict[str, Path]:
+    atomic = fdsolver.case_from_dict(ATOMIC)
+    points = fdsolver.case_from_dict(ATOMIC_POINTS)
+    pair = fdsolver.load_case(CASES / "impurity_pair.toml")
+    made = {
+        "solve": fdsolver.solve(fdsolver.load_case(CASES / "coupled_wells.toml")),
+        "solve atomic": fdsolver.solve(atomic),
+        "sweep": fdsolver.sweep(CASES / "double_square.toml", ["d=0.5:3:4"], executor="serial", save_psi=True),
+        "sweep atomic": fdsolver.sweep(atomic, ["d=0.1:4:5"], executor="serial", save_psi=True),
+        "sweep atomic two params": fdsolver.sweep(atomic, ["d=0.5:4:3", "V0=0.5,1"], executor="serial"),
+        "threshold": fdsolver.threshold(CASES / "double_square.toml", "d=0.1:6"),
+        "threshold atomic": fdsolver.threshold(atomic, "d=0.01:6"),
+        "delta_check": fdsolver.delta_check(pair, widths="1e-3:0.1:3"),
+        "delta_check atomic": fdsolver.delta_check(points, widths="1e-3:0.1:3"),
+        "delta_check from finite": fdsolver.delta_check(CASES / "impurity_pair_finite.toml", from_finite=True),
+        "delta_map": fdsolver.delta_map(pair, ["width=0.3:6:3", "d=9.2:10.6:3"], executor="serial"),
+        "delta_map atomic": fdsolver.delta_map(points, ["width=0.01:1:3", "d=2:6:3"], executor="serial"),
+    }
+    out = {}
+    for name, ds in made.items():
+        out[name] = fdsolver.write_dataset(ds, folder / (name.replace(" ", "_") + ".nc"))
+    return out
+
+
+@pytest.fixture(scope="module")
+def archives(tmp_path_factory) -> dict[str, Path]:
+    return _archives(tmp_path_factory.mktemp("cf"))
+
+
+NAMES = ["solve", "solve atomic", "sweep", "sweep atomic", "sweep atomic two params", "threshold", "threshold atomic",
+         "delta_check", "delta_check atomic", "delta_check from finite", "delta_map", "delta_map atomic"]
+
+
+def test_every_archive_kind_is_covered(archives):
+    kinds = {kind_of(fdsolver.open_run(p).attrs).name for p in archives.values()}
+    assert kinds == set(KINDS), "add an archive of the new kind to this test"
+    assert sorted(archives) == sorted(NAMES)
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_every_units_attribute_is_a_udunits_unit(archives, name):
+    ds = fdsolver.open_run(archives[name])
+    seen = 0
+    for var, da in ds.variables.items():
+        if "units" not in da.attrs:
+            assert da.dtype.kind in "OUS", f"{var} is a number without units"
+            continue
+        text = da.attrs["units"]
+        unit = cf_units.Unit(text)  # raises ValueError for a string UDUNITS-2 cannot parse
+        assert not unit.is_unknown(), (var, text)
+        seen += 1
+    assert seen >= 5
+    if "atomic" in name:  # bohr and hartree are written as scaled SI units (CODATA, scipy.constants), named beside them
+        energy = ds["energy" if "energy" in ds else "threshold_value"]
+        hartree = physical_constants["Hartree energy"][0]
+        if energy.name == "energy":
+            assert energy.attrs["units_name"] == "hartree"
+            assert cf_units.Unit(energy.attrs["units"]).convert(1.0, "J") == pytest.approx(hartree, rel=1e-12)
+        lengths = [v for v in ds.variables.values() if v.attrs.get("units_name") == "bohr"]
+        assert lengths, "no length in bohr"
+        for v in lengths:
+            assert cf_units.Unit(v.attrs["units"]).convert(1.0, "m") == pytest.approx(physical_constants["Bohr radius"][0], rel=1e-12)
+
+
+@pytest.fixture(scope="module")
+def checker():
+    suite = runner.CheckSuite()
+    with warnings.catch_warnings():  # the checker's plug-ins for other conventions warn about their own deprecation
+        warnings.simplefilter("ignore", DeprecationWarning)
+        suite.load_all_available_checkers()
+    versions = [tuple(int(p) for p in m.groups()) for m in (re.fullmatch(r"cf:(\d+)\.(\d+)", c) for c in suite.checkers) if m]
+    newest = "cf:{}.{}".format(*max(versions))
+    return suite, newest
+
+
+def test_the_checker_knows_a_recent_cf_version(checker):
+    _, newest = checker
+    major, minor = map(int, newest.split(":")[1].split("."))
+    assert (major, minor) >= (1, 11)  # compliance-checker 6.1 knows CF up to 1.11 (DEVELOPERS.md)
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_cf_checker_finds_nothing_wrong(archives, checker, name):
+    suite, newest = checker
+    declared = fdsolver.open_run(archives[name]).attrs["Conventions"]
+    scores, crashed = suite.run_all(suite.load_dataset(str(archives[name])), [newest], skip_checks=[])[newest]
+    assert not crashed, f"the checker failed inside: {crashed}"
+    problems = []
+    for result in scores:
+        value = result.value
+        passed = value[0] == value[1] if isinstance(value, tuple) else bool(value)
+        if passed:
+            continue
+        version_only = [m for m in result.msgs if re.search(r"Conventions global attribute does not contain", m)]
+        if version_only and len(version_only) == len(result.msgs) and declared > newest.replace("cf:", "CF-"):
+            continue  # our declared version is newer than the checker's: the one allowed complaint
+        problems.append((result.weight, result.name, result.msgs))
+    assert problems == []
