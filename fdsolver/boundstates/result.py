@@ -71,6 +71,7 @@ class Solution:
     splitting_error: np.ndarray
     splitting_bound: np.ndarray  # True: splitting is only an upper bound (below double precision)
     resolved_count: int  # states the box resolved below the window top
+    whole_line_count: int  # box-independent number of bound states on the open line (-1: not counted)
     reference: float  # the energy the solver measured from (continuum threshold or lowest V)
 
 
@@ -140,7 +141,7 @@ def finish(problem, box, center, run, box_error: np.ndarray, messages: list) -> 
     h = np.diff(x_all)
     w_all = np.concatenate([[0.0], 0.5 * (h[:-1] + h[1:]), [0.0]])
     mean_x = psi**2 @ (w_all * x_all)
-    spread = np.sqrt(np.maximum(0.0, np.einsum("kx,x,kx->k", psi, w_all, (x_all[None, :] - mean_x[:, None]) ** 2)))
+    spread = np.sqrt(np.maximum(0.0, np.einsum("kx,x,kx->k", psi**2, w_all, (x_all[None, :] - mean_x[:, None]) ** 2)))
     regions = pot.regions()
     inside = np.zeros((n, len(regions)))
     for j, (_, rlo, rhi) in enumerate(regions):
@@ -201,6 +202,7 @@ def finish(problem, box, center, run, box_error: np.ndarray, messages: list) -> 
         splitting_error=run.splitting_error,
         splitting_bound=run.splitting_bound,
         resolved_count=int(states.count_below),
+        whole_line_count=-1 if whole is None else int(whole),
         reference=problem.reference,
     )
 

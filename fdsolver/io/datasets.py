@@ -143,6 +143,8 @@ def solve_dataset(case, sol, history: str) -> xr.Dataset:
         "mirror_center": np.nan if sol.mirror_center is None else float(sol.mirror_center),
         "tolerance": float(case.settings.tolerance),
         "bound_state_count": int(sol.bound_count),
+        "resolved_state_count": int(sol.resolved_count),
+        "energy_reference": float(sol.reference),
         "messages": "\n".join(sol.messages),
     })
     return build("solve", sol, case.units, attrs)

@@ -75,6 +75,13 @@ class Var:
         return np.arange(self.flag_start, self.flag_start + len(self.meanings()), dtype=np.dtype(self.dtype))
 
 
+def _pad(values, n: int, fill=np.nan) -> np.ndarray:
+    """``values`` (one per pair of neighbouring states) padded to one per state."""
+    out = np.full(n, fill, dtype=np.asarray(values).dtype if np.size(values) else float)
+    out[: np.size(values)] = values
+    return out
+
+
 def _count(name: str) -> Callable[[Any], np.ndarray]:
     """A coordinate 0, 1, ... as long as the attribute ``name`` of the result."""
     return lambda r: np.arange(len(getattr(r, name)))
@@ -99,7 +106,8 @@ PSI_NOTE = "psi in {length}^-1/2; integral psi^2 dx = 1 over the grid (lumped no
 
 SOLVE = (
     Var("x", ("x",), "f8", "position", LENGTH, required=True, coord=True),
-    Var("state", ("state",), "i4", "bound state index (0 = ground state)", coord=True, source=_count("energy")),
+    Var("state", ("state",), "i4", "bound state number = Sturm index = node count (0 = ground state)", coord=True,
+        source="index"),
     Var("region", ("region",), "i4", "index of the named component or layer (see region_name)", coord=True,
         source=_count("region_names")),
     Var("level", ("level",), "i4", "grid refinement level", coord=True, source=_count("level_sizes")),
@@ -113,6 +121,17 @@ SOLVE = (
     Var("mean_x", ("state",), "f8", "expectation value of position <x>", LENGTH, required=True),
     Var("spread", ("state",), "f8", "position spread sqrt(<x^2> - <x>^2)", LENGTH, required=True),
     Var("box_error", ("state",), "f8", "estimated shift from truncating the open line to the box", ENERGY),
+    Var("lives_in", ("state",), "i4", "region holding most of the state's probability (-1: none of the named ones)",
+        source="home"),
+    Var("wall_state", ("state",), "i1", "the state lives at a hard wall, not in the structure",
+        flags=("left_wall", "structure", "right_wall"), flag_start=-1, source="wall"),
+    Var("splitting", ("state",), "f8", "splitting E[state+1] - E[state], extrapolated as a sequence of its own "
+        "(NaN for the last state)", ENERGY, source=lambda r: _pad(r.splitting, r.energy.size)),
+    Var("splitting_error", ("state",), "f8", "estimated absolute error of splitting", ENERGY,
+        source=lambda r: _pad(r.splitting_error, r.energy.size)),
+    Var("splitting_is_bound", ("state",), "i1", "1 where the splitting is below double precision: splitting is "
+        "only an upper bound", flags=("value", "upper_bound"),
+        source=lambda r: _pad(np.asarray(r.splitting_bound, dtype=np.int8), r.energy.size, 0)),
     Var("psi", ("state", "x"), "f8", "normalised wavefunction times sqrt(length unit)", note=PSI_NOTE, required=True),
     Var("potential", ("x",), "f8", "potential energy (dual-cell average at interior nodes)", ENERGY, required=True),
     Var("mass", ("x",), "f8", "effective mass in units of the free-electron mass", MASS),
@@ -141,7 +160,9 @@ SWEEP = (
     Var("continuum_threshold", (PARAMS,), "f8", "continuum threshold (lower asymptote of V)", ENERGY),
     Var("solved", (PARAMS,), "i1", "1 if the point was solved, 0 if its case was invalid"),
     Var("tunnel_splitting", (PARAMS,), "f8", "tunnel splitting E1 - E0 where both states exist", ENERGY),
-    Var("tunnel_splitting_error", (PARAMS,), "f8", "error bound of the tunnel splitting", ENERGY),
+    Var("tunnel_splitting_error", (PARAMS,), "f8", "estimated absolute error of the tunnel splitting", ENERGY),
+    Var("tunnel_splitting_is_bound", (PARAMS,), "i1", "1 where the splitting is below double precision: "
+        "tunnel_splitting is only an upper bound", flags=("value", "upper_bound")),
     Var("psi", (PARAMS, "state", "x"), "f8", "normalised wavefunction times sqrt(length unit), linearly interpolated",
         note="psi in {length}^-1/2; zero outside the solver's box; NaN where the state does not exist"),
     Var("threshold_value", ("threshold",), "f8", "value of {param} where the state appears", PARAM),

@@ -10,6 +10,11 @@ import xarray as xr
 
 from fdsolver.report._common import units_of
 
+#: a region holding at least this fraction of the main region's probability is named beside it
+SHARED = 0.8
+#: at most this many regions are named for one state
+MAX_NAMED = 3
+
 
 def format_solve(ds: xr.Dataset) -> str:
     """The bound-state table of a solve archive."""
@@ -26,20 +31,13 @@ def format_solve(ds: xr.Dataset) -> str:
     if params:
         lines.append("params: " + ", ".join(f"{k} = {v:.10g}" for k, v in params.items()))
     n = ds.sizes.get("state", 0)
-    if n == 0:
+    count = int(a.get("bound_state_count", n))
+    if n == 0 and count == 0:
         lines.append("no bound state: the potential binds nothing below the continuum threshold")
+    elif n == 0:
+        lines.append(f"no state resolved (the potential binds {count}; see the notes)")
     else:
-        lines.append(
-            f"{'state':>5}  {'energy [' + eu + ']':>22}  {'error [' + eu + ']':>12}  {'nodes':>5}  {'parity':>6}  "
-            f"{'<x> [' + lu + ']':>12}  {'dx [' + lu + ']':>11}  conv"
-        )
-        for k in range(n):
-            par = int(ds.parity.values[k])
-            lines.append(
-                f"{k:5d}  {ds.energy.values[k]:22.12g}  {ds.energy_error.values[k]:12.2e}  {int(ds.nodes.values[k]):5d}  "
-                f"{('+1' if par > 0 else '-1' if par < 0 else '0'):>6}  {ds.mean_x.values[k]:12.6g}  "
-                f"{ds.spread.values[k]:11.5g}  {'yes' if int(ds.converged.values[k]) else 'NO'}"
-            )
+        lines.extend(_state_table(ds, eu, lu))
     lev = ds.level_nodes.values
     if lev.size:
         lines.append(f"grid: {lev.size} nested levels, {int(lev[0])} to {int(lev[-1])} nodes; tolerance {a.get('tolerance'):.1e} relative")
@@ -48,3 +46,48 @@ def format_solve(ds: xr.Dataset) -> str:
         if m:
             lines.append(f"note: {m}")
     return "\n".join(lines)
+
+
+def _where(ds: xr.Dataset, k: int) -> str:
+    """The named region a state lives in, or where it sits (a hard wall), or '-'."""
+    if "wall_state" in ds and int(ds.wall_state.values[k]) != 0:
+        return "left wall" if int(ds.wall_state.values[k]) < 0 else "right wall"
+    if "lives_in" in ds and "region_name" in ds:
+        r = int(ds.lives_in.values[k])
+        if 0 <= r < ds.sizes.get("region", 0):
+            share = ds.probability_inside.values[k]
+            # regions holding nearly as much as the main one (the wells of a symmetric doublet) are named too
+            near = [j for j in np.argsort(-share) if share[j] >= SHARED * share[r]]
+            return " + ".join(str(ds.region_name.values[j]) for j in near[:MAX_NAMED])
+    return "-"
+
+
+def _splitting(ds: xr.Dataset, k: int) -> str:
+    """E[k+1] - E[k] with its error, '< bound' below double precision, blank for the last state."""
+    if "splitting" not in ds or k + 1 >= ds.sizes["state"] or not np.isfinite(ds.splitting.values[k]):
+        return ""
+    if "splitting_is_bound" in ds and int(ds.splitting_is_bound.values[k]):
+        return f"< {ds.splitting.values[k]:.2e}"
+    return f"{ds.splitting.values[k]:.6g} +- {ds.splitting_error.values[k]:.1e}"
+
+
+def _state_table(ds: xr.Dataset, eu: str, lu: str) -> list[str]:
+    """One row per state: its number (Sturm index = nodes), energy, error, parity, <x>, spread, where it lives,
+    the splitting to the next state and whether it converged."""
+    n = ds.sizes["state"]
+    where = [_where(ds, k) for k in range(n)]
+    split = [_splitting(ds, k) for k in range(n)]
+    ww = max([8] + [len(w) for w in where])
+    sw = max([16] + [len(x) for x in split])
+    head = (f"{'state':>5}  {'energy [' + eu + ']':>22}  {'error [' + eu + ']':>12}  {'parity':>6}  "
+            f"{'<x> [' + lu + ']':>12}  {'dx [' + lu + ']':>11}  {'lives in':<{ww}}  {'to next [' + eu + ']':<{sw}}  conv")
+    rows = [head]
+    for k in range(n):
+        par = int(ds.parity.values[k])
+        rows.append(
+            f"{int(ds.state.values[k]):5d}  {ds.energy.values[k]:22.12g}  {ds.energy_error.values[k]:12.2e}  "
+            f"{('+1' if par > 0 else '-1' if par < 0 else '0'):>6}  {ds.mean_x.values[k]:12.6g}  "
+            f"{ds.spread.values[k]:11.5g}  {where[k]:<{ww}}  {split[k]:<{sw}}  "
+            f"{'yes' if int(ds.converged.values[k]) else 'NO'}"
+        )
+    return rows

@@ -7,7 +7,7 @@ x grid when asked).  States are labelled by their number of nodes (the
 oscillation theorem numbers bound states by it), so a label follows one state
 across the sweep and a state absent at a point is NaN there.  Per point it
 also keeps the number of bound states on the whole open line (from the
-zero-energy phase, :mod:`fdsolver.thresholds`, independent of the box), the
+zero-energy phase, :mod:`fdsolver.boundstates.counting`, independent of the box), the
 number the box solve resolved, the continuum threshold and the tunnel
 splitting E1 - E0.  Wavefunctions are interpolated linearly (error O(h^2) of
 the solver's local spacing) onto the common grid, zero outside the solver's
@@ -32,7 +32,7 @@ from fdsolver.scans.axes import Axis, declared_units, parse_axes
 from fdsolver.scans.runner import base_case
 
 BYTES_PER_STATE = 8 + 8 + 8 + 4 + 1 + 1  # energy, error, binding energy, nodes, converged, parity
-BYTES_PER_POINT = 4 + 4 + 8 + 8 + 8 + 1  # bound, resolved, threshold, splitting (+ error), solved
+BYTES_PER_POINT = 4 + 4 + 8 + 8 + 8 + 1 + 1  # bound, resolved, threshold, splitting (+ error, bound flag), solved
 
 
 # ----------------------------------------------------------------- plan
@@ -146,13 +146,14 @@ def plan_sweep(case, axes, fixed=None, save_psi=False, memory_mb=None, chunk=Non
 def solve_points(spec: SweepSpec, base, indices) -> dict:
     """Solve the points ``indices`` of ``spec`` (``base``: its case); compact arrays, one row per state found."""
     from fdsolver.api import solve_case
-    from fdsolver.scans import thresholds
 
     n = len(indices)
     psi_x = spec.psi_x if spec.save_psi and spec.psi_x is not None else np.zeros(0)
     out: dict[str, Any] = {"index": np.asarray(indices, dtype=np.int64), "solved": np.zeros(n, np.int8), "bound": np.full(n, -1, np.int32),
            "resolved": np.zeros(n, np.int32), "vt": np.full(n, np.nan), "count": np.zeros(n, np.int32)}
     rows: dict[str, list] = {k: [] for k in ("label", "energy", "error", "converged", "parity", "psi")}
+    out["split"], out["split_error"] = np.full(n, np.nan), np.full(n, np.nan)
+    out["split_bound"] = np.zeros(n, np.int8)
     messages = []
     for j, flat in enumerate(indices):
         point = spec.point(flat)
@@ -166,10 +167,10 @@ def solve_points(spec: SweepSpec, base, indices) -> dict:
         out["solved"][j] = 1
         out["resolved"][j] = sol.energy.size
         out["vt"][j] = sol.threshold
-        try:
-            out["bound"][j] = thresholds.bound_count(case)
-        except CaseError:
-            pass
+        out["bound"][j] = sol.whole_line_count  # the solve's own box-independent count (-1: every state bound)
+        if sol.energy.size >= 2 and sol.index[0] == 0 and sol.index[1] == 1:
+            out["split"][j], out["split_error"][j] = sol.splitting[0], sol.splitting_error[0]
+            out["split_bound"][j] = int(sol.splitting_bound[0])
         out["count"][j] = sol.energy.size
         rows["label"].append(sol.nodes.astype(np.int32))
         rows["energy"].append(sol.energy)
@@ -207,6 +208,8 @@ class Results:
         self.bound = np.full(n, -1, np.int32)
         self.resolved = np.zeros(n, np.int32)
         self.vt = np.full(n, np.nan)
+        self.split, self.split_error = np.full(n, np.nan), np.full(n, np.nan)
+        self.split_bound = np.zeros(n, np.int8)
         self.done = np.zeros(n, bool)
         self.messages: dict[int, list[str]] = {}
 
@@ -223,6 +226,8 @@ class Results:
         idx = np.asarray(rec["index"], dtype=np.int64)
         self.done[idx] = True
         self.solved[idx], self.bound[idx], self.resolved[idx], self.vt[idx] = rec["solved"], rec["bound"], rec["resolved"], rec["vt"]
+        if "split" in rec:
+            self.split[idx], self.split_error[idx], self.split_bound[idx] = rec["split"], rec["split_error"], rec["split_bound"]
         rows = np.repeat(idx, rec["count"])
         labels = np.asarray(rec["label"], dtype=np.int64)
         if labels.size:
@@ -251,7 +256,8 @@ class Results:
         """The values of the sweep archive's variables (:data:`fdsolver.io.specs.SWEEP`), on the grid of the axes.
 
         States are the node counts 0 .. the highest found; binding energy = continuum threshold - energy;
-        the tunnel splitting E1 - E0 (error: the sum of both errors) where there are two labels.
+        the tunnel splitting E1 - E0 as the solver extrapolated it (a sequence of its own, with its own error;
+        an upper bound where it is below double precision).
         """
         spec = self.spec
         labels = np.flatnonzero(np.any(np.isfinite(self.energy), axis=0))
@@ -274,8 +280,9 @@ class Results:
             "solved": self.solved.reshape(shape),
         }
         if s >= 2:
-            out["tunnel_splitting"] = energy[..., 1] - energy[..., 0]
-            out["tunnel_splitting_error"] = error[..., 1] + error[..., 0]
+            out["tunnel_splitting"] = self.split.reshape(shape)
+            out["tunnel_splitting_error"] = self.split_error.reshape(shape)
+            out["tunnel_splitting_is_bound"] = self.split_bound.reshape(shape)
         if self.psi is not None:
             out["x"] = spec.psi_x
             out["psi"] = self.psi[:, :s].reshape(shape + (s, self.psi.shape[2]))
