@@ -46,6 +46,8 @@ from fdsolver.numerics.richardson import Romberg
 
 #: most nested cell levels in a threshold refinement (smooth potentials)
 MAX_LEVELS = 7
+#: round-off of a phase margin marched exactly (in units of pi)
+MARGIN_ROUNDOFF = 1e-10
 #: a root is bracketed again around its previous value by growing a window at most this many times
 MAX_BRACKET_GROWTH = 80
 
@@ -112,9 +114,21 @@ def count_from_margin(phi: float) -> int:
 
 
 def bound_count(potential, layout: Layout | None = None) -> int:
-    """Number of bound states of ``potential`` on the whole open line, from the zero-energy phase (no box)."""
+    """Number of bound states of ``potential`` on the whole open line, from the zero-energy phase (no box).
+
+    A state counts only if the margin exceeds it by more than the margin's own
+    error: round-off for compact potentials (one exact cell per segment); for
+    smooth ones the margin is Richardson-extrapolated from cell levels 1 and 2
+    and its error is the change.  A state within that band of its threshold
+    (a zero-energy resonance, e.g. -sech^2 at lambda = 1) is not bound.
+    """
     layout = layout or layout_for([potential])
-    return count_from_margin(phase_margin(potential, layout, level=0 if layout.compact else 1))
+    if layout.compact:
+        phi, err = phase_margin(potential, layout, level=0), MARGIN_ROUNDOFF
+    else:
+        p1, p2 = phase_margin(potential, layout, level=1), phase_margin(potential, layout, level=2)
+        phi, err = p2 + (p2 - p1) / 3.0, abs(p2 - p1) / 3.0 + MARGIN_ROUNDOFF
+    return count_from_margin(phi - err)
 
 
 # ------------------------------------------------------------------ thresholds

@@ -28,7 +28,7 @@ import numpy as np
 from fdsolver.boundstates.eigen import GridStates, Sector, solve_grid
 from fdsolver.boundstates.problem import Problem
 from fdsolver.numerics.grid import refine
-from fdsolver.numerics.operator import NEUMANN, assemble
+from fdsolver.numerics.operator import assemble, mirror_halves
 from fdsolver.numerics.richardson import Romberg
 
 #: round-off grows by about this factor per level (matrix norm ~ 1/h^2)
@@ -37,11 +37,11 @@ ROUNDOFF_GROWTH = 4.0
 
 def sectors_on(problem: Problem, nodes: np.ndarray, center: float | None) -> list[Sector]:
     """The operators of a grid: the whole grid, or its even and odd halves about the mirror centre."""
-    pot, shift = problem.potential, problem.reference
+    whole = assemble(problem.potential, nodes, problem.reference)
     if center is None:
-        return [Sector(assemble(pot, nodes, shift), 0)]
-    half = nodes[np.searchsorted(nodes, center, side="left"):]
-    return [Sector(assemble(pot, half, shift, left=NEUMANN), 1), Sector(assemble(pot, half, shift), -1)]
+        return [Sector(whole, 0)]
+    even, odd = mirror_halves(whole, int(np.searchsorted(nodes, center, side="left")))
+    return [Sector(even, 1), Sector(odd, -1)]
 
 
 def solve_nodes(problem: Problem, nodes: np.ndarray, center: float | None, guess=None) -> tuple[list[Sector], GridStates]:

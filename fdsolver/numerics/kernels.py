@@ -68,6 +68,35 @@ def sturm_count(d, e, sigma):
 
 
 @njit
+def bisect_eigenvalues(d, e, lo, count, below, above, rtol, floor):
+    """Eigenvalues number lo .. lo + count - 1 of tridiag(e, d, e) by bisection on Sturm counts.
+
+    Each is bracketed in [below, above] (which must hold them all) and halved
+    until its bracket is narrower than rtol * max(|value|, floor); the lower
+    end of one bracket starts the next.  Accurate enough to start inverse
+    iteration (the eigenvectors and the polished energies come from there).
+    O(N log2(range / tolerance)) per value.
+    """
+    out = np.empty(count)
+    start = below
+    for j in range(count):
+        target = lo + j  # the eigenvalue with exactly `target` values below it
+        a = start
+        b = above
+        while b - a > rtol * max(abs(a), abs(b), floor):
+            mid = 0.5 * (a + b)
+            if mid <= a or mid >= b:
+                break
+            if sturm_count(d, e, mid) > target:
+                b = mid
+            else:
+                a = mid
+        out[j] = 0.5 * (a + b)
+        start = a
+    return out
+
+
+@njit
 def tridiag_factor(d, e, sigma):
     """LU factors of tridiag(e, d, e) - sigma I with partial pivoting: (u0, u1, u2, lmul, piv).
 
@@ -228,6 +257,121 @@ def flux_matrix(psis, a, vw):
             out[i, j] = acc
             out[j, i] = acc
     return out
+
+
+@njit
+def _quotient_of_u(u, a, vw, w):
+    """flux_quotient of psi = u / sqrt(w)."""
+    n = u.shape[0]
+    psi = np.empty(n)
+    for i in range(n):
+        psi[i] = u[i] / math.sqrt(w[i])
+    return flux_quotient(psi, a, vw, w)
+
+
+@njit
+def _residual_norm(d, e, u, lam):
+    n = u.shape[0]
+    total = 0.0
+    for i in range(n):
+        r = (d[i] - lam) * u[i]
+        if i > 0:
+            r += e[i - 1] * u[i - 1]
+        if i < n - 1:
+            r += e[i] * u[i + 1]
+        total += r * r
+    return math.sqrt(total)
+
+
+@njit
+def _round_scales(d, vw, w, u, lam, ulps, eps):
+    """(matrix, quotient) round-off scales of a unit vector u: eps sum |d| u^2 and ulps eps (|lam| + <|V|>)."""
+    matrix = 0.0
+    pot = 0.0
+    for i in range(u.shape[0]):
+        u2 = u[i] * u[i]
+        matrix += abs(d[i]) * u2
+        pot += abs(vw[i] / w[i]) * u2
+    return eps * matrix, ulps * eps * (abs(lam) + pot)
+
+
+@njit
+def sector_vectors(d, e, a, vw, w, shifts, first, floor, steps, residual_factor, ulps, eps, vectors, energy, scales):
+    """Eigenpairs of one sector from eigenvalue estimates ``shifts`` (ascending), in one compiled pass.
+
+    Inverse iteration (:func:`inverse_iteration`, orthonormal within the
+    clusters given by ``first``); a flux-form Rayleigh-Ritz rotation inside
+    every cluster of two or more (:func:`flux_matrix`), which separates its
+    members to the accuracy of the quotient; each energy the flux-form
+    Rayleigh quotient; a state whose residual |T u - lambda u| exceeds
+    ``residual_factor`` times its round-off scale redone with twice the
+    steps; an isolated state polished by one Rayleigh-quotient step when that
+    moves it by less than 1e-6 of its scale.  Fills ``vectors`` (k x n),
+    ``energy`` (k) and ``scales`` (k x 2: matrix and quotient round-off
+    scales).  Returns False if inverse iteration broke down.
+    """
+    k = shifts.shape[0]
+    n = d.shape[0]
+    if not inverse_iteration(d, e, shifts, first, steps, vectors):
+        return False
+    sqw = np.sqrt(w)
+    j = 0
+    while j < k:  # Rayleigh-Ritz inside clusters
+        end = j
+        while end + 1 < k and first[end + 1] == first[j]:
+            end += 1
+        if end > j:
+            m = end - j + 1
+            block = np.empty((m, n))
+            for r in range(m):
+                for i in range(n):
+                    block[r, i] = vectors[j + r, i] / sqw[i]
+            h = flux_matrix(block, a, vw)
+            vals, rot = np.linalg.eigh(h)
+            new = np.zeros((m, n))
+            for r in range(m):
+                for q in range(m):
+                    coef = rot[q, r]
+                    for i in range(n):
+                        new[r, i] += coef * vectors[j + q, i]
+            for r in range(m):
+                vectors[j + r] = new[r]
+        j = end + 1
+    redo = np.empty((1, n))
+    one = np.zeros(1, dtype=np.int64)
+    for j in range(k):
+        u = vectors[j].copy()
+        lam = _quotient_of_u(u, a, vw, w)
+        mat, quo = _round_scales(d, vw, w, u, lam, ulps, eps)
+        if _residual_norm(d, e, u, lam) > residual_factor * (mat + quo) + 1e-12 * abs(lam):
+            if inverse_iteration(d, e, np.array([lam]), one, 2 * steps, redo):
+                u = redo[0].copy()
+                lam = _quotient_of_u(u, a, vw, w)
+        alone = first[j] == j and (j + 1 >= k or first[j + 1] != j)
+        if alone:  # one Rayleigh-quotient step: cubic convergence from an accurate vector
+            y = tridiag_solve(d, e, lam, u)
+            big = 0.0
+            for i in range(n):
+                if abs(y[i]) > big:
+                    big = abs(y[i])
+            if big > 0.0 and big < math.inf:
+                nrm = 0.0
+                for i in range(n):
+                    y[i] /= big
+                    nrm += y[i] * y[i]
+                nrm = math.sqrt(nrm)
+                for i in range(n):
+                    y[i] /= nrm
+                lam_y = _quotient_of_u(y, a, vw, w)
+                if abs(lam_y - lam) <= 1e-6 * max(abs(lam), floor):  # the same state, only sharper
+                    u = y
+                    lam = lam_y
+        mat, quo = _round_scales(d, vw, w, u, lam, ulps, eps)
+        vectors[j] = u
+        energy[j] = lam
+        scales[j, 0] = mat
+        scales[j, 1] = quo
+    return True
 
 
 @njit
