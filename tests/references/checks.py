@@ -92,6 +92,7 @@ _ABOVE = re.compile(r"estimated error ([0-9.eE+-]+) is above the tolerance ([0-9
 _EXIST = re.compile(r"(\d+) bound state\(s\) exist, (\d+) not resolved")
 _MORE = re.compile(r"(\d+) more bound state\(s\) exist above the (\d+) returned")
 _NONE = re.compile(r"no bound state|binds nothing", re.IGNORECASE)
+_VANISHED = re.compile(r"state\(s\) (-?\d+) to (-?\d+) [^.]*\(not resolved\)")
 
 
 def assert_notes_agree(sol, what: str) -> None:
@@ -102,7 +103,8 @@ def assert_notes_agree(sol, what: str) -> None:
     * "N bound state(s) exist, M not resolved" only with N == bound_count and 0 < M <= N;
     * "K more bound state(s) exist above the R returned" only with R == number returned and
       R + K <= bound_count;
-    * "no bound state" / "binds nothing" only when nothing is bound (bound_count 0, no state returned).
+    * "no bound state" / "binds nothing" only when nothing is bound (bound_count 0, no state returned);
+    * "state(s) A to B ... (not resolved)" names no state that is returned as converged.
     """
     idx = [int(i) for i in np.asarray(sol.index)]
     conv = {i: bool(c) for i, c in zip(idx, np.asarray(sol.converged))}
@@ -126,6 +128,10 @@ def assert_notes_agree(sol, what: str) -> None:
             more, returned = int(m.group(1)), int(m.group(2))
             if returned != n or returned + more > sol.bound_count:
                 problems.append(f"note '{m.group(0)}' but {n} returned, bound_count = {sol.bound_count}")
+        for m in _VANISHED.finditer(msg):
+            named = set(range(int(m.group(1)), int(m.group(2)) + 1))
+            if any(conv.get(i, False) for i in named):
+                problems.append(f"note calls states {sorted(named)} not resolved, but they are returned as converged: {msg!r}")
         if _NONE.search(msg) and (n > 0 or sol.bound_count > 0):
             problems.append(f"note denies bound states, but bound_count = {sol.bound_count}, {n} returned: {msg!r}")
     assert not problems, f"{what}:\n  " + "\n  ".join(problems) + f"\n  all notes: {sol.messages!r}"
