@@ -29,8 +29,13 @@ import fdsolver
 from fdsolver.cli import main
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from references.checks import assert_energies, assert_notes_agree, round_allowance  # noqa: E402
-from references.finite_well import square_well_count, square_well_levels  # noqa: E402
+from references.checks import (
+    assert_energies,
+    assert_notes_agree,
+    assert_ordered,
+    round_allowance,
+)
+from references.finite_well import square_well_count, square_well_levels
 
 REL = 1e-8
 
@@ -55,6 +60,7 @@ def check_resolved(width, depth, mass=1.0):
     assert_energies(sol, ref, rel=REL, what=what)
     assert list(sol.parity) == [(-1) ** k for k in range(len(sol.index))]
     assert_notes_agree(sol, what)
+    assert_ordered(sol, what)
     return sol, ref
 
 
@@ -103,7 +109,7 @@ def test_narrow_deep_well_of_double_strength():
 # ------------------------------------------------------------------ weak binding
 def test_extremely_weak_binding():
     """1 bohr wide, 1e-6 hartree deep: E0 = -4.9999967e-13 hartree, decay length 1e6 bohr."""
-    sol, ref = check_resolved(1.0, 1e-6)
+    _, ref = check_resolved(1.0, 1e-6)
     assert abs(float(ref[0]) + 4.9999967e-13) < 1e-19
 
 

@@ -27,8 +27,13 @@ import pytest
 import fdsolver
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from references import shooting  # noqa: E402
-from references.checks import assert_energies, assert_notes_agree, assert_splittings  # noqa: E402
+from references import shooting
+from references.checks import (
+    assert_energies,
+    assert_notes_agree,
+    assert_ordered,
+    assert_splittings,
+)
 
 REL = 1e-8
 MAX_STATES = 20
@@ -43,7 +48,7 @@ def traps(x0, sep, depth, sigma, middle=None):
     return comps
 
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def exact(key):
     """(levels, their errors, bound count) by shooting; ``key`` is a tuple of (center, sigma, depth)."""
     comps = list(key)
@@ -72,6 +77,7 @@ def check(comps, what):
     assert_splittings(sol, ref, what=what, ref_error=ref_err)
     assert list(sol.parity) == [(-1) ** k for k in range(n)], f"{what}: parities {list(sol.parity)}"
     assert_notes_agree(sol, what)
+    assert_ordered(sol, what)
     return sol
 
 
@@ -114,7 +120,7 @@ def test_reference_against_poeschl_teller():
     1e-11 of |E|, and the reference's error estimate covers the difference."""
     depth, a = 4.5, 1.25
     s = (-1.0 + math.sqrt(1.0 + 8.0 * depth * a * a)) / 2.0
-    exact_levels = [-((s - n) ** 2) / (2 * a * a) for n in range(int(math.ceil(s)))]
+    exact_levels = [-((s - n) ** 2) / (2 * a * a) for n in range(math.ceil(s))]
     far = a * math.log(4e16) / 2.0  # 4 D exp(-2 x / a) < 1e-16 D beyond
     ref, err, count = shooting.levels(lambda x: -depth / math.cosh(x / a) ** 2, 0.0, far, -depth, n_max=MAX_STATES)
     assert count == len(exact_levels) == len(ref)

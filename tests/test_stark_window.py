@@ -30,9 +30,14 @@ from scipy.special import ai_zeros
 import fdsolver
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from references.airy import LinearBox, Segment  # noqa: E402
-from references.checks import assert_energies, assert_notes_agree, assert_splittings  # noqa: E402
-from references.constants import hbar2_2me  # noqa: E402
+from references.airy import LinearBox, Segment
+from references.checks import (
+    assert_energies,
+    assert_notes_agree,
+    assert_ordered,
+    assert_splittings,
+)
+from references.constants import hbar2_2me
 
 REL = 1e-8
 MAX_STATES = 60
@@ -56,7 +61,7 @@ def safe_window(box, lo, hi):
     """Move each window edge off any level by at least 1e-4 meV (a level on an edge is ambiguous)."""
     def clear(e):
         for _ in range(50):
-            i, lv = box.levels_between(e - 1e-4, e + 1e-4)
+            _, lv = box.levels_between(e - 1e-4, e + 1e-4)
             if not lv:
                 return e
             e += 3e-4
@@ -81,6 +86,7 @@ def check(case, box, window, what):
     assert_splittings(sol, ref, what=what, ref_error=ref_err)
     assert list(sol.parity) == [0] * n, f"{what}: parities {list(sol.parity)}"
     assert_notes_agree(sol, what)
+    assert_ordered(sol, what)
     names = list(sol.region_names)
     rows, bad = [], False
     for k, i in enumerate(idx[:n]):
@@ -134,7 +140,7 @@ def test_issue_example():
     """8 nm well (m 0.067), 243 meV barriers (m 0.092), 2 meV/nm, walls at -200 and +216 nm; the window
     [0, 200] meV holds the two well states and the left-wall states between them."""
     case, box = structure(8.0, 2.0, 243.0, 0.067, 0.092, -200.0, 216.0)
-    sol, idx, levels = check(case, box, (0.0, 200.0), "issue 9 Stark example")
+    sol, _, _ = check(case, box, (0.0, 200.0), "issue 9 Stark example")
     names = list(sol.region_names)
     assert sum(names[h] == "well" for h in sol.home) == 2  # the two well levels of an 8 nm well
     assert any(sol.wall == -1)
@@ -143,7 +149,7 @@ def test_issue_example():
 # ------------------------------------------------------------------ seeded random siblings
 def random_structure(seed):
     rng = np.random.default_rng(seed)
-    r2 = lambda a, b: float(np.round(rng.uniform(a, b), 2))  # noqa: E731
+    r2 = lambda a, b: float(np.round(rng.uniform(a, b), 2))
     well = r2(4.0, 12.0)
     field = r2(0.5, 3.0) * (1 if rng.integers(2) else -1)
     v_b = r2(180.0, 350.0)
@@ -152,8 +158,8 @@ def random_structure(seed):
     case, box = structure(well, field, v_b, m_w, m_b, left, right)
     # the window: from the well bottom at its centre up to 3/4 of the barrier there
     v_mid = field * well / 2
-    return case, box, (v_mid + 1.0, v_mid + 0.75 * v_b), f"seed {seed}: well {well} nm, F {field} meV/nm, " \
-        f"V_b {v_b} meV, m {m_w}/{m_b}, walls {left}/{right} nm"
+    what = f"seed {seed}: well {well} nm, F {field} meV/nm, V_b {v_b} meV, m {m_w}/{m_b}, walls {left}/{right} nm"
+    return case, box, (v_mid + 1.0, v_mid + 0.75 * v_b), what
 
 
 @pytest.mark.parametrize("seed", [21, 22])

@@ -87,6 +87,24 @@ def assert_splittings(sol, ref: list, *, what: str, resolvable_rel: float = 1e-7
     assert not bad, f"{what}:\n" + "\n".join(rows)
 
 
+def assert_ordered(sol, what: str) -> None:
+    """Levels in order and splittings that can be true.
+
+    In one dimension bound states are non-degenerate (Landau & Lifshitz, Quantum Mechanics, sec. 21), so
+    E_{k+1} - E_k > 0: energies must not decrease with the index (equal is allowed, for doublets split
+    below double precision), an upper bound of a splitting must be positive, and a resolved splitting
+    must be positive within its bar.
+    """
+    e = np.asarray(sol.energy, dtype=float)
+    assert np.all(np.diff(e) >= 0), f"{what}: energies decrease with the index: {e!r}"
+    for k in range(len(sol.splitting)):
+        s, serr, bound = float(sol.splitting[k]), float(sol.splitting_error[k]), bool(sol.splitting_bound[k])
+        if bound:
+            assert s > 0, f"{what}: splitting {k} given as an upper bound {s!r}, which no splitting is below"
+        else:
+            assert s + serr > 0, f"{what}: splitting {k} = {s!r} +- {serr!r} is negative"
+
+
 _NOT_CONV = re.compile(r"state (-?\d+) is not converged")
 _ABOVE = re.compile(r"estimated error ([0-9.eE+-]+) is above the tolerance ([0-9.eE+-]+)")
 _EXIST = re.compile(r"(\d+) bound state\(s\) exist, (\d+) not resolved")

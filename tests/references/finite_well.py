@@ -35,7 +35,7 @@ def square_well_levels(width: float, depth: float, *, mass: float = 1.0, units: 
             hi = min((n + 1) * mp.pi / 2, z0)
             even = n % 2 == 0
 
-            def f(z):
+            def f(z, even=even):
                 # monotone increasing on (n pi/2, (n+1) pi/2): z tan z (even) or -z cot z (odd) minus sqrt(z0^2 - z^2)
                 lhs = z * mp.tan(z) if even else -z * mp.cot(z)
                 return lhs - mp.sqrt(max(z0**2 - z**2, mp.mpf(0)))
