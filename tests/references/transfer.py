@@ -41,7 +41,7 @@ import mpmath as mp
 
 from .constants import hbar2_2me
 
-BISECT_DIGITS = 4  # bracket width, in digits of E, below which regula falsi takes over
+BISECT_DIGITS = 4  # bracket width, in digits of E, below which secant steps take over
 
 
 @dataclass(frozen=True)
@@ -228,12 +228,3 @@ class Stack:
                 return x2
             x0, f0, x1, f1 = x1, f1, x2, f2
         raise AssertionError("regula falsi did not converge")
-
-
-def stack_from_layer_dicts(layers: list[dict], default_mass: float, units: str = "nm-meV") -> Stack:
-    """The same stack as fdsolver's ``[[layer]]`` list of dicts (numbers only; no expressions)."""
-    out = []
-    for i, l in enumerate(layers):
-        inner = 0 < i < len(layers) - 1
-        out.append(Layer(float(l["thickness"]) if inner else None, float(l["band_edge"]), float(l.get("mass", default_mass))))
-    return Stack(out, units=units)
