@@ -227,4 +227,4 @@ class Stack:
             if abs(x2 - x1) < tol or b - a < tol:
                 return x2
             x0, f0, x1, f1 = x1, f1, x2, f2
-        raise AssertionError("regula falsi did not converge")
+        raise AssertionError("the secant steps did not converge")
