@@ -46,8 +46,9 @@ from fdsolver.numerics.richardson import Romberg
 
 #: most nested cell levels in a threshold refinement (smooth potentials)
 MAX_LEVELS = 7
-#: round-off of a phase margin marched exactly (in units of pi)
-MARGIN_ROUNDOFF = 1e-10
+#: round-off of a phase margin, in ulps per cell crossed (the margin is computed with full relative accuracy
+#: near an integer, from cross products)
+MARGIN_ULPS = 16.0
 #: a root is bracketed again around its previous value by growing a window at most this many times
 MAX_BRACKET_GROWTH = 80
 
@@ -124,11 +125,20 @@ def bound_count(potential, layout: Layout | None = None) -> int:
     """
     layout = layout or layout_for([potential])
     if layout.compact:
-        phi, err = phase_margin(potential, layout, level=0), MARGIN_ROUNDOFF
+        phi = phase_margin(potential, layout, level=0)
+        err = MARGIN_ULPS * EPS * (layout_cells(potential, layout) + abs(phi) + 1.0)
     else:
         p1, p2 = phase_margin(potential, layout, level=1), phase_margin(potential, layout, level=2)
-        phi, err = p2 + (p2 - p1) / 3.0, abs(p2 - p1) / 3.0 + MARGIN_ROUNDOFF
+        phi = p2 + (p2 - p1) / 3.0
+        err = abs(p2 - p1) / 3.0 + MARGIN_ULPS * EPS * (layout_cells(potential, layout, 2) + abs(phi) + 1.0)
     return count_from_margin(phi - err)
+
+
+def layout_cells(potential, layout: Layout, level: int = 0) -> int:
+    """Number of cells the march crosses on ``level`` (the round-off of a margin grows with it)."""
+    if layout.compact:
+        return int(potential.features().size + 1)
+    return int(sum(layout.counts) * 2**level + 2)
 
 
 # ------------------------------------------------------------------ thresholds

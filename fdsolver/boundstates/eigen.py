@@ -137,15 +137,18 @@ def _clusters(values: np.ndarray, floor: float) -> np.ndarray:
 
 
 def _roundoff(matrix: np.ndarray, quotient: np.ndarray, energies: np.ndarray) -> np.ndarray:
-    """Round-off floor of each energy: the quotient's ulps, plus matrix^2 / gap (a vector mixed with its nearest
+    """Round-off floor of each energy: the quotient's ulps; the rounding of its differences on fine cells,
+    about 4 eps sqrt((|E| + <|V|>) sum |T_ii| u_i^2); and matrix^2 / gap (a vector mixed with its nearest
     neighbour of the same sector moves the quotient by gap * mixing^2, mixing ~ matrix / gap), at most the gap."""
+    # the differences psi_i+1 - psi_i in the quotient lose eps |psi| / |dpsi| each: eps sqrt(E ||T||_local) in all
+    graded = 4.0 * np.sqrt(matrix * quotient / QUOTIENT_ULPS)
     if energies.size < 2:
-        return quotient.copy()
+        return quotient + graded
     d = np.diff(energies)
     gap = np.concatenate([d, [np.inf]])
     gap[1:] = np.minimum(gap[1:], d)
     gap = np.maximum(gap, 1e-300)
-    return quotient + np.minimum(matrix * matrix / gap, np.where(np.isfinite(gap), gap, 0.0))
+    return quotient + graded + np.minimum(matrix * matrix / gap, np.where(np.isfinite(gap), gap, 0.0))
 
 
 def _vectors(op: Operator, values: np.ndarray, floor: float):
