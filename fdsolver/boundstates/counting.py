@@ -35,7 +35,6 @@ from dataclasses import dataclass, field
 from typing import Callable
 
 import numpy as np
-from scipy.optimize import brentq
 
 from fdsolver.errors import CaseError
 from fdsolver.model.domain import Domain, continuum_threshold
@@ -208,6 +207,8 @@ def find_thresholds(family: Callable[[float], object], name: str, lo: float, hi:
 
 
 def _refine(at, layout: Layout, name, n, a, b, grows: bool, rtol, units, notes) -> Threshold:
+    from scipy.optimize import brentq
+
     span = abs(b - a)
     table = Romberg()
     value = err = math.nan

@@ -39,7 +39,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.linalg import eigvalsh_tridiagonal
 
 from fdsolver.numerics import kernels
 from fdsolver.numerics.operator import Operator
@@ -113,6 +112,8 @@ def _bisection(op: Operator, lo: int, hi: int, top: float, floor: float) -> np.n
     if op.size == 1:
         return np.array([op.d[0]])
     if (hi - lo) * op.size > LAPACK_WORK:
+        from scipy.linalg import eigvalsh_tridiagonal
+
         return eigvalsh_tridiagonal(op.d, op.e, select="i", select_range=(lo, hi - 1), lapack_driver="stebz")
     off = np.abs(np.concatenate([[0.0], op.e])) + np.abs(np.concatenate([op.e, [0.0]]))
     below = float(np.min(op.d - off))
@@ -153,13 +154,43 @@ def _roundoff(matrix: np.ndarray, quotient: np.ndarray, energies: np.ndarray) ->
 
 def _vectors(op: Operator, values: np.ndarray, floor: float):
     """Unit eigenvectors (rows), energies and (matrix, quotient) round-off scales for the sector's eigenvalues
-    ``values`` (ascending), by :func:`fdsolver.numerics.kernels.sector_vectors`; None if it broke down."""
+    ``values`` (ascending); None if inverse iteration broke down.
+
+    Inverse iteration (orthonormal within clusters), a flux-form
+    Rayleigh-Ritz rotation inside every cluster of two or more, which
+    separates its members to the accuracy of the quotient, then
+    :func:`fdsolver.numerics.kernels.finish_vectors` (quotients, residual
+    checks, polish).
+    """
     k = values.size
     vectors, energy, scales = np.empty((k, op.size)), np.empty(k), np.empty((k, 2))
     first = _clusters(values, floor)
-    ok = kernels.sector_vectors(op.d, op.e, op.a, op.vw, op.w, np.ascontiguousarray(values, dtype=float), first,
-                                float(floor), INVERSE_STEPS, RESIDUAL_FACTOR, QUOTIENT_ULPS, EPS, vectors, energy, scales)
-    return (vectors, energy, scales) if ok else None
+    if not kernels.inverse_iteration(op.d, op.e, np.ascontiguousarray(values, dtype=float), first, INVERSE_STEPS,
+                                     vectors):
+        return None
+    _rayleigh_ritz(op, vectors, first)
+    kernels.finish_vectors(op.d, op.e, op.a, op.vw, op.w, first, float(floor), INVERSE_STEPS, RESIDUAL_FACTOR,
+                           QUOTIENT_ULPS, EPS, vectors, energy, scales)
+    return vectors, energy, scales
+
+
+def _rayleigh_ritz(op: Operator, vectors: np.ndarray, first: np.ndarray) -> None:
+    """Rotate every cluster's orthonormal basis onto the eigenvectors of K within it (in place).
+
+    Inverse iteration from shifts that are not yet exact (a prediction, or
+    bisection to BISECTION_RTOL) finds a cluster's subspace accurately (its
+    distance to the rest of the spectrum is large) but not the members
+    inside it; the flux-form matrix of the basis separates them.
+    """
+    starts = np.flatnonzero(np.diff(np.concatenate([first, [-1]])) != 0)
+    j = 0
+    for end in starts:
+        if end > j:
+            block = vectors[j : end + 1]
+            h = kernels.flux_matrix(block / np.sqrt(op.w)[None, :], op.a, op.vw)
+            _, rot = np.linalg.eigh(h)
+            vectors[j : end + 1] = rot.T @ block
+        j = end + 1
 
 
 def _proved(op: Operator, values: np.ndarray, lo: int, floor: float, r: np.ndarray) -> bool:

@@ -29,13 +29,17 @@ def run_solve(args) -> int:
 
     check_output(args.output, "--output", ARCHIVE_SUFFIXES)
     check_output(args.plot, "--plot", FIG_SUFFIXES)
+    from fdsolver.api import solve_record_of
+
     case = fdsolver.load_case(args.case, **parse_set(args.set))
-    ds = fdsolver.solve(case, action=command("solve", args, [("--set", "set")]))
-    print(format_solve(ds))
-    if args.output:
-        fdsolver.write_dataset(ds, args.output)
-        print(f"wrote {args.output}")
-    write_figure(ds, args.plot)
+    rec = solve_record_of(case, action=command("solve", args, [("--set", "set")]))
+    print(format_solve(rec))
+    if args.output or args.plot:  # xarray is imported only when an archive or a figure is made
+        ds = rec.dataset()
+        if args.output:
+            fdsolver.write_dataset(ds, args.output)
+            print(f"wrote {args.output}")
+        write_figure(ds, args.plot)
     return 0
 
 

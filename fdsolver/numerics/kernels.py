@@ -296,47 +296,19 @@ def _round_scales(d, vw, w, u, lam, ulps, eps):
 
 
 @njit
-def sector_vectors(d, e, a, vw, w, shifts, first, floor, steps, residual_factor, ulps, eps, vectors, energy, scales):
-    """Eigenpairs of one sector from eigenvalue estimates ``shifts`` (ascending), in one compiled pass.
+def finish_vectors(d, e, a, vw, w, first, floor, steps, residual_factor, ulps, eps, vectors, energy, scales):
+    """Energies and round-off scales of a sector's eigenvectors (rows of ``vectors``, from inverse iteration).
 
-    Inverse iteration (:func:`inverse_iteration`, orthonormal within the
-    clusters given by ``first``); a flux-form Rayleigh-Ritz rotation inside
-    every cluster of two or more (:func:`flux_matrix`), which separates its
-    members to the accuracy of the quotient; each energy the flux-form
-    Rayleigh quotient; a state whose residual |T u - lambda u| exceeds
-    ``residual_factor`` times its round-off scale redone with twice the
-    steps; an isolated state polished by one Rayleigh-quotient step when that
-    moves it by less than 1e-6 of its scale.  Fills ``vectors`` (k x n),
-    ``energy`` (k) and ``scales`` (k x 2: matrix and quotient round-off
-    scales).  Returns False if inverse iteration broke down.
+    Each energy is the flux-form Rayleigh quotient; a state whose residual
+    |T u - lambda u| exceeds ``residual_factor`` times its round-off scale is
+    redone with twice the steps; an isolated state (``first``: its own
+    cluster) is polished by one Rayleigh-quotient step when that moves it by
+    less than 1e-6 of its scale.  Fills ``vectors`` (k x n), ``energy`` (k)
+    and ``scales`` (k x 2: matrix and quotient round-off scales).
+    Returns True.
     """
-    k = shifts.shape[0]
+    k = vectors.shape[0]
     n = d.shape[0]
-    if not inverse_iteration(d, e, shifts, first, steps, vectors):
-        return False
-    sqw = np.sqrt(w)
-    j = 0
-    while j < k:  # Rayleigh-Ritz inside clusters
-        end = j
-        while end + 1 < k and first[end + 1] == first[j]:
-            end += 1
-        if end > j:
-            m = end - j + 1
-            block = np.empty((m, n))
-            for r in range(m):
-                for i in range(n):
-                    block[r, i] = vectors[j + r, i] / sqw[i]
-            h = flux_matrix(block, a, vw)
-            vals, rot = np.linalg.eigh(h)
-            new = np.zeros((m, n))
-            for r in range(m):
-                for q in range(m):
-                    coef = rot[q, r]
-                    for i in range(n):
-                        new[r, i] += coef * vectors[j + q, i]
-            for r in range(m):
-                vectors[j + r] = new[r]
-        j = end + 1
     redo = np.empty((1, n))
     one = np.zeros(1, dtype=np.int64)
     for j in range(k):
