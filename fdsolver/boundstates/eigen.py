@@ -129,12 +129,7 @@ def _bisection(op: Operator, lo: int, hi: int, top: float, floor: float) -> np.n
 
 def _clusters(values: np.ndarray, floor: float) -> np.ndarray:
     """first[j]: the first member of the cluster of state j (states closer than CLUSTER_RTOL of their scale)."""
-    first = np.arange(values.size)
-    for j in range(1, values.size):
-        scale = max(abs(values[j]), abs(values[j - 1]), floor)
-        if values[j] - values[j - 1] < CLUSTER_RTOL * scale:
-            first[j] = first[j - 1]
-    return first
+    return kernels.cluster_starts(np.ascontiguousarray(values, dtype=float), float(floor), CLUSTER_RTOL)
 
 
 def _roundoff(matrix: np.ndarray, quotient: np.ndarray, energies: np.ndarray) -> np.ndarray:
@@ -191,27 +186,6 @@ def _rayleigh_ritz(op: Operator, vectors: np.ndarray, first: np.ndarray) -> None
             _, rot = np.linalg.eigh(h)
             vectors[j : end + 1] = rot.T @ block
         j = end + 1
-
-
-def _proved(op: Operator, values: np.ndarray, lo: int, floor: float, r: np.ndarray) -> bool:
-    """Sturm proof that ``values`` are the sector's eigenvalues number lo, lo + 1, ... (clusters as a whole)."""
-    k = values.size
-    first = _clusters(values, floor)
-    j = 0
-    while j < k:
-        end = j
-        while end + 1 < k and first[end + 1] == first[j]:
-            end += 1
-        gap_lo = values[j] - values[j - 1] if j > 0 else math.inf
-        gap_hi = values[end + 1] - values[end] if end + 1 < k else math.inf
-        delta_lo = min(0.5 * gap_lo, max(1e-7 * max(abs(values[j]), floor), 100.0 * r[j]))
-        delta_hi = min(0.5 * gap_hi, max(1e-7 * max(abs(values[end]), floor), 100.0 * r[end]))
-        if kernels.sturm_count(op.d, op.e, values[j] - delta_lo) != lo + j:
-            return False
-        if kernels.sturm_count(op.d, op.e, values[end] + delta_hi) != lo + end + 1:
-            return False
-        j = end + 1
-    return True
 
 
 def solve_grid(sectors, e_lo: float | None, e_hi: float, max_states: int, floor: float,
@@ -291,25 +265,36 @@ def _predicted(guess, n_sectors: int, n: int):
 
 
 def _sector_states(op: Operator, values: np.ndarray, lo: int, floor: float, prove: bool):
-    """(vectors, energies, round-off) of one sector's states, or None when a predicted set fails its proof."""
-    if values.size == 0:
+    """(vectors, energies, round-off) of one sector's states, or None when a predicted set fails its proof.
+
+    Without clusters the whole pass is one compiled call
+    (:func:`fdsolver.numerics.kernels.sector_pass`); with clusters the
+    Rayleigh-Ritz step runs between the inverse iteration and the rest.
+    """
+    k = values.size
+    if k == 0:
         return np.empty((0, op.size)), np.empty(0), np.empty(0)
-    got = _vectors(op, values, floor)
-    if got is None:
+    vectors, energies, scales = np.empty((k, op.size)), np.empty(k), np.empty((k, 2))
+    status = kernels.sector_pass(op.d, op.e, op.a, op.vw, op.w, np.ascontiguousarray(values, dtype=float), int(lo),
+                                 float(floor), bool(prove), CLUSTER_RTOL, INVERSE_STEPS, RESIDUAL_FACTOR,
+                                 QUOTIENT_ULPS, EPS, vectors, energies, scales)
+    if status == 1:
+        got = _vectors(op, values, floor)
+        if got is None:
+            return None
+        vectors, energies, scales = got
+        order = np.argsort(energies, kind="stable")
+        vectors, energies, scales = vectors[order], energies[order], scales[order]
+        if prove and not kernels.prove_indices(op.d, op.e, energies, _clusters(energies, floor), int(lo), float(floor),
+                                               np.ascontiguousarray(scales[:, 0])):
+            return None
+        for j in range(k):  # sign convention: the first significant lobe is positive
+            big = np.flatnonzero(np.abs(vectors[j]) > 1e-3 * np.max(np.abs(vectors[j])))
+            if big.size and vectors[j, big[0]] < 0:
+                vectors[j] = -vectors[j]
+    elif status != 0:
         return None
-    vectors, energies, scales = got
-    order = np.argsort(energies, kind="stable")
-    vectors, energies, scales = vectors[order], energies[order], scales[order]
-    matrix, quotient = scales[:, 0], scales[:, 1]
-    r = _roundoff(matrix, quotient, energies)
-    if prove and not _proved(op, energies, lo, floor, matrix):
-        return None
-    for j in range(vectors.shape[0]):  # sign convention: the first significant lobe is positive
-        u = vectors[j]
-        big = np.flatnonzero(np.abs(u) > 1e-3 * np.max(np.abs(u)))
-        if big.size and u[big[0]] < 0:
-            vectors[j] = -u
-    return vectors, energies, r
+    return vectors, energies, _roundoff(scales[:, 0], scales[:, 1], energies)
 
 
 def _complete(sectors, top: float, expected: int, floor: float) -> bool:

@@ -347,6 +347,95 @@ def finish_vectors(d, e, a, vw, w, first, floor, steps, residual_factor, ulps, e
 
 
 @njit
+def cluster_starts(values, floor, rtol):
+    """first[j]: the first member of state j's cluster (consecutive values closer than rtol of their scale)."""
+    k = values.shape[0]
+    first = np.arange(k)
+    for j in range(1, k):
+        scale = max(abs(values[j]), abs(values[j - 1]), floor)
+        if values[j] - values[j - 1] < rtol * scale:
+            first[j] = first[j - 1]
+    return first
+
+
+@njit
+def prove_indices(d, e, values, first, lo, floor, matrix):
+    """Sturm proof that the ascending ``values`` are eigenvalues number lo, lo + 1, ... (clusters as a whole).
+
+    Each cluster's bounds are moved out by half the gap to its neighbours (at
+    most), and by at least 1e-7 of the scale or 100 times the matrix
+    round-off scale; the counts there must be exactly the cluster's indices.
+    """
+    k = values.shape[0]
+    j = 0
+    while j < k:
+        end = j
+        while end + 1 < k and first[end + 1] == first[j]:
+            end += 1
+        gap_lo = values[j] - values[j - 1] if j > 0 else math.inf
+        gap_hi = values[end + 1] - values[end] if end + 1 < k else math.inf
+        delta_lo = min(0.5 * gap_lo, max(1e-7 * max(abs(values[j]), floor), 100.0 * matrix[j]))
+        delta_hi = min(0.5 * gap_hi, max(1e-7 * max(abs(values[end]), floor), 100.0 * matrix[end]))
+        if sturm_count(d, e, values[j] - delta_lo) != lo + j:
+            return False
+        if sturm_count(d, e, values[end] + delta_hi) != lo + end + 1:
+            return False
+        j = end + 1
+    return True
+
+
+@njit
+def sector_pass(d, e, a, vw, w, shifts, lo, floor, prove, cluster_rtol, steps, residual_factor, ulps, eps,
+                vectors, energy, scales):
+    """A sector's eigenpairs from eigenvalue estimates, in one compiled pass, when no two of them form a cluster.
+
+    Inverse iteration, the quotients, residual checks and polish
+    (:func:`finish_vectors`), then sorting, the Sturm proof of the indices
+    lo, lo + 1, ... (``prove``) and the sign convention (the first lobe above
+    1e-3 of the peak is positive).  Returns 0 on success, 1 if the estimates
+    form a cluster (the caller takes the general path), 2 if inverse
+    iteration broke down, 3 if the proof failed.
+    """
+    k = shifts.shape[0]
+    first = cluster_starts(shifts, floor, cluster_rtol)
+    for j in range(k):
+        if first[j] != j:
+            return 1
+    if not inverse_iteration(d, e, shifts, first, steps, vectors):
+        return 2
+    finish_vectors(d, e, a, vw, w, first, floor, steps, residual_factor, ulps, eps, vectors, energy, scales)
+    for j in range(1, k):  # insertion sort by energy (k is small), vectors and scales along
+        i = j
+        while i > 0 and energy[i - 1] > energy[i]:
+            energy[i - 1], energy[i] = energy[i], energy[i - 1]
+            for c in range(2):
+                scales[i - 1, c], scales[i, c] = scales[i, c], scales[i - 1, c]
+            tmp = vectors[i - 1].copy()
+            vectors[i - 1] = vectors[i]
+            vectors[i] = tmp
+            i -= 1
+    if prove:
+        matrix = np.empty(k)
+        for j in range(k):
+            matrix[j] = scales[j, 0]
+        if not prove_indices(d, e, energy, cluster_starts(energy, floor, cluster_rtol), lo, floor, matrix):
+            return 3
+    n = d.shape[0]
+    for j in range(k):
+        peak = 0.0
+        for i in range(n):
+            if abs(vectors[j, i]) > peak:
+                peak = abs(vectors[j, i])
+        for i in range(n):
+            if abs(vectors[j, i]) > 1e-3 * peak:
+                if vectors[j, i] < 0.0:
+                    for q in range(n):
+                        vectors[j, q] = -vectors[j, q]
+                break
+    return 0
+
+
+@njit
 def lipschitz_limit(x, h, growth):
     """Return min over j of (h_j + growth |x_i - x_j|) for every i (x increasing)."""
     out = h.copy()
