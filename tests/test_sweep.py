@@ -102,7 +102,11 @@ def test_derived_quantities():
     ds = run(CASE, ["d=0.5,3"])
     e = ds.energy.values
     assert np.isnan(ds.tunnel_splitting.values[0])
-    assert ds.tunnel_splitting.values[1] == e[1, 1] - e[1, 0]
+    # the splitting is extrapolated as a sequence of its own (issue: splittings are results of their own); it agrees
+    # with the difference of the two energies within the error bars of the three
+    err = ds.energy_error.values
+    assert abs(ds.tunnel_splitting.values[1] - (e[1, 1] - e[1, 0])) <= ds.tunnel_splitting_error.values[1] + err[1, 0] + err[1, 1]
+    assert ds.tunnel_splitting_error.values[1] < err[1, 0] + err[1, 1]
     assert np.array_equal(ds.binding_energy.values, ds.continuum_threshold.values[:, None] - e, equal_nan=True)
 
 

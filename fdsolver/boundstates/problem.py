@@ -26,8 +26,9 @@ from fdsolver.model.domain import Domain, continuum_threshold
 
 #: measured upper bound of the working arrays per grid node (see DEVELOPERS.md)
 BYTES_PER_NODE = 8 * 40
-#: and per node and kept state (eigenvectors)
-BYTES_PER_NODE_STATE = 8 * 4
+#: and per node and kept state: the sectors' eigenvectors (half the grid each for mirror halves, else the whole)
+#: and the unfolded wavefunctions, 8 bytes each, with room for one more (measured peak: see DEVELOPERS.md)
+BYTES_PER_NODE_STATE = 8 * 3
 #: the WKB decay budget of a box end is ln(DECAY_TARGET / tol) / 2 + 1: truncation shift below tol / 100
 DECAY_TARGET = 100.0
 #: the energy scale of relative tolerances never falls below this fraction of the potential's range

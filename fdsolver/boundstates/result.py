@@ -35,6 +35,8 @@ from fdsolver.numerics.operator import NEUMANN
 RESOLVED_FRACTION = 1e-6
 #: a state with more than this share of its probability in a wall zone is a hard-wall state
 WALL_SHARE = 0.5
+#: states whose observables are summed at once (bounds the temporary psi^2 array)
+OBSERVABLE_CHUNK = 64
 
 
 @dataclass(frozen=True)
@@ -140,17 +142,24 @@ def finish(problem, box, center, run, box_error: np.ndarray, messages: list) -> 
         psi[k] = _unfold(run.sectors[states.sector[k]], states.vectors[k])[1]
     h = np.diff(x_all)
     w_all = np.concatenate([[0.0], 0.5 * (h[:-1] + h[1:]), [0.0]])
-    mean_x = psi**2 @ (w_all * x_all)
-    spread = np.sqrt(np.maximum(0.0, np.einsum("kx,x,kx->k", psi**2, w_all, (x_all[None, :] - mean_x[:, None]) ** 2)))
     regions = pot.regions()
-    inside = np.zeros((n, len(regions)))
-    for j, (_, rlo, rhi) in enumerate(regions):
-        inside[:, j] = psi**2 @ _cell_overlap(x_all, rlo, rhi)
+    zones = _wall_zones(problem, box)
+    # per node: weight, weight * x, weight * x^2 and each region's and wall zone's share of the node's cell;
+    # one product with psi^2 gives every state's norm-weighted sums (psi^2 made in chunks: memory O(N) per state)
+    x_ref = 0.5 * sum(pot.support())  # second moments about the structure's middle: no cancellation against <x>
+    columns = np.column_stack([w_all * x_all, w_all * (x_all - x_ref) ** 2]
+                              + [_cell_overlap(x_all, rlo, rhi) for _, rlo, rhi in regions]
+                              + [_cell_overlap(x_all, lo, hi) for _, lo, hi in zones])
+    sums = np.empty((n, columns.shape[1]))
+    for a in range(0, n, OBSERVABLE_CHUNK):
+        sums[a : a + OBSERVABLE_CHUNK] = (psi[a : a + OBSERVABLE_CHUNK] ** 2) @ columns
+    mean_x = sums[:, 0]
+    spread = np.sqrt(np.maximum(0.0, sums[:, 1] - (mean_x - x_ref) ** 2))
+    inside = sums[:, 2 : 2 + len(regions)]
     home = np.where(inside.max(axis=1) > 0, inside.argmax(axis=1), -1) if regions and n else np.full(n, -1)
     wall = np.zeros(n, dtype=int)
-    for side, lo, hi in _wall_zones(problem, box):
-        share = psi**2 @ _cell_overlap(x_all, lo, hi) if n else np.zeros(0)
-        wall[share > WALL_SHARE] = side
+    for j, (side, _, _) in enumerate(zones):
+        wall[sums[:, 2 + len(regions) + j] > WALL_SHARE] = side
     error = run.error + box_error
     energy = problem.absolute(run.energy)
     scale = problem.energy_scale(run.energy)

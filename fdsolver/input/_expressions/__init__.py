@@ -25,6 +25,7 @@ problem is reported as :class:`fdsolver.errors.CaseError`.
 from __future__ import annotations
 
 import ast
+import functools
 import keyword
 import math
 import warnings
@@ -222,6 +223,23 @@ def compile_expression(
     file=None,
     key=None,
 ) -> Expression:
+    """Parse and check an arithmetic expression; return an :class:`Expression` (see :func:`_compile`).
+
+    Compiled expressions are immutable and remembered (a sweep point rebuilds
+    its case with new param values, not new expressions).
+    """
+    allowed = None if allowed_names is None else frozenset(allowed_names)
+    if not isinstance(text, str):
+        return _compile(text, allowed, file, key)
+    return _compile_cached(text, allowed, None if file is None else str(file), key)
+
+
+@functools.lru_cache(maxsize=4096)
+def _compile_cached(text: str, allowed, file, key) -> Expression:
+    return _compile(text, allowed, file, key)
+
+
+def _compile(text, allowed, file, key) -> Expression:
     """Parse and check an arithmetic expression; return an :class:`Expression`.
 
     ``allowed_names``: if given, the only free names the expression may use
@@ -282,7 +300,6 @@ def compile_expression(
             "into parameters"
         ) from None
 
-    allowed = None if allowed_names is None else frozenset(allowed_names)
     names = _check_nodes(tree, src, text, allowed, fail)
     _check_depth(tree.body, text, fail)
     program = _translate(tree.body, src, text, fail)
