@@ -15,9 +15,9 @@ from scipy.optimize import brentq
 from scipy.special import ai_zeros
 
 import fdsolver
-from fdsolver.model.units import get_units
+from fdsolver.model.units import UNIT_SYSTEMS
 
-C_NM = get_units("nm-meV").hbar2_2me  # hbar^2/2m_e from scipy.constants (CODATA)
+C_NM = UNIT_SYSTEMS["nm-meV"].hbar2_2me  # hbar^2/2m_e from scipy.constants (CODATA)
 
 
 def solve(data):
