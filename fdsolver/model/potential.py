@@ -34,9 +34,9 @@ class Potential:
 
     # ------------------------------------------------------------------ values
     @cached_property
-    def _groups(self) -> tuple[tuple[type, tuple[Shape, ...]], ...]:
+    def _groups(self) -> tuple[tuple[type[Shape], tuple[Shape, ...]], ...]:
         """Shapes grouped by class, so that each class sums its instances in one pass."""
-        groups: dict[type, list[Shape]] = {}
+        groups: dict[type[Shape], list[Shape]] = {}
         for shape in self.shapes:
             groups.setdefault(type(shape), []).append(shape)
         return tuple((cls, tuple(members)) for cls, members in groups.items())
@@ -106,12 +106,12 @@ class Potential:
 
     @cached_property
     def _features(self) -> np.ndarray:
-        pts = []
+        found: list[float] = []
         for shape in self.shapes:
-            pts.extend(shape.features())
+            found.extend(shape.features())
         if self.stack is not None:
-            pts.extend(self.stack.interfaces.tolist())
-        pts = np.unique(np.asarray(pts, dtype=float))
+            found.extend(self.stack.interfaces.tolist())
+        pts = np.unique(np.asarray(found, dtype=float))
         if pts.size > 1:  # merge positions closer than round-off
             keep = np.concatenate([[True], np.diff(pts) > 1e-12 * max(1.0, np.max(np.abs(pts)))])
             pts = pts[keep]
