@@ -129,6 +129,7 @@ def test_missing_file_and_directory(tmp_path):
     assert code == 2 and "no such archive" in err
 
 
+@pytest.mark.slow
 def test_foreign_and_corrupt_archives(tmp_path):
     import xarray as xr
 

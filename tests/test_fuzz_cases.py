@@ -329,18 +329,21 @@ def test_valid_seeds_give_cases(folder):
         assert check_contract(p.read_text(encoding="utf-8"), folder) is not None, p.name
 
 
+@pytest.mark.slow
 @FUZZ
 @given(mutated(st.sampled_from(seed_texts())))
 def test_mutated_seeds(folder, text):
     check_contract(text, folder)
 
 
+@pytest.mark.slow
 @settings(FUZZ, max_examples=1500 * SCALE)
 @given(mutated(documents().map(render)))
 def test_generated_documents(folder, text):
     check_contract(text, folder)
 
 
+@pytest.mark.slow
 @settings(FUZZ, max_examples=400 * SCALE)
 @given(st.text(max_size=200))
 def test_arbitrary_text(folder, text):
@@ -351,6 +354,7 @@ def test_arbitrary_text(folder, text):
 PYTHON_ONLY = [None, 1 + 2j, b"1", np.float64(1.5), np.array([1.0]), (1.0,), {1, 2}, object(), float("nan")]
 
 
+@pytest.mark.slow
 @settings(FUZZ, max_examples=300 * SCALE)
 @given(documents(), st.sampled_from(["width", "depth", "center", "sigma", "max_states", "tolerance", "title", "left"]),
        st.sampled_from(PYTHON_ONLY))
