@@ -31,6 +31,7 @@ FUZZ = settings(
     max_examples=400,
     deadline=None,
     derandomize=True,
+    database=None,  # no example database in the working folder
     suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much],
 )
 
