@@ -23,14 +23,18 @@ from __future__ import annotations
 
 import os
 from collections.abc import Sequence
-
-import xarray as xr
+from typing import TYPE_CHECKING
 
 from fdsolver.errors import ArchiveError, CaseError
 from fdsolver.input.case import Case, case_from_text, load_case
 from fdsolver.io.archive import stamp
-from fdsolver.io.datasets import solve_dataset
+from fdsolver.io.datasets import solve_record
 from fdsolver.runs import solve_case
+
+if TYPE_CHECKING:
+    import xarray as xr
+
+    from fdsolver.io.record import Record
 
 __all__ = ["case_of_run", "delta_check", "delta_map", "solve", "solve_case", "sweep", "threshold"]
 
@@ -45,9 +49,14 @@ def _where(case: Case) -> str:
 
 def solve(case: Case | str | os.PathLike, action: str | None = None) -> xr.Dataset:
     """Bound states of ``case`` as an archive-ready Dataset (kind ``solve``, :data:`fdsolver.io.specs.SOLVE`)."""
+    return solve_record_of(case, action).dataset()
+
+
+def solve_record_of(case: Case | str | os.PathLike, action: str | None = None) -> Record:
+    """:func:`solve` without building the Dataset (no xarray import): the archive's variables and attributes."""
     case = _case(case)
     sol = solve_case(case)
-    return solve_dataset(case, sol, stamp(action or f"solve {_where(case)}"))
+    return solve_record(case, sol, stamp(action or f"solve {_where(case)}"))
 
 
 def case_of_run(ds: xr.Dataset) -> Case:

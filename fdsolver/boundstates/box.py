@@ -17,6 +17,9 @@ import numpy as np
 
 from fdsolver.model.potential import Potential
 
+#: ratio of successive sample distances when the WKB decay integral is walked out from the potential
+GROWTH = 1.05
+
 
 def length_scale(potential: Potential) -> float:
     lo, hi = potential.support()
@@ -29,7 +32,7 @@ def length_scale(potential: Potential) -> float:
 def decay_extent(potential: Potential, start: float, side: int, e_top: float, budget: float, scale: float) -> float:
     """Position beyond ``start`` (direction ``side``) where the WKB decay integral of energy e_top reaches ``budget``."""
     c = potential.hbar2_2me
-    t = scale * 1e-3 * 1.02 ** np.arange(0, 2500)
+    t = scale * 1e-3 * GROWTH ** np.arange(0, int(np.log(1e12) / np.log(GROWTH)) + 2)
     t = t[t < scale * 1e9]
     x = start + side * np.concatenate([[0.0], t])
     with np.errstate(over="ignore", invalid="ignore"):

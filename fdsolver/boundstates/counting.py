@@ -35,7 +35,6 @@ from dataclasses import dataclass, field
 from typing import Callable
 
 import numpy as np
-from scipy.optimize import brentq
 
 from fdsolver.errors import CaseError
 from fdsolver.model.domain import Domain, continuum_threshold
@@ -46,6 +45,9 @@ from fdsolver.numerics.richardson import Romberg
 
 #: most nested cell levels in a threshold refinement (smooth potentials)
 MAX_LEVELS = 7
+#: round-off of a phase margin, in ulps per cell crossed (the margin is computed with full relative accuracy
+#: near an integer, from cross products)
+MARGIN_ULPS = 16.0
 #: a root is bracketed again around its previous value by growing a window at most this many times
 MAX_BRACKET_GROWTH = 80
 
@@ -112,9 +114,30 @@ def count_from_margin(phi: float) -> int:
 
 
 def bound_count(potential, layout: Layout | None = None) -> int:
-    """Number of bound states of ``potential`` on the whole open line, from the zero-energy phase (no box)."""
+    """Number of bound states of ``potential`` on the whole open line, from the zero-energy phase (no box).
+
+    A state counts only if the margin exceeds it by more than the margin's own
+    error: round-off for compact potentials (one exact cell per segment); for
+    smooth ones the margin is Richardson-extrapolated from cell levels 1 and 2
+    and its error is the change.  A state within that band of its threshold
+    (a zero-energy resonance, e.g. -sech^2 at lambda = 1) is not bound.
+    """
     layout = layout or layout_for([potential])
-    return count_from_margin(phase_margin(potential, layout, level=0 if layout.compact else 1))
+    if layout.compact:
+        phi = phase_margin(potential, layout, level=0)
+        err = MARGIN_ULPS * EPS * (layout_cells(potential, layout) + abs(phi) + 1.0)
+    else:
+        p1, p2 = phase_margin(potential, layout, level=1), phase_margin(potential, layout, level=2)
+        phi = p2 + (p2 - p1) / 3.0
+        err = abs(p2 - p1) / 3.0 + MARGIN_ULPS * EPS * (layout_cells(potential, layout, 2) + abs(phi) + 1.0)
+    return count_from_margin(phi - err)
+
+
+def layout_cells(potential, layout: Layout, level: int = 0) -> int:
+    """Number of cells the march crosses on ``level`` (the round-off of a margin grows with it)."""
+    if layout.compact:
+        return int(potential.features().size + 1)
+    return int(sum(layout.counts) * 2**level + 2)
 
 
 # ------------------------------------------------------------------ thresholds
@@ -184,6 +207,8 @@ def find_thresholds(family: Callable[[float], object], name: str, lo: float, hi:
 
 
 def _refine(at, layout: Layout, name, n, a, b, grows: bool, rtol, units, notes) -> Threshold:
+    from scipy.optimize import brentq
+
     span = abs(b - a)
     table = Romberg()
     value = err = math.nan

@@ -39,7 +39,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.linalg import eigvalsh_tridiagonal
 
 from fdsolver.numerics import kernels
 from fdsolver.numerics.operator import Operator
@@ -53,6 +52,10 @@ INVERSE_STEPS = 3
 RESIDUAL_FACTOR = 1e3
 #: the flux-form Rayleigh quotient is trusted to this many ulps of its scale
 QUOTIENT_ULPS = 64.0
+#: bisection stops at this relative bracket: inverse iteration and the quotient take it from there
+BISECTION_RTOL = 1e-9
+#: beyond this many (values x grid nodes) LAPACK's simultaneous bisection is cheaper than one value at a time
+LAPACK_WORK = 200_000
 
 
 @dataclass(frozen=True)
@@ -97,134 +100,92 @@ def _count(op: Operator, e: float | None, default: int) -> int:
     return int(kernels.sturm_count(op.d, op.e, e))
 
 
-def _bisection(op: Operator, lo: int, hi: int) -> np.ndarray:
-    """Eigenvalues number lo .. hi - 1 of the sector by LAPACK bisection."""
+def _bisection(op: Operator, lo: int, hi: int, top: float, floor: float) -> np.ndarray:
+    """Eigenvalues number lo .. hi - 1 of the sector by bisection on Sturm counts, to BISECTION_RTOL.
+
+    Brackets: Gershgorin's lower bound and ``top`` (above every wanted value).
+    Many values of a large grid go to LAPACK (``stebz``), whose simultaneous
+    bisection shares the counts between them.
+    """
     if hi <= lo:
         return np.empty(0)
     if op.size == 1:
         return np.array([op.d[0]])
-    return eigvalsh_tridiagonal(op.d, op.e, select="i", select_range=(lo, hi - 1), lapack_driver="stebz")
+    if (hi - lo) * op.size > LAPACK_WORK:
+        from scipy.linalg import eigvalsh_tridiagonal
+
+        return eigvalsh_tridiagonal(op.d, op.e, select="i", select_range=(lo, hi - 1), lapack_driver="stebz")
+    off = np.abs(np.concatenate([[0.0], op.e])) + np.abs(np.concatenate([op.e, [0.0]]))
+    below = float(np.min(op.d - off))
+    above = top
+    if not math.isfinite(above):  # walls or a confining potential: double a step until it holds the values
+        step = max(floor, 1e-3 * abs(below), 1e-300)
+        above = below + step
+        while kernels.sturm_count(op.d, op.e, above) < hi and math.isfinite(above):
+            step *= 2.0
+            above = below + step
+    return kernels.bisect_eigenvalues(op.d, op.e, lo, hi - lo, below, above, BISECTION_RTOL, floor)
 
 
 def _clusters(values: np.ndarray, floor: float) -> np.ndarray:
     """first[j]: the first member of the cluster of state j (states closer than CLUSTER_RTOL of their scale)."""
-    first = np.arange(values.size)
-    for j in range(1, values.size):
-        scale = max(abs(values[j]), abs(values[j - 1]), floor)
-        if values[j] - values[j - 1] < CLUSTER_RTOL * scale:
-            first[j] = first[j - 1]
-    return first
-
-
-def _scales(op: Operator, u: np.ndarray, energy: float) -> tuple[float, float]:
-    """(matrix, quotient) round-off scales of one state.
-
-    *matrix*: eps * sum |T_ii| u_i^2, the backward error of a Sturm count or of
-    the vector's residual where the state lives (it grows as 1/h^2 there, not
-    with the largest entry of T).  *quotient*: a few ulps of |E| + <|V - shift|>,
-    the rounding of the flux-form Rayleigh quotient, which gives the energy.
-    """
-    psi2 = u * u
-    matrix = EPS * float(np.sum(np.abs(op.d) * psi2))
-    potential = float(np.sum(np.abs(op.vw / op.w) * psi2))
-    return matrix, QUOTIENT_ULPS * EPS * (abs(energy) + potential)
+    return kernels.cluster_starts(np.ascontiguousarray(values, dtype=float), float(floor), CLUSTER_RTOL)
 
 
 def _roundoff(matrix: np.ndarray, quotient: np.ndarray, energies: np.ndarray) -> np.ndarray:
-    """Round-off floor of each energy: the quotient's ulps, plus matrix^2 / gap (a vector mixed with its nearest
+    """Round-off floor of each energy: the quotient's ulps; the rounding of its differences on fine cells,
+    about 4 eps sqrt((|E| + <|V|>) sum |T_ii| u_i^2); and matrix^2 / gap (a vector mixed with its nearest
     neighbour of the same sector moves the quotient by gap * mixing^2, mixing ~ matrix / gap), at most the gap."""
-    gap = np.full(energies.size, np.inf)
-    if energies.size > 1:
-        d = np.diff(energies)
-        gap[:-1] = d
-        gap[1:] = np.minimum(gap[1:], d)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        mixing = np.where(np.isfinite(gap), np.minimum(matrix**2 / gap, gap), 0.0)
-    return quotient + np.nan_to_num(mixing, nan=0.0, posinf=0.0)
+    # the differences psi_i+1 - psi_i in the quotient lose eps |psi| / |dpsi| each: eps sqrt(E ||T||_local) in all
+    graded = 4.0 * np.sqrt(matrix * quotient / QUOTIENT_ULPS)
+    if energies.size < 2:
+        return quotient + graded
+    d = np.diff(energies)
+    gap = np.concatenate([d, [np.inf]])
+    gap[1:] = np.minimum(gap[1:], d)
+    gap = np.maximum(gap, 1e-300)
+    return quotient + graded + np.minimum(matrix * matrix / gap, np.where(np.isfinite(gap), gap, 0.0))
 
 
-def _residual(op: Operator, u: np.ndarray, lam: float) -> float:
-    r = (op.d - lam) * u
-    r[:-1] += op.e * u[1:]
-    r[1:] += op.e * u[:-1]
-    return float(np.sqrt(np.sum(r * r)))
+def _vectors(op: Operator, values: np.ndarray, floor: float):
+    """Unit eigenvectors (rows), energies and (matrix, quotient) round-off scales for the sector's eigenvalues
+    ``values`` (ascending); None if inverse iteration broke down.
 
-
-def _vectors(op: Operator, values: np.ndarray, floor: float, polish: bool) -> tuple[np.ndarray, np.ndarray] | None:
-    """Unit eigenvectors (rows) and polished energies for the sector's eigenvalues ``values`` (ascending)."""
+    Inverse iteration (orthonormal within clusters), a flux-form
+    Rayleigh-Ritz rotation inside every cluster of two or more, which
+    separates its members to the accuracy of the quotient, then
+    :func:`fdsolver.numerics.kernels.finish_vectors` (quotients, residual
+    checks, polish).
+    """
     k = values.size
-    out = np.empty((k, op.size))
+    vectors, energy, scales = np.empty((k, op.size)), np.empty(k), np.empty((k, 2))
     first = _clusters(values, floor)
-    if not kernels.inverse_iteration(op.d, op.e, values, first, INVERSE_STEPS, out):
+    if not kernels.inverse_iteration(op.d, op.e, np.ascontiguousarray(values, dtype=float), first, INVERSE_STEPS,
+                                     vectors):
         return None
-    sqw = np.sqrt(op.w)
-    _rayleigh_ritz(op, out, first, sqw)
-    energy = np.empty(k)
-    for j in range(k):
-        u = out[j]
-        lam = kernels.flux_quotient(u / sqw, op.a, op.vw, op.w)
-        if _residual(op, u, lam) > RESIDUAL_FACTOR * sum(_scales(op, u, lam)) + 1e-12 * abs(lam):
-            redo = np.empty((1, op.size))
-            if kernels.inverse_iteration(op.d, op.e, np.array([lam]), np.zeros(1, np.int64), 2 * INVERSE_STEPS, redo):
-                u = redo[0]
-                lam = kernels.flux_quotient(u / sqw, op.a, op.vw, op.w)
-        alone = first[j] == j and (j + 1 >= k or first[j + 1] != j)
-        if polish and alone:  # one Rayleigh-quotient step: cubic convergence from an accurate vector
-            y = kernels.tridiag_solve(op.d, op.e, lam, u)
-            big = float(np.max(np.abs(y)))
-            nrm = float(np.sqrt(np.sum((y / big) ** 2))) * big if math.isfinite(big) and big > 0.0 else math.nan
-            if math.isfinite(nrm) and nrm > 0.0:
-                y = y / nrm
-                lam_y = kernels.flux_quotient(y / sqw, op.a, op.vw, op.w)
-                if abs(lam_y - lam) <= 1e-6 * max(abs(lam), floor):  # the same state, only sharper
-                    u, lam = y, lam_y
-        out[j] = u
-        energy[j] = lam
-    return out, energy
+    _rayleigh_ritz(op, vectors, first)
+    kernels.finish_vectors(op.d, op.e, op.a, op.vw, op.w, first, float(floor), INVERSE_STEPS, RESIDUAL_FACTOR,
+                           QUOTIENT_ULPS, EPS, vectors, energy, scales)
+    return vectors, energy, scales
 
 
-def _rayleigh_ritz(op: Operator, vectors: np.ndarray, first: np.ndarray, sqw: np.ndarray) -> None:
+def _rayleigh_ritz(op: Operator, vectors: np.ndarray, first: np.ndarray) -> None:
     """Rotate every cluster's orthonormal basis onto the eigenvectors of K within it (in place).
 
     Inverse iteration from shifts that are not yet exact (a prediction, or
-    bisection at eps * ||T||) finds the cluster's subspace accurately (its
-    distance to the rest of the spectrum is large) but not the members inside
-    it; the flux-form Rayleigh-Ritz matrix of the basis separates them to the
-    accuracy of the quotient.
+    bisection to BISECTION_RTOL) finds a cluster's subspace accurately (its
+    distance to the rest of the spectrum is large) but not the members
+    inside it; the flux-form matrix of the basis separates them.
     """
+    starts = np.flatnonzero(np.diff(np.concatenate([first, [-1]])) != 0)
     j = 0
-    k = vectors.shape[0]
-    while j < k:
-        end = j
-        while end + 1 < k and first[end + 1] == first[j]:
-            end += 1
+    for end in starts:
         if end > j:
             block = vectors[j : end + 1]
-            h = kernels.flux_matrix(block / sqw[None, :], op.a, op.vw)
+            h = kernels.flux_matrix(block / np.sqrt(op.w)[None, :], op.a, op.vw)
             _, rot = np.linalg.eigh(h)
             vectors[j : end + 1] = rot.T @ block
         j = end + 1
-
-
-def _proved(op: Operator, values: np.ndarray, lo: int, floor: float, r: np.ndarray) -> bool:
-    """Sturm proof that ``values`` are the sector's eigenvalues number lo, lo + 1, ... (clusters as a whole)."""
-    k = values.size
-    first = _clusters(values, floor)
-    j = 0
-    while j < k:
-        end = j
-        while end + 1 < k and first[end + 1] == first[j]:
-            end += 1
-        gap_lo = values[j] - values[j - 1] if j > 0 else math.inf
-        gap_hi = values[end + 1] - values[end] if end + 1 < k else math.inf
-        delta_lo = min(0.5 * gap_lo, max(1e-7 * max(abs(values[j]), floor), 100.0 * r[j]))
-        delta_hi = min(0.5 * gap_hi, max(1e-7 * max(abs(values[end]), floor), 100.0 * r[end]))
-        if kernels.sturm_count(op.d, op.e, values[j] - delta_lo) != lo + j:
-            return False
-        if kernels.sturm_count(op.d, op.e, values[end] + delta_hi) != lo + end + 1:
-            return False
-        j = end + 1
-    return True
 
 
 def solve_grid(sectors, e_lo: float | None, e_hi: float, max_states: int, floor: float,
@@ -251,7 +212,7 @@ def solve_grid(sectors, e_lo: float | None, e_hi: float, max_states: int, floor:
     predicted = _predicted(guess, len(sectors), n)
     for s, (sector, lo, hi) in enumerate(zip(sectors, lows, highs)):
         m = min(hi - lo, n) if predicted is None else predicted[s].size
-        values_of.append(predicted[s] if predicted is not None else _bisection(sector.op, lo, lo + m))
+        values_of.append(predicted[s] if predicted is not None else _bisection(sector.op, lo, lo + m, e_hi, floor))
         wanted.append(m)
     if predicted is None:
         allv = np.concatenate(values_of)
@@ -263,7 +224,8 @@ def solve_grid(sectors, e_lo: float | None, e_hi: float, max_states: int, floor:
     for s, sector in enumerate(sectors):
         got = _sector_states(sector.op, values_of[s], lows[s], floor, predicted is not None)
         if got is None:  # the prediction failed its proof: bisection
-            got = _sector_states(sector.op, _bisection(sector.op, lows[s], lows[s] + wanted[s]), lows[s], floor, False)
+            got = _sector_states(sector.op, _bisection(sector.op, lows[s], lows[s] + wanted[s], e_hi, floor), lows[s],
+                                 floor, False)
         if got is None:
             raise FloatingPointError("inverse iteration broke down on this grid")
         vecs.append(got[0])
@@ -303,25 +265,36 @@ def _predicted(guess, n_sectors: int, n: int):
 
 
 def _sector_states(op: Operator, values: np.ndarray, lo: int, floor: float, prove: bool):
-    """(vectors, energies, round-off) of one sector's states, or None when a predicted set fails its proof."""
-    if values.size == 0:
+    """(vectors, energies, round-off) of one sector's states, or None when a predicted set fails its proof.
+
+    Without clusters the whole pass is one compiled call
+    (:func:`fdsolver.numerics.kernels.sector_pass`); with clusters the
+    Rayleigh-Ritz step runs between the inverse iteration and the rest.
+    """
+    k = values.size
+    if k == 0:
         return np.empty((0, op.size)), np.empty(0), np.empty(0)
-    got = _vectors(op, values, floor, polish=True)
-    if got is None:
+    vectors, energies, scales = np.empty((k, op.size)), np.empty(k), np.empty((k, 2))
+    status = kernels.sector_pass(op.d, op.e, op.a, op.vw, op.w, np.ascontiguousarray(values, dtype=float), int(lo),
+                                 float(floor), bool(prove), CLUSTER_RTOL, INVERSE_STEPS, RESIDUAL_FACTOR,
+                                 QUOTIENT_ULPS, EPS, vectors, energies, scales)
+    if status == 1:
+        got = _vectors(op, values, floor)
+        if got is None:
+            return None
+        vectors, energies, scales = got
+        order = np.argsort(energies, kind="stable")
+        vectors, energies, scales = vectors[order], energies[order], scales[order]
+        if prove and not kernels.prove_indices(op.d, op.e, energies, _clusters(energies, floor), int(lo), float(floor),
+                                               np.ascontiguousarray(scales[:, 0])):
+            return None
+        for j in range(k):  # sign convention: the first significant lobe is positive
+            big = np.flatnonzero(np.abs(vectors[j]) > 1e-3 * np.max(np.abs(vectors[j])))
+            if big.size and vectors[j, big[0]] < 0:
+                vectors[j] = -vectors[j]
+    elif status != 0:
         return None
-    vectors, energies = got
-    order = np.argsort(energies, kind="stable")
-    vectors, energies = vectors[order], energies[order]
-    matrix, quotient = np.array([_scales(op, u, lam) for u, lam in zip(vectors, energies)]).reshape(-1, 2).T
-    r = _roundoff(matrix, quotient, energies)
-    if prove and not _proved(op, energies, lo, floor, matrix):
-        return None
-    for j in range(vectors.shape[0]):  # sign convention: the first significant lobe is positive
-        u = vectors[j]
-        big = np.flatnonzero(np.abs(u) > 1e-3 * np.max(np.abs(u)))
-        if big.size and u[big[0]] < 0:
-            vectors[j] = -u
-    return vectors, energies, r
+    return vectors, energies, _roundoff(scales[:, 0], scales[:, 1], energies)
 
 
 def _complete(sectors, top: float, expected: int, floor: float) -> bool:

@@ -28,7 +28,7 @@ import numpy as np
 from fdsolver.boundstates.eigen import GridStates, Sector, solve_grid
 from fdsolver.boundstates.problem import Problem
 from fdsolver.numerics.grid import refine
-from fdsolver.numerics.operator import NEUMANN, assemble
+from fdsolver.numerics.operator import assemble, mirror_halves
 from fdsolver.numerics.richardson import Romberg
 
 #: round-off grows by about this factor per level (matrix norm ~ 1/h^2)
@@ -37,11 +37,11 @@ ROUNDOFF_GROWTH = 4.0
 
 def sectors_on(problem: Problem, nodes: np.ndarray, center: float | None) -> list[Sector]:
     """The operators of a grid: the whole grid, or its even and odd halves about the mirror centre."""
-    pot, shift = problem.potential, problem.reference
+    whole = assemble(problem.potential, nodes, problem.reference)
     if center is None:
-        return [Sector(assemble(pot, nodes, shift), 0)]
-    half = nodes[np.searchsorted(nodes, center, side="left"):]
-    return [Sector(assemble(pot, half, shift, left=NEUMANN), 1), Sector(assemble(pot, half, shift), -1)]
+        return [Sector(whole, 0)]
+    even, odd = mirror_halves(whole, int(np.searchsorted(nodes, center, side="left")))
+    return [Sector(even, 1), Sector(odd, -1)]
 
 
 def solve_nodes(problem: Problem, nodes: np.ndarray, center: float | None, guess=None) -> tuple[list[Sector], GridStates]:
@@ -89,6 +89,7 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
     states = sectors = nodes = None
     last, n_expected = 0, None
     limited = np.zeros(0, dtype=bool)
+    vanished: list[tuple[int, int, int]] = []  # (first, last, nodes) of states lost on a finer grid
     for level in range(settings.max_levels):
         size = (base.size - 1) * 2**level + 1
         if size > problem.max_nodes:
@@ -103,10 +104,7 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
         if n_expected is not None and st_k.size < n_expected:
             # the top state(s) rose out of the window on the finer grid: they are not resolved; the others keep
             # their levels (states are numbered from the bottom, so the rows are cut, not shifted)
-            messages.append(
-                f"state(s) {st_k.first_index + st_k.size} to {st_k.first_index + n_expected - 1} vanished on the grid "
-                f"of {grid.size} nodes: bound too weakly to be resolved here (not resolved)"
-            )
+            vanished.append((st_k.first_index + st_k.size, st_k.first_index + n_expected - 1, grid.size))
             level_e = [row[: st_k.size] for row in level_e]
             table, gaps = Romberg(), Romberg()
             for row in level_e:
@@ -136,6 +134,11 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
                         states if states is not None else solve_nodes(problem, base, center)[1],
                         sectors or [], nodes if nodes is not None else base, last, level_e, level_n, np.zeros(0, bool),
                         base)
+    top = states.first_index + states.size - 1
+    for first, last, size in vanished:  # said only of states that did not come back
+        if last > top:
+            messages.append(f"state(s) {max(first, top + 1)} to {last} vanished on the grid of {size} nodes: bound too "
+                            "weakly to be resolved here (not resolved)")
     energy = table.value()
     error = table.error() + states.roundoff
     r = states.roundoff
@@ -145,5 +148,9 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
     bound = splitting <= pair_round
     if np.any(bound):
         splitting = np.where(bound, pair_round, splitting)  # only an upper bound is known
+    for k in np.flatnonzero(np.diff(energy) < 0):
+        # an inversion within the error bars (a doublet split below double precision): the two agree, in order
+        if energy[k] - energy[k + 1] <= error[k] + error[k + 1]:
+            energy[k] = energy[k + 1] = 0.5 * (energy[k] + energy[k + 1])
     return LevelRun(energy, error, splitting, splitting_error, bound, states, sectors, nodes, last, level_e, level_n,
                     limited, base)

@@ -53,6 +53,7 @@ class Problem:
     box: tuple[float, float]  # provisional box
     v_range: tuple[float, float]  # min and max of V - reference over the provisional box
     floor: float  # smallest energy scale of relative tolerances
+    mirror: float | None = None  # the potential's mirror centre (tested once), or None
     messages: list[str] = field(default_factory=list)
     _count: list[int] = field(default_factory=list, repr=False)
 
@@ -71,8 +72,9 @@ class Problem:
         return np.asarray(energy) + self.reference
 
     def energy_scale(self, energy: np.ndarray) -> np.ndarray:
-        """|E - reference| with the floor: what relative tolerances are relative to."""
-        return np.maximum(np.abs(energy), self.floor)
+        """|E - reference|: what relative tolerances are relative to (a state bound by 1e-12 of the depth must
+        have its energy to 1e-8 of that, or be reported as not converged)."""
+        return np.maximum(np.abs(energy), 1e-300)
 
     def whole_line_count(self) -> int | None:
         """The box-independent number of bound states (zero-energy phase, computed once); None without a threshold."""
@@ -118,4 +120,5 @@ def plan(potential, domain: Domain, settings: SolveSettings) -> Problem:
         box=box,
         v_range=(vmin - reference, vmax - reference),
         floor=floor,
+        mirror=potential.mirror_center(box[0], box[1]),
     )

@@ -24,7 +24,7 @@ def register(sub) -> None:
 
 
 def run_solve(args) -> int:
-    from fdsolver.api import solve
+    from fdsolver.api import solve_record_of
     from fdsolver.input.case import load_case
     from fdsolver.io.archive import write_dataset
     from fdsolver.report.solve import format_solve
@@ -32,12 +32,14 @@ def run_solve(args) -> int:
     check_output(args.output, "--output", ARCHIVE_SUFFIXES)
     check_output(args.plot, "--plot", FIG_SUFFIXES)
     case = load_case(args.case, **parse_set(args.set))
-    ds = solve(case, action=command("solve", args, [("--set", "set")]))
-    print(format_solve(ds))
-    if args.output:
-        write_dataset(ds, args.output)
-        print(f"wrote {args.output}")
-    write_figure(ds, args.plot)
+    rec = solve_record_of(case, action=command("solve", args, [("--set", "set")]))
+    print(format_solve(rec))
+    if args.output or args.plot:  # xarray is imported only when an archive or a figure is made
+        ds = rec.dataset()
+        if args.output:
+            write_dataset(ds, args.output)
+            print(f"wrote {args.output}")
+        write_figure(ds, args.plot)
     return 0
 
 

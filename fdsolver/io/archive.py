@@ -23,6 +23,8 @@ memory and checks it against the variable table of its kind.
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import datetime as _dt
 import json
 import os
@@ -32,12 +34,14 @@ import threading
 from pathlib import Path
 
 import numpy as np
-import xarray as xr
 
 from fdsolver._version import __version__
 from fdsolver.errors import ArchiveError, CaseError
 from fdsolver.io.datasets import check
 from fdsolver.io.specs import ARCHIVE_KINDS
+
+if TYPE_CHECKING:
+    import xarray as xr
 
 
 def stamp(action: str) -> str:
@@ -121,6 +125,8 @@ def open_run(path) -> xr.Dataset:
     if not p.exists():
         raise ArchiveError("no such archive file", file=str(path))
     try:
+        import xarray as xr
+
         with xr.open_dataset(p, engine="netcdf4") as ds:
             ds = ds.load()
     except Exception as exc:  # netCDF4/HDF5 raise OSError, RuntimeError, ValueError, KeyError ...

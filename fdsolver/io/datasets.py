@@ -23,13 +23,18 @@ import json
 import math
 from dataclasses import dataclass
 
+from typing import TYPE_CHECKING
+
 import numpy as np
-import xarray as xr
 
 from fdsolver._version import __version__
 from fdsolver.errors import ArchiveError
 from fdsolver.io.specs import KINDS, PARAM, PARAMS, Kind, Var, kind_of
+from fdsolver.io.record import Field, Record
 from fdsolver.io.units import units_of
+
+if TYPE_CHECKING:
+    import xarray as xr
 
 CONVENTIONS = "CF-1.13"
 REFERENCES = (
@@ -108,6 +113,11 @@ def _array(var: Var, value) -> np.ndarray:
 
 
 def build(kind: str, result, system, attrs: dict, *, axes=(), param=None) -> xr.Dataset:
+    """The Dataset of ``kind`` from ``result`` (see :func:`record`)."""
+    return record(kind, result, system, attrs, axes=axes, param=param).dataset()
+
+
+def record(kind: str, result, system, attrs: dict, *, axes=(), param=None) -> Record:
     """The Dataset of ``kind`` from ``result``: every row whose source gives a value, in the table's order.
 
     ``axes`` are the scanned axes (what :data:`PARAMS` stands for; each with
@@ -118,7 +128,7 @@ def build(kind: str, result, system, attrs: dict, *, axes=(), param=None) -> xr.
     spec = KINDS[kind]
     names = tuple(a.name for a in axes)
     param = param if param is not None else (axes[0] if len(axes) == 1 else None)
-    coords: dict = {a.name: (a.name, np.asarray(a.values), axis_attrs(a)) for a in axes}
+    coords: dict = {a.name: Field((a.name,), np.asarray(a.values), axis_attrs(a)) for a in axes}
     data: dict = {}
     for var in spec.rows:
         value = var.value(result)
@@ -127,13 +137,18 @@ def build(kind: str, result, system, attrs: dict, *, axes=(), param=None) -> xr.
                 raise ValueError(f"{kind} archive: the result gives no value for the required variable {var.name}")
             continue
         dims = tuple(d for dim in var.dims for d in (names if dim == PARAMS else (dim,)))
-        (coords if var.coord else data)[var.name] = (dims, _array(var, value), var_attrs(var, system, param))
-    return xr.Dataset(data_vars=data, coords=coords, attrs=attrs)
+        (coords if var.coord else data)[var.name] = Field(dims, _array(var, value), var_attrs(var, system, param))
+    return Record(data, coords, attrs)
 
 
 # ------------------------------------------------------------ the kinds
 def solve_dataset(case, sol, history: str) -> xr.Dataset:
     """The archive of one solve: coordinates x, state, region (with region_name), level; see :data:`specs.SOLVE`."""
+    return solve_record(case, sol, history).dataset()
+
+
+def solve_record(case, sol, history: str) -> Record:
+    """:func:`solve_dataset` without xarray (a :class:`~fdsolver.io.record.Record`)."""
     attrs = base_attrs(case, "solve", history)
     attrs.update({
         "continuum_threshold": float(sol.threshold) if math.isfinite(sol.threshold) else np.inf,
@@ -147,7 +162,7 @@ def solve_dataset(case, sol, history: str) -> xr.Dataset:
         "energy_reference": float(sol.reference),
         "messages": "\n".join(sol.messages),
     })
-    return build("solve", sol, case.units, attrs)
+    return record("solve", sol, case.units, attrs)
 
 
 NOTES_SHOWN = 20

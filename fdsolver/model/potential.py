@@ -34,24 +34,24 @@ class Potential:
 
     # ------------------------------------------------------------------ values
     @cached_property
-    def _groups(self) -> tuple[tuple[type[Shape], tuple[Shape, ...]], ...]:
-        """Shapes grouped by class, so that each class sums its instances in one pass."""
+    def _summers(self) -> tuple:
+        """One prepared evaluator per shape class, each summing all its instances in one pass."""
         groups: dict[type[Shape], list[Shape]] = {}
         for shape in self.shapes:
             groups.setdefault(type(shape), []).append(shape)
-        return tuple((cls, tuple(members)) for cls, members in groups.items())
+        return tuple(cls.summer(tuple(members)) for cls, members in groups.items())
 
     def value(self, x) -> np.ndarray:
         """Potential energy at ``x`` (excluding zero-range terms).
 
-        Each shape class sums its instances with ``sum_values`` (one pass over
-        sorted edges for square wells, nothing for point terms), so K
+        Each shape class sums its instances with a prepared ``summer`` (one pass
+        over sorted edges for square wells, nothing for point terms), so K
         components cost O((N + K) log K) where they can, not O(N K).
         """
         x = np.asarray(x, dtype=float)
         v = np.zeros_like(x) if self.stack is None else self.stack.band_edge(x).astype(float)
-        for cls, members in self._groups:
-            v = v + cls.sum_values(members, x)
+        for total in self._summers:
+            v = v + total(x)
         return v
 
     def half_cell_integrals(self, nodes: np.ndarray, shift: float = 0.0) -> tuple[np.ndarray, np.ndarray]:
@@ -66,6 +66,12 @@ class Potential:
         """
         left, right = nodes[:-1], nodes[1:]
         mid = 0.5 * (left + right)
+        if self._piecewise_constant:  # constant on every half cell (features are nodes): its midpoint value
+            h = 0.5 * (right - left)
+            v = self.value(np.concatenate([0.5 * (left + mid), 0.5 * (mid + right)]))
+            if shift:
+                v = v - shift
+            return h * v[: left.size], h * v[left.size:]
         exact = [m for m in self.shapes if m.exact_integrals]
         rest = self if not exact else Potential(tuple(m for m in self.shapes if not m.exact_integrals), self.units,
                                                 self.mass, self.stack)
@@ -91,6 +97,11 @@ class Potential:
     def point_terms(self) -> list[tuple[float, float]]:
         """All zero-range terms (position, alpha), -alpha delta(x - position)."""
         return list(self._point_terms)
+
+    @cached_property
+    def _piecewise_constant(self) -> bool:
+        """True if V is constant between the features (square wells, point terms, a layer stack)."""
+        return all(s.piecewise_constant for s in self.shapes)
 
     @cached_property
     def _point_terms(self) -> tuple[tuple[float, float], ...]:
@@ -158,14 +169,19 @@ class Potential:
 
     def support(self) -> tuple[float, float]:
         """The interval holding every feature (and region) of the potential."""
-        pts = list(self.features())
+        return self._support
+
+    @cached_property
+    def _support(self) -> tuple[float, float]:
+        feats = self._features
+        lo = float(feats[0]) if feats.size else math.inf
+        hi = float(feats[-1]) if feats.size else -math.inf
         for shape in self.shapes:
             r = shape.region()
             if r is not None:
-                pts.extend(v for v in r if math.isfinite(v))
-        if not pts:
-            return (0.0, 0.0)
-        return (min(pts), max(pts))
+                lo = min([lo] + [v for v in r if math.isfinite(v)])
+                hi = max([hi] + [v for v in r if math.isfinite(v)])
+        return (lo, hi) if lo <= hi else (0.0, 0.0)
 
     def regions(self) -> list[tuple[str, float, float]]:
         """Named intervals for the 'probability inside' report: named shapes and named layers."""
@@ -184,9 +200,22 @@ class Potential:
     def mirror_center(self, lo: float, hi: float) -> float | None:
         """The point x0 about which V, m and the point terms are mirror-symmetric, or None.
 
-        Tested on 257 sample points of [lo, hi] (the solver's box), to 1e-10
-        of the potential's range.
+        Tested on 257 sample points of [lo, hi] (the solver's box) and densely
+        where the potential varies, to 1e-10 of the potential's range, and on
+        the asymptotes; remembered per interval.
         """
+        key = (float(lo), float(hi))
+        if key not in self._mirror_memo:
+            self._mirror_memo[key] = self._mirror_center(lo, hi)
+        return self._mirror_memo[key]
+
+    @cached_property
+    def _mirror_memo(self) -> dict:
+        return {}
+
+    def _mirror_center(self, lo: float, hi: float) -> float | None:
+        if self.asymptote(-1) != self.asymptote(1) or self.asymptotic_mass(-1) != self.asymptotic_mass(1):
+            return None
         feats = self.features()
         if feats.size:
             x0 = 0.5 * (feats[0] + feats[-1])

@@ -7,8 +7,9 @@ Two systems are supported:
     so hbar^2 / (2 m_e) = 0.5 hartree bohr^2 exactly.
 ``"nm-meV"``
     Lengths in nanometres, energies in millielectronvolts.  hbar^2 / (2 m_e) is
-    computed from the CODATA constants in :mod:`scipy.constants`
-    (38.0998211... meV nm^2 with scipy 1.17).
+    computed from the CODATA 2022 constants below (38.0998211... meV nm^2); the
+    tests check them against :mod:`scipy.constants`, which is not imported here
+    because it costs more start-up than a whole small solve.
 
 Masses are always in units of the free-electron mass m_e.  The kinetic
 operator is  -C d/dx (1/m(x)) d/dx  with C = hbar^2 / (2 m_e) in the case's
@@ -19,7 +20,16 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-import scipy.constants as _sc
+import math
+
+#: SI constants: h and e are exact since the 2019 SI; m_e, the Bohr radius and the Hartree energy are CODATA 2022
+#: (the values scipy.constants 1.17 carries; checked in the tests)
+PLANCK = 6.62607015e-34  # J s
+ELEMENTARY_CHARGE = 1.602176634e-19  # C
+ELECTRON_MASS = 9.1093837139e-31  # kg
+BOHR_RADIUS = 5.29177210544e-11  # m
+HARTREE_ENERGY = 4.359744722206e-18  # J
+HBAR = PLANCK / (2.0 * math.pi)
 
 
 @dataclass(frozen=True)
@@ -43,8 +53,8 @@ class UnitSystem:
 
 
 def _hbar2_2me_mev_nm2() -> float:
-    joule_m2 = _sc.hbar**2 / (2.0 * _sc.m_e)
-    return joule_m2 / (_sc.e * 1e-3) / 1e-18
+    joule_m2 = HBAR**2 / (2.0 * ELECTRON_MASS)
+    return joule_m2 / (ELEMENTARY_CHARGE * 1e-3) / 1e-18
 
 
 UNIT_SYSTEMS: dict[str, UnitSystem] = {
@@ -53,8 +63,8 @@ UNIT_SYSTEMS: dict[str, UnitSystem] = {
         length="bohr",
         energy="hartree",
         hbar2_2me=0.5,
-        length_udunits=f"{_sc.physical_constants['Bohr radius'][0]:.12g} m",
-        energy_udunits=f"{_sc.physical_constants['Hartree energy'][0]:.14g} J",
+        length_udunits=f"{BOHR_RADIUS:.12g} m",
+        energy_udunits=f"{HARTREE_ENERGY:.14g} J",
         units_note=(
             "Hartree atomic units (hbar = m_e = 1): 'bohr' and 'hartree' are not "
             "UDUNITS names; 1 bohr = 0.0529177210544 nm, 1 hartree = 27211.386 meV."

@@ -39,6 +39,10 @@ import numpy as np
 from fdsolver.numerics.kernels import lipschitz_limit
 
 
+#: uniform samples of the spacing function over the box before the samples are refined where it asks for it
+BACKGROUND_SAMPLES = 257
+
+
 @dataclass(frozen=True)
 class GridSettings:
     """Resolution of the base grid (dimensionless fractions)."""
@@ -98,7 +102,7 @@ def base_grid(
     bounds = np.concatenate([[lo], bps, [hi]])
     # samples: dense near every bound (geometric), plus a uniform background
     width = hi - lo
-    sample = [np.linspace(lo, hi, 2049)]
+    sample = [np.linspace(lo, hi, BACKGROUND_SAMPLES)]
     local = spacing(bounds)
     # geometric offsets from every bound, each reaching only as far as the farther neighbouring bound
     offs = np.cumsum(0.05 * (1.0 + settings.growth * 0.5) ** np.arange(0, 400))

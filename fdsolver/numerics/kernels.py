@@ -68,6 +68,35 @@ def sturm_count(d, e, sigma):
 
 
 @njit
+def bisect_eigenvalues(d, e, lo, count, below, above, rtol, floor):
+    """Eigenvalues number lo .. lo + count - 1 of tridiag(e, d, e) by bisection on Sturm counts.
+
+    Each is bracketed in [below, above] (which must hold them all) and halved
+    until its bracket is narrower than rtol * max(|value|, floor); the lower
+    end of one bracket starts the next.  Accurate enough to start inverse
+    iteration (the eigenvectors and the polished energies come from there).
+    O(N log2(range / tolerance)) per value.
+    """
+    out = np.empty(count)
+    start = below
+    for j in range(count):
+        target = lo + j  # the eigenvalue with exactly `target` values below it
+        a = start
+        b = above
+        while b - a > rtol * max(abs(a), abs(b), floor):
+            mid = 0.5 * (a + b)
+            if mid <= a or mid >= b:
+                break
+            if sturm_count(d, e, mid) > target:
+                b = mid
+            else:
+                a = mid
+        out[j] = 0.5 * (a + b)
+        start = a
+    return out
+
+
+@njit
 def tridiag_factor(d, e, sigma):
     """LU factors of tridiag(e, d, e) - sigma I with partial pivoting: (u0, u1, u2, lmul, piv).
 
@@ -228,6 +257,182 @@ def flux_matrix(psis, a, vw):
             out[i, j] = acc
             out[j, i] = acc
     return out
+
+
+@njit
+def _quotient_of_u(u, a, vw, w):
+    """flux_quotient of psi = u / sqrt(w)."""
+    n = u.shape[0]
+    psi = np.empty(n)
+    for i in range(n):
+        psi[i] = u[i] / math.sqrt(w[i])
+    return flux_quotient(psi, a, vw, w)
+
+
+@njit
+def _residual_norm(d, e, u, lam):
+    n = u.shape[0]
+    total = 0.0
+    for i in range(n):
+        r = (d[i] - lam) * u[i]
+        if i > 0:
+            r += e[i - 1] * u[i - 1]
+        if i < n - 1:
+            r += e[i] * u[i + 1]
+        total += r * r
+    return math.sqrt(total)
+
+
+@njit
+def _round_scales(d, vw, w, u, lam, ulps, eps):
+    """(matrix, quotient) round-off scales of a unit vector u: eps sum |d| u^2 and ulps eps (|lam| + <|V|>)."""
+    matrix = 0.0
+    pot = 0.0
+    for i in range(u.shape[0]):
+        u2 = u[i] * u[i]
+        matrix += abs(d[i]) * u2
+        pot += abs(vw[i] / w[i]) * u2
+    return eps * matrix, ulps * eps * (abs(lam) + pot)
+
+
+@njit
+def finish_vectors(d, e, a, vw, w, first, floor, steps, residual_factor, ulps, eps, vectors, energy, scales):
+    """Energies and round-off scales of a sector's eigenvectors (rows of ``vectors``, from inverse iteration).
+
+    Each energy is the flux-form Rayleigh quotient; a state whose residual
+    |T u - lambda u| exceeds ``residual_factor`` times its round-off scale is
+    redone with twice the steps; an isolated state (``first``: its own
+    cluster) is polished by one Rayleigh-quotient step when that moves it by
+    less than 1e-6 of its scale.  Fills ``vectors`` (k x n), ``energy`` (k)
+    and ``scales`` (k x 2: matrix and quotient round-off scales).
+    Returns True.
+    """
+    k = vectors.shape[0]
+    n = d.shape[0]
+    redo = np.empty((1, n))
+    one = np.zeros(1, dtype=np.int64)
+    for j in range(k):
+        u = vectors[j].copy()
+        lam = _quotient_of_u(u, a, vw, w)
+        mat, quo = _round_scales(d, vw, w, u, lam, ulps, eps)
+        if _residual_norm(d, e, u, lam) > residual_factor * (mat + quo) + 1e-12 * abs(lam):
+            if inverse_iteration(d, e, np.array([lam]), one, 2 * steps, redo):
+                u = redo[0].copy()
+                lam = _quotient_of_u(u, a, vw, w)
+        alone = first[j] == j and (j + 1 >= k or first[j + 1] != j)
+        if alone:  # one Rayleigh-quotient step: cubic convergence from an accurate vector
+            y = tridiag_solve(d, e, lam, u)
+            big = 0.0
+            for i in range(n):
+                if abs(y[i]) > big:
+                    big = abs(y[i])
+            if big > 0.0 and big < math.inf:
+                nrm = 0.0
+                for i in range(n):
+                    y[i] /= big
+                    nrm += y[i] * y[i]
+                nrm = math.sqrt(nrm)
+                for i in range(n):
+                    y[i] /= nrm
+                lam_y = _quotient_of_u(y, a, vw, w)
+                if abs(lam_y - lam) <= 1e-6 * max(abs(lam), floor):  # the same state, only sharper
+                    u = y
+                    lam = lam_y
+        mat, quo = _round_scales(d, vw, w, u, lam, ulps, eps)
+        vectors[j] = u
+        energy[j] = lam
+        scales[j, 0] = mat
+        scales[j, 1] = quo
+    return True
+
+
+@njit
+def cluster_starts(values, floor, rtol):
+    """first[j]: the first member of state j's cluster (consecutive values closer than rtol of their scale)."""
+    k = values.shape[0]
+    first = np.arange(k)
+    for j in range(1, k):
+        scale = max(abs(values[j]), abs(values[j - 1]), floor)
+        if values[j] - values[j - 1] < rtol * scale:
+            first[j] = first[j - 1]
+    return first
+
+
+@njit
+def prove_indices(d, e, values, first, lo, floor, matrix):
+    """Sturm proof that the ascending ``values`` are eigenvalues number lo, lo + 1, ... (clusters as a whole).
+
+    Each cluster's bounds are moved out by half the gap to its neighbours (at
+    most), and by at least 1e-7 of the scale or 100 times the matrix
+    round-off scale; the counts there must be exactly the cluster's indices.
+    """
+    k = values.shape[0]
+    j = 0
+    while j < k:
+        end = j
+        while end + 1 < k and first[end + 1] == first[j]:
+            end += 1
+        gap_lo = values[j] - values[j - 1] if j > 0 else math.inf
+        gap_hi = values[end + 1] - values[end] if end + 1 < k else math.inf
+        delta_lo = min(0.5 * gap_lo, max(1e-7 * max(abs(values[j]), floor), 100.0 * matrix[j]))
+        delta_hi = min(0.5 * gap_hi, max(1e-7 * max(abs(values[end]), floor), 100.0 * matrix[end]))
+        if sturm_count(d, e, values[j] - delta_lo) != lo + j:
+            return False
+        if sturm_count(d, e, values[end] + delta_hi) != lo + end + 1:
+            return False
+        j = end + 1
+    return True
+
+
+@njit
+def sector_pass(d, e, a, vw, w, shifts, lo, floor, prove, cluster_rtol, steps, residual_factor, ulps, eps,
+                vectors, energy, scales):
+    """A sector's eigenpairs from eigenvalue estimates, in one compiled pass, when no two of them form a cluster.
+
+    Inverse iteration, the quotients, residual checks and polish
+    (:func:`finish_vectors`), then sorting, the Sturm proof of the indices
+    lo, lo + 1, ... (``prove``) and the sign convention (the first lobe above
+    1e-3 of the peak is positive).  Returns 0 on success, 1 if the estimates
+    form a cluster (the caller takes the general path), 2 if inverse
+    iteration broke down, 3 if the proof failed.
+    """
+    k = shifts.shape[0]
+    first = cluster_starts(shifts, floor, cluster_rtol)
+    for j in range(k):
+        if first[j] != j:
+            return 1
+    if not inverse_iteration(d, e, shifts, first, steps, vectors):
+        return 2
+    finish_vectors(d, e, a, vw, w, first, floor, steps, residual_factor, ulps, eps, vectors, energy, scales)
+    for j in range(1, k):  # insertion sort by energy (k is small), vectors and scales along
+        i = j
+        while i > 0 and energy[i - 1] > energy[i]:
+            energy[i - 1], energy[i] = energy[i], energy[i - 1]
+            for c in range(2):
+                scales[i - 1, c], scales[i, c] = scales[i, c], scales[i - 1, c]
+            tmp = vectors[i - 1].copy()
+            vectors[i - 1] = vectors[i]
+            vectors[i] = tmp
+            i -= 1
+    if prove:
+        matrix = np.empty(k)
+        for j in range(k):
+            matrix[j] = scales[j, 0]
+        if not prove_indices(d, e, energy, cluster_starts(energy, floor, cluster_rtol), lo, floor, matrix):
+            return 3
+    n = d.shape[0]
+    for j in range(k):
+        peak = 0.0
+        for i in range(n):
+            if abs(vectors[j, i]) > peak:
+                peak = abs(vectors[j, i])
+        for i in range(n):
+            if abs(vectors[j, i]) > 1e-3 * peak:
+                if vectors[j, i] < 0.0:
+                    for q in range(n):
+                        vectors[j, q] = -vectors[j, q]
+                break
+    return 0
 
 
 @njit

@@ -113,3 +113,28 @@ def assemble(potential, nodes: np.ndarray, shift: float = 0.0, left: str = DIRIC
     d = (a[:-1] + a[1:] + vw) / w
     e = -a[1:-1] / np.sqrt(w[:-1] * w[1:])
     return Operator(nodes=nodes, a=a, w=w, vw=vw, v=v, mass=mass, d=d, e=e, shift=float(shift), left=left)
+
+
+def mirror_halves(op: Operator, center_index: int) -> tuple[Operator, Operator]:
+    """The even and odd sectors of a mirror-symmetric operator, from its assembly on the whole grid.
+
+    ``center_index`` is the index of the mirror centre among ``op.nodes``.
+    Even: the right half with the centre as a Neumann unknown (half its weight
+    and half its dual-cell integral, point term included); odd: the right half
+    with a Dirichlet centre.  Exactly what :func:`assemble` gives on the right
+    half nodes, without evaluating the potential again.
+    """
+    c = center_index - 1  # the centre among the unknowns
+    nodes = op.nodes[center_index:]
+    mass = op.mass[center_index:]
+    a_even = np.concatenate([[0.0], op.a[c + 1:]])
+    w_even = np.concatenate([[0.5 * op.w[c]], op.w[c + 1:]])
+    vw_even = np.concatenate([[0.5 * op.vw[c]], op.vw[c + 1:]])
+    v_even = op.v[c:]
+    d_even = (a_even[:-1] + a_even[1:] + vw_even) / w_even
+    e_even = -a_even[1:-1] / np.sqrt(w_even[:-1] * w_even[1:])
+    even = Operator(nodes=nodes, a=a_even, w=w_even, vw=vw_even, v=v_even, mass=mass, d=d_even, e=e_even,
+                    shift=op.shift, left=NEUMANN)
+    odd = Operator(nodes=nodes, a=op.a[c + 1:], w=op.w[c + 1:], vw=op.vw[c + 1:], v=op.v[c + 1:], mass=mass,
+                   d=op.d[c + 1:], e=op.e[c + 1:], shift=op.shift, left=DIRICHLET)
+    return even, odd

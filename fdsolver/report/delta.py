@@ -2,10 +2,14 @@
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    import xarray as xr
+
 import json
 
 import numpy as np
-import xarray as xr
 
 from fdsolver.report._common import label, units_of
 

@@ -10,7 +10,13 @@ import math
 from collections.abc import Iterable
 from typing import Callable, NamedTuple
 import numpy as np
-import scipy.special as _special
+
+
+def _special(name: str):
+    """A function of scipy.special, imported when an expression first calls it (it costs start-up)."""
+    import scipy.special
+
+    return getattr(scipy.special, name)
 
 
 MAX_LENGTH = 2000
@@ -64,8 +70,8 @@ _FUNCTIONS: dict[str, _Function] = {
     "ceil": _Function(np.ceil, 1, 1),
     "sign": _Function(np.sign, 1, 1),
     "heaviside": _Function(np.heaviside, 2, 2),
-    "erf": _Function(_special.erf, 1, 1),
-    "erfc": _Function(_special.erfc, 1, 1),
+    "erf": _Function(lambda v: _special("erf")(v), 1, 1),
+    "erfc": _Function(lambda v: _special("erfc")(v), 1, 1),
     "sech": _Function(_sech, 1, 1),
     "hypot": _Function(np.hypot, 2, 2),
 }
