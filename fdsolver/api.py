@@ -25,16 +25,18 @@ import os
 from collections.abc import Sequence
 from typing import TYPE_CHECKING
 
-from fdsolver.boundstates.driver import Solution, solve_potential
 from fdsolver.errors import ArchiveError, CaseError
 from fdsolver.input.case import Case, case_from_text, load_case
 from fdsolver.io.archive import stamp
 from fdsolver.io.datasets import solve_record
+from fdsolver.runs import solve_case
 
 if TYPE_CHECKING:
     import xarray as xr
 
     from fdsolver.io.record import Record
+
+__all__ = ["case_of_run", "delta_check", "delta_map", "solve", "solve_case", "sweep", "threshold"]
 
 
 def _case(case) -> Case:
@@ -43,14 +45,6 @@ def _case(case) -> Case:
 
 def _where(case: Case) -> str:
     return str(case.path or case.title)
-
-
-def solve_case(case: Case) -> Solution:
-    """Solve ``case`` and return the raw :class:`~fdsolver.boundstates.result.Solution`."""
-    try:
-        return solve_potential(case.potential, case.domain, case.settings)
-    except CaseError as err:  # the core does not know the file; name it here
-        raise err.located(file=case.path) from None
 
 
 def solve(case: Case | str | os.PathLike, action: str | None = None) -> xr.Dataset:

@@ -249,6 +249,7 @@ def _check_target(target: Path, good: Path, allowed: set[int]) -> int:
     return k
 
 
+@pytest.mark.slow
 def test_kill_during_write_leaves_old_or_new_file(good, tmp_path):
     """SIGKILL the writer at spread-out moments of a write; the target opens and is one complete version."""
     fractions = (0.05, 0.3, 0.6, 0.9, 1.5)
@@ -295,6 +296,7 @@ def _acquire(lock, blocking=True):
 _locks.acquire = _acquire
 """
 
+@pytest.mark.slow
 @pytest.mark.parametrize("nth_lock", [3, 10])
 def test_interrupt_during_write_cleans_up(good, tmp_path, nth_lock):
     """Ctrl-C (SIGINT) in the middle of a write: the process ends (no hang), the target is one complete
@@ -327,6 +329,7 @@ def test_interrupt_during_write_cleans_up(good, tmp_path, nth_lock):
     assert sorted(p.name for p in tmp_path.iterdir()) == ["run.nc"]
 
 
+@pytest.mark.slow
 def test_reads_during_rewrites_see_complete_versions(good, tmp_path):
     """Reading while another process rewrites the archive: every read sees a complete version."""
     target = tmp_path / "run.nc"

@@ -292,7 +292,7 @@ def test_bad_input_exit_2_one_line_nothing_written(corpus_run, name):
 SUBPROCESS_SAMPLE = ("syntax_unclosed_array_table", "expr_import", "table_text_in_number_column", "missing_case_file")
 
 
-@pytest.mark.parametrize("name", SUBPROCESS_SAMPLE)
+@pytest.mark.parametrize("name", [SUBPROCESS_SAMPLE[0]] + [pytest.param(n, marks=pytest.mark.slow) for n in SUBPROCESS_SAMPLE[1:]])
 def test_entry_point_process_matches_in_process(corpus_run, name):
     work, results = corpus_run
     r = results[name]

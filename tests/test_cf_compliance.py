@@ -126,6 +126,7 @@ def test_the_checker_knows_a_recent_cf_version(checker):
     assert (major, minor) >= (1, 11)  # compliance-checker 6.1 knows CF up to 1.11 (DEVELOPERS.md)
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("name", NAMES)
 def test_cf_checker_finds_nothing_wrong(archives, checker, name):
     suite, newest = checker

@@ -8,6 +8,7 @@ reported ``energy_error`` bounds the true error.
 from __future__ import annotations
 
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -15,9 +16,10 @@ from scipy.optimize import brentq
 from scipy.special import ai_zeros
 
 import fdsolver
-from fdsolver.model.units import get_units
+from fdsolver.model.units import UNIT_SYSTEMS
 
-C_NM = get_units("nm-meV").hbar2_2me  # hbar^2/2m_e from scipy.constants (CODATA)
+CASES = Path(__file__).resolve().parents[1] / "cases"
+C_NM = UNIT_SYSTEMS["nm-meV"].hbar2_2me  # hbar^2/2m_e from scipy.constants (CODATA)
 
 
 def solve(data):
@@ -198,7 +200,7 @@ def test_orthonormal_and_node_theorem():
 
 def test_archive_roundtrip_and_rerun(tmp_path):
     """A run written to NetCDF reads back with CF attributes, and its stored case reproduces the energies."""
-    case = fdsolver.load_case("cases/coupled_wells.toml")
+    case = fdsolver.load_case(CASES / "coupled_wells.toml")
     ds = fdsolver.solve(case)
     path = fdsolver.write_dataset(ds, tmp_path / "run.nc")
     back = fdsolver.open_run(path)

@@ -270,6 +270,7 @@ def test_bad_input_exit_2_nothing_written(name, tmp_path, capsys):
     assert out.read_bytes() == b"previous result"
 
 
+@pytest.mark.slow
 def test_bad_input_from_a_shell_is_one_line():
     proc = subprocess.run([sys.executable, "-m", "fdsolver", "delta-check", str(FINITE)], capture_output=True, text=True)
     assert proc.returncode == 2

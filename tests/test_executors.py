@@ -40,6 +40,7 @@ def test_processes_equal_serial(serial_result):
     xr.testing.assert_identical(values(ds), values(serial_result))
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("processes", [False, True])
 def test_dask_local_cluster_equals_local_run(serial_result, processes):
     from dask.distributed import LocalCluster
@@ -90,6 +91,7 @@ def test_defaults():
     assert make_executor().workers >= 1 and np.issubdtype(type(make_executor(workers=2).workers), np.integer)
 
 
+@pytest.mark.slow
 def test_workers_end_when_the_sweep_is_killed(tmp_path):
     # a SIGKILL of the sweep cannot tell its workers; they must notice and end, not wait forever
     import os

@@ -31,6 +31,7 @@ FUZZ = settings(
     max_examples=400,
     deadline=None,
     derandomize=True,
+    database=None,  # no example database in the working folder
     suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much],
 )
 
@@ -71,6 +72,7 @@ TOKENS = [
 token_text = st.lists(st.sampled_from(TOKENS), max_size=40).map("".join)
 
 
+@pytest.mark.slow
 @FUZZ
 @given(st.text(max_size=60))
 @example("")
@@ -86,6 +88,7 @@ def test_arbitrary_text_gives_a_value_or_a_case_error(text):
     check_contract(text)
 
 
+@pytest.mark.slow
 @FUZZ
 @given(token_text, st.booleans())
 @example("x.__class__", False)
@@ -229,6 +232,7 @@ def reference(tree):
     return value, uses, bad
 
 
+@pytest.mark.slow
 @settings(FUZZ, max_examples=800)
 @given(trees)
 @example(("bin", "**", ("int", 9), ("bin", "**", ("int", 9), ("int", 9))))

@@ -100,6 +100,7 @@ def random_traps(seed):
     return traps(x0, sep, depth, sigma, middle), sep / sigma
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("seed", [11, 13])
 def test_random_traps(seed):
     comps, ratio = random_traps(seed)

@@ -179,12 +179,14 @@ RANDOM = [
 ]
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("seed,n_wells,max_barrier,symmetric", RANDOM)
 def test_random_stack(seed, n_wells, max_barrier, symmetric):
     layers = random_stack(seed, n_wells, max_barrier, symmetric)
     check_stack(layers, f"random stack seed {seed} ({n_wells} wells, {'symmetric' if symmetric else 'asymmetric'})")
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("seed", [401, 402])
 def test_random_ten_wells_thick_barriers(seed):
     """10 wells with barriers up to 60 nm: miniband widths far below double precision."""

@@ -142,6 +142,7 @@ any_wells = st.lists(
 )
 
 
+@pytest.mark.slow
 @settings(PROPS, max_examples=40)
 @given(any_wells, st.sampled_from([1e-6, 1e-8]), st.sampled_from(["open", "hard"]))
 def test_solver_returns_or_raises_clean_error(comps, tol, boundary):
@@ -169,6 +170,7 @@ def test_solver_returns_or_raises_clean_error(comps, tol, boundary):
 
 
 # ------------------------------------------------------------ (2) translation
+@pytest.mark.slow
 @PROPS
 @given(well_sums, dyadic(-5.0, 5.0))
 def test_translation_leaves_energies_unchanged(comps, shift):
@@ -193,6 +195,7 @@ def mirror_sums(draw):
     return comps
 
 
+@pytest.mark.slow
 @PROPS
 @given(mirror_sums())
 def test_mirror_symmetric_parities_alternate(comps):
@@ -213,6 +216,7 @@ def mirror_symmetric(comps) -> bool:
     return bool(np.max(np.abs(vl - vr)) <= 1e-9 * np.max(np.abs(vl)))
 
 
+@pytest.mark.slow
 @PROPS
 @given(well_sums)
 def test_parity_is_zero_without_mirror_symmetry(comps):
@@ -235,6 +239,7 @@ def scaled(comp, s):
     return out
 
 
+@pytest.mark.slow
 @PROPS
 @given(well_sums, st.sampled_from([0.5, 0.625, 0.75, 1.25, 1.5, 2.0]))
 def test_scaling_x_and_v_scales_energies(comps, s):
@@ -245,6 +250,7 @@ def test_scaling_x_and_v_scales_energies(comps, s):
 
 
 # ------------------------------------------------------------ (5) monotonicity
+@pytest.mark.slow
 @PROPS
 @given(well_sums, st.data(), dyadic(1.05, 2.0))
 def test_deepening_a_well_lowers_energies_and_keeps_states(comps, data, factor):
@@ -269,6 +275,7 @@ def unit_profile(comp, x):
     return 4.0 * t / (1.0 + t) ** 2  # sech^2 without overflow
 
 
+@pytest.mark.slow
 @settings(PROPS, max_examples=15)
 @given(wells(shapes=("gaussian", "sech2")), st.lists(wells(), max_size=2), dyadic(0.5, 1.5))
 def test_hellmann_feynman(v1, rest, lam):
@@ -304,6 +311,7 @@ def test_hellmann_feynman(v1, rest, lam):
 
 
 # ------------------------------------------------------------ (7) orthonormal, n nodes
+@pytest.mark.slow
 @settings(PROPS, max_examples=30)
 @given(well_sums)
 def test_states_orthonormal_and_state_n_has_n_nodes(comps):
@@ -320,6 +328,7 @@ def test_states_orthonormal_and_state_n_has_n_nodes(comps):
 
 
 # ------------------------------------------------------------ (8) error bars vs finer runs
+@pytest.mark.slow
 @PROPS
 @given(well_sums)
 def test_energy_error_bounds_difference_to_twice_the_resolution(comps):
@@ -339,6 +348,7 @@ def test_energy_error_bounds_difference_to_twice_the_resolution(comps):
 
 
 # ------------------------------------------------------------ (9) exact levels of square sums
+@pytest.mark.slow
 @settings(PROPS, max_examples=30)
 @given(st.lists(wells(shapes=("square",)), min_size=1, max_size=3))
 def test_square_sums_match_exact_levels(comps):
@@ -429,6 +439,7 @@ def test_rounding_box_check_does_not_crash(comps):
         np.testing.assert_allclose(ds.energy.values, griffiths_square_well(2.0, 1.4852474894623062), rtol=1e-8)
 
 
+@pytest.mark.slow
 @settings(PROPS, max_examples=15)
 @given(st.lists(st.builds(lambda c, w, d: {"shape": "smooth_square", "center": c, "width": w, "edge": 0.2 * w, "depth": d},
                           st.floats(-3, 3), st.floats(0.3, 3), st.floats(0.5, 20)), min_size=1, max_size=2),

@@ -162,6 +162,7 @@ def random_structure(seed):
     return case, box, (v_mid + 1.0, v_mid + 0.75 * v_b), what
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("seed", [21, 22])
 def test_random_stark(seed):
     case, box, window, what = random_structure(seed)

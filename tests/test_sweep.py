@@ -232,6 +232,7 @@ def test_partial_and_damaged_lines_are_tolerated(tmp_path):
     assert final.attrs["history"] == header["history"]  # the history line of the run that started it
 
 
+@pytest.mark.slow
 def test_sigkill_then_resume_gives_the_same_file(tmp_path):
     out = tmp_path / "kill.nc"
     path = ck.path_for(out)

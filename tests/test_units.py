@@ -17,5 +17,5 @@ def test_constants_are_codata_as_scipy_has_them():
 def test_kinetic_constant_in_nm_mev():
     # hbar^2 / (2 m_e) in meV nm^2 from scipy's constants, computed independently here
     expected = sc.hbar**2 / (2.0 * sc.m_e) / (sc.e * 1e-3) / 1e-18
-    assert abs(units.get_units("nm-meV").hbar2_2me - expected) <= 4e-16 * expected
-    assert units.get_units("atomic").hbar2_2me == 0.5
+    assert abs(units.UNIT_SYSTEMS["nm-meV"].hbar2_2me - expected) <= 4e-16 * expected
+    assert units.UNIT_SYSTEMS["atomic"].hbar2_2me == 0.5

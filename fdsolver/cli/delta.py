@@ -39,23 +39,25 @@ OPTIONS = (("--shape", "shape"), ("--widths", "widths"), ("--tolerance", "tolera
 
 
 def run_delta(args) -> int:
-    import fdsolver
+    from fdsolver.api import delta_check, delta_map
     from fdsolver.cli._common import ARCHIVE_SUFFIXES, FIG_SUFFIXES, ProgressBar, check_output, command, parse_set, write_figure
+    from fdsolver.input.case import load_case
+    from fdsolver.io.archive import write_dataset
     from fdsolver.report.delta import format_delta
     from fdsolver.scans.options import read_options
 
     check_output(args.output, "--output", ARCHIVE_SUFFIXES)
     check_output(args.plot, "--plot", FIG_SUFFIXES)
-    case = fdsolver.load_case(args.case, **parse_set(args.set))
+    case = load_case(args.case, **parse_set(args.set))
     settings = dict(shape=args.shape, widths=args.widths, tolerance=args.tolerance, from_finite=args.from_finite)
     action = command("delta-check", args, OPTIONS)
     is_map = bool(read_options(case, **settings, maps=args.map).maps)  # --map, or the case's [delta_check] map
     if is_map:
         bar = ProgressBar("delta map", args.quiet)
         try:
-            ds = fdsolver.delta_map(case, args.map, **settings, output=args.output, resume=args.resume,
-                                    restart=args.restart, executor=args.executor, workers=args.workers, progress=bar,
-                                    action=action)
+            ds = delta_map(case, args.map, **settings, output=args.output, resume=args.resume,
+                           restart=args.restart, executor=args.executor, workers=args.workers, progress=bar,
+                           action=action)
         except KeyboardInterrupt:
             bar.close()
             if args.output:
@@ -68,11 +70,11 @@ def run_delta(args) -> int:
         if args.resume or args.restart:
             raise CaseError("--resume and --restart continue a validity map (--map); a width ladder has no checkpoint",
                             key="--resume" if args.resume else "--restart")
-        ds = fdsolver.delta_check(case, **settings, action=action)
+        ds = delta_check(case, **settings, action=action)
     print(format_delta(ds))
     if args.output:
         if not is_map:  # a map is written by its run, which keeps the checkpoint until then
-            fdsolver.write_dataset(ds, args.output)
+            write_dataset(ds, args.output)
         print(f"wrote {args.output}")
     write_figure(ds, args.plot)
     return 0

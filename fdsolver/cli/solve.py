@@ -24,36 +24,36 @@ def register(sub) -> None:
 
 
 def run_solve(args) -> int:
-    import fdsolver
+    from fdsolver.api import solve_record_of
+    from fdsolver.input.case import load_case
+    from fdsolver.io.archive import write_dataset
     from fdsolver.report.solve import format_solve
 
     check_output(args.output, "--output", ARCHIVE_SUFFIXES)
     check_output(args.plot, "--plot", FIG_SUFFIXES)
-    from fdsolver.api import solve_record_of
-
-    case = fdsolver.load_case(args.case, **parse_set(args.set))
+    case = load_case(args.case, **parse_set(args.set))
     rec = solve_record_of(case, action=command("solve", args, [("--set", "set")]))
     print(format_solve(rec))
     if args.output or args.plot:  # xarray is imported only when an archive or a figure is made
         ds = rec.dataset()
         if args.output:
-            fdsolver.write_dataset(ds, args.output)
+            write_dataset(ds, args.output)
             print(f"wrote {args.output}")
         write_figure(ds, args.plot)
     return 0
 
 
 def run_show(args) -> int:
-    import fdsolver
+    from fdsolver.io.archive import open_run
     from fdsolver.report import format_archive
 
-    print(format_archive(fdsolver.open_run(args.archive)))
+    print(format_archive(open_run(args.archive)))
     return 0
 
 
 def run_plot(args) -> int:
-    import fdsolver
+    from fdsolver.io.archive import open_run
 
     check_output(args.output, "--output", FIG_SUFFIXES)
-    write_figure(fdsolver.open_run(args.archive), args.output)
+    write_figure(open_run(args.archive), args.output)
     return 0

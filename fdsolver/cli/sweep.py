@@ -49,21 +49,22 @@ THRESHOLD_OPTIONS = (("--vary", "vary"), ("--set", "set"), ("--state", "state"),
 
 
 def run_sweep_cli(args) -> int:
-    import fdsolver
+    from fdsolver.api import sweep
     from fdsolver.cli._common import ARCHIVE_SUFFIXES, FIG_SUFFIXES, ProgressBar, check_output, command, parse_set, write_figure
+    from fdsolver.input.case import load_case
     from fdsolver.parallel.checkpoint import path_for
     from fdsolver.report.sweep import format_sweep
 
     output = args.output or f"{Path(args.case).stem}_sweep.nc"
     check_output(output, "--output", ARCHIVE_SUFFIXES)
     check_output(args.plot, "--plot", FIG_SUFFIXES)
-    case = fdsolver.load_case(args.case, **parse_set(args.set))
+    case = load_case(args.case, **parse_set(args.set))
     bar = ProgressBar("sweep", args.quiet)
     try:
-        ds = fdsolver.sweep(case, args.vary, save_psi=args.save_psi, output=output, resume=args.resume,
-                            restart=args.restart, executor=args.executor, workers=args.workers, cluster=args.cluster,
-                            scheduler=args.scheduler, memory_mb=args.memory_mb, chunk=args.chunk,
-                            thresholds=not args.no_thresholds, progress=bar, action=command("sweep", args, SWEEP_OPTIONS))
+        ds = sweep(case, args.vary, save_psi=args.save_psi, output=output, resume=args.resume,
+                   restart=args.restart, executor=args.executor, workers=args.workers, cluster=args.cluster,
+                   scheduler=args.scheduler, memory_mb=args.memory_mb, chunk=args.chunk,
+                   thresholds=not args.no_thresholds, progress=bar, action=command("sweep", args, SWEEP_OPTIONS))
     except KeyboardInterrupt:
         bar.close()
         print(f"interrupted: finished points are kept in {path_for(output)}; run the same command with --resume to finish",
@@ -89,21 +90,23 @@ def _finite(v):
 
 
 def run_threshold_cli(args) -> int:
-    import fdsolver
+    from fdsolver.api import threshold
     from fdsolver.cli._common import ARCHIVE_SUFFIXES, check_output, command, parse_set
+    from fdsolver.input.case import load_case
+    from fdsolver.io.archive import write_dataset
     from fdsolver.report.sweep import format_threshold, threshold_summary
 
     check_output(args.output, "--output", ARCHIVE_SUFFIXES)
-    case = fdsolver.load_case(args.case, **parse_set(args.set))
-    ds = fdsolver.threshold(case, args.vary, state=args.state, scan=args.scan, rtol=args.rtol,
-                            action=command("threshold", args, THRESHOLD_OPTIONS))
+    case = load_case(args.case, **parse_set(args.set))
+    ds = threshold(case, args.vary, state=args.state, scan=args.scan, rtol=args.rtol,
+                   action=command("threshold", args, THRESHOLD_OPTIONS))
     first_only = not (args.all or args.state is not None)
     if args.json:
         print(json.dumps(_finite(threshold_summary(ds, first_only, args.state)), allow_nan=False))
     else:
         print(format_threshold(ds, first_only, args.state))
     if args.output:
-        fdsolver.write_dataset(ds, args.output)
+        write_dataset(ds, args.output)
         if not args.json:
             print(f"wrote {args.output}")
     return 0

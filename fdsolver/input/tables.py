@@ -57,7 +57,8 @@ def read_table(path: Path, *, file, key, x_column=0, v_column=1) -> tuple[np.nda
 
 def parse_table(text: str, name: str, *, x_column=0, v_column=1, key="table"):
     """Parse the text of a CSV profile; every bad row is reported with its line number."""
-    xs, vs = [], []
+    xs: list[float] = []
+    vs: list[float] = []
     seen_data = False
     for lineno, raw in enumerate(text.splitlines(), start=1):
         line = raw.split("#", 1)[0].strip()

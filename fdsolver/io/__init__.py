@@ -3,7 +3,7 @@ writes and checked reads.
 
 * :mod:`.specs`: one row per variable of every kind (solve, sweep, threshold, delta_check, delta_map);
 * :mod:`.units`: a physical dimension -> its UDUNITS-2 string and plain name in a case's unit system;
-* :mod:`.datasets`: ``solve_dataset``, ``sweep_dataset``, ``threshold_dataset``, ``ladder_dataset``,
+* :mod:`.datasets`: ``solve_record``, ``sweep_dataset``, ``threshold_dataset``, ``ladder_dataset``,
   ``map_dataset`` (all through ``build``) and ``check``, the reader's test of an archive against its rows;
 * :mod:`.archive`: ``write_dataset`` (temp file + fsync + rename, Ctrl-C held), ``open_run``, ``stamp``.
 """

@@ -92,7 +92,7 @@ def write_dataset(ds: xr.Dataset, path) -> Path:
     held: list[int] = []
     old_handler = None
     if threading.current_thread() is threading.main_thread():
-        old_handler = signal.signal(signal.SIGINT, lambda signum, frame: held.append(signum))
+        old_handler = signal.signal(signal.SIGINT, lambda signum, _frame: held.append(signum))
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
     os.close(fd)
     try:

@@ -6,7 +6,8 @@
 adds the kind's global attributes:
 
 =====================  =====================================================
-:func:`solve_dataset`  one solve (:class:`fdsolver.boundstates.result.Solution`)
+:func:`solve_record`   one solve (:class:`fdsolver.boundstates.result.Solution`), as a
+                       :class:`~fdsolver.io.record.Record` (``.dataset()`` builds the Dataset)
 :func:`sweep_dataset`  a parameter sweep (:class:`fdsolver.scans.sweep.Results`)
 :func:`threshold_dataset`  a threshold search (:class:`fdsolver.boundstates.counting.Search`)
 :func:`ladder_dataset`  a zero-range check over widths (:class:`fdsolver.zerorange.ladder.Ladder`)
@@ -142,13 +143,9 @@ def record(kind: str, result, system, attrs: dict, *, axes=(), param=None) -> Re
 
 
 # ------------------------------------------------------------ the kinds
-def solve_dataset(case, sol, history: str) -> xr.Dataset:
-    """The archive of one solve: coordinates x, state, region (with region_name), level; see :data:`specs.SOLVE`."""
-    return solve_record(case, sol, history).dataset()
-
-
 def solve_record(case, sol, history: str) -> Record:
-    """:func:`solve_dataset` without xarray (a :class:`~fdsolver.io.record.Record`)."""
+    """The archive of one solve, without xarray (a :class:`~fdsolver.io.record.Record`; ``.dataset()`` makes the
+    Dataset): coordinates x, state, region (with region_name), level; see :data:`specs.SOLVE`."""
     attrs = base_attrs(case, "solve", history)
     attrs.update({
         "continuum_threshold": float(sol.threshold) if math.isfinite(sol.threshold) else np.inf,

@@ -42,10 +42,10 @@ def _wrap(udunits: str) -> str:
 def units_of(dimension: str, system) -> tuple[str, str]:
     """(UDUNITS string, plain name) of ``dimension`` in the unit system ``system``.
 
-    >>> from fdsolver.model.units import get_units
-    >>> units_of("energy*length", get_units("nm-meV"))
+    >>> from fdsolver.model.units import UNIT_SYSTEMS
+    >>> units_of("energy*length", UNIT_SYSTEMS["nm-meV"])
     ('meV nm', 'meV nm')
-    >>> units_of("1/length", get_units("nm-meV"))
+    >>> units_of("1/length", UNIT_SYSTEMS["nm-meV"])
     ('1/nm', '1/nm')
     """
     parts = _TOKEN.split(dimension.strip())

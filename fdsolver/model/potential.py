@@ -36,7 +36,7 @@ class Potential:
     @cached_property
     def _summers(self) -> tuple:
         """One prepared evaluator per shape class, each summing all its instances in one pass."""
-        groups: dict[type, list[Shape]] = {}
+        groups: dict[type[Shape], list[Shape]] = {}
         for shape in self.shapes:
             groups.setdefault(type(shape), []).append(shape)
         return tuple(cls.summer(tuple(members)) for cls, members in groups.items())
@@ -117,12 +117,12 @@ class Potential:
 
     @cached_property
     def _features(self) -> np.ndarray:
-        pts = []
+        found: list[float] = []
         for shape in self.shapes:
-            pts.extend(shape.features())
+            found.extend(shape.features())
         if self.stack is not None:
-            pts.extend(self.stack.interfaces.tolist())
-        pts = np.unique(np.asarray(pts, dtype=float))
+            found.extend(self.stack.interfaces.tolist())
+        pts = np.unique(np.asarray(found, dtype=float))
         if pts.size > 1:  # merge positions closer than round-off
             keep = np.concatenate([[True], np.diff(pts) > 1e-12 * max(1.0, np.max(np.abs(pts)))])
             pts = pts[keep]

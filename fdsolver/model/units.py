@@ -86,8 +86,3 @@ def kinetic_units(hbar2_2me: float) -> UnitSystem:
     """An unnamed unit system with kinetic constant C = ``hbar2_2me`` (for the model functions that take C directly)."""
     return UnitSystem(name="custom", length="length unit", energy="energy unit", hbar2_2me=float(hbar2_2me),
                       length_udunits="1", energy_udunits="1", units_note=f"a unit system with hbar^2/2m_e = {hbar2_2me:g}")
-
-
-def get_units(name: str) -> UnitSystem:
-    """Return the :class:`UnitSystem` called ``name`` (KeyError if unknown)."""
-    return UNIT_SYSTEMS[name]

@@ -7,6 +7,8 @@ from typing import TYPE_CHECKING
 if TYPE_CHECKING:
     import xarray as xr
 
+    from fdsolver.io.record import Record
+
 import json
 import math
 
@@ -20,8 +22,8 @@ SHARED = 0.8
 MAX_NAMED = 3
 
 
-def format_solve(ds: xr.Dataset) -> str:
-    """The bound-state table of a solve archive."""
+def format_solve(ds: xr.Dataset | Record) -> str:
+    """The bound-state table of a solve archive (a Dataset, or the Record it is built from)."""
     eu, lu = units_of(ds, "energy"), units_of(ds, "x")
     a = ds.attrs
     lines = [a.get("title", "")]
@@ -52,7 +54,7 @@ def format_solve(ds: xr.Dataset) -> str:
     return "\n".join(lines)
 
 
-def _where(ds: xr.Dataset, k: int) -> str:
+def _where(ds: xr.Dataset | Record, k: int) -> str:
     """The named region a state lives in, or where it sits (a hard wall), or '-'."""
     if "wall_state" in ds and int(ds.wall_state.values[k]) != 0:
         return "left wall" if int(ds.wall_state.values[k]) < 0 else "right wall"
@@ -66,7 +68,7 @@ def _where(ds: xr.Dataset, k: int) -> str:
     return "-"
 
 
-def _splitting(ds: xr.Dataset, k: int) -> str:
+def _splitting(ds: xr.Dataset | Record, k: int) -> str:
     """E[k+1] - E[k] with its error, '< bound' below double precision, blank for the last state."""
     if "splitting" not in ds or k + 1 >= ds.sizes["state"] or not np.isfinite(ds.splitting.values[k]):
         return ""
@@ -75,7 +77,7 @@ def _splitting(ds: xr.Dataset, k: int) -> str:
     return f"{ds.splitting.values[k]:.6g} +- {ds.splitting_error.values[k]:.1e}"
 
 
-def _state_table(ds: xr.Dataset, eu: str, lu: str) -> list[str]:
+def _state_table(ds: xr.Dataset | Record, eu: str, lu: str) -> list[str]:
     """One row per state: its number (Sturm index = nodes), energy, error, parity, <x>, spread, where it lives,
     the splitting to the next state and whether it converged."""
     n = ds.sizes["state"]

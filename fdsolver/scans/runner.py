@@ -103,7 +103,7 @@ def solve_chunk(job) -> dict:
 
 def warm_up() -> None:
     """Initializer of worker processes: load the compiled kernels (numba cache) with one tiny solve."""
-    from fdsolver.api import solve_case
+    from fdsolver.runs import solve_case
     from fdsolver.input.case import case_from_dict
 
     solve_case(case_from_dict({"potential": [{"shape": "square", "center": 0.0, "width": 1.0, "depth": 4.0}],

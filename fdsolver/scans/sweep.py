@@ -145,7 +145,7 @@ def plan_sweep(case, axes, fixed=None, save_psi=False, memory_mb=None, chunk=Non
 # --------------------------------------------------------------- points
 def solve_points(spec: SweepSpec, base, indices) -> dict:
     """Solve the points ``indices`` of ``spec`` (``base``: its case); compact arrays, one row per state found."""
-    from fdsolver.api import solve_case
+    from fdsolver.runs import solve_case
 
     n = len(indices)
     psi_x = spec.psi_x if spec.save_psi and spec.psi_x is not None else np.zeros(0)

@@ -157,7 +157,8 @@ def run_ladder(case, options: Options, progress=None) -> Ladder:
         spec, pred = limit_of(model, case)
         res = compare(case, model, spec, pred)
         ladder_w = np.array([float(np.max(model.widths))])
-        models, results = (model,), (res,)
+        models: tuple[Model, ...] = (model,)
+        results: tuple[Comparison, ...] = (res,)
         coef = np.full(spec.n_states, np.nan)
     else:
         names, xs, alphas = point_terms(case)
@@ -170,12 +171,12 @@ def run_ladder(case, options: Options, progress=None) -> Ladder:
             ladder_w = np.geomspace(lo, hi, n)
         models = tuple(replacement(case, options.shape, w, names, xs, alphas) for w in ladder_w)
         check_separated(models[-1], options.widths_key[1], options.widths_key[0])
-        results = []
+        compared: list[Comparison] = []
         for w, m in zip(ladder_w, models):
-            results.append(compare(case, m, spec, coef * w))
+            compared.append(compare(case, m, spec, coef * w))
             if progress:
                 progress(1)
-        results = tuple(results)
+        results = tuple(compared)
     n_s = max([spec.n_states] + [r.count for r in results])
     for w, r in zip(ladder_w, results):
         notes.extend(f"width {w:.4g} {case.units.length}: {t}" for t in r.notes)

@@ -99,7 +99,7 @@ def from_finite(case) -> Model:
         raise CaseError("--from-finite needs finite wells only; this component is already a point interaction "
                         "(drop --from-finite to replace points by wells)", file=case.path, key=f"potential[{i}].shape")
     _plain(case)
-    wells = []
+    found: list[S.Localised] = []
     for i, s in enumerate(case.potential.shapes, start=1):
         if not isinstance(s, WELL_SHAPES):
             raise CaseError(f"a '{s.kind}' component has no zero-range model; use square, smooth_square, gaussian or "
@@ -107,9 +107,9 @@ def from_finite(case) -> Model:
         if not s.amplitude < 0:
             raise CaseError(f"a zero-range model needs attractive wells (depth > 0), got V = {s.amplitude:+g} "
                             f"{case.units.energy}", file=case.path, key=f"potential[{i}].depth")
-        wells.append(s)
-    order = sorted(range(len(wells)), key=lambda j: wells[j].centroid())
-    wells = tuple(wells[j] for j in order)
+        found.append(s)
+    order = sorted(range(len(found)), key=lambda j: found[j].centroid())
+    wells = tuple(found[j] for j in order)
     names = tuple(w.name or f"well {order[k] + 1}" for k, w in enumerate(wells))
     return Model(wells, names, np.array([w.centroid() for w in wells]), np.array([w.strength() for w in wells]),
                  np.array([mean_distance(w) for w in wells]), np.array([width_of(w) for w in wells]))

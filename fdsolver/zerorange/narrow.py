@@ -58,6 +58,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import replace
+from typing import cast
 
 import numpy as np
 
@@ -65,7 +66,9 @@ from fdsolver.model import shapes as S
 from fdsolver.errors import CaseError
 
 #: well shapes the zero-range comparison handles (those that can replace a point, with a mean distance l)
-WELL_SHAPES = tuple(cls for cls in S.SHAPES.values() if cls.replaces_points)
+#: the shapes that can stand in for a point interaction (all of them wells or barriers with a centre)
+WELL_SHAPES: tuple[type[S.Localised], ...] = tuple(
+    cast("type[S.Localised]", cls) for cls in S.SHAPES.values() if cls.replaces_points)
 
 
 # --------------------------------------------------------------- mean distance

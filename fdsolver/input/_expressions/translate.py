@@ -9,6 +9,7 @@ import ast
 import difflib
 import math
 import string
+from typing import Any, Callable, cast
 import numpy as np
 from fdsolver.input._expressions.grammar import (  # noqa: F401
     CONSTANT_NAMES,
@@ -105,7 +106,7 @@ def _check_nodes(tree: ast.Expression, src: str, text: str, allowed, fail) -> se
 
 
 def _check_constant(node: ast.Constant, src: str, text: str, fail) -> None:
-    value = node.value
+    value: Any = node.value
     where = f" in expression {_show(text)}"
     if type(value) not in (int, float):
         if isinstance(value, bool):
@@ -214,7 +215,7 @@ def _translate(body: ast.expr, src: str, text: str, fail) -> list:
     while todo:
         node, ready = todo.pop()
         if isinstance(node, ast.Constant):
-            done[id(node)] = [(_CONST, np.float64(float(node.value)))]
+            done[id(node)] = [(_CONST, np.float64(float(cast(float, node.value))))]  # a number: checked already
             continue
         if isinstance(node, ast.Name):
             if node.id in _CONSTANTS:
@@ -222,15 +223,17 @@ def _translate(body: ast.expr, src: str, text: str, fail) -> list:
             else:
                 done[id(node)] = [(_NAME, node.id)]
             continue
+        func: Callable[..., Any]
         if isinstance(node, ast.UnaryOp):
             kids = [node.operand]
             func = _UNARY[type(node.op)]
         elif isinstance(node, ast.BinOp):
             kids = [node.left, node.right]
             func = _BINARY[type(node.op)]
-        else:  # ast.Call, checked already
-            kids = list(node.args)
-            func = _FUNCTIONS[node.func.id].func
+        else:  # ast.Call of a whitelisted name, checked already
+            call = cast(ast.Call, node)
+            kids = list(call.args)
+            func = _FUNCTIONS[cast(ast.Name, call.func).id].func
         if not ready:
             todo.append((node, True))
             todo.extend((k, False) for k in reversed(kids))
@@ -248,6 +251,8 @@ def _translate(body: ast.expr, src: str, text: str, fail) -> list:
 
 
 def _fold(func, args, node, src: str, text: str, fail) -> np.float64:
+    value: np.float64 | None
+    reason: str | None
     try:
         with np.errstate(all="ignore"):
             value = np.float64(func(*args))
@@ -267,7 +272,7 @@ def _fold(func, args, node, src: str, text: str, fail) -> np.float64:
     return value
 
 
-def _plain_number(value, fail) -> float:
+def _plain_number(value, fail) -> float | None:
     """Return ``value`` as a finite float, or raise; ``None`` if it is not a number."""
     if isinstance(value, (bool, np.bool_)):
         raise fail(

@@ -101,11 +101,6 @@ class Shape:
     exact_integrals: ClassVar[bool] = False
 
     @classmethod
-    def sum_values(cls, shapes, x: np.ndarray) -> np.ndarray:
-        """Sum of the values of several instances at ``x``."""
-        return cls.summer(shapes)(x)
-
-    @classmethod
     def summer(cls, shapes) -> Callable[[np.ndarray], np.ndarray]:
         """A function x -> sum of the instances' values, prepared once; classes override it to avoid O(N K) work."""
         if len(shapes) == 1:

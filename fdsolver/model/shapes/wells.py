@@ -41,6 +41,10 @@ class Localised(Shape):
         """The width parameter of the profile (square/smooth_square/sech2: width; gaussian: sigma)."""
         return float(getattr(self, "width"))
 
+    def mean_distance(self) -> float:
+        """l = mean |x - x'| of two points drawn from the profile |V| (length unit); each well gives its closed form."""
+        raise NotImplementedError(f"{type(self).__name__} gives no mean distance")
+
 
 @register("square", keys={**_WELL_KEYS, "width": LENGTH}, positive=("width",), signed=True)
 @dataclass(frozen=True)

@@ -1,0 +1,73 @@
+"""What ``import fdsolver``, ``fdsolver --version`` and ``fdsolver --help`` load: nothing heavy.
+
+A fresh interpreter (the fdsolver this test session imported) runs the entry point and reports
+``sys.modules``.  No timing: the modules loaded decide the start-up cost (numpy, scipy, xarray with
+pandas, netCDF4, matplotlib, numba and dask each cost 0.1 s to over 1 s of CPU to import; common
+practice, no source).
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+import fdsolver
+
+PACKAGE_PARENT = Path(fdsolver.__file__).resolve().parents[1]
+
+#: not loaded by ``import fdsolver`` nor ``fdsolver --version``
+LIGHT = ("numpy", "scipy", "xarray", "pandas", "netCDF4", "matplotlib", "dask", "distributed", "numba")
+#: not loaded by any ``--help`` (parsers only; the physics is imported when a command runs)
+HELP = ("xarray", "pandas", "netCDF4", "matplotlib", "dask", "distributed", "numba")
+
+RUN_ENTRY_POINT = """
+import json, runpy, sys
+sys.argv = ["fdsolver", *json.loads(sys.argv[1])]
+try:
+    runpy.run_module("fdsolver", run_name="__main__", alter_sys=True)  # python -m fdsolver ARGS
+except SystemExit:
+    pass
+print("\\nMODULES " + json.dumps(sorted(sys.modules)))
+"""
+
+
+def loaded_by(code: str, *args: str) -> set[str]:
+    """Top-level packages in sys.modules after ``code`` ran in a fresh interpreter."""
+    env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(PACKAGE_PARENT), os.environ.get("PYTHONPATH", "")]))
+    proc = subprocess.run([sys.executable, "-c", code, *args], capture_output=True, text=True, env=env, timeout=120)
+    assert proc.returncode == 0, proc.stderr
+    line = proc.stdout.rsplit("MODULES ", 1)[1]
+    return {name.split(".")[0] for name in json.loads(line)}
+
+
+def test_import_fdsolver_loads_nothing_heavy():
+    code = "import json, sys, fdsolver\nprint('MODULES ' + json.dumps(sorted(sys.modules)))"
+    loaded = loaded_by(code)
+    assert "fdsolver" in loaded
+    assert loaded.isdisjoint(LIGHT), sorted(loaded & set(LIGHT))
+
+
+def test_version_loads_nothing_heavy():
+    loaded = loaded_by(RUN_ENTRY_POINT, json.dumps(["--version"]))
+    assert loaded.isdisjoint(LIGHT), sorted(loaded & set(LIGHT))
+
+
+@pytest.mark.parametrize("command", [[], ["solve"], ["show"], ["plot"], ["delta-check"], ["sweep"], ["threshold"]],
+                         ids=lambda c: " ".join(c) or "top")
+def test_help_loads_no_physics(command):
+    loaded = loaded_by(RUN_ENTRY_POINT, json.dumps([*command, "--help"]))
+    assert "argparse" in loaded  # the parser did run
+    assert loaded.isdisjoint(HELP), sorted(loaded & set(HELP))
+
+
+def test_the_check_sees_a_heavy_import(tmp_path):
+    """The same probe notices a command that does load the physics: a solve loads the compiled kernels (numba)."""
+    case = tmp_path / "point.toml"
+    case.write_text('title = "one point interaction (invented)"\n[[potential]]\nshape = "point"\ncenter = 0\nstrength = 1\n')
+    loaded = loaded_by(RUN_ENTRY_POINT, json.dumps(["solve", str(case)]))
+    assert "numba" in loaded and not loaded.isdisjoint(HELP)
