@@ -42,11 +42,14 @@ SPEC_NAME = "archives.json"
 ARCHIVES: list[dict] = []
 
 
-def crafted(checks: str, *, code: int = 2, clean_stdout: bool = False, no_quote_of: str | None = None, slow: bool = False):
+def crafted(checks: str, *, code: int = 2, clean_stdout: bool = False, no_quote_of: str | None = None, slow: bool = False,
+            api_refuses: bool = False):
     """Register a builder ``make_NAME(ctx) -> None`` that writes ``ctx.out / 'NAME.nc'``.
 
     ``slow``: the archive hangs or takes long with the fdsolver this corpus was written against; the tests run
     it in separate processes (marked slow) so that the fast loop stays fast.
+    ``api_refuses``: ``open_run`` (or ``case_of_run``) must refuse it with an FdsolverError, not return its
+    content (external storage, links, sizes and a stored case beyond the limits; issue 11, "What to build" 2).
     """
 
     def deco(fn):
@@ -58,6 +61,8 @@ def crafted(checks: str, *, code: int = 2, clean_stdout: bool = False, no_quote_
             entry["no_quote_of"] = no_quote_of
         if slow:
             entry["slow"] = True
+        if api_refuses:
+            entry["api_refuses"] = True
         ARCHIVES.append(entry)
         return fn
 
@@ -274,7 +279,7 @@ def _attr(ctx: Context, name: str, key: str, value, base: Path | None = None) ->
 
 
 # ================================================================== HDF5 storage and links
-@crafted("an extra variable whose raw data is stored externally in a FIFO: reading it would block for ever")
+@crafted("an extra variable whose raw data is stored externally in a FIFO: reading it would block for ever", api_refuses=True)
 def make_ext_fifo_extra(ctx):
     fifo = ctx.aux / "ext_fifo"
     if not fifo.exists():
@@ -287,7 +292,7 @@ def make_ext_fifo_extra(ctx):
 
 
 @crafted("an extra variable stored externally in /etc/passwd: the archive reads a file it does not name",
-         no_quote_of="/etc/passwd")
+         no_quote_of="/etc/passwd", api_refuses=True)
 def make_ext_passwd_extra(ctx):
     n = min(os.path.getsize("/etc/passwd"), 512) if os.path.exists("/etc/passwd") else 64
     p = ctx.copy("ext_passwd_extra")
@@ -297,7 +302,7 @@ def make_ext_passwd_extra(ctx):
     h.lib.H5Fclose(f)
 
 
-@crafted("an extra variable of 4 GiB stored externally in /dev/zero (a small file that reads without end)")
+@crafted("an extra variable of 4 GiB stored externally in /dev/zero (a small file that reads without end)", api_refuses=True)
 def make_ext_devzero_4gib(ctx):
     p = ctx.copy("ext_devzero_4gib")
     h = ctx.h5
@@ -306,7 +311,7 @@ def make_ext_devzero_4gib(ctx):
     h.lib.H5Fclose(f)
 
 
-@crafted("an extra variable stored externally in a file that does not exist")
+@crafted("an extra variable stored externally in a file that does not exist", api_refuses=True)
 def make_ext_missing_file(ctx):
     p = ctx.copy("ext_missing_file")
     h = ctx.h5
@@ -316,7 +321,7 @@ def make_ext_missing_file(ctx):
 
 
 @crafted("the energy variable itself stored externally in /etc/passwd (its bytes would be shown as energies)",
-         no_quote_of="/etc/passwd")
+         no_quote_of="/etc/passwd", api_refuses=True)
 def make_ext_energy_passwd(ctx):
     p = ctx.path("ext_energy_passwd")
     _rebuild(ctx, "ext_energy_passwd", lambda ds: ds.drop_vars("energy"))
@@ -332,7 +337,7 @@ def make_ext_energy_passwd(ctx):
     h.lib.H5Fclose(f)
 
 
-@crafted("an HDF5 external link to a FIFO: following it would block for ever")
+@crafted("an HDF5 external link to a FIFO: following it would block for ever", api_refuses=True)
 def make_elink_fifo(ctx):
     fifo = ctx.aux / "elink_fifo"
     if not fifo.exists():
@@ -344,7 +349,7 @@ def make_elink_fifo(ctx):
     h.lib.H5Fclose(f)
 
 
-@crafted("an HDF5 external link to /etc/passwd", no_quote_of="/etc/passwd")
+@crafted("an HDF5 external link to /etc/passwd", no_quote_of="/etc/passwd", api_refuses=True)
 def make_elink_passwd(ctx):
     p = ctx.copy("elink_passwd")
     h = ctx.h5
@@ -353,7 +358,7 @@ def make_elink_passwd(ctx):
     h.lib.H5Fclose(f)
 
 
-@crafted("an HDF5 external link from the archive to itself", slow=True)
+@crafted("an HDF5 external link from the archive to itself", slow=True, api_refuses=True)
 def make_elink_self(ctx):
     p = ctx.copy("elink_self")
     h = ctx.h5
@@ -362,7 +367,7 @@ def make_elink_self(ctx):
     h.lib.H5Fclose(f)
 
 
-@crafted("an HDF5 external link to a variable of another (valid) archive: data from a file the user did not name")
+@crafted("an HDF5 external link to a variable of another (valid) archive: data from a file the user did not name", api_refuses=True)
 def make_elink_other_archive(ctx):
     other = ctx.aux / "other_archive.nc"
     shutil.copyfile(ctx.solve, other)
@@ -373,7 +378,7 @@ def make_elink_other_archive(ctx):
     h.lib.H5Fclose(f)
 
 
-@crafted("an HDF5 soft link that points nowhere")
+@crafted("an HDF5 soft link that points nowhere", api_refuses=True)
 def make_softlink_dangling(ctx):
     p = ctx.copy("softlink_dangling")
     h = ctx.h5
@@ -382,7 +387,7 @@ def make_softlink_dangling(ctx):
     h.lib.H5Fclose(f)
 
 
-@crafted("an HDF5 soft link that points at itself")
+@crafted("an HDF5 soft link that points at itself", api_refuses=True)
 def make_softlink_loop(ctx):
     p = ctx.copy("softlink_loop")
     h = ctx.h5
@@ -391,7 +396,7 @@ def make_softlink_loop(ctx):
     h.lib.H5Fclose(f)
 
 
-@crafted("a group holding a hard link back to the root group: the group tree is a cycle", slow=True)
+@crafted("a group holding a hard link back to the root group: the group tree is a cycle", slow=True, api_refuses=True)
 def make_hardlink_cycle(ctx):
     p = ctx.copy("hardlink_cycle")
     h = ctx.h5
@@ -414,7 +419,7 @@ def make_groups_deep(ctx):
 
 
 # ================================================================== declared sizes
-@crafted("a small file declaring an unwritten extra variable of 4.8 GB")
+@crafted("a small file declaring an unwritten extra variable of 4.8 GB", api_refuses=True)
 def make_big_unwritten_extra(ctx):
     import netCDF4
 
@@ -424,7 +429,7 @@ def make_big_unwritten_extra(ctx):
         nc.createVariable("extra", "f8", ("huge",))
 
 
-@crafted("a solve archive whose x axis declares 300 million unwritten points (psi would be 7.2 GB)")
+@crafted("a solve archive whose x axis declares 300 million unwritten points (psi would be 7.2 GB)", api_refuses=True)
 def make_big_unwritten_psi(ctx):
     import netCDF4
 
@@ -450,7 +455,7 @@ def make_big_unwritten_psi(ctx):
             var.setncatts({k: a for k, a in v.attrs.items()})
 
 
-@crafted("an extra chunked variable declaring 8 TB (10^12 doubles), never written")
+@crafted("an extra chunked variable declaring 8 TB (10^12 doubles), never written", api_refuses=True)
 def make_big_chunked_8tb(ctx):
     import netCDF4
 
@@ -460,7 +465,7 @@ def make_big_chunked_8tb(ctx):
         nc.createVariable("extra", "f8", ("vast",), chunksizes=(2**20,))
 
 
-@crafted("a compression bomb: 3 GiB of zeros stored in 3 MB (zlib chunks written directly)")
+@crafted("a compression bomb: 3 GiB of zeros stored in 3 MB (zlib chunks written directly)", api_refuses=True)
 def make_zlib_bomb(ctx):
     import zlib
 
@@ -502,17 +507,17 @@ def make_many_attributes(ctx):
         nc.setncatts({f"a{i}": "x" * 16 for i in range(3000)})
 
 
-@crafted("a 10 MB title (show would print it, plot would draw it)", slow=True)
+@crafted("a 10 MB title (show would print it, plot would draw it)", slow=True, api_refuses=True)
 def make_huge_title(ctx):
     _attr(ctx, "huge_title", "title", "T" * (10 * 2**20))
 
 
-@crafted("a messages attribute of 400,000 lines (11 MB of notes)")
+@crafted("a messages attribute of 400,000 lines (11 MB of notes)", api_refuses=True)
 def make_huge_messages(ctx):
     _attr(ctx, "huge_messages", "messages", "\n".join(["note from a crafted archive"] * 400_000))
 
 
-@crafted("a stored case of 100,000 params (case_text and params of several MB)", slow=True)
+@crafted("a stored case of 100,000 params (case_text and params of several MB)", slow=True, api_refuses=True)
 def make_case_100k_params(ctx):
     import netCDF4
 
@@ -526,7 +531,7 @@ def make_case_100k_params(ctx):
 
 
 # ================================================================== attribute types and nesting
-@crafted("fdsolver_kind stored as an array of two strings")
+@crafted("fdsolver_kind stored as an array of two strings", api_refuses=True)
 def make_kind_array(ctx):
     import netCDF4
 
@@ -535,12 +540,12 @@ def make_kind_array(ctx):
         nc.setncattr_string("fdsolver_kind", ["solve", "solve"])
 
 
-@crafted("case_text stored as an integer")
+@crafted("case_text stored as an integer", api_refuses=True)
 def make_case_text_int(ctx):
     _attr(ctx, "case_text_int", "case_text", np.int32(42))
 
 
-@crafted("case_text stored as an array of strings")
+@crafted("case_text stored as an array of strings", api_refuses=True)
 def make_case_text_array(ctx):
     import netCDF4
 
@@ -549,28 +554,28 @@ def make_case_text_array(ctx):
         nc.setncattr_string("case_text", ["[[potential]]", 'shape = "point"'])
 
 
-@crafted("params holding JSON nested 100,000 deep")
+@crafted("params holding JSON nested 100,000 deep", api_refuses=True)
 def make_params_deep_json(ctx):
     _attr(ctx, "params_deep_json", "params", "[" * 100_000 + "]" * 100_000)
 
 
-@crafted("params holding a JSON list instead of an object")
+@crafted("params holding a JSON list instead of an object", api_refuses=True)
 def make_params_json_list(ctx):
     _attr(ctx, "params_json_list", "params", "[1, 2, 3]")
 
 
-@crafted("case_tables that is not JSON")
+@crafted("case_tables that is not JSON", api_refuses=True)
 def make_case_tables_not_json(ctx):
     _attr(ctx, "case_tables_not_json", "case_tables", "{not json")
 
 
-@crafted("case_tables holding JSON nested 100,000 deep")
+@crafted("case_tables holding JSON nested 100,000 deep", api_refuses=True)
 def make_case_tables_deep_json(ctx):
     _attr(ctx, "case_tables_deep_json", "case_tables", '{"t.csv": ' + "[" * 100_000 + "]" * 100_000 + "}")
 
 
 @crafted("a stored case whose table is /etc/passwd, not stored in case_tables: rebuilding it would read and quote that file",
-         no_quote_of="/etc/passwd")
+         no_quote_of="/etc/passwd", api_refuses=True)
 def make_case_table_passwd(ctx):
     import netCDF4
 
@@ -692,7 +697,7 @@ def make_level_nodes_strings_2d(ctx):
 
 
 # ================================================================== missing pieces and kinds
-@crafted("a solve archive without its energy variable")
+@crafted("a solve archive without its energy variable", api_refuses=True)
 def make_missing_energy(ctx):
     _rebuild(ctx, "missing_energy", lambda ds: ds.drop_vars("energy"))
 
@@ -707,7 +712,7 @@ def make_missing_potential(ctx):
     _rebuild(ctx, "missing_potential", lambda ds: ds.drop_vars("potential"))
 
 
-@crafted("an archive without the case_text attribute")
+@crafted("an archive without the case_text attribute", api_refuses=True)
 def make_missing_case_text(ctx):
     import netCDF4
 

@@ -1026,6 +1026,8 @@ def test_crafted_archive_api(request, name):
         bad.append(f"{api['stage']} raised {api['raised']} (not an FdsolverError): {api['message'][:200]}")
     if a["code"] == 0 and api.get("raised"):
         bad.append(f"a valid archive was refused by {api['stage']}: {api['message'][:200]}")
+    if a.get("api_refuses") and api and not api.get("raised"):
+        bad.append("open_run and case_of_run accepted it (they must refuse it with an FdsolverError)")
     if r.get("rss_growth", 0) > ARCHIVE_RSS_GROWTH:
         bad.append(f"peak memory grew by {r['rss_growth'] / 2**20:.0f} MB")
     if a.get("no_quote_of"):
