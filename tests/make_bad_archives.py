@@ -219,22 +219,17 @@ class Context:
         import fdsolver
         from fdsolver.input.case import case_from_text
         from fdsolver.io.archive import write_dataset
-        from fdsolver.parallel.executors import SerialExecutor
-        from fdsolver.parallel.checkpoint import run_sweep
-        from fdsolver.scans.sweep import parse_axes, plan_sweep
-        from fdsolver.scans.thresholds import find_thresholds, search_dataset
 
         solve = base / "solve.nc"
         write_dataset(fdsolver.solve(fdsolver.case_from_dict(CASE_SOLVE), action="crafted-archive base"), solve)
         (base / "pair.toml").write_text(CASE_PAIR)
         pair = case_from_text(CASE_PAIR, path=str(base / "pair.toml"))
-        spec = plan_sweep(pair, parse_axes(["d=1:2:3"], pair))
         sweep = base / "sweep.nc"
-        with SerialExecutor() as ex:
-            write_dataset(run_sweep(spec, ex, action="crafted-archive base sweep", locate=False), sweep)
-        search = find_thresholds(pair, "d", 0.1, 6.0, scan=9, units="nm")
+        # the public API calls (stable across internal moves of the sweep and threshold code)
+        write_dataset(fdsolver.sweep(pair, ["d=1:2:3"], executor="serial", thresholds=False,
+                                     action="crafted-archive base sweep"), sweep)
         threshold = base / "threshold.nc"
-        write_dataset(search_dataset(pair, search, "crafted-archive base threshold"), threshold)
+        write_dataset(fdsolver.threshold(pair, "d=0.1:6", scan=9, action="crafted-archive base threshold"), threshold)
         return solve, sweep, threshold
 
     # helpers used by the builders
