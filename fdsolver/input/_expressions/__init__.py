@@ -55,6 +55,7 @@ from fdsolver.input._expressions.translate import (
 )
 
 __all__ = [
+    "normal_name",
     "CONSTANT_NAMES",
     "FUNCTION_NAMES",
     "MAX_DEPTH",
@@ -67,7 +68,14 @@ __all__ = [
     "resolve_params",
 ]
 
-#: Longest expression text accepted, in characters.
+
+def normal_name(name: str) -> str:
+    """A name as an expression reads it: Unicode NFKC, which Python's parser applies to every identifier
+    (so the ligature 'ﬁ' and 'fi', or FULLWIDTH 'ｐｉ' and the constant 'pi', are one name)."""
+    import unicodedata
+
+    return unicodedata.normalize("NFKC", name)
+
 
 
 class Expression:
@@ -282,7 +290,9 @@ def compile_expression(
             "into parameters"
         ) from None
 
-    allowed = None if allowed_names is None else frozenset(allowed_names)
+    # a mapping is used through its keys (no copy: compiling stays linear in the number of params)
+    allowed = (None if allowed_names is None else allowed_names.keys() if isinstance(allowed_names, Mapping)
+               else allowed_names if isinstance(allowed_names, (frozenset, set)) else frozenset(allowed_names))
     names = _check_nodes(tree, src, text, allowed, fail)
     _check_depth(tree.body, text, fail)
     program = _translate(tree.body, src, text, fail)
@@ -356,9 +366,16 @@ def resolve_params(
         raise fail(
             f"parameters must be a table of name = value, got {type(raw).__name__}", None
         )
+    names = frozenset(raw)
     exprs: dict[str, Expression] = {}
     resolved: dict[str, float] = {}
     for name, value in raw.items():
+        if isinstance(name, str) and normal_name(name) != name:
+            raise fail(
+                f"parameter name '{name}' reads as '{normal_name(name)}' (Unicode NFKC, as expressions read "
+                "names); write it so",
+                name,
+            )
         if not isinstance(name, str) or not name.isidentifier() or keyword.iskeyword(name):
             raise fail(
                 f"parameter name {name!r} is not a valid name; use letters, digits and '_', "
@@ -373,7 +390,7 @@ def resolve_params(
                 f"parameter name '{name}' is the name of a built-in {kind}; rename it", name
             )
         if isinstance(value, str):
-            exprs[name] = compile_expression(value, allowed_names=raw, file=file, key=where(name))
+            exprs[name] = compile_expression(value, allowed_names=names, file=file, key=where(name))
             continue
         number = _plain_number(value, lambda m, n=name: fail(m, n))
         if number is None:
