@@ -195,11 +195,21 @@ class ProcessExecutor:
 
 
 def parse_cluster(spec: str) -> int:
-    """Worker count of ``local:N``."""
+    """Worker count of ``local:N`` (at most :func:`fdsolver.limits.max_local_workers`)."""
     kind, _, n = (spec or "").partition(":")
     if kind != "local" or not n.isdigit() or int(n) < 1:
         raise CaseError(f"'{spec}' is not local:N (N workers on this machine, e.g. local:4)", key="--cluster")
+    _local_limit(int(n), "--cluster")
     return int(n)
+
+
+def _local_limit(n: int, key: str) -> None:
+    """Refuse more local worker processes than this machine can run (:func:`fdsolver.limits.max_local_workers`)."""
+    from fdsolver.limits import WORKERS_PER_CORE, cores, max_local_workers
+
+    if n > max_local_workers():
+        raise CaseError(f"{n} local workers asked for; at most {max_local_workers()} ({WORKERS_PER_CORE} per core, "
+                        f"{cores()} cores here) are started", key=key)
 
 
 class _sigint_ignored:
@@ -320,8 +330,10 @@ def make_executor(kind: str | None = None, workers: int | None = None, cluster: 
     each worker process."""
     if cluster and scheduler:
         raise CaseError("give --cluster or --scheduler, not both", key="--cluster")
-    if workers is not None and (isinstance(workers, bool) or workers < 1):
-        raise CaseError(f"needs at least 1 worker, got {workers}", key="--workers")
+    if workers is not None and (isinstance(workers, bool) or not isinstance(workers, int) or workers < 1):
+        raise CaseError(f"needs at least 1 worker, got {workers!r}", key="--workers")
+    if workers is not None and not scheduler:
+        _local_limit(workers, "--workers")
     if cluster or scheduler or kind == "dask":
         return DaskExecutor(workers=parse_cluster(cluster) if cluster else workers, address=scheduler, initializer=initializer)
     if kind == "serial" or (workers == 1 and kind is None):
