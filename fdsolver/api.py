@@ -35,7 +35,12 @@ from fdsolver.limits import MAX_SCAN
 
 
 def _case(case) -> Case:
-    return load_case(case) if isinstance(case, (str, os.PathLike)) else case
+    if isinstance(case, (str, os.PathLike)):
+        return load_case(case)
+    if not isinstance(case, Case):
+        raise CaseError(f"give a case (fdsolver.load_case, case_from_dict) or the path of a case file, got "
+                        f"{type(case).__name__}")
+    return case
 
 
 def _where(case: Case) -> str:
@@ -92,8 +97,14 @@ def case_of_run(ds: xr.Dataset) -> Case:
 
 
 # ------------------------------------------------------------------ scans
-def _texts(vary) -> list[str]:
-    return [vary] if isinstance(vary, str) else list(vary or [])
+def _texts(vary, key: str = "--vary") -> list[str]:
+    """One axis text or a sequence of them, as a list (CaseError for anything else)."""
+    texts = [vary] if isinstance(vary, str) else list(vary) if isinstance(vary, (list, tuple)) else None
+    if vary is None:
+        return []
+    if texts is None or not all(isinstance(t, str) for t in texts):
+        raise CaseError(f"give axes as text like \"d=1:5:20\" (one, or a list of them), got {vary!r}", key=key)
+    return texts
 
 
 def _scan_checks(output, resume: bool, restart: bool, chunk) -> None:
@@ -222,7 +233,7 @@ def delta_map(case, maps: Sequence[str] | None = None, *, shape: str | None = No
     if from_finite and shape is not None:
         raise CaseError("--shape chooses the wells that replace points; --from-finite uses the case's own wells", key="--shape")
     options = read_options(case, shape=shape, widths=widths, tolerance=tolerance, from_finite=from_finite,
-                           maps=_texts(maps) or None)
+                           maps=_texts(maps, "--map") or None)
     spec = plan_map(case, options, dict(case.overrides), chunk)
     action = action or f"delta-check {_where(case)} " + " ".join(f"--map {a.text}" for a in spec.axes)
     return _run_on(executor, workers, cluster, scheduler,

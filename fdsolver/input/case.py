@@ -30,7 +30,7 @@ from fdsolver.input._expressions import (
 )
 from fdsolver.input.schema import LAYER, TOP, check_keys, check_section, component_keys
 from fdsolver.input.tables import BOM, parse_table, read_table, regular_file
-from fdsolver.limits import MAX_COMPONENTS, MAX_LAYERS, MAX_MEMORY_MB, MAX_PARAMS, MAX_STATES
+from fdsolver.limits import MAX_COMPONENTS, MAX_LAYERS, MAX_MEMORY_MB, MAX_PARAMS, MAX_STATES, MAX_STORED_CASE_BYTES
 from fdsolver.model.domain import Domain
 from fdsolver.model.potential import Potential
 from fdsolver.model.shapes import COUNT, SHAPES, TEXT, BuildContext, Shape
@@ -144,18 +144,27 @@ def _context(params, units, mass, file, base_dir, tables, read_files=True) -> Bu
     not make fdsolver read other files).
     """
     allowed = frozenset(params) | {"x"}
+    parsed: dict = {}  # (file, columns) -> (xs, vs): a table used by many components is parsed once
 
     def read(fname: str, x_column: int, v_column: int, key: str):
+        if (fname, x_column, v_column) in parsed:
+            return parsed[fname, x_column, v_column]
         if fname in tables:
-            return parse_table(tables[fname], fname, x_column=x_column, v_column=v_column, key=key)
-        if not read_files:
+            got = parse_table(tables[fname], fname, x_column=x_column, v_column=v_column, key=key)
+        elif not read_files:
             raise CaseError(f"the stored case names the table '{shorten(fname)}', which the archive does not hold; "
                             "it is damaged or was not written by fdsolver", file=file, key=key)
-        path = (Path(base_dir) / fname) if base_dir is not None else Path(fname)
-        xs, vs, text = read_table(path, file=file, key=key, x_column=x_column, v_column=v_column,
-                                  quote=_inside(path, base_dir))
-        tables[fname] = text
-        return xs, vs
+        else:
+            path = (Path(base_dir) / fname) if base_dir is not None else Path(fname)
+            xs, vs, text = read_table(path, file=file, key=key, x_column=x_column, v_column=v_column,
+                                      quote=_inside(path, base_dir))
+            if sum(len(t) for t in tables.values()) + len(text) > MAX_STORED_CASE_BYTES:
+                raise CaseError(f"the case's tables hold more than {MAX_STORED_CASE_BYTES // 2**20} MB together, more "
+                                "than an archive stores with its case; use fewer or shorter tables", file=file, key=key)
+            tables[fname] = text
+            got = (xs, vs)
+        parsed[fname, x_column, v_column] = got
+        return got
 
     def compile_v(text: str, key: str):
         return compile_expression(text, allowed, file=file, key=key)
@@ -185,6 +194,8 @@ def _build_stack(layers, params, mass, origin, file) -> LayerStack:
 # -------------------------------------------------------------------- entry
 def load_case(path, **overrides) -> Case:
     """Read and validate the case file at ``path``; keyword arguments override [params] entries."""
+    if not isinstance(path, (str, os.PathLike)) or not str(path).strip():
+        raise CaseError(f"give the path of a case file, got {path!r}")
     p = Path(path)
     regular_file(p, str(path), None, "case file")
     try:

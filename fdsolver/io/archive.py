@@ -39,7 +39,7 @@ import xarray as xr
 from fdsolver._version import __version__
 from fdsolver.errors import ArchiveError, CaseError, printable, shorten, write_failure
 from fdsolver.io.datasets import check
-from fdsolver.limits import ARCHIVE_MEMORY_MB, MAX_VARIABLES
+from fdsolver.limits import ARCHIVE_MEMORY_MB, MAX_MEMORY_MB, MAX_VARIABLES
 
 
 def stamp(action: str) -> str:
@@ -189,6 +189,10 @@ def open_run(path, *, memory_mb: float = ARCHIVE_MEMORY_MB) -> xr.Dataset:
     """
     from fdsolver.io import hdf5, untrusted
 
+    if not isinstance(path, (str, os.PathLike)) or not str(path).strip():
+        raise ArchiveError(f"give the path of an archive, got {path!r}")
+    if isinstance(memory_mb, bool) or not isinstance(memory_mb, (int, float)) or not 0 < memory_mb <= MAX_MEMORY_MB:
+        raise ArchiveError(f"memory_mb must be a positive number of MB, at most {MAX_MEMORY_MB:g}, got {memory_mb!r}")
     p = Path(path)
     budget = float(memory_mb) * 2**20
     try:

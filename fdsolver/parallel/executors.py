@@ -196,7 +196,9 @@ class ProcessExecutor:
 
 def parse_cluster(spec: str) -> int:
     """Worker count of ``local:N`` (at most :func:`fdsolver.limits.max_local_workers`)."""
-    kind, _, n = (spec or "").partition(":")
+    if not isinstance(spec, str):
+        raise CaseError(f"give the cluster as local:N, got {spec!r}", key="--cluster")
+    kind, _, n = spec.partition(":")
     if kind != "local" or not n.isdigit() or int(n) < 1:
         raise CaseError(f"'{spec}' is not local:N (N workers on this machine, e.g. local:4)", key="--cluster")
     _local_limit(int(n), "--cluster")

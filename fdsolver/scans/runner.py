@@ -119,6 +119,9 @@ def executor_for(executor=None, workers: int | None = None, cluster: str | None 
     """An executor (an instance is returned as it is; a name "serial"/"processes"/"dask" or None is made),
     with :func:`warm_up` as its initializer."""
     if executor is not None and not isinstance(executor, str):
+        if not callable(getattr(executor, "imap_unordered", None)):
+            raise CaseError(f"an executor is \"serial\", \"processes\", \"dask\" or an object with imap_unordered, "
+                            f"got {type(executor).__name__}", key="--executor")
         return executor
     from fdsolver.parallel.executors import make_executor
 
