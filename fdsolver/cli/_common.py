@@ -217,7 +217,7 @@ class ProgressBar:
     def __init__(self, desc: str, quiet: bool = False):
         self.desc, self.quiet, self.bar = desc, quiet, None
 
-    def start(self, total: int, text: str) -> None:
+    def start(self, total: int | None, text: str) -> None:
         from tqdm import tqdm
 
         if text:

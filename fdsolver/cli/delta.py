@@ -92,7 +92,12 @@ def run_delta(args) -> int:
             if args.resume or args.restart:
                 raise CaseError("--resume and --restart continue a validity map (--map); a width ladder has no checkpoint",
                                 key="--resume" if args.resume else "--restart")
-            ds = fdsolver.delta_check(case, **settings, action=action)
+            bar = ProgressBar("delta-check widths", args.quiet)
+            bar.start(None, "")  # the number of widths is known only once the ladder is planned
+            try:
+                ds = fdsolver.delta_check(case, **settings, progress=bar, action=action)
+            finally:
+                bar.close()
             before_write(ds)
             if args.output:
                 fdsolver.write_dataset(ds, args.output)
