@@ -45,7 +45,7 @@ def case_inputs(case) -> list[str]:
     return [case.path] + [os.path.join(folder, name) for name in getattr(case, "tables", {})]
 
 
-def _same(a: str, b: str) -> bool:
+def _same(a, b) -> bool:
     try:
         return os.path.samefile(a, b)
     except (OSError, ValueError):

@@ -106,7 +106,8 @@ def parse_table(text: str, name: str, *, x_column=0, v_column=1, key="table", qu
     """Parse the text of a CSV profile (module docstring); every bad row is reported with its line number."""
     if text.startswith(BOM):
         text = text[1:]
-    xs, vs = [], []
+    xs: list[float] = []
+    vs: list[float] = []
     need = max(x_column, v_column) + 1
     first = True  # no content line seen yet: the one place a header may stand
     for lineno, raw in enumerate(text.splitlines(), start=1):
