@@ -5,12 +5,13 @@ memory_mb`` / ``--memory-mb`` for a sweep's result) these bound the work a
 small input can ask for.  Each limit is reported in the message that refuses
 it.  The values are design ceilings, far above what the structures fdsolver
 is for need (a superlattice of 500 periods has 1000 layers), and low enough
-that a refused input costs a fraction of a second.
+that a refused input costs a fraction of a second.  Local worker processes
+(``-j``, ``--cluster local:N``) are at most 2 per core of the machine:
+:func:`fdsolver.parallel.executors.max_local_workers` (the executors import
+nothing of fdsolver but its errors).
 """
 
 from __future__ import annotations
-
-import os
 
 # ---------------------------------------------------------------- numbers
 #: a number of smaller or larger magnitude (but not 0) cannot be carried through a solve in double precision
@@ -49,19 +50,3 @@ MAX_ATTRIBUTE_BYTES = 256 * 2**10
 MAX_STORED_CASE_BYTES = 64 * 2**20
 MAX_PARAMS_BYTES = 4 * 2**20
 
-
-def cores() -> int:
-    """The processors this process may run on (its affinity mask where the OS has one)."""
-    try:
-        return max(1, len(os.sched_getaffinity(0)))
-    except (AttributeError, OSError):
-        return max(1, os.cpu_count() or 1)
-
-
-#: local worker processes per core at most (a little oversubscription is harmless; thousands of processes are not)
-WORKERS_PER_CORE = 2
-
-
-def max_local_workers() -> int:
-    """Most worker processes of a local pool or a local Dask cluster: :data:`WORKERS_PER_CORE` per core."""
-    return WORKERS_PER_CORE * cores()

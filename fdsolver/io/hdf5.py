@@ -147,7 +147,14 @@ def inspect(path) -> dict[str, int]:
     Returns ``{dataset name: declared bytes}`` (variable-length text counts its pointers only; its bytes are
     inside the file, whose size the caller bounds).
     """
+    from xarray.backends.locks import HDF5_LOCK  # the HDF5 library is not thread-safe: the lock xarray's reads hold
+
     h = _library(path)
+    with HDF5_LOCK:
+        return _inspect(h, path)
+
+
+def _inspect(h: _Library, path) -> dict[str, int]:
     lib = h.lib
     f = lib.H5Fopen(os.fsencode(path), _H5F_ACC_RDONLY, 0)
     if f < 0:

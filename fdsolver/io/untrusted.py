@@ -163,11 +163,12 @@ def variables(ds, kind: specs.Kind, path) -> None:
     for a in axes:
         if a in ds.sizes and ds.sizes[a] == 0:
             raise _fail(path, f"the scanned axis {printable(shorten(a, 40))} has no points; the archive is damaged")
-    for name in ("energy", "energy_error"):
-        if kind.name == "solve" and name in ds.variables and ds[name].dtype.kind == "f" \
-                and not np.all(np.isfinite(ds[name].values)):
-            raise _fail(path, f"variable {name} holds values that are not finite numbers; fdsolver never writes "
-                              "such a solve archive, so it is damaged or altered")
+    if kind.name == "solve":  # every state of a solve has a finite energy, and an error bar (inf: one level only)
+        bad = [n for n, ok in (("energy", np.isfinite), ("energy_error", lambda v: v >= 0))
+               if n in ds.variables and ds[n].dtype.kind == "f" and not np.all(ok(ds[n].values))]
+        if bad:
+            raise _fail(path, f"variable {bad[0]} holds values fdsolver never writes (not finite, or a negative error); "
+                              "the archive is damaged or altered")
     for v in ds.variables.values():
         v.attrs = {k: x for k, x in v.attrs.items() if k in specs.VAR_ATTRS}
         for k, x in v.attrs.items():

@@ -205,10 +205,25 @@ def parse_cluster(spec: str) -> int:
     return int(n)
 
 
-def _local_limit(n: int, key: str) -> None:
-    """Refuse more local worker processes than this machine can run (:func:`fdsolver.limits.max_local_workers`)."""
-    from fdsolver.limits import WORKERS_PER_CORE, cores, max_local_workers
+#: local worker processes per core at most (a little oversubscription is harmless; thousands of processes are not)
+WORKERS_PER_CORE = 2
 
+
+def cores() -> int:
+    """The processors this process may run on (its affinity mask where the OS has one)."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except (AttributeError, OSError):
+        return max(1, os.cpu_count() or 1)
+
+
+def max_local_workers() -> int:
+    """Most worker processes of a local pool or a local Dask cluster: :data:`WORKERS_PER_CORE` per core."""
+    return WORKERS_PER_CORE * cores()
+
+
+def _local_limit(n: int, key: str) -> None:
+    """Refuse more local worker processes than this machine can run (:func:`max_local_workers`)."""
     if n > max_local_workers():
         raise CaseError(f"{n} local workers asked for; at most {max_local_workers()} ({WORKERS_PER_CORE} per core, "
                         f"{cores()} cores here) are started", key=key)
