@@ -29,6 +29,7 @@ from fdsolver.errors import ArchiveError, CaseError
 from fdsolver.input.case import Case, case_from_text, load_case
 from fdsolver.io.archive import stamp
 from fdsolver.io.datasets import solve_record
+from fdsolver.limits import MAX_SCAN
 from fdsolver.runs import solve_case
 
 if TYPE_CHECKING:
@@ -40,7 +41,12 @@ __all__ = ["case_of_run", "delta_check", "delta_map", "solve", "solve_case", "sw
 
 
 def _case(case) -> Case:
-    return load_case(case) if isinstance(case, (str, os.PathLike)) else case
+    if isinstance(case, (str, os.PathLike)):
+        return load_case(case)
+    if not isinstance(case, Case):
+        raise CaseError(f"give a case (fdsolver.load_case, case_from_dict) or the path of a case file, got "
+                        f"{type(case).__name__}")
+    return case
 
 
 def _where(case: Case) -> str:
@@ -60,27 +66,48 @@ def solve_record_of(case: Case | str | os.PathLike, action: str | None = None) -
 
 
 def case_of_run(ds: xr.Dataset) -> Case:
-    """Rebuild the case stored in an archive (its text and the table files it read)."""
+    """Rebuild the case stored in an archive (its text and the table files it read), as untrusted text.
+
+    The stored case is validated like a case file, within the work budget, and never makes fdsolver read a
+    file: a table it names must be stored in the archive too.  Every problem is an
+    :class:`~fdsolver.errors.ArchiveError` naming the archive.
+    """
     import json
 
+    from fdsolver.io.specs import COMMON_ATTRS
+    from fdsolver.io.untrusted import _value
+
+    source = ds.encoding.get("source")
+    attrs = getattr(ds, "attrs", None)
+    if not isinstance(attrs, dict) or "case_text" not in attrs:
+        raise ArchiveError("archive does not hold a stored case (no case_text attribute)", file=source)
     try:
-        tables = json.loads(ds.attrs.get("case_tables", "{}"))
-        text = ds.attrs["case_text"]
-    except (KeyError, ValueError) as exc:
-        raise ArchiveError(f"archive does not hold a readable case ({exc})") from None
-    path = ds.attrs.get("case_file") or None
-    try:
-        case = case_from_text(text, path=path, tables=tables)
+        text = _value("case_text", COMMON_ATTRS["case_text"], attrs["case_text"], source)
+        tables = json.loads(_value("case_tables", COMMON_ATTRS["case_tables"], attrs.get("case_tables", "{}"), source))
+        params = json.loads(_value("params", COMMON_ATTRS["params"], attrs.get("params", "{}"), source))
+        path = attrs.get("case_file") or None
+        path = path if isinstance(path, str) else None
+        case = case_from_text(text, path=path, tables=tables, read_files=False)
+        changed = {k: v for k, v in params.items() if case.params.get(k) != v}
+        return case.with_params(**changed) if changed else case
+    except ArchiveError:
+        raise
     except CaseError as err:
-        raise ArchiveError(f"the case stored in the archive is not valid: {err}", file=ds.encoding.get("source")) from None
-    params = json.loads(ds.attrs.get("params", "{}"))
-    changed = {k: v for k, v in params.items() if case.params.get(k) != v}
-    return case.with_params(**changed) if changed else case
+        raise ArchiveError(f"the case stored in the archive is not valid: {err}", file=source) from None
+    except (RecursionError, MemoryError, ValueError, TypeError, KeyError, AttributeError) as exc:
+        raise ArchiveError(f"the case stored in the archive cannot be read ({type(exc).__name__}); it is damaged or "
+                           "was not written by fdsolver", file=source) from None
 
 
 # ------------------------------------------------------------------ scans
-def _texts(vary) -> list[str]:
-    return [vary] if isinstance(vary, str) else list(vary or [])
+def _texts(vary, key: str = "--vary") -> list[str]:
+    """One axis text or a sequence of them, as a list (CaseError for anything else)."""
+    texts = [vary] if isinstance(vary, str) else list(vary) if isinstance(vary, (list, tuple)) else None
+    if vary is None:
+        return []
+    if texts is None or not all(isinstance(t, str) for t in texts):
+        raise CaseError(f"give axes as text like \"d=1:5:20\" (one, or a list of them), got {vary!r}", key=key)
+    return texts
 
 
 def _scan_checks(output, resume: bool, restart: bool, chunk) -> None:
@@ -106,7 +133,7 @@ def _run_on(executor, workers, cluster, scheduler, work):
 def sweep(case, vary: str | Sequence[str] = (), *, save_psi: bool = False, output=None, resume: bool = False,
           restart: bool = False, executor=None, workers: int | None = None, cluster: str | None = None,
           scheduler: str | None = None, memory_mb: float | None = None, chunk: int | None = None,
-          thresholds: bool = True, progress=None, action: str | None = None) -> xr.Dataset:
+          thresholds: bool = True, progress=None, before_write=None, action: str | None = None) -> xr.Dataset:
     """Solve ``case`` at every point of the cartesian product of the ``vary`` axes (kind ``sweep``).
 
     ``vary``: ``"NAME=START:STOP:COUNT"`` (``:log`` for geometric spacing) or
@@ -118,30 +145,30 @@ def sweep(case, vary: str | Sequence[str] = (), *, save_psi: bool = False, outpu
     (a Dask address) say where points run.  ``memory_mb`` is the budget of the
     result, ``chunk`` the points per task, ``thresholds`` whether binding
     thresholds are located along a single swept param.  ``progress(n)`` is
-    called as points finish (see :func:`fdsolver.scans.runner.run`).
+    called as points finish, ``before_write(ds)`` with the result before it is
+    written (see :func:`fdsolver.scans.runner.run`).
     """
     from fdsolver.scans.sweep import plan_sweep, run_sweep, sweep_axes
 
     case = _case(case)
     _scan_checks(output, resume, restart, chunk)
-    if memory_mb is not None and (isinstance(memory_mb, bool) or not memory_mb > 0):
-        raise CaseError(f"must be positive, got {memory_mb!r}", key="--memory-mb")
     fixed = dict(case.overrides)
     axes = sweep_axes(_texts(vary), case)
     spec = plan_sweep(case, axes, fixed, save_psi, memory_mb, chunk)
     action = action or f"sweep {_where(case)} " + " ".join(f"--vary {a.text}" for a in axes)
     return _run_on(executor, workers, cluster, scheduler,
                    lambda ex: run_sweep(spec, ex, output=output, resume=resume, restart=restart, action=action,
-                                        progress=progress, locate=thresholds))
+                                        progress=progress, locate=thresholds, before_write=before_write))
 
 
-def threshold(case, vary: str, *, state: int | None = None, scan: int = 129, rtol: float = 1e-9,
+def threshold(case, vary: str, *, state: int | None = None, scan: int = 129, rtol: float = 1e-9, progress=None,
               action: str | None = None) -> xr.Dataset:
     """Every value of a param in an interval at which a bound state appears (kind ``threshold``; no box is used).
 
     ``vary``: ``"NAME=LO:HI"``.  ``state``: only the state with that many
     nodes.  The interval is scanned at ``scan`` points to bracket the
-    thresholds, each then found to the relative accuracy ``rtol``.
+    thresholds, each then found to the relative accuracy ``rtol``; ``progress``
+    as for :func:`sweep` (called as scan points are done).
     """
     from fdsolver.io.datasets import Param, threshold_dataset
     from fdsolver.scans.axes import parse_interval, param_units
@@ -150,14 +177,14 @@ def threshold(case, vary: str, *, state: int | None = None, scan: int = 129, rto
     case = _case(case)
     if state is not None and (isinstance(state, bool) or not isinstance(state, int) or state < 0):
         raise CaseError(f"a state label is its node count, 0 or more; got {state}", key="--state")
-    if isinstance(scan, bool) or not isinstance(scan, int) or not 3 <= scan <= 100000:
-        raise CaseError(f"must be from 3 to 100000, got {scan}", key="--scan")
-    if not 1e-14 <= rtol <= 1e-3:
-        raise CaseError(f"must be from 1e-14 to 1e-3, got {rtol:g}", key="--rtol")
+    if isinstance(scan, bool) or not isinstance(scan, int) or not 3 <= scan <= MAX_SCAN:
+        raise CaseError(f"must be a whole number from 3 to {MAX_SCAN} (the work budget), got {scan!r}", key="--scan")
+    if isinstance(rtol, bool) or not isinstance(rtol, (int, float)) or not 1e-14 <= rtol <= 1e-3:
+        raise CaseError(f"must be from 1e-14 to 1e-3, got {rtol!r}", key="--rtol")
     name, lo, hi = parse_interval(vary, case)
     units = param_units(case, name)
     search = find_thresholds(case, name, lo, hi, fixed=dict(case.overrides), state=state, scan=scan, rtol=rtol,
-                             units=units[1])
+                             units=units[1], progress=progress)
     param = Param(name, *units)
     return threshold_dataset(case, search, stamp(action or f"threshold {_where(case)} --vary {vary}"), param)
 
@@ -191,7 +218,7 @@ def delta_check(case, *, shape: str | None = None, widths=None, tolerance: float
 def delta_map(case, maps: Sequence[str] | None = None, *, shape: str | None = None, widths=None,
               tolerance: float | None = None, from_finite: bool | None = None, output=None, resume: bool = False,
               restart: bool = False, executor=None, workers: int | None = None, cluster: str | None = None,
-              scheduler: str | None = None, chunk: int | None = None, progress=None,
+              scheduler: str | None = None, chunk: int | None = None, progress=None, before_write=None,
               action: str | None = None) -> xr.Dataset:
     """The zero-range comparison over a plane of two params (kind ``delta_check``, a validity map).
 
@@ -209,9 +236,9 @@ def delta_map(case, maps: Sequence[str] | None = None, *, shape: str | None = No
     if from_finite and shape is not None:
         raise CaseError("--shape chooses the wells that replace points; --from-finite uses the case's own wells", key="--shape")
     options = read_options(case, shape=shape, widths=widths, tolerance=tolerance, from_finite=from_finite,
-                           maps=_texts(maps) or None)
+                           maps=_texts(maps, "--map") or None)
     spec = plan_map(case, options, dict(case.overrides), chunk)
     action = action or f"delta-check {_where(case)} " + " ".join(f"--map {a.text}" for a in spec.axes)
     return _run_on(executor, workers, cluster, scheduler,
                    lambda ex: run_map(spec, ex, case=case, output=output, resume=resume, restart=restart, action=action,
-                                      progress=progress))
+                                      progress=progress, before_write=before_write))

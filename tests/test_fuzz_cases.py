@@ -38,7 +38,7 @@ SCALE = max(1, int(os.environ.get("FDSOLVER_FUZZ_SCALE", "1")))
 FUZZ = settings(
     max_examples=600 * SCALE,
     deadline=None,
-    derandomize=True,
+    derandomize=settings.default.derandomize,  # the profile tests/conftest.py loads (FDSOLVER_HYPOTHESIS)
     database=None,
     suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much, HealthCheck.data_too_large],
 )

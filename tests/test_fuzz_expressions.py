@@ -30,7 +30,7 @@ GRID = np.linspace(-2.0, 2.0, 9)
 FUZZ = settings(
     max_examples=400,
     deadline=None,
-    derandomize=True,
+    derandomize=settings.default.derandomize,  # the profile tests/conftest.py loads (FDSOLVER_HYPOTHESIS)
     database=None,  # no example database in the working folder
     suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much],
 )

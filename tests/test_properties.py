@@ -50,7 +50,7 @@ PROPS = settings(
     max_examples=25,
     phases=(Phase.explicit, Phase.generate),  # no shrinking: a failure is reported as found, and fast
     deadline=None,
-    derandomize=True,
+    derandomize=settings.default.derandomize,  # the profile tests/conftest.py loads (FDSOLVER_HYPOTHESIS)
     database=None,
     suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large, HealthCheck.filter_too_much],
 )

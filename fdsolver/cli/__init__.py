@@ -12,6 +12,7 @@ from __future__ import annotations
 import argparse
 import os
 import sys
+import warnings
 
 from fdsolver._version import __version__
 from fdsolver.errors import CaseError, FdsolverError
@@ -50,7 +51,11 @@ def main(argv=None) -> int:
         parser.print_help(sys.stderr)
         return 2
     try:
-        return int(args.func(args) or 0)
+        with warnings.catch_warnings():
+            # numpy's floating-point and matplotlib's font warnings are noise at the terminal: what matters is in
+            # the notes of a result, or in the one line of a refusal
+            warnings.simplefilter("ignore")
+            return int(args.func(args) or 0)
     except CaseError as err:
         print(f"fdsolver: error: {err}", file=sys.stderr)
         return 2

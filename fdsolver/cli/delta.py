@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import sys
 
-from fdsolver.errors import CaseError
+from fdsolver.errors import CaseError, printable
 
 
 def register(sub) -> None:
@@ -40,41 +40,75 @@ OPTIONS = (("--shape", "shape"), ("--widths", "widths"), ("--tolerance", "tolera
 
 def run_delta(args) -> int:
     from fdsolver.api import delta_check, delta_map
-    from fdsolver.cli._common import ARCHIVE_SUFFIXES, FIG_SUFFIXES, ProgressBar, check_output, command, parse_set, write_figure
     from fdsolver.input.case import load_case
     from fdsolver.io.archive import write_dataset
+    from fdsolver.cli._common import (
+        ARCHIVE_SUFFIXES,
+        FIG_SUFFIXES,
+        ProgressBar,
+        case_inputs,
+        check_outputs,
+        command,
+        commit_figure,
+        discard,
+        draw_figure,
+        parse_set,
+        say,
+    )
+    from fdsolver.cli.sweep import sigint_stops_the_run
     from fdsolver.report.delta import format_delta
     from fdsolver.scans.options import read_options
 
-    check_output(args.output, "--output", ARCHIVE_SUFFIXES)
-    check_output(args.plot, "--plot", FIG_SUFFIXES)
+    outputs = [(args.output, "--output", ARCHIVE_SUFFIXES), (args.plot, "--plot", FIG_SUFFIXES)]
+    check_outputs(outputs, inputs=[args.case])  # before reading anything (the checkpoint is checked below)
     case = load_case(args.case, **parse_set(args.set))
     settings = dict(shape=args.shape, widths=args.widths, tolerance=args.tolerance, from_finite=args.from_finite)
     action = command("delta-check", args, OPTIONS)
     is_map = bool(read_options(case, **settings, maps=args.map).maps)  # --map, or the case's [delta_check] map
-    if is_map:
-        bar = ProgressBar("delta map", args.quiet)
-        try:
-            ds = delta_map(case, args.map, **settings, output=args.output, resume=args.resume,
-                           restart=args.restart, executor=args.executor, workers=args.workers, progress=bar,
-                           action=action)
-        except KeyboardInterrupt:
-            bar.close()
+    check_outputs(outputs, inputs=case_inputs(case), checkpoint_of=args.output if is_map else None)
+    figure: list = []
+
+    def before_write(ds):  # the figure first: one that cannot be made leaves no archive behind
+        figure.append(draw_figure(ds, args.plot))
+
+    try:
+        if is_map:
+            bar = ProgressBar("delta map", args.quiet)
+            try:
+                with sigint_stops_the_run():
+                    ds = delta_map(case, args.map, **settings, output=args.output, resume=args.resume,
+                                            restart=args.restart, executor=args.executor, workers=args.workers,
+                                            progress=bar, before_write=before_write, action=action)
+            except KeyboardInterrupt:
+                bar.close()
+                discard(figure[0] if figure else None)
+                if args.output:
+                    print(f"interrupted: finished points are kept in {printable(args.output)}.checkpoint; run the same "
+                          "command with --resume to finish", file=sys.stderr)
+                return 130
+            finally:
+                bar.close()
+            if not figure:
+                before_write(ds)
+        else:
+            if args.resume or args.restart:
+                raise CaseError("--resume and --restart continue a validity map (--map); a width ladder has no checkpoint",
+                                key="--resume" if args.resume else "--restart")
+            bar = ProgressBar("delta-check widths", args.quiet)
+            bar.start(None, "")  # the number of widths is known only once the ladder is planned
+            try:
+                ds = delta_check(case, **settings, progress=bar, action=action)
+            finally:
+                bar.close()
+            before_write(ds)
             if args.output:
-                print(f"interrupted: finished points are kept in {args.output}.checkpoint; run the same command with "
-                      "--resume to finish", file=sys.stderr)
-            return 130
-        finally:
-            bar.close()
-    else:
-        if args.resume or args.restart:
-            raise CaseError("--resume and --restart continue a validity map (--map); a width ladder has no checkpoint",
-                            key="--resume" if args.resume else "--restart")
-        ds = delta_check(case, **settings, action=action)
-    print(format_delta(ds))
-    if args.output:
-        if not is_map:  # a map is written by its run, which keeps the checkpoint until then
-            write_dataset(ds, args.output)
-        print(f"wrote {args.output}")
-    write_figure(ds, args.plot)
+                write_dataset(ds, args.output)
+        commit_figure(figure[0] if figure else None, args.plot)
+    except BaseException:
+        discard(figure[0] if figure else None)
+        raise
+    say(format_delta(ds))
+    for path in (args.output, args.plot):
+        if path:
+            say(f"wrote {path}")
     return 0

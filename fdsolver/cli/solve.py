@@ -2,7 +2,21 @@
 
 from __future__ import annotations
 
-from fdsolver.cli._common import ARCHIVE_SUFFIXES, FIG_SUFFIXES, check_output, command, parse_set, write_figure
+import os
+
+from fdsolver.cli._common import (
+    ARCHIVE_SUFFIXES,
+    FIG_SUFFIXES,
+    case_inputs,
+    check_outputs,
+    command,
+    commit_figure,
+    discard,
+    draw_figure,
+    parse_set,
+    say,
+    write_figure,
+)
 
 
 def register(sub) -> None:
@@ -29,17 +43,24 @@ def run_solve(args) -> int:
     from fdsolver.io.archive import write_dataset
     from fdsolver.report.solve import format_solve
 
-    check_output(args.output, "--output", ARCHIVE_SUFFIXES)
-    check_output(args.plot, "--plot", FIG_SUFFIXES)
+    outputs = [(args.output, "--output", ARCHIVE_SUFFIXES), (args.plot, "--plot", FIG_SUFFIXES)]
+    check_outputs(outputs, inputs=[args.case])  # before reading anything
     case = load_case(args.case, **parse_set(args.set))
+    check_outputs(outputs, inputs=case_inputs(case))  # and not onto a table the case read
     rec = solve_record_of(case, action=command("solve", args, [("--set", "set")]))
-    print(format_solve(rec))
     if args.output or args.plot:  # xarray is imported only when an archive or a figure is made
         ds = rec.dataset()
-        if args.output:
-            write_dataset(ds, args.output)
-            print(f"wrote {args.output}")
-        write_figure(ds, args.plot)
+        figure = draw_figure(ds, args.plot)  # first: a figure that fails leaves no archive behind
+        try:
+            if args.output:
+                write_dataset(ds, args.output)
+            commit_figure(figure, args.plot)
+        finally:
+            discard(figure if figure and os.path.exists(figure) else None)
+    say(format_solve(rec))
+    for path in (args.output, args.plot):
+        if path:
+            say(f"wrote {path}")
     return 0
 
 
@@ -47,13 +68,13 @@ def run_show(args) -> int:
     from fdsolver.io.archive import open_run
     from fdsolver.report import format_archive
 
-    print(format_archive(open_run(args.archive)))
+    say(format_archive(open_run(args.archive)))
     return 0
 
 
 def run_plot(args) -> int:
     from fdsolver.io.archive import open_run
 
-    check_output(args.output, "--output", FIG_SUFFIXES)
+    check_outputs([(args.output, "--output", FIG_SUFFIXES)], inputs=[args.archive])
     write_figure(open_run(args.archive), args.output)
     return 0

@@ -7,6 +7,8 @@ import math
 import sys
 from pathlib import Path
 
+from fdsolver.errors import printable
+
 
 def register(sub) -> None:
     p = sub.add_parser("sweep", help="solve a case over a grid of param values (checkpointed, parallel)")
@@ -49,33 +51,85 @@ THRESHOLD_OPTIONS = (("--vary", "vary"), ("--set", "set"), ("--state", "state"),
 
 
 def run_sweep_cli(args) -> int:
-    from fdsolver.api import sweep
-    from fdsolver.cli._common import ARCHIVE_SUFFIXES, FIG_SUFFIXES, ProgressBar, check_output, command, parse_set, write_figure
     from fdsolver.input.case import load_case
+    from fdsolver.cli._common import (
+        ARCHIVE_SUFFIXES,
+        FIG_SUFFIXES,
+        ProgressBar,
+        case_inputs,
+        check_outputs,
+        command,
+        commit_figure,
+        discard,
+        draw_figure,
+        parse_set,
+        say,
+    )
     from fdsolver.parallel.checkpoint import path_for
     from fdsolver.report.sweep import format_sweep
 
-    output = args.output or f"{Path(args.case).stem}_sweep.nc"
-    check_output(output, "--output", ARCHIVE_SUFFIXES)
-    check_output(args.plot, "--plot", FIG_SUFFIXES)
+    output = args.output if args.output is not None else f"{Path(args.case).stem}_sweep.nc"
+    outputs = [(output, "--output", ARCHIVE_SUFFIXES), (args.plot, "--plot", FIG_SUFFIXES)]
+    check_outputs(outputs, inputs=[args.case], checkpoint_of=output)  # before reading anything
     case = load_case(args.case, **parse_set(args.set))
+    check_outputs(outputs, inputs=case_inputs(case), checkpoint_of=output)  # and not onto a table the case read
     bar = ProgressBar("sweep", args.quiet)
+    figure: list = []
+
+    def before_write(ds):  # the figure first: one that cannot be made leaves no archive behind
+        figure.append(draw_figure(ds, args.plot))
+
     try:
-        ds = sweep(case, args.vary, save_psi=args.save_psi, output=output, resume=args.resume,
-                   restart=args.restart, executor=args.executor, workers=args.workers, cluster=args.cluster,
-                   scheduler=args.scheduler, memory_mb=args.memory_mb, chunk=args.chunk,
-                   thresholds=not args.no_thresholds, progress=bar, action=command("sweep", args, SWEEP_OPTIONS))
+        with sigint_stops_the_run():
+            ds = sweep(case, args.vary, save_psi=args.save_psi, output=output, resume=args.resume,
+                                restart=args.restart, executor=args.executor, workers=args.workers, cluster=args.cluster,
+                                scheduler=args.scheduler, memory_mb=args.memory_mb, chunk=args.chunk,
+                                thresholds=not args.no_thresholds, progress=bar, before_write=before_write,
+                                action=command("sweep", args, SWEEP_OPTIONS))
+        commit_figure(figure[0] if figure else None, args.plot)
     except KeyboardInterrupt:
         bar.close()
-        print(f"interrupted: finished points are kept in {path_for(output)}; run the same command with --resume to finish",
-              file=sys.stderr)
+        discard(figure[0] if figure else None)
+        print(f"interrupted: finished points are kept in {printable(path_for(output))}; run the same command with "
+              "--resume to finish", file=sys.stderr)
         return 130
+    except BaseException:
+        discard(figure[0] if figure else None)
+        raise
     finally:
         bar.close()
-    print(format_sweep(ds))
-    print(f"wrote {output}")
-    write_figure(ds, args.plot)
+    say(format_sweep(ds))
+    say(f"wrote {output}")
+    if args.plot:
+        say(f"wrote {args.plot}")
     return 0
+
+
+class sigint_stops_the_run:
+    """SIGINT stops a scan as Ctrl-C does, also when it was started with SIGINT ignored.
+
+    A non-interactive shell starts a background job (``fdsolver sweep ... &``) with SIGINT ignored, and Python
+    then never raises KeyboardInterrupt: ``kill -INT PID`` would be lost.  A scan is a long run with a
+    checkpoint, and stopping it keeps every finished point, so here SIGINT is taken back while the scan runs
+    (README.md, "Checkpoint and resume").  A scan that must survive the interruption of the script that
+    started it is started in a session of its own (``setsid fdsolver sweep ...``).
+    """
+
+    def __enter__(self):
+        import signal
+        import threading
+
+        self.old = None
+        if threading.current_thread() is threading.main_thread() and signal.getsignal(signal.SIGINT) == signal.SIG_IGN:
+            self.old = signal.signal(signal.SIGINT, signal.default_int_handler)
+        return self
+
+    def __exit__(self, *exc):
+        import signal
+
+        if self.old is not None:
+            signal.signal(signal.SIGINT, self.old)
+        return False
 
 
 def _finite(v):
@@ -91,22 +145,28 @@ def _finite(v):
 
 def run_threshold_cli(args) -> int:
     from fdsolver.api import threshold
-    from fdsolver.cli._common import ARCHIVE_SUFFIXES, check_output, command, parse_set
     from fdsolver.input.case import load_case
     from fdsolver.io.archive import write_dataset
+    from fdsolver.cli._common import ARCHIVE_SUFFIXES, ProgressBar, case_inputs, check_outputs, command, parse_set, say
     from fdsolver.report.sweep import format_threshold, threshold_summary
 
-    check_output(args.output, "--output", ARCHIVE_SUFFIXES)
+    outputs = [(args.output, "--output", ARCHIVE_SUFFIXES)]
+    check_outputs(outputs, inputs=[args.case])  # before reading anything
     case = load_case(args.case, **parse_set(args.set))
-    ds = threshold(case, args.vary, state=args.state, scan=args.scan, rtol=args.rtol,
-                   action=command("threshold", args, THRESHOLD_OPTIONS))
+    check_outputs(outputs, inputs=case_inputs(case))  # and not onto a table the case read
+    bar = ProgressBar("threshold scan")
+    try:
+        ds = threshold(case, args.vary, state=args.state, scan=args.scan, rtol=args.rtol, progress=bar,
+                                action=command("threshold", args, THRESHOLD_OPTIONS))
+    finally:
+        bar.close()
+    if args.output:
+        write_dataset(ds, args.output)
     first_only = not (args.all or args.state is not None)
     if args.json:
         print(json.dumps(_finite(threshold_summary(ds, first_only, args.state)), allow_nan=False))
     else:
-        print(format_threshold(ds, first_only, args.state))
-    if args.output:
-        write_dataset(ds, args.output)
-        if not args.json:
-            print(f"wrote {args.output}")
+        say(format_threshold(ds, first_only, args.state))
+        if args.output:
+            say(f"wrote {args.output}")
     return 0

@@ -10,6 +10,7 @@ shapes and their keys in the registry :data:`fdsolver.model.shapes.SHAPES`.
 
 from __future__ import annotations
 
+import keyword
 import math
 import os
 import tomllib
@@ -18,11 +19,18 @@ from pathlib import Path
 from typing import Any, Mapping
 
 from fdsolver.boundstates.settings import SolveSettings
-from fdsolver.errors import CaseError, did_you_mean
+from fdsolver.errors import CaseError, did_you_mean, shorten
 from fdsolver.input import fields as F
-from fdsolver.input._expressions import compile_expression, evaluate_number, resolve_params
+from fdsolver.input._expressions import (
+    FUNCTION_NAMES,
+    compile_expression,
+    evaluate_number,
+    normal_name,
+    resolve_params,
+)
 from fdsolver.input.schema import LAYER, TOP, check_keys, check_section, component_keys
-from fdsolver.input.tables import parse_table, read_table, regular_file
+from fdsolver.input.tables import BOM, parse_table, read_table, regular_file
+from fdsolver.limits import MAX_COMPONENTS, MAX_LAYERS, MAX_MEMORY_MB, MAX_PARAMS, MAX_STATES, MAX_STORED_CASE_BYTES
 from fdsolver.model.domain import Domain
 from fdsolver.model.potential import Potential
 from fdsolver.model.shapes import COUNT, SHAPES, TEXT, BuildContext, Shape
@@ -31,6 +39,8 @@ from fdsolver.model.units import UNIT_SYSTEMS, UnitSystem
 from fdsolver.numerics.grid import GridSettings
 
 BOUNDARIES = ("open", "hard")
+#: names a param may not take (read after Unicode NFKC normalisation): the position, the constants, the functions
+RESERVED = frozenset({"x", "pi", "e"}) | FUNCTION_NAMES
 #: the two ways to give the amplitude of a signed shape
 SIGN_KEYS = ("depth", "height")
 #: a component more than this many times its own size from x = 0 gets grid positions rounded to more than 2e-9 of its size
@@ -116,19 +126,48 @@ def _make_shape(i: int, comp: Mapping, ctx: BuildContext, file) -> Shape:
         raise err.located(file=file, key_prefix=None if err.key and err.key.startswith(where) else where) from None
 
 
-def _context(params, units, mass, file, base_dir, tables) -> BuildContext:
-    """How shapes read their table files and compile their expressions, for this case."""
+def _inside(path: Path, folder) -> bool:
+    """True if ``path`` (symbolic links followed) lies inside ``folder``: its lines may be quoted in messages."""
+    if folder is None:
+        return False
+    try:
+        return Path(os.path.realpath(path)).is_relative_to(os.path.realpath(folder))
+    except (OSError, ValueError):
+        return False
+
+
+def _context(params, units, mass, file, base_dir, tables, read_files=True) -> BuildContext:
+    """How shapes read their table files and compile their expressions, for this case.
+
+    Tables already in ``tables`` (the stored ones of an archive) are parsed from there; others are read from
+    disk relative to the case file, unless ``read_files`` is false (a stored case re-read from an archive must
+    not make fdsolver read other files).
+    """
+    allowed = frozenset(params) | {"x"}
+    parsed: dict = {}  # (file, columns) -> (xs, vs): a table used by many components is parsed once
 
     def read(fname: str, x_column: int, v_column: int, key: str):
+        if (fname, x_column, v_column) in parsed:
+            return parsed[fname, x_column, v_column]
         if fname in tables:
-            return parse_table(tables[fname], fname, x_column=x_column, v_column=v_column, key=key)
-        path = (Path(base_dir) / fname) if base_dir is not None else Path(fname)
-        xs, vs, text = read_table(path, file=file, key=key, x_column=x_column, v_column=v_column)
-        tables[fname] = text
-        return xs, vs
+            got = parse_table(tables[fname], fname, x_column=x_column, v_column=v_column, key=key)
+        elif not read_files:
+            raise CaseError(f"the stored case names the table '{shorten(fname)}', which the archive does not hold; "
+                            "it is damaged or was not written by fdsolver", file=file, key=key)
+        else:
+            path = (Path(base_dir) / fname) if base_dir is not None else Path(fname)
+            xs, vs, text = read_table(path, file=file, key=key, x_column=x_column, v_column=v_column,
+                                      quote=_inside(path, base_dir))
+            if sum(len(t) for t in tables.values()) + len(text) > MAX_STORED_CASE_BYTES:
+                raise CaseError(f"the case's tables hold more than {MAX_STORED_CASE_BYTES // 2**20} MB together, more "
+                                "than an archive stores with its case; use fewer or shorter tables", file=file, key=key)
+            tables[fname] = text
+            got = (xs, vs)
+        parsed[fname, x_column, v_column] = got
+        return got
 
     def compile_v(text: str, key: str):
-        return compile_expression(text, list(params) + ["x"], file=file, key=key)
+        return compile_expression(text, allowed, file=file, key=key)
 
     return BuildContext(mass, units.hbar2_2me, params, read, compile_v)
 
@@ -155,6 +194,8 @@ def _build_stack(layers, params, mass, origin, file) -> LayerStack:
 # -------------------------------------------------------------------- entry
 def load_case(path, **overrides) -> Case:
     """Read and validate the case file at ``path``; keyword arguments override [params] entries."""
+    if not isinstance(path, (str, os.PathLike)) or not str(path).strip():
+        raise CaseError(f"give the path of a case file, got {path!r}")
     p = Path(path)
     regular_file(p, str(path), None, "case file")
     try:
@@ -172,23 +213,38 @@ def load_case(path, **overrides) -> Case:
     return case_from_text(text, path=str(path), overrides=overrides)
 
 
-def case_from_text(text: str, *, path: str | None = None, overrides: Mapping | None = None, tables=None) -> Case:
-    """Validate TOML ``text`` (tables, if given, map table file names to their stored text)."""
+def case_from_text(text: str, *, path: str | None = None, overrides: Mapping | None = None, tables=None,
+                   read_files: bool = True) -> Case:
+    """Validate TOML ``text`` (tables, if given, map table file names to their stored text; ``read_files``:
+    whether tables not among them may be read from disk).  A leading byte-order mark is dropped."""
+    toml = text[1:] if text.startswith(BOM) else text
     try:
-        data = tomllib.loads(text)
+        data = tomllib.loads(toml)
     except tomllib.TOMLDecodeError as exc:
         raise CaseError(f"TOML syntax error: {exc}", file=path) from None
     except RecursionError:
         raise CaseError("TOML nesting too deep", file=path) from None
-    return case_from_dict(data, path=path, text=text, overrides=overrides, tables=tables)
+    except ValueError as exc:  # an integer of more digits than Python converts (4300)
+        raise CaseError(f"cannot read a number: {str(exc).split(';')[0]}; write it with an exponent", file=path) from None
+    return case_from_dict(data, path=path, text=text, overrides=overrides, tables=tables, read_files=read_files)
 
 
-def case_from_dict(data: Mapping[str, Any], *, path=None, text=None, overrides=None, tables=None) -> Case:
-    """Validate a case given as Python data with the TOML schema."""
+def _counts(data: Mapping, file) -> None:
+    """The work budget of a case (:mod:`fdsolver.limits`): components and layers, before anything is built."""
+    for key, most in (("potential", MAX_COMPONENTS), ("layer", MAX_LAYERS)):
+        items = data.get(key)
+        if isinstance(items, list) and len(items) > most:
+            raise CaseError(f"{len(items)} entries; at most {most} are allowed", file=file, key=key)
+
+
+def case_from_dict(data: Mapping[str, Any], *, path=None, text=None, overrides=None, tables=None,
+                   read_files: bool = True) -> Case:
+    """Validate a case given as Python data with the TOML schema (see :func:`case_from_text` for the rest)."""
     file = path
     if not isinstance(data, Mapping):
         raise CaseError("a case must be a table of keys", file=file)
     check_keys(data, TOP, file, "")
+    _counts(data, file)
     units_name = F.text(data, "units", file, "", choices=tuple(UNIT_SYSTEMS), default="atomic")
     units = UNIT_SYSTEMS[units_name]
     title = data.get("title", Path(path).stem if path else "untitled case")
@@ -202,7 +258,7 @@ def case_from_dict(data: Mapping[str, Any], *, path=None, text=None, overrides=N
     comps = data.get("potential", [])
     if not isinstance(comps, list):
         raise CaseError("use [[potential]] (an array of tables), one per component", file=file, key="potential")
-    ctx = _context(params, units, mass, file, base_dir, tables)
+    ctx = _context(params, units, mass, file, base_dir, tables, read_files)
     shapes = tuple(_build_shape(i, c, ctx, file) for i, c in enumerate(comps, start=1))
     stack = _build_stack(data["layer"], params, mass, origin, file) if "layer" in data else None
     if not shapes and stack is None:
@@ -217,20 +273,47 @@ def case_from_dict(data: Mapping[str, Any], *, path=None, text=None, overrides=N
     return Case(title, units, mass, params, potential, domain, settings, text, path, dict(data), tables, dict(overrides or {}))
 
 
+def _spelling(name: str) -> str:
+    """A name quoted with the code points of its non-ASCII characters (look-alikes differ only there)."""
+    odd = [f"U+{ord(c):04X}" for c in name if ord(c) > 127]
+    return f"'{name}'" + (f" ({' '.join(odd)})" if odd else "")
+
+
 def _params(data: Mapping, overrides, file) -> dict[str, float]:
-    """[params] with the overrides applied, resolved in dependency order."""
-    raw_params = data.get("params", {})
-    if not isinstance(raw_params, Mapping):
+    """[params] with the overrides applied, resolved in dependency order.
+
+    Names are compared as expressions read them (Unicode NFKC): two spellings of one name (``fi`` and the
+    ligature ``ﬁ``) are refused with both shown, and so is a look-alike of a reserved name (FULLWIDTH ``ｐｉ``).
+    A name is kept in its NFKC form, the form every expression sees.
+    """
+    raw = data.get("params", {})
+    if not isinstance(raw, Mapping):
         raise CaseError("[params] must be a table of name = number", file=file, key="params")
-    raw_params = dict(raw_params)
+    if len(raw) > MAX_PARAMS:
+        raise CaseError(f"{len(raw)} params; at most {MAX_PARAMS} are allowed", file=file, key="params")
+    raw_params: dict = {}
+    spelled: dict[str, str] = {}
+    for k, v in raw.items():
+        if not isinstance(k, str):
+            raise CaseError(f"param names must be text, got {k!r}", file=file, key="params")
+        n = normal_name(k)
+        if n in spelled:
+            raise CaseError(f"params {_spelling(spelled[n])} and {_spelling(k)} are the same name once "
+                            f"Unicode-normalised (NFKC: '{n}'), as expressions read them; rename one",
+                            file=file, key=f"params.{k}")
+        if n in RESERVED or not n.isidentifier() or n.startswith("_") or keyword.iskeyword(n):
+            what = ("the position x" if n == "x" else "the name of a built-in constant" if n in ("pi", "e")
+                    else "the name of a built-in function" if n in RESERVED
+                    else "not a name (letters, digits and '_', starting with a letter)")
+            reads = f" (it reads as '{n}', Unicode NFKC)" if n != k else ""
+            raise CaseError(f"'{k}' cannot be a param name: {what}{reads}", file=file, key=f"params.{k}")
+        spelled[n] = k
+        raw_params[n] = v
     for k, v in (overrides or {}).items():
-        if k not in raw_params:
-            raise CaseError(f"no param named '{k}' in [params]{did_you_mean(k, raw_params)}", file=file, key=f"params.{k}")
-        raw_params[k] = v
-    reserved = {"x", "pi", "e"}
-    for k in raw_params:
-        if k in reserved or not isinstance(k, str) or not k.isidentifier() or k.startswith("_"):
-            raise CaseError(f"'{k}' cannot be a param name (reserved or not an identifier)", file=file, key=f"params.{k}")
+        n = normal_name(str(k))
+        if n not in raw_params:
+            raise CaseError(f"no param named '{k}' in [params]{did_you_mean(n, raw_params)}", file=file, key=f"params.{k}")
+        raw_params[n] = v
     return resolve_params(raw_params, file=file, key_prefix="params")
 
 
@@ -267,8 +350,11 @@ def _settings(data, params, file) -> SolveSettings:
     tol = F.number(table, "tolerance", params, file, "solve", default=1e-8, positive=True)
     if not 1e-13 <= tol <= 0.1:
         raise CaseError(f"tolerance must be between 1e-13 and 0.1 (relative), got {tol:g}", file=file, key="solve.tolerance")
-    max_states = F.whole(table, "max_states", file, "solve", 10, 1, 100000)
+    max_states = F.whole(table, "max_states", file, "solve", 10, 1, MAX_STATES)
     mem = F.number(table, "memory_mb", params, file, "solve", default=1500.0, positive=True)
+    if mem > MAX_MEMORY_MB:
+        raise CaseError(f"a budget of {mem:g} MB is more than the {MAX_MEMORY_MB:g} MB fdsolver accepts", file=file,
+                        key="solve.memory_mb")
     levels = F.whole(table, "max_levels", file, "solve", 9, 3, 20)
     window = None
     if "energy_window" in table:

@@ -10,13 +10,10 @@ from typing import Mapping
 
 from fdsolver.errors import CaseError, did_you_mean
 from fdsolver.input._expressions import evaluate_number
+from fdsolver.limits import HUGE, MASS_RANGE, TINY  # noqa: F401  (the magnitude ranges, read from here too)
 
-#: a number of smaller or larger magnitude (but not 0) cannot be carried through a solve in double precision
-TINY, HUGE = 1e-200, 1e200
 #: keys whose non-zero values must also not be tiny (sizes and strengths; positions may be anything near 0)
 AMPLITUDES = ("depth", "height", "strength", "field", "omega", "a")
-#: masses in m_e outside this range make hbar^2/2m leave the range a grid can resolve
-MASS_RANGE = (1e-8, 1e8)
 
 
 def dotted(where: str, key: str) -> str:

@@ -237,20 +237,27 @@ def map_dataset(case, spec, results, history: str) -> xr.Dataset:
 
 
 # ------------------------------------------------------------ reading
+def axes_of(ds: xr.Dataset, kind: Kind, path) -> tuple[str, ...]:
+    """The scanned axes of an archive of ``kind`` (what :data:`PARAMS` stands for; none for a solve)."""
+    if not kind.axes_attr:
+        return ()
+    try:
+        names = json.loads(ds.attrs[kind.axes_attr])
+    except (KeyError, ValueError, TypeError, RecursionError):
+        names = None
+    if not isinstance(names, list) or not names or not all(isinstance(n, str) for n in names):
+        raise ArchiveError(f"archive of kind '{kind.name}' has no readable {kind.axes_attr} attribute; it is damaged "
+                           "or was not written by fdsolver", file=str(path))
+    return tuple(names)
+
+
 def check(ds: xr.Dataset, path) -> Kind:
-    """The kind of archive ``ds``; :class:`ArchiveError` if it lacks a required variable or one has the wrong shape."""
+    """The kind of archive ``ds``; :class:`ArchiveError` if it lacks a required variable or one has the wrong shape
+    or type."""
     kind = kind_of(ds.attrs)
     if kind is None:
         raise ArchiveError("is a NetCDF file but not an fdsolver archive (no fdsolver_kind attribute)", file=str(path))
-    names: tuple = ()
-    if kind.axes_attr:
-        try:
-            names = tuple(json.loads(ds.attrs[kind.axes_attr]))
-        except (KeyError, ValueError, TypeError):
-            names = None  # type: ignore[assignment]
-        if not isinstance(names, tuple) or not all(isinstance(n, str) for n in names):
-            raise ArchiveError(f"archive of kind '{kind.name}' has no readable {kind.axes_attr} attribute; it is damaged "
-                               "or was not written by fdsolver", file=str(path))
+    names = axes_of(ds, kind, path)
     missing = [v.name for v in kind.rows if v.required and v.name not in ds.variables]
     if missing:
         raise ArchiveError(
@@ -262,7 +269,7 @@ def check(ds: xr.Dataset, path) -> Kind:
         dims = tuple(d for dim in var.dims for d in (names if dim == PARAMS else (dim,)))
         got = ds[var.name]
         wrong = got.dims != dims
-        if var.required and not wrong:
+        if not wrong:  # optional variables too: a report or figure reads whatever is there
             want = "OUS" if var.dtype == "str" else np.dtype(var.dtype).kind
             wrong = got.dtype.kind not in (want + ("iu" if want in "iu" else ""))
         if wrong:

@@ -29,7 +29,7 @@ field that holds it in the result).  Adding a kind is one table added to
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any, Callable
 
 import numpy as np
@@ -263,9 +263,70 @@ DELTA_MAP = (
 )
 
 
+# ------------------------------------------------------------------ attributes
+#: the types a global attribute may have: text; a number; a whole number; a JSON object ``{name: number}`` (params);
+#: a JSON object ``{name: text}`` (the stored table files); a JSON list of names (scanned axes); a JSON object of
+#: anything plain (fixed params); a JSON pair [low, high] of numbers (a search interval)
+TEXT, NUMBER, WHOLE, PARAM_VALUES, FILE_TEXTS, NAMES, PLAIN, PAIR = (
+    "text", "number", "whole", "param values", "file texts", "names", "plain", "pair")
+
+
+@dataclass(frozen=True)
+class Attr:
+    """One global attribute of an archive kind: its type (above), whether an archive without it is refused,
+    the values it may take, and whether it is the stored case (its size is bounded as a whole, not per attribute)."""
+
+    type: str = TEXT
+    required: bool = False
+    choices: tuple[str, ...] = ()
+    stored_case: bool = False
+
+
+#: the global attributes every kind has (:func:`fdsolver.io.datasets.base_attrs`)
+COMMON_ATTRS: dict[str, Attr] = {
+    "Conventions": Attr(), "title": Attr(), "source": Attr(), "history": Attr(), "references": Attr(),
+    "comment": Attr(),
+    "fdsolver_kind": Attr(required=True),
+    "units_system": Attr(choices=("atomic", "nm-meV")),
+    "units_note": Attr(), "hbar2_2me": Attr(NUMBER), "hbar2_2me_units": Attr(), "particle_mass": Attr(NUMBER),
+    "case_file": Attr(),
+    "case_text": Attr(required=True, stored_case=True),
+    "case_tables": Attr(FILE_TEXTS, stored_case=True),
+    "params": Attr(PARAM_VALUES),
+}
+SOLVE_ATTRS = {
+    "continuum_threshold": Attr(NUMBER), "box_left": Attr(NUMBER), "box_right": Attr(NUMBER),
+    "boundary": Attr(choices=("open", "hard")), "mirror_center": Attr(NUMBER), "tolerance": Attr(NUMBER),
+    "bound_state_count": Attr(WHOLE), "resolved_state_count": Attr(WHOLE), "energy_reference": Attr(NUMBER),
+    "messages": Attr(),
+}
+SWEEP_ATTRS = {
+    "swept_params": Attr(NAMES), "axes": Attr(NAMES), "fixed_params": Attr(PLAIN), "points": Attr(WHOLE),
+    "failed_points": Attr(WHOLE), "state_labels": Attr(), "tolerance": Attr(NUMBER), "notes_count": Attr(WHOLE),
+    "notes": Attr(),
+}
+THRESHOLD_ATTRS = {
+    "swept_params": Attr(NAMES, required=True), "interval": Attr(PAIR, required=True),
+    "bound_states_at_lo": Attr(WHOLE, required=True), "bound_states_at_hi": Attr(WHOLE, required=True),
+    "notes": Attr(), "method": Attr(),
+}
+LADDER_ATTRS = {
+    "delta_mode": Attr(choices=("replace", "from_finite")), "replacement_shape": Attr(),
+    "tolerance": Attr(NUMBER, required=True), "messages": Attr(), "well_shapes": Attr(),
+}
+MAP_ATTRS = {
+    "delta_mode": Attr(required=True, choices=("replace_map", "from_finite_map")), "replacement_shape": Attr(),
+    "tolerance": Attr(NUMBER, required=True), "replacement_width": Attr(NUMBER), "map_axes": Attr(NAMES),
+    "fixed_params": Attr(PLAIN), "messages": Attr(),
+}
+#: the attributes a variable may carry (the rest, NetCDF's own aside, are dropped on reading)
+VAR_ATTRS = ("long_name", "units", "units_name", "units_note", "flag_values", "flag_meanings", "spacing")
+
+
 @dataclass(frozen=True)
 class Kind:
-    """One archive kind: its ``fdsolver_kind`` attribute, the ``delta_mode`` values that select it, its rows."""
+    """One archive kind: its ``fdsolver_kind`` attribute, the ``delta_mode`` values that select it, its rows and
+    its global attributes beside :data:`COMMON_ATTRS`."""
 
     name: str
     fdsolver_kind: str
@@ -273,6 +334,11 @@ class Kind:
     modes: tuple[str, ...] = ()
     #: global attribute holding the JSON list of the scanned axes (what PARAMS stands for)
     axes_attr: str = ""
+    attrs: dict = field(default_factory=dict)
+
+    def attributes(self) -> dict[str, Attr]:
+        """Every global attribute the kind declares."""
+        return {**COMMON_ATTRS, **self.attrs}
 
     def row(self, name: str) -> Var:
         return next(r for r in self.rows if r.name == name)
@@ -283,11 +349,12 @@ class Kind:
 
 
 KINDS: dict[str, Kind] = {
-    "solve": Kind("solve", "solve", SOLVE),
-    "sweep": Kind("sweep", "sweep", SWEEP, axes_attr="swept_params"),
-    "threshold": Kind("threshold", "threshold", THRESHOLD),
-    "delta_check": Kind("delta_check", "delta_check", LADDER, modes=("replace", "from_finite")),
-    "delta_map": Kind("delta_map", "delta_check", DELTA_MAP, modes=("replace_map", "from_finite_map"), axes_attr="map_axes"),
+    "solve": Kind("solve", "solve", SOLVE, attrs=SOLVE_ATTRS),
+    "sweep": Kind("sweep", "sweep", SWEEP, axes_attr="swept_params", attrs=SWEEP_ATTRS),
+    "threshold": Kind("threshold", "threshold", THRESHOLD, attrs=THRESHOLD_ATTRS),
+    "delta_check": Kind("delta_check", "delta_check", LADDER, modes=("replace", "from_finite"), attrs=LADDER_ATTRS),
+    "delta_map": Kind("delta_map", "delta_check", DELTA_MAP, modes=("replace_map", "from_finite_map"), axes_attr="map_axes",
+                      attrs=MAP_ATTRS),
 }
 #: the values of the global attribute fdsolver_kind
 ARCHIVE_KINDS = tuple(dict.fromkeys(k.fdsolver_kind for k in KINDS.values()))
@@ -295,8 +362,10 @@ ARCHIVE_KINDS = tuple(dict.fromkeys(k.fdsolver_kind for k in KINDS.values()))
 
 def kind_of(attrs) -> Kind | None:
     """The :class:`Kind` of an archive from its global attributes (None if it is none of ours)."""
-    found = [k for k in KINDS.values() if k.fdsolver_kind == attrs.get("fdsolver_kind")]
+    kind = attrs.get("fdsolver_kind")
+    found = [k for k in KINDS.values() if isinstance(kind, str) and k.fdsolver_kind == kind]
     if len(found) > 1:
         mode = attrs.get("delta_mode", "replace")
+        mode = mode if isinstance(mode, str) else ""
         found = [k for k in found if mode in k.modes] or found[:1]
     return found[0] if found else None

@@ -25,8 +25,10 @@ from pathlib import Path
 
 import numpy as np
 
-from fdsolver.errors import CaseError
+from fdsolver.errors import CaseError, write_failure
 
+#: longest header line read (the identity holds the case text, its tables and every axis value)
+MAX_HEADER_BYTES = 256 * 2**20
 MAGIC = "fdsolver sweep checkpoint"  # the format's name since its first version (it now serves every scan)
 VERSION = 1
 
@@ -62,7 +64,7 @@ def decode(line: bytes) -> dict | None:
         if int(line[:8], 16) != zlib.crc32(body):
             return None
         return {k: _dec(v) for k, v in json.loads(body).items()}
-    except (ValueError, KeyError, TypeError):
+    except (ValueError, KeyError, TypeError, AttributeError, RecursionError):
         return None
 
 
@@ -147,21 +149,48 @@ class Checkpoint:
     def create(cls, path: Path, identity: dict, key: str, history: str) -> "Checkpoint":
         header = {"magic": MAGIC, "version": VERSION, "key": key, "identity": identity, "history": history}
         tmp = path.with_name(f".{path.name}.tmp")
-        with open(tmp, "wb") as fh:
-            fh.write(json.dumps(header).encode() + b"\n")
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-        fh = open(path, "ab")
+        try:
+            with open(tmp, "wb") as fh:
+                fh.write(json.dumps(header).encode() + b"\n")
+                fh.flush()
+                os.fsync(fh.fileno())
+            os.replace(tmp, path)
+            fh = open(path, "ab")
+        except OSError as exc:
+            try:
+                tmp.unlink()
+            except OSError:
+                pass
+            raise write_failure(exc, path) from None
         cls._lock(fh, path)
         return cls(path, header, fh)
 
     @staticmethod
+    def check_path(path: Path) -> None:
+        """CaseError if something other than a regular file (a folder, a pipe, a device) stands at ``path``:
+        such a thing is never read (a pipe would block) nor replaced."""
+        import stat
+
+        try:
+            st = os.stat(path)
+        except FileNotFoundError:
+            return
+        except OSError as exc:
+            raise CaseError(f"cannot use the checkpoint path: {exc.strerror or exc}", file=str(path), key="--output") from None
+        if stat.S_ISDIR(st.st_mode):
+            raise CaseError("a folder stands where the checkpoint goes; move it away or choose another output name",
+                            file=str(path), key="--output")
+        if not stat.S_ISREG(st.st_mode):
+            raise CaseError("a pipe or a device stands where the checkpoint goes; move it away or choose another "
+                            "output name", file=str(path), key="--output")
+
+    @staticmethod
     def read_header(path: Path) -> dict:
+        Checkpoint.check_path(path)
         try:
             with open(path, "rb") as fh:
-                header = json.loads(fh.readline())
-        except (OSError, ValueError):
+                header = json.loads(fh.readline(MAX_HEADER_BYTES))
+        except (OSError, ValueError, RecursionError):
             header = None
         if not isinstance(header, dict) or header.get("magic") != MAGIC:
             raise CaseError("is not an fdsolver checkpoint (or its header is damaged); move it away", file=str(path))
@@ -171,7 +200,8 @@ class Checkpoint:
 
     @classmethod
     def resume(cls, path: Path, identity: dict, key: str, on_record, what: str = "sweep") -> "Checkpoint":
-        """Check that ``path`` belongs to this scan (a ``what``), feed its records to ``on_record``, open it for appending."""
+        """Check that ``path`` belongs to this scan (a ``what``), feed its records to ``on_record(record, line)``,
+        open it for appending."""
         header = cls.read_header(path)
         if header.get("key") != key:
             why = difference(header.get("identity", {}), identity) or f"its {what} definition differs"
@@ -181,28 +211,36 @@ class Checkpoint:
         cls._lock(fh, path)
         fh.readline()
         good = fh.tell()
-        while True:
-            line = fh.readline()
-            if not line:
-                break
-            rec = decode(line)
-            if rec is not None:
-                on_record(rec)
-            if line.endswith(b"\n"):
-                good = fh.tell()
+        lineno = 1
+        try:
+            while True:
+                line = fh.readline()
+                lineno += 1
+                if not line:
+                    break
+                rec = decode(line)
+                if rec is not None:
+                    on_record(rec, lineno)
+                if line.endswith(b"\n"):
+                    good = fh.tell()
+        except BaseException:
+            fh.close()
+            raise
         fh.truncate(good)  # a partial last line from a kill
         fh.seek(good)
         return cls(path, header, fh)
 
     @staticmethod
     def count_points(path: Path) -> int:
+        """Points held by the checkpoint at ``path`` (CaseError if it is not one)."""
+        Checkpoint.read_header(path)
         n = 0
         with open(path, "rb") as fh:
             fh.readline()
             for line in fh:
                 rec = decode(line)
                 if rec is not None:
-                    n += len(rec["index"])
+                    n += int(np.size(rec.get("index", ())))
         return n
 
     def append(self, record: dict) -> None:

@@ -195,11 +195,38 @@ class ProcessExecutor:
 
 
 def parse_cluster(spec: str) -> int:
-    """Worker count of ``local:N``."""
-    kind, _, n = (spec or "").partition(":")
+    """Worker count of ``local:N`` (at most :func:`fdsolver.limits.max_local_workers`)."""
+    if not isinstance(spec, str):
+        raise CaseError(f"give the cluster as local:N, got {spec!r}", key="--cluster")
+    kind, _, n = spec.partition(":")
     if kind != "local" or not n.isdigit() or int(n) < 1:
         raise CaseError(f"'{spec}' is not local:N (N workers on this machine, e.g. local:4)", key="--cluster")
+    _local_limit(int(n), "--cluster")
     return int(n)
+
+
+#: local worker processes per core at most (a little oversubscription is harmless; thousands of processes are not)
+WORKERS_PER_CORE = 2
+
+
+def cores() -> int:
+    """The processors this process may run on (its affinity mask where the OS has one)."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except (AttributeError, OSError):
+        return max(1, os.cpu_count() or 1)
+
+
+def max_local_workers() -> int:
+    """Most worker processes of a local pool or a local Dask cluster: :data:`WORKERS_PER_CORE` per core."""
+    return WORKERS_PER_CORE * cores()
+
+
+def _local_limit(n: int, key: str) -> None:
+    """Refuse more local worker processes than this machine can run (:func:`max_local_workers`)."""
+    if n > max_local_workers():
+        raise CaseError(f"{n} local workers asked for; at most {max_local_workers()} ({WORKERS_PER_CORE} per core, "
+                        f"{cores()} cores here) are started", key=key)
 
 
 class _sigint_ignored:
@@ -320,8 +347,10 @@ def make_executor(kind: str | None = None, workers: int | None = None, cluster: 
     each worker process."""
     if cluster and scheduler:
         raise CaseError("give --cluster or --scheduler, not both", key="--cluster")
-    if workers is not None and (isinstance(workers, bool) or workers < 1):
-        raise CaseError(f"needs at least 1 worker, got {workers}", key="--workers")
+    if workers is not None and (isinstance(workers, bool) or not isinstance(workers, int) or workers < 1):
+        raise CaseError(f"needs at least 1 worker, got {workers!r}", key="--workers")
+    if workers is not None and not scheduler:
+        _local_limit(workers, "--workers")
     if cluster or scheduler or kind == "dask":
         return DaskExecutor(workers=parse_cluster(cluster) if cluster else workers, address=scheduler, initializer=initializer)
     if kind == "serial" or (workers == 1 and kind is None):

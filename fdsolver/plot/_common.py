@@ -3,7 +3,7 @@
 
 from __future__ import annotations
 
-from fdsolver.report._common import label, units_of  # noqa: F401  (the one unit-label helper, for the figures)
+from fdsolver.report._common import label, title_of, units_of  # noqa: F401  (the unit-label and text helpers, for the figures)
 
 #: resolution of every figure (dots per inch)
 DPI = 120
@@ -17,6 +17,8 @@ def figure(nrows: int = 1, ncols: int = 1, *, width: float = 7.5, height: float 
     import matplotlib
 
     matplotlib.use("Agg")
+    if "text.parse_math" in matplotlib.rcParams:  # titles and names are free text: '$' is a dollar, not mathtext
+        matplotlib.rcParams["text.parse_math"] = False
     import matplotlib.pyplot as plt
 
     fig, axes = plt.subplots(nrows, ncols, figsize=(width, height), dpi=DPI, squeeze=False, **kw)

@@ -16,7 +16,7 @@ import json
 
 import numpy as np
 
-from fdsolver.plot._common import figure, label, save, units_of
+from fdsolver.plot._common import figure, label, save, title_of, units_of
 
 
 def _panels(ncols: int, width: float = 6.0, height: float = 4.8):
@@ -83,7 +83,7 @@ def _plot_ladder(ds, path) -> None:
     ax2.legend(fontsize=6.5, loc="center right")
     if has_crit:
         _plot_critical(ds, axes[2], colors, lu)
-    fig.suptitle(f"{ds.attrs.get('title', '')}: {ds.attrs.get('replacement_shape')} wells vs point interactions", fontsize=10)
+    fig.suptitle(f"{title_of(ds)}: {ds.attrs.get('replacement_shape')} wells vs point interactions", fontsize=10)
     save(fig, path)
 
 
@@ -127,7 +127,7 @@ def _plot_levels(ds, path) -> None:
     ax.set_xticks([0.5, 1.5], ["finite wells", "zero-range model"])
     ax.set_xlim(0, 2)
     ax.set_ylabel(f"energy [{eu}]")
-    ax.set_title(ds.attrs.get("title", ""), fontsize=10)
+    ax.set_title(title_of(ds), fontsize=10)
     save(fig, path)
 
 
@@ -183,5 +183,5 @@ def _plot_map(ds, path) -> None:
     if ds.overlap.values.any():
         handles.append(Patch(facecolor="white", edgecolor="0.5", label="wells overlap (not solved)"))
     fig.legend(handles=handles, loc="lower center", ncol=3, fontsize=7, frameon=False)
-    fig.suptitle(f"{ds.attrs.get('title', '')}: validity of the zero-range model", fontsize=10)
+    fig.suptitle(f"{title_of(ds)}: validity of the zero-range model", fontsize=10)
     save(fig, path, rect=(0, 0.12, 1, 0.95))  # room for the legend below the panels

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from fdsolver.plot._common import figure, label, save, units_of
+from fdsolver.plot._common import figure, label, save, title_of, units_of
 
 
 def _window(x, v, psi, energy):
@@ -55,7 +55,7 @@ def plot_solve(ds, path) -> None:
     ax.set_xlim(lo, hi)
     ax.set_xlabel(label(ds, "x"))
     ax.set_ylabel(label(ds, "energy") + "  (wavefunctions offset at their energies)")
-    ax.set_title(ds.attrs.get("title", ""))
+    ax.set_title(title_of(ds))
     if energy.size <= 12:
         ax.legend(fontsize=7, loc="best")
     save(fig, path)

@@ -15,7 +15,7 @@ import json
 
 import numpy as np
 
-from fdsolver.plot._common import figure, label, save, units_of
+from fdsolver.plot._common import figure, label, save, title_of, units_of
 
 
 def _with_splitting(has_split: bool):
@@ -66,7 +66,7 @@ def _plot_line(ds, name, path) -> None:
         ax.plot(x, vt, color="0.5", lw=0.9, ls=":", label="continuum threshold")
     _markers(ax, ds, name, eu)
     ax.set_ylabel(label(ds, "energy"))
-    ax.set_title(ds.attrs.get("title", ""))
+    ax.set_title(title_of(ds))
     if ds.sizes.get("state", 0) <= 12:
         ax.legend(fontsize=7, loc="best")
     if has_split:
@@ -106,7 +106,7 @@ def _plot_map(ds, names, path) -> None:
     if _log(ds, ya):
         ax.set_yscale("log")
     extra = ", ".join(f"{n} = {ds[n].values[i]:.4g}" for n, i in sel.items())
-    ax.set_title(ds.attrs.get("title", "") + (f"\n(at {extra})" if extra else ""), fontsize=10)
+    ax.set_title(title_of(ds) + (f"\n(at {extra})" if extra else ""), fontsize=10)
     save(fig, path)
 
 
@@ -130,6 +130,6 @@ def _plot_threshold(ds, path) -> None:
         ax.annotate(f"state {int(s)}: {v:.8g} {u}".rstrip(), (v, int(s)), xytext=(4, 4), textcoords="offset points", fontsize=7)
     ax.set_xlabel(label(ds, "scan", name))
     ax.set_ylabel("phase margin (state N bound where it exceeds N) [1]")
-    ax.set_title(ds.attrs.get("title", ""))
+    ax.set_title(title_of(ds))
     ax.legend(fontsize=7, loc="best")
     save(fig, path)

@@ -11,7 +11,7 @@ import json
 
 import numpy as np
 
-from fdsolver.report._common import label, units_of
+from fdsolver.report._common import label, name_of, notes_of, title_of, units_of
 
 ORDINAL = {0: "ground", 1: "first excited", 2: "second excited"}
 
@@ -23,10 +23,10 @@ def _g(v, fmt=".6g") -> str:
 def _head(ds) -> list[str]:
     a = ds.attrs
     eu = units_of(ds, "energy")
-    lines = [a.get("title", "")]
+    lines = [title_of(ds)]
     params = json.loads(a.get("params", "{}"))
     lines.append(f"units: {a.get('units_system')} (energies in {eu}); deviation = (E_finite - E_point) / |E_point|, "
-                 f"tolerance {a.get('tolerance'):.1e}" + ("; params: " + ", ".join(f"{k} = {v:.10g}" for k, v in params.items()) if params else ""))
+                 f"tolerance {a.get('tolerance'):.1e}" + ("; params: " + ", ".join(f"{name_of(k)} = {v:.10g}" for k, v in params.items()) if params else ""))
     return lines
 
 
@@ -43,7 +43,7 @@ def _format_ladder(ds) -> str:
     eu, lu = units_of(ds, "energy"), units_of(ds, "width")
     lines = _head(ds)
     n_w = ds.sizes["well"]
-    wells = ", ".join(f"{ds.well_name.values[k]} at {ds.well_center.values[k]:.6g} {lu} "
+    wells = ", ".join(f"{name_of(ds.well_name.values[k])} at {ds.well_center.values[k]:.6g} {lu} "
                       f"(alpha {ds.well_strength.values[k]:.6g} {units_of(ds, 'well_strength')})" for k in range(n_w))
     if a.get("delta_mode") == "from_finite":
         lines.append(f"zero-range model of {n_w} finite well(s) ({a.get('well_shapes')}): alpha_j = int |V_j| dx, "
@@ -67,9 +67,7 @@ def _format_ladder(ds) -> str:
         for k in range(ds.sizes["state"]):
             lines += _state_block(ds, k, eu, lu)
     lines += _count_warnings(ds, lu)
-    for m in a.get("messages", "").splitlines():
-        if m:
-            lines.append(f"note: {m}")
+    lines.extend(f"note: {m}" for m in notes_of(ds, "messages"))
     return "\n".join(lines)
 
 
@@ -189,9 +187,7 @@ def _format_map(ds) -> str:
     if ((ds.existence.values == 1) | (ds.existence.values == 2)).any():
         lines.append("WARNING: the models disagree on which states exist in part of the plane "
                      "('point only' / 'finite only' above; hatched in the figure)")
-    for m in a.get("messages", "").splitlines()[:20]:
-        if m:
-            lines.append(f"note: {m}")
+    lines.extend(f"note: {m}" for m in notes_of(ds, "messages")[:20])
     return "\n".join(lines)
 
 

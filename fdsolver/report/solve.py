@@ -14,7 +14,7 @@ import math
 
 import numpy as np
 
-from fdsolver.report._common import units_of
+from fdsolver.report._common import name_of, notes_of, title_of, units_of
 
 #: a region holding at least this fraction of the main region's probability is named beside it
 SHARED = 0.8
@@ -26,7 +26,7 @@ def format_solve(ds: xr.Dataset | Record) -> str:
     """The bound-state table of a solve archive (a Dataset, or the Record it is built from)."""
     eu, lu = units_of(ds, "energy"), units_of(ds, "x")
     a = ds.attrs
-    lines = [a.get("title", "")]
+    lines = [title_of(ds)]
     thr = a.get("continuum_threshold", math.inf)
     thr_s = "none (every state bound)" if not np.isfinite(thr) else f"{thr:.10g} {eu}"
     lines.append(
@@ -35,7 +35,7 @@ def format_solve(ds: xr.Dataset | Record) -> str:
     )
     params = json.loads(a.get("params", "{}"))
     if params:
-        lines.append("params: " + ", ".join(f"{k} = {v:.10g}" for k, v in params.items()))
+        lines.append("params: " + ", ".join(f"{name_of(k)} = {v:.10g}" for k, v in params.items()))
     n = ds.sizes.get("state", 0)
     count = int(a.get("bound_state_count", n))
     if n == 0 and count == 0:
@@ -47,10 +47,7 @@ def format_solve(ds: xr.Dataset | Record) -> str:
     lev = ds.level_nodes.values
     if lev.size:
         lines.append(f"grid: {lev.size} nested levels, {int(lev[0])} to {int(lev[-1])} nodes; tolerance {a.get('tolerance'):.1e} relative")
-    msgs = a.get("messages", "")
-    for m in msgs.splitlines():
-        if m:
-            lines.append(f"note: {m}")
+    lines.extend(f"note: {m}" for m in notes_of(ds, "messages"))
     return "\n".join(lines)
 
 
@@ -64,7 +61,7 @@ def _where(ds: xr.Dataset | Record, k: int) -> str:
             share = ds.probability_inside.values[k]
             # regions holding nearly as much as the main one (the wells of a symmetric doublet) are named too
             near = [j for j in np.argsort(-share) if share[j] >= SHARED * share[r]]
-            return " + ".join(str(ds.region_name.values[j]) for j in near[:MAX_NAMED])
+            return " + ".join(name_of(ds.region_name.values[j]) for j in near[:MAX_NAMED])
     return "-"
 
 

@@ -6,7 +6,7 @@ import json
 
 import numpy as np
 
-from fdsolver.report._common import declared, units_of
+from fdsolver.report._common import declared, name_of, notes_of, title_of, units_of
 
 TABLE_ROWS = 30
 
@@ -47,7 +47,7 @@ def threshold_summary(ds, first_only: bool = True, state=None) -> dict:
         "state": first["state"] if first else state, "value": first["value"] if first else None,
         "uncertainty": first["uncertainty"] if first else None, "direction": first["direction"] if first else None,
         "found": bool(chosen), "bound_states_at_lo": int(a["bound_states_at_lo"]), "bound_states_at_hi": int(a["bound_states_at_hi"]),
-        "thresholds": chosen, "notes": [n for n in str(a.get("notes", "")).splitlines() if n],
+        "thresholds": chosen, "notes": notes_of(ds, "notes"),
     }
 
 
@@ -102,11 +102,11 @@ def format_sweep(ds) -> str:
     a = ds.attrs
     names = json.loads(a.get("swept_params", "[]"))
     eu = units_of(ds, "energy")
-    lines = [a.get("title", ""), f"sweep of {int(a.get('points', 0))} points; energies in {eu}; states labelled by node count"]
+    lines = [title_of(ds), f"sweep of {int(a.get('points', 0))} points; energies in {eu}; states labelled by node count"]
     lines.extend("  " + _axis_text(ds, n) for n in names)
     fixed = json.loads(a.get("fixed_params", "{}"))
     if fixed:
-        lines.append("fixed: " + ", ".join(f"{k} = {v}" for k, v in fixed.items()))
+        lines.append("fixed: " + ", ".join(f"{name_of(k)} = {name_of(v)}" for k, v in fixed.items()))
     bound = ds.bound_states.values
     if bound.size and np.all(bound >= 0):
         lines.append(f"bound states on the whole line: {int(bound.min())} to {int(bound.max())}")
@@ -131,10 +131,10 @@ def format_sweep(ds) -> str:
         lines.append(f"note: {nc} state value(s) not converged to the tolerance (converged = 0)")
     if int(a.get("failed_points", 0)):
         lines.append(f"note: {int(a['failed_points'])} point(s) could not be solved (solved = 0)")
-    notes = a.get("notes", "")
+    notes = notes_of(ds, "notes")
     if notes:
         lines.append(f"notes ({int(a.get('notes_count', 0))}):")
-        lines.extend("  " + m for m in notes.splitlines())
+        lines.extend("  " + m for m in notes)
     return "\n".join(lines)
 
 
@@ -159,7 +159,7 @@ def _format_threshold_archive(ds) -> str:
     a = ds.attrs
     name = json.loads(a.get("swept_params", '["param"]'))[0]
     u = units_of(ds, "threshold_value")
-    lines = [a.get("title", ""), f"binding thresholds of {name} (zero-energy phase, no box)"]
+    lines = [title_of(ds), f"binding thresholds of {name} (zero-energy phase, no box)"]
     lo, hi = ds.scan.values[0], ds.scan.values[-1]
     lines.append(f"interval {name} = {lo:g} .. {hi:g} {u}; bound states {a.get('bound_states_at_lo')} at {lo:g}, {a.get('bound_states_at_hi')} at {hi:g}")
     if ds.sizes.get("threshold", 0) == 0:
@@ -167,7 +167,5 @@ def _format_threshold_archive(ds) -> str:
     for v, e, s, d in zip(ds.threshold_value.values, ds.threshold_uncertainty.values, ds.threshold_state.values, ds.threshold_direction.values):
         way = "increases" if d > 0 else "decreases"
         lines.append(f"  state {int(s)} appears at {name} = {v:.12g} {u} (+- {e:.2g} {u}); binds as {name} {way}")
-    for n in a.get("notes", "").splitlines():
-        if n:
-            lines.append(f"note: {n}")
+    lines.extend(f"note: {n}" for n in notes_of(ds, "notes"))
     return "\n".join(lines)

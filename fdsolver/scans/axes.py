@@ -27,6 +27,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from fdsolver.errors import CaseError, did_you_mean
+from fdsolver.input._expressions import normal_name
 from fdsolver.input.schema import dimension_of
 from fdsolver.io.units import parses_as_udunits, units_of
 
@@ -71,15 +72,17 @@ def declared_units(case) -> dict[str, str]:
     table = (case.data.get("sweep") or {}).get("units", {})
     if not isinstance(table, Mapping):
         raise CaseError('must be a table of param = "unit"', file=case.path, key="sweep.units")
+    out = {}
     for name, unit in table.items():
         key = f"sweep.units.{name}"
-        if name not in case.params:
+        if normal_name(str(name)) not in case.params:
             raise CaseError(f"no param named '{name}' in [params]{did_you_mean(name, case.params, cutoff=0.5)}",
                             file=case.path, key=key)
         if not isinstance(unit, str) or not parses_as_udunits(unit):
             raise CaseError(f"{unit!r} is not a unit UDUNITS-2 understands; write e.g. \"nm\", \"meV\", \"meV nm\", \"1\"",
                             file=case.path, key=key)
-    return dict(table)
+        out[normal_name(str(name))] = unit
+    return out
 
 
 def _linear_names(node, out: set) -> None:
@@ -178,6 +181,7 @@ def split_spec(text, case, key: str = "--vary", extra: Mapping[str, Extra] | Non
     if not isinstance(text, str) or "=" not in text:
         raise CaseError(f"'{text}' is not NAME=START:STOP:COUNT or NAME=v1,v2,...", key=key)
     name, rest = (s.strip() for s in text.split("=", 1))
+    name = normal_name(name)  # as the case's params are named (Unicode NFKC)
     extra = dict(extra or {})
     if name not in case.params and name not in extra:
         choices = list(extra) + list(case.params)

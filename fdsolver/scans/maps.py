@@ -25,11 +25,14 @@ import numpy as np
 
 from fdsolver.errors import CaseError
 from fdsolver.scans.axes import Extra, parse_axes
-from fdsolver.scans.runner import base_case
+from fdsolver.scans.runner import base_case, counts_match
 
 #: most points of a map, and of one of its axes
 MAX_POINTS = 250_000
 MAX_AXIS_POINTS = 2000
+#: memory of one state at one map point (four floats, three flags), and the most a map's arrays may take
+MAP_BYTES_PER_STATE = 4 * 8 + 3
+MAX_MAP_BYTES = 2 * 2**30
 
 
 @dataclass(frozen=True)
@@ -205,11 +208,16 @@ class MapResults:
     def add(self, rec: dict) -> int:
         """Store one chunk result; returns the number of points it held."""
         idx = np.asarray(rec["index"], dtype=np.int64)
+        counts_match(rec, "n_finite", ("energy", "error", "resolved"))
+        counts_match(rec, "n_limit", ("limit",))
+        counts_match(rec, "n_predicted", ("predicted",))
         self.done[idx] = True
         self.overlap[idx], self.solved[idx] = rec["overlap"], rec["solved"]
         counts = {"energy": rec["n_finite"], "error": rec["n_finite"], "resolved": rec["n_finite"],
                   "limit": rec["n_limit"], "predicted": rec["n_predicted"]}
         need = int(max([0] + [int(np.max(c)) for c in counts.values() if len(c)]))
+        if need > self.n_states and self.spec.n_points * need * MAP_BYTES_PER_STATE > MAX_MAP_BYTES:
+            raise ValueError(f"{need} states per point would take the map beyond {MAX_MAP_BYTES / 2**30:g} GB")
         if need > self.n_states:
             self._grow(need)
         for k in ROW_FIELDS:
@@ -255,7 +263,8 @@ class MapResults:
         }
 
 
-def run_map(spec: MapSpec, executor, *, case=None, output=None, resume=False, restart=False, action=None, progress=None):
+def run_map(spec: MapSpec, executor, *, case=None, output=None, resume=False, restart=False, action=None, progress=None,
+            before_write=None):
     """All points of the plane through ``executor`` (checkpointed beside ``output``, written there at the end);
     the map Dataset.  See :func:`fdsolver.scans.runner.run` for the options."""
     from fdsolver.io.datasets import map_dataset
@@ -269,4 +278,5 @@ def run_map(spec: MapSpec, executor, *, case=None, output=None, resume=False, re
     def finish(results: MapResults, history: str):
         return map_dataset(case, spec, results, history)
 
-    return run(spec, executor, finish, action=action, output=output, resume=resume, restart=restart, progress=progress)
+    return run(spec, executor, finish, action=action, output=output, resume=resume, restart=restart, progress=progress,
+               before_write=before_write)

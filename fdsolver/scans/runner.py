@@ -102,8 +102,13 @@ def solve_chunk(job) -> dict:
 
 
 def warm_up() -> None:
-    """Initializer of worker processes: load the compiled kernels (numba cache) with one tiny solve."""
+    """Initializer of worker processes: load the compiled kernels (numba cache) with one tiny solve; numpy's
+    floating-point warnings are not printed by workers (a point's problems are in its notes)."""
+    import warnings
+
     from fdsolver.runs import solve_case
+
+    warnings.simplefilter("ignore", RuntimeWarning)
     from fdsolver.input.case import case_from_dict
 
     solve_case(case_from_dict({"potential": [{"shape": "square", "center": 0.0, "width": 1.0, "depth": 4.0}],
@@ -114,6 +119,9 @@ def executor_for(executor=None, workers: int | None = None, cluster: str | None 
     """An executor (an instance is returned as it is; a name "serial"/"processes"/"dask" or None is made),
     with :func:`warm_up` as its initializer."""
     if executor is not None and not isinstance(executor, str):
+        if not callable(getattr(executor, "imap_unordered", None)):
+            raise CaseError(f"an executor is \"serial\", \"processes\", \"dask\" or an object with imap_unordered, "
+                            f"got {type(executor).__name__}", key="--executor")
         return executor
     from fdsolver.parallel.executors import make_executor
 
@@ -141,24 +149,58 @@ def _chunks(todo: np.ndarray, size: int):
             yield part[i: i + size]
 
 
+def check_record(rec: dict, n_points: int) -> None:
+    """ValueError unless ``rec`` holds some points of a scan of ``n_points`` (its ``index`` in range, no repeats):
+    a checkpoint is a file on disk, and a damaged or forged one must not index outside the result.  Each
+    collector checks the rest of a record (:func:`counts_match`)."""
+    idx = rec.get("index")
+    if not isinstance(idx, np.ndarray) or idx.ndim != 1 or idx.dtype.kind not in "iu" or idx.size == 0:
+        raise ValueError("it has no point indices")
+    if idx.min() < 0 or idx.max() >= n_points or np.unique(idx).size != idx.size:
+        raise ValueError(f"its point indices are outside 0 .. {n_points - 1} or repeated")
+    if not isinstance(rec.get("messages", []), list):
+        raise ValueError("its messages are not a list")
+
+
+def counts_match(rec: dict, count: str, rows: tuple[str, ...]) -> np.ndarray:
+    """The per-point state counts ``rec[count]`` (one per point, >= 0), checked to add up to the length of every
+    per-state array in ``rows``; ValueError otherwise."""
+    n = np.asarray(rec[count])
+    if n.shape != np.shape(rec["index"]) or n.dtype.kind not in "iu" or (n.size and n.min() < 0):
+        raise ValueError(f"its {count} is not one count per point")
+    total = int(n.sum())
+    for k in rows:
+        if k in rec and np.shape(rec[k])[:1] != (total,):
+            raise ValueError(f"its {k} has {np.shape(rec[k])[:1]} rows for {total} states")
+    return n
+
+
 def _open_checkpoint(scan: Scan, collector: Collector, output, resume: bool, restart: bool, history: str):
     from fdsolver.parallel.checkpoint import Checkpoint, path_for
 
     path = path_for(output)
-    if path.exists() and restart:
+    if restart and (path.exists() or path.is_symlink()):
         Checkpoint.read_header(path)  # only ever delete our own files
         path.unlink()
     if path.exists() and not resume:
-        done = Checkpoint.count_points(path) if path.stat().st_size else 0
+        done = Checkpoint.count_points(path)
         raise CaseError(f"a checkpoint of an unfinished {scan.what} is here ({done} of its points done); add --resume "
                         "to continue it or --restart to discard it", file=str(path))
     if path.exists():
-        return Checkpoint.resume(path, scan.identity(), scan.key, collector.add, scan.what)
+        def add(rec: dict, line: int) -> None:
+            try:
+                check_record(rec, scan.n_points)
+                collector.add(rec)
+            except (ValueError, IndexError, KeyError, TypeError) as exc:
+                raise CaseError(f"line {line} of this checkpoint is not a record of this {scan.what} ({exc}); it was "
+                                "damaged or altered: --restart discards it", file=str(path)) from None
+
+        return Checkpoint.resume(path, scan.identity(), scan.key, add, scan.what)
     return Checkpoint.create(path, scan.identity(), scan.key, history)
 
 
 def run(scan: Scan, executor, finish: Callable[[Any, str], Any], *, action: str, output=None, resume: bool = False,
-        restart: bool = False, progress=None):
+        restart: bool = False, progress=None, before_write: Callable[[Any], None] | None = None):
     """Run ``scan`` on ``executor``; ``finish(collector, history)`` builds the Dataset, written to ``output``.
 
     With ``output`` the finished chunks go to ``OUTPUT.checkpoint``: a
@@ -167,7 +209,9 @@ def run(scan: Scan, executor, finish: Callable[[Any, str], Any], *, action: str,
     refused naming the first difference.  ``progress`` is called with the
     number of points each finished chunk (or the resumed checkpoint) adds; if
     it has a ``start(total, text)`` method, that is called first with the
-    number of points and one line saying what runs where.  Returns the Dataset.
+    number of points and one line saying what runs where.  ``before_write(ds)`` is called with the finished
+    Dataset before it is written (if it raises, nothing is written and the checkpoint is kept: the command
+    line makes its figure there).  Returns the Dataset.
     """
     from fdsolver.io.archive import stamp, write_dataset
     from fdsolver.parallel.checkpoint import path_for
@@ -201,6 +245,8 @@ def run(scan: Scan, executor, finish: Callable[[Any, str], Any], *, action: str,
             if progress is not None:
                 progress(n)
         ds = finish(collector, history)
+        if before_write is not None:
+            before_write(ds)
         if output is not None:
             write_dataset(ds, output)
         if ck is not None:

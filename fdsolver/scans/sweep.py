@@ -22,14 +22,16 @@ from __future__ import annotations
 import hashlib
 import itertools
 import json
+import math
 from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 
 from fdsolver.errors import CaseError
+from fdsolver.limits import MAX_MEMORY_MB, MAX_SWEEP_POINTS
 from fdsolver.scans.axes import Axis, declared_units, parse_axes
-from fdsolver.scans.runner import base_case
+from fdsolver.scans.runner import base_case, counts_match
 
 BYTES_PER_STATE = 8 + 8 + 8 + 4 + 1 + 1  # energy, error, binding energy, nodes, converged, parity
 BYTES_PER_POINT = 4 + 4 + 8 + 8 + 8 + 1 + 1  # bound, resolved, threshold, splitting (+ error, bound flag), solved
@@ -49,6 +51,8 @@ class SweepSpec:
     psi_x: np.ndarray | None = None
     chunk: int | None = None
     key: str = field(default="", compare=False)
+    #: the memory budget of the result (bytes): records that would grow it beyond are refused
+    budget_bytes: int = field(default=1000 * 2**20, compare=False)
 
     what = "sweep"
     #: most points per chunk by default
@@ -60,7 +64,7 @@ class SweepSpec:
 
     @property
     def n_points(self) -> int:
-        return int(np.prod(self.shape, dtype=np.int64))
+        return math.prod(self.shape)
 
     def point(self, flat: int) -> dict:
         idx = np.unravel_index(int(flat), self.shape)
@@ -96,19 +100,45 @@ def _mb(n: float) -> str:
     return f"{n / 2**30:.3g} GB" if n >= 2**30 else f"{n / 2**20:.3g} MB"
 
 
+def _budget(memory_mb, table, file) -> float:
+    """The memory budget of a sweep result (MB): the caller's (``--memory-mb``), else ``[sweep] memory_mb``, else 1000."""
+    budget, key, where = (memory_mb, "--memory-mb", None) if memory_mb is not None else (
+        table.get("memory_mb", 1000.0), "sweep.memory_mb", file)
+    if isinstance(budget, bool) or not isinstance(budget, (int, float)) or not 0 < budget <= MAX_MEMORY_MB:
+        raise CaseError(f"must be a positive number of MB, at most {MAX_MEMORY_MB:g}, got {budget!r}", file=where, key=key)
+    return float(budget)
+
+
+def _psi_range(table, file) -> tuple[float, float] | None:
+    """``[sweep] psi_range``: two finite numbers, low < high (booleans are not numbers)."""
+    rng = table.get("psi_range")
+    if rng is None:
+        return None
+    ok = isinstance(rng, (list, tuple)) and len(rng) == 2 and all(
+        isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v) for v in rng)
+    if not ok or not rng[0] < rng[1]:
+        raise CaseError(f"must be [low, high], two finite numbers with low < high (case length unit), got {rng!r}",
+                        file=file, key="sweep.psi_range")
+    return float(rng[0]), float(rng[1])
+
+
 def plan_sweep(case, axes, fixed=None, save_psi=False, memory_mb=None, chunk=None) -> SweepSpec:
-    """Check a sweep before any work: the corner points (up to 256) are valid cases, the result fits the memory budget."""
+    """Check a sweep before any work: its settings, its size (points and memory), the corner points (up to 256)."""
     fixed = {k: v for k, v in (fixed or {}).items() if k not in {a.name for a in axes}}  # a swept param is not fixed
     table = case.data.get("sweep") or {}
     declared_units(case)  # every [sweep] units entry a param and a UDUNITS string
-    budget = memory_mb if memory_mb is not None else table.get("memory_mb", 1000.0)
-    if isinstance(budget, bool) or not isinstance(budget, (int, float)) or not budget > 0:
-        raise CaseError(f"must be a positive number of MB, got {budget!r}", file=case.path, key="sweep.memory_mb")
+    budget = _budget(memory_mb, table, case.path)
     n_states = case.settings.max_states
     n_x = table.get("psi_points", 401) if save_psi else 0
     if save_psi and (isinstance(n_x, bool) or not isinstance(n_x, int) or not 2 <= n_x <= 100000):
         raise CaseError(f"must be a whole number from 2 to 100000, got {n_x!r}", file=case.path, key="sweep.psi_points")
-    n_points = int(np.prod([a.values.size for a in axes], dtype=np.int64))
+    rng = _psi_range(table, case.path)
+    chunk = chunk if chunk is not None else table.get("chunk")
+    if chunk is not None and (isinstance(chunk, bool) or not isinstance(chunk, int) or chunk < 1):
+        raise CaseError(f"must be a whole number >= 1, got {chunk!r}", file=case.path if "chunk" in table else None,
+                        key="sweep.chunk" if "chunk" in table else "--chunk")
+    key = axes[0].key if axes and getattr(axes[0], "key", None) else "--vary"
+    n_points = math.prod(int(a.values.size) for a in axes)  # exact: 64 axes of 2 values do not overflow to 0
     need = estimate_bytes(n_points, n_states, n_x)
     if need > budget * 2**20:
         what = f"{n_points} points x {n_states} states" + (f" x {n_x} x-points of psi" if save_psi else "")
@@ -117,8 +147,11 @@ def plan_sweep(case, axes, fixed=None, save_psi=False, memory_mb=None, chunk=Non
             f"{budget:g} MB; sweep fewer points{', drop --save-psi' if save_psi else ''} or raise --memory-mb "
             "([sweep] memory_mb)",
             file=case.path,
-            key=axes[0].key if axes and getattr(axes[0], "key", None) else "--vary",
+            key=key,
         )
+    if n_points > MAX_SWEEP_POINTS:
+        raise CaseError(f"the sweep has {n_points:.4g} points; at most {MAX_SWEEP_POINTS} are allowed (the work budget), "
+                        "so sweep fewer", file=case.path, key=key)
     corners = itertools.product(*[(a.values[0], a.values[-1]) for a in axes])
     spans = []
     for point in (dict(zip([a.name for a in axes], c)) for c in itertools.islice(corners, 256)):
@@ -126,18 +159,16 @@ def plan_sweep(case, axes, fixed=None, save_psi=False, memory_mb=None, chunk=Non
         spans.append(c.potential.support())
     psi_x = None
     if save_psi:
-        rng = table.get("psi_range")
         if rng is None:
             lo, hi = min(s[0] for s in spans), max(s[1] for s in spans)
             pad = 0.5 * (hi - lo) if hi > lo else 1.0
             rng = (lo - pad, hi + pad)
-        if not (isinstance(rng, (list, tuple)) and len(rng) == 2 and all(isinstance(v, (int, float)) for v in rng) and rng[0] < rng[1]):
-            raise CaseError("must be [low, high] with low < high (case length unit)", file=case.path, key="sweep.psi_range")
+        if not all(math.isfinite(v) for v in rng):
+            raise CaseError("the potential's extent is not finite; give [sweep] psi_range = [low, high]",
+                            file=case.path, key="sweep.psi_range")
         psi_x = np.linspace(float(rng[0]), float(rng[1]), n_x)
-    chunk = chunk if chunk is not None else table.get("chunk")
-    if chunk is not None and (not isinstance(chunk, int) or chunk < 1):
-        raise CaseError(f"must be a whole number >= 1, got {chunk!r}", file=case.path, key="sweep.chunk")
-    spec = SweepSpec(case.text, case.path, dict(case.tables), fixed, tuple(axes), bool(save_psi), psi_x, chunk)
+    spec = SweepSpec(case.text, case.path, dict(case.tables), fixed, tuple(axes), bool(save_psi), psi_x, chunk,
+                     budget_bytes=int(budget * 2**20))
     key = hashlib.sha256(json.dumps(spec.identity(), sort_keys=True).encode()).hexdigest()
     return SweepSpec(**{**spec.__dict__, "key": key})
 
@@ -215,6 +246,10 @@ class Results:
 
     def _grow(self, need: int) -> None:
         extra = need - self.energy.shape[1]
+        n_x = 0 if self.psi is None else self.psi.shape[2]
+        if estimate_bytes(self.energy.shape[0], need, n_x) > self.spec.budget_bytes:
+            raise ValueError(f"a state with {need - 1} nodes would take the result beyond its memory budget of "
+                             f"{self.spec.budget_bytes / 2**20:g} MB")
         pad = lambda a, fill: np.concatenate([a, np.full(a.shape[:1] + (extra,) + a.shape[2:], fill, a.dtype)], axis=1)  # noqa: E731
         self.energy, self.error = pad(self.energy, np.nan), pad(self.error, np.nan)
         self.converged, self.parity = pad(self.converged, -1), pad(self.parity, 0)
@@ -224,12 +259,15 @@ class Results:
     def add(self, rec: dict) -> int:
         """Store one chunk result; returns the number of points it held."""
         idx = np.asarray(rec["index"], dtype=np.int64)
+        count = counts_match(rec, "count", ("label", "energy", "error", "converged", "parity", "psi"))
         self.done[idx] = True
         self.solved[idx], self.bound[idx], self.resolved[idx], self.vt[idx] = rec["solved"], rec["bound"], rec["resolved"], rec["vt"]
         if "split" in rec:
             self.split[idx], self.split_error[idx], self.split_bound[idx] = rec["split"], rec["split_error"], rec["split_bound"]
-        rows = np.repeat(idx, rec["count"])
+        rows = np.repeat(idx, count)
         labels = np.asarray(rec["label"], dtype=np.int64)
+        if labels.size and labels.min() < 0:
+            raise ValueError("it has a negative node count")
         if labels.size:
             if labels.max() >= self.energy.shape[1]:
                 self._grow(int(labels.max()) + 1)
@@ -324,12 +362,12 @@ def sweep_axes(texts, case) -> tuple[Axis, ...]:
 
 
 def run_sweep(spec: SweepSpec, executor, *, output=None, resume=False, restart=False, action=None, progress=None,
-              locate=True):
+              locate=True, before_write=None):
     """Run ``spec`` on ``executor`` (checkpointed beside ``output``, written there at the end); the sweep Dataset.
 
     ``locate``: refine the binding thresholds between neighbouring points of a
     one-param sweep.  See :func:`fdsolver.scans.runner.run` for ``output``,
-    ``resume``, ``restart`` and ``progress``.
+    ``resume``, ``restart``, ``progress`` and ``before_write``.
     """
     from fdsolver.io.datasets import sweep_dataset
     from fdsolver.scans.runner import run
@@ -342,4 +380,5 @@ def run_sweep(spec: SweepSpec, executor, *, output=None, resume=False, restart=F
         found = locate_along(spec, results.bound) if locate else []
         return sweep_dataset(case, spec, results, history, found)
 
-    return run(spec, executor, finish, action=action, output=output, resume=resume, restart=restart, progress=progress)
+    return run(spec, executor, finish, action=action, output=output, resume=resume, restart=restart, progress=progress,
+               before_write=before_write)

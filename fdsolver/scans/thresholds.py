@@ -28,18 +28,27 @@ def bound_count(case) -> int:
 
 
 def find_thresholds(case, name: str, lo: float, hi: float, *, fixed=None, state: int | None = None,
-                    scan: int = 129, rtol: float = 1e-9, units: str = "") -> Search:
+                    scan: int = 129, rtol: float = 1e-9, units: str = "", progress=None) -> Search:
     """Every threshold in [lo, hi] of the param ``name`` of ``case`` (only of ``state`` if given), to relative ``rtol``.
 
-    ``fixed`` are the other param overrides in force.  See
+    ``fixed`` are the other param overrides in force.  ``progress(n)`` is called as the scan points are done
+    (with ``start(total, text)`` first if it has one, like a sweep's).  See
     :func:`fdsolver.boundstates.counting.find_thresholds`.
     """
     fixed = dict(fixed or {})
     threshold_of(case)
+    total = max(3, int(scan)) + 2
+    start = getattr(progress, "start", None)
+    if start is not None:
+        start(total, "")
+    done = [0]
 
     def family(p: float):
         c = case.with_params(**{**fixed, name: p})
         threshold_of(c)
+        if progress is not None and done[0] < total:
+            done[0] += 1
+            progress(1)
         return c.potential
 
     try:

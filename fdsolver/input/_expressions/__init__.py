@@ -56,6 +56,7 @@ from fdsolver.input._expressions.translate import (
 )
 
 __all__ = [
+    "normal_name",
     "CONSTANT_NAMES",
     "FUNCTION_NAMES",
     "MAX_DEPTH",
@@ -68,7 +69,14 @@ __all__ = [
     "resolve_params",
 ]
 
-#: Longest expression text accepted, in characters.
+
+def normal_name(name: str) -> str:
+    """A name as an expression reads it: Unicode NFKC, which Python's parser applies to every identifier
+    (so the ligature 'ﬁ' and 'fi', or FULLWIDTH 'ｐｉ' and the constant 'pi', are one name)."""
+    import unicodedata
+
+    return unicodedata.normalize("NFKC", name)
+
 
 
 class Expression:
@@ -216,6 +224,10 @@ def _run(program: tuple, values: Mapping[str, object]):
     return stack[0]
 
 
+#: expressions with at most this many allowed names are remembered (the name set is part of the cache key)
+CACHED_NAMES = 256
+
+
 def compile_expression(
     text: str,
     allowed_names: Iterable[str] | None = None,
@@ -228,10 +240,14 @@ def compile_expression(
     Compiled expressions are immutable and remembered (a sweep point rebuilds
     its case with new param values, not new expressions).
     """
-    allowed = None if allowed_names is None else frozenset(allowed_names)
-    if not isinstance(text, str):
-        return _compile(text, allowed, file, key)
-    return _compile_cached(text, allowed, None if file is None else str(file), key)
+    if not isinstance(allowed_names, (Mapping, set, frozenset, type(None))):
+        allowed_names = frozenset(allowed_names)
+    if isinstance(text, str) and (allowed_names is None or len(allowed_names) <= CACHED_NAMES):
+        allowed = None if allowed_names is None else frozenset(allowed_names)
+        return _compile_cached(text, allowed, None if file is None else str(file), key)
+    # many params: a mapping is used through its keys (no copy: compiling stays linear in the number of params)
+    allowed = allowed_names.keys() if isinstance(allowed_names, Mapping) else allowed_names
+    return _compile(text, allowed, file, key)
 
 
 @functools.lru_cache(maxsize=4096)
@@ -373,9 +389,16 @@ def resolve_params(
         raise fail(
             f"parameters must be a table of name = value, got {type(raw).__name__}", None
         )
+    names = frozenset(raw)
     exprs: dict[str, Expression] = {}
     resolved: dict[str, float] = {}
     for name, value in raw.items():
+        if isinstance(name, str) and normal_name(name) != name:
+            raise fail(
+                f"parameter name '{name}' reads as '{normal_name(name)}' (Unicode NFKC, as expressions read "
+                "names); write it so",
+                name,
+            )
         if not isinstance(name, str) or not name.isidentifier() or keyword.iskeyword(name):
             raise fail(
                 f"parameter name {name!r} is not a valid name; use letters, digits and '_', "
@@ -390,7 +413,7 @@ def resolve_params(
                 f"parameter name '{name}' is the name of a built-in {kind}; rename it", name
             )
         if isinstance(value, str):
-            exprs[name] = compile_expression(value, allowed_names=raw, file=file, key=where(name))
+            exprs[name] = compile_expression(value, allowed_names=names, file=file, key=where(name))
             continue
         number = _plain_number(value, lambda m, n=name: fail(m, n))
         if number is None:

@@ -2,11 +2,14 @@
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import ClassVar
 
 import numpy as np
 
+from fdsolver.errors import CaseError
+from fdsolver.limits import HUGE, TINY
 from fdsolver.model.shapes.base import LENGTH, STRENGTH, Shape, register
 
 
@@ -25,7 +28,16 @@ class Point(Shape):
 
     @classmethod
     def build(cls, name, values, ctx):
-        return cls(name, values["center"], values["strength"])
+        alpha = values["strength"]
+        if alpha != 0.0:
+            # its bound-state energy m alpha^2 / (4 C) must be a number a solve can carry (the magnitude range of
+            # fdsolver.input.fields); worked out in logarithms, since the energy itself may overflow
+            log_e = math.log10(ctx.mass) + 2.0 * math.log10(abs(alpha)) - math.log10(4.0 * ctx.hbar2_2me)
+            if not math.log10(TINY) <= log_e <= math.log10(HUGE):
+                raise CaseError(f"a point interaction of strength {alpha:g} binds at an energy of about 1e{log_e:.0f}, "
+                                f"outside what double precision can carry through a solve ({TINY:g} to {HUGE:g}); "
+                                "choose units in which it is nearer to 1", key="strength")
+        return cls(name, values["center"], alpha)
 
     def value(self, x):
         return np.zeros_like(np.asarray(x, dtype=float))
