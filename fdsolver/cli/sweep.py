@@ -51,6 +51,7 @@ THRESHOLD_OPTIONS = (("--vary", "vary"), ("--set", "set"), ("--state", "state"),
 
 
 def run_sweep_cli(args) -> int:
+    from fdsolver.api import sweep
     from fdsolver.input.case import load_case
     from fdsolver.cli._common import (
         ARCHIVE_SUFFIXES,

@@ -60,7 +60,7 @@ class _Library:
 
     def __init__(self, path: str):
         lib = ctypes.CDLL(path)
-        hid, herr, c, sz, i64, u64 = ctypes.c_int64, ctypes.c_int, ctypes.c_char_p, ctypes.c_size_t, ctypes.c_int64, ctypes.c_uint64
+        hid, herr, c, sz, i64 = ctypes.c_int64, ctypes.c_int, ctypes.c_char_p, ctypes.c_size_t, ctypes.c_int64
         buf = ctypes.c_void_p
         sig = {
             "H5open": (herr, []),
