@@ -11,14 +11,17 @@ from typing import TYPE_CHECKING
 
 from fdsolver.boundstates.driver import Solution, solve_potential
 from fdsolver.errors import CaseError
+from fdsolver.numerics.threads import one_blas_thread
 
 if TYPE_CHECKING:
     from fdsolver.input.case import Case
 
 
 def solve_case(case: Case) -> Solution:
-    """Solve ``case`` and return the raw :class:`~fdsolver.boundstates.result.Solution`."""
+    """Solve ``case`` and return the raw :class:`~fdsolver.boundstates.result.Solution` (one BLAS thread while
+    it runs: :mod:`fdsolver.numerics.threads`)."""
     try:
-        return solve_potential(case.potential, case.domain, case.settings)
+        with one_blas_thread():
+            return solve_potential(case.potential, case.domain, case.settings)
     except CaseError as err:  # the core does not know the file; name it here
         raise err.located(file=case.path) from None

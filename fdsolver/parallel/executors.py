@@ -25,7 +25,7 @@ THREAD_VARS = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "NU
 
 
 def one_blas_thread():
-    """Limit every loaded BLAS/OpenMP library of this process to one thread (threadpoolctl); returns the limiter.
+    """Limit every BLAS/OpenMP library of this process to one thread (:mod:`fdsolver.numerics.threads`).
 
     Multithreaded BLAS reductions change the last bits of large-grid energies
     with the thread count, so every process that runs jobs does so with one
@@ -36,9 +36,10 @@ def one_blas_thread():
     """
     import numpy  # noqa: F401
     import scipy.linalg  # noqa: F401
-    from threadpoolctl import threadpool_limits
 
-    return threadpool_limits(limits=1)
+    from fdsolver.numerics.threads import one_blas_thread as limit
+
+    return limit()
 
 
 _PINNED = [False]
