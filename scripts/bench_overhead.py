@@ -1,0 +1,161 @@
+#!/usr/bin/env python
+"""Benchmark of start-up, per-solve overhead and many states, in CPU time with one BLAS thread.
+
+Every figure is CPU time (time.process_time for work in this process, getrusage(RUSAGE_CHILDREN) for
+commands run as child processes), with the wall time beside it, over several runs: min and median.  BLAS
+runs on one thread (OMP_NUM_THREADS=1 etc. are set before numpy loads, and the solver pins it anyway).
+
+Calibration: the machine's cost of one Sturm count per grid node (fdsolver.numerics.kernels.sturm_count on
+10^6 nodes, ns per node, measured in the same run), so figures from different machines compare.
+
+1. start-up: a bare Python start, `fdsolver --version`, `fdsolver --help`, and a cold `fdsolver solve` of a
+   bundled case (numba cache warm: one untimed run first).  Targets: --help and --version < 0.15 s CPU;
+   the cold solve < 0.8 s CPU.
+2. per solve: every bundled case solved warm; the ratio printed is
+   measured CPU / (node-states x Sturm ns per node), where node-states = sum over grid levels of
+   (nodes x states found).  Target for the double wells: ratio <= 5 and about 2 ms.
+3. many states (skipped with --quick): 10, 50, 200, 1000 states of a 1000 nm wide, 6000 meV deep well
+   (mass 0.067, invented); CPU time, CPU per state, how many converged.  Target: 1000 states converged
+   in < 30 s, cost per state flat from 10 to 1000.
+
+Usage:  python scripts/bench_overhead.py [--quick] [--repeat N]
+"""
+
+from __future__ import annotations
+
+import os
+
+for _var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ[_var] = "1"
+
+import argparse  # noqa: E402
+import resource  # noqa: E402
+import statistics  # noqa: E402
+import subprocess  # noqa: E402
+import sys  # noqa: E402
+import time  # noqa: E402
+from pathlib import Path  # noqa: E402
+
+import numpy as np  # noqa: E402
+
+ROOT = Path(__file__).resolve().parent.parent
+CASES = sorted((ROOT / "cases").glob("*.toml"))
+
+
+def child_cpu(cmd: list[str]) -> tuple[float, float]:
+    """CPU seconds (user + system) and wall seconds of one child process."""
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
+    t0 = time.perf_counter()
+    subprocess.run(cmd, capture_output=True, check=True, env=os.environ)
+    wall = time.perf_counter() - t0
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime), wall
+
+
+def stats(values) -> str:
+    return f"min {min(values):8.4f}  median {statistics.median(values):8.4f}"
+
+
+def calibrate(repeat: int) -> float:
+    """ns per node of one Sturm count (compiled kernel, 10^6 nodes, a shift inside the spectrum)."""
+    from fdsolver.numerics import kernels
+
+    n = 1_000_000
+    rng = np.random.default_rng(1)
+    d = 2.0 + rng.random(n)
+    e = -np.ones(n - 1)
+    kernels.sturm_count(d, e, 2.0)  # load the kernel
+    times = []
+    for _ in range(max(repeat, 5)):
+        t0 = time.process_time()
+        kernels.sturm_count(d, e, 2.0)
+        times.append(time.process_time() - t0)
+    return min(times) / n * 1e9
+
+
+def startup(repeat: int) -> None:
+    py = sys.executable
+    case = str(ROOT / "cases" / "coupled_wells.toml")
+    commands = [
+        ("python -c pass (bare start)", [py, "-c", "pass"], None),
+        ("fdsolver --version", [py, "-m", "fdsolver", "--version"], 0.15),
+        ("fdsolver --help", [py, "-m", "fdsolver", "--help"], 0.15),
+        ("fdsolver solve coupled_wells (cold)", [py, "-m", "fdsolver", "solve", case], 0.8),
+    ]
+    child_cpu(commands[-1][1])  # the numba cache is warm from here on
+    print("1. start-up (child processes; seconds)")
+    print(f"   {'command':<38} {'CPU':>30}   {'wall':>30}  target CPU")
+    for name, cmd, target in commands:
+        runs = [child_cpu(cmd) for _ in range(repeat)]
+        cpu = [r[0] for r in runs]
+        wall = [r[1] for r in runs]
+        verdict = "" if target is None else f"< {target:g} s: {'met' if statistics.median(cpu) < target else 'NOT met'}"
+        print(f"   {name:<38} {stats(cpu)}   {stats(wall)}  {verdict}")
+
+
+def per_solve(repeat: int, sturm_ns: float) -> None:
+    from fdsolver.input.case import load_case
+    from fdsolver.runs import solve_case
+
+    print(f"2. warm solves (CPU in this process; {repeat} runs each)")
+    print(f"   {'case':<26} {'states':>6} {'levels':>6} {'node-states':>12} {'CPU min [ms]':>12} {'median':>8} "
+          f"{'wall med':>8} {'lean [ms]':>9} {'ratio':>7}")
+    for path in CASES:
+        try:
+            case = load_case(path)
+            sol = solve_case(case)  # warm: kernels loaded, grid planned once
+        except Exception as exc:  # noqa: BLE001  (a case this command does not solve is listed, not hidden)
+            print(f"   {path.stem:<26} not solved here: {type(exc).__name__}: {str(exc)[:60]}")
+            continue
+        cpu, wall = [], []
+        for _ in range(repeat):
+            t0, w0 = time.process_time(), time.perf_counter()
+            sol = solve_case(case)
+            cpu.append(time.process_time() - t0)
+            wall.append(time.perf_counter() - w0)
+        node_states = int(np.sum(sol.level_sizes)) * max(int(sol.energy.size), 1)
+        lean = node_states * sturm_ns * 1e-9
+        print(f"   {path.stem:<26} {sol.energy.size:6d} {len(sol.level_sizes):6d} {node_states:12d} "
+              f"{min(cpu) * 1e3:12.2f} {statistics.median(cpu) * 1e3:8.2f} {statistics.median(wall) * 1e3:8.2f} "
+              f"{lean * 1e3:9.3f} {min(cpu) / lean:7.1f}")
+    print("   target: double wells within 5x of the lean estimate, about 2 ms")
+
+
+def many_states() -> None:
+    from fdsolver.input.case import case_from_dict
+    from fdsolver.runs import solve_case
+
+    print("3. many states of a 1000 nm x 6000 meV well (mass 0.067; invented), default memory budget")
+    print(f"   {'states':>6} {'CPU [s]':>8} {'wall [s]':>8} {'CPU/state [ms]':>14} {'converged':>10}  finest grid")
+    for n in (10, 50, 200, 1000):
+        case = case_from_dict({"units": "nm-meV", "mass": 0.067, "solve": {"max_states": n},
+                               "potential": [{"shape": "square", "center": 0.0, "width": 1000.0, "depth": 6000.0}]})
+        t0, w0 = time.process_time(), time.perf_counter()
+        sol = solve_case(case)
+        cpu, wall = time.process_time() - t0, time.perf_counter() - w0
+        print(f"   {n:6d} {cpu:8.2f} {wall:8.2f} {cpu / n * 1e3:14.2f} {int(sol.converged.sum()):5d}/{sol.energy.size:<4d}"
+              f"  {int(sol.level_sizes[-1])} nodes")
+        for m in sol.messages[:1]:
+            print(f"          note: {m[:150]}")
+    print("   target: 1000 states converged in < 30 s CPU, cost per state flat")
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--quick", action="store_true", help="skip the many-states runs")
+    ap.add_argument("--repeat", type=int, default=7, help="runs per figure (min and median are printed)")
+    args = ap.parse_args()
+    import fdsolver
+
+    print(f"fdsolver {fdsolver.__version__}, Python {sys.version.split()[0]}, {os.cpu_count()} CPUs, one BLAS thread")
+    sturm_ns = calibrate(args.repeat)
+    print(f"calibration: one Sturm count costs {sturm_ns:.2f} ns per node on this machine (10^6 nodes, best of "
+          f"{max(args.repeat, 5)})")
+    startup(args.repeat)
+    per_solve(args.repeat, sturm_ns)
+    if not args.quick:
+        many_states()
+
+
+if __name__ == "__main__":
+    main()
