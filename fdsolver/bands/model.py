@@ -1,0 +1,71 @@
+"""What a :class:`~fdsolver.bands.result.Bands` keeps to answer more questions after the calculation.
+
+The discriminant providers of the cell levels used and their edge sets: the density of states at any
+energy (Richardson-extrapolated over the levels at fixed energy, :mod:`fdsolver.bands.dos`), the
+number of states below an energy, E_n(q) at other wavevectors and Bloch functions
+(:mod:`fdsolver.bands.bloch`, on the finest level).  Units as in :mod:`fdsolver.bands.result`.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from fdsolver.bands.bloch import bloch_values
+from fdsolver.bands.dispersion import dispersion
+from fdsolver.bands.dos import density, density_error, states_below
+from fdsolver.bands.result import BlochFunction
+from fdsolver.errors import CaseError
+from fdsolver.numerics.richardson import Romberg
+
+
+class BandModel:
+    """Providers of the levels used, their edge sets, and the source (period, start, energy scale, Bloch cells)."""
+
+    def __init__(self, source, levels: list, edge_sets: list):
+        self.source = source
+        self.levels = levels
+        self.edge_sets = edge_sets
+
+    def _rows(self, energies):
+        table = Romberg()
+        for cells in self.levels:
+            table.add(cells.evaluate(energies, False)[:, :4])
+        return table.value(), (table.error() if len(self.levels) > 1 else np.zeros((energies.size, 4)))
+
+    def dos(self, energies):
+        """(g, error of g) at ``energies`` (1 / (energy * length))."""
+        e = np.atleast_1d(energies)
+        rows, extrap = self._rows(e)
+        d, dd = rows[:, 0], rows[:, 1]
+        d_err, dd_err = rows[:, 2] + extrap[:, 0], rows[:, 3] + extrap[:, 1]
+        p = self.source.period
+        return density(d, dd, p), density_error(d, dd, d_err, dd_err, p)
+
+    def states_below(self, energies):
+        """Integrated density of states per unit length at ``energies`` (finest level)."""
+        return states_below(self.levels[-1].evaluate(np.atleast_1d(energies)), self.source.period)
+
+    def energies_at(self, band: int, q):
+        """(E_n(q), error) at other wavevectors, extrapolated over the levels as the table was."""
+        q = np.atleast_1d(np.asarray(q, dtype=float))
+        table = Romberg()
+        for cells, es in zip(self.levels, self.edge_sets):
+            e, ro, _ = dispersion(cells.evaluate, es, [band], q, self.source.period, self.source.zone_energy)
+            table.add(e[:, 0])
+        err = table.error() if len(self.levels) > 1 else np.zeros(q.size)
+        return table.value(), err + ro[:, 0]
+
+    def bloch(self, bands, band: int, q: float, x, points: int) -> BlochFunction:
+        src = self.source
+        if not 0 <= band < bands.n_bands:
+            raise CaseError(f"band must be from 0 to {bands.n_bands - 1}, got {band}", key="band")
+        qr = abs(math.remainder(q, 2.0 * math.pi / src.period))
+        e, err = self.energies_at(band, [qr])
+        if x is None:
+            x = np.linspace(src.start, src.start + src.period, points)
+        x = np.asarray(x, dtype=float)
+        cells = src.bloch_cells(self.levels[-1])
+        psi = bloch_values(cells, src.start, src.period, float(e[0]), q, x)
+        return BlochFunction(band, float(q), float(e[0]), float(err[0]), x, psi)
