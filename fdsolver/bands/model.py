@@ -57,6 +57,35 @@ class BandModel:
         err = table.error() if len(self.levels) > 1 else np.zeros(q.size)
         return table.value(), err + ro[:, 0]
 
+    def dirichlet_levels(self):
+        """(mu_g, error) for g = 1 .. n_bands: eigenvalues of one period with psi = 0 at both of its ends.
+
+        mu_g is the simple root of M12(E) (the psi-component of the solution started with psi = 0,
+        u = 1) in the closed gap g, i.e. in [top_{g-1}, bottom_g] (:mod:`fdsolver.bands.edges`, fact 2;
+        M12 has no root inside a band); the bracket is widened by 1e-6 of the neighbouring band widths
+        so that a root on an edge is still a sign change.  Brent's method to round-off on each level,
+        Richardson-extrapolated over the levels.
+        """
+        from scipy.optimize import brentq
+
+        table = Romberg()
+        for provider, es in zip(self.levels, self.edge_sets):
+            cells = self.source.bloch_cells(provider)
+            n = es.top.size
+            mu = np.empty(n)
+            for g in range(1, n + 1):
+                w_lo = es.top[g - 1] - es.bottom[g - 1]
+                w_hi = es.top[g] - es.bottom[g] if g < n else w_lo
+                a, b = es.top[g - 1] - 1e-6 * w_lo, es.bottom[g] + 1e-6 * w_hi
+
+                def m12(e):
+                    return cells.monodromy(e)[0][0, 1]
+
+                mu[g - 1] = brentq(m12, a, b, xtol=1e-15 * (abs(a) + abs(b)), rtol=4 * np.finfo(float).eps)
+            table.add(mu)
+        err = table.error() if table.levels > 1 else np.zeros(table.value().size)
+        return table.value(), err + 4 * np.finfo(float).eps * np.abs(table.value())
+
     def bloch(self, bands, band: int, q: float, x, points: int) -> BlochFunction:
         src = self.source
         if not 0 <= band < bands.n_bands:
