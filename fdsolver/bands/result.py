@@ -31,7 +31,9 @@ class BandEdges:
 
     Every quantity X has ``X_error``, an estimate of its absolute error (round-off of the discriminant,
     plus the change of the Richardson-extrapolated value from the previous cell level for smooth
-    potentials).  ``gap_closed[n]``: bands n and n+1 touch within round-off.  ``converged[n]``: every
+    potentials).  ``gap_closed[n]``: bands n and n+1 touch, or the gap between them is not larger than
+    its error estimate (near a closed gap round-off of the discriminant opens a spurious gap of width
+    about sqrt(dD / |D''|), which the edge errors cover).  ``converged[n]``: every
     error of band n is within the tolerance.  ``method`` says how the numbers were obtained.
     """
 

@@ -30,10 +30,12 @@ running product is renormalised every cell (balanced norm
 dropped factors are kept as a natural log.  D and dD/dE are returned with
 that factor restored (capped at exp(700): such an energy lies deep in a gap).
 
-Round-off: the returned error of D is 2 eps (n + 2) times the largest norm
-the running product reached (likewise for dD/dE): the backward error of n
-matrix products, whose entries can grow like exp(kappa b) across a barrier
-of thickness b while D stays of order one inside a band.
+Round-off: the returned error of D is 4 eps (n + 2 + sum_i sqrt|w_i|) times
+the largest norm the running product reached (likewise for dD/dE): the
+backward error of n matrix products, whose entries can grow like
+exp(kappa b) across a barrier of thickness b while D stays of order one
+inside a band, plus the rounding of each cell's phase (or decay exponent)
+sqrt|w|, which carries a relative error of about eps.
 
 Accuracy: exact for the piecewise-constant potential the cells describe
 (round-off only).  For midpoint cells of a smooth potential (the march's
@@ -63,27 +65,28 @@ COLUMNS = ("D", "dD_dE", "D_error", "dD_dE_error", "dirichlet_count")
 
 @njit
 def _cs(w):
-    """(c, s, ds/dw, r) of w, each divided by exp(r); r = sqrt(w) for w > 1 (overflow guard), else 0."""
+    """(c, s, ds/dw, r, t) of w: c, s, ds/dw divided by exp(r), r = sqrt(w) for w > 1 (overflow guard) else 0,
+    and t = sqrt(|w|), the cell's phase or decay exponent (its relative round-off is about eps * t)."""
     if w > 1.0:
         r = math.sqrt(w)
         e = math.exp(-2.0 * r)
         c = 0.5 * (1.0 + e)
         s = -0.5 * math.expm1(-2.0 * r) / r
-        return c, s, (c - s) / (2.0 * w), r
+        return c, s, (c - s) / (2.0 * w), r, r
     if abs(w) < 1e-2:
         c = 1.0 + w * (1.0 / 2 + w * (1.0 / 24 + w * (1.0 / 720 + w * (1.0 / 40320 + w / 3628800.0))))
         s = 1.0 + w * (1.0 / 6 + w * (1.0 / 120 + w * (1.0 / 5040 + w * (1.0 / 362880 + w / 39916800.0))))
         sp = 1.0 / 6 + w * (1.0 / 60 + w * (1.0 / 1680 + w * (1.0 / 90720 + w / 7983360.0)))
-        return c, s, sp, 0.0
+        return c, s, sp, 0.0, math.sqrt(abs(w))
     if w > 0.0:
-        r = math.sqrt(w)
-        c = math.cosh(r)
-        s = math.sinh(r) / r
+        t = math.sqrt(w)
+        c = math.cosh(t)
+        s = math.sinh(t) / t
     else:
-        r = math.sqrt(-w)
-        c = math.cos(r)
-        s = math.sin(r) / r
-    return c, s, (c - s) / (2.0 * w), 0.0
+        t = math.sqrt(-w)
+        c = math.cos(t)
+        s = math.sin(t) / t
+    return c, s, (c - s) / (2.0 * w), 0.0, t
 
 
 def cell_constants(edges, mass, c: float):
@@ -99,8 +102,9 @@ def _product(length, ml, wl, v, jump, kscale, energy, out):
 
     ``out`` receives [M11, M12, M21, M22, dM11, dM12, dM21, dM22, log_scale,
     log of the largest norm of the product, log of the largest norm of its
-    derivative]; the true matrices are exp(log_scale) times the stored ones.
-    The product is renormalised only when its norm leaves [1e-100, 1e100].
+    derivative, total phase sum sqrt|w|]; the true matrices are exp(log_scale)
+    times the stored ones.  The product is renormalised only when its norm
+    leaves [1e-100, 1e100].
     With w = wl (v - E):  A12 = ml s,  A21 = (v - E) l s,  dA11/dE = -wl s / 2,
     dA12/dE = -ml wl ds/dw,  dA21/dE = -l (c + s) / 2.
     """
@@ -110,6 +114,7 @@ def _product(length, ml, wl, v, jump, kscale, energy, out):
     logs = 0.0
     big = 1.0
     dbig = 0.0
+    phase = 0.0
     for i in range(n):
         a = jump[i]
         if a != 0.0:
@@ -119,7 +124,8 @@ def _product(length, ml, wl, v, jump, kscale, energy, out):
             q22 -= a * q12
         dv = v[i] - energy
         w = wl[i] * dv
-        cw, sw, spw, r = _cs(w)
+        cw, sw, spw, r, t = _cs(w)
+        phase += t
         a11 = cw
         a12 = ml[i] * sw
         a21 = dv * length[i] * sw
@@ -163,6 +169,7 @@ def _product(length, ml, wl, v, jump, kscale, energy, out):
     out[8] = logs
     out[9] = logs + math.log(big) if big > 0.0 else -math.inf
     out[10] = logs + math.log(dbig) if dbig > 0.0 else -math.inf
+    out[11] = phase
 
 
 @njit
@@ -178,7 +185,7 @@ def evaluate(length, ml, wl, v, jump, redges, rv, rmass, rjump, c, kscale, energ
     """
     n = v.shape[0]
     nr = rv.shape[0]
-    buf = np.empty(11)
+    buf = np.empty(12)
     k2 = np.empty(nr)
     none = np.zeros(0)
     for ie in range(energies.shape[0]):
@@ -187,8 +194,9 @@ def evaluate(length, ml, wl, v, jump, redges, rv, rmass, rjump, c, kscale, energ
         f = math.exp(min(buf[8], LOG_CAP))
         out[ie, 0] = 0.5 * (buf[0] + buf[3]) * f
         out[ie, 1] = 0.5 * (buf[4] + buf[7]) * f
-        out[ie, 2] = 2.0 * EPS * (n + 2) * math.exp(min(buf[9], LOG_CAP))
-        out[ie, 3] = 2.0 * EPS * (n + 2) * math.exp(min(buf[10], LOG_CAP))
+        grow = 4.0 * EPS * (n + 2 + buf[11])
+        out[ie, 2] = grow * math.exp(min(buf[9], LOG_CAP))
+        out[ie, 3] = grow * math.exp(min(buf[10], LOG_CAP))
         if count:
             for i in range(nr):
                 k2[i] = rmass[i] * (rv[i] - e) / c
@@ -200,7 +208,7 @@ def evaluate(length, ml, wl, v, jump, redges, rv, rmass, rjump, c, kscale, energ
 
 def monodromy(edges, v, mass, jump, c: float, kscale: float, energy: float):
     """(M, dM/dE, log_scale) at one energy: 2x2 arrays, the true matrices being exp(log_scale) times these."""
-    buf = np.empty(11)
+    buf = np.empty(12)
     length, ml, wl = cell_constants(edges, mass, c)
     _product(length, ml, wl, np.ascontiguousarray(v, dtype=float), np.ascontiguousarray(jump, dtype=float),
              float(kscale), float(energy), buf)
@@ -235,7 +243,7 @@ def fundamentals(edges, v, mass, jump, c, kscale, energy, xs, out, logs):
             else:
                 ml = mass[i] * t / c
                 w = mass[i] * (v[i] - energy) * t * t / c
-                cw, sw, _, r = _cs(w)
+                cw, sw, _, r, _ = _cs(w)
                 out[k, 0] = cw * p11 + ml * sw * p21
                 out[k, 1] = (w * sw / ml) * p11 + cw * p21
                 out[k, 2] = cw * p12 + ml * sw * p22
@@ -245,7 +253,7 @@ def fundamentals(edges, v, mass, jump, c, kscale, energy, xs, out, logs):
         length = x1 - x0
         ml = mass[i] * length / c
         w = mass[i] * (v[i] - energy) * length * length / c
-        cw, sw, _, r = _cs(w)
+        cw, sw, _, r, _ = _cs(w)
         a12 = ml * sw
         a21 = w * sw / ml
         n11 = cw * p11 + a12 * p21

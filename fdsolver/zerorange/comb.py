@@ -126,11 +126,13 @@ class Comb:
         logs = np.zeros(e.size)
         big = np.ones(e.size)
         dbig = np.zeros(e.size)
+        phase = np.zeros(e.size)
         for gj, d in zip(g, self.gaps):
             p[:, 1, :] -= 2.0 * gj * p[:, 0, :]  # J_j: psi' jumps by -2 g psi
             dp[:, 1, :] -= 2.0 * gj * dp[:, 0, :]
             w = k2 * d * d
             c, s, sp, r = _cs(w)
+            phase += np.sqrt(np.abs(w))
             dw = -self.mass * d * d / self.hbar2_2me
             a = np.stack([np.stack([c, d * s], -1), np.stack([w * s / d, c], -1)], -2)
             da = np.stack([np.stack([0.5 * s * dw, d * sp * dw], -1), np.stack([0.5 * (c + s) * dw / d, 0.5 * s * dw], -1)], -2)
@@ -150,8 +152,9 @@ class Comb:
         f = np.exp(np.minimum(logs, LOG_CAP))
         n = len(self.positions)
         with np.errstate(divide="ignore"):
-            err = 2.0 * EPS * (n + 2) * np.exp(np.minimum(logs + np.log(big), LOG_CAP))
-            derr = 2.0 * EPS * (n + 2) * np.exp(np.minimum(logs + np.log(dbig), LOG_CAP))
+            grow = 4.0 * EPS * (n + 2 + phase)  # products and the rounding of each stretch's phase (numerics.period)
+            err = grow * np.exp(np.minimum(logs + np.log(big), LOG_CAP))
+            derr = grow * np.exp(np.minimum(logs + np.log(dbig), LOG_CAP))
         return 0.5 * (p[:, 0, 0] + p[:, 1, 1]) * f, 0.5 * (dp[:, 0, 0] + dp[:, 1, 1]) * f, err, derr
 
     def _cells(self):
