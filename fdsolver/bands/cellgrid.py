@@ -71,12 +71,12 @@ class PeriodCells:
         return int(self.v.size)
 
     def evaluate(self, energies, count: bool = True) -> np.ndarray:
-        """Rows [D, dD/dE, error of D, error of dD/dE, Dirichlet count] at each energy (numerics.period.COLUMNS).
+        """Rows of :data:`fdsolver.numerics.period.COLUMNS` at each energy (D, dD/dE, errors, Dirichlet count, D -+ 1).
 
         Without ``count`` the Dirichlet count (a second march) is skipped and reported as -1.
         """
         e = np.ascontiguousarray(np.atleast_1d(np.asarray(energies, dtype=float)))
-        out = np.empty((e.size, 5))
+        out = np.empty((e.size, len(P.COLUMNS)))
         re, rv, rm, rj = self.rotated
         P.evaluate(*self.constants, self.v, self.jump, re, rv, rm, rj, self.c, self.kscale, e, bool(count), out)
         return out

@@ -15,6 +15,7 @@ import numpy as np
 
 from fdsolver.bands import roots
 from fdsolver.bands.edges import EdgeSet
+from fdsolver.bands.roots import NCOL
 
 
 def wavevectors(period: float, n: int) -> np.ndarray:
@@ -47,11 +48,11 @@ def dispersion(evaluate, es: EdgeSet, bands, q: np.ndarray, period: float, scale
     guess = np.clip(np.asarray(guess, dtype=float).ravel(), lo, hi)
     e = np.where(at_bottom, lo, hi)
     ro = np.where(at_bottom, grid([es.bottom_error[n] for n in bands]), grid([es.top_error[n] for n in bands]))
-    rows = np.zeros((e.size, 5))
+    rows = np.zeros((e.size, NCOL))
     if inner.any():
         x, r = roots.solve(evaluate, lo[inner], hi[inner], cc[inner], ss[inner], scale, guess[inner],
                            (hi - lo)[inner])
         e[inner], rows[inner] = x, r
         with np.errstate(divide="ignore", invalid="ignore"):
             ro[inner] = r[:, 2] / np.abs(r[:, 1])
-    return e.reshape(nq, nb), ro.reshape(nq, nb), rows.reshape(nq, nb, 5)
+    return e.reshape(nq, nb), ro.reshape(nq, nb), rows.reshape(nq, nb, NCOL)

@@ -25,7 +25,8 @@ top where idx first reaches n + 1.  :func:`find_edges` brackets each of these tr
 bisection on idx, from energies where idx is below and at or above it, until the two ends of the
 bracket sit in the adjacent gap and band; there (-1)^n D - 1 (bottom) or (-1)^n D + 1 (top) changes
 sign exactly once, and the edge is that root (:func:`fdsolver.bands.roots.solve`, Newton on the exact
-dD/dE).  A band of any narrowness is found, because the bisection closes in on the transition itself.
+dD/dE, with D -+ 1 in the determinant form of :mod:`fdsolver.numerics.period` where that is the more
+accurate: the edges of a narrow gap then keep full precision).  A band of any narrowness is found, because the bisection closes in on the transition itself.
 A closed gap (two bands touching, idx jumping from n - 1/2 to n + 1/2) is recognised when the bracket
 shrinks to round-off without meeting gap n: both edges are then the touching point.  Round-off of D
 near such a point can also open a spurious gap of width about sqrt(dD / |D''|); the edges' error
@@ -52,11 +53,16 @@ GROWTH = 2.0
 
 
 def band_index(rows) -> np.ndarray:
-    """idx(E) (module docstring) from provider rows: n in gap n, n + 1/2 inside band n."""
+    """idx(E) (module docstring) from provider rows: n in gap n, n + 1/2 inside band n.
+
+    The comparisons of D with +-1 use the provider's edge functions D - 1 and D + 1 (determinant form
+    where more accurate, :mod:`fdsolver.numerics.period`), so that the inside of a narrow gap is seen.
+    """
     rows = np.atleast_2d(rows)
-    d, j = rows[:, 0], rows[:, 4]
-    sign = np.where(np.mod(j, 2) == 0, 1.0, -1.0)
-    return np.where(np.abs(d) < 1.0, j + 0.5, np.where(sign * d >= 1.0, j, j + 1.0))
+    j, dm1, dp1 = rows[:, 4], rows[:, 5], rows[:, 6]
+    inside = (dm1 < 0.0) & (dp1 > 0.0)
+    in_gap_j = np.where(np.mod(j, 2) == 0, dm1 >= 0.0, dp1 <= 0.0)
+    return np.where(inside, j + 0.5, np.where(in_gap_j, j, j + 1.0))
 
 
 @dataclass(frozen=True)
@@ -157,12 +163,14 @@ def find_edges(evaluate, n_bands: int, e_lo: float, e_hi: float, scale: float, h
     is_top = np.array([t % 1 == 0 for t in ts])
     s = np.where(np.mod(n_of, 2) == 0, 1.0, -1.0)
     target = np.where(is_top, -s, s)
-    x, rows = roots.solve(evaluate, lo, hi, target, s, scale)
+    x, rows = roots.solve(evaluate, lo, hi, target, s, scale, edge=True)
     ce = np.array([closed[t] for t in closed])
+    ecol = roots._columns(target, True, target.size)[1]
     if ce.size:
         x, rows = np.concatenate([x, ce]), np.concatenate([rows, evaluate(ce)])
+        ecol = np.concatenate([ecol, np.full(ce.size, 2)])
         ts = ts + list(closed)
-    err, d2 = roots.roundoff(evaluate, x, rows, scale, curvature=True)
+    err, d2 = roots.roundoff(evaluate, x, rows, scale, curvature=True, err_col=ecol)
     value = {t: (float(x[k]), float(err[k]), rows[k], float(d2[k])) for k, t in enumerate(ts)}
     count = samples.count + 3 * len(value)
 

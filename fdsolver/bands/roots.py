@@ -25,23 +25,36 @@ from __future__ import annotations
 
 import numpy as np
 
+from fdsolver.numerics.period import COLUMNS
 from fdsolver.numerics.precision import EPS
 
 MAX_ITERATIONS = 200
+#: columns of a provider row
+NCOL = len(COLUMNS)
 
 
-def roundoff(evaluate, energy, rows, scale: float, curvature: bool = False):
+def _columns(target, edge: bool, size: int):
+    """(value column, error column) per root: D and its error, or the edge function D -+ 1 of numerics.period."""
+    if not edge:
+        return np.zeros(size, dtype=int), np.full(size, 2)
+    plus = np.broadcast_to(np.asarray(target, dtype=float), (size,)) > 0
+    return np.where(plus, 5, 6), np.where(plus, 7, 8)
+
+
+def roundoff(evaluate, energy, rows, scale: float, curvature: bool = False, err_col=None):
     """Round-off error of roots at ``energy`` with provider rows ``rows`` there (module docstring).
 
     dD / |D'| bounds the estimate; D'' is computed only where that bound
     exceeds 1e-9 of |E| + ``scale`` (D' nearly zero), or everywhere with
     ``curvature``, which also returns |D''| (1 / energy^2, 0 where not computed).
+    ``err_col`` (per root) picks the error column of the function whose root it is (default: that of D).
     """
     energy = np.asarray(energy, dtype=float)
     d2 = np.zeros(energy.size)
     if energy.size == 0:
         return (np.zeros(0), d2) if curvature else np.zeros(0)
-    dd, d1 = rows[:, 2], np.abs(rows[:, 1])
+    ec = np.full(energy.size, 2) if err_col is None else np.asarray(err_col)
+    dd, d1 = rows[np.arange(energy.size), ec], np.abs(rows[:, 1])
     with np.errstate(divide="ignore", invalid="ignore"):
         de = dd / d1
     h = 1e-6 * (np.abs(energy) + scale)
@@ -57,8 +70,11 @@ def roundoff(evaluate, energy, rows, scale: float, curvature: bool = False):
     return (de, d2) if curvature else de
 
 
-def solve(evaluate, lo, hi, target, sign_lo, scale: float, guess=None, width=None):
+def solve(evaluate, lo, hi, target, sign_lo, scale: float, guess=None, width=None, edge: bool = False):
     """Roots of D(E) = target in [lo, hi] (module docstring); returns (energies, provider rows at them).
+
+    With ``edge`` (targets +-1 only) the root is sought of the provider's edge function D -+ 1
+    (:mod:`fdsolver.numerics.period`), which keeps the edges of almost closed gaps to full precision.
 
     Stops for a root when |D - target| is within the round-off of D, when the
     Newton step is below the root's round-off, or when the bracket is that
@@ -74,7 +90,10 @@ def solve(evaluate, lo, hi, target, sign_lo, scale: float, guess=None, width=Non
     sign_lo = np.broadcast_to(np.asarray(sign_lo, dtype=float), lo.shape).copy()
     small = np.zeros(lo.shape) if width is None else np.sqrt(EPS) * np.broadcast_to(np.abs(width), lo.shape)
     x = 0.5 * (lo + hi) if guess is None else np.clip(np.array(guess, dtype=float), lo, hi)
-    rows = np.empty((lo.size, 5))
+    fcol, ecol = _columns(target, edge, lo.size)
+    if edge:
+        target = np.zeros(lo.size)
+    rows = np.empty((lo.size, NCOL))
     if lo.size == 0:
         return x, rows
     active = np.arange(lo.size)
@@ -82,7 +101,9 @@ def solve(evaluate, lo, hi, target, sign_lo, scale: float, guess=None, width=Non
     for _ in range(MAX_ITERATIONS):
         r = evaluate(x[active], False)
         rows[active] = r
-        f = r[:, 0] - target[active]
+        pick = np.arange(active.size)
+        f = r[pick, fcol[active]] - target[active]
+        fe = r[pick, ecol[active]]
         df = r[:, 1]
         a, b = lo[active], hi[active]
         xa = x[active]
@@ -92,11 +113,11 @@ def solve(evaluate, lo, hi, target, sign_lo, scale: float, guess=None, width=Non
         lo[active], hi[active] = a, b
         with np.errstate(divide="ignore", invalid="ignore"):
             step = -f / df
-            floor = np.maximum(4.0 * EPS * (np.abs(xa) + scale), 0.25 * r[:, 2] / np.abs(df))
+            floor = np.maximum(4.0 * EPS * (np.abs(xa) + scale), 0.25 * fe / np.abs(df))
         newton = xa + step
         good = np.isfinite(newton) & (newton >= a) & (newton <= b) & (np.abs(f) <= 0.5 * fprev[active])
         fprev[active] = np.abs(f)
-        exact = (f == 0.0) | (np.abs(f) <= r[:, 2])
+        exact = (f == 0.0) | (np.abs(f) <= fe)
         final = good & (np.abs(step) <= np.maximum(floor, small[active]))
         done = exact | final | (b - a <= floor)
         x[active] = np.where(exact, xa, np.where(good, newton, 0.5 * (a + b)))

@@ -178,7 +178,7 @@ def _run(src: Source, settings: BandSettings, with_q: bool) -> _Run:
             break
     out = {k: (t.value(), t.error() if t.levels > 1 else np.zeros_like(t.value())) for k, t in tables.items()}
     if with_q:  # round-off of the finest level's roots from the rows there (D'' only where D' is tiny)
-        rows = rows_q.reshape(-1, 5)
+        rows = rows_q.reshape(-1, rows_q.shape[-1])
         inner = rows[:, 1] != 0.0
         r = ro_q.ravel().copy()
         r[inner] = roots.roundoff(used[-1].evaluate, guesses[-1].ravel()[inner], rows[inner], e_l)

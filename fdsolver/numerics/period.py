@@ -30,12 +30,26 @@ running product is renormalised every cell (balanced norm
 dropped factors are kept as a natural log.  D and dD/dE are returned with
 that factor restored (capped at exp(700): such an energy lies deep in a gap).
 
-Round-off: the returned error of D is 4 eps (n + 2 + sum_i sqrt|w_i|) times
-the largest norm the running product reached (likewise for dD/dE): the
-backward error of n matrix products, whose entries can grow like
-exp(kappa b) across a barrier of thickness b while D stays of order one
-inside a band, plus the rounding of each cell's phase (or decay exponent)
-sqrt|w|, which carries a relative error of about eps.
+Round-off: the returned error of D is 4 eps sqrt(2 + sum_i (1 + t_i)^2) times
+the largest norm the running product reached (likewise for dD/dE), with
+t_i = sqrt|w_i| the phase (or decay exponent) of cell i.  The computed
+product is the exact product of cell matrices with relative perturbations of
+about eps (1 + t_i) (the rounding of each entry and of its phase); each
+perturbation reaches the end multiplied by the norms of the partial products
+on either side, about the largest norm of the running product (which grows
+like exp(kappa b) across a barrier of thickness b while D stays of order one
+inside a band).  The perturbations are independent, so they add in
+quadrature (the worst case, their plain sum, is far too pessimistic for
+thousands of cells); the factor 4 covers the few roundings per entry.
+
+Edge functions: D - lambda (lambda = +-1, the band edges are its roots) is also
+-det(M - lambda I) / (2 lambda), since det M = 1.  Computed from the entries of
+N = M - lambda I its round-off is about eps |N| |M| instead of eps |M|: where a gap
+is almost closed M is close to lambda I, |N| is of the order of the gap, and the
+determinant form keeps the edges of the narrow gap to full precision, whereas
+D - lambda from the trace would have a double root there, conditioned like
+sqrt(eps).  Across thick barriers |N| ~ |M| is large and the trace form is the
+better one; ``evaluate`` returns whichever has the smaller error estimate.
 
 Accuracy: exact for the piecewise-constant potential the cells describe
 (round-off only).  For midpoint cells of a smooth potential (the march's
@@ -60,7 +74,8 @@ from fdsolver.numerics.precision import EPS
 #: largest log factor restored in D and dD/dE (exp(700) ~ 1e304)
 LOG_CAP = 700.0
 #: columns of the array returned by :func:`evaluate`
-COLUMNS = ("D", "dD_dE", "D_error", "dD_dE_error", "dirichlet_count")
+COLUMNS = ("D", "dD_dE", "D_error", "dD_dE_error", "dirichlet_count", "D_minus_1", "D_plus_1",
+           "D_minus_1_error", "D_plus_1_error")
 
 
 @njit
@@ -102,7 +117,7 @@ def _product(length, ml, wl, v, jump, kscale, energy, out):
 
     ``out`` receives [M11, M12, M21, M22, dM11, dM12, dM21, dM22, log_scale,
     log of the largest norm of the product, log of the largest norm of its
-    derivative, total phase sum sqrt|w|]; the true matrices are exp(log_scale)
+    derivative, sum over cells of (1 + sqrt|w|)^2]; the true matrices are exp(log_scale)
     times the stored ones.  The product is renormalised only when its norm
     leaves [1e-100, 1e100].
     With w = wl (v - E):  A12 = ml s,  A21 = (v - E) l s,  dA11/dE = -wl s / 2,
@@ -125,7 +140,7 @@ def _product(length, ml, wl, v, jump, kscale, energy, out):
         dv = v[i] - energy
         w = wl[i] * dv
         cw, sw, spw, r, t = _cs(w)
-        phase += t
+        phase += (1.0 + t) * (1.0 + t)
         a11 = cw
         a12 = ml[i] * sw
         a21 = dv * length[i] * sw
@@ -173,15 +188,29 @@ def _product(length, ml, wl, v, jump, kscale, energy, out):
 
 
 @njit
+def _edge_form(lam, p11, p12, p21, p22, f, d, err_d, kscale, grow_big):
+    """(D - lam, its error) from -det(M - lam I) / (2 lam) or from the trace, whichever is more accurate."""
+    if f > 1e150:
+        return d - lam, err_d
+    n11, n12, n21, n22 = p11 * f - lam, p12 * f, p21 * f, p22 * f - lam
+    nrm = abs(n11) + abs(n12) * kscale + abs(n21) / kscale + abs(n22)
+    err_det = grow_big * nrm
+    if err_det < err_d:
+        return -(n11 * n22 - n12 * n21) / (2.0 * lam), err_det
+    return d - lam, err_d
+
+
+@njit
 def evaluate(length, ml, wl, v, jump, redges, rv, rmass, rjump, c, kscale, energies, count, out):
-    """D, dD/dE, their round-off errors and (with ``count``) the Dirichlet count at every energy (rows of ``out``).
+    """The rows :data:`COLUMNS` at every energy: D, dD/dE, their round-off, the Dirichlet count, D -+ 1.
 
     The Dirichlet count is the number of zeros in the open period of the
     solution with psi = 0, u = 1 at its start, carried by the one march over
     the *rotated* cells (``redges``..., the same period started at another
     point): by the oscillation theorem it is the number of eigenvalues below E
     of the period with psi = 0 at both ends of the rotated period.  Without
-    ``count`` the last column is -1.
+    ``count`` that column is -1.  D - 1 and D + 1 (and their errors) are the
+    edge functions of the module docstring.
     """
     n = v.shape[0]
     nr = rv.shape[0]
@@ -192,11 +221,15 @@ def evaluate(length, ml, wl, v, jump, redges, rv, rmass, rjump, c, kscale, energ
         e = energies[ie]
         _product(length, ml, wl, v, jump, kscale, e, buf)
         f = math.exp(min(buf[8], LOG_CAP))
-        out[ie, 0] = 0.5 * (buf[0] + buf[3]) * f
+        d = 0.5 * (buf[0] + buf[3]) * f
+        out[ie, 0] = d
         out[ie, 1] = 0.5 * (buf[4] + buf[7]) * f
-        grow = 4.0 * EPS * (n + 2 + buf[11])
-        out[ie, 2] = grow * math.exp(min(buf[9], LOG_CAP))
+        grow = 4.0 * EPS * math.sqrt(2.0 + buf[11])
+        grow_big = grow * math.exp(min(buf[9], LOG_CAP))
+        out[ie, 2] = grow_big
         out[ie, 3] = grow * math.exp(min(buf[10], LOG_CAP))
+        out[ie, 5], out[ie, 7] = _edge_form(1.0, buf[0], buf[1], buf[2], buf[3], f, d, grow_big, kscale, grow_big)
+        out[ie, 6], out[ie, 8] = _edge_form(-1.0, buf[0], buf[1], buf[2], buf[3], f, d, grow_big, kscale, grow_big)
         if count:
             for i in range(nr):
                 k2[i] = rmass[i] * (rv[i] - e) / c

@@ -54,7 +54,7 @@ from fdsolver.model.potential import Potential
 from fdsolver.model.units import kinetic_units
 from fdsolver.numerics.march import carry
 from fdsolver.numerics.precision import EPS
-from fdsolver.numerics.period import LOG_CAP
+from fdsolver.numerics.period import COLUMNS, LOG_CAP
 
 __all__ = ["Comb", "comb", "comb_of", "comb_edges", "comb_bands"]
 
@@ -81,6 +81,17 @@ def _cs(w: np.ndarray):
     rest = ~small
     sp[rest] = (c[rest] - s[rest]) / (2.0 * w[rest])
     return c, s, sp, r
+
+
+def _edge_form(lam, p, f, d, err_d, kscale):
+    """(D - lam, error): -det(M - lam I) / (2 lam) where that is more accurate than the trace (numerics.period)."""
+    with np.errstate(over="ignore", invalid="ignore"):
+        n11, n12, n21, n22 = p[:, 0, 0] * f - lam, p[:, 0, 1] * f, p[:, 1, 0] * f, p[:, 1, 1] * f - lam
+        nrm = np.abs(n11) + np.abs(n12) * kscale + np.abs(n21) / kscale + np.abs(n22)
+        err_det = err_d * nrm
+        use = (f <= 1e150) & (err_det < err_d)
+        det_form = -(n11 * n22 - n12 * n21) / (2.0 * lam)
+    return np.where(use, det_form, d - lam), np.where(use, err_det, err_d)
 
 
 @dataclass(frozen=True)
@@ -115,7 +126,11 @@ class Comb:
         return self.hbar2_2me * math.pi**2 / (self.mass * self.period**2)
 
     def discriminant(self, energies):
-        """(D, dD/dE, error of D, error of dD/dE) at ``energies`` (closed form, module docstring)."""
+        """(D, dD/dE, error of D, error of dD/dE, [(D - 1, error), (D + 1, error)]) at ``energies``.
+
+        Closed form (module docstring); D -+ 1 in the more accurate of the trace and determinant forms
+        (:mod:`fdsolver.numerics.period`).
+        """
         e = np.atleast_1d(np.asarray(energies, dtype=float))
         g = self.couplings
         k2 = -self.mass * e / self.hbar2_2me  # (1/length^2), > 0 below zero energy
@@ -132,7 +147,7 @@ class Comb:
             dp[:, 1, :] -= 2.0 * gj * dp[:, 0, :]
             w = k2 * d * d
             c, s, sp, r = _cs(w)
-            phase += np.sqrt(np.abs(w))
+            phase += (1.0 + np.sqrt(np.abs(w))) ** 2
             dw = -self.mass * d * d / self.hbar2_2me
             a = np.stack([np.stack([c, d * s], -1), np.stack([w * s / d, c], -1)], -2)
             da = np.stack([np.stack([0.5 * s * dw, d * sp * dw], -1), np.stack([0.5 * (c + s) * dw / d, 0.5 * s * dw], -1)], -2)
@@ -152,10 +167,12 @@ class Comb:
         f = np.exp(np.minimum(logs, LOG_CAP))
         n = len(self.positions)
         with np.errstate(divide="ignore"):
-            grow = 4.0 * EPS * (n + 2 + phase)  # products and the rounding of each stretch's phase (numerics.period)
+            grow = 4.0 * EPS * np.sqrt(2.0 + phase)  # roundings of products and phases, in quadrature (numerics.period)
             err = grow * np.exp(np.minimum(logs + np.log(big), LOG_CAP))
             derr = grow * np.exp(np.minimum(logs + np.log(dbig), LOG_CAP))
-        return 0.5 * (p[:, 0, 0] + p[:, 1, 1]) * f, 0.5 * (dp[:, 0, 0] + dp[:, 1, 1]) * f, err, derr
+        d = 0.5 * (p[:, 0, 0] + p[:, 1, 1]) * f
+        edge = [_edge_form(lam, p, f, d, err, kscale) for lam in (1.0, -1.0)]
+        return d, 0.5 * (dp[:, 0, 0] + dp[:, 1, 1]) * f, err, derr, edge
 
     def _cells(self):
         """The free stretches as cells (V = 0, point strengths at their edges), and their rotated copy."""
@@ -169,10 +186,11 @@ class Comb:
         return edges, v, mass, jump
 
     def evaluate(self, energies, count: bool = True) -> np.ndarray:
-        """Provider rows [D, dD/dE, error of D, error of dD/dE, Dirichlet count (-1 without ``count``)]."""
+        """Provider rows (:data:`fdsolver.numerics.period.COLUMNS`; Dirichlet count -1 without ``count``)."""
         e = np.atleast_1d(np.asarray(energies, dtype=float))
-        out = np.empty((e.size, 5))
-        out[:, 0], out[:, 1], out[:, 2], out[:, 3] = self.discriminant(e)
+        out = np.empty((e.size, len(COLUMNS)))
+        out[:, 0], out[:, 1], out[:, 2], out[:, 3], edge = self.discriminant(e)
+        (out[:, 5], out[:, 7]), (out[:, 6], out[:, 8]) = edge
         out[:, 4] = -1.0
         if count:
             re, rv, rm, rj = rotate(*self._cells(), self.start, self.period)
