@@ -37,7 +37,6 @@ Energies in the provider's energy unit.
 
 from __future__ import annotations
 
-import bisect
 import math
 from dataclasses import dataclass
 
@@ -87,40 +86,37 @@ class EdgeSet:
 
 
 class _Samples:
-    """Energies where idx is known, sorted; counts provider evaluations."""
+    """Energies where idx is known (numpy arrays, sorted by energy); counts provider evaluations."""
 
     def __init__(self, evaluate):
         self.evaluate = evaluate
-        self.e: list[float] = []
-        self.i: list[float] = []
+        self.e = np.empty(0)
+        self.i = np.empty(0)
         self.count = 0
 
     def add(self, energies) -> np.ndarray:
-        energies = np.atleast_1d(np.asarray(energies, dtype=float))
-        rows = self.evaluate(energies)
+        energies = np.unique(np.atleast_1d(np.asarray(energies, dtype=float)))
+        idx = band_index(self.evaluate(energies))
         self.count += energies.size
-        idx = band_index(rows)
-        for e, k in zip(energies.tolist(), idx.tolist()):
-            p = bisect.bisect_left(self.e, e)
-            if p < len(self.e) and self.e[p] == e:
-                continue
-            self.e.insert(p, e)
-            self.i.insert(p, k)
+        e, i = np.concatenate([self.e, energies]), np.concatenate([self.i, idx])
+        order = np.argsort(e, kind="stable")
+        self.e, self.i = e[order], i[order]
         return idx
 
-    def bracket(self, t: float) -> tuple[int, int]:
-        """Indices (a, b) of the adjacent samples with idx < t at a and idx >= t at b."""
-        b = next(k for k, v in enumerate(self.i) if v >= t)
-        return b - 1, b
+    def brackets(self, targets: np.ndarray):
+        """Per target t: energies (a, b) and indices (idx_a, idx_b) of adjacent samples, idx < t at a, >= t at b."""
+        b = np.argmax(self.i[None, :] >= targets[:, None], axis=1)  # the first sample at or above t
+        return self.e[b - 1], self.e[b], self.i[b - 1], self.i[b]
 
 
 def _range(samples: _Samples, e_lo: float, e_hi: float, top_target: float, scale: float) -> None:
     """Push e_lo down until idx = 0 there and e_hi up until idx >= top_target."""
     if not e_hi > e_lo:
         e_hi = e_lo + scale
-    while samples.add(e_lo)[0] > 0.0:
+    known = dict(zip(samples.e.tolist(), samples.i.tolist()))
+    while (known.pop(e_lo) if e_lo in known else samples.add(e_lo)[0]) > 0.0:
         e_lo -= GROWTH * max(e_hi - e_lo, scale)
-    while samples.add(e_hi)[0] < top_target:
+    while (known.pop(e_hi) if e_hi in known else samples.add(e_hi)[0]) < top_target:
         e_hi += GROWTH * max(e_hi - e_lo, scale)
         if not math.isfinite(e_hi):
             raise ArithmeticError("no energy reaches the wanted band index")
@@ -132,30 +128,36 @@ def find_edges(evaluate, n_bands: int, e_lo: float, e_hi: float, scale: float, h
     ``e_lo``/``e_hi`` are first guesses of an energy below band 0 and above
     the bottom of band n_bands (both are pushed out as needed), ``scale`` the
     energy scale of the lattice, ``hints`` energies near the edges (e.g.
-    from a coarser level) sampled first.
+    bracketing the edges of a coarser level) sampled first; without hints a
+    uniform scan of 4 (n_bands + 1) energies starts the search.  Every
+    bisection round halves all open brackets at once (one provider call).
     """
     samples = _Samples(evaluate)
-    _range(samples, e_lo, e_hi, n_bands + 0.5, scale)
-    lo_e, hi_e = samples.e[0], samples.e[-1]
-    first = np.linspace(lo_e, hi_e, 4 * (n_bands + 1) + 1)[1:-1]
     h = np.asarray(hints, dtype=float)
-    h = h[(h > lo_e) & (h < hi_e)]
-    samples.add(np.concatenate([first, h]) if h.size else first)
-    targets = [t for n in range(n_bands) for t in (n + 0.5, n + 1.0)] + [n_bands + 0.5]
+    h = h[(h > e_lo) & (h < e_hi)]
+    if h.size:  # the hints and the two ends in one call
+        samples.add(np.concatenate([[e_lo, e_hi], h]))
+    _range(samples, e_lo, e_hi, n_bands + 0.5, scale)
+    if not h.size:
+        samples.add(np.linspace(samples.e[0], samples.e[-1], 4 * (n_bands + 1) + 1)[1:-1])
+    targets = np.array([t for n in range(n_bands) for t in (n + 0.5, n + 1.0)] + [n_bands + 0.5])
     brackets, closed = {}, {}
-    for t in targets:
-        for _ in range(MAX_BISECTIONS):
-            a, b = samples.bracket(t)
-            ea, eb = samples.e[a], samples.e[b]
-            if samples.i[a] == t - 0.5 and samples.i[b] == t:
-                brackets[t] = (ea, eb)
-                break
-            if eb - ea <= 4.0 * EPS * (abs(ea) + abs(eb) + scale):
-                closed[t] = 0.5 * (ea + eb)  # idx jumps over t - 1/2: a closed gap
-                break
-            samples.add(0.5 * (ea + eb))
-        else:  # pragma: no cover - bisection halves a finite bracket
-            raise ArithmeticError(f"band transition {t} not bracketed")
+    todo = targets
+    for _ in range(MAX_BISECTIONS):
+        ea, eb, ia, ib = samples.brackets(todo)
+        found = (ia == todo - 0.5) & (ib == todo)
+        tiny = ~found & (eb - ea <= 4.0 * EPS * (np.abs(ea) + np.abs(eb) + scale))  # idx jumps over t - 1/2
+        for k in np.flatnonzero(found):
+            brackets[float(todo[k])] = (float(ea[k]), float(eb[k]))
+        for k in np.flatnonzero(tiny):
+            closed[float(todo[k])] = 0.5 * float(ea[k] + eb[k])  # a closed gap
+        rest = ~(found | tiny)
+        if not rest.any():
+            break
+        todo = todo[rest]
+        samples.add(0.5 * (ea[rest] + eb[rest]))
+    else:  # pragma: no cover - bisection halves finite brackets
+        raise ArithmeticError("band transitions not bracketed")
     ts = sorted(brackets)
     lo = np.array([brackets[t][0] for t in ts])
     hi = np.array([brackets[t][1] for t in ts])

@@ -139,12 +139,7 @@ def _run(src: Source, settings: BandSettings, with_q: bool) -> _Run:
     n = settings.n_bands
     e_l = src.zone_energy
     e_lo, e_hi = src.first_range(n)
-    levels = src.levels(e_lo, e_hi)
-    if not levels.compact:  # size the cells for the energy range actually spanned by the wanted bands
-        es0 = find_edges(levels.at(0).evaluate, n, e_lo, e_hi, e_l)
-        span = float(es0.bottom[-1] - es0.bottom[0])
-        e_lo, e_hi = float(es0.bottom[0]) - 0.05 * span, float(es0.bottom[-1]) + 0.05 * span
-        levels = src.levels(e_lo, e_hi)
+    levels = src.levels(e_lo, e_hi)  # cells sized for the guessed range (it holds the wanted bands)
     q = wavevectors(src.period, settings.n_wavevectors)
     tables, history, guesses = {}, [], []
     used, sets, evals = [], [], 0
