@@ -122,7 +122,8 @@ def _range(samples: _Samples, e_lo: float, e_hi: float, top_target: float, scale
             raise ArithmeticError("no energy reaches the wanted band index")
 
 
-def find_edges(evaluate, n_bands: int, e_lo: float, e_hi: float, scale: float, hints=()) -> EdgeSet:
+def find_edges(evaluate, n_bands: int, e_lo: float, e_hi: float, scale: float, hints=(),
+               curvature: bool = True) -> EdgeSet:
     """Edges of bands 0..n_bands-1 and the bottom of band n_bands (module docstring).
 
     ``e_lo``/``e_hi`` are first guesses of an energy below band 0 and above
@@ -131,6 +132,9 @@ def find_edges(evaluate, n_bands: int, e_lo: float, e_hi: float, scale: float, h
     bracketing the edges of a coarser level) sampled first; without hints a
     uniform scan of 4 (n_bands + 1) energies starts the search.  Every
     bisection round halves all open brackets at once (one provider call).
+    Without ``curvature`` the edge errors are dD/|D'| (D'' only where D' is
+    tiny) and the curvatures are left at 0: :func:`with_curvature` completes
+    them for the edge set that is kept.
     """
     samples = _Samples(evaluate)
     h = np.asarray(hints, dtype=float)
@@ -172,7 +176,8 @@ def find_edges(evaluate, n_bands: int, e_lo: float, e_hi: float, scale: float, h
         x, rows = np.concatenate([x, ce]), np.concatenate([rows, evaluate(ce)])
         ecol = np.concatenate([ecol, np.full(ce.size, 2)])
         ts = ts + list(closed)
-    err, d2 = roots.roundoff(evaluate, x, rows, scale, curvature=True, err_col=ecol)
+    err, d2 = roots.roundoff(evaluate, x, rows, scale, curvature=True, err_col=ecol) if curvature else \
+        (roots.roundoff(evaluate, x, rows, scale, err_col=ecol), np.zeros(x.size))
     value = {t: (float(x[k]), float(err[k]), rows[k], float(d2[k])) for k, t in enumerate(ts)}
     count = samples.count + 3 * len(value)
 
@@ -185,3 +190,16 @@ def find_edges(evaluate, n_bands: int, e_lo: float, e_hi: float, scale: float, h
     top, top_err, top_rows, top_d2 = pick(t_t)
     closed_below = np.array([t in closed for t in b_t])
     return EdgeSet(bottom, top, bottom_err, top_err, bottom_rows, top_rows, closed_below, bottom_d2, top_d2, count)
+
+
+def with_curvature(evaluate, es: EdgeSet, scale: float) -> EdgeSet:
+    """The edge set with curvature-aware round-off errors and |D''| at every edge (:func:`roots.roundoff`)."""
+    n = es.top.size
+    sb = np.where(np.arange(n + 1) % 2 == 0, 1.0, -1.0)
+    col_b = np.where(es.closed_below, 2, np.where(sb > 0, 7, 8))
+    col_t = np.where(es.closed_below[1:], 2, np.where(-sb[:n] > 0, 7, 8))
+    x = np.concatenate([es.bottom, es.top])
+    rows = np.concatenate([es.bottom_rows, es.top_rows])
+    err, d2 = roots.roundoff(evaluate, x, rows, scale, curvature=True, err_col=np.concatenate([col_b, col_t]))
+    return EdgeSet(es.bottom, es.top, err[: n + 1], err[n + 1:], es.bottom_rows, es.top_rows, es.closed_below,
+                   d2[: n + 1], d2[n + 1:], es.evaluations + 2 * x.size)

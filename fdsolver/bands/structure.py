@@ -41,7 +41,7 @@ import numpy as np
 
 from fdsolver.bands import roots
 from fdsolver.bands.dispersion import dispersion, wavevectors
-from fdsolver.bands.edges import EdgeSet, find_edges
+from fdsolver.bands.edges import EdgeSet, find_edges, with_curvature
 from fdsolver.bands.lattice import Lattice
 from fdsolver.bands.model import BandModel
 from fdsolver.bands.result import BandEdges, Bands
@@ -149,7 +149,7 @@ def _run(src: Source, settings: BandSettings, with_q: bool) -> _Run:
     for level in range(1 if levels.compact else settings.max_levels):
         cells = levels.at(level)
         used.append(cells)
-        es = find_edges(cells.evaluate, n, e_lo, e_hi, e_l, _hints(history) if history else ())
+        es = find_edges(cells.evaluate, n, e_lo, e_hi, e_l, _hints(history) if history else (), curvature=False)
         evals += es.evaluations
         sets.append(es)
         history.append(np.concatenate([es.bottom, es.top]))
@@ -172,6 +172,8 @@ def _run(src: Source, settings: BandSettings, with_q: bool) -> _Run:
         if all(_settled(k, tables[k], ro[k], tol, e_l) for k in tables):
             break
     out = {k: (t.value(), t.error() if t.levels > 1 else np.zeros_like(t.value())) for k, t in tables.items()}
+    sets[-1] = with_curvature(used[-1].evaluate, sets[-1], e_l)  # the kept edges: curvature-aware errors
+    ro.update(_edge_errors(sets[-1], n, src.hbar2_2me, src.period))
     if with_q:  # round-off of the finest level's roots from the rows there (D'' only where D' is tiny)
         rows = rows_q.reshape(-1, rows_q.shape[-1])
         inner = rows[:, 1] != 0.0
