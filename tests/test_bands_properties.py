@@ -100,6 +100,14 @@ def test_window_start_and_wrapping_do_not_change_the_bands():
     moved = Potential((S.Square("barrier", 1.9, 5.0, 0.5),), ATOMIC, 1.0, None)
     wrapped = band_edges(lattice(moved, 2.0, 0.0), BandSettings(n_bands=5))
     assert np.allclose(wrapped.band_bottom, ref.band_bottom, atol=1e-12)
+    # a layer stack read from another start: the same layers, the same bands
+    stack = LayerStack((Layer(None, math.inf, 5.0, 1.0), Layer(None, 1.5, 0.0, 1.0), Layer(None, 0.5, 5.0, 1.0),
+                        Layer(None, math.inf, 5.0, 1.0)), origin=-0.3)
+    pot = Potential((), ATOMIC, 1.0, stack)
+    for start in (None, 0.4, -1.9):
+        e = band_edges(lattice(pot, None, start), BandSettings(n_bands=5))
+        assert np.allclose(e.band_bottom, ref.band_bottom, atol=1e-12)
+        assert np.allclose(e.band_top, ref.band_top, atol=1e-12)
 
 
 def test_images_of_a_smooth_component_are_summed():

@@ -186,11 +186,13 @@ class Lattice:
                           math.ceil((self.start + self.period - c + reach) / self.period) + 1)
             shapes.append(Periodic(s.name, s, self.period, self.start, copies, images))
         stack = None
-        if self.source.stack is not None:
+        if self.source.stack is not None:  # the layers repeated from the stack's origin, covering the copies
             inner = self.source.stack.layers[1:-1]
+            first = math.floor((self.start - self.source.stack.origin) / self.period + 1e-12)
+            origin = self.source.stack.origin + first * self.period
             outer_l = replace(inner[-1], thickness=math.inf)
             outer_r = replace(inner[0], thickness=math.inf)
-            stack = LayerStack((outer_l,) + tuple(inner) * copies + (outer_r,), self.start)
+            stack = LayerStack((outer_l,) + tuple(inner) * (copies + 1) + (outer_r,), origin)
         return Potential(tuple(shapes), self.source.units, self.source.mass, stack)
 
     def finite(self, n_periods: int, termination: str = "hard") -> tuple[Potential, Domain]:
@@ -287,10 +289,5 @@ def free_mass(lat: Lattice) -> float:
     return float(min(layer.mass for layer in lat.source.stack.layers[1:-1]))
 
 
-def points_of(lat: Lattice) -> list[tuple[float, float]]:
-    """The point terms of one period, wrapped into the window: [(position, alpha)] sorted by position."""
-    return sorted(lat.cell().point_terms())
-
-
-__all__ = ["Lattice", "lattice", "one_period", "Periodic", "PeriodEnds", "is_localised", "free_mass", "points_of",
+__all__ = ["Lattice", "lattice", "one_period", "Periodic", "PeriodEnds", "is_localised", "free_mass",
            "TERMINATIONS"]
