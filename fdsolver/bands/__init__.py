@@ -8,8 +8,9 @@ Pipeline: :mod:`~fdsolver.bands.lattice` (one period from a Potential) -> :mod:`
 density of states anywhere, Bloch functions).  :mod:`~fdsolver.bands.finite` sets N-period stacks
 beside the bands.  The delta comb lives in :mod:`fdsolver.zerorange.comb`.
 
-Public names (imported on first use)::
+Public names (imported on first use; the lattice constructor lives in its module, whose name it shares)::
 
+    from fdsolver.bands.lattice import lattice
     lat = lattice(potential, period)                  # CaseError on bad input
     b = band_structure(lat, BandSettings(n_bands=10, n_wavevectors=201))
     b.energy, b.energy_error, b.edges.band_bottom, b.edges.effective_mass_bottom, b.dos(E), b.bloch(0, q)
@@ -24,7 +25,6 @@ from typing import Any
 
 _LAZY = {
     "Lattice": "fdsolver.bands.lattice",
-    "lattice": "fdsolver.bands.lattice",
     "one_period": "fdsolver.bands.lattice",
     "BandSettings": "fdsolver.bands.structure",
     "band_structure": "fdsolver.bands.structure",
