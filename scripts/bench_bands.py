@@ -32,13 +32,13 @@ import os
 os.environ.setdefault("OMP_NUM_THREADS", "1")
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
-import math  # noqa: E402
-import statistics  # noqa: E402
-import sys  # noqa: E402
-import time  # noqa: E402
-from concurrent.futures import ProcessPoolExecutor  # noqa: E402
+import math
+import statistics
+import sys
+import time
+from concurrent.futures import ProcessPoolExecutor
 
-import numpy as np  # noqa: E402
+import numpy as np
 
 
 def calibration() -> float:

@@ -16,8 +16,6 @@ Checks against the outside:
 
 from __future__ import annotations
 
-import math
-
 import mpmath as mp
 import numpy as np
 import pytest

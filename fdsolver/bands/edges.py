@@ -171,7 +171,7 @@ def find_edges(evaluate, n_bands: int, e_lo: float, e_hi: float, scale: float, h
     target = np.where(is_top, -s, s)
     x, rows = roots.solve(evaluate, lo, hi, target, s, scale, edge=True)
     ce = np.array([closed[t] for t in closed])
-    ecol = roots._columns(target, True, target.size)[1]
+    ecol = roots.value_columns(target, True, target.size)[1]
     if ce.size:
         x, rows = np.concatenate([x, ce]), np.concatenate([rows, evaluate(ce)])
         ecol = np.concatenate([ecol, np.full(ce.size, 2)])

@@ -27,6 +27,7 @@ masses in m_e.
 from __future__ import annotations
 
 import math
+import numbers
 from dataclasses import dataclass, replace
 from typing import ClassVar
 
@@ -248,7 +249,7 @@ def lattice(potential: Potential, period: float | None = None, start: float | No
                             f"{period:.10g}; make their thicknesses sum to the period", key="layer")
     if period is None:
         raise CaseError("a periodic potential needs its period L; give period = L", key="domain.period")
-    if isinstance(period, bool) or not (isinstance(period, (int, float)) and math.isfinite(period) and period > 0):
+    if isinstance(period, bool) or not (isinstance(period, numbers.Real) and math.isfinite(period) and period > 0):
         raise CaseError(f"the period must be a finite length > 0, got {period!r}", key="domain.period")
     period = float(period)
     for i, s in enumerate(potential.shapes, start=1):
@@ -272,7 +273,7 @@ def lattice(potential: Potential, period: float | None = None, start: float | No
                 start = 0.5 * (lo + hi) - 0.5 * period
             else:
                 start = 0.0
-    if not math.isfinite(start):
+    if isinstance(start, bool) or not (isinstance(start, numbers.Real) and math.isfinite(start)):
         raise CaseError(f"the start of the period must be finite, got {start!r}", key="domain.start")
     return Lattice(potential, period, float(start))
 
@@ -289,5 +290,13 @@ def free_mass(lat: Lattice) -> float:
     return float(min(layer.mass for layer in lat.source.stack.layers[1:-1]))
 
 
-__all__ = ["Lattice", "lattice", "one_period", "Periodic", "PeriodEnds", "is_localised", "free_mass",
-           "TERMINATIONS"]
+__all__ = [
+    "TERMINATIONS",
+    "Lattice",
+    "PeriodEnds",
+    "Periodic",
+    "free_mass",
+    "is_localised",
+    "lattice",
+    "one_period",
+]

@@ -78,7 +78,7 @@ class BandModel:
                 w_hi = es.top[g] - es.bottom[g] if g < n else w_lo
                 a, b = es.top[g - 1] - 1e-6 * w_lo, es.bottom[g] + 1e-6 * w_hi
 
-                def m12(e):
+                def m12(e, cells=cells):
                     return cells.monodromy(e)[0][0, 1]
 
                 mu[g - 1] = brentq(m12, a, b, xtol=1e-15 * (abs(a) + abs(b)), rtol=4 * np.finfo(float).eps)

@@ -33,7 +33,7 @@ MAX_ITERATIONS = 200
 NCOL = len(COLUMNS)
 
 
-def _columns(target, edge: bool, size: int):
+def value_columns(target, edge: bool, size: int):
     """(value column, error column) per root: D and its error, or the edge function D -+ 1 of numerics.period."""
     if not edge:
         return np.zeros(size, dtype=int), np.full(size, 2)
@@ -90,7 +90,7 @@ def solve(evaluate, lo, hi, target, sign_lo, scale: float, guess=None, width=Non
     sign_lo = np.broadcast_to(np.asarray(sign_lo, dtype=float), lo.shape).copy()
     small = np.zeros(lo.shape) if width is None else np.sqrt(EPS) * np.broadcast_to(np.abs(width), lo.shape)
     x = 0.5 * (lo + hi) if guess is None else np.clip(np.array(guess, dtype=float), lo, hi)
-    fcol, ecol = _columns(target, edge, lo.size)
+    fcol, ecol = value_columns(target, edge, lo.size)
     if edge:
         target = np.zeros(lo.size)
     rows = np.empty((lo.size, NCOL))

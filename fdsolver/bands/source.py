@@ -12,8 +12,8 @@ level.  Energies in the model's energy unit, lengths in its length unit.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Callable
 
 import numpy as np
 

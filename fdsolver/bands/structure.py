@@ -69,7 +69,7 @@ class BandSettings:
     max_levels: int = 10
     n_dos: int = 401
 
-    def checked(self) -> "BandSettings":
+    def checked(self) -> BandSettings:
         """Self, or CaseError naming the bad setting."""
         for key, lo, hi in (("n_bands", 1, 10_000), ("n_wavevectors", 2, 10_000_000), ("min_levels", 1, 30),
                             ("max_levels", 1, 30), ("n_dos", 2, 10_000_000)):

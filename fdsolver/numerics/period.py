@@ -163,10 +163,8 @@ def _product(length, ml, wl, v, jump, kscale, energy, out):
             dbig *= er
         nrm = abs(p11) + abs(p12) * kscale + abs(p21) / kscale + abs(p22)
         dn = abs(q11) + abs(q12) * kscale + abs(q21) / kscale + abs(q22)
-        if nrm > big:
-            big = nrm
-        if dn > dbig:
-            dbig = dn
+        big = max(big, nrm)
+        dbig = max(dbig, dn)
         if (nrm > 1e100 or nrm < 1e-100) and nrm > 0.0 and math.isfinite(nrm):
             p11, p12, p21, p22 = p11 / nrm, p12 / nrm, p21 / nrm, p22 / nrm
             q11, q12, q21, q22 = q11 / nrm, q12 / nrm, q21 / nrm, q22 / nrm
@@ -212,7 +210,6 @@ def evaluate(length, ml, wl, v, jump, redges, rv, rmass, rjump, c, kscale, energ
     ``count`` that column is -1.  D - 1 and D + 1 (and their errors) are the
     edge functions of the module docstring.
     """
-    n = v.shape[0]
     nr = rv.shape[0]
     buf = np.empty(12)
     k2 = np.empty(nr)

@@ -53,10 +53,10 @@ from fdsolver.model import shapes as S
 from fdsolver.model.potential import Potential
 from fdsolver.model.units import kinetic_units
 from fdsolver.numerics.march import carry
-from fdsolver.numerics.precision import EPS
 from fdsolver.numerics.period import COLUMNS, LOG_CAP
+from fdsolver.numerics.precision import EPS
 
-__all__ = ["Comb", "comb", "comb_of", "comb_edges", "comb_bands"]
+__all__ = ["Comb", "comb", "comb_bands", "comb_edges", "comb_of"]
 
 
 def _cs(w: np.ndarray):
@@ -165,7 +165,6 @@ class Comb:
             big /= nrm
             dbig /= nrm
         f = np.exp(np.minimum(logs, LOG_CAP))
-        n = len(self.positions)
         with np.errstate(divide="ignore"):
             grow = 4.0 * EPS * np.sqrt(2.0 + phase)  # roundings of products and phases, in quadrature (numerics.period)
             err = grow * np.exp(np.minimum(logs + np.log(big), LOG_CAP))
