@@ -56,7 +56,8 @@ def calibration() -> float:
 
 def superlattice(barrier: float = 2.5):
     from fdsolver.bands.lattice import lattice
-    from fdsolver.model.potential import Layer, LayerStack, Potential
+    from fdsolver.model.potential import Potential
+    from fdsolver.model.stack import Layer, LayerStack
     from fdsolver.model.units import get_units
 
     stack = LayerStack((Layer("clad", math.inf, 230.0, 0.092), Layer("well", 6.0, 0.0, 0.067),

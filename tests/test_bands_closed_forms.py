@@ -32,7 +32,8 @@ from fdsolver.bands.lattice import lattice
 from fdsolver.bands.structure import BandSettings, band_structure
 from fdsolver.input.case import case_from_dict
 from fdsolver.model import shapes as S
-from fdsolver.model.potential import Layer, LayerStack, Potential
+from fdsolver.model.potential import Potential
+from fdsolver.model.stack import Layer, LayerStack
 from fdsolver.model.units import get_units
 from fdsolver.zerorange.comb import comb, comb_bands
 

@@ -28,7 +28,8 @@ from fdsolver.bands.structure import BandSettings, band_edges, band_structure
 from fdsolver.errors import CaseError
 from fdsolver.input.case import case_from_dict
 from fdsolver.model import shapes as S
-from fdsolver.model.potential import Layer, LayerStack, Potential
+from fdsolver.model.potential import Potential
+from fdsolver.model.stack import Layer, LayerStack
 from fdsolver.model.units import get_units
 
 ATOMIC = get_units("atomic")

@@ -36,7 +36,8 @@ import numpy as np
 from fdsolver.errors import CaseError
 from fdsolver.model import shapes as S
 from fdsolver.model.domain import Domain
-from fdsolver.model.potential import LayerStack, Potential
+from fdsolver.model.potential import Potential
+from fdsolver.model.stack import LayerStack
 
 #: relative tail level beyond which images of a localised component are not summed
 TAIL_LEVEL = 1e-17
