@@ -7,7 +7,8 @@ starting at ``start`` (the window [start, start + L)):
   gaussian and sech2 wells or barriers, point terms) repeat with the period.  A component reaching
   outside the window wraps around: V_per(x) = sum_j V(x - j L), its images summed out to where its
   tail is below 1e-17 of its peak.  A component wider than the period (half-maximum region longer
-  than L) is refused: its images would overlap;
+  than L), components spanning more than one period, and point terms at one place modulo L are
+  refused (:func:`fdsolver.model.periodic.period_window`);
 * *profile* components (expression, table) give V on the window itself, repeated: they are
   evaluated at start + ((x - start) mod L) and never summed, so ``V0*cos(2*pi*x/L)`` is the cosine
   lattice and any profile on the window becomes a lattice;
@@ -27,7 +28,6 @@ masses in m_e.
 from __future__ import annotations
 
 import math
-import numbers
 from dataclasses import dataclass, replace
 from typing import ClassVar
 
@@ -36,15 +36,12 @@ import numpy as np
 from fdsolver.errors import CaseError
 from fdsolver.model import shapes as S
 from fdsolver.model.domain import Domain
+from fdsolver.model.periodic import is_localised, period_window
 from fdsolver.model.potential import Potential
 from fdsolver.model.stack import LayerStack
 
 #: relative tail level beyond which images of a localised component are not summed
 TAIL_LEVEL = 1e-17
-#: a layer stack must add up to the period within this relative tolerance
-PERIOD_RTOL = 1e-9
-#: components that do not repeat with a period
-NON_PERIODIC = (S.Harmonic, S.Morse, S.Linear)
 #: terminations of a finite stack
 TERMINATIONS = ("open", "hard")
 
@@ -53,11 +50,6 @@ def _wrap(x, start: float, period: float):
     """Positions reduced into the window [start, start + period)."""
     r = start + np.mod(np.asarray(x, dtype=float) - start, period)
     return np.where(r >= start + period, start, r)
-
-
-def is_localised(shape) -> bool:
-    """True for components with a finite integrated strength (they repeat as images)."""
-    return math.isfinite(shape.strength())
 
 
 def reach_of(shape) -> float:
@@ -232,51 +224,12 @@ class Lattice:
 def lattice(potential: Potential, period: float | None = None, start: float | None = None) -> Lattice:
     """Read ``potential`` as one period of length ``period`` (module docstring); CaseError on bad input.
 
-    ``period`` defaults to the thickness of the stack's inner layers;
-    ``start`` to the stack's origin, else to the point that centres the
-    components' support in the window.
+    The checks and defaults are :func:`fdsolver.model.periodic.period_window`'s: ``period`` defaults to
+    the thickness of the stack's inner layers; ``start`` to the stack's origin, else to the point that
+    centres the components' support in the window.
     """
-    stack = potential.stack
-    if stack is not None:
-        inner = stack.layers[1:-1]
-        total = float(sum(layer.thickness for layer in inner))
-        if not inner:
-            raise CaseError("a periodic layer stack needs inner layers (one period) between its two outer layers",
-                            key="layer")
-        if period is None:
-            period = total
-        if not abs(total - period) <= PERIOD_RTOL * period:
-            raise CaseError(f"the inner layers add up to {total:.10g} {potential.units.length}, not the period "
-                            f"{period:.10g}; make their thicknesses sum to the period", key="layer")
-    if period is None:
-        raise CaseError("a periodic potential needs its period L; give period = L", key="domain.period")
-    if isinstance(period, bool) or not (isinstance(period, numbers.Real) and math.isfinite(period) and period > 0):
-        raise CaseError(f"the period must be a finite length > 0, got {period!r}", key="domain.period")
-    period = float(period)
-    for i, s in enumerate(potential.shapes, start=1):
-        if isinstance(s, NON_PERIODIC):
-            raise CaseError(f"a '{s.kind}' component does not repeat with a period (it grows or tilts without "
-                            "bound); remove it from the periodic case", key=f"potential[{i}].shape")
-        if is_localised(s):
-            r = s.region()
-            if r is not None and r[1] - r[0] > period * (1.0 + 1e-12):
-                raise CaseError(f"the component is {r[1] - r[0]:.6g} {potential.units.length} wide (half maximum), "
-                                f"longer than the period {period:.6g}; its images would overlap: make it narrower "
-                                "or the period longer", key=f"potential[{i}].width")
-    if start is None:
-        if stack is not None:
-            start = float(stack.origin)
-        else:
-            loc = [s for s in potential.shapes if is_localised(s)]
-            if loc:
-                lo = min(min(s.features()) for s in loc)
-                hi = max(max(s.features()) for s in loc)
-                start = 0.5 * (lo + hi) - 0.5 * period
-            else:
-                start = 0.0
-    if isinstance(start, bool) or not (isinstance(start, numbers.Real) and math.isfinite(start)):
-        raise CaseError(f"the start of the period must be finite, got {start!r}", key="domain.start")
-    return Lattice(potential, period, float(start))
+    period, start = period_window(potential, period, start)
+    return Lattice(potential, period, start)
 
 
 def one_period(potential: Potential, period: float | None = None, start: float | None = None) -> Potential:

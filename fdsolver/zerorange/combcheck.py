@@ -49,13 +49,15 @@ from fdsolver.errors import CaseError
 from fdsolver.model import shapes as S
 from fdsolver.model.potential import Potential
 from fdsolver.model.units import kinetic_units
-from fdsolver.zerorange.comb import Comb, comb, comb_edges
+from fdsolver.zerorange.comb import Comb, comb, comb_edges, comb_of
 from fdsolver.zerorange.models import FWHM
-from fdsolver.zerorange.narrow import mean_distance
+from fdsolver.zerorange.narrow import WELL_SHAPES, mean_distance, width_of
 
 QUANTITIES = ("bottom", "top", "width", "gap")
 VALIDITY_FLAGS = ("crossing", "holds_over_ladder", "fails_at_smallest_width", "not_resolved")
 LADDER_SIZE = 12
+#: bands compared when the case's [solve] table does not say
+DEFAULT_BANDS = 4
 #: relative accuracy asked of the finite lattices (of max(|E|, E_L))
 FINITE_TOLERANCE = 1e-12
 
@@ -223,3 +225,105 @@ def comb_check(c: Comb, shape: str = "square", widths=None, tolerance: float = 1
     law, expo = _fit(ws, dev, res, pred)
     valid, flag = _validity(c, shape, settings, point, ws, dev, res, tolerance)
     return CombCheck(shape, float(tolerance), c, ws, point, tuple(finite), dev, pred, res, coef, law, expo, valid, flag)
+
+
+# ------------------------------------------------------------------ from a case
+def _max_width(c: Comb, shape: str) -> float:
+    """Widest replacement whose half-maximum regions stay apart: the nearest spacing (or the period) over the FWHM."""
+    spacing = float(np.min(c.gaps)) if len(c.positions) > 1 else c.period
+    return spacing / FWHM[shape]
+
+
+def _n_bands(case) -> int:
+    return int(case.settings.bands) if case.settings.bands is not None else DEFAULT_BANDS
+
+
+def check_case(case, options) -> CombCheck:
+    """The comb check of a periodic case (``options``: :class:`fdsolver.zerorange.models.Options`).
+
+    A case of point components: its comb against combs of ``options.shape`` over ``options.widths``
+    (lo, hi, n geometric; None: the automatic ladder).  With ``options.from_finite``, a case of finite
+    wells or barriers against its own comb (:func:`finite_check`).  Bands: the case's ``[solve] bands``,
+    else :data:`DEFAULT_BANDS`.
+    """
+    from fdsolver.bands.study import lattice_of
+
+    lat = lattice_of(case)
+    try:
+        if options.from_finite:
+            return finite_check(lat, options.tolerance, _n_bands(case))
+        c = comb_of(lat)
+    except CaseError as err:
+        raise err.located(file=case.path) from None
+    widths = None
+    if options.widths is not None:
+        lo, hi, n = options.widths
+        widths = np.geomspace(lo, hi, n) if n > 1 else np.array([lo])
+        cap = _max_width(c, options.shape)
+        if widths[-1] >= cap:
+            file, key = options.widths_key
+            raise CaseError(f"{options.shape} replacements of width {widths[-1]:.4g} would overlap their neighbours "
+                            f"(half-maximum regions meet from width {cap:.4g} {case.units.length}); give widths "
+                            "below that", file=file, key=key)
+    try:
+        return comb_check(c, options.shape, widths, options.tolerance, _n_bands(case))
+    except CaseError as err:
+        raise err.located(file=case.path) from None
+
+
+def comb_of_wells(lat) -> tuple[Comb, np.ndarray, tuple]:
+    """The delta comb of a lattice of finite wells and barriers: alpha_j = -int V_j dx at each centroid.
+
+    Returns the comb, the mean distance l_j of each profile (length, comb order) and the shape names.
+    """
+    pot = lat.source
+    if pot.stack is not None:
+        raise CaseError("the delta comb needs a constant mass and no layer stack; remove the [[layer]] tables",
+                        key="layer")
+    xs, alphas, ls, kinds = [], [], [], []
+    for i, s in enumerate(pot.shapes, start=1):
+        if not isinstance(s, WELL_SHAPES):
+            raise CaseError(f"a '{s.kind}' component has no zero-range model; use square, smooth_square, gaussian or "
+                            "sech2 wells or barriers (point components: drop --from-finite)",
+                            key=f"potential[{i}].shape")
+        xs.append(float(s.centroid()))
+        alphas.append(float(s.strength()) * (1.0 if s.amplitude < 0 else -1.0))
+        ls.append(mean_distance(s))
+        kinds.append(s.kind)
+    if not xs:
+        raise CaseError("the lattice has no wells or barriers to compare with their comb", key="potential")
+    c = comb(xs, alphas, lat.period, pot.mass, pot.hbar2_2me, lat.start)
+    x = np.asarray(c.positions)
+    order = [int(np.argmin(np.abs(np.mod(np.asarray(xs) - xi + 0.5 * lat.period, lat.period) - 0.5 * lat.period)))
+             for xi in x]
+    return c, np.asarray(ls)[order], tuple(dict.fromkeys(kinds))
+
+
+def finite_check(lat, tolerance: float = 1e-2, n_bands: int = DEFAULT_BANDS) -> CombCheck:
+    """A lattice of finite wells and barriers against its own delta comb, at its own widths (one row).
+
+    The first-order prediction is the comb with strengths alpha_j (1 - g_j l_j) (module docstring), each
+    well with its own mean distance l_j; the width coordinate is the widest well's width parameter.  No
+    law is fitted (one width); the validity width is that width where every edge and width deviation
+    is below ``tolerance`` (flag ``holds_over_ladder``), else NaN (``fails_at_smallest_width``, or
+    ``not_resolved``).
+    """
+    if not (isinstance(tolerance, (int, float)) and 1e-9 <= tolerance <= 0.5):
+        raise CaseError(f"must be a relative deviation from 1e-9 to 0.5, got {tolerance!r}", key="delta_check.tolerance")
+    settings = BandSettings(n_bands=int(n_bands), tolerance=FINITE_TOLERANCE)
+    c, ls, kinds = comb_of_wells(lat)
+    point = comb_edges(c, settings)
+    f = band_edges(lat, settings)
+    dev, res = _deviation(f, point)
+    corrected = comb(c.positions, np.asarray(c.strengths) * (1.0 - c.couplings * ls), c.period, c.mass, c.hbar2_2me,
+                     c.start)
+    pred = (_quantities(comb_edges(corrected, settings)) - _quantities(point)) / _scales(point)
+    width = float(max(width_of(s) for s in lat.source.shapes))
+    nq, nb = dev.shape
+    good = np.max(np.abs(dev[:3]), axis=0) < tolerance
+    judged = res[:3].all(axis=0) | ~good
+    flag = np.where(~judged, 3, np.where(good, 1, 2)).astype(np.int8)
+    valid = np.where(judged & good, width, np.nan)
+    nan = np.full((nq, nb), np.nan)
+    return CombCheck("from_finite: " + ", ".join(kinds), float(tolerance), c, np.array([width]), point, (f,),
+                     dev[None], pred[None], res[None], nan, nan.copy(), nan.copy(), valid, flag)
