@@ -276,3 +276,31 @@ def _comb_check(case: Case, shape, widths, tolerance, from_finite, action) -> xr
                         "check over a width ladder", file=case.path, key="delta_check.map")
     check = check_case(case, options)
     return comb_check_dataset(case, check, stamp(action or f"delta-check {_where(case)}"))
+
+
+def band_sweep(case, vary: str | Sequence[str] = (), *, n_bands: int | None = None, output=None, resume: bool = False,
+               restart: bool = False, executor=None, workers: int | None = None, cluster: str | None = None,
+               scheduler: str | None = None, memory_mb: float | None = None, chunk: int | None = None, progress=None,
+               action: str | None = None) -> xr.Dataset:
+    """Band edges, widths, gaps and band-edge masses of a periodic case over a grid of params (kind ``band_sweep``).
+
+    ``vary`` as for :func:`sweep` (default: the case's ``[sweep] vary``);
+    ``n_bands`` overrides ``[solve] bands``.  Where the points run, the
+    checkpoint beside ``output``, ``memory_mb``, ``chunk`` and ``progress``
+    are those of :func:`sweep`.
+    """
+    from fdsolver.bands.study import lattice_of
+    from fdsolver.scans.bandsweep import plan_band_sweep, run_band_sweep
+    from fdsolver.scans.sweep import sweep_axes
+
+    case = _case(case)
+    lattice_of(case)  # a case that is not periodic is refused before anything else
+    _scan_checks(output, resume, restart, chunk)
+    if memory_mb is not None and (isinstance(memory_mb, bool) or not memory_mb > 0):
+        raise CaseError(f"must be positive, got {memory_mb!r}", key="--memory-mb")
+    axes = sweep_axes(_texts(vary), case, "band_sweep")
+    spec = plan_band_sweep(case, axes, dict(case.overrides), n_bands, memory_mb, chunk)
+    action = action or f"bands {_where(case)} " + " ".join(f"--vary {a.text}" for a in axes)
+    return _run_on(executor, workers, cluster, scheduler,
+                   lambda ex: run_band_sweep(spec, ex, output=output, resume=resume, restart=restart, action=action,
+                                             progress=progress))

@@ -16,11 +16,17 @@ Public names (imported on first use; the lattice constructor lives in its module
     b.energy, b.energy_error, b.edges.band_bottom, b.edges.effective_mass_bottom, b.dos(E), b.bloch(0, q)
     e = band_edges(lat)                               # edges, widths, gaps, masses only (for scans)
     s = stack_bands(lat, (2, 4, 8), "hard")           # N-period stacks beside the bands
+
+The package is also the command: ``fdsolver.bands(case, ...)`` is :func:`fdsolver.api.bands` whether the
+name resolves to that function or to this package (once a submodule is imported, Python binds
+``fdsolver.bands`` to the package; calling the package forwards to the function).
 """
 
 from __future__ import annotations
 
 import importlib
+import sys
+import types
 from typing import Any
 
 _LAZY = {
@@ -35,6 +41,9 @@ _LAZY = {
     "VARIABLES": "fdsolver.bands.result",
     "StackBands": "fdsolver.bands.finite",
     "stack_bands": "fdsolver.bands.finite",
+    "BandStudy": "fdsolver.bands.study",
+    "band_study": "fdsolver.bands.study",
+    "lattice_of": "fdsolver.bands.study",
 }
 
 __all__ = sorted(_LAZY)
@@ -51,3 +60,15 @@ def __getattr__(name: str) -> Any:
 
 def __dir__() -> list[str]:
     return sorted(set(globals()) | set(_LAZY))
+
+
+class _Command(types.ModuleType):
+    """This package, callable as :func:`fdsolver.api.bands` (module docstring)."""
+
+    def __call__(self, *args, **kwargs):
+        from fdsolver.api import bands
+
+        return bands(*args, **kwargs)
+
+
+sys.modules[__name__].__class__ = _Command

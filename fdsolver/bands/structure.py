@@ -58,8 +58,8 @@ class BandSettings:
 
     ``n_bands`` bands from the lowest; ``n_wavevectors`` points on [0, pi/L] (both ends included);
     ``tolerance`` the target error relative to max(|E|, E_L) (module docstring); ``min_levels`` /
-    ``max_levels`` bound the nested cell levels of smooth potentials; ``n_dos`` energies in the
-    density-of-states table.
+    ``max_levels`` bound the nested cell levels of smooth potentials; ``n_dos`` about the number of
+    energies in the density-of-states table (:func:`dos_energies`).
     """
 
     n_bands: int = 10
@@ -227,6 +227,29 @@ def _source(model) -> Source:
     raise TypeError(f"no band source for {type(model).__name__}")
 
 
+def dos_energies(edges: BandEdges, n: int) -> np.ndarray:
+    """About ``n`` energies for the density-of-states table: every band sampled alike, however narrow.
+
+    Each band gets n / n_bands points at the midpoints of a cosine-spaced grid (dense toward its edges,
+    where g diverges as 1/sqrt|E - E_edge|, never on an edge itself); each gap gets its middle and two
+    points 1e-3 of it from its ends, and 2 % of the span below the lowest band and above the highest
+    two points each (g = 0 there).
+    """
+    nb = edges.n_bands
+    m = max(8, (n - 3 * (nb + 1)) // nb)
+    u = 0.5 * (1.0 - np.cos(np.pi * (np.arange(m) + 0.5) / m))
+    b, t = edges.band_bottom, edges.band_top
+    span = float(t[-1] - b[0])
+    parts = [np.array([b[0] - 0.02 * span, b[0] - 0.01 * span])]
+    for k in range(nb):
+        parts.append(b[k] + (t[k] - b[k]) * u)
+        hi = b[k + 1] if k + 1 < nb else t[k] + 0.02 * span
+        if hi > t[k]:
+            d = 1e-3 * (hi - t[k]) if k + 1 < nb else 0.5 * (hi - t[k])
+            parts.append(np.array([t[k] + d, 0.5 * (t[k] + hi), hi - d]) if k + 1 < nb else np.array([t[k] + d, hi]))
+    return np.unique(np.concatenate(parts))
+
+
 def band_edges(model, settings: BandSettings | None = None) -> BandEdges:
     """Band edges, widths, gaps and band-edge masses of a lattice (or comb, or Source); no wavevector grid."""
     settings = (settings or BandSettings()).checked()
@@ -242,8 +265,7 @@ def band_structure(model, settings: BandSettings | None = None) -> Bands:
     edges = _edges_result(src, settings, run)
     n = settings.n_bands
     bm = BandModel(src, run.used, run.sets)
-    span = float(edges.band_top[-1] - edges.band_bottom[0])
-    dos_e = np.linspace(edges.band_bottom[0] - 0.02 * span, edges.band_top[-1] + 0.02 * span, settings.n_dos)
+    dos_e = dos_energies(edges, settings.n_dos)
     g, g_err = bm.dos(dos_e)
     return Bands(edges, run.q, run.values["energy"].reshape(-1, n), run.errors["energy"].reshape(-1, n),
                  dos_e, g, g_err, bm)

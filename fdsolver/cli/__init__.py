@@ -1,7 +1,7 @@
 """The ``fdsolver`` command line: parse, call the API (:mod:`fdsolver.api`), print.  Nothing else lives here.
 
 Subcommands are registered from small modules (:mod:`.solve`, :mod:`.sweep`,
-:mod:`.delta`), each with ``register(subparsers)`` that adds its parser and
+:mod:`.delta`, :mod:`.bands`), each with ``register(subparsers)`` that adds its parser and
 sets ``func``; what they share is :mod:`._common`.  Exit codes:
 0 success, 2 bad input (one line naming file, key and problem, on stderr),
 1 unexpected failure (one line; the traceback only with FDSOLVER_DEBUG=1).
@@ -16,7 +16,7 @@ import sys
 from fdsolver._version import __version__
 from fdsolver.errors import CaseError, FdsolverError
 
-SUBCOMMAND_MODULES = ("solve", "delta", "sweep")
+SUBCOMMAND_MODULES = ("solve", "delta", "sweep", "bands")
 
 
 class _Parser(argparse.ArgumentParser):

@@ -41,7 +41,7 @@ OPTIONS = (("--shape", "shape"), ("--widths", "widths"), ("--tolerance", "tolera
 def run_delta(args) -> int:
     import fdsolver
     from fdsolver.cli._common import ARCHIVE_SUFFIXES, FIG_SUFFIXES, ProgressBar, check_output, command, parse_set, write_figure
-    from fdsolver.report.delta import format_delta
+    from fdsolver.report import format_archive
     from fdsolver.scans.options import read_options
 
     check_output(args.output, "--output", ARCHIVE_SUFFIXES)
@@ -69,7 +69,7 @@ def run_delta(args) -> int:
             raise CaseError("--resume and --restart continue a validity map (--map); a width ladder has no checkpoint",
                             key="--resume" if args.resume else "--restart")
         ds = fdsolver.delta_check(case, **settings, action=action)
-    print(format_delta(ds))
+    print(format_archive(ds))  # a periodic case gives a comb check
     if args.output:
         if not is_map:  # a map is written by its run, which keeps the checkpoint until then
             fdsolver.write_dataset(ds, args.output)
