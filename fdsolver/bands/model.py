@@ -96,5 +96,8 @@ class BandModel:
             x = np.linspace(src.start, src.start + src.period, points)
         x = np.asarray(x, dtype=float)
         cells = src.bloch_cells(self.levels[-1])
-        psi = bloch_values(cells, src.start, src.period, float(e[0]), q, x)
+        # the eigenvector needs the finest level's own root of D = cos(qL): at the extrapolated energy D misses
+        # it by that level's O(h^2), which a narrow band (tiny D') turns into a large admixture of the other solution
+        own = dispersion(self.levels[-1].evaluate, self.edge_sets[-1], [band], [qr], src.period, src.zone_energy)[0]
+        psi = bloch_values(cells, src.start, src.period, float(own[0, 0]), q, x)
         return BlochFunction(band, float(q), float(e[0]), float(err[0]), x, psi)

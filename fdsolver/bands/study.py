@@ -70,7 +70,9 @@ class BandStudy:
 
     ``bloch_wavevector`` (n,) in 1/length, ``bloch_energy`` (n, n_bands) and ``bloch`` (n, n_bands, x)
     complex (length^-1/2), or None; ``points`` ((position, alpha) of the point terms in the window);
-    ``stacks``: :class:`~fdsolver.bands.finite.StackBands` or None.
+    ``stacks``: :class:`~fdsolver.bands.finite.StackBands` or None, comparing ``stack_band_count`` bands;
+    ``stack_threshold``: the continuum threshold of open stacks (the cladding's band edge; inf between
+    hard walls), above which an open stack binds nothing.
     """
 
     lattice: Lattice
@@ -84,6 +86,7 @@ class BandStudy:
     bloch: np.ndarray | None = None
     stacks: StackBands | None = None
     stack_band_count: int = 0
+    stack_threshold: float = float("inf")
 
 
 def parse_numbers(text, key: str, *, whole: bool = False) -> list:
@@ -146,15 +149,18 @@ def band_study(case, *, n_bands: int | None = None, n_wavevectors: int | None = 
         q = e = psi = None
         if fractions is not None:
             q, e, psi = _bloch(b, fractions, x)
-        sb, k = None, 0
+        sb, k, threshold = None, 0, math.inf
         if ns is not None:
+            if termination == "open":
+                pot, _ = lat.finite(1, "open")
+                threshold = min(pot.asymptote(-1), pot.asymptote(1))
             k = min(settings.n_bands, STACK_BANDS if stack_band_count is None else int(stack_band_count))
             sb = stack_bands(lat, ns, termination, bands=b if k == settings.n_bands else None, n_bands=k,
                              tolerance=max(float(case.settings.tolerance), 1e-10))
     except CaseError as err:
         raise err.located(file=case.path) from None
     return BandStudy(lat, b, x, np.asarray(cell.value(x), float), np.asarray(cell.mass_at(x), float), points,
-                     q, e, psi, sb, k)
+                     q, e, psi, sb, k, threshold)
 
 
 __all__ = ["DEFAULT_BANDS", "BandStudy", "band_study", "lattice_of", "parse_numbers", "settings_of"]

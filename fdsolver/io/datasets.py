@@ -268,7 +268,8 @@ def bands_dataset(case, study, history: str) -> xr.Dataset:
     })
     if study.stacks is not None:
         sb = study.stacks
-        attrs.update({"stack_termination": sb.termination, "stack_bands": int(study.stack_band_count)})
+        attrs.update({"stack_termination": sb.termination, "stack_bands": int(study.stack_band_count),
+                      "stack_continuum_threshold": float(study.stack_threshold)})
         attrs["messages"] = "\n".join([*e.notes, *sb.messages])
     return build("bands", study, case.units, attrs)
 

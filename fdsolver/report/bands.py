@@ -95,6 +95,10 @@ def _stack_rows(ds, eu: str) -> list[str]:
     k = int(a.get("stack_bands", ds.sizes["band"]))
     where = "between hard walls at the period ends" if hard else "open, in the cladding"
     lines = [f"finite stacks of N periods ({where}), their levels in the lowest {k} band(s):"]
+    thr = float(a.get("stack_continuum_threshold", np.inf))
+    if not hard and np.isfinite(thr):
+        lines.append(f"(open stacks bind levels only below the continuum threshold {thr:.6g} {eu} of the cladding; a "
+                     "band reaching above it is filled only in part)")
     head = (f"{'N':>4}  {'band':>4}  {'levels':>6}  {'cluster bottom [' + eu + ']':>22}  {'cluster top [' + eu + ']':>22}  "
             f"{'cluster width':>13}  {'/ band width':>12}")
     lines.append(head + (f"  {'exact width':>13}" if hard else ""))
