@@ -259,8 +259,11 @@ def bands(case, *, n_bands: int | None = None, wavevectors: int | None = None, b
     from fdsolver.io.datasets import bands_dataset
 
     case = _case(case)
-    study = band_study(case, n_bands=n_bands, n_wavevectors=wavevectors, bloch=bloch, stacks=stacks,
-                       termination=termination)
+    try:
+        study = band_study(case, n_bands=n_bands, n_wavevectors=wavevectors, bloch=bloch, stacks=stacks,
+                           termination=termination)
+    except CaseError as err:  # an option's error names the case it was given with, as --vary's does
+        raise err.located(file=case.path) from None
     return bands_dataset(case, study, stamp(action or f"bands {_where(case)}"))
 
 
