@@ -149,6 +149,11 @@ def _panel_stacks(ax, ds, colors) -> None:
             if not np.isfinite(lev):
                 continue
             ax.hlines(lev, i - 0.34, i + 0.34, color=colors[b] if b >= 0 else "C3", lw=1.0 if b >= 0 else 1.6)
+    thr = float(ds.attrs.get("stack_continuum_threshold", np.inf))
+    if np.isfinite(thr):  # open stacks bind nothing above the cladding's band edge
+        ax.axhline(thr, color="0.3", ls="--", lw=0.9)
+        ax.annotate("continuum threshold\nof the cladding", (ns.size - 0.45, thr), xytext=(0, 3),
+                    textcoords="offset points", ha="right", va="bottom", fontsize=7, color="0.3")
     ax.set_xlim(-0.6, ns.size - 0.4)
     ax.set_xticks(range(ns.size), [str(int(n)) for n in ns])
     ax.set_xlabel("periods N of the finite stack")
@@ -159,13 +164,18 @@ def _panel_stacks(ax, ds, colors) -> None:
 def _panel_ratios(ax, ds, colors) -> None:
     ns = ds.n_periods.values.astype(float)
     k = int(ds.attrs.get("stack_bands", ds.sizes["band"]))
+    hard = ds.attrs.get("stack_termination") == "hard"
+    thr = float(ds.attrs.get("stack_continuum_threshold", np.inf))
     for b in range(k):
         r = ds.width_ratio.values[:, b]
-        ax.plot(ns, r, "o-", color=colors[b], ms=4, lw=1.2, label=f"band {b}: N-level cluster width / band width")
+        cut = not hard and ds.band_top.values[b] > thr  # the open stacks bind only the part below the threshold
+        ax.plot(ns, r, "o:" if cut else "o-", color=colors[b], ms=4, lw=1.2,
+                label=f"band {b}: N-level cluster width / band width"
+                + (" (reaches above the continuum threshold: filled in part)" if cut else ""))
         if "predicted_width" in ds and np.isfinite(ds.predicted_width.values[:, b]).any():
             ax.plot(ns, ds.predicted_width.values[:, b] / ds.band_width.values[b], "x", color=colors[b], ms=6)
     big = np.linspace(max(ns.min(), 2.0), ns.max(), 100)
-    if ds.attrs.get("stack_termination") == "hard":  # levels E(j pi / N L), j = 1 .. N - 1, of a cosine band
+    if hard:  # levels E(j pi / N L), j = 1 .. N - 1, of a cosine band
         ax.plot(big, np.cos(np.pi / big), color="0.4", ls="--", lw=0.9, label="cos(pi/N): a cosine band between walls")
     else:
         ax.plot(big, np.cos(np.pi / (big + 1.0)), color="0.4", ls="--", lw=0.9,
@@ -176,8 +186,9 @@ def _panel_ratios(ax, ds, colors) -> None:
     ax.set_xlabel("periods N")
     ax.set_ylabel("cluster / band width [1]")
     ax.set_ylim(-0.02, 1.05)
-    ax.legend(fontsize=7, loc="lower right", ncol=2)
-    ax.set_title("the clusters fill the minibands as N grows (x: exact hard-wall clusters)", fontsize=9)
+    ax.legend(fontsize=7, loc="upper left", ncol=2)
+    ax.set_title("the clusters fill the minibands as N grows" + (" (x: exact hard-wall clusters)" if hard else ""),
+                 fontsize=9)
     ax.grid(True, lw=0.3, alpha=0.5)
 
 
