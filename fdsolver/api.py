@@ -255,8 +255,15 @@ def bands(case, *, n_bands: int | None = None, wavevectors: int | None = None, b
     bound-state problems and set beside the bands (``termination`` "hard":
     walls at the period ends; "open": in the cladding).
     """
+    return bands_record_of(case, n_bands=n_bands, wavevectors=wavevectors, bloch=bloch, stacks=stacks,
+                           termination=termination, action=action).dataset()
+
+
+def bands_record_of(case, *, n_bands: int | None = None, wavevectors: int | None = None, bloch=None, stacks=None,
+                    termination: str = "hard", action: str | None = None) -> Record:
+    """:func:`bands` without building the Dataset (no xarray import): the archive's variables and attributes."""
     from fdsolver.bands.study import band_study
-    from fdsolver.io.datasets import bands_dataset
+    from fdsolver.io.datasets import bands_record
 
     case = _case(case)
     try:
@@ -264,7 +271,7 @@ def bands(case, *, n_bands: int | None = None, wavevectors: int | None = None, b
                            termination=termination)
     except CaseError as err:  # an option's error names the case it was given with, as --vary's does
         raise err.located(file=case.path) from None
-    return bands_dataset(case, study, stamp(action or f"bands {_where(case)}"))
+    return bands_record(case, study, stamp(action or f"bands {_where(case)}"))
 
 
 def _comb_check(case: Case, shape, widths, tolerance, from_finite, action) -> xr.Dataset:

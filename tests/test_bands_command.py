@@ -180,3 +180,15 @@ def test_bad_options_exit_2_naming_them(args, key, tmp_path, capsys):
 def test_open_stacks_need_localised_components(capsys):
     assert main(["bands", str(CASES / "optical_lattice.toml"), "--stacks", "2", "--termination", "open"]) == 2
     assert "potential[1].shape" in capsys.readouterr().err
+
+
+def test_the_printed_table_is_the_archives_table(tmp_path, capsys):
+    """Without -o the table prints from the archive's variables before any Dataset exists: it is show's table."""
+    args = ["bands", str(CASES / "delta_comb.toml"), "--bands", "2", "--wavevectors", "9", "--stacks", "2,3"]
+    assert main(args) == 0
+    fresh = capsys.readouterr().out
+    out = tmp_path / "b.nc"
+    assert main([*args, "-o", str(out)]) == 0
+    capsys.readouterr()
+    assert main(["show", str(out)]) == 0
+    assert capsys.readouterr().out == fresh

@@ -74,17 +74,19 @@ def run_bands(args) -> int:
         ds = _sweep(case, args, output, action)
         if ds is None:
             return 130
-    else:
-        ds = fdsolver.api.bands(case, n_bands=args.bands, wavevectors=args.wavevectors, bloch=args.bloch,
-                                stacks=args.stacks, termination=args.termination, action=action)
+    else:  # the table prints from the archive's variables; xarray is loaded only to write or draw
+        rec = fdsolver.api.bands_record_of(case, n_bands=args.bands, wavevectors=args.wavevectors, bloch=args.bloch,
+                                           stacks=args.stacks, termination=args.termination, action=action)
     from fdsolver.report import format_archive
 
-    print(format_archive(ds))
+    print(format_archive(ds if sweep else rec))
+    if not sweep and (output or args.plot):
+        ds = rec.dataset()
     if output:
         if not sweep:  # a sweep is written by its run, which keeps the checkpoint until then
             fdsolver.write_dataset(ds, output)
         print(f"wrote {output}")
-    write_figure(ds, args.plot)
+    write_figure(ds if output or args.plot else None, args.plot)
     return 0
 
 

@@ -252,6 +252,11 @@ def _band_attrs(case, kind: str, history: str, period: float, start: float) -> d
 def bands_dataset(case, study, history: str) -> xr.Dataset:
     """The archive of a band study (:class:`fdsolver.bands.study.BandStudy`): coordinates wavevector, band, dos_energy,
     x (one period), and bloch_wavevector, point, n_periods, level where they apply; see :data:`specs.BANDS`."""
+    return bands_record(case, study, history).dataset()
+
+
+def bands_record(case, study, history: str) -> Record:
+    """:func:`bands_dataset` without building the Dataset (no xarray import): what the band table prints from."""
     e = study.bands.edges
     attrs = _band_attrs(case, "bands", history, study.lattice.period, study.lattice.start)
     attrs.update({
@@ -271,7 +276,7 @@ def bands_dataset(case, study, history: str) -> xr.Dataset:
         attrs.update({"stack_termination": sb.termination, "stack_bands": int(study.stack_band_count),
                       "stack_continuum_threshold": float(study.stack_threshold)})
         attrs["messages"] = "\n".join([*e.notes, *sb.messages])
-    return build("bands", study, case.units, attrs)
+    return record("bands", study, case.units, attrs)
 
 
 def band_sweep_dataset(case, spec, results, history: str) -> xr.Dataset:
