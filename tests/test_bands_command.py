@@ -136,12 +136,12 @@ def test_hard_wall_stacks_are_abeles_levels(superlattice):
 
 def test_api_and_command_write_the_same_archive(tmp_path, capsys):
     ds = fdsolver.api.bands(fdsolver.load_case(CASES / "delta_comb.toml", d=3.0), n_bands=3, wavevectors=21,
-                            stacks="2,4")
+                            stacks="2,4", bloch="0,1")
     api_file = fdsolver.write_dataset(ds, tmp_path / "api.nc")
     cli_file = tmp_path / "cli.nc"
     fig = tmp_path / "b.png"
     assert main(["bands", str(CASES / "delta_comb.toml"), "--set", "d=3", "--bands", "3", "--wavevectors", "21",
-                 "--stacks", "2,4", "-o", str(cli_file), "--plot", str(fig)]) == 0
+                 "--stacks", "2,4", "--bloch", "-o", str(cli_file), "--plot", str(fig)]) == 0
     out = capsys.readouterr().out
     assert "finite stacks of N periods" in out and "m* bottom [m_e]" in out and f"wrote {cli_file}" in out
     a, b = fdsolver.open_run(api_file), fdsolver.open_run(cli_file)

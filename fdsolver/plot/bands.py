@@ -4,7 +4,8 @@
   E(q) over the first zone (-pi/L .. pi/L) with the gaps shaded and their widths written in them,
   and the density of states beside it, all on one energy axis; with finite stacks a fourth panel
   sets the levels of each N-period stack beside the bands, and a row below shows each cluster's width
-  over its band's width against N;
+  over its band's width against N; with stored Bloch functions a last row draws |psi_nq(x)|^2 over one
+  period at its energy, one panel per stored wavevector;
 * band sweep: a fan chart of the bands (filled between bottom and top) against the first swept param
   (further params at their middle value), and below, the band widths on a log scale;
 * delta-comb check: |deviation| of band edges, widths and gaps against the width on log-log axes,
@@ -46,10 +47,11 @@ def plot_bands(ds, path) -> None:
     import matplotlib.pyplot as plt
 
     stacks = "n_periods" in ds
+    bloch = "bloch_real" in ds
     ratios = [1.3, 2.6, 1.5] + ([2.2] if stacks else [])
-    fig = plt.figure(figsize=(sum(ratios) * 1.75, 8.6 if stacks else 5.6), dpi=120)
-    gs = GridSpec(2 if stacks else 1, len(ratios), figure=fig, width_ratios=ratios,
-                  height_ratios=[3, 1.25] if stacks else None)
+    heights = [3.0] + ([1.25] if stacks else []) + ([2.2] if bloch else [])
+    fig = plt.figure(figsize=(sum(ratios) * 1.75, 5.6 + 3.0 * stacks + 3.6 * bloch), dpi=120)
+    gs = GridSpec(len(heights), len(ratios), figure=fig, width_ratios=ratios, height_ratios=heights)
     ax_v = fig.add_subplot(gs[0, 0])
     ax_q = fig.add_subplot(gs[0, 1], sharey=ax_v)
     ax_d = fig.add_subplot(gs[0, 2], sharey=ax_v)
@@ -76,8 +78,10 @@ def plot_bands(ds, path) -> None:
         ax_s = fig.add_subplot(gs[0, 3], sharey=ax_v)
         _panel_stacks(ax_s, ds, colors)
         _panel_ratios(fig.add_subplot(gs[1, :]), ds, colors)
+    if bloch:
+        _panels_bloch(fig, gs[len(heights) - 1, :], ds, colors, eu, lu)
     ax_v.set_ylim(*ylim)
-    for ax in fig.axes[1:4]:
+    for ax in fig.axes[1:4 if stacks else 3]:  # the panels beside the potential share its energy axis
         ax.tick_params(labelleft=False)
     fig.suptitle(f"{ds.attrs.get('title', '')}: Bloch bands", fontsize=10)
     save(fig, path, rect=(0, 0, 1, 0.97))
@@ -159,6 +163,42 @@ def _panel_stacks(ax, ds, colors) -> None:
     ax.set_xlabel("periods N of the finite stack")
     where = "hard walls" if ds.attrs.get("stack_termination") == "hard" else "open, in the cladding"
     ax.set_title(f"levels of N-period stacks ({where});\nred: in a gap", fontsize=9)
+
+
+def _panels_bloch(fig, cell, ds, colors, eu, lu) -> None:
+    """|psi_nq(x)|^2 over one period, one panel per stored wavevector, each drawn at its energy E_n(q)."""
+    qs = ds.bloch_wavevector.values
+    shown = min(qs.size, 4)
+    sub = cell.subgridspec(1, shown, wspace=0.08)
+    x, v = ds.x.values, ds.potential.values
+    dens = ds.bloch_real.values ** 2 + ds.bloch_imag.values ** 2  # (q, band, x), 1/length
+    energy = ds.bloch_energy.values
+    bottom, top = ds.band_bottom.values, ds.band_top.values
+    lo = min(float(np.min(v)), float(bottom[0]))
+    hi = float(top[-1])
+    step = (hi - lo) / (2.0 * max(len(bottom), 1))  # the tallest |psi|^2 of a band is drawn this high
+    period = float(ds.attrs["period"])
+    first = None
+    for i in range(shown):
+        ax = fig.add_subplot(sub[0, i], sharey=first)
+        first = first or ax
+        ax.plot(x, v, color="k", lw=1.0)
+        for n in range(dens.shape[1]):
+            d = dens[i, n]
+            ax.fill_between(x, energy[i, n], energy[i, n] + step * d / max(float(d.max()), 1e-300),
+                            color=colors[n], alpha=0.55, lw=0.6)
+            ax.axhline(energy[i, n], color=colors[n], lw=0.5)
+        frac = qs[i] * period / np.pi
+        ax.set_title(f"q = {frac:.3g} π/L", fontsize=9)
+        ax.set_xlim(x[0], x[-1])
+        ax.set_ylim(lo - 0.05 * (hi - lo), hi + step * 1.1)
+        ax.set_xlabel(f"x over one period [{lu}]")
+        if i == 0:
+            ax.set_ylabel(f"energy [{eu}]")
+        else:
+            ax.tick_params(labelleft=False)
+    first.annotate("Bloch functions |ψ(x)|² (each scaled to its own peak), drawn at E_n(q)", (0, 1), xytext=(0, 16),
+                   xycoords="axes fraction", textcoords="offset points", fontsize=9, va="bottom")
 
 
 def _panel_ratios(ax, ds, colors) -> None:
