@@ -29,7 +29,8 @@ class _Parser(argparse.ArgumentParser):
 def build_parser() -> argparse.ArgumentParser:
     import importlib
 
-    parser = _Parser(prog="fdsolver", description="Bound states of 1D potentials on adaptive finite-difference grids.")
+    parser = _Parser(prog="fdsolver", description="Bound states of 1D potentials on adaptive finite-difference grids, and Bloch bands "
+                        "of periodic ones.")
     parser.add_argument("--version", action="version", version=f"fdsolver {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     for name in SUBCOMMAND_MODULES:
