@@ -152,7 +152,7 @@ def through_the_api(runs: int, n_sweep: int, cal: float) -> bool:
     import fdsolver.api
 
     case = Path(__file__).resolve().parents[1] / "cases" / "superlattice.toml"
-    fn = lambda: fdsolver.api.bands(case, n_bands=10, wavevectors=200)  # noqa: E731
+    fn = lambda: fdsolver.api.bands(case, n_bands=10, wavevectors=200)
     fn()
     best, med, ds = timed(fn, runs)
     ok = best < 1.0

@@ -9,8 +9,8 @@
 * band sweep: a fan chart of the bands (filled between bottom and top) against the first swept param
   (further params at their middle value), and below, the band widths on a log scale;
 * delta-comb check: |deviation| of band edges, widths and gaps against the width on log-log axes,
-  with the first-order law, the tolerance and the validity widths, and the finite lattices' bands
-  against the width with the comb's edges as dashed lines.
+  with the first-order law, the tolerance and the validity widths, and a bar chart of the validity
+  width per band beside the first-order estimate tolerance / |a|.
 """
 
 from __future__ import annotations
@@ -268,7 +268,7 @@ def plot_comb_check(ds, path) -> None:
     """Deviations of the finite lattices from the delta comb against width, and their bands (module docstring)."""
     fig, axes = figure(2, 2, width=11.5, height=8.6)
     w = ds.width.values
-    lu, eu = units_of(ds, "width"), units_of(ds, "band_bottom")
+    lu = units_of(ds, "width")
     tol = float(ds.attrs["tolerance"])
     nb = ds.sizes["band"]
     colors = _band_colors(nb)
