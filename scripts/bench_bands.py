@@ -64,11 +64,11 @@ def superlattice(barrier: float = 2.5):
     from fdsolver.bands.lattice import lattice
     from fdsolver.model.potential import Potential
     from fdsolver.model.stack import Layer, LayerStack
-    from fdsolver.model.units import get_units
+    from fdsolver.model.units import UNIT_SYSTEMS
 
     stack = LayerStack((Layer("clad", math.inf, 230.0, 0.092), Layer("well", 6.0, 0.0, 0.067),
                         Layer("barrier", barrier, 230.0, 0.092), Layer("clad", math.inf, 230.0, 0.092)))
-    return lattice(Potential((), get_units("nm-meV"), 0.067, stack))
+    return lattice(Potential((), UNIT_SYSTEMS["nm-meV"], 0.067, stack))
 
 
 def cosine(depth_er: float = 10.0, period: float = 1.0):

@@ -34,12 +34,12 @@ from fdsolver.input.case import case_from_dict
 from fdsolver.model import shapes as S
 from fdsolver.model.potential import Potential
 from fdsolver.model.stack import Layer, LayerStack
-from fdsolver.model.units import get_units
+from fdsolver.model.units import UNIT_SYSTEMS
 from fdsolver.zerorange.comb import comb, comb_bands
 
 mp.mp.dps = 40
-ATOMIC = get_units("atomic")
-NM_MEV = get_units("nm-meV")
+ATOMIC = UNIT_SYSTEMS["atomic"]
+NM_MEV = UNIT_SYSTEMS["nm-meV"]
 
 
 class Closed:

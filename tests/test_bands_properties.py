@@ -30,9 +30,9 @@ from fdsolver.input.case import case_from_dict
 from fdsolver.model import shapes as S
 from fdsolver.model.potential import Potential
 from fdsolver.model.stack import Layer, LayerStack
-from fdsolver.model.units import get_units
+from fdsolver.model.units import UNIT_SYSTEMS
 
-ATOMIC = get_units("atomic")
+ATOMIC = UNIT_SYSTEMS["atomic"]
 
 
 def kp_lattice(v0=5.0, a=1.5, b=0.5, start=None):
