@@ -10,6 +10,8 @@ Public API (every name is imported on first use, so ``import fdsolver`` stays li
     th = fdsolver.threshold(case, "d=0.1:6")               # where a state binds, no box
     dc = fdsolver.delta_check(case)                       # finite wells vs point model, over widths
     dm = fdsolver.delta_map(case, ["width=0.01:1:20", "d=5:15:20"])
+    b = fdsolver.bands("cases/superlattice.toml", stacks="2,4,8")   # Bloch bands of a periodic case
+    bs = fdsolver.band_sweep("cases/superlattice.toml", ["barrier=1:6:100"])   # band edges over a param
 
 Every call returns the Dataset the command line writes (see :mod:`fdsolver.api`).
 Cases can also be built in code with :func:`case_from_dict` (the TOML schema
@@ -46,6 +48,8 @@ _LAZY = {
     "threshold": "fdsolver.api",
     "delta_check": "fdsolver.api",
     "delta_map": "fdsolver.api",
+    "bands": "fdsolver.api",
+    "band_sweep": "fdsolver.api",
 }
 
 __all__ = sorted(_LAZY) + ["__version__"]

@@ -9,7 +9,14 @@ call                   what                                                archi
 :func:`delta_check`    finite wells against the zero-range point model,    ``delta_check``
                        over a ladder of widths
 :func:`delta_map`      the same comparison over a plane of two params      ``delta_check`` (a map)
+:func:`bands`          Bloch bands of a periodic case (and N-period         ``bands``
+                       stacks beside them)
+:func:`band_sweep`     band edges, widths, gaps and masses over a grid     ``band_sweep``
+                       of param values
 =====================  ==================================================  =======================
+
+:func:`delta_check` of a periodic case compares its delta comb with combs of finite wells or
+barriers (kind ``comb_check``).
 
 ``case`` is a :class:`~fdsolver.input.case.Case` (params already set with
 ``load_case(path, NAME=value)`` stay fixed in a scan) or the path of a case
@@ -30,6 +37,7 @@ from fdsolver.input.case import Case, case_from_text, load_case
 from fdsolver.io.archive import stamp
 from fdsolver.io.datasets import solve_record
 from fdsolver.limits import MAX_SCAN
+from fdsolver.runs import not_periodic as _not_periodic
 from fdsolver.runs import solve_case
 
 if TYPE_CHECKING:
@@ -151,6 +159,7 @@ def sweep(case, vary: str | Sequence[str] = (), *, save_psi: bool = False, outpu
     from fdsolver.scans.sweep import plan_sweep, run_sweep, sweep_axes
 
     case = _case(case)
+    _not_periodic(case, f"fdsolver bands {_where(case)} --vary ... (or fdsolver.band_sweep(case, vary))")
     _scan_checks(output, resume, restart, chunk)
     fixed = dict(case.overrides)
     axes = sweep_axes(_texts(vary), case)
@@ -175,6 +184,7 @@ def threshold(case, vary: str, *, state: int | None = None, scan: int = 129, rto
     from fdsolver.scans.thresholds import find_thresholds
 
     case = _case(case)
+    _not_periodic(case, f"fdsolver bands {_where(case)} --vary ... to follow its band edges")
     if state is not None and (isinstance(state, bool) or not isinstance(state, int) or state < 0):
         raise CaseError(f"a state label is its node count, 0 or more; got {state}", key="--state")
     if isinstance(scan, bool) or not isinstance(scan, int) or not 3 <= scan <= MAX_SCAN:
@@ -208,6 +218,8 @@ def delta_check(case, *, shape: str | None = None, widths=None, tolerance: float
     case = _case(case)
     if from_finite and shape is not None:
         raise CaseError("--shape chooses the wells that replace points; --from-finite uses the case's own wells", key="--shape")
+    if case.domain.periodic:
+        return _comb_check(case, shape, widths, tolerance, from_finite, action)
     options = read_options(case, shape=shape, widths=widths, tolerance=tolerance, from_finite=from_finite)
     if options.from_finite and options.widths is not None:
         raise CaseError("--widths sets the replacement widths; --from-finite keeps the case's own wells", key="--widths")
@@ -232,6 +244,7 @@ def delta_map(case, maps: Sequence[str] | None = None, *, shape: str | None = No
     from fdsolver.scans.options import read_options
 
     case = _case(case)
+    _not_periodic(case, f"fdsolver delta-check {_where(case)} (without --map: the comb check of its bands)")
     _scan_checks(output, resume, restart, chunk)
     if from_finite and shape is not None:
         raise CaseError("--shape chooses the wells that replace points; --from-finite uses the case's own wells", key="--shape")
@@ -242,3 +255,77 @@ def delta_map(case, maps: Sequence[str] | None = None, *, shape: str | None = No
     return _run_on(executor, workers, cluster, scheduler,
                    lambda ex: run_map(spec, ex, case=case, output=output, resume=resume, restart=restart, action=action,
                                       progress=progress, before_write=before_write))
+
+
+
+# ------------------------------------------------------------------ periodic cases
+def bands(case, *, n_bands: int | None = None, wavevectors: int | None = None, bloch=None, stacks=None,
+          termination: str = "hard", action: str | None = None) -> xr.Dataset:
+    """Bloch bands of a periodic case (kind ``bands``): edges, widths, gaps, band-edge masses, E_n(q), density of states.
+
+    ``n_bands`` and ``wavevectors`` override the case's ``[solve] bands`` and
+    ``wavevectors``.  ``bloch``: wavevectors in units of pi/L ("0,1" or a
+    list) at which every band's Bloch function is stored.  ``stacks``:
+    numbers of periods N ("2,4,8,16" or a list) of finite stacks, solved as
+    bound-state problems and set beside the bands (``termination`` "hard":
+    walls at the period ends; "open": in the cladding).
+    """
+    return bands_record_of(case, n_bands=n_bands, wavevectors=wavevectors, bloch=bloch, stacks=stacks,
+                           termination=termination, action=action).dataset()
+
+
+def bands_record_of(case, *, n_bands: int | None = None, wavevectors: int | None = None, bloch=None, stacks=None,
+                    termination: str = "hard", action: str | None = None) -> Record:
+    """:func:`bands` without building the Dataset (no xarray import): the archive's variables and attributes."""
+    from fdsolver.bloch.study import band_study
+    from fdsolver.io.datasets import bands_record
+
+    case = _case(case)
+    try:
+        study = band_study(case, n_bands=n_bands, n_wavevectors=wavevectors, bloch=bloch, stacks=stacks,
+                           termination=termination)
+    except CaseError as err:  # an option's error names the case it was given with, as --vary's does
+        raise err.located(file=case.path) from None
+    return bands_record(case, study, stamp(action or f"bands {_where(case)}"))
+
+
+def _comb_check(case: Case, shape, widths, tolerance, from_finite, action) -> xr.Dataset:
+    """:func:`delta_check` of a periodic case: its delta comb against finite lattices (kind ``comb_check``)."""
+    from fdsolver.io.datasets import comb_check_dataset
+    from fdsolver.scans.options import read_options
+    from fdsolver.zerorange.combcheck import check_case
+
+    options = read_options(case, shape=shape, widths=widths, tolerance=tolerance, from_finite=from_finite)
+    if options.maps:
+        raise CaseError("a validity map (--map, [delta_check] map) is for bound states; a periodic case gets the comb "
+                        "check over a width ladder", file=case.path, key="delta_check.map")
+    check = check_case(case, options)
+    return comb_check_dataset(case, check, stamp(action or f"delta-check {_where(case)}"))
+
+
+def band_sweep(case, vary: str | Sequence[str] = (), *, n_bands: int | None = None, output=None, resume: bool = False,
+               restart: bool = False, executor=None, workers: int | None = None, cluster: str | None = None,
+               scheduler: str | None = None, memory_mb: float | None = None, chunk: int | None = None, progress=None,
+               action: str | None = None) -> xr.Dataset:
+    """Band edges, widths, gaps and band-edge masses of a periodic case over a grid of params (kind ``band_sweep``).
+
+    ``vary`` as for :func:`sweep` (default: the case's ``[sweep] vary``);
+    ``n_bands`` overrides ``[solve] bands``.  Where the points run, the
+    checkpoint beside ``output``, ``memory_mb``, ``chunk`` and ``progress``
+    are those of :func:`sweep`.
+    """
+    from fdsolver.bloch.study import lattice_of
+    from fdsolver.scans.bandsweep import plan_band_sweep, run_band_sweep
+    from fdsolver.scans.sweep import sweep_axes
+
+    case = _case(case)
+    lattice_of(case)  # a case that is not periodic is refused before anything else
+    _scan_checks(output, resume, restart, chunk)
+    if memory_mb is not None and (isinstance(memory_mb, bool) or not memory_mb > 0):
+        raise CaseError(f"must be positive, got {memory_mb!r}", key="--memory-mb")
+    axes = sweep_axes(_texts(vary), case, "band_sweep")
+    spec = plan_band_sweep(case, axes, dict(case.overrides), n_bands, memory_mb, chunk)
+    action = action or f"bands {_where(case)} " + " ".join(f"--vary {a.text}" for a in axes)
+    return _run_on(executor, workers, cluster, scheduler,
+                   lambda ex: run_band_sweep(spec, ex, output=output, resume=resume, restart=restart, action=action,
+                                             progress=progress))

@@ -17,9 +17,19 @@ if TYPE_CHECKING:
     from fdsolver.input.case import Case
 
 
+def not_periodic(case: Case, instead: str | None = None) -> None:
+    """CaseError for a periodic case given to a bound-state command: it has bands; say what to run instead."""
+    if case.domain.periodic:
+        where = str(case.path or case.title)
+        instead = instead or f"fdsolver bands {where} (or fdsolver.bands(case))"
+        raise CaseError(f"the case is periodic: it has Bloch bands, not bound states; run {instead}",
+                        file=case.path, key="domain.boundary")
+
+
 def solve_case(case: Case) -> Solution:
     """Solve ``case`` and return the raw :class:`~fdsolver.boundstates.result.Solution` (one BLAS thread while
-    it runs: :mod:`fdsolver.numerics.threads`)."""
+    it runs: :mod:`fdsolver.numerics.threads`); a periodic case is refused (:func:`not_periodic`)."""
+    not_periodic(case)
     try:
         with one_blas_thread():
             return solve_potential(case.potential, case.domain, case.settings)

@@ -26,6 +26,7 @@ import pytest
 from scipy.constants import physical_constants
 
 import fdsolver
+import fdsolver.api
 from fdsolver.io.specs import KINDS, kind_of
 
 cf_units = pytest.importorskip("cf_units", reason="the test extra installs cf-units")
@@ -38,6 +39,12 @@ ATOMIC = {  # an invented pair of square wells in Hartree atomic units; d and V0
     "potential": [{"shape": "square", "center": "-d/2", "width": "w", "depth": "V0"},
                   {"shape": "square", "center": "d/2", "width": "w", "depth": "V0"}],
 }
+ATOMIC_LATTICE = {  # an invented lattice of one point per period and a square barrier, in atomic units
+    "title": "atomic-unit lattice (invented)", "units": "atomic", "params": {"L": 2.0, "alpha": 1.0},
+    "potential": [{"shape": "point", "center": 0.0, "strength": "alpha"},
+                  {"shape": "square", "center": 1.0, "width": 0.5, "height": 2.0}],
+    "domain": {"boundary": "periodic", "period": "L"}, "solve": {"bands": 3, "wavevectors": 11},
+}
 ATOMIC_POINTS = {  # the same as two point interactions
     "title": "atomic-unit point pair (invented)", "units": "atomic", "params": {"d": 4.0, "alpha": 1.0},
     "potential": [{"shape": "point", "center": "-d/2", "strength": "alpha"},
@@ -49,6 +56,7 @@ def _archives(folder: Path) -> dict[str, Path]:
     atomic = fdsolver.case_from_dict(ATOMIC)
     points = fdsolver.case_from_dict(ATOMIC_POINTS)
     pair = fdsolver.load_case(CASES / "impurity_pair.toml")
+    lattice = fdsolver.case_from_dict(ATOMIC_LATTICE)
     made = {
         "solve": fdsolver.solve(fdsolver.load_case(CASES / "coupled_wells.toml")),
         "solve atomic": fdsolver.solve(atomic),
@@ -62,6 +70,13 @@ def _archives(folder: Path) -> dict[str, Path]:
         "delta_check from finite": fdsolver.delta_check(CASES / "impurity_pair_finite.toml", from_finite=True),
         "delta_map": fdsolver.delta_map(pair, ["width=0.3:6:3", "d=9.2:10.6:3"], executor="serial"),
         "delta_map atomic": fdsolver.delta_map(points, ["width=0.01:1:3", "d=2:6:3"], executor="serial"),
+        "bands": fdsolver.api.bands(CASES / "superlattice.toml", wavevectors=11, bloch="0,1", stacks="2,3"),
+        "bands atomic": fdsolver.api.bands(lattice, bloch="0.5", stacks="2", termination="open"),
+        "band_sweep": fdsolver.band_sweep(CASES / "superlattice.toml", ["barrier=2:4:3"], executor="serial"),
+        "band_sweep atomic": fdsolver.band_sweep(lattice, ["alpha=0.5:1.5:3", "L=2,3"], executor="serial"),
+        "comb_check": fdsolver.delta_check(CASES / "delta_comb.toml", widths="0.01:0.5:3"),
+        "comb_check atomic": fdsolver.delta_check(fdsolver.case_from_dict({**ATOMIC_LATTICE, "potential":
+                                                  ATOMIC_LATTICE["potential"][:1]}), widths="0.01:0.5:3"),
     }
     out = {}
     for name, ds in made.items():
@@ -75,7 +90,8 @@ def archives(tmp_path_factory) -> dict[str, Path]:
 
 
 NAMES = ["solve", "solve atomic", "sweep", "sweep atomic", "sweep atomic two params", "threshold", "threshold atomic",
-         "delta_check", "delta_check atomic", "delta_check from finite", "delta_map", "delta_map atomic"]
+         "delta_check", "delta_check atomic", "delta_check from finite", "delta_map", "delta_map atomic",
+         "bands", "bands atomic", "band_sweep", "band_sweep atomic", "comb_check", "comb_check atomic"]
 
 
 def test_every_archive_kind_is_covered(archives):
@@ -98,9 +114,9 @@ def test_every_units_attribute_is_a_udunits_unit(archives, name):
         seen += 1
     assert seen >= 5
     if "atomic" in name:  # bohr and hartree are written as scaled SI units (CODATA, scipy.constants), named beside them
-        energy = ds["energy" if "energy" in ds else "threshold_value"]
+        energy = ds["energy" if "energy" in ds else ("band_bottom" if "band_bottom" in ds else "threshold_value")]
         hartree = physical_constants["Hartree energy"][0]
-        if energy.name == "energy":
+        if energy.name in ("energy", "band_bottom"):
             assert energy.attrs["units_name"] == "hartree"
             assert cf_units.Unit(energy.attrs["units"]).convert(1.0, "J") == pytest.approx(hartree, rel=1e-12)
         lengths = [v for v in ds.variables.values() if v.attrs.get("units_name") == "bohr"]

@@ -14,7 +14,9 @@ class SolveSettings:
     ``tolerance`` is the target error of every energy relative to |E|;
     ``max_states`` the most states returned; ``energy_window`` (low, high) in
     the case energy unit restricts them; ``memory_mb`` bounds the grid;
-    ``max_levels`` / ``min_levels`` bound the nested refinements.
+    ``max_levels`` / ``min_levels`` bound the nested refinements.  A periodic
+    case reads ``bands`` (None: the command's default) and ``wavevectors``
+    (:mod:`fdsolver.bloch`).
     """
 
     tolerance: float = 1e-8
@@ -24,3 +26,5 @@ class SolveSettings:
     max_levels: int = 9
     min_levels: int = 3
     grid: GridSettings = field(default_factory=GridSettings)
+    bands: int | None = None
+    wavevectors: int = 101

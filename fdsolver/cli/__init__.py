@@ -1,7 +1,7 @@
 """The ``fdsolver`` command line: parse, call the API (:mod:`fdsolver.api`), print.  Nothing else lives here.
 
 Subcommands are registered from small modules (:mod:`.solve`, :mod:`.sweep`,
-:mod:`.delta`), each with ``register(subparsers)`` that adds its parser and
+:mod:`.delta`, :mod:`.bands`), each with ``register(subparsers)`` that adds its parser and
 sets ``func``; what they share is :mod:`._common`.  Exit codes:
 0 success, 2 bad input (one line naming file, key and problem, on stderr),
 1 unexpected failure (one line; the traceback only with FDSOLVER_DEBUG=1).
@@ -17,7 +17,7 @@ import warnings
 from fdsolver._version import __version__
 from fdsolver.errors import CaseError, FdsolverError
 
-SUBCOMMAND_MODULES = ("solve", "delta", "sweep")
+SUBCOMMAND_MODULES = ("solve", "delta", "sweep", "bands")
 
 
 class _Parser(argparse.ArgumentParser):
@@ -30,7 +30,8 @@ class _Parser(argparse.ArgumentParser):
 def build_parser() -> argparse.ArgumentParser:
     import importlib
 
-    parser = _Parser(prog="fdsolver", description="Bound states of 1D potentials on adaptive finite-difference grids.")
+    parser = _Parser(prog="fdsolver", description="Bound states of 1D potentials on adaptive finite-difference grids, and Bloch bands "
+                        "of periodic ones.")
     parser.add_argument("--version", action="version", version=f"fdsolver {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     for name in SUBCOMMAND_MODULES:

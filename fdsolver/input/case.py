@@ -32,13 +32,14 @@ from fdsolver.input.schema import LAYER, TOP, check_keys, check_section, compone
 from fdsolver.input.tables import BOM, parse_table, read_table, regular_file
 from fdsolver.limits import MAX_COMPONENTS, MAX_LAYERS, MAX_MEMORY_MB, MAX_PARAMS, MAX_STATES, MAX_STORED_CASE_BYTES
 from fdsolver.model.domain import Domain
+from fdsolver.model.periodic import period_window
 from fdsolver.model.potential import Potential
 from fdsolver.model.shapes import COUNT, SHAPES, TEXT, BuildContext, Shape
 from fdsolver.model.stack import Layer, LayerStack
 from fdsolver.model.units import UNIT_SYSTEMS, UnitSystem
 from fdsolver.numerics.grid import GridSettings
 
-BOUNDARIES = ("open", "hard")
+BOUNDARIES = ("open", "hard", "periodic")
 #: names a param may not take (read after Unicode NFKC normalisation): the position, the constants, the functions
 RESERVED = frozenset({"x", "pi", "e"}) | FUNCTION_NAMES
 #: the two ways to give the amplitude of a signed shape
@@ -191,6 +192,40 @@ def _build_stack(layers, params, mass, origin, file) -> LayerStack:
     return LayerStack(tuple(out), origin)  # a single layer is a flat stack over the whole line
 
 
+def _build_periodic_stack(layers, params, mass, origin, file) -> LayerStack:
+    """The layers of a periodic case: those with a thickness are one period, left to right.
+
+    A first and/or last layer without a thickness is the cladding of finite N-period stacks (one
+    given serves both sides); without one, the period's layer with the highest band edge is.
+    """
+    if not isinstance(layers, list) or not layers:
+        raise CaseError("[[layer]] must be a non-empty array of tables", file=file, key="layer")
+    n = len(layers)
+    inner, clad = [], {}
+    for i, lay in enumerate(layers, start=1):
+        where = f"layer[{i}]"
+        if not isinstance(lay, Mapping):
+            raise CaseError("each [[layer]] entry must be a table", file=file, key=where)
+        check_keys(lay, LAYER, file, where)
+        end = i == 1 or i == n
+        thick = F.number(lay, "thickness", params, file, where, positive=True, required=not end)
+        layer = Layer(F.name_of(lay, file, where), math.inf if thick is None else float(thick),
+                      F.number(lay, "band_edge", params, file, where), F.mass(lay, "mass", params, file, where, default=mass))
+        if thick is None:
+            clad["left" if i == 1 else "right"] = layer
+        else:
+            inner.append(layer)
+    if not inner:
+        raise CaseError("a periodic stack needs layers with a thickness (one period); the first and last layers "
+                        "without one are only the cladding of finite stacks", file=file, key="layer")
+    if not clad:
+        top = max(inner, key=lambda layer: layer.band_edge)
+        clad = {"left": replace(top, thickness=math.inf)}
+    left = clad.get("left", clad.get("right"))
+    right = clad.get("right", left)
+    return LayerStack((left, *inner, right), origin)
+
+
 # -------------------------------------------------------------------- entry
 def load_case(path, **overrides) -> Case:
     """Read and validate the case file at ``path``; keyword arguments override [params] entries."""
@@ -260,7 +295,10 @@ def case_from_dict(data: Mapping[str, Any], *, path=None, text=None, overrides=N
         raise CaseError("use [[potential]] (an array of tables), one per component", file=file, key="potential")
     ctx = _context(params, units, mass, file, base_dir, tables, read_files)
     shapes = tuple(_build_shape(i, c, ctx, file) for i, c in enumerate(comps, start=1))
-    stack = _build_stack(data["layer"], params, mass, origin, file) if "layer" in data else None
+    dom = data.get("domain")
+    periodic = isinstance(dom, Mapping) and dom.get("boundary") == "periodic"
+    build_stack = _build_periodic_stack if periodic else _build_stack
+    stack = build_stack(data["layer"], params, mass, origin, file) if "layer" in data else None
     if not shapes and stack is None:
         raise CaseError("the case defines no potential: add [[potential]] components or a [[layer]] stack", file=file, key="potential")
     potential = Potential(shapes, units, mass, stack)
@@ -320,6 +358,12 @@ def _params(data: Mapping, overrides, file) -> dict[str, float]:
 def _domain(data, params, potential: Potential, file) -> Domain:
     table = check_section(data, "domain", file)
     boundary = F.text(table, "boundary", file, "domain", choices=BOUNDARIES, default="open")
+    if boundary == "periodic":
+        return _periodic_domain(table, params, potential, file)
+    for key in ("period", "start"):
+        if key in table:
+            raise CaseError(f'{key} belongs to a periodic case; set boundary = "periodic" or remove it', file=file,
+                            key=f"domain.{key}")
     left = F.number(table, "left", params, file, "domain", required=False)
     right = F.number(table, "right", params, file, "domain", required=False)
     if boundary == "hard" and (left is None or right is None):
@@ -345,6 +389,21 @@ def _domain(data, params, potential: Potential, file) -> Domain:
     return Domain(boundary, left, right)
 
 
+def _periodic_domain(table, params, potential: Potential, file) -> Domain:
+    """One period: ``period`` and ``start`` checked against the potential (:func:`fdsolver.model.periodic.period_window`)."""
+    for key in ("left", "right"):
+        if key in table:
+            raise CaseError("a periodic case has no walls and no box: give period (and start), not left and right",
+                            file=file, key=f"domain.{key}")
+    period = F.number(table, "period", params, file, "domain", positive=True, required=False)
+    start = F.number(table, "start", params, file, "domain", required=False)
+    try:
+        period, start = period_window(potential, period, start)
+    except CaseError as err:
+        raise err.located(file=file) from None
+    return Domain("periodic", None, None, period, start)
+
+
 def _settings(data, params, file) -> SolveSettings:
     table = check_section(data, "solve", file)
     tol = F.number(table, "tolerance", params, file, "solve", default=1e-8, positive=True)
@@ -366,7 +425,9 @@ def _settings(data, params, file) -> SolveSettings:
         if not lo < hi:
             raise CaseError(f"low ({lo:g}) must be below high ({hi:g})", file=file, key="solve.energy_window")
         window = (lo, hi)
-    return SolveSettings(tol, max_states, window, mem, levels, 3, GridSettings())
+    bands = F.whole(table, "bands", file, "solve", None, 1, 10000)
+    wavevectors = F.whole(table, "wavevectors", file, "solve", 101, 2, 100000)
+    return SolveSettings(tol, max_states, window, mem, levels, 3, GridSettings(), bands, wavevectors)
 
 
 # ---------------------------------------------------------------- writing

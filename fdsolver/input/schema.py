@@ -57,9 +57,12 @@ LAYER: dict[str, Key] = {
 }
 
 DOMAIN: dict[str, Key] = {
-    "boundary": Key('"open" (the whole line) or "hard" (walls at left and right)', TEXT),
+    "boundary": Key('"open" (the whole line), "hard" (walls at left and right) or "periodic" (one period given)', TEXT),
     "left": Key("left wall, or least left extent of the box", LENGTH),
     "right": Key("right wall, or least right extent of the box", LENGTH),
+    "period": Key("length L of one period (periodic; default: the thicknesses of the layers with one)", LENGTH),
+    "start": Key("left end of the period window [start, start + L) (periodic; default: centred on the components, "
+                 "or the stack origin)", LENGTH),
 }
 
 SOLVE: dict[str, Key] = {
@@ -68,6 +71,8 @@ SOLVE: dict[str, Key] = {
     "energy_window": Key("[low, high]: only states in this energy range", ENERGY),
     "memory_mb": Key("memory budget of the grid, MB", NUMBER),
     "max_levels": Key("most nested grid levels", COUNT),
+    "bands": Key("number of Bloch bands from the lowest (periodic; default 10, delta-check 4)", COUNT),
+    "wavevectors": Key("wavevectors q on [0, pi/L], both ends included (periodic; default 101)", COUNT),
 }
 
 SWEEP: dict[str, Key] = {

@@ -12,6 +12,9 @@ adds the kind's global attributes:
 :func:`threshold_dataset`  a threshold search (:class:`fdsolver.boundstates.counting.Search`)
 :func:`ladder_dataset`  a zero-range check over widths (:class:`fdsolver.zerorange.ladder.Ladder`)
 :func:`map_dataset`    a zero-range validity map (:class:`fdsolver.scans.maps.MapResults`)
+:func:`bands_dataset`  Bloch bands of a periodic case (:class:`fdsolver.bloch.study.BandStudy`)
+:func:`band_sweep_dataset`  band edges over a parameter sweep (:class:`fdsolver.scans.bandsweep.BandResults`)
+:func:`comb_check_dataset`  a delta comb against finite lattices (:class:`fdsolver.zerorange.combcheck.CombCheck`)
 =====================  =====================================================
 
 :func:`check` is the reader's side: it refuses a Dataset whose variables do
@@ -234,6 +237,76 @@ def map_dataset(case, spec, results, history: str) -> xr.Dataset:
         "messages": "\n".join(results.notes()[:MESSAGES_SHOWN]),
     })
     return build("delta_map", results.arrays(spec.tolerance), case.units, attrs, axes=spec.axes)
+
+
+# ------------------------------------------------------------ periodic cases
+def _band_attrs(case, kind: str, history: str, period: float, start: float) -> dict:
+    attrs = base_attrs(case, kind, history)
+    attrs.update({"boundary": "periodic", "period": float(period), "period_start": float(start)})
+    return attrs
+
+
+def bands_dataset(case, study, history: str) -> xr.Dataset:
+    """The archive of a band study (:class:`fdsolver.bloch.study.BandStudy`): coordinates wavevector, band, dos_energy,
+    x (one period), and bloch_wavevector, point, n_periods, level where they apply; see :data:`specs.BANDS`."""
+    return bands_record(case, study, history).dataset()
+
+
+def bands_record(case, study, history: str) -> Record:
+    """:func:`bands_dataset` without building the Dataset (no xarray import): what the band table prints from."""
+    e = study.bands.edges
+    attrs = _band_attrs(case, "bands", history, study.lattice.period, study.lattice.start)
+    attrs.update({
+        "method": e.method,
+        "tolerance": float(e.tolerance),
+        "zone_energy": float(e.energy_scale),
+        "zone_energy_note": "E_L = hbar^2 pi^2 / (2 m_min L^2): free-particle energy at the zone boundary (the recoil "
+                            "energy of an optical lattice of period L), in the energy unit",
+        "cell_levels": int(e.levels),
+        "cells": int(e.cells),
+        "density_of_states_note": "per unit length and energy for one spin orientation (twice that for "
+                                  "spin-degenerate electrons)",
+        "messages": "\n".join(e.notes),
+    })
+    if study.stacks is not None:
+        sb = study.stacks
+        attrs.update({"stack_termination": sb.termination, "stack_bands": int(study.stack_band_count),
+                      "stack_continuum_threshold": float(study.stack_threshold)})
+        attrs["messages"] = "\n".join([*e.notes, *sb.messages])
+    return record("bands", study, case.units, attrs)
+
+
+def band_sweep_dataset(case, spec, results, history: str) -> xr.Dataset:
+    """The archive of a band-edge sweep: one dimension per swept param plus ``band``; see :data:`specs.BAND_SWEEP`."""
+    values = results.arrays()
+    notes = results.notes()
+    attrs = base_attrs(case, "band_sweep", history)
+    attrs.update({
+        "boundary": "periodic",
+        "swept_params": json.dumps([a.name for a in spec.axes]),
+        "axes": json.dumps([a.text for a in spec.axes]),
+        "fixed_params": json.dumps(spec.fixed, sort_keys=True),
+        "points": int(spec.n_points),
+        "failed_points": int(np.count_nonzero(values["solved"] == 0)),
+        "tolerance": float(spec.tolerance),
+        "notes_count": len(notes),
+        "notes": "\n".join(notes[:NOTES_SHOWN] + ([f"... and {len(notes) - NOTES_SHOWN} more"] if len(notes) > NOTES_SHOWN else [])),
+    })
+    return build("band_sweep", values, case.units, attrs, axes=spec.axes)
+
+
+def comb_check_dataset(case, check, history: str) -> xr.Dataset:
+    """The archive of a delta-comb check (:class:`fdsolver.zerorange.combcheck.CombCheck`); see :data:`specs.COMB_CHECK`."""
+    c = check.comb
+    attrs = _band_attrs(case, "comb_check", history, c.period, c.start)
+    attrs.update({
+        "replacement_shape": check.shape,
+        "tolerance": float(check.tolerance),
+        "zone_energy": float(check.point.energy_scale),
+        "method": "delta comb in closed form; finite lattices: " + (check.finite[0].method if check.finite else ""),
+        "messages": "\n".join(dict.fromkeys(m for f in check.finite for m in f.notes)),
+    })
+    return build("comb_check", check, case.units, attrs)
 
 
 # ------------------------------------------------------------ reading

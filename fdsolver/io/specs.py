@@ -263,6 +263,222 @@ DELTA_MAP = (
 )
 
 
+# ------------------------------------------------------------ periodic cases (Bloch bands)
+DOS = "1/energy/length"
+BLOCH_NOTE = "psi in {length}^-1/2; integral of |psi|^2 dx over one period = 1; psi(x + L) = exp(i q L) psi(x)"
+_QB = ("wavevector", "band")
+_B = ("band",)
+
+
+def _edges(field: str) -> Callable[[Any], Any]:
+    return lambda r: getattr(r.bands.edges, field)
+
+
+def _stacks(field: str, pad: bool = False) -> Callable[[Any], Any]:
+    """A field of the finite-stack comparison (None without one); per-band arrays padded with NaN to every band."""
+    def get(r):
+        sb = r.stacks
+        if sb is None:
+            return None
+        v = np.asarray(getattr(sb, field))
+        if pad and v.shape[1] < r.bands.n_bands:
+            fill = 0 if v.dtype.kind in "iu" else np.nan
+            v = np.concatenate([v, np.full((v.shape[0], r.bands.n_bands - v.shape[1]), fill, v.dtype)], axis=1)
+        return v
+    return get
+
+
+def _bloch_part(part: str) -> Callable[[Any], Any]:
+    return lambda r: None if r.bloch is None else getattr(r.bloch, part)
+
+
+def _points(index: int) -> Callable[[Any], Any]:
+    return lambda r: np.array([p[index] for p in r.points], dtype=float) if r.points else None
+
+
+BANDS = (
+    Var("wavevector", ("wavevector",), "f8", "Bloch wavevector q on the irreducible zone [0, pi/L]", INVERSE_LENGTH,
+        coord=True, source=lambda r: r.bands.wavevector, required=True),
+    Var("band", _B, "i4", "band index (0 = lowest band)", coord=True, source=lambda r: np.arange(r.bands.n_bands),
+        required=True),
+    Var("dos_energy", ("dos_energy",), "f8", "energies of the density-of-states table", ENERGY, coord=True,
+        source=lambda r: r.bands.dos_energy, required=True),
+    Var("x", ("x",), "f8", "position over one period [start, start + L]", LENGTH, coord=True, source="x"),
+    Var("bloch_wavevector", ("bloch_wavevector",), "f8", "wavevector of the stored Bloch functions", INVERSE_LENGTH,
+        coord=True),
+    Var("point", ("point",), "i4", "point interaction of the period", coord=True,
+        source=lambda r: np.arange(len(r.points)) if r.points else None),
+    Var("n_periods", ("n_periods",), "i4", "number of periods of the finite stack", coord=True,
+        source=_stacks("n_periods")),
+    Var("level", ("level",), "i4", "level of the finite stack, lowest first", coord=True,
+        source=lambda r: None if r.stacks is None else np.arange(r.stacks.energy.shape[1])),
+    Var("energy", _QB, "f8", "band energy E_n(q)", ENERGY, source=lambda r: r.bands.energy, required=True),
+    Var("energy_error", _QB, "f8", "estimated absolute error of energy", ENERGY, source=lambda r: r.bands.energy_error,
+        required=True),
+    Var("band_bottom", _B, "f8", "lowest energy of the band (at q = 0 or q = pi/L)", ENERGY, source=_edges("band_bottom"),
+        required=True),
+    Var("band_bottom_error", _B, "f8", "estimated absolute error of band_bottom", ENERGY,
+        source=_edges("band_bottom_error")),
+    Var("band_top", _B, "f8", "highest energy of the band (at q = 0 or q = pi/L)", ENERGY, source=_edges("band_top"),
+        required=True),
+    Var("band_top_error", _B, "f8", "estimated absolute error of band_top", ENERGY, source=_edges("band_top_error")),
+    Var("band_width", _B, "f8", "band_top - band_bottom", ENERGY, source=_edges("band_width"), required=True),
+    Var("band_width_error", _B, "f8", "estimated absolute error of band_width", ENERGY,
+        source=_edges("band_width_error")),
+    Var("gap_above", _B, "f8", "energy gap between the band and the next one (0 where they touch)", ENERGY,
+        source=_edges("gap_above"), required=True),
+    Var("gap_above_error", _B, "f8", "estimated absolute error of gap_above", ENERGY, source=_edges("gap_above_error")),
+    Var("gap_closed", _B, "i1", "1 where the gap above the band is closed or not larger than its error",
+        flags=("open", "closed"), source=lambda r: r.bands.edges.gap_closed.astype(np.int8)),
+    Var("effective_mass_bottom", _B, "f8", "effective mass at the band bottom, hbar^2 / (d^2E/dq^2)", MASS,
+        source=_edges("effective_mass_bottom"), required=True),
+    Var("effective_mass_bottom_error", _B, "f8", "estimated absolute error of effective_mass_bottom", MASS,
+        source=_edges("effective_mass_bottom_error")),
+    Var("effective_mass_top", _B, "f8", "effective mass at the band top, hbar^2 / (d^2E/dq^2) (negative)", MASS,
+        source=_edges("effective_mass_top"), required=True),
+    Var("effective_mass_top_error", _B, "f8", "estimated absolute error of effective_mass_top", MASS,
+        source=_edges("effective_mass_top_error")),
+    Var("converged", _B, "i1", "1 if the band's edges and width are within the tolerance",
+        flags=("not_converged", "converged"), source=lambda r: r.bands.edges.converged.astype(np.int8), required=True),
+    Var("density_of_states", ("dos_energy",), "f8", "density of states per unit length and energy, one spin "
+        "orientation", DOS, source=lambda r: r.bands.density_of_states, required=True),
+    Var("density_of_states_error", ("dos_energy",), "f8", "estimated absolute error of density_of_states", DOS,
+        source=lambda r: r.bands.density_of_states_error),
+    Var("states_below", ("dos_energy",), "f8", "number of states per unit length below the energy, one spin "
+        "orientation", INVERSE_LENGTH, source=lambda r: r.bands.states_below(r.bands.dos_energy)),
+    Var("potential", ("x",), "f8", "potential energy over one period (point interactions not included)", ENERGY),
+    Var("mass", ("x",), "f8", "effective mass in units of the free-electron mass", MASS),
+    Var("point_position", ("point",), "f8", "position of the point interaction in the period window", LENGTH,
+        source=_points(0)),
+    Var("point_strength", ("point",), "f8", "strength alpha of the point interaction -alpha delta(x - x_j) "
+        "(> 0 attracts)", STRENGTH, source=_points(1)),
+    Var("bloch_energy", ("bloch_wavevector", "band"), "f8", "energy of the stored Bloch function", ENERGY),
+    Var("bloch_real", ("bloch_wavevector", "band", "x"), "f8", "real part of the Bloch function times sqrt(length "
+        "unit)", note=BLOCH_NOTE, source=_bloch_part("real")),
+    Var("bloch_imag", ("bloch_wavevector", "band", "x"), "f8", "imaginary part of the Bloch function times "
+        "sqrt(length unit)", note=BLOCH_NOTE, source=_bloch_part("imag")),
+    Var("stack_energy", ("n_periods", "level"), "f8", "level of the finite N-period stack (NaN: no such level)",
+        ENERGY, source=_stacks("energy")),
+    Var("stack_energy_error", ("n_periods", "level"), "f8", "estimated absolute error of stack_energy", ENERGY,
+        source=_stacks("energy_error")),
+    Var("stack_level_band", ("n_periods", "level"), "i4", "band holding the level (-1: in a gap, -2: no level)",
+        source=_stacks("band")),
+    Var("stack_wavevector", ("n_periods", "level"), "f8", "Bloch wavevector arccos(D(E)) / L of the level "
+        "(NaN in a gap)", INVERSE_LENGTH, source=_stacks("wavevector")),
+    Var("stack_predicted_energy", ("n_periods", "level"), "f8", "exact level between hard walls: E_n(j pi / N L) "
+        "and the one-period levels with psi = 0 at both ends (NaN for open stacks)", ENERGY,
+        source=_stacks("predicted_energy")),
+    Var("cluster_count", ("n_periods", "band"), "i4", "number of the stack's levels inside the band",
+        source=_stacks("cluster_count", True)),
+    Var("cluster_bottom", ("n_periods", "band"), "f8", "lowest level of the stack inside the band", ENERGY,
+        source=_stacks("cluster_bottom", True)),
+    Var("cluster_top", ("n_periods", "band"), "f8", "highest level of the stack inside the band", ENERGY,
+        source=_stacks("cluster_top", True)),
+    Var("cluster_width", ("n_periods", "band"), "f8", "cluster_top - cluster_bottom", ENERGY,
+        source=_stacks("cluster_width", True)),
+    Var("width_ratio", ("n_periods", "band"), "f8", "cluster_width / band_width (tends to 1 as N grows)",
+        source=_stacks("width_ratio", True)),
+    Var("predicted_width", ("n_periods", "band"), "f8", "width of the exact cluster between hard walls "
+        "(NaN for open stacks)", ENERGY, source=_stacks("predicted_width", True)),
+)
+
+_PB = PARAMS, "band"
+BAND_SWEEP = (
+    Var("band", _B, "i4", "band index (0 = lowest band)", coord=True, required=True),
+    Var("band_bottom", _PB, "f8", "lowest energy of the band", ENERGY, required=True),
+    Var("band_bottom_error", _PB, "f8", "estimated absolute error of band_bottom", ENERGY),
+    Var("band_top", _PB, "f8", "highest energy of the band", ENERGY, required=True),
+    Var("band_top_error", _PB, "f8", "estimated absolute error of band_top", ENERGY),
+    Var("band_width", _PB, "f8", "band_top - band_bottom", ENERGY, required=True),
+    Var("band_width_error", _PB, "f8", "estimated absolute error of band_width", ENERGY),
+    Var("gap_above", _PB, "f8", "energy gap between the band and the next one (0 where they touch)", ENERGY,
+        required=True),
+    Var("gap_above_error", _PB, "f8", "estimated absolute error of gap_above", ENERGY),
+    Var("gap_closed", _PB, "i1", "1 where the gap above the band is closed or not larger than its error",
+        flags=("no_value", "open", "closed"), flag_start=-1),
+    Var("effective_mass_bottom", _PB, "f8", "effective mass at the band bottom", MASS),
+    Var("effective_mass_bottom_error", _PB, "f8", "estimated absolute error of effective_mass_bottom", MASS),
+    Var("effective_mass_top", _PB, "f8", "effective mass at the band top (negative)", MASS),
+    Var("effective_mass_top_error", _PB, "f8", "estimated absolute error of effective_mass_top", MASS),
+    Var("converged", _PB, "i1", "1 if the band's edges and width are within the tolerance",
+        flags=("not_solved", "not_converged", "converged"), flag_start=-1, required=True),
+    Var("solved", (PARAMS,), "i1", "1 if the point was solved, 0 if its case was invalid", required=True),
+)
+
+
+def _comb_flags() -> tuple[str, ...]:
+    from fdsolver.zerorange.combcheck import VALIDITY_FLAGS
+
+    return tuple(VALIDITY_FLAGS)
+
+
+def _finite(field: str) -> Callable[[Any], np.ndarray]:
+    return lambda c: np.array([getattr(f, field) for f in c.finite])
+
+
+def _limit(field: str) -> Callable[[Any], np.ndarray]:
+    return lambda c: getattr(c.point, field)
+
+
+_WB = ("width", "band")
+_WQB = ("width", "quantity", "band")
+_QB2 = ("quantity", "band")
+COMB_DEVIATION = ("relative deviation of the finite lattice from the delta comb: band edges by max(|E_bottom|, "
+                  "|E_top|) of the comb's band, widths and gaps by their own comb values")
+COMB_CHECK = (
+    Var("width", ("width",), "f8", WIDTH_LONG_NAME, LENGTH, coord=True, source="widths", required=True),
+    Var("band", _B, "i4", "band index (0 = lowest band)", coord=True, source=lambda c: np.arange(c.point.n_bands),
+        required=True),
+    Var("quantity", ("quantity",), "i4", "compared quantity (see quantity_name)", coord=True,
+        source=lambda c: np.arange(c.deviation.shape[1]), required=True),
+    Var("point", ("point",), "i4", "point interaction of the period", coord=True,
+        source=lambda c: np.arange(len(c.comb.positions))),
+    Var("quantity_name", ("quantity",), "str", "name of the compared quantity", None, required=True,
+        source=lambda c: _comb_quantities()),
+    Var("band_bottom", _WB, "f8", "band bottom of the finite lattice", ENERGY, source=_finite("band_bottom"),
+        required=True),
+    Var("band_bottom_error", _WB, "f8", "estimated absolute error of band_bottom", ENERGY,
+        source=_finite("band_bottom_error")),
+    Var("band_top", _WB, "f8", "band top of the finite lattice", ENERGY, source=_finite("band_top"), required=True),
+    Var("band_top_error", _WB, "f8", "estimated absolute error of band_top", ENERGY, source=_finite("band_top_error")),
+    Var("band_width", _WB, "f8", "band width of the finite lattice", ENERGY, source=_finite("band_width")),
+    Var("band_width_error", _WB, "f8", "estimated absolute error of band_width", ENERGY,
+        source=_finite("band_width_error")),
+    Var("gap_above", _WB, "f8", "gap above the band, finite lattice", ENERGY, source=_finite("gap_above")),
+    Var("gap_above_error", _WB, "f8", "estimated absolute error of gap_above", ENERGY,
+        source=_finite("gap_above_error")),
+    Var("band_bottom_limit", _B, "f8", "band bottom of the delta comb (closed form)", ENERGY,
+        source=_limit("band_bottom"), required=True),
+    Var("band_top_limit", _B, "f8", "band top of the delta comb (closed form)", ENERGY, source=_limit("band_top"),
+        required=True),
+    Var("band_width_limit", _B, "f8", "band width of the delta comb", ENERGY, source=_limit("band_width")),
+    Var("gap_above_limit", _B, "f8", "gap above the band, delta comb", ENERGY, source=_limit("gap_above")),
+    Var("gap_closed_limit", _B, "i1", "1 where the comb's gap above the band is closed", flags=("open", "closed"),
+        source=lambda c: c.point.gap_closed.astype(np.int8)),
+    Var("deviation", _WQB, "f8", COMB_DEVIATION, required=True),
+    Var("predicted_deviation", _WQB, "f8", "first-order predicted relative deviation", source="predicted"),
+    Var("resolved", _WQB, "i1", "1 if the finite value's error is at most a tenth of its difference from the comb",
+        flags=("not_resolved", "resolved"), source=lambda c: c.resolved.astype(np.int8)),
+    Var("law_coefficient", _QB2, "f8", "fitted a in deviation = a * width", INVERSE_LENGTH),
+    Var("law_exponent", _QB2, "f8", "fitted log-log slope of |deviation| against width"),
+    Var("predicted_coefficient", _QB2, "f8", "first-order a in deviation = a * width", INVERSE_LENGTH),
+    Var("validity_width", _B, "f8", "largest width with the band's edge and width deviations below the tolerance",
+        LENGTH, required=True),
+    Var("validity_flag", _B, "i1", "how validity_width was found", flags=_comb_flags),
+    Var("point_position", ("point",), "f8", "position of the point interaction in the period window", LENGTH,
+        source=lambda c: np.asarray(c.comb.positions, float)),
+    Var("point_strength", ("point",), "f8", "strength alpha of the point interaction (> 0 attracts)", STRENGTH,
+        source=lambda c: np.asarray(c.comb.strengths, float)),
+)
+
+
+def _comb_quantities() -> list[str]:
+    from fdsolver.zerorange.combcheck import QUANTITIES
+
+    return [{"bottom": "band_bottom", "top": "band_top", "width": "band_width", "gap": "gap_above"}[q]
+            for q in QUANTITIES]
+
+
 # ------------------------------------------------------------------ attributes
 #: the types a global attribute may have: text; a number; a whole number; a JSON object ``{name: number}`` (params);
 #: a JSON object ``{name: text}`` (the stored table files); a JSON list of names (scanned axes); a JSON object of
@@ -321,6 +537,18 @@ MAP_ATTRS = {
 }
 #: the attributes a variable may carry (the rest, NetCDF's own aside, are dropped on reading)
 VAR_ATTRS = ("long_name", "units", "units_name", "units_note", "flag_values", "flag_meanings", "spacing")
+PERIODIC_ATTRS = {"boundary": Attr(choices=("periodic",)), "period": Attr(NUMBER), "period_start": Attr(NUMBER)}
+BANDS_ATTRS = {
+    **PERIODIC_ATTRS, "method": Attr(), "tolerance": Attr(NUMBER), "zone_energy": Attr(NUMBER),
+    "zone_energy_note": Attr(), "cell_levels": Attr(WHOLE), "cells": Attr(WHOLE), "density_of_states_note": Attr(),
+    "messages": Attr(), "stack_termination": Attr(choices=("hard", "open")), "stack_bands": Attr(WHOLE),
+    "stack_continuum_threshold": Attr(NUMBER),
+}
+BAND_SWEEP_ATTRS = {**SWEEP_ATTRS, "boundary": Attr(choices=("periodic",))}
+COMB_ATTRS = {
+    **PERIODIC_ATTRS, "replacement_shape": Attr(), "tolerance": Attr(NUMBER), "zone_energy": Attr(NUMBER),
+    "method": Attr(), "messages": Attr(),
+}
 
 
 @dataclass(frozen=True)
@@ -355,6 +583,9 @@ KINDS: dict[str, Kind] = {
     "delta_check": Kind("delta_check", "delta_check", LADDER, modes=("replace", "from_finite"), attrs=LADDER_ATTRS),
     "delta_map": Kind("delta_map", "delta_check", DELTA_MAP, modes=("replace_map", "from_finite_map"), axes_attr="map_axes",
                       attrs=MAP_ATTRS),
+    "bands": Kind("bands", "bands", BANDS, attrs=BANDS_ATTRS),
+    "band_sweep": Kind("band_sweep", "band_sweep", BAND_SWEEP, axes_attr="swept_params", attrs=BAND_SWEEP_ATTRS),
+    "comb_check": Kind("comb_check", "comb_check", COMB_CHECK, attrs=COMB_ATTRS),
 }
 #: the values of the global attribute fdsolver_kind
 ARCHIVE_KINDS = tuple(dict.fromkeys(k.fdsolver_kind for k in KINDS.values()))

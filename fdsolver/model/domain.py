@@ -10,19 +10,28 @@ from fdsolver.errors import CaseError
 
 @dataclass(frozen=True)
 class Domain:
-    """``boundary`` is "open" (whole line, box sized automatically) or "hard" (walls at left/right).
+    """``boundary`` is "open" (whole line, box sized automatically), "hard" (walls at left/right) or "periodic".
 
     ``left`` and ``right`` are wall positions (hard) or the least extent of
-    the box (open), in the case length unit.
+    the box (open), in the case length unit.  A periodic case repeats one
+    period of length ``period`` starting at ``start`` (``None``: the lattice
+    chooses, :func:`fdsolver.bloch.lattice.lattice`); it has Bloch bands, not
+    bound states.
     """
 
     boundary: str = "open"
     left: float | None = None
     right: float | None = None
+    period: float | None = None
+    start: float | None = None
 
     @property
     def hard(self) -> bool:
         return self.boundary == "hard"
+
+    @property
+    def periodic(self) -> bool:
+        return self.boundary == "periodic"
 
 
 def continuum_threshold(potential, domain: Domain) -> float:

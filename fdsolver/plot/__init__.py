@@ -2,7 +2,8 @@
 
 :func:`plot_archive` draws any archive by its kind: :mod:`.solve` (levels and
 wavefunctions), :mod:`.sweep` (sweeps and threshold searches), :mod:`.delta`
-(zero-range checks and validity maps); :mod:`._common` holds the figure
+(zero-range checks and validity maps), :mod:`.bands` (band diagrams, fan
+charts of band sweeps, delta-comb checks); :mod:`._common` holds the figure
 factory and the axis labels they share.
 """
 
@@ -15,6 +16,9 @@ PLOTTERS = {
     "delta_check": "fdsolver.plot.delta:plot_delta",
     "sweep": "fdsolver.plot.sweep:plot_sweep",
     "threshold": "fdsolver.plot.sweep:plot_sweep",
+    "bands": "fdsolver.plot.bands:plot_bands",
+    "band_sweep": "fdsolver.plot.bands:plot_band_sweep",
+    "comb_check": "fdsolver.plot.bands:plot_comb_check",
 }
 
 

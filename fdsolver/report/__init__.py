@@ -2,7 +2,8 @@
 
 :func:`format_archive` picks the table of any archive by its kind:
 :mod:`.solve` (one solve), :mod:`.sweep` (sweeps and threshold searches),
-:mod:`.delta` (zero-range checks and validity maps); :mod:`._common` holds
+:mod:`.delta` (zero-range checks and validity maps), :mod:`.bands` (periodic
+cases: band structures, band sweeps, delta-comb checks); :mod:`._common` holds
 the unit labels they share.
 """
 
@@ -14,6 +15,9 @@ FORMATTERS = {
     "delta_check": "fdsolver.report.delta:format_delta",
     "sweep": "fdsolver.report.sweep:format_sweep",
     "threshold": "fdsolver.report.sweep:format_sweep",
+    "bands": "fdsolver.report.bands:format_bands",
+    "band_sweep": "fdsolver.report.bands:format_band_sweep",
+    "comb_check": "fdsolver.report.bands:format_comb_check",
 }
 
 

@@ -5,6 +5,7 @@
 * :mod:`.runner`: the one chunked, checkpointed, resumable runner of every scan, its per-process case cache and
   the workers' warm-up;
 * :mod:`.sweep`: sweeps (plan, per-point solve, arrays, ``run_sweep``);
+* :mod:`.bandsweep`: band edges, widths, gaps and masses of a periodic case over a grid of params;
 * :mod:`.maps`: validity maps (plan, per-point comparison, arrays, ``run_map``);
 * :mod:`.thresholds`: binding thresholds of a case param, without a box.
 

@@ -59,7 +59,7 @@ class Scan(Protocol):
 
     @property
     def what(self) -> str:
-        """"sweep" or "validity map": the scan in messages."""
+        """"sweep", "band sweep" or "validity map": the scan in messages."""
 
     @property
     def max_chunk(self) -> int:
@@ -227,7 +227,7 @@ def run(scan: Scan, executor, finish: Callable[[Any, str], Any], *, action: str,
     try:
         start = getattr(progress, "start", None)
         if start is not None:
-            verb = "sweeping" if scan.what == "sweep" else "mapping"
+            verb = "mapping" if "map" in scan.what else "sweeping"
             text = f"{verb} {scan.n_points} points {where(executor)}"
             lines.append(text + (f"; checkpoint {path_for(output)}" if output is not None else ""))
             start(scan.n_points, "\n".join(lines))

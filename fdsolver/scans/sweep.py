@@ -346,9 +346,9 @@ def locate_along(spec: SweepSpec, bound: np.ndarray, rtol: float = 1e-9) -> list
 
 
 # ----------------------------------------------------------------- the run
-def sweep_axes(texts, case) -> tuple[Axis, ...]:
+def sweep_axes(texts, case, kind: str = "sweep") -> tuple[Axis, ...]:
     """The axes of a sweep: ``texts`` (``--vary``), else the case's ``[sweep] vary`` list; no param may take the name
-    of a variable or dimension of the sweep archive."""
+    of a variable or dimension of the archive ``kind`` ("sweep", or "band_sweep")."""
     from fdsolver.io.specs import KINDS
 
     texts, key = list(texts or []), "--vary"
@@ -358,7 +358,7 @@ def sweep_axes(texts, case) -> tuple[Axis, ...]:
             raise CaseError('must be a list of strings like "d=1:5:20"', file=case.path, key=key)
     if not texts:
         raise CaseError(f"nothing to sweep: give --vary NAME=START:STOP:COUNT (params: {', '.join(case.params)})", key="--vary")
-    return parse_axes(texts, case, key, reserved=KINDS["sweep"].names())
+    return parse_axes(texts, case, key, reserved=KINDS[kind].names())
 
 
 def run_sweep(spec: SweepSpec, executor, *, output=None, resume=False, restart=False, action=None, progress=None,
