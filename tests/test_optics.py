@@ -230,6 +230,32 @@ def test_nonparabolic_infinite_well(n):
     assert res.payload.energy[n - 1] == res.energy
 
 
+def test_nonparabolic_gaas_well_per_layer():
+    """10 nm GaAs/Al0.3Ga0.7As with the Kane mass of each layer (its own edge and gap from the library):
+    every state converges in a few solves, and the e1-e2 transition moves to lower energy, as the
+    energy-dependent mass is known to do to intersubband lines (fact of the trade, no source)."""
+    mats = [lookup("AlGaAs", 0.3), lookup("GaAs"), lookup("AlGaAs", 0.3)]
+    bands = stack_bands(mats, "electron")
+
+    def case(masses, states):
+        layers = [{"band_edge": e, "mass": float(m)} for e, m in zip(bands.band_edge, masses)]
+        layers[1]["thickness"] = 10.0
+        return {"units": "nm-meV", "layer": layers, "solve": {"max_states": states}}
+
+    parabolic = _solve(case(bands.mass, 3))
+    found = []
+    for n in range(2):
+        def solve(masses, n=n):
+            sol = _solve(case(masses, n + 1))
+            return sol.energy[n], sol.energy_error[n], sol
+
+        res = solve_nonparabolic(solve, lambda e: kane_mass(bands.mass, bands.band_edge, bands.gap, e),
+                                 parabolic.energy[n], tolerance=1e-9 * parabolic.energy[n])
+        assert res.converged and res.iterations <= 6 and res.error < 1e-6
+        found.append(res.energy)
+    assert found[1] - found[0] < parabolic.energy[1] - parabolic.energy[0] - 2.0
+
+
 def test_kane_mass_refuses_outside_the_model():
     assert kane_mass([0.067, 0.09], [0.0, 250.0], [1500.0, 1900.0], 100.0) == pytest.approx(
         [0.067 * (1 + 100 / 1500), 0.09 * (1 - 150 / 1900)])
