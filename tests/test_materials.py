@@ -29,6 +29,7 @@ from fdsolver.model.materials import (
     load_library,
     lookup,
     stack_bands,
+    stack_materials,
 )
 from fdsolver.model.units import get_units
 
@@ -319,3 +320,15 @@ def test_carriers_are_named():
     assert CARRIERS == ("electron", "heavy_hole", "light_hole")
     with pytest.raises(CaseError, match="did you mean 'heavy_hole'"):
         stack_bands([lookup("GaAs")], "heavy_hol")
+
+
+def test_stack_materials_locates_errors_at_the_layer():
+    mats = stack_materials([{"material": "AlGaAs", "x": 0.3}, {"material": "GaAs", "overrides": {"electron_mass": 0.07}}],
+                           temperature=77.0)
+    assert mats[0].label == "Al0.3Ga0.7As" and mats[1].electron_mass == 0.07 and mats[0].temperature == 77.0
+    with pytest.raises(CaseError) as err:
+        stack_materials([{"material": "GaAs"}, {"material": "AlGaAs", "x": 2.0}])
+    assert err.value.key == "layer[2].x"
+    with pytest.raises(CaseError) as err:
+        stack_materials([{"material": "GaAs", "overrides": {"gamma9": 1.0}}])
+    assert err.value.key == "layer[1].overrides.gamma9"

@@ -24,11 +24,12 @@ from fdsolver.model.materials.bands import (
     effective_gap,
     lattice_mismatch,
     stack_bands,
+    stack_materials,
 )
 from fdsolver.model.materials.describe import format_material
 
 __all__ = [
     "CARRIERS", "OVERRIDABLE", "LatticeMismatch", "MaterialLibrary", "MaterialParameters", "StackBands",
     "band_energy", "builtin_library", "carrier_mass", "effective_gap", "format_material", "lattice_mismatch",
-    "load_library", "lookup", "stack_bands",
+    "load_library", "lookup", "stack_bands", "stack_materials",
 ]

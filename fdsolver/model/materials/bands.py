@@ -38,13 +38,13 @@ mismatched (pseudomorphic) layer is described wrongly by roughly the deformation
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Sequence
+from typing import Mapping, Sequence
 
 import numpy as np
 import scipy.constants as sc
 
 from fdsolver.errors import CaseError, did_you_mean
-from fdsolver.model.materials.library import MaterialParameters
+from fdsolver.model.materials.library import MaterialLibrary, MaterialParameters, builtin_library
 from fdsolver.model.units import UNIT_SYSTEMS, UnitSystem
 
 CARRIERS = ("electron", "heavy_hole", "light_hole")
@@ -57,6 +57,25 @@ def _carrier(carrier: str) -> str:
         raise CaseError(f"carrier must be one of {', '.join(CARRIERS)}, got {carrier!r}{did_you_mean(carrier, CARRIERS)}",
                         key="carrier")
     return carrier
+
+
+def stack_materials(specs: Sequence[Mapping], temperature: float = 300.0,
+                    library: MaterialLibrary | None = None) -> list[MaterialParameters]:
+    """Look up every layer of a stack: ``specs[k]`` = {"material": NAME, "x": X (alloys), "overrides": {...}}.
+
+    Errors come back located at the layer, numbered from 1 as in case files
+    (``layer[2].x``, ``layer[3].overrides.electron_mass``); the caller adds the file.
+    """
+    lib = library or builtin_library()
+    out = []
+    for k, spec in enumerate(specs, start=1):
+        try:
+            out.append(lib.lookup(spec["material"], spec.get("x"), temperature, spec.get("overrides")))
+        except CaseError as err:
+            raise err.located(key_prefix=f"layer[{k}]") from None
+        except KeyError:
+            raise CaseError("no material given", key=f"layer[{k}].material") from None
+    return out
 
 
 def band_energy(p: MaterialParameters, carrier: str) -> float:
