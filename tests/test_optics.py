@@ -187,7 +187,7 @@ def test_trk_sum_rule_varying_mass():
     Mechanics Applied to Semiconductor Heterostructures, for the BenDaniel-Duke Hamiltonian).  The default
     m_r = 1/<0|1/m|0> makes the ground state's sum exactly 1; the plain 2 m_w dE z^2/hbar^2 with the well
     mass does not sum to 1 here.  80 states: the sum converges as j^-2 past the mass step (tail < 3e-4)."""
-    sol, tr = _refined({**_TWO_MASS, "solve": {"max_states": 80}})
+    _, tr = _refined({**_TWO_MASS, "solve": {"max_states": 80}})
     assert tr.levels >= 3
     sums = tr.oscillator_strength.sum(axis=1)
     assert tr.sum_rule[0] == pytest.approx(1.0, abs=1e-14)

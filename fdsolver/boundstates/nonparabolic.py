@@ -29,8 +29,9 @@ error delta of F(E_k) propagates into the fixed point as delta/|1 - F'| = delta/
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any, Callable
+from typing import Any
 
 import numpy as np
 

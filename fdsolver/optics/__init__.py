@@ -27,6 +27,6 @@ __all__ = [
     "overlap_squared", "strongest", "subband_populations", "transition_table", "velocity_dipole",
 ]
 
-from fdsolver.optics.refine import refined_intersubband  # noqa: E402  (imports the solver's eigen module)
+from fdsolver.optics.refine import refined_intersubband  # (imports the solver's eigen module)
 
 __all__ += ["refined_intersubband"]

@@ -7,14 +7,6 @@ carrier (electron, heavy or light hole) in a unit system, and checks the lattice
 :mod:`.describe` formats a material as text or JSON.  The data live in ``iii_v.toml``.
 """
 
-from fdsolver.model.materials.library import (
-    OVERRIDABLE,
-    MaterialLibrary,
-    MaterialParameters,
-    builtin_library,
-    load_library,
-    lookup,
-)
 from fdsolver.model.materials.bands import (
     CARRIERS,
     LatticeMismatch,
@@ -27,6 +19,8 @@ from fdsolver.model.materials.bands import (
     stack_materials,
 )
 from fdsolver.model.materials.describe import format_material
+from fdsolver.model.materials.library import OVERRIDABLE, MaterialLibrary, builtin_library, load_library, lookup
+from fdsolver.model.materials.parameters import MaterialParameters
 
 __all__ = [
     "CARRIERS", "OVERRIDABLE", "LatticeMismatch", "MaterialLibrary", "MaterialParameters", "StackBands",

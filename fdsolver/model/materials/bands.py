@@ -37,14 +37,15 @@ mismatched (pseudomorphic) layer is described wrongly by roughly the deformation
 
 from __future__ import annotations
 
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Mapping, Sequence
 
 import numpy as np
 import scipy.constants as sc
 
 from fdsolver.errors import CaseError, did_you_mean
-from fdsolver.model.materials.library import MaterialLibrary, MaterialParameters, builtin_library
+from fdsolver.model.materials.library import MaterialLibrary, builtin_library
+from fdsolver.model.materials.parameters import MaterialParameters
 from fdsolver.model.units import UNIT_SYSTEMS, UnitSystem
 
 CARRIERS = ("electron", "heavy_hole", "light_hole")

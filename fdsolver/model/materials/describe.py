@@ -6,7 +6,8 @@ types for ``json.dumps``.  Units are those of :data:`MaterialParameters.UNITS` (
 
 from __future__ import annotations
 
-from fdsolver.model.materials.library import MaterialLibrary, MaterialParameters, builtin_library
+from fdsolver.model.materials.library import MaterialLibrary, builtin_library
+from fdsolver.model.materials.parameters import MaterialParameters
 
 _STRAIN_NOTE = "strain is not modelled: values are for unstrained bulk material"
 
