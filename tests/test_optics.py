@@ -199,6 +199,19 @@ def test_trk_sum_rule_varying_mass():
     assert abs(plain - 1) > 0.03
 
 
+def test_refinement_needs_the_features_on_the_subgrids():
+    """If an interface of the potential is not a node of x[::2], the grids are not the solver's nested
+    levels: the single-grid values come back, marked levels = 1, without error estimates."""
+    sol = _two_mass_box(3)
+    moved = dict(_TWO_MASS, layer=[dict(layer) for layer in _TWO_MASS["layer"]])
+    moved["layer"][1]["thickness"] = float(sol.x[1])
+    moved["layer"][2]["thickness"] = 10.0 - float(sol.x[1])
+    other = fdsolver.case_from_dict(moved).potential
+    tr = refined_intersubband(other, sol, NM)
+    assert tr.levels == 1 and tr.oscillator_strength_error is None
+    assert np.array_equal(tr.oscillator_strength, of_solution(sol, NM).oscillator_strength)
+
+
 def test_energy_dependent_flux_reduces_to_the_plain_one():
     """With one mass profile repeated for every state, the two-band flux equals the single-profile flux."""
     sol = _two_mass_box(4)
@@ -301,8 +314,9 @@ def test_absorption_of_a_gaas_well_scales_and_has_its_peak_at_e21():
     e21 = sol.energy[1] - sol.energy[0]
     ph = np.linspace(0.5 * e21, 1.5 * e21, 2001)
     spectra = []
+    assert np.all((tr.inplane_mass > 0.067) & (tr.inplane_mass < 0.0919))
     for ns in (1e11, 1e12):
-        pops = subband_populations(sol.energy, 1 / np.array([0.07, 0.07, 0.07]), ns, 0.0, NM)
+        pops = subband_populations(sol.energy, tr.inplane_mass, ns, 0.0, NM)
         assert pops[0] == pytest.approx(ns, rel=1e-9) and pops[1] == 0.0
         spectra.append(absorption_spectrum(ph, sol.energy, tr.oscillator_strength, tr.reference_mass, pops, 5.0, NM,
                                            period=30.0))

@@ -59,6 +59,11 @@ class Transitions:
     def size(self) -> int:
         return self.energy.size
 
+    @property
+    def inplane_mass(self) -> np.ndarray:
+        """In-plane band mass of each subband, 1/<i|1/m|i> in m_e (first order in k_par^2)."""
+        return self.reference_mass / self.sum_rule
+
 
 def intersubband(x, weights, psi, mass, energy, units: UnitSystem, reference_mass: float | None = None,
                  energy_dependent_mass: bool = False) -> Transitions:
