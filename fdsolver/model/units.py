@@ -74,8 +74,8 @@ UNIT_SYSTEMS: dict[str, UnitSystem] = {
             "Hartree atomic units (hbar = m_e = 1): 'bohr' and 'hartree' are not "
             "UDUNITS names; 1 bohr = 0.0529177210544 nm, 1 hartree = 27211.386 meV."
         ),
-        length_si=_sc.physical_constants["Bohr radius"][0],
-        energy_si=_sc.physical_constants["Hartree energy"][0],
+        length_si=BOHR_RADIUS,
+        energy_si=HARTREE_ENERGY,
     ),
     "nm-meV": UnitSystem(
         name="nm-meV",
@@ -86,7 +86,7 @@ UNIT_SYSTEMS: dict[str, UnitSystem] = {
         energy_udunits="meV",
         units_note="lengths in nm, energies in meV, masses in free-electron masses",
         length_si=1e-9,
-        energy_si=1e-3 * _sc.e,
+        energy_si=1e-3 * ELEMENTARY_CHARGE,
     ),
 }
 
