@@ -15,12 +15,11 @@ from scipy.integrate import quad
 
 import fdsolver
 from fdsolver.api import solve_case
-from fdsolver.boundstates.eigen import solve_window
 from fdsolver.boundstates.nonparabolic import kane_mass, solve_nonparabolic
 from fdsolver.errors import CaseError
 from fdsolver.model.materials import effective_gap, lookup, stack_bands
 from fdsolver.model.units import get_units
-from fdsolver.numerics.operator import assemble
+from fdsolver.optics.refine import grid_states
 from fdsolver.optics import (
     absorption_spectrum,
     interband,
@@ -165,11 +164,8 @@ def test_length_and_velocity_forms_agree_with_varying_mass():
     with the solver's extrapolated energies it holds to the grid's second-order error."""
     sol = _two_mass_box(8)
     case = fdsolver.case_from_dict(_TWO_MASS)
-    op = assemble(case.potential, sol.x)
-    states = solve_window(op, np.inf, 8)
-    psi = np.zeros_like(sol.psi)
-    psi[:, 1:-1] = states.psi
-    grid = intersubband(sol.x, np.concatenate([[0], op.w, [0]]), psi, op.mass, states.energy, NM)
+    energy, psi, w, mass = grid_states(case.potential, sol.x, 8)
+    grid = intersubband(sol.x, w, psi, mass, energy, NM)
     off = ~np.eye(8, dtype=bool)
     big = off & (np.abs(grid.dipole) > 1e-3)
     rel = np.abs(grid.velocity_dipole[big] - grid.dipole[big]) / np.abs(grid.dipole[big])

@@ -27,7 +27,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from fdsolver.boundstates.eigen import solve_window
+from fdsolver.boundstates.eigen import Sector, solve_grid
 from fdsolver.model.units import UnitSystem
 from fdsolver.numerics.operator import assemble
 from fdsolver.numerics.richardson import Romberg
@@ -52,6 +52,22 @@ def _usable_levels(potential, x: np.ndarray, levels: int) -> int:
     return usable
 
 
+def grid_states(potential, nodes: np.ndarray, count: int):
+    """The lowest ``count`` eigenpairs of ``potential`` on the one grid ``nodes`` (walls at both ends).
+
+    Returns (energy (state,), psi (state, node) with zeros at the ends and sum w psi^2 = 1, the lumped
+    node weights w (zero at the ends), the cell masses): the states of exactly this grid, for which
+    the length and flux forms of the dipole agree to round-off.
+    """
+    op = assemble(potential, nodes)
+    floor = max(float(np.ptp(op.v)), 1e-300)  # the energy scale relative comparisons need
+    states = solve_grid([Sector(op, 0)], None, np.inf, int(count), floor)
+    psi = np.zeros((states.size, nodes.size))
+    if states.size:
+        psi[:, 1:-1] = np.array(states.vectors) / np.sqrt(op.w)[None, :]
+    return states.energy, psi, np.concatenate([[0.0], op.w, [0.0]]), op.mass
+
+
 def refined_intersubband(potential, solution, units: UnitSystem, reference_mass: float | None = None,
                          levels: int = 4) -> Transitions:
     """:class:`Transitions` of ``solution`` extrapolated over up to ``levels`` nested grids.
@@ -71,14 +87,11 @@ def refined_intersubband(potential, solution, units: UnitSystem, reference_mass:
     per_level = []
     for k in reversed(range(usable)):  # coarsest first; the finest grid is re-solved for its own energies
         nodes = x[:: 2**k]
-        op = assemble(potential, nodes)
-        states = solve_window(op, np.inf, int(idx.max()) + 1)
-        if states.energy.size <= idx.max():
+        got = grid_states(potential, nodes, int(idx.max()) + 1)
+        if got[0].size <= idx.max():
             return finest
-        psi = np.zeros((n, nodes.size))
-        psi[:, 1:-1] = states.psi[idx]
-        w = np.concatenate([[0.0], op.w, [0.0]])
-        per_level.append((nodes, psi, states.energy[idx], w, op.mass))
+        e, psi, w, m = got
+        per_level.append((nodes, psi[idx], e[idx], w, m))
     for nodes, psi, e, w, m in per_level:
         inv_tab.add(inverse_mass_mean(nodes, psi, m))
     inv = inv_tab.value()
