@@ -45,12 +45,40 @@ def _where(case: Case) -> str:
     return str(case.path or case.title)
 
 
-def solve_case(case: Case) -> Solution:
-    """Solve ``case`` and return the raw :class:`~fdsolver.boundstates.result.Solution`."""
+def solve_case(case: Case, notes: bool = True) -> Solution:
+    """Solve ``case`` and return the raw :class:`~fdsolver.boundstates.result.Solution`.
+
+    With ``nonparabolicity = true`` in the case, each state is solved with the energy-dependent
+    (Kane) mass (:func:`fdsolver.boundstates.nonparabolic.solve_energy_dependent`); the result then
+    also carries each state's mass profile (``state_mass``).  ``notes``: put the case's own notes
+    (unit system, lattice mismatch) first among the messages.
+    """
+    from dataclasses import replace
+
     try:
-        return solve_potential(case.potential, case.domain, case.settings)
+        if getattr(case, "nonparabolicity", False):
+            from fdsolver.boundstates.nonparabolic import solve_energy_dependent
+
+            sol = solve_energy_dependent(case.potential, case.domain, case.settings, case.gaps, solve_potential)
+        else:
+            sol = solve_potential(case.potential, case.domain, case.settings)
     except CaseError as err:  # the core does not know the file; name it here
         raise err.located(file=case.path) from None
+    if notes and getattr(case, "notes", ()):
+        wrapped = hasattr(sol, "state_mass")  # a KaneSolution around the Solution
+        inner = sol.solution if wrapped else sol
+        inner = replace(inner, messages=tuple(dict.fromkeys(tuple(case.notes) + tuple(inner.messages))))
+        sol = replace(sol, solution=inner) if wrapped else inner
+    return sol
+
+
+def solve_optics(case: Case, refine: bool = True):
+    """:func:`solve_case` plus the intersubband transitions of its states, with error estimates
+    (:func:`fdsolver.optics.solved.transitions_of`): the result the solve archive is built from."""
+    from fdsolver.optics.solved import WithOptics, transitions_of
+
+    sol = solve_case(case)
+    return WithOptics(sol, transitions_of(case.potential, sol, case.units, refine=refine))
 
 
 def solve(case: Case | str | os.PathLike, action: str | None = None) -> xr.Dataset:
@@ -61,7 +89,7 @@ def solve(case: Case | str | os.PathLike, action: str | None = None) -> xr.Datas
 def solve_record_of(case: Case | str | os.PathLike, action: str | None = None) -> Record:
     """:func:`solve` without building the Dataset (no xarray import): the archive's variables and attributes."""
     case = _case(case)
-    sol = solve_case(case)
+    sol = solve_optics(case)
     return solve_record(case, sol, stamp(action or f"solve {_where(case)}"))
 
 
@@ -81,6 +109,10 @@ def case_of_run(ds: xr.Dataset) -> Case:
         raise ArchiveError(f"the case stored in the archive is not valid: {err}", file=ds.encoding.get("source")) from None
     params = json.loads(ds.attrs.get("params", "{}"))
     changed = {k: v for k, v in params.items() if case.params.get(k) != v}
+    if changed and case.param_units:  # stored in the case units; a param given with a unit is overridden in it
+        from fdsolver.input.quantities import as_given
+
+        changed = {k: as_given(case, k, v) for k, v in changed.items()}
     return case.with_params(**changed) if changed else case
 
 

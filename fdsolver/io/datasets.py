@@ -72,7 +72,37 @@ def base_attrs(case, kind: str, history: str) -> dict:
         "case_text": case.text,
         "case_tables": json.dumps(case.tables),
         "params": json.dumps(case.params, sort_keys=True),
+        **case_attrs(case),
     }
+
+
+def case_attrs(case) -> dict:
+    """The carrier, temperature, materials and unit notes of a case (every archive kind carries them)."""
+    info = getattr(case, "stack_info", None)
+    out = {
+        "carrier": getattr(case, "carrier", "electron"),
+        "temperature": float(getattr(case, "temperature", 300.0)),
+        "temperature_units": "K",
+        "nonparabolicity": int(bool(getattr(case, "nonparabolicity", False))),
+        "case_notes": "\n".join(getattr(case, "notes", ())),
+        "param_units": json.dumps(getattr(case, "param_units", {}), sort_keys=True),
+    }
+    if info is not None:
+        bands = info.bands
+        out.update({
+            "materials": info.describe(),
+            "band_reference": float(bands.reference),
+            "band_reference_note": "absolute band energy (materials library scale, case energy unit) of the stack's "
+                                   "band extremum that the energies are measured from; absolute energy = "
+                                   f"band_reference {'+' if bands.sign > 0 else '-'} energy",
+            "layer_gaps": np.array([float(g) for g in bands.gap]),
+            "layer_masses": np.array([float(m) for m in bands.mass]),
+            "materials_source": "; ".join(info.library_files),
+        })
+    stack = getattr(getattr(case, "potential", None), "stack", None)
+    if stack is not None and "layer_masses" not in out:
+        out["layer_masses"] = np.array([float(layer.mass) for layer in stack.layers])
+    return out
 
 
 def _units_attrs(udunits: str, name: str) -> dict:
@@ -162,6 +192,18 @@ def solve_record(case, sol, history: str) -> Record:
         "energy_reference": float(sol.reference),
         "messages": "\n".join(sol.messages),
     })
+    tr = getattr(sol, "transitions", None)
+    if tr is not None:
+        kane = hasattr(sol, "state_mass")
+        attrs.update({
+            "dipole_form": ("velocity (flux) form C W_ij/(E_j - E_i) with each state's own mass (energy-dependent mass)"
+                            if kane else "length form <i|x|j>"),
+            "oscillator_strength_form": "velocity (flux) form m_r C W_ij^2/(E_j - E_i), W_ij = integral "
+                                        "(psi_i psi_j' - psi_i' psi_j)/m dx; exact for a position-dependent mass",
+            "optics_accuracy": (f"extrapolated over {tr.levels} nested grids (Romberg); errors are the extrapolation's "
+                                "change" if tr.levels >= 2 else "one grid, second order in its spacing; errors from "
+                                + ("every second node" if kane else "the length/velocity form difference")),
+        })
     return record("solve", sol, case.units, attrs)
 
 

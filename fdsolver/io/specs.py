@@ -102,6 +102,24 @@ def _first_model(field: str) -> Callable[[Any], Any]:
 
 
 ENERGY, LENGTH, INVERSE_LENGTH, STRENGTH, MASS = "energy", "length", "1/length", "energy*length", "mass"
+_SF = ("state", "final_state")
+
+
+def _optics(result, name: str, of_result: bool = False):
+    """A value of the solve's intersubband transitions (fdsolver.optics.solved.WithOptics), None without them."""
+    tr = getattr(result, "transitions", None)
+    if tr is None:
+        return None
+    if of_result:
+        if name == "transition_energy_error":
+            from fdsolver.optics.solved import transition_energy_error
+
+            return transition_energy_error(result)
+        return getattr(result, name)
+    value = getattr(tr, name, None)
+    if name in ("dipole_error", "oscillator_strength_error") and value is None:
+        return None
+    return value
 PSI_NOTE = "psi in {length}^-1/2; integral psi^2 dx = 1 over the grid (lumped node weights)"
 
 SOLVE = (
@@ -140,6 +158,26 @@ SOLVE = (
     Var("level_energy", ("level", "state"), "f8", "unextrapolated energy on each refinement level", ENERGY,
         source="level_energies"),
     Var("level_nodes", ("level",), "i8", "number of grid nodes per level", required=True, source="level_sizes"),
+    # intersubband optics (fdsolver.optics.solved): present when the solve has states
+    Var("final_state", ("final_state",), "i4", "final bound state of a transition (its Sturm index)", coord=True,
+        source=lambda r: _optics(r, "index", of_result=True)),
+    Var("transition_energy", _SF, "f8", "transition energy E[final_state] - E[state]", ENERGY,
+        source=lambda r: _optics(r, "transition_energy")),
+    Var("transition_energy_error", _SF, "f8", "estimated absolute error of transition_energy (sum of the two "
+        "energies' errors)", ENERGY, source=lambda r: _optics(r, "transition_energy_error", of_result=True)),
+    Var("dipole", _SF, "f8", "dipole matrix element <state|x|final_state> (diagonal: <x>); see dipole_form", LENGTH,
+        source=lambda r: _optics(r, "dipole")),
+    Var("dipole_error", _SF, "f8", "estimated absolute error of dipole", LENGTH, source=lambda r: _optics(r, "dipole_error")),
+    Var("oscillator_strength", _SF, "f8", "intersubband oscillator strength f (velocity form, referred to "
+        "reference_mass; negative for emission)", source=lambda r: _optics(r, "oscillator_strength")),
+    Var("oscillator_strength_error", _SF, "f8", "estimated absolute error of oscillator_strength",
+        source=lambda r: _optics(r, "oscillator_strength_error")),
+    Var("reference_mass", (), "f8", "mass the oscillator strengths are referred to (1/<0|1/m|0>)", MASS,
+        source=lambda r: _optics(r, "reference_mass")),
+    Var("sum_rule", ("state",), "f8", "exact sum over all final states (bound and continuum) of f: "
+        "reference_mass <state|1/m|state>", source=lambda r: _optics(r, "sum_rule")),
+    Var("inplane_mass", ("state",), "f8", "in-plane (2D subband) mass 1/<state|1/m|state>", MASS,
+        source=lambda r: _optics(r, "inplane_mass")),
 )
 
 _ST = PARAMS, "state"

@@ -26,3 +26,38 @@ def label(ds, name: str, text: str | None = None) -> str:
     if not declared(ds, name):
         return f"{text} [units not declared]"
     return f"{text} [{units_of(ds, name) or '1'}]"
+
+
+def mass_text(ds) -> str:
+    """The effective mass of a run as a reader wants it: one value, or the range over the layers."""
+    import numpy as np
+
+    a = ds.attrs
+    masses = np.atleast_1d(np.asarray(a.get("layer_masses", []), dtype=float))
+    if masses.size == 0 and "mass" in ds and getattr(ds["mass"], "dims", ()) == ("x",):
+        masses = np.unique(np.asarray(ds["mass"].values, dtype=float))
+    if masses.size == 0:
+        return f"{float(a.get('particle_mass', 1.0)):.6g} m_e"
+    lo, hi = float(masses.min()), float(masses.max())
+    return f"{lo:.6g} m_e" if lo == hi else f"{lo:.6g} to {hi:.6g} m_e (by layer)"
+
+
+def run_header(ds) -> str:
+    """One line every table starts with: unit system, carrier, mass, and the materials with their temperature."""
+    a = ds.attrs
+    eu = units_of(ds, "energy") if "energy" in ds else str(a.get("units_system", ""))
+    system = a.get("units_system", "")
+    names = {"nm-meV": "energies in meV, lengths in nm", "atomic": "Hartree atomic units: energies in hartree, "
+             "lengths in bohr"}
+    parts = [f"units: {system} ({names.get(system, eu)})", f"carrier: {a.get('carrier', 'electron').replace('_', ' ')}",
+             f"mass: {mass_text(ds)}"]
+    if a.get("materials"):
+        parts.append(f"materials: {a['materials']} at {float(a.get('temperature', 300.0)):g} K")
+    if int(a.get("nonparabolicity", 0)):
+        parts.append("energy-dependent (Kane) mass")
+    return "; ".join(parts)
+
+
+def case_notes(ds) -> list[str]:
+    """The case's own notes (unit system chosen, lattice mismatch) as 'note: ...' lines."""
+    return [f"note: {n}" for n in str(ds.attrs.get("case_notes", "")).splitlines() if n]
