@@ -46,6 +46,11 @@ _LAZY = {
     "threshold": "fdsolver.api",
     "delta_check": "fdsolver.api",
     "delta_map": "fdsolver.api",
+    "solve_optics": "fdsolver.api",
+    "absorption": "fdsolver.api",
+    "interband": "fdsolver.api",
+    "materials": "fdsolver.api",
+    "export_csv": "fdsolver.api",
 }
 
 __all__ = sorted(_LAZY) + ["__version__"]

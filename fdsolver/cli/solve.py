@@ -11,6 +11,8 @@ def register(sub) -> None:
     p.add_argument("-o", "--output", help="write the run to this NetCDF file")
     p.add_argument("--set", action="append", metavar="NAME=VALUE", help="override a [params] entry (repeatable)")
     p.add_argument("--plot", metavar="FIG.png", help="also draw the levels and wavefunctions to this image")
+    p.add_argument("--transitions", action="store_true",
+                   help="also print the strongest intersubband transitions (energies, dipoles, oscillator strengths)")
     p.set_defaults(func=run_solve)
 
     p = sub.add_parser("show", help="print the table of an archive")
@@ -33,7 +35,7 @@ def run_solve(args) -> int:
 
     case = fdsolver.load_case(args.case, **parse_set(args.set))
     rec = solve_record_of(case, action=command("solve", args, [("--set", "set")]))
-    print(format_solve(rec))
+    print(format_solve(rec, transitions=args.transitions))
     if args.output or args.plot:  # xarray is imported only when an archive or a figure is made
         ds = rec.dataset()
         if args.output:

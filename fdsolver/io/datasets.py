@@ -316,3 +316,40 @@ def check(ds: xr.Dataset, path) -> Kind:
                 f"expected {var.dtype} over ({', '.join(map(str, dims))}); it is damaged or was not written by fdsolver",
                 file=str(path))
     return kind
+
+
+def absorption_dataset(case, study, history: str, extra: dict) -> xr.Dataset:
+    """The archive of an intersubband absorption spectrum (:class:`fdsolver.optics.absorption.AbsorptionStudy`).
+
+    ``extra``: global attributes of the run (the solve archive it came from, broadening, refractive index, ...).
+    """
+    attrs = base_attrs(case, "absorption", history)
+    attrs.update({
+        "sheet_density": float(study.sheet_density),
+        "sheet_density_units": "cm-2",
+        "carrier_temperature": float(study.temperature),
+        "carrier_temperature_note": "temperature of the subband populations (Fermi-Dirac), K",
+        "chemical_potential": float(study.chemical_potential),
+        "notes": "\n".join(study.notes),
+        "formula": "A(E) = sum over E_j > E_i of (N_i - N_j) pi e^2 hbar f_ij / (2 eps0 n c m_r m_e) L(E - E_ij), "
+                   "L a Lorentzian of FWHM broadening with unit area",
+        "formula_source": "Lorentz-oscillator cross-section (Hilborn, Am. J. Phys. 50, 982 (1982)); intersubband form "
+                          "as in Helm, Semiconductors and Semimetals 62, ch. 1 (2000)",
+        **extra,
+    })
+    return build("absorption", study, case.units, attrs)
+
+
+def interband_dataset(case, study, history: str) -> xr.Dataset:
+    """The archive of the interband transitions of a stack (:class:`fdsolver.optics.interband.InterbandStudy`)."""
+    attrs = base_attrs(case, "interband", history)
+    attrs.update({
+        "effective_gap": float(study.effective_gap),
+        "effective_gap_note": "lowest conduction-band edge minus highest valence-band edge (case energy unit)",
+        "conduction_band_reference": float(study.electron_reference),
+        "valence_band_reference": float(study.hole_reference),
+        "notes": "\n".join(study.notes),
+        "overlap_note": "squared overlap of the envelope functions only; the Bloch factor (E_P) and the polarisation "
+                        "factors of heavy and light holes are not included; excitons and strain are not modelled",
+    })
+    return build("interband", study, case.units, attrs)

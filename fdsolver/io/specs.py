@@ -301,6 +301,65 @@ DELTA_MAP = (
 )
 
 
+_TR = ("transition",)
+ABSORPTION = (
+    Var("photon_energy", ("photon_energy",), "f8", "photon energy", ENERGY, coord=True, required=True),
+    Var("state", ("state",), "i4", "subband (bound state number of the solve)", coord=True,
+        source=lambda a: np.arange(a.state_energy.size)),
+    Var("transition", _TR, "i4", "index of an upward transition between populated subbands", coord=True,
+        source=lambda a: np.arange(a.transition_initial.size)),
+    Var("absorption", ("photon_energy",), "f8", "fraction of the light absorbed per pass by the sheet, electric "
+        "field along the growth axis", required=True),
+    Var("absorption_coefficient", ("photon_energy",), "f8", "absorption coefficient of a stack with the given period "
+        "(absorption / period)", INVERSE_LENGTH),
+    Var("state_energy", ("state",), "f8", "subband energy", ENERGY, required=True),
+    Var("population", ("state",), "f8", "sheet density of carriers in the subband", "1/length/length", required=True),
+    Var("transition_initial", _TR, "i4", "initial subband of the transition", required=True),
+    Var("transition_final", _TR, "i4", "final subband of the transition", required=True),
+    Var("transition_energy", _TR, "f8", "transition energy", ENERGY, required=True),
+    Var("transition_oscillator_strength", _TR, "f8", "oscillator strength of the transition (referred to the "
+        "solve's reference_mass)"),
+    Var("integrated_absorption", _TR, "f8", "area under the transition's line: integral of its absorption over "
+        "photon energy", ENERGY),
+    Var("transition_absorption", ("transition", "photon_energy"), "f8", "absorption per pass of each transition"),
+)
+
+_EH, _HH, _LH = "electron_state", "heavy_hole_state", "light_hole_state"
+INTERBAND = (
+    Var("x", ("x",), "f8", "position (every node of the three solves' grids)", LENGTH, coord=True, required=True),
+    Var(_EH, (_EH,), "i4", "electron state number (Sturm index)", coord=True, required=True),
+    Var(_HH, (_HH,), "i4", "heavy-hole state number (Sturm index)", coord=True, required=True),
+    Var(_LH, (_LH,), "i4", "light-hole state number (Sturm index)", coord=True, required=True),
+    Var("electron_energy", (_EH,), "f8", "electron confinement energy above the lowest conduction-band edge", ENERGY,
+        required=True),
+    Var("electron_energy_error", (_EH,), "f8", "estimated absolute error of electron_energy", ENERGY),
+    Var("heavy_hole_energy", (_HH,), "f8", "heavy-hole confinement energy below the highest valence-band edge",
+        ENERGY, required=True),
+    Var("heavy_hole_energy_error", (_HH,), "f8", "estimated absolute error of heavy_hole_energy", ENERGY),
+    Var("light_hole_energy", (_LH,), "f8", "light-hole confinement energy below the highest valence-band edge",
+        ENERGY, required=True),
+    Var("light_hole_energy_error", (_LH,), "f8", "estimated absolute error of light_hole_energy", ENERGY),
+    Var("heavy_hole_transition_energy", (_EH, _HH), "f8", "e-hh transition energy: effective gap + electron + "
+        "hole confinement energies", ENERGY, required=True),
+    Var("heavy_hole_transition_energy_error", (_EH, _HH), "f8", "estimated absolute error of "
+        "heavy_hole_transition_energy", ENERGY),
+    Var("heavy_hole_overlap", (_EH, _HH), "f8", "squared envelope overlap |<e|hh>|^2", required=True),
+    Var("heavy_hole_overlap_error", (_EH, _HH), "f8", "estimated absolute error of heavy_hole_overlap"),
+    Var("light_hole_transition_energy", (_EH, _LH), "f8", "e-lh transition energy: effective gap + electron + "
+        "hole confinement energies", ENERGY, required=True),
+    Var("light_hole_transition_energy_error", (_EH, _LH), "f8", "estimated absolute error of "
+        "light_hole_transition_energy", ENERGY),
+    Var("light_hole_overlap", (_EH, _LH), "f8", "squared envelope overlap |<e|lh>|^2", required=True),
+    Var("light_hole_overlap_error", (_EH, _LH), "f8", "estimated absolute error of light_hole_overlap"),
+    Var("conduction_band_edge", ("x",), "f8", "conduction-band edge (absolute scale of the materials data)", ENERGY),
+    Var("valence_band_edge", ("x",), "f8", "valence-band edge (absolute scale of the materials data; heavy and "
+        "light holes share it without strain)", ENERGY),
+    Var("electron_psi", (_EH, "x"), "f8", "electron envelope times sqrt(length unit)", note=PSI_NOTE),
+    Var("heavy_hole_psi", (_HH, "x"), "f8", "heavy-hole envelope times sqrt(length unit)", note=PSI_NOTE),
+    Var("light_hole_psi", (_LH, "x"), "f8", "light-hole envelope times sqrt(length unit)", note=PSI_NOTE),
+)
+
+
 @dataclass(frozen=True)
 class Kind:
     """One archive kind: its ``fdsolver_kind`` attribute, the ``delta_mode`` values that select it, its rows."""
@@ -326,6 +385,8 @@ KINDS: dict[str, Kind] = {
     "threshold": Kind("threshold", "threshold", THRESHOLD),
     "delta_check": Kind("delta_check", "delta_check", LADDER, modes=("replace", "from_finite")),
     "delta_map": Kind("delta_map", "delta_check", DELTA_MAP, modes=("replace_map", "from_finite_map"), axes_attr="map_axes"),
+    "absorption": Kind("absorption", "absorption", ABSORPTION),
+    "interband": Kind("interband", "interband", INTERBAND),
 }
 #: the values of the global attribute fdsolver_kind
 ARCHIVE_KINDS = tuple(dict.fromkeys(k.fdsolver_kind for k in KINDS.values()))

@@ -129,3 +129,116 @@ def absorption_spectrum(photon_energy, energy, oscillator_strength, reference_ma
             raise ValueError("period must be positive")
         coef = total / (float(period) * units.length_si * 100.0)
     return Spectrum(ph, total, coef, pops, tuple(pairs), contrib, float(broadening), float(refractive_index))
+
+
+#: photon-energy samples of a spectrum when none are given
+SPECTRUM_POINTS = 2001
+#: a spectrum reaches this many FWHM beyond the outermost transitions
+SPECTRUM_MARGIN = 8.0
+
+
+@dataclass(frozen=True)
+class AbsorptionStudy:
+    """A spectrum of a solved structure with everything its archive holds (see :func:`absorption_study`)."""
+
+    spectrum: Spectrum
+    state_energy: np.ndarray  # energy unit
+    population: np.ndarray  # per subband, 1/length^2 of the case units
+    transition_initial: np.ndarray
+    transition_final: np.ndarray
+    transition_energy: np.ndarray
+    transition_oscillator_strength: np.ndarray
+    integrated_absorption: np.ndarray  # energy unit: the area under each line
+    sheet_density: float  # cm^-2
+    temperature: float  # K
+    chemical_potential: float  # energy unit, same scale as the state energies
+    notes: tuple[str, ...]
+
+    @property
+    def photon_energy(self) -> np.ndarray:
+        return self.spectrum.photon_energy
+
+    @property
+    def absorption(self) -> np.ndarray:
+        return self.spectrum.absorption
+
+    @property
+    def absorption_coefficient(self):
+        c = self.spectrum.coefficient
+        return None if c is None else c * self._per_cm_to_case
+
+    @property
+    def transition_absorption(self) -> np.ndarray:
+        return self.spectrum.contributions
+
+    _per_cm_to_case: float = 1.0  # one length unit in cm: coefficients in cm^-1 times this are in 1/length
+
+
+def default_photon_energies(transition_energy, broadening: float, n: int = SPECTRUM_POINTS) -> np.ndarray:
+    """From below the lowest to above the highest transition by SPECTRUM_MARGIN FWHM (never below 0)."""
+    e = np.asarray(transition_energy, dtype=float)
+    e = e[np.isfinite(e) & (e > 0)]
+    if e.size == 0:
+        return np.linspace(0.0, 20.0 * broadening, n)
+    lo = max(0.0, float(e.min()) - SPECTRUM_MARGIN * broadening)
+    hi = float(e.max()) + SPECTRUM_MARGIN * broadening
+    return np.linspace(lo, hi, n)
+
+
+def absorption_study(energy, oscillator_strength, inplane_mass, reference_mass: float, units: UnitSystem, *,
+                     sheet_density: float, broadening: float, temperature: float, refractive_index: float = 3.3,
+                     period: float | None = None, photon_energy=None, threshold: float = math.inf) -> AbsorptionStudy:
+    """The intersubband absorption of ``sheet_density`` (cm^-2) carriers at ``temperature`` (K) in the solved subbands.
+
+    ``energy`` (state,) subband energies, ``oscillator_strength`` (state, final_state) referred to
+    ``reference_mass``, ``inplane_mass`` (state,) in m_e, ``broadening`` the Lorentzian FWHM in the energy
+    unit, ``threshold`` the continuum threshold (notes when carriers reach it).  The carriers fill only
+    the subbands given: a note says when the highest one holds more than 0.1 % of them.
+    """
+    e = np.asarray(energy, dtype=float)
+    pops = subband_populations(e, inplane_mass, sheet_density, temperature, units)
+    if photon_energy is None:
+        ph = default_photon_energies((e[None, :] - e[:, None])[np.triu_indices(e.size, 1)], broadening)
+    else:
+        ph = np.asarray(photon_energy, dtype=float)
+    spec = absorption_spectrum(ph, e, oscillator_strength, reference_mass, pops, broadening, units,
+                               refractive_index, period)
+    pre = cross_section_prefactor(units, refractive_index) / float(reference_mass)
+    f = np.asarray(oscillator_strength, dtype=float)
+    ii = np.array([p[0] for p in spec.pairs], dtype=int)
+    jj = np.array([p[1] for p in spec.pairs], dtype=int)
+    area = (pops[ii] - pops[jj]) * pre * f[ii, jj] if ii.size else np.zeros(0)
+    notes = []
+    total = float(np.sum(pops))
+    if e.size and total > 0 and pops[-1] > 1e-3 * total:
+        notes.append(f"the highest solved subband holds {100 * pops[-1] / total:.2g} % of the carriers: higher subbands "
+                     "may be filled too; raise [solve] max_states and solve again")
+    mu = _chemical_potential(e, inplane_mass, sheet_density, temperature, units)
+    if math.isfinite(threshold) and math.isfinite(mu) and mu > threshold:
+        notes.append("the chemical potential lies above the continuum threshold: carriers in the continuum are not "
+                     "counted")
+    cm_per_unit = units.length_si * 100.0  # one length unit in cm
+    pop_case = pops * cm_per_unit**2  # cm^-2 -> 1/length^2
+    out = AbsorptionStudy(spec, e, pop_case, ii, jj, (e[jj] - e[ii]) if ii.size else np.zeros(0),
+                          f[ii, jj] if ii.size else np.zeros(0), area, float(sheet_density), float(temperature), mu,
+                          tuple(notes), cm_per_unit)
+    return out
+
+
+def _chemical_potential(energy, inplane_mass, sheet_density, temperature, units: UnitSystem) -> float:
+    """The chemical potential (energy unit) that puts ``sheet_density`` cm^-2 into the subbands (NaN if empty)."""
+    e = np.asarray(energy, dtype=float)
+    if e.size == 0 or not sheet_density > 0:
+        return math.nan
+    g = np.asarray(inplane_mass, dtype=float) * sc.m_e / (math.pi * sc.hbar**2) * 1e-4 * units.energy_si
+    kt = sc.k * float(temperature) / units.energy_si
+
+    def fill(mu):
+        if kt == 0:
+            return float(np.sum(g * np.clip(mu - e, 0.0, None)))
+        z = (mu - e) / kt
+        return float(np.sum(g * kt * np.where(z > 30, z + np.log1p(np.exp(-np.abs(z))), np.log1p(np.exp(np.minimum(z, 30))))))
+
+    lo = e.min() - 50 * kt - sheet_density / g.sum() - 1.0
+    hi = e.max() + 50 * kt + sheet_density / g.min() + 1.0
+    return float(brentq(lambda m: fill(m) - sheet_density, lo, hi, xtol=1e-14 * max(1.0, abs(e).max()), maxiter=500))

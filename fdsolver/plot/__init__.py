@@ -15,6 +15,8 @@ PLOTTERS = {
     "delta_check": "fdsolver.plot.delta:plot_delta",
     "sweep": "fdsolver.plot.sweep:plot_sweep",
     "threshold": "fdsolver.plot.sweep:plot_sweep",
+    "absorption": "fdsolver.plot.optics:plot_absorption",
+    "interband": "fdsolver.plot.optics:plot_interband",
 }
 
 

@@ -14,6 +14,8 @@ FORMATTERS = {
     "delta_check": "fdsolver.report.delta:format_delta",
     "sweep": "fdsolver.report.sweep:format_sweep",
     "threshold": "fdsolver.report.sweep:format_sweep",
+    "absorption": "fdsolver.report.optics:format_absorption",
+    "interband": "fdsolver.report.optics:format_interband",
 }
 
 
