@@ -84,9 +84,10 @@ def case_attrs(case) -> dict:
         "temperature": float(getattr(case, "temperature", 300.0)),
         "temperature_units": "K",
         "nonparabolicity": int(bool(getattr(case, "nonparabolicity", False))),
-        "case_notes": "\n".join(getattr(case, "notes", ())),
         "param_units": json.dumps(getattr(case, "param_units", {}), sort_keys=True),
     }
+    if getattr(case, "notes", ()):
+        out["case_notes"] = "\n".join(case.notes)
     if info is not None:
         bands = info.bands
         out.update({
@@ -337,6 +338,8 @@ def absorption_dataset(case, study, history: str, extra: dict) -> xr.Dataset:
                           "as in Helm, Semiconductors and Semimetals 62, ch. 1 (2000)",
         **extra,
     })
+    if not attrs["notes"]:
+        del attrs["notes"]
     return build("absorption", study, case.units, attrs)
 
 
@@ -352,4 +355,6 @@ def interband_dataset(case, study, history: str) -> xr.Dataset:
         "overlap_note": "squared overlap of the envelope functions only; the Bloch factor (E_P) and the polarisation "
                         "factors of heavy and light holes are not included; excitons and strain are not modelled",
     })
+    if not attrs["notes"]:
+        del attrs["notes"]
     return build("interband", study, case.units, attrs)

@@ -207,6 +207,24 @@ SWEEP = (
     Var("threshold_uncertainty", ("threshold",), "f8", "uncertainty of threshold_value", PARAM),
     Var("threshold_state", ("threshold",), "i4", "node count of the state that appears"),
     Var("threshold_direction", ("threshold",), "i1", "+1 binds as the param increases, -1 as it decreases"),
+    Var("psi_norm", _ST, "f8", "norm integral psi^2 dx that psi keeps on the common grid (below 1: cut by the grid's "
+        "ends or too coarse there); NaN where the state does not exist"),
+    Var("mean_x", _ST, "f8", "expectation value of position <x>", LENGTH),
+    Var("spread", _ST, "f8", "position spread sqrt(<x^2> - <x>^2)", LENGTH),
+    Var("wall_state", _ST, "i1", "the state lives at a hard wall, not in the structure",
+        flags=("no_such_state", "left_wall", "structure", "right_wall"), flag_start=-2),
+    Var("region", ("region",), "i4", "index of the named component or layer (see region_name)", coord=True),
+    Var("region_name", ("region",), "str", "name of the component or layer", None),
+    Var("probability_inside", (PARAMS, "state", "region"), "f8", "probability inside each named component or layer"),
+    Var("final_state", ("final_state",), "i4", "final state of a transition (node count; the lowest states only)",
+        coord=True),
+    Var("dipole", (PARAMS, "state", "final_state"), "f8", "dipole matrix element <state|x|final_state> (length form, "
+        "one grid; diagonal: <x>)", LENGTH),
+    Var("oscillator_strength", (PARAMS, "state", "final_state"), "f8", "intersubband oscillator strength (velocity "
+        "form, one grid, referred to reference_mass; negative for emission)"),
+    Var("oscillator_strength_error", (PARAMS, "state", "final_state"), "f8", "estimated absolute error of "
+        "oscillator_strength (difference of the length and velocity forms)"),
+    Var("reference_mass", (PARAMS,), "f8", "mass the oscillator strengths are referred to (1/<0|1/m|0>)", MASS),
 )
 
 THRESHOLD = (
