@@ -389,7 +389,13 @@ def interband(case, *, action: str | None = None) -> xr.Dataset:
     be, bh = ce.stack_info.bands, ch.stack_info.bands
     study = interband_study((ce.potential, se), (ch.potential, sh), (cl.potential, sl), effective_gap(be, bh),
                             be.reference, bh.reference, tuple(dict.fromkeys(notes)))
-    return interband_dataset(case, study, stamp(action or f"interband {_where(case)}"))
+    import numpy as np
+
+    ds = interband_dataset(ce, study, stamp(action or f"interband {_where(case)}"))
+    ds.attrs["heavy_hole_layer_masses"] = np.array(bh.mass, dtype=float)
+    ds.attrs["light_hole_layer_masses"] = np.array(cl.stack_info.bands.mass, dtype=float)
+    ds.attrs["carrier"] = "electron, heavy_hole, light_hole"
+    return ds
 
 
 def _has_field_units(case: Case) -> bool:

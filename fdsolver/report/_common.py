@@ -51,6 +51,16 @@ def run_header(ds) -> str:
              "lengths in bohr"}
     parts = [f"units: {system} ({names.get(system, eu)})", f"carrier: {a.get('carrier', 'electron').replace('_', ' ')}",
              f"mass: {mass_text(ds)}"]
+    if a.get("fdsolver_kind") == "interband":
+        import numpy as np
+
+        def rng(key):
+            v = np.atleast_1d(np.asarray(a.get(key, []), dtype=float))
+            return "?" if v.size == 0 else (f"{v.min():.6g}" if v.min() == v.max() else f"{v.min():.6g} to {v.max():.6g}")
+
+        parts[1:] = ["carriers: electrons, heavy and light holes",
+                     f"masses by layer: electrons {rng('layer_masses')}, heavy holes {rng('heavy_hole_layer_masses')}, "
+                     f"light holes {rng('light_hole_layer_masses')} m_e"]
     if a.get("materials"):
         parts.append(f"materials: {a['materials']} at {float(a.get('temperature', 300.0)):g} K")
     if int(a.get("nonparabolicity", 0)):

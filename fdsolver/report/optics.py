@@ -74,7 +74,7 @@ def format_interband(ds) -> str:
     """The interband table: levels of each carrier, then the e-h transitions by energy with their overlaps."""
     a = ds.attrs
     eu = units_of(ds, "electron_energy")
-    lines = [a.get("title", ""), run_header(ds).replace("carrier: electron; ", "carriers: electrons, heavy and light holes; "),
+    lines = [a.get("title", ""), run_header(ds),
              f"effective gap (lowest conduction-band edge - highest valence-band edge): {float(a['effective_gap']):.8g} {eu}"]
     for name, label in (("electron", "e"), ("heavy_hole", "hh"), ("light_hole", "lh")):
         e, err = ds[f"{name}_energy"].values, ds[f"{name}_energy_error"].values if f"{name}_energy_error" in ds else None
