@@ -134,6 +134,7 @@ def _plot_levels(ds, path) -> None:
 def _plot_map(ds, path) -> None:
     from matplotlib.colors import ListedColormap
     from matplotlib.patches import Patch
+    from matplotlib.ticker import FormatStrFormatter, LogLocator, NullFormatter
 
     names = json.loads(ds.attrs["map_axes"])
     n_s = ds.sizes["state"]
@@ -165,9 +166,13 @@ def _plot_map(ds, path) -> None:
         if ds.overlap.values.any():
             ov = np.where(ds.overlap.values.T > 0, 1.0, np.nan)
             ax.pcolormesh(xa.values, ya.values, ov, shading="nearest", cmap=ListedColormap(["white"]))
-        for axis, coord in ((ax.set_xscale, xa), (ax.set_yscale, ya)):
+        for axis, coord, which in ((ax.set_xscale, xa, ax.xaxis), (ax.set_yscale, ya, ax.yaxis)):
             if coord.attrs.get("spacing") == "log":
                 axis("log")
+                # a short log axis: ticks at 1, 2 and 5 per decade as plain numbers (minor labels ran into each other)
+                which.set_major_locator(LogLocator(subs=(1.0, 2.0, 5.0)))
+                which.set_major_formatter(FormatStrFormatter("%g"))
+                which.set_minor_formatter(NullFormatter())
         ax.set_xlabel(label(ds, names[0]))
         ax.set_ylabel(label(ds, names[1]))
         ax.set_title(f"state {k}", fontsize=10)

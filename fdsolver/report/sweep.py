@@ -6,7 +6,7 @@ import json
 
 import numpy as np
 
-from fdsolver.report._common import declared, units_of
+from fdsolver.report._common import case_notes, declared, run_header, units_of
 
 TABLE_ROWS = 30
 
@@ -58,7 +58,7 @@ def format_threshold(ds, first_only: bool = True, state=None) -> str:
     lo, hi = info["interval"]
     n_lo, n_hi = info["bound_states_at_lo"], info["bound_states_at_hi"]
     rng = f"{name} from {_with_units(lo, u, 'g')} to {_with_units(hi, u, 'g')}"
-    lines = []
+    lines = [run_header(ds)]
     if not info["found"]:
         who = f"state {state} neither appears nor disappears" if state is not None else "no bound state appears or disappears"
         lines.append(f"{who} for {rng}: {n_lo} bound state(s) at {name} = {_with_units(lo, u, 'g')}, "
@@ -102,7 +102,8 @@ def format_sweep(ds) -> str:
     a = ds.attrs
     names = json.loads(a.get("swept_params", "[]"))
     eu = units_of(ds, "energy")
-    lines = [a.get("title", ""), f"sweep of {int(a.get('points', 0))} points; energies in {eu}; states labelled by node count"]
+    lines = [a.get("title", ""), run_header(ds),
+             f"sweep of {int(a.get('points', 0))} points; energies in {eu}; states labelled by node count"]
     lines.extend("  " + _axis_text(ds, n) for n in names)
     fixed = json.loads(a.get("fixed_params", "{}"))
     if fixed:
@@ -131,6 +132,7 @@ def format_sweep(ds) -> str:
         lines.append(f"note: {nc} state value(s) not converged to the tolerance (converged = 0)")
     if int(a.get("failed_points", 0)):
         lines.append(f"note: {int(a['failed_points'])} point(s) could not be solved (solved = 0)")
+    lines.extend(case_notes(ds))
     notes = a.get("notes", "")
     if notes:
         lines.append(f"notes ({int(a.get('notes_count', 0))}):")
@@ -159,7 +161,7 @@ def _format_threshold_archive(ds) -> str:
     a = ds.attrs
     name = json.loads(a.get("swept_params", '["param"]'))[0]
     u = units_of(ds, "threshold_value")
-    lines = [a.get("title", ""), f"binding thresholds of {name} (zero-energy phase, no box)"]
+    lines = [a.get("title", ""), run_header(ds), f"binding thresholds of {name} (zero-energy phase, no box)"]
     lo, hi = ds.scan.values[0], ds.scan.values[-1]
     lines.append(f"interval {name} = {lo:g} .. {hi:g} {u}; bound states {a.get('bound_states_at_lo')} at {lo:g}, {a.get('bound_states_at_hi')} at {hi:g}")
     if ds.sizes.get("threshold", 0) == 0:
