@@ -147,6 +147,8 @@ def to_case_units(number: float, unit: str, dimension: str, system, carrier: str
                 q.check("[mass] * [length] / [time] ** 3 / [current]"):
             q = q * registry().elementary_charge * CARRIER_SIGN.get(carrier, 1)
         if dimension == ENERGY and not q.check("[energy]"):
+            if not (q.check("1 / [length]") or q.check("1 / [time]")):  # a wavelength is no energy (refused)
+                raise pint.errors.DimensionalityError(unit, "J")
             si = q.to("J", "sp").magnitude
         elif dimension == TEMPERATURE:
             si = q.to("K").magnitude
