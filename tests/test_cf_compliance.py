@@ -49,9 +49,12 @@ def _archives(folder: Path) -> dict[str, Path]:
     atomic = fdsolver.case_from_dict(ATOMIC)
     points = fdsolver.case_from_dict(ATOMIC_POINTS)
     pair = fdsolver.load_case(CASES / "impurity_pair.toml")
+    well = fdsolver.load_case(CASES / "algaas_well.toml")
+    well_run = fdsolver.solve(well)
+    atomic_run = fdsolver.solve(atomic)
     made = {
         "solve": fdsolver.solve(fdsolver.load_case(CASES / "coupled_wells.toml")),
-        "solve atomic": fdsolver.solve(atomic),
+        "solve atomic": atomic_run,
         "sweep": fdsolver.sweep(CASES / "double_square.toml", ["d=0.5:3:4"], executor="serial", save_psi=True),
         "sweep atomic": fdsolver.sweep(atomic, ["d=0.1:4:5"], executor="serial", save_psi=True),
         "sweep atomic two params": fdsolver.sweep(atomic, ["d=0.5:4:3", "V0=0.5,1"], executor="serial"),
@@ -62,6 +65,10 @@ def _archives(folder: Path) -> dict[str, Path]:
         "delta_check from finite": fdsolver.delta_check(CASES / "impurity_pair_finite.toml", from_finite=True),
         "delta_map": fdsolver.delta_map(pair, ["width=0.3:6:3", "d=9.2:10.6:3"], executor="serial"),
         "delta_map atomic": fdsolver.delta_map(points, ["width=0.01:1:3", "d=2:6:3"], executor="serial"),
+        "solve of materials": well_run,
+        "absorption": fdsolver.absorption(well_run, density="1e11 cm^-2", broadening="5 meV", energies="50:300:64"),
+        "absorption atomic": fdsolver.absorption(atomic_run, density=1e11, broadening=1e-3, period=20.0),
+        "interband": fdsolver.interband(well),
     }
     out = {}
     for name, ds in made.items():
@@ -75,7 +82,8 @@ def archives(tmp_path_factory) -> dict[str, Path]:
 
 
 NAMES = ["solve", "solve atomic", "sweep", "sweep atomic", "sweep atomic two params", "threshold", "threshold atomic",
-         "delta_check", "delta_check atomic", "delta_check from finite", "delta_map", "delta_map atomic"]
+         "delta_check", "delta_check atomic", "delta_check from finite", "delta_map", "delta_map atomic",
+         "solve of materials", "absorption", "absorption atomic", "interband"]
 
 
 def test_every_archive_kind_is_covered(archives):
@@ -98,13 +106,16 @@ def test_every_units_attribute_is_a_udunits_unit(archives, name):
         seen += 1
     assert seen >= 5
     if "atomic" in name:  # bohr and hartree are written as scaled SI units (CODATA, scipy.constants), named beside them
-        energy = ds["energy" if "energy" in ds else "threshold_value"]
+        energy = ds[next(n for n in ("energy", "photon_energy", "threshold_value") if n in ds.variables)]
         hartree = physical_constants["Hartree energy"][0]
-        if energy.name == "energy":
+        if energy.name in ("energy", "photon_energy"):
             assert energy.attrs["units_name"] == "hartree"
             assert cf_units.Unit(energy.attrs["units"]).convert(1.0, "J") == pytest.approx(hartree, rel=1e-12)
         lengths = [v for v in ds.variables.values() if v.attrs.get("units_name") == "bohr"]
-        assert lengths, "no length in bohr"
+        inverse = [v for v in ds.variables.values() if v.attrs.get("units_name") == "1/bohr"]
+        assert lengths or inverse, "no length in bohr"
+        for v in inverse:  # an absorption coefficient per bohr
+            assert cf_units.Unit(v.attrs["units"]).convert(1.0, "m-1") == pytest.approx(1 / physical_constants["Bohr radius"][0], rel=1e-12)
         for v in lengths:
             assert cf_units.Unit(v.attrs["units"]).convert(1.0, "m") == pytest.approx(physical_constants["Bohr radius"][0], rel=1e-12)
 
