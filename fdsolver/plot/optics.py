@@ -102,7 +102,7 @@ def _levels(ax, x, edge, energies, psi, reference, sign, style, name, lo, hi, sp
         scale = PSI_FRACTION * span / max(np.max(np.abs(p)), 1e-300)
         line = ax.plot(x[sel], level + sign * scale * p, lw=1.1, ls=style,
                        label=f"{name}{k + 1}: {eps:.4g}")[0]
-        ax.plot([lo, hi], [level, level], color=line.get_color(), lw=0.5, ls=(0, (4, 3)))
+        ax.plot([lo, hi], [level, level], color=line.get_color(), lw=0.5, alpha=0.6)  # the level: thin and solid
 
 
 def _window(ds):
@@ -167,15 +167,21 @@ def plot_interband(ds, path) -> None:
         tag = "hh" if hole == "heavy_hole" else "lh"
         rows += [(float(te[i, j]), float(ov[i, j]), f"e{i + 1}-{tag}{j + 1}") for i in range(te.shape[0])
                  for j in range(te.shape[1])]
-    allowed = sorted(r for r in rows if r[1] > 1e-3)[:NAMED]
-    for e, o, name in allowed:  # heavy holes named to the left of their stem, light holes to the right
+    energies = [r[0] for r in rows]
+    span = max(max(energies) - min(energies), 1e-300) if energies else 1.0
+    # the strongest transitions are named (heavy holes left of their stem, light holes right), a name only where it
+    # keeps clear of the names already placed (a name is about 7 % of the energy axis wide and 5 % of the height)
+    placed: list[tuple[float, float]] = []
+    for e, o, name in sorted((r for r in rows if r[1] > 0.05), key=lambda r: -r[1])[:NAMED]:
         left = "hh" in name
+        centre = e - 0.04 * span if left else e + 0.04 * span
+        if any(abs(centre - c) < 0.08 * span and abs(o - y) < 0.06 for c, y in placed):
+            continue
+        placed.append((centre, o))
         right.annotate(name, (e, o), xytext=(-3 if left else 3, 3), textcoords="offset points", fontsize=7,
                        ha="right" if left else "left")
     right.set_ylim(0.0, 1.12)
-    energies = [r[0] for r in rows]
     if energies:
-        span = max(max(energies) - min(energies), 1e-300)
         right.set_xlim(min(energies) - 0.1 * span, max(energies) + 0.05 * span)  # room for the names
     right.set_xlabel(f"transition energy [{eu}]")
     right.set_ylabel("envelope overlap |<e|h>|^2 [1]")

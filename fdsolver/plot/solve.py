@@ -99,7 +99,7 @@ def plot_solve(ds, path) -> None:
         ls, tag = _style(ds, k)
         state = int(ds.state.values[k]) if "state" in ds else k
         line = ax.plot(x[sel], e + scale * p, lw=1.3, ls=ls, label=f"state {state}: {e:.6g} {eu}{tag}", zorder=4)[0]
-        ax.plot([lo, hi], [e, e], color=line.get_color(), lw=0.6, ls=(0, (4, 3)), zorder=2)
+        ax.plot([lo, hi], [e, e], color=line.get_color(), lw=0.5, alpha=0.6, zorder=2)  # the energy level: thin and solid (dashes mean not converged)
     if np.isfinite(thr):
         ax.axhline(thr, color="0.5", lw=0.9, ls=":", label=f"continuum threshold {thr:.6g} {eu}")
     first = True
