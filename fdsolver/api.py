@@ -399,7 +399,8 @@ def interband(case, *, action: str | None = None) -> xr.Dataset:
 
 
 def _has_field_units(case: Case) -> bool:
-    """True if every [[potential]] component of the case data gives its values with electrostatic units."""
+    """True if every [[potential]] component of the case data gives its values with electrostatic units (its own,
+    or those of the [params] entry it names)."""
     from fdsolver.input.quantities import split_quantity
 
     for comp in case.data.get("potential") or []:
@@ -408,7 +409,8 @@ def _has_field_units(case: Case) -> bool:
                      "v_column", "V", "a"):
                 continue
             q = split_quantity(v)
-            if q is None or "V" not in q[1] or "eV" in q[1]:
+            unit = q[1] if q is not None else case.param_units.get(v.strip()) if isinstance(v, str) else None
+            if unit is None or "V" not in unit or "eV" in unit:  # a plain param reference takes its param's unit
                 return False
     return True
 
