@@ -120,6 +120,7 @@ def format_sweep(ds) -> str:
             lines.append(f"state {int(s)}: exists at no point")
     if len(names) == 1 and ds.sizes[names[0]] <= TABLE_ROWS:
         lines.extend(_table(ds, names[0], eu))
+        lines.extend(_position_table(ds, names[0]))
     if "tunnel_splitting" in ds and np.isfinite(ds.tunnel_splitting.values).any():
         ts = ds.tunnel_splitting.values
         lines.append(f"tunnel splitting E1 - E0: {np.nanmin(ts):.6g} to {np.nanmax(ts):.6g} {eu} where both states exist")
@@ -153,6 +154,28 @@ def _table(ds, name, eu) -> list[str]:
         if has_split:
             row += f"  {ds.tunnel_splitting.values[i]:14.6g}"
         row += f"  {int(ds.bound_states.values[i]):5d}"
+        rows.append(row.replace("nan", "  -"))
+    return rows
+
+
+#: states whose <x> and strengths from the ground state the position table shows
+POSITION_STATES = 3
+
+
+def _position_table(ds, name) -> list[str]:
+    """Per point: <x> of the lowest states and the oscillator strengths from state 0 (all in the archive and
+    in ``fdsolver export``)."""
+    if "mean_x" not in ds:
+        return []
+    pu, lu = units_of(ds, name), units_of(ds, "mean_x")
+    ks = [int(s) for s in ds.state.values][:POSITION_STATES]
+    fs = [int(j) for j in ds.final_state.values if 0 < int(j) <= POSITION_STATES] if "oscillator_strength" in ds else []
+    head = f"{name + (' [' + pu + ']' if pu else ''):>14}" + "".join(f"  {'<x>' + str(k) + ' [' + lu + ']':>14}" for k in ks)
+    head += "".join(f"  {'f0' + str(j):>10}" for j in fs)
+    rows = [f"position and strength from state 0 (<x>: mean position; f0j: oscillator strength 0 -> j):", head]
+    for i, v in enumerate(ds[name].values):
+        row = f"{v:14.6g}" + "".join(f"  {ds.mean_x.values[i, k]:14.6g}" for k in range(len(ks)))
+        row += "".join(f"  {ds.oscillator_strength.values[i, 0, j]:10.5f}" for j in fs)
         rows.append(row.replace("nan", "  -"))
     return rows
 
