@@ -37,7 +37,7 @@ def format_solve(ds: xr.Dataset, transitions: bool = True) -> str:
                      f"{float(a['band_reference']):.10g} {sign} energy [{eu}]")
     params = json.loads(a.get("params", "{}"))
     if params:
-        lines.append("params: " + ", ".join(f"{k} = {v:.10g}" for k, v in params.items()))
+        lines.append("params: " + ", ".join(_param_text(a, k, v) for k, v in params.items()))
     n = ds.sizes.get("state", 0)
     count = int(a.get("bound_state_count", n))
     if n == 0 and count == 0:
@@ -153,3 +153,16 @@ def _state_table(ds: xr.Dataset, eu: str, lu: str) -> list[str]:
             f"{'yes' if int(ds.converged.values[k]) else 'NO'}"
         )
     return rows
+
+
+def _param_text(attrs, name: str, value: float) -> str:
+    """``name = value``, in the unit the case gave the param in (``F = 20 kV/cm``), else in the case units."""
+    given = json.loads(attrs.get("param_units", "{}") or "{}").get(name)
+    if not given:
+        return f"{name} = {value:.10g}"
+    from fdsolver.input.quantities import dimension_of_unit, factor
+    from fdsolver.model.units import UNIT_SYSTEMS
+
+    size = factor(given, dimension_of_unit(given), UNIT_SYSTEMS[attrs.get("units_system", "nm-meV")],
+                  str(attrs.get("carrier", "electron")))
+    return f"{name} = {value / size + 0.0:.10g} {given}"  # + 0.0: no "-0" where a hole picture flips a zero
