@@ -158,7 +158,7 @@ def _plot_map(ds, names, path) -> None:
     if _log(ds, ya):
         ax.set_yscale("log")
     extra = ", ".join(f"{n} = {ds[n].values[i]:.4g}" for n, i in sel.items())
-    ax.set_title(ds.attrs.get("title", "") + (f"\n(at {extra})" if extra else ""), fontsize=10)
+    ax.set_title(f"{ds.attrs.get('title', '')}\n{run_subtitle(ds)}" + (f"\n(at {extra})" if extra else ""), fontsize=9.5)
     save(fig, path)
 
 
@@ -179,9 +179,10 @@ def _plot_threshold(ds, path) -> None:
     u = units_of(ds, "scan")
     for v, s in zip(ds.threshold_value.values, ds.threshold_state.values):
         ax.axvline(v, color="0.35", lw=0.9, ls="--")
-        ax.annotate(f"state {int(s)}: {v:.8g} {u}".rstrip(), (v, int(s)), xytext=(4, 4), textcoords="offset points", fontsize=7)
+        # below the level, right of the line: the margin rises through it there, so the text stays off the curve
+        ax.annotate(f"state {int(s)}: {v:.8g} {u}".rstrip(), (v, int(s)), xytext=(4, -11), textcoords="offset points", fontsize=7)
     ax.set_xlabel(label(ds, "scan", name))
     ax.set_ylabel("phase margin (state N bound where it exceeds N) [1]")
-    ax.set_title(ds.attrs.get("title", ""))
+    ax.set_title(f"{ds.attrs.get('title', '')}\n{run_subtitle(ds)}", fontsize=9.5)
     ax.legend(fontsize=7, loc="best")
     save(fig, path)
