@@ -78,7 +78,10 @@ def solve_optics(case: Case, refine: bool = True):
     from fdsolver.optics.solved import WithOptics, transitions_of
 
     sol = solve_case(case)
-    return WithOptics(sol, transitions_of(case.potential, sol, case.units, refine=refine))
+    info = getattr(case, "stack_info", None)
+    # confinement energies back on the library's absolute scale (holes: energies mirrored)
+    band = info.bands.absolute(sol.energy) if info is not None else None
+    return WithOptics(sol, transitions_of(case.potential, sol, case.units, refine=refine), band)
 
 
 def solve(case: Case | str | os.PathLike, action: str | None = None) -> xr.Dataset:

@@ -126,3 +126,24 @@ def test_material_layer_refuses_raw_band_edge():
                       {"material": "AlGaAs", "x": 0.3}]}
     with pytest.raises(CaseError, match="layer\\[2\\].band_edge"):
         fdsolver.case_from_dict(data)
+
+
+@pytest.mark.parametrize("carrier", ["electron", "heavy_hole"])
+def test_states_reported_on_the_absolute_band_scale(carrier):
+    """Electrons sit above the well's conduction-band edge, holes below its valence-band maximum, by their
+    confinement energy (the hole picture mirrors energies: common practice, no source)."""
+    from fdsolver.model.materials import load_library, stack_materials
+
+    data = {"title": "well (invented)", "units": "nm-meV", "carrier": carrier,
+            "layer": [{"material": "AlGaAs", "x": 0.3}, {"material": "GaAs", "thickness": "10 nm"},
+                      {"material": "AlGaAs", "x": 0.3}], "solve": {"max_states": 2}}
+    ds = fdsolver.solve(fdsolver.case_from_dict(data))
+    gaas = stack_materials([{"material": "GaAs", "x": None, "overrides": {}}], 300.0, load_library())[0]
+    e = ds.energy.values
+    assert np.all(e > 0)
+    if carrier == "electron":
+        expected = 1e3 * gaas.conduction_band_edge + e
+    else:
+        expected = 1e3 * gaas.valence_band_offset - e
+    np.testing.assert_allclose(ds.band_energy.values, expected, rtol=1e-12)
+    assert ds.band_energy.attrs["units"] == "meV"

@@ -132,6 +132,8 @@ SOLVE = (
     Var("region_name", ("region",), "str", "name of the component or layer", None, source="region_names"),
     Var("energy", ("state",), "f8", "bound-state energy (Richardson-extrapolated)", ENERGY, required=True),
     Var("energy_error", ("state",), "f8", "estimated absolute error of energy", ENERGY, required=True),
+    Var("band_energy", ("state",), "f8", "absolute band energy of the state on the materials library's scale "
+        "(electron energy; a stack of named materials only)", ENERGY, source=lambda r: getattr(r, "band_energy", None)),
     Var("converged", ("state",), "i1", "1 if energy_error is below the tolerance", flags=("not_converged", "converged"),
         required=True),
     Var("nodes", ("state",), "i4", "number of nodes of the wavefunction", required=True),

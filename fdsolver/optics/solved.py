@@ -34,6 +34,9 @@ class WithOptics:
 
     solution: Any
     transitions: Transitions | None
+    #: absolute band energy of each state on the materials library's scale (case energy unit), for a stack of
+    #: named materials: band_reference + energy for electrons, band_reference - energy in the hole picture
+    band_energy: Any = None
 
     def __getattr__(self, name: str):
         if name.startswith("__"):
