@@ -48,6 +48,8 @@ def format_solve(ds: xr.Dataset, transitions: bool = True) -> str:
         lines.extend(_state_table(ds, eu, lu))
     if transitions and n >= 2 and "oscillator_strength" in ds:
         lines.extend(transition_lines(ds))
+    elif transitions and n < 2:
+        lines.append(f"no intersubband transition: {n} state(s) solved, a transition needs two")
     lev = ds.level_nodes.values
     if lev.size:
         lines.append(f"grid: {lev.size} nested levels, {int(lev[0])} to {int(lev[-1])} nodes; tolerance {a.get('tolerance'):.1e} relative")
