@@ -80,8 +80,8 @@ def transition_lines(ds, count: int = TRANSITIONS_SHOWN) -> list[str]:
     eu, lu = units_of(ds, "energy"), units_of(ds, "x")
     states = ds.state.values
     has_err = "oscillator_strength_error" in ds
-    out = [f"strongest intersubband transitions (light polarised along x; f referred to "
-           f"{float(ds.reference_mass.values):.5g} m_e, velocity form):",
+    out = [f"strongest intersubband transitions (light polarised along x; f in velocity form, referred to the "
+           f"mass m_r = 1/<0|1/m|0> = {float(ds.reference_mass.values):.5g} m_e):",
            f"{'from':>5} {'to':>4}  {'energy [' + eu + ']':>16}  {'error':>9}  {'|dipole| [' + lu + ']':>16}  "
            f"{'error':>9}  {'f':>11}  {'error':>9}  {'wavelength [um]':>15}"]
     for i, j in strongest_pairs(ds, count):
