@@ -91,6 +91,8 @@ def _plot_line(ds, name, path) -> None:
     if wall is not None and np.any((wall == -1) | (wall == 1)):
         i, k = np.nonzero((wall == -1) | (wall == 1))
         ax.plot(x[i], ds.energy.values[i, k], "s", mfc="none", color="0.3", ms=6, label=wall_label, zorder=5)
+        if "mean_x" in by:  # the same marks where <x> is drawn: a wall state's <x> follows the walls, not the structure
+            by["mean_x"].plot(x[i], ds.mean_x.values[i, k], "s", mfc="none", color="0.3", ms=6, zorder=5)
     vt = ds.continuum_threshold.values
     if np.isfinite(vt).any():
         ax.plot(x, vt, color="0.5", lw=0.9, ls=":", label="continuum threshold")
