@@ -147,3 +147,14 @@ def test_states_reported_on_the_absolute_band_scale(carrier):
         expected = 1e3 * gaas.valence_band_offset - e
     np.testing.assert_allclose(ds.band_energy.values, expected, rtol=1e-12)
     assert ds.band_energy.attrs["units"] == "meV"
+
+
+def test_override_with_a_wrong_unit_is_refused():
+    """A mass typed in kg (a unit slip) is converted by pint to ~1e29 m_e and refused with the layer's key."""
+    data = {"title": "slip (invented)", "units": "nm-meV",
+            "layer": [{"material": "AlGaAs", "x": 0.3},
+                      {"material": "GaAs", "thickness": 10, "overrides": {"electron_mass": "0.07 kg"}},
+                      {"material": "AlGaAs", "x": 0.3}]}
+    with pytest.raises(CaseError, match="electron_mass") as err:
+        fdsolver.case_from_dict(data)
+    assert "layer[2]" in str(err.value) and "outside the accepted" in str(err.value)

@@ -41,6 +41,13 @@ OVERRIDABLE = (
     "varshni_alpha", "varshni_beta", "coth_amplitude", "coth_theta",
 )
 
+#: where a value must lie to be taken (generous bounds around every III-V band: a unit slip lands far outside;
+#: common practice, no source)
+PLAUSIBLE = MappingProxyType({
+    "electron_mass": (1e-3, 1e2), "heavy_hole_mass": (1e-3, 1e2), "light_hole_mass": (1e-3, 1e2),
+    "lattice_constant": (1.0, 20.0),
+})
+
 
 @dataclass(frozen=True)
 class MaterialLibrary:
@@ -198,6 +205,11 @@ def _apply(p: MaterialParameters, overrides: Mapping[str, float]) -> MaterialPar
         if not (0 < p2.value(k) < math.inf):
             shown = "gamma1 - 2 gamma2 <= 0" if k == "heavy_hole_mass" and p2.value(k) == math.inf else f"{p2.value(k):g}"
             raise CaseError(f"{k} of {p.label} must be positive and finite ({shown}); check its parameters",
+                            key=f"{where}.{k}" if overrides else "material")
+        lo, hi = PLAUSIBLE[k]
+        if not lo <= p2.value(k) <= hi:  # a unit slip ("0.07 kg" for a mass) lands far outside
+            raise CaseError(f"{k} of {p.label} is {p2.value(k):g} {p2.UNITS[k]}, outside the accepted {lo:g} to "
+                            f"{hi:g} {p2.UNITS[k]}; check its value and unit",
                             key=f"{where}.{k}" if overrides else "material")
     if p2.band_gap <= 0:
         raise CaseError(f"band_gap of {p.label} must be positive, got {p2.band_gap:g} eV at {p.temperature:g} K",
