@@ -22,6 +22,8 @@ from fdsolver.plot._common import figure, label, legend_outside, run_subtitle, s
 LOG_DECADES = 2.0
 #: oscillator strengths from the ground state are drawn to at most this many final states
 F_FINALS = 4
+#: strengths below this are left off a log axis of f (zero by symmetry, up to round-off)
+F_FLOOR = 1e-6
 
 
 def _log(ds, name) -> bool:
@@ -117,7 +119,14 @@ def _plot_line(ds, name, path) -> None:
             if np.isfinite(fj).any():
                 axf.plot(x, fj, marker=mark, lw=1.2, color=f"C{j}", label=f"0 -> {j}")
         axf.set_ylabel("oscillator strength f [1]")
-        axf.set_ylim(bottom=min(0.0, axf.get_ylim()[0]))
+        shown = ds.oscillator_strength.values[:, 0, 1:F_FINALS + 1]
+        pos = shown[np.isfinite(shown) & (shown > F_FLOOR)]
+        if pos.size and np.all(shown[np.isfinite(shown)] >= 0) and np.log10(pos.max() / pos.min()) >= LOG_DECADES:
+            # weak lines that a field switches on are the point of a Stark sweep: a log axis shows them
+            axf.set_yscale("log")
+            axf.set_ylim(max(F_FLOOR, 0.5 * pos.min()), 2.0 * pos.max())
+        else:
+            axf.set_ylim(bottom=min(0.0, axf.get_ylim()[0]))
         legend_outside(axf, title="from state 0")
         _markers(axf, ds, name)
     if "splitting" in by:
