@@ -173,8 +173,12 @@ def _position_table(ds, name) -> list[str]:
     head = f"{name + (' [' + pu + ']' if pu else ''):>14}" + "".join(f"  {'<x>' + str(k) + ' [' + lu + ']':>14}" for k in ks)
     head += "".join(f"  {'f0' + str(j):>10}" for j in fs)
     rows = [f"position and strength from state 0 (<x>: mean position; f0j: oscillator strength 0 -> j):", head]
+    mx = np.array(ds.mean_x.values, dtype=float)
+    spread = ds.spread.values[np.isfinite(ds.spread.values)] if "spread" in ds else np.zeros(0)
+    scale = float(np.median(spread)) if spread.size else 1.0
+    mx[np.abs(mx) < 1e-9 * scale] = 0.0  # round-off of a mirror-symmetric state's <x> is shown as 0
     for i, v in enumerate(ds[name].values):
-        row = f"{v:14.6g}" + "".join(f"  {ds.mean_x.values[i, k]:14.6g}" for k in range(len(ks)))
+        row = f"{v:14.6g}" + "".join(f"  {mx[i, k]:14.6g}" for k in range(len(ks)))
         row += "".join(f"  {ds.oscillator_strength.values[i, 0, j]:10.5f}" for j in fs)
         rows.append(row.replace("nan", "  -"))
     return rows
