@@ -95,6 +95,14 @@ def test_sweep_tables_keep_position_and_strength(tmp_path):
     _, theader, trows = _read(tmp_path / "points_transitions.csv")
     assert "oscillator_strength" in theader
 
+    from fdsolver.report.sweep import format_sweep
+
+    text = format_sweep(ds).splitlines()
+    head = next(i for i, l in enumerate(text) if l.startswith("position and strength"))
+    assert text[head + 1].split()[-1] == "f01"
+    last = text[head + 1 + ds.sizes["d"]].split()  # the row of d = 3: both states bound, <x> = 0 by symmetry
+    assert float(last[1]) == 0.0 and float(last[-1]) == pytest.approx(float(ds.oscillator_strength.values[-1, 0, 1]), rel=1e-4)
+
 
 def test_export_refuses_a_file_as_folder(well_run, tmp_path):
     target = tmp_path / "not_a_folder"
