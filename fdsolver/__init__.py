@@ -50,6 +50,11 @@ _LAZY = {
     "delta_map": "fdsolver.api",
     "bands": "fdsolver.api",
     "band_sweep": "fdsolver.api",
+    "solve_optics": "fdsolver.api",
+    "absorption": "fdsolver.api",
+    "interband": "fdsolver.api",
+    "materials": "fdsolver.api",
+    "export_csv": "fdsolver.report.export",
 }
 
 __all__ = sorted(_LAZY) + ["__version__"]

@@ -33,7 +33,7 @@ from collections.abc import Sequence
 from typing import TYPE_CHECKING
 
 from fdsolver.errors import ArchiveError, CaseError
-from fdsolver.input.case import Case, case_from_text, load_case
+from fdsolver.input.case import Case, case_from_dict, case_from_text, load_case
 from fdsolver.io.archive import stamp
 from fdsolver.io.datasets import solve_record
 from fdsolver.limits import MAX_SCAN
@@ -61,6 +61,18 @@ def _where(case: Case) -> str:
     return str(case.path or case.title)
 
 
+def solve_optics(case: Case, refine: bool = True):
+    """:func:`solve_case` plus the intersubband transitions of its states, with error estimates
+    (:func:`fdsolver.optics.solved.transitions_of`): the result the solve archive is built from."""
+    from fdsolver.optics.solved import WithOptics, transitions_of
+
+    sol = solve_case(case)
+    info = getattr(case, "stack_info", None)
+    # confinement energies back on the library's absolute scale (holes: energies mirrored)
+    band = info.bands.absolute(sol.energy) if info is not None else None
+    return WithOptics(sol, transitions_of(case.potential, sol, case.units, refine=refine), band)
+
+
 def solve(case: Case | str | os.PathLike, action: str | None = None) -> xr.Dataset:
     """Bound states of ``case`` as an archive-ready Dataset (kind ``solve``, :data:`fdsolver.io.specs.SOLVE`)."""
     return solve_record_of(case, action).dataset()
@@ -69,7 +81,7 @@ def solve(case: Case | str | os.PathLike, action: str | None = None) -> xr.Datas
 def solve_record_of(case: Case | str | os.PathLike, action: str | None = None) -> Record:
     """:func:`solve` without building the Dataset (no xarray import): the archive's variables and attributes."""
     case = _case(case)
-    sol = solve_case(case)
+    sol = solve_optics(case)
     return solve_record(case, sol, stamp(action or f"solve {_where(case)}"))
 
 
@@ -97,6 +109,10 @@ def case_of_run(ds: xr.Dataset) -> Case:
         path = path if isinstance(path, str) else None
         case = case_from_text(text, path=path, tables=tables, read_files=False)
         changed = {k: v for k, v in params.items() if case.params.get(k) != v}
+        if changed and case.param_units:  # stored in the case units; a param given with a unit is overridden in it
+            from fdsolver.input.quantities import as_given
+
+            changed = {k: as_given(case, k, v) for k, v in changed.items()}
         return case.with_params(**changed) if changed else case
     except ArchiveError:
         raise
@@ -329,3 +345,175 @@ def band_sweep(case, vary: str | Sequence[str] = (), *, n_bands: int | None = No
     return _run_on(executor, workers, cluster, scheduler,
                    lambda ex: run_band_sweep(spec, ex, output=output, resume=resume, restart=restart, action=action,
                                              progress=progress))
+
+
+# ------------------------------------------------------------------ optics and materials
+def _run(run) -> xr.Dataset:
+    from fdsolver.io.archive import open_run
+
+    return open_run(run) if isinstance(run, (str, os.PathLike)) else run
+
+
+def _quantity_option(value, dimension: str, case: Case, key: str) -> float:
+    """A number in the case units, or a string with a unit converted to them (``"5 meV"``)."""
+    from fdsolver.input.quantities import split_quantity, to_case_units
+
+    q = split_quantity(value)
+    if q is not None:
+        return to_case_units(q[0], q[1], dimension, case.units, case.carrier, key=key)
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise CaseError(f"must be a number or a number with a unit, got {value!r}", key=key) from None
+    return v
+
+
+def _sheet_density(value) -> float:
+    """A sheet density in cm^-2: a number (cm^-2) or a string with a unit ("1e11 cm^-2", "0.01 nm^-2")."""
+    from fdsolver.input.quantities import _quantity, split_quantity
+
+    q = split_quantity(value)
+    if q is not None:
+        import pint
+
+        try:
+            v = float(_quantity(q[0], q[1], None, "--density").to("1/cm**2").magnitude)
+        except pint.errors.DimensionalityError:
+            raise CaseError(f"'{value}' is not a sheet density (carriers per area, e.g. 1e11 cm^-2)", key="--density") from None
+    else:
+        try:
+            v = float(value)
+        except (TypeError, ValueError):
+            raise CaseError(f"must be a sheet density in cm^-2, got {value!r}", key="--density") from None
+    if not (v >= 0 and v < 1e16):
+        raise CaseError(f"must be a sheet density from 0 to 1e16 cm^-2, got {v:g}", key="--density")
+    return v
+
+
+def absorption(run, *, density, broadening, temperature=None, refractive_index: float = 3.3, period=None,
+               energies: str | None = None, action: str | None = None) -> xr.Dataset:
+    """The intersubband absorption spectrum of a solve archive (kind ``absorption``).
+
+    ``run``: a solve archive (Dataset or path) with oscillator strengths.  ``density``: the sheet
+    density of carriers in cm^-2 (or a string with a unit, "1e11 cm^-2").  ``broadening``: the
+    Lorentzian FWHM in the case energy unit (or "5 meV").  ``temperature`` (K, default the case's) fills
+    the subbands; ``refractive_index`` n; ``period`` (a length, or "30 nm") gives the absorption
+    coefficient of a stack of such wells.  ``energies``: "LO:HI:N" photon energies (default: around the
+    transitions).  Formula and source: :mod:`fdsolver.optics.absorption`.
+    """
+    import numpy as np
+
+    from fdsolver.io.datasets import absorption_dataset
+    from fdsolver.optics.absorption import absorption_study
+
+    ds = _run(run)
+    where = ds.encoding.get("source") or ds.attrs.get("case_file") or "the run"
+    if ds.attrs.get("fdsolver_kind") != "solve":
+        raise CaseError(f"needs a solve archive (fdsolver solve -o RUN.nc), got one of kind "
+                        f"'{ds.attrs.get('fdsolver_kind')}'", file=str(where))
+    if "oscillator_strength" not in ds or ds.sizes.get("state", 0) < 2:
+        raise CaseError("the run has fewer than two bound states (no intersubband transition); nothing absorbs",
+                        file=str(where))
+    case = case_of_run(ds)
+    gamma = _quantity_option(broadening, "energy", case, "--broadening")
+    if not (np.isfinite(gamma) and gamma > 0):
+        raise CaseError(f"the broadening (FWHM) must be positive, got {gamma:g}", key="--broadening")
+    t = case.temperature if temperature is None else _quantity_option(temperature, "temperature", case, "--temperature")
+    if not (np.isfinite(t) and 0 <= t <= 5000):
+        raise CaseError(f"must be from 0 to 5000 K, got {t:g}", key="--temperature")
+    if not (isinstance(refractive_index, (int, float)) and 0.5 <= refractive_index <= 10):
+        raise CaseError(f"must be a refractive index from 0.5 to 10, got {refractive_index!r}", key="--refractive-index")
+    per = None if period is None else _quantity_option(period, "length", case, "--period")
+    if per is not None and not per > 0:
+        raise CaseError(f"must be a positive length, got {per:g}", key="--period")
+    ph = None
+    if energies is not None:
+        from fdsolver.scans.axes import parse_axis
+
+        class _Ph:  # the axis parser wants a case with params; photon energies are a study axis of their own
+            params: dict = {}
+            path = None
+
+        from fdsolver.scans.axes import Extra
+
+        eu = case.units.energy
+        axis = parse_axis(f"photon_energy={energies}", _Ph, "--energies", extra={"photon_energy": Extra(eu, eu, "photon energy")})
+        ph = axis.values
+    study = absorption_study(ds.energy.values, ds.oscillator_strength.values, ds.inplane_mass.values,
+                             float(ds.reference_mass.values), case.units, sheet_density=_sheet_density(density),
+                             broadening=gamma, temperature=t, refractive_index=float(refractive_index), period=per,
+                             photon_energy=ph, threshold=float(ds.attrs.get("continuum_threshold", np.inf)))
+    extra = {"broadening": gamma, "broadening_note": "Lorentzian full width at half maximum, case energy unit",
+             "refractive_index": float(refractive_index), "solve_run": str(where),
+             "period": np.nan if per is None else per, "reference_mass": float(ds.reference_mass.values)}
+    cmd = action or f"absorption {where} --density {density} --broadening {broadening}"
+    return absorption_dataset(case, study, stamp(cmd), extra)
+
+
+def interband(case, *, action: str | None = None) -> xr.Dataset:
+    """Electrons, heavy holes and light holes of one stack of named materials, and their e-h transitions
+    (kind ``interband``): confinement energies, E(e_i - h_j) = effective gap + e_i + h_j, and |<e_i|h_j>|^2
+    extrapolated over nested grids (:mod:`fdsolver.optics.interband`).  The case's ``carrier`` is ignored;
+    the energy-dependent mass, if asked for, applies to electrons and light holes (not to heavy holes)."""
+    from fdsolver.io.datasets import interband_dataset
+    from fdsolver.model.materials import effective_gap
+    from fdsolver.optics.interband import interband_study
+
+    case = _case(case)
+    if case.stack_info is None:
+        raise CaseError("interband transitions need a [[layer]] stack of named materials (material = \"GaAs\", ...) "
+                        "so that the valence band and the gap are known", file=case.path, key="layer")
+    made = {}
+    notes = list(case.notes)
+    for carrier in ("electron", "heavy_hole", "light_hole"):
+        data = {**case.data, "carrier": carrier}
+        if carrier == "heavy_hole" and data.get("nonparabolicity"):
+            data["nonparabolicity"] = False
+            notes.append("heavy holes are solved with a constant mass (not in the two-band model)")
+        c = case_from_dict(data, path=case.path, text=case.text, overrides=case.overrides, tables=case.tables)
+        made[carrier] = (c, solve_case(c, notes=False))
+        for m in made[carrier][1].messages:
+            notes.append(f"{carrier.replace('_', ' ')}s: {m}")
+    if any(c.potential.shapes for c, _ in made.values()) and any(not _has_field_units(c) for c, _ in made.values()):
+        notes.append("[[potential]] components given in energy units act the same way on every carrier, each in its "
+                     "own picture; give a field as an electric field (\"20 kV/cm\") to apply it physically")
+    (ce, se), (ch, sh), (cl, sl) = made["electron"], made["heavy_hole"], made["light_hole"]
+    be, bh = ce.stack_info.bands, ch.stack_info.bands
+    study = interband_study((ce.potential, se), (ch.potential, sh), (cl.potential, sl), effective_gap(be, bh),
+                            be.reference, bh.reference, tuple(dict.fromkeys(notes)))
+    import numpy as np
+
+    ds = interband_dataset(ce, study, stamp(action or f"interband {_where(case)}"))
+    ds.attrs["heavy_hole_layer_masses"] = np.array(bh.mass, dtype=float)
+    ds.attrs["light_hole_layer_masses"] = np.array(cl.stack_info.bands.mass, dtype=float)
+    ds.attrs["carrier"] = "electron, heavy_hole, light_hole"
+    return ds
+
+
+def _has_field_units(case: Case) -> bool:
+    """True if every [[potential]] component of the case data gives its values with electrostatic units (its own,
+    or those of the [params] entry it names)."""
+    from fdsolver.input.quantities import split_quantity
+
+    for comp in case.data.get("potential") or []:
+        for k, v in comp.items():
+            if k in ("shape", "name", "center", "width", "sigma", "edge", "file", "interpolation", "x_column",
+                     "v_column", "V", "a"):
+                continue
+            q = split_quantity(v)
+            unit = q[1] if q is not None else case.param_units.get(v.strip()) if isinstance(v, str) else None
+            if unit is None or "V" not in unit or "eV" in unit:  # a plain param reference takes its param's unit
+                return False
+    return True
+
+
+def materials(name: str | None = None, *, x: float | None = None, temperature: float = 300.0, file=None,
+              text: bool = False):
+    """The materials library: with ``name``, the parameters of that material (composition ``x``, ``temperature``
+    in K) with the source of every value; without, the list of materials.  ``file`` adds a data file of your
+    own.  Returns JSON-able data, or with ``text=True`` the (text, data) pair the command prints
+    (:func:`fdsolver.model.materials.format_material`)."""
+    from fdsolver.model.materials import format_material, load_library
+
+    out = format_material(name, x=x, temperature=temperature, library=load_library(file))
+    return out if text else out[1]

@@ -7,6 +7,7 @@ below ``scans`` and ``api``, which both solve cases; :mod:`fdsolver.api` re-expo
 
 from __future__ import annotations
 
+from dataclasses import replace
 from typing import TYPE_CHECKING
 
 from fdsolver.boundstates.driver import Solution, solve_potential
@@ -26,12 +27,29 @@ def not_periodic(case: Case, instead: str | None = None) -> None:
                         file=case.path, key="domain.boundary")
 
 
-def solve_case(case: Case) -> Solution:
-    """Solve ``case`` and return the raw :class:`~fdsolver.boundstates.result.Solution` (one BLAS thread while
-    it runs: :mod:`fdsolver.numerics.threads`); a periodic case is refused (:func:`not_periodic`)."""
+def solve_case(case: Case, notes: bool = True) -> Solution:
+    """Solve ``case`` and return the raw :class:`~fdsolver.boundstates.result.Solution`, with one BLAS thread
+    while it runs (:mod:`fdsolver.numerics.threads`); a periodic case is refused (:func:`not_periodic`).
+
+    With ``nonparabolicity = true`` in the case, each state is solved with the energy-dependent (Kane) mass
+    (:func:`fdsolver.boundstates.nonparabolic.solve_energy_dependent`); the result then also carries each
+    state's mass profile (``state_mass``).  ``notes``: put the case's own notes (unit system, lattice
+    mismatch) first among the messages.
+    """
     not_periodic(case)
     try:
         with one_blas_thread():
-            return solve_potential(case.potential, case.domain, case.settings)
+            if getattr(case, "nonparabolicity", False):
+                from fdsolver.boundstates.nonparabolic import solve_energy_dependent
+
+                sol = solve_energy_dependent(case.potential, case.domain, case.settings, case.gaps, solve_potential)
+            else:
+                sol = solve_potential(case.potential, case.domain, case.settings)
     except CaseError as err:  # the core does not know the file; name it here
         raise err.located(file=case.path) from None
+    if notes and getattr(case, "notes", ()):
+        wrapped = hasattr(sol, "state_mass")  # a KaneSolution around the Solution
+        inner = sol.solution if wrapped else sol
+        inner = replace(inner, messages=tuple(dict.fromkeys(tuple(case.notes) + tuple(inner.messages))))
+        sol = replace(sol, solution=inner) if wrapped else inner
+    return sol

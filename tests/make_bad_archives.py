@@ -433,8 +433,9 @@ def make_big_unwritten_psi(ctx):
     n = 300_000_000
     with netCDF4.Dataset(p, "w") as nc:
         nc.setncatts({k: (v if not isinstance(v, (bool, np.bool_)) else int(v)) for k, v in src.attrs.items()})
-        for dim in ("state", "region", "level"):
-            nc.createDimension(dim, src.sizes[dim])
+        for dim, size in src.sizes.items():  # every dimension of the solve archive but x as it is
+            if dim != "x":
+                nc.createDimension(dim, size)
         nc.createDimension("x", n)
         for name in src.variables:
             v = src[name]

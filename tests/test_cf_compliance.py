@@ -57,9 +57,12 @@ def _archives(folder: Path) -> dict[str, Path]:
     points = fdsolver.case_from_dict(ATOMIC_POINTS)
     pair = fdsolver.load_case(CASES / "impurity_pair.toml")
     lattice = fdsolver.case_from_dict(ATOMIC_LATTICE)
+    well = fdsolver.load_case(CASES / "algaas_well.toml")
+    well_run = fdsolver.solve(well)
+    atomic_run = fdsolver.solve(atomic)
     made = {
         "solve": fdsolver.solve(fdsolver.load_case(CASES / "coupled_wells.toml")),
-        "solve atomic": fdsolver.solve(atomic),
+        "solve atomic": atomic_run,
         "sweep": fdsolver.sweep(CASES / "double_square.toml", ["d=0.5:3:4"], executor="serial", save_psi=True),
         "sweep atomic": fdsolver.sweep(atomic, ["d=0.1:4:5"], executor="serial", save_psi=True),
         "sweep atomic two params": fdsolver.sweep(atomic, ["d=0.5:4:3", "V0=0.5,1"], executor="serial"),
@@ -77,6 +80,10 @@ def _archives(folder: Path) -> dict[str, Path]:
         "comb_check": fdsolver.delta_check(CASES / "delta_comb.toml", widths="0.01:0.5:3"),
         "comb_check atomic": fdsolver.delta_check(fdsolver.case_from_dict({**ATOMIC_LATTICE, "potential":
                                                   ATOMIC_LATTICE["potential"][:1]}), widths="0.01:0.5:3"),
+        "solve of materials": well_run,
+        "absorption": fdsolver.absorption(well_run, density="1e11 cm^-2", broadening="5 meV", energies="50:300:64"),
+        "absorption atomic": fdsolver.absorption(atomic_run, density=1e11, broadening=1e-3, period=20.0),
+        "interband": fdsolver.interband(well),
     }
     out = {}
     for name, ds in made.items():
@@ -91,7 +98,8 @@ def archives(tmp_path_factory) -> dict[str, Path]:
 
 NAMES = ["solve", "solve atomic", "sweep", "sweep atomic", "sweep atomic two params", "threshold", "threshold atomic",
          "delta_check", "delta_check atomic", "delta_check from finite", "delta_map", "delta_map atomic",
-         "bands", "bands atomic", "band_sweep", "band_sweep atomic", "comb_check", "comb_check atomic"]
+         "bands", "bands atomic", "band_sweep", "band_sweep atomic", "comb_check", "comb_check atomic",
+         "solve of materials", "absorption", "absorption atomic", "interband"]
 
 
 def test_every_archive_kind_is_covered(archives):
@@ -114,13 +122,16 @@ def test_every_units_attribute_is_a_udunits_unit(archives, name):
         seen += 1
     assert seen >= 5
     if "atomic" in name:  # bohr and hartree are written as scaled SI units (CODATA, scipy.constants), named beside them
-        energy = ds["energy" if "energy" in ds else ("band_bottom" if "band_bottom" in ds else "threshold_value")]
+        energy = ds[next(n for n in ("energy", "band_bottom", "photon_energy", "threshold_value") if n in ds.variables)]
         hartree = physical_constants["Hartree energy"][0]
-        if energy.name in ("energy", "band_bottom"):
+        if energy.name in ("energy", "band_bottom", "photon_energy"):
             assert energy.attrs["units_name"] == "hartree"
             assert cf_units.Unit(energy.attrs["units"]).convert(1.0, "J") == pytest.approx(hartree, rel=1e-12)
         lengths = [v for v in ds.variables.values() if v.attrs.get("units_name") == "bohr"]
-        assert lengths, "no length in bohr"
+        inverse = [v for v in ds.variables.values() if v.attrs.get("units_name") == "1/bohr"]
+        assert lengths or inverse, "no length in bohr"
+        for v in inverse:  # an absorption coefficient per bohr
+            assert cf_units.Unit(v.attrs["units"]).convert(1.0, "m-1") == pytest.approx(1 / physical_constants["Bohr radius"][0], rel=1e-12)
         for v in lengths:
             assert cf_units.Unit(v.attrs["units"]).convert(1.0, "m") == pytest.approx(physical_constants["Bohr radius"][0], rel=1e-12)
 

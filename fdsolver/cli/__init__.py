@@ -17,7 +17,7 @@ import warnings
 from fdsolver._version import __version__
 from fdsolver.errors import CaseError, FdsolverError
 
-SUBCOMMAND_MODULES = ("solve", "delta", "sweep", "bands")
+SUBCOMMAND_MODULES = ("solve", "delta", "sweep", "bands", "optics")
 
 
 class _Parser(argparse.ArgumentParser):

@@ -25,6 +25,8 @@ def register(sub) -> None:
     p.add_argument("-o", "--output", help="write the run to this NetCDF file")
     p.add_argument("--set", action="append", metavar="NAME=VALUE", help="override a [params] entry (repeatable)")
     p.add_argument("--plot", metavar="FIG.png", help="also draw the levels and wavefunctions to this image")
+    p.add_argument("--transitions", action="store_true",
+                   help="also print the strongest intersubband transitions (energies, dipoles, oscillator strengths)")
     p.set_defaults(func=run_solve)
 
     p = sub.add_parser("show", help="print the table of an archive")
@@ -57,7 +59,7 @@ def run_solve(args) -> int:
             commit_figure(figure, args.plot)
         finally:
             discard(figure if figure and os.path.exists(figure) else None)
-    say(format_solve(rec))
+    say(format_solve(rec, transitions=args.transitions))
     for path in (args.output, args.plot):
         if path:
             say(f"wrote {path}")

@@ -28,6 +28,8 @@ from fdsolver.input._expressions import (
     normal_name,
     resolve_params,
 )
+from fdsolver.input.materials import build_material_stack, is_material_stack, library_for
+from fdsolver.input.quantities import convert_case
 from fdsolver.input.schema import LAYER, TOP, check_keys, check_section, component_keys
 from fdsolver.input.tables import BOM, parse_table, read_table, regular_file
 from fdsolver.limits import MAX_COMPONENTS, MAX_LAYERS, MAX_MEMORY_MB, MAX_PARAMS, MAX_STATES, MAX_STORED_CASE_BYTES
@@ -64,6 +66,20 @@ class Case:
     data: dict = field(repr=False)
     tables: dict[str, str] = field(default_factory=dict, repr=False)
     overrides: dict = field(default_factory=dict, repr=False)
+    #: which band the case describes: "electron", "heavy_hole" or "light_hole" (holes in the hole picture)
+    carrier: str = "electron"
+    #: lattice temperature in K (the materials library's gaps depend on it)
+    temperature: float = 300.0
+    #: energy-dependent two-band (Kane) mass, solved state by state (fdsolver.boundstates.nonparabolic)
+    nonparabolicity: bool = False
+    #: one-line notes of the case itself (the unit system chosen, the lattice mismatch), shown with every run
+    notes: tuple[str, ...] = ()
+    #: the materials of a stack that names them (fdsolver.input.materials.StackInfo), else None
+    stack_info: Any = field(default=None, repr=False)
+    #: band gap of every layer in the case energy unit (materials, or the raw layers' ``gap``), else None
+    gaps: tuple | None = None
+    #: params given with a unit: name -> the unit (their overrides and sweep values are read in it)
+    param_units: dict = field(default_factory=dict, repr=False)
 
     def with_params(self, **overrides) -> "Case":
         """The same case with some params replaced (numbers or expression strings); earlier overrides are kept."""
@@ -275,12 +291,16 @@ def _counts(data: Mapping, file) -> None:
 def case_from_dict(data: Mapping[str, Any], *, path=None, text=None, overrides=None, tables=None,
                    read_files: bool = True) -> Case:
     """Validate a case given as Python data with the TOML schema (see :func:`case_from_text` for the rest)."""
+    raw_overrides = overrides
     file = path
     if not isinstance(data, Mapping):
         raise CaseError("a case must be a table of keys", file=file)
     check_keys(data, TOP, file, "")
     _counts(data, file)
-    units_name = F.text(data, "units", file, "", choices=tuple(UNIT_SYSTEMS), default="atomic")
+    raw_data = data
+    conv = convert_case(data, overrides, file)  # values with units -> plain numbers in the case units
+    data, overrides = conv.data, conv.overrides
+    units_name = F.text(data, "units", file, "", choices=tuple(UNIT_SYSTEMS), default=conv.system)
     units = UNIT_SYSTEMS[units_name]
     title = data.get("title", Path(path).stem if path else "untitled case")
     if not isinstance(title, str):
@@ -295,10 +315,18 @@ def case_from_dict(data: Mapping[str, Any], *, path=None, text=None, overrides=N
         raise CaseError("use [[potential]] (an array of tables), one per component", file=file, key="potential")
     ctx = _context(params, units, mass, file, base_dir, tables, read_files)
     shapes = tuple(_build_shape(i, c, ctx, file) for i, c in enumerate(comps, start=1))
+    carrier, temperature, nonparabolic = _carrier_keys(data, params, file)
+    stack_info, gaps = None, None
     dom = data.get("domain")
     periodic = isinstance(dom, Mapping) and dom.get("boundary") == "periodic"
-    build_stack = _build_periodic_stack if periodic else _build_stack
-    stack = build_stack(data["layer"], params, mass, origin, file) if "layer" in data else None
+    if "layer" in data and is_material_stack(data["layer"], file):
+        stack, stack_info = build_material_stack(data["layer"], params, origin, units, carrier, temperature,
+                                                 library_for(data, file), file)
+        gaps = tuple(stack_info.bands.gap)
+    else:
+        build_stack = _build_periodic_stack if periodic else _build_stack
+        stack = build_stack(data["layer"], params, mass, origin, file) if "layer" in data else None
+        gaps = _raw_gaps(data, params, file) if stack is not None and not periodic else None
     if not shapes and stack is None:
         raise CaseError("the case defines no potential: add [[potential]] components or a [[layer]] stack", file=file, key="potential")
     potential = Potential(shapes, units, mass, stack)
@@ -307,8 +335,49 @@ def case_from_dict(data: Mapping[str, Any], *, path=None, text=None, overrides=N
     for section in ("delta_check", "sweep"):
         check_section(data, section, file)
     if text is None:
-        text = dumps_case(data)
-    return Case(title, units, mass, params, potential, domain, settings, text, path, dict(data), tables, dict(overrides or {}))
+        text = dumps_case(raw_data)
+    notes = tuple(n for n in (conv.note, stack_info.mismatch.warning if stack_info else None) if n)
+    if nonparabolic:
+        check_nonparabolic(stack, gaps, carrier, file)
+    return Case(title, units, mass, params, potential, domain, settings, text, path, dict(raw_data), tables,
+                dict(raw_overrides or {}), carrier=carrier, temperature=temperature, nonparabolicity=nonparabolic,
+                notes=notes, stack_info=stack_info, gaps=gaps, param_units=dict(conv.param_units))
+
+
+def _carrier_keys(data, params, file) -> tuple[str, float, bool]:
+    """The top-level ``carrier``, ``temperature`` (K) and ``nonparabolicity`` keys."""
+    from fdsolver.model.materials import CARRIERS
+
+    carrier = F.text(data, "carrier", file, "", choices=CARRIERS, default="electron")
+    temperature = F.number(data, "temperature", params, file, "", default=300.0)
+    if not (math.isfinite(temperature) and 0.0 <= temperature <= 5000.0):
+        raise CaseError(f"must be a temperature from 0 to 5000 K, got {temperature:g}", file=file, key="temperature")
+    nonparabolic = bool(F.flag(data, "nonparabolicity", file, "", default=False))
+    return carrier, float(temperature), nonparabolic
+
+
+def _raw_gaps(data, params, file) -> tuple | None:
+    """The ``gap`` of every raw layer (None where a layer gives none; None overall if none does)."""
+    gaps = []
+    for i, lay in enumerate(data["layer"], start=1):
+        g = F.number(lay, "gap", params, file, f"layer[{i}]", positive=True, required=False) if isinstance(lay, Mapping) else None
+        gaps.append(g)
+    return tuple(gaps) if any(g is not None for g in gaps) else None
+
+
+def check_nonparabolic(stack, gaps, carrier: str, file) -> None:
+    """``nonparabolicity = true`` needs a layer stack with a gap in every layer, and a carrier the two-band model has."""
+    if carrier == "heavy_hole":
+        raise CaseError("the two-band (Kane) energy-dependent mass couples the conduction band and the light holes; "
+                        "heavy holes are not in it: set nonparabolicity = false for heavy holes", file=file,
+                        key="nonparabolicity")
+    if stack is None:
+        raise CaseError("the energy-dependent mass needs a [[layer]] stack (band edge, mass and gap per layer)",
+                        file=file, key="nonparabolicity")
+    if gaps is None or any(g is None for g in gaps):
+        k = 1 if gaps is None else 1 + [g is None for g in gaps].index(True)
+        raise CaseError("the energy-dependent mass needs the band gap of every layer: give gap = ... (an energy) or "
+                        "name the layer's material", file=file, key=f"layer[{k}].gap")
 
 
 def _spelling(name: str) -> str:

@@ -18,6 +18,8 @@ from fdsolver.errors import CaseError, did_you_mean
 from fdsolver.model.shapes import COUNT, ENERGY, LENGTH, MASS, NUMBER, SHAPES, TEXT
 
 TABLE, ARRAY, BOOL, LIST = "table", "array of tables", "true/false", "list"
+#: a temperature in kelvin (the materials library's band gaps depend on it)
+TEMPERATURE = "temperature"
 
 
 @dataclass(frozen=True)
@@ -41,6 +43,10 @@ TOP: dict[str, Key] = {
     "solve": Key("table [solve]", TABLE),
     "delta_check": Key("table [delta_check] (zero-range comparison settings)", TABLE),
     "sweep": Key("table [sweep] (parameter scan settings)", TABLE),
+    "temperature": Key("lattice temperature in K for the materials library (default 300)", TEMPERATURE),
+    "carrier": Key('"electron", "heavy_hole" or "light_hole" (default electron)', TEXT),
+    "nonparabolicity": Key("energy-dependent two-band (Kane) mass, solved per state", BOOL),
+    "materials_file": Key("a materials data file of your own, added to the built-in library", TEXT),
 }
 
 #: keys every [[potential]] component may have besides its shape's own
@@ -54,6 +60,10 @@ LAYER: dict[str, Key] = {
     "thickness": Key("layer thickness (inner layers)", LENGTH),
     "band_edge": Key("band-edge energy of the layer", ENERGY),
     "mass": Key("effective mass in m_e (default: the case mass)", MASS),
+    "gap": Key("band gap of the layer, for the energy-dependent mass (nonparabolicity = true)", ENERGY),
+    "material": Key('a material of the library ("GaAs", "AlGaAs", ...) instead of band_edge and mass', TEXT),
+    "x": Key("alloy composition: the fraction of the first-named cation (Al in AlGaAs)", NUMBER),
+    "overrides": Key("table of material parameters replacing the library's (eV, m_e, angstrom)", TABLE),
 }
 
 DOMAIN: dict[str, Key] = {

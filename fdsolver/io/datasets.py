@@ -76,7 +76,38 @@ def base_attrs(case, kind: str, history: str) -> dict:
         "case_text": case.text,
         "case_tables": json.dumps(case.tables),
         "params": json.dumps(case.params, sort_keys=True),
+        **case_attrs(case),
     }
+
+
+def case_attrs(case) -> dict:
+    """The carrier, temperature, materials and unit notes of a case (every archive kind carries them)."""
+    info = getattr(case, "stack_info", None)
+    out = {
+        "carrier": getattr(case, "carrier", "electron"),
+        "temperature": float(getattr(case, "temperature", 300.0)),
+        "temperature_units": "K",
+        "nonparabolicity": int(bool(getattr(case, "nonparabolicity", False))),
+        "param_units": json.dumps(getattr(case, "param_units", {}), sort_keys=True),
+    }
+    if getattr(case, "notes", ()):
+        out["case_notes"] = "\n".join(case.notes)
+    if info is not None:
+        bands = info.bands
+        out.update({
+            "materials": info.describe(),
+            "band_reference": float(bands.reference),
+            "band_reference_note": "absolute band energy (materials library scale, case energy unit) of the stack's "
+                                   "band extremum that the energies are measured from; absolute energy = "
+                                   f"band_reference {'+' if bands.sign > 0 else '-'} energy",
+            "layer_gaps": np.array([float(g) for g in bands.gap]),
+            "layer_masses": np.array([float(m) for m in bands.mass]),
+            "materials_source": "; ".join(info.library_files),
+        })
+    stack = getattr(getattr(case, "potential", None), "stack", None)
+    if stack is not None and "layer_masses" not in out:
+        out["layer_masses"] = np.array([float(layer.mass) for layer in stack.layers])
+    return out
 
 
 def _units_attrs(udunits: str, name: str) -> dict:
@@ -162,6 +193,18 @@ def solve_record(case, sol, history: str) -> Record:
         "energy_reference": float(sol.reference),
         "messages": "\n".join(sol.messages),
     })
+    tr = getattr(sol, "transitions", None)
+    if tr is not None:
+        kane = hasattr(sol, "state_mass")
+        attrs.update({
+            "dipole_form": ("velocity (flux) form C W_ij/(E_j - E_i) with each state's own mass (energy-dependent mass)"
+                            if kane else "length form <i|x|j>"),
+            "oscillator_strength_form": "velocity (flux) form m_r C W_ij^2/(E_j - E_i), W_ij = integral "
+                                        "(psi_i psi_j' - psi_i' psi_j)/m dx; exact for a position-dependent mass",
+            "optics_accuracy": (f"extrapolated over {tr.levels} nested grids (Romberg); errors are the extrapolation's "
+                                "change" if tr.levels >= 2 else "one grid, second order in its spacing; errors from "
+                                + ("every second node" if kane else "the length/velocity form difference")),
+        })
     return record("solve", sol, case.units, attrs)
 
 
@@ -351,3 +394,44 @@ def check(ds: xr.Dataset, path) -> Kind:
                 f"expected {var.dtype} over ({', '.join(map(str, dims))}); it is damaged or was not written by fdsolver",
                 file=str(path))
     return kind
+
+
+def absorption_dataset(case, study, history: str, extra: dict) -> xr.Dataset:
+    """The archive of an intersubband absorption spectrum (:class:`fdsolver.optics.absorption.AbsorptionStudy`).
+
+    ``extra``: global attributes of the run (the solve archive it came from, broadening, refractive index, ...).
+    """
+    attrs = base_attrs(case, "absorption", history)
+    attrs.update({
+        "sheet_density": float(study.sheet_density),
+        "sheet_density_units": "cm-2",
+        "carrier_temperature": float(study.temperature),
+        "carrier_temperature_note": "temperature of the subband populations (Fermi-Dirac), K",
+        "chemical_potential": float(study.chemical_potential),
+        "notes": "\n".join(study.notes),
+        "formula": "A(E) = sum over E_j > E_i of (N_i - N_j) pi e^2 hbar f_ij / (2 eps0 n c m_r m_e) L(E - E_ij), "
+                   "L a Lorentzian of FWHM broadening with unit area",
+        "formula_source": "Lorentz-oscillator cross-section (Hilborn, Am. J. Phys. 50, 982 (1982)); intersubband form "
+                          "as in Helm, Semiconductors and Semimetals 62, ch. 1 (2000)",
+        **extra,
+    })
+    if not attrs["notes"]:
+        del attrs["notes"]
+    return build("absorption", study, case.units, attrs)
+
+
+def interband_dataset(case, study, history: str) -> xr.Dataset:
+    """The archive of the interband transitions of a stack (:class:`fdsolver.optics.interband.InterbandStudy`)."""
+    attrs = base_attrs(case, "interband", history)
+    attrs.update({
+        "effective_gap": float(study.effective_gap),
+        "effective_gap_note": "lowest conduction-band edge minus highest valence-band edge (case energy unit)",
+        "conduction_band_reference": float(study.electron_reference),
+        "valence_band_reference": float(study.hole_reference),
+        "notes": "\n".join(study.notes),
+        "overlap_note": "squared overlap of the envelope functions only; the Bloch factor (E_P) and the polarisation "
+                        "factors of heavy and light holes are not included; excitons and strain are not modelled",
+    })
+    if not attrs["notes"]:
+        del attrs["notes"]
+    return build("interband", study, case.units, attrs)

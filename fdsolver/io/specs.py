@@ -102,6 +102,24 @@ def _first_model(field: str) -> Callable[[Any], Any]:
 
 
 ENERGY, LENGTH, INVERSE_LENGTH, STRENGTH, MASS = "energy", "length", "1/length", "energy*length", "mass"
+_SF = ("state", "final_state")
+
+
+def _optics(result, name: str, of_result: bool = False):
+    """A value of the solve's intersubband transitions (fdsolver.optics.solved.WithOptics), None without them."""
+    tr = getattr(result, "transitions", None)
+    if tr is None:
+        return None
+    if of_result:
+        if name == "transition_energy_error":
+            from fdsolver.optics.solved import transition_energy_error
+
+            return transition_energy_error(result)
+        return getattr(result, name)
+    value = getattr(tr, name, None)
+    if name in ("dipole_error", "oscillator_strength_error") and value is None:
+        return None
+    return value
 PSI_NOTE = "psi in {length}^-1/2; integral psi^2 dx = 1 over the grid (lumped node weights)"
 
 SOLVE = (
@@ -114,6 +132,8 @@ SOLVE = (
     Var("region_name", ("region",), "str", "name of the component or layer", None, source="region_names"),
     Var("energy", ("state",), "f8", "bound-state energy (Richardson-extrapolated)", ENERGY, required=True),
     Var("energy_error", ("state",), "f8", "estimated absolute error of energy", ENERGY, required=True),
+    Var("band_energy", ("state",), "f8", "absolute band energy of the state on the materials library's scale "
+        "(electron energy; a stack of named materials only)", ENERGY, source=lambda r: getattr(r, "band_energy", None)),
     Var("converged", ("state",), "i1", "1 if energy_error is below the tolerance", flags=("not_converged", "converged"),
         required=True),
     Var("nodes", ("state",), "i4", "number of nodes of the wavefunction", required=True),
@@ -140,6 +160,26 @@ SOLVE = (
     Var("level_energy", ("level", "state"), "f8", "unextrapolated energy on each refinement level", ENERGY,
         source="level_energies"),
     Var("level_nodes", ("level",), "i8", "number of grid nodes per level", required=True, source="level_sizes"),
+    # intersubband optics (fdsolver.optics.solved): present when the solve has states
+    Var("final_state", ("final_state",), "i4", "final bound state of a transition (its Sturm index)", coord=True,
+        source=lambda r: _optics(r, "index", of_result=True)),
+    Var("transition_energy", _SF, "f8", "transition energy E[final_state] - E[state]", ENERGY,
+        source=lambda r: _optics(r, "transition_energy")),
+    Var("transition_energy_error", _SF, "f8", "estimated absolute error of transition_energy (sum of the two "
+        "energies' errors)", ENERGY, source=lambda r: _optics(r, "transition_energy_error", of_result=True)),
+    Var("dipole", _SF, "f8", "dipole matrix element <state|x|final_state> (diagonal: <x>); see dipole_form", LENGTH,
+        source=lambda r: _optics(r, "dipole")),
+    Var("dipole_error", _SF, "f8", "estimated absolute error of dipole", LENGTH, source=lambda r: _optics(r, "dipole_error")),
+    Var("oscillator_strength", _SF, "f8", "intersubband oscillator strength f (velocity form, referred to "
+        "reference_mass; negative for emission)", source=lambda r: _optics(r, "oscillator_strength")),
+    Var("oscillator_strength_error", _SF, "f8", "estimated absolute error of oscillator_strength",
+        source=lambda r: _optics(r, "oscillator_strength_error")),
+    Var("reference_mass", (), "f8", "mass the oscillator strengths are referred to (1/<0|1/m|0>)", MASS,
+        source=lambda r: _optics(r, "reference_mass")),
+    Var("sum_rule", ("state",), "f8", "exact sum over all final states (bound and continuum) of f: "
+        "reference_mass <state|1/m|state>", source=lambda r: _optics(r, "sum_rule")),
+    Var("inplane_mass", ("state",), "f8", "in-plane (2D subband) mass 1/<state|1/m|state>", MASS,
+        source=lambda r: _optics(r, "inplane_mass")),
 )
 
 _ST = PARAMS, "state"
@@ -169,6 +209,24 @@ SWEEP = (
     Var("threshold_uncertainty", ("threshold",), "f8", "uncertainty of threshold_value", PARAM),
     Var("threshold_state", ("threshold",), "i4", "node count of the state that appears"),
     Var("threshold_direction", ("threshold",), "i1", "+1 binds as the param increases, -1 as it decreases"),
+    Var("psi_norm", _ST, "f8", "norm integral psi^2 dx that psi keeps on the common grid (below 1: cut by the grid's "
+        "ends or too coarse there); NaN where the state does not exist"),
+    Var("mean_x", _ST, "f8", "expectation value of position <x>", LENGTH),
+    Var("spread", _ST, "f8", "position spread sqrt(<x^2> - <x>^2)", LENGTH),
+    Var("wall_state", _ST, "i1", "the state lives at a hard wall, not in the structure",
+        flags=("no_such_state", "left_wall", "structure", "right_wall"), flag_start=-2),
+    Var("region", ("region",), "i4", "index of the named component or layer (see region_name)", coord=True),
+    Var("region_name", ("region",), "str", "name of the component or layer", None),
+    Var("probability_inside", (PARAMS, "state", "region"), "f8", "probability inside each named component or layer"),
+    Var("final_state", ("final_state",), "i4", "final state of a transition (node count; the lowest states only)",
+        coord=True),
+    Var("dipole", (PARAMS, "state", "final_state"), "f8", "dipole matrix element <state|x|final_state> (length form, "
+        "one grid; diagonal: <x>)", LENGTH),
+    Var("oscillator_strength", (PARAMS, "state", "final_state"), "f8", "intersubband oscillator strength (velocity "
+        "form, one grid, referred to reference_mass; negative for emission)"),
+    Var("oscillator_strength_error", (PARAMS, "state", "final_state"), "f8", "estimated absolute error of "
+        "oscillator_strength (difference of the length and velocity forms)"),
+    Var("reference_mass", (PARAMS,), "f8", "mass the oscillator strengths are referred to (1/<0|1/m|0>)", MASS),
 )
 
 THRESHOLD = (
@@ -483,8 +541,8 @@ def _comb_quantities() -> list[str]:
 #: the types a global attribute may have: text; a number; a whole number; a JSON object ``{name: number}`` (params);
 #: a JSON object ``{name: text}`` (the stored table files); a JSON list of names (scanned axes); a JSON object of
 #: anything plain (fixed params); a JSON pair [low, high] of numbers (a search interval)
-TEXT, NUMBER, WHOLE, PARAM_VALUES, FILE_TEXTS, NAMES, PLAIN, PAIR = (
-    "text", "number", "whole", "param values", "file texts", "names", "plain", "pair")
+TEXT, NUMBER, WHOLE, PARAM_VALUES, FILE_TEXTS, NAMES, PLAIN, PAIR, NUMBERS = (
+    "text", "number", "whole", "param values", "file texts", "names", "plain", "pair", "numbers")
 
 
 @dataclass(frozen=True)
@@ -509,12 +567,17 @@ COMMON_ATTRS: dict[str, Attr] = {
     "case_text": Attr(required=True, stored_case=True),
     "case_tables": Attr(FILE_TEXTS, stored_case=True),
     "params": Attr(PARAM_VALUES),
+    # the carrier, temperature, materials and unit notes of a case (io.datasets.case_attrs)
+    "carrier": Attr(), "temperature": Attr(NUMBER),
+    "temperature_units": Attr(), "nonparabolicity": Attr(WHOLE), "param_units": Attr(PLAIN), "case_notes": Attr(),
+    "materials": Attr(), "band_reference": Attr(NUMBER), "band_reference_note": Attr(), "layer_gaps": Attr(NUMBERS),
+    "layer_masses": Attr(NUMBERS), "materials_source": Attr(),
 }
 SOLVE_ATTRS = {
     "continuum_threshold": Attr(NUMBER), "box_left": Attr(NUMBER), "box_right": Attr(NUMBER),
     "boundary": Attr(choices=("open", "hard")), "mirror_center": Attr(NUMBER), "tolerance": Attr(NUMBER),
     "bound_state_count": Attr(WHOLE), "resolved_state_count": Attr(WHOLE), "energy_reference": Attr(NUMBER),
-    "messages": Attr(),
+    "messages": Attr(), "dipole_form": Attr(), "oscillator_strength_form": Attr(), "optics_accuracy": Attr(),
 }
 SWEEP_ATTRS = {
     "swept_params": Attr(NAMES), "axes": Attr(NAMES), "fixed_params": Attr(PLAIN), "points": Attr(WHOLE),
@@ -537,6 +600,17 @@ MAP_ATTRS = {
 }
 #: the attributes a variable may carry (the rest, NetCDF's own aside, are dropped on reading)
 VAR_ATTRS = ("long_name", "units", "units_name", "units_note", "flag_values", "flag_meanings", "spacing")
+ABSORPTION_ATTRS = {
+    "sheet_density": Attr(NUMBER), "sheet_density_units": Attr(), "carrier_temperature": Attr(NUMBER),
+    "carrier_temperature_note": Attr(), "chemical_potential": Attr(NUMBER), "notes": Attr(), "formula": Attr(),
+    "formula_source": Attr(), "broadening": Attr(NUMBER), "broadening_note": Attr(), "refractive_index": Attr(NUMBER),
+    "solve_run": Attr(), "period": Attr(NUMBER), "reference_mass": Attr(NUMBER),
+}
+INTERBAND_ATTRS = {
+    "effective_gap": Attr(NUMBER), "effective_gap_note": Attr(), "conduction_band_reference": Attr(NUMBER),
+    "valence_band_reference": Attr(NUMBER), "notes": Attr(), "overlap_note": Attr(),
+    "heavy_hole_layer_masses": Attr(NUMBERS), "light_hole_layer_masses": Attr(NUMBERS),
+}
 PERIODIC_ATTRS = {"boundary": Attr(choices=("periodic",)), "period": Attr(NUMBER), "period_start": Attr(NUMBER)}
 BANDS_ATTRS = {
     **PERIODIC_ATTRS, "method": Attr(), "tolerance": Attr(NUMBER), "zone_energy": Attr(NUMBER),
@@ -549,6 +623,65 @@ COMB_ATTRS = {
     **PERIODIC_ATTRS, "replacement_shape": Attr(), "tolerance": Attr(NUMBER), "zone_energy": Attr(NUMBER),
     "method": Attr(), "messages": Attr(),
 }
+
+
+_TR = ("transition",)
+ABSORPTION = (
+    Var("photon_energy", ("photon_energy",), "f8", "photon energy", ENERGY, coord=True, required=True),
+    Var("state", ("state",), "i4", "subband (bound state number of the solve)", coord=True,
+        source=lambda a: np.arange(a.state_energy.size)),
+    Var("transition", _TR, "i4", "index of an upward transition between populated subbands", coord=True,
+        source=lambda a: np.arange(a.transition_initial.size)),
+    Var("absorption", ("photon_energy",), "f8", "fraction of the light absorbed per pass by the sheet, electric "
+        "field along the growth axis", required=True),
+    Var("absorption_coefficient", ("photon_energy",), "f8", "absorption coefficient of a stack with the given period "
+        "(absorption / period)", INVERSE_LENGTH),
+    Var("state_energy", ("state",), "f8", "subband energy", ENERGY, required=True),
+    Var("population", ("state",), "f8", "sheet density of carriers in the subband", "1/length/length", required=True),
+    Var("transition_initial", _TR, "i4", "initial subband of the transition", required=True),
+    Var("transition_final", _TR, "i4", "final subband of the transition", required=True),
+    Var("transition_energy", _TR, "f8", "transition energy", ENERGY, required=True),
+    Var("transition_oscillator_strength", _TR, "f8", "oscillator strength of the transition (referred to the "
+        "solve's reference_mass)"),
+    Var("integrated_absorption", _TR, "f8", "area under the transition's line: integral of its absorption over "
+        "photon energy", ENERGY),
+    Var("transition_absorption", ("transition", "photon_energy"), "f8", "absorption per pass of each transition"),
+)
+
+_EH, _HH, _LH = "electron_state", "heavy_hole_state", "light_hole_state"
+INTERBAND = (
+    Var("x", ("x",), "f8", "position (every node of the three solves' grids)", LENGTH, coord=True, required=True),
+    Var(_EH, (_EH,), "i4", "electron state number (Sturm index)", coord=True, required=True),
+    Var(_HH, (_HH,), "i4", "heavy-hole state number (Sturm index)", coord=True, required=True),
+    Var(_LH, (_LH,), "i4", "light-hole state number (Sturm index)", coord=True, required=True),
+    Var("electron_energy", (_EH,), "f8", "electron confinement energy above the lowest conduction-band edge", ENERGY,
+        required=True),
+    Var("electron_energy_error", (_EH,), "f8", "estimated absolute error of electron_energy", ENERGY),
+    Var("heavy_hole_energy", (_HH,), "f8", "heavy-hole confinement energy below the highest valence-band edge",
+        ENERGY, required=True),
+    Var("heavy_hole_energy_error", (_HH,), "f8", "estimated absolute error of heavy_hole_energy", ENERGY),
+    Var("light_hole_energy", (_LH,), "f8", "light-hole confinement energy below the highest valence-band edge",
+        ENERGY, required=True),
+    Var("light_hole_energy_error", (_LH,), "f8", "estimated absolute error of light_hole_energy", ENERGY),
+    Var("heavy_hole_transition_energy", (_EH, _HH), "f8", "e-hh transition energy: effective gap + electron + "
+        "hole confinement energies", ENERGY, required=True),
+    Var("heavy_hole_transition_energy_error", (_EH, _HH), "f8", "estimated absolute error of "
+        "heavy_hole_transition_energy", ENERGY),
+    Var("heavy_hole_overlap", (_EH, _HH), "f8", "squared envelope overlap |<e|hh>|^2", required=True),
+    Var("heavy_hole_overlap_error", (_EH, _HH), "f8", "estimated absolute error of heavy_hole_overlap"),
+    Var("light_hole_transition_energy", (_EH, _LH), "f8", "e-lh transition energy: effective gap + electron + "
+        "hole confinement energies", ENERGY, required=True),
+    Var("light_hole_transition_energy_error", (_EH, _LH), "f8", "estimated absolute error of "
+        "light_hole_transition_energy", ENERGY),
+    Var("light_hole_overlap", (_EH, _LH), "f8", "squared envelope overlap |<e|lh>|^2", required=True),
+    Var("light_hole_overlap_error", (_EH, _LH), "f8", "estimated absolute error of light_hole_overlap"),
+    Var("conduction_band_edge", ("x",), "f8", "conduction-band edge (absolute scale of the materials data)", ENERGY),
+    Var("valence_band_edge", ("x",), "f8", "valence-band edge (absolute scale of the materials data; heavy and "
+        "light holes share it without strain)", ENERGY),
+    Var("electron_psi", (_EH, "x"), "f8", "electron envelope times sqrt(length unit)", note=PSI_NOTE),
+    Var("heavy_hole_psi", (_HH, "x"), "f8", "heavy-hole envelope times sqrt(length unit)", note=PSI_NOTE),
+    Var("light_hole_psi", (_LH, "x"), "f8", "light-hole envelope times sqrt(length unit)", note=PSI_NOTE),
+)
 
 
 @dataclass(frozen=True)
@@ -586,6 +719,8 @@ KINDS: dict[str, Kind] = {
     "bands": Kind("bands", "bands", BANDS, attrs=BANDS_ATTRS),
     "band_sweep": Kind("band_sweep", "band_sweep", BAND_SWEEP, axes_attr="swept_params", attrs=BAND_SWEEP_ATTRS),
     "comb_check": Kind("comb_check", "comb_check", COMB_CHECK, attrs=COMB_ATTRS),
+    "absorption": Kind("absorption", "absorption", ABSORPTION, attrs=ABSORPTION_ATTRS),
+    "interband": Kind("interband", "interband", INTERBAND, attrs=INTERBAND_ATTRS),
 }
 #: the values of the global attribute fdsolver_kind
 ARCHIVE_KINDS = tuple(dict.fromkeys(k.fdsolver_kind for k in KINDS.values()))

@@ -20,7 +20,7 @@ from __future__ import annotations
 import re
 
 #: plain names and UDUNITS spellings of the one-word dimensions that need no unit system
-_FIXED = {"1": ("1", "1"), "mass": ("1", "m_e")}
+_FIXED = {"1": ("1", "1"), "mass": ("1", "m_e"), "temperature": ("K", "K")}
 _TOKEN = re.compile(r"\s*([*/])\s*")
 
 

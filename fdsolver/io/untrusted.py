@@ -35,7 +35,7 @@ import numpy as np
 
 from fdsolver.errors import ArchiveError, printable, shorten
 from fdsolver.io import specs
-from fdsolver.limits import MAX_ATTRIBUTE_BYTES, MAX_PARAMS, MAX_PARAMS_BYTES, MAX_STORED_CASE_BYTES
+from fdsolver.limits import MAX_LAYERS, MAX_ATTRIBUTE_BYTES, MAX_PARAMS, MAX_PARAMS_BYTES, MAX_STORED_CASE_BYTES
 
 
 def _fail(path, message: str) -> ArchiveError:
@@ -57,6 +57,14 @@ def _number(v) -> bool:
 def _value(name: str, attr: specs.Attr, value, path):
     """``value`` of global attribute ``name`` checked against its declaration (JSON texts are checked, not decoded)."""
     wrong = f"attribute {name} is not {attr.type}"
+    if attr.type == specs.NUMBERS:  # a short list of numbers (one per layer)
+        if isinstance(value, (int, float, np.number)):
+            value = np.array([value])
+        if not (isinstance(value, np.ndarray) and value.ndim == 1 and value.size <= MAX_LAYERS
+                and value.dtype.kind in "iuf"):
+            raise _fail(path, f"{wrong} (at most {MAX_LAYERS} numbers); the archive is damaged or was not written by "
+                              "fdsolver")
+        return value
     if attr.type in (specs.NUMBER, specs.WHOLE):
         if isinstance(value, np.ndarray) and value.size == 1:
             value = value.reshape(())[()]

@@ -37,6 +37,9 @@ class UnitSystem:
     """Names and the kinetic constant of one unit system.
 
     ``hbar2_2me`` is hbar^2 / (2 m_e) in ``energy * length**2``.
+    ``length_si`` and ``energy_si`` are one length unit in metres and one energy unit in joules
+    (CODATA values from scipy.constants; NaN for an unnamed system), for the quantities that
+    leave the Schroedinger problem's own units (optical cross-sections, material data in eV).
     ``length_udunits`` and ``energy_udunits`` are the CF/UDUNITS spellings used
     in archives.  UDUNITS knows no bohr or hartree, so atomic-unit archives
     write them as scaled SI units ("5.29177210544e-11 m", CODATA values from
@@ -50,6 +53,8 @@ class UnitSystem:
     length_udunits: str
     energy_udunits: str
     units_note: str
+    length_si: float = float("nan")
+    energy_si: float = float("nan")
 
 
 def _hbar2_2me_mev_nm2() -> float:
@@ -69,6 +74,8 @@ UNIT_SYSTEMS: dict[str, UnitSystem] = {
             "Hartree atomic units (hbar = m_e = 1): 'bohr' and 'hartree' are not "
             "UDUNITS names; 1 bohr = 0.0529177210544 nm, 1 hartree = 27211.386 meV."
         ),
+        length_si=BOHR_RADIUS,
+        energy_si=HARTREE_ENERGY,
     ),
     "nm-meV": UnitSystem(
         name="nm-meV",
@@ -78,6 +85,8 @@ UNIT_SYSTEMS: dict[str, UnitSystem] = {
         length_udunits="nm",
         energy_udunits="meV",
         units_note="lengths in nm, energies in meV, masses in free-electron masses",
+        length_si=1e-9,
+        energy_si=1e-3 * ELEMENTARY_CHARGE,
     ),
 }
 

@@ -19,6 +19,8 @@ PLOTTERS = {
     "bands": "fdsolver.plot.bands:plot_bands",
     "band_sweep": "fdsolver.plot.bands:plot_band_sweep",
     "comb_check": "fdsolver.plot.bands:plot_comb_check",
+    "absorption": "fdsolver.plot.optics:plot_absorption",
+    "interband": "fdsolver.plot.optics:plot_interband",
 }
 
 

@@ -25,10 +25,55 @@ def figure(nrows: int = 1, ncols: int = 1, *, width: float = 7.5, height: float 
     return fig, list(axes.ravel())
 
 
-def save(fig, path, rect=None) -> None:
-    """Lay out ``fig`` (within ``rect`` of the figure, if given), write it to ``path`` and close it."""
+def save(fig, path, rect=None, layout: bool = True) -> None:
+    """Lay out ``fig`` (within ``rect`` of the figure, if given; ``layout=False``: as it is), write it to ``path``
+    and close it."""
     import matplotlib.pyplot as plt
 
-    fig.tight_layout(rect=rect)
-    fig.savefig(path)
+    if layout:
+        fig.tight_layout(rect=rect)
+    fig.savefig(path, bbox_inches="tight", pad_inches=0.08)  # nothing outside the axes (legends, labels) is clipped
     plt.close(fig)
+
+
+def legend_outside(ax, handles=None, labels=None, fontsize: float = 7.5, title: str | None = None, max_rows: int = 24):
+    """A legend to the right of ``ax``, off the data (entries beyond ``max_rows`` summarised in one line)."""
+    if handles is None:
+        handles, labels = ax.get_legend_handles_labels()
+    if not handles:
+        return None
+    if len(handles) > max_rows:
+        from matplotlib.lines import Line2D
+
+        extra = len(handles) - (max_rows - 1)
+        handles = list(handles[: max_rows - 1]) + [Line2D([], [], color="none")]
+        labels = list(labels[: max_rows - 1]) + [f"... and {extra} more"]
+    return ax.legend(handles, labels, loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0,
+                     fontsize=fontsize, frameon=False, title=title, title_fontsize=fontsize)
+
+
+def run_subtitle(ds) -> str:
+    """A short second title line: carrier, mass and unit system of the run."""
+    from fdsolver.report._common import mass_text
+
+    a = ds.attrs
+    if a.get("fdsolver_kind") == "interband":
+        masses = "; ".join(f"{c} {_range(a.get(k, a.get('layer_masses', [])))} m_e" for c, k in
+                           (("e", "layer_masses"), ("hh", "heavy_hole_layer_masses"), ("lh", "light_hole_layer_masses")))
+        parts = [f"masses by layer: {masses}", f"units {a.get('units_system', '')}"]
+    else:
+        parts = [str(a.get("carrier", "electron")).replace("_", " "), f"m = {mass_text(ds)}",
+                 f"units {a.get('units_system', '')}"]
+    if a.get("materials"):
+        parts.insert(0, f"{a['materials']}, {float(a.get('temperature', 300.0)):g} K")
+    return "; ".join(parts)
+
+
+def _range(values) -> str:
+    import numpy as np
+
+    v = np.atleast_1d(np.asarray(values, dtype=float))
+    if v.size == 0:
+        return "?"
+    lo, hi = float(v.min()), float(v.max())
+    return f"{lo:.4g}" if lo == hi else f"{lo:.4g}-{hi:.4g}"

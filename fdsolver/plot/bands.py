@@ -19,7 +19,7 @@ import json
 
 import numpy as np
 
-from fdsolver.plot._common import figure, label, save, units_of
+from fdsolver.plot._common import figure, label, save, title_of, units_of
 
 GAP_COLOR = "0.86"
 
@@ -83,7 +83,7 @@ def plot_bands(ds, path) -> None:
     ax_v.set_ylim(*ylim)
     for ax in fig.axes[1:4 if stacks else 3]:  # the panels beside the potential share its energy axis
         ax.tick_params(labelleft=False)
-    fig.suptitle(f"{ds.attrs.get('title', '')}: Bloch bands", fontsize=10)
+    fig.suptitle(f"{title_of(ds)}: Bloch bands", fontsize=10)
     save(fig, path, rect=(0, 0, 1, 0.97))
 
 
@@ -252,7 +252,7 @@ def plot_band_sweep(ds, path) -> None:
         ax2.semilogy(x[ok], wid[ok, n], color=colors[n], lw=1.3, label=f"band {n}")
     ax.set_ylabel(label(ds, "band_bottom", "energy"))
     extra = ", ".join(f"{n} = {ds[n].values[i]:.4g}" for n, i in sel.items())
-    ax.set_title(f"{ds.attrs.get('title', '')}\nminibands against {name} (white: gaps)" + (f" at {extra}" if extra else ""),
+    ax.set_title(f"{title_of(ds)}\nminibands against {name} (white: gaps)" + (f" at {extra}" if extra else ""),
                  fontsize=10)
     ax.legend(fontsize=7, loc="best", ncol=2)
     ax2.set_ylabel(label(ds, "band_width", "band width"))
@@ -310,7 +310,7 @@ def plot_comb_check(ds, path) -> None:
                      xycoords="axes fraction", fontsize=7, color="0.3")
     _panel_validity(axes[3], ds, colors, tol, lu)
     shape = ds.attrs.get("replacement_shape", "")
-    fig.suptitle(f"{ds.attrs.get('title', '')}: {shape} components against the delta comb", fontsize=10)
+    fig.suptitle(f"{title_of(ds)}: {shape} components against the delta comb", fontsize=10)
     save(fig, path, rect=(0, 0, 1, 0.97))
 
 

@@ -16,7 +16,7 @@ import json
 
 import numpy as np
 
-from fdsolver.plot._common import figure, label, save, title_of, units_of
+from fdsolver.plot._common import figure, label, run_subtitle, save, title_of, units_of
 
 
 def _panels(ncols: int, width: float = 6.0, height: float = 4.8):
@@ -59,7 +59,8 @@ def _plot_ladder(ds, path) -> None:
         if np.isfinite(v) and int(ds.validity_flag.values[k]) in (0, 4):
             ax.axvline(v, color=c, ls=":", lw=1.0)
             ax.annotate(f"valid up to {v:.3g} {lu}", (v, tol), xytext=(4, -14 - 11 * k), textcoords="offset points",
-                        color=c, fontsize=7)
+                        color=c, fontsize=7, bbox=dict(facecolor="white", edgecolor="none", alpha=0.85, pad=0.6),
+                        zorder=5)  # on a white ground: the text may cross another state's curve
         e = ds.energy.values[:, k]
         ax2.semilogx(w, e, "o-", color=c, ms=4, lw=1.2, label=f"state {k}: finite wells")
         lim = ds.energy_limit.values[k]
@@ -83,7 +84,8 @@ def _plot_ladder(ds, path) -> None:
     ax2.legend(fontsize=6.5, loc="center right")
     if has_crit:
         _plot_critical(ds, axes[2], colors, lu)
-    fig.suptitle(f"{title_of(ds)}: {ds.attrs.get('replacement_shape')} wells vs point interactions", fontsize=10)
+    fig.suptitle(f"{title_of(ds)}: {ds.attrs.get('replacement_shape')} wells vs point interactions\n"
+                 f"{run_subtitle(ds)}", fontsize=10)
     save(fig, path)
 
 
@@ -127,13 +129,14 @@ def _plot_levels(ds, path) -> None:
     ax.set_xticks([0.5, 1.5], ["finite wells", "zero-range model"])
     ax.set_xlim(0, 2)
     ax.set_ylabel(f"energy [{eu}]")
-    ax.set_title(title_of(ds), fontsize=10)
+    ax.set_title(f"{title_of(ds)}\n{run_subtitle(ds)}", fontsize=9.5)
     save(fig, path)
 
 
 def _plot_map(ds, path) -> None:
     from matplotlib.colors import ListedColormap
     from matplotlib.patches import Patch
+    from matplotlib.ticker import FormatStrFormatter, LogLocator, NullFormatter
 
     names = json.loads(ds.attrs["map_axes"])
     n_s = ds.sizes["state"]
@@ -165,9 +168,13 @@ def _plot_map(ds, path) -> None:
         if ds.overlap.values.any():
             ov = np.where(ds.overlap.values.T > 0, 1.0, np.nan)
             ax.pcolormesh(xa.values, ya.values, ov, shading="nearest", cmap=ListedColormap(["white"]))
-        for axis, coord in ((ax.set_xscale, xa), (ax.set_yscale, ya)):
+        for axis, coord, which in ((ax.set_xscale, xa, ax.xaxis), (ax.set_yscale, ya, ax.yaxis)):
             if coord.attrs.get("spacing") == "log":
                 axis("log")
+                # a short log axis: ticks at 1, 2 and 5 per decade as plain numbers (minor labels ran into each other)
+                which.set_major_locator(LogLocator(subs=(1.0, 2.0, 5.0)))
+                which.set_major_formatter(FormatStrFormatter("%g"))
+                which.set_minor_formatter(NullFormatter())
         ax.set_xlabel(label(ds, names[0]))
         ax.set_ylabel(label(ds, names[1]))
         ax.set_title(f"state {k}", fontsize=10)
@@ -183,5 +190,5 @@ def _plot_map(ds, path) -> None:
     if ds.overlap.values.any():
         handles.append(Patch(facecolor="white", edgecolor="0.5", label="wells overlap (not solved)"))
     fig.legend(handles=handles, loc="lower center", ncol=3, fontsize=7, frameon=False)
-    fig.suptitle(f"{title_of(ds)}: validity of the zero-range model", fontsize=10)
+    fig.suptitle(f"{title_of(ds)}: validity of the zero-range model\n{run_subtitle(ds)}", fontsize=10)
     save(fig, path, rect=(0, 0.12, 1, 0.95))  # room for the legend below the panels

@@ -15,14 +15,15 @@ import json
 
 import numpy as np
 
-from fdsolver.plot._common import figure, label, save, title_of, units_of
+from fdsolver.plot._common import figure, label, legend_outside, run_subtitle, save, title_of, units_of
 
 
-def _with_splitting(has_split: bool):
-    """One panel, or the energies above the tunnel splitting (sharing the param axis)."""
-    if not has_split:
-        return figure()
-    return figure(2, 1, height=7.0, sharex=True, gridspec_kw={"height_ratios": [3, 1.3]})
+#: splittings are drawn on a log axis only when their positive values span at least this many decades
+LOG_DECADES = 2.0
+#: oscillator strengths from the ground state are drawn to at most this many final states
+F_FINALS = 4
+#: strengths below this are left off a log axis of f (zero by symmetry, up to round-off)
+F_FLOOR = 1e-6
 
 
 def _log(ds, name) -> bool:
@@ -50,34 +51,96 @@ def _markers(ax, ds, name, eu=None) -> None:
                         xytext=(3, -4), textcoords="offset points", va="top", fontsize=7, color="0.25")
 
 
+def _panels(ds, split) -> list[str]:
+    """The panels of a one-param sweep, top to bottom."""
+    out = ["energy"]
+    if "mean_x" in ds and np.isfinite(ds.mean_x.values).any():
+        out.append("mean_x")
+    if "oscillator_strength" in ds and ds.sizes.get("final_state", 0) >= 2 and \
+            np.isfinite(ds.oscillator_strength.values[:, 0, 1:]).any():
+        out.append("f")
+    if np.any(np.isfinite(split) & (split > 0)):
+        out.append("splitting")
+    return out
+
+
 def _plot_line(ds, name, path) -> None:
     x = ds[name].values
     eu = units_of(ds, "energy")
     split = ds["tunnel_splitting"].values if "tunnel_splitting" in ds else np.array([np.nan])
-    has_split = bool(np.any(np.isfinite(split) & (split > 0)))
-    fig, axes = _with_splitting(has_split)
-    ax = axes[0]
-    for s in ds.state.values:
-        e = ds.energy.sel(state=s).values
-        if np.isfinite(e).any():
-            ax.plot(x, e, marker="." if x.size <= 200 else None, lw=1.3, label=f"state {int(s)} ({int(s)} node{'' if int(s) == 1 else 's'})")
+    panels = _panels(ds, split)
+    heights = {"energy": 3.0, "mean_x": 1.5, "f": 1.5, "splitting": 1.4}
+    fig, axes = figure(len(panels), 1, width=8.5, height=1.3 + 1.35 * sum(heights[p] for p in panels), sharex=True,
+                       gridspec_kw={"height_ratios": [heights[p] for p in panels]}) \
+        if len(panels) > 1 else figure(width=8.5, height=5.0)
+    by = dict(zip(panels, axes))
+    ax = by["energy"]
+    mark = "." if x.size <= 200 else None
+    conv = ds.converged.values if "converged" in ds else None
+    wall = ds.wall_state.values if "wall_state" in ds else None
+    for k, s in enumerate(ds.state.values):
+        e = ds.energy.values[:, k]
+        if not np.isfinite(e).any():
+            continue
+        line = ax.plot(x, e, marker=mark, lw=1.3, label=f"state {int(s)} ({int(s)} node{'' if int(s) == 1 else 's'})")[0]
+        for key in ("mean_x",):
+            if key in by:
+                by[key].plot(x, ds[key].values[:, k], marker=mark, lw=1.2, color=line.get_color())
+    bad_label, wall_label = "not converged", "hard-wall state"
+    if conv is not None and np.any(conv == 0):
+        i, k = np.nonzero(conv == 0)
+        ax.plot(x[i], ds.energy.values[i, k], "x", color="red", ms=7, mew=1.5, label=bad_label, zorder=5)
+    if wall is not None and np.any((wall == -1) | (wall == 1)):
+        i, k = np.nonzero((wall == -1) | (wall == 1))
+        ax.plot(x[i], ds.energy.values[i, k], "s", mfc="none", color="0.3", ms=6, label=wall_label, zorder=5)
+        if "mean_x" in by:  # the same marks where <x> is drawn: a wall state's <x> follows the walls, not the structure
+            by["mean_x"].plot(x[i], ds.mean_x.values[i, k], "s", mfc="none", color="0.3", ms=6, zorder=5)
     vt = ds.continuum_threshold.values
     if np.isfinite(vt).any():
         ax.plot(x, vt, color="0.5", lw=0.9, ls=":", label="continuum threshold")
     _markers(ax, ds, name, eu)
     ax.set_ylabel(label(ds, "energy"))
-    ax.set_title(title_of(ds))
-    if ds.sizes.get("state", 0) <= 12:
-        ax.legend(fontsize=7, loc="best")
-    if has_split:
-        ax2 = axes[1]
+    ax.set_title(f"{title_of(ds)}\n{run_subtitle(ds)}", fontsize=9.5)
+    legend_outside(ax)
+    if "mean_x" in by:
+        axm = by["mean_x"]
+        axm.set_ylabel(label(ds, "mean_x", "<x>"))
+        _markers(axm, ds, name)
+        mx = ds.mean_x.values[np.isfinite(ds.mean_x.values)]
+        sp = ds.spread.values[np.isfinite(ds.spread.values)] if "spread" in ds else np.zeros(0)
+        width = 0.5 * float(np.median(sp)) if sp.size else 1.0
+        if mx.size and np.ptp(mx) < 0.05 * width:  # a mirror-symmetric structure: <x> constant, not round-off zoomed
+            mid = 0.5 * (mx.max() + mx.min())
+            axm.set_ylim(mid - width, mid + width)
+    if "f" in by:
+        axf = by["f"]
+        for j in range(1, min(ds.sizes["final_state"], F_FINALS + 1)):
+            fj = ds.oscillator_strength.values[:, 0, j]
+            if np.isfinite(fj).any():
+                axf.plot(x, fj, marker=mark, lw=1.2, color=f"C{j}", label=f"0 -> {j}")
+        axf.set_ylabel("oscillator strength f [1]")
+        shown = ds.oscillator_strength.values[:, 0, 1:F_FINALS + 1]
+        pos = shown[np.isfinite(shown) & (shown > F_FLOOR)]
+        if pos.size and np.all(shown[np.isfinite(shown)] >= 0) and np.log10(pos.max() / pos.min()) >= LOG_DECADES:
+            # weak lines that a field switches on are the point of a Stark sweep: a log axis shows them
+            axf.set_yscale("log")
+            axf.set_ylim(max(F_FLOOR, 0.5 * pos.min()), 2.0 * pos.max())
+        else:
+            axf.set_ylim(bottom=min(0.0, axf.get_ylim()[0]))
+        legend_outside(axf, title="from state 0")
+        _markers(axf, ds, name)
+    if "splitting" in by:
+        ax2 = by["splitting"]
         ok = np.isfinite(split) & (split > 0)
-        ax2.semilogy(x[ok], split[ok], color="C3", lw=1.3)
+        ax2.plot(x[ok], split[ok], color="C3", lw=1.3, marker=mark)
+        if np.log10(split[ok].max() / split[ok].min()) >= LOG_DECADES:
+            ax2.set_yscale("log")
         ax2.set_ylabel(label(ds, "tunnel_splitting", "E1 - E0"))
         _markers(ax2, ds, name)
     for a in axes:
         if _log(ds, name):
             a.set_xscale("log")
+        a.grid(True, lw=0.3, alpha=0.5)
     axes[-1].set_xlabel(label(ds, name))
     save(fig, path)
 
@@ -106,7 +169,7 @@ def _plot_map(ds, names, path) -> None:
     if _log(ds, ya):
         ax.set_yscale("log")
     extra = ", ".join(f"{n} = {ds[n].values[i]:.4g}" for n, i in sel.items())
-    ax.set_title(title_of(ds) + (f"\n(at {extra})" if extra else ""), fontsize=10)
+    ax.set_title(f"{title_of(ds)}\n{run_subtitle(ds)}" + (f"\n(at {extra})" if extra else ""), fontsize=9.5)
     save(fig, path)
 
 
@@ -127,9 +190,10 @@ def _plot_threshold(ds, path) -> None:
     u = units_of(ds, "scan")
     for v, s in zip(ds.threshold_value.values, ds.threshold_state.values):
         ax.axvline(v, color="0.35", lw=0.9, ls="--")
-        ax.annotate(f"state {int(s)}: {v:.8g} {u}".rstrip(), (v, int(s)), xytext=(4, 4), textcoords="offset points", fontsize=7)
+        # below the level, right of the line: the margin rises through it there, so the text stays off the curve
+        ax.annotate(f"state {int(s)}: {v:.8g} {u}".rstrip(), (v, int(s)), xytext=(4, -11), textcoords="offset points", fontsize=7)
     ax.set_xlabel(label(ds, "scan", name))
     ax.set_ylabel("phase margin (state N bound where it exceeds N) [1]")
-    ax.set_title(title_of(ds))
+    ax.set_title(f"{title_of(ds)}\n{run_subtitle(ds)}", fontsize=9.5)
     ax.legend(fontsize=7, loc="best")
     save(fig, path)

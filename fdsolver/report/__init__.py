@@ -18,6 +18,8 @@ FORMATTERS = {
     "bands": "fdsolver.report.bands:format_bands",
     "band_sweep": "fdsolver.report.bands:format_band_sweep",
     "comb_check": "fdsolver.report.bands:format_comb_check",
+    "absorption": "fdsolver.report.optics:format_absorption",
+    "interband": "fdsolver.report.optics:format_interband",
 }
 
 

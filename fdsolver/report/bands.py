@@ -9,7 +9,7 @@ import json
 
 import numpy as np
 
-from fdsolver.report._common import label, units_of
+from fdsolver.report._common import label, title_of, units_of
 
 #: rows of a one-param band sweep shown in full (else an evenly spaced selection)
 SWEEP_ROWS = 12
@@ -23,7 +23,7 @@ def _g(v, fmt: str = ".6g") -> str:
 def _head(ds, what: str) -> list[str]:
     a = ds.attrs
     eu, lu = units_of(ds, "band_bottom" if "band_bottom" in ds else "energy"), a.get("units_note", "")
-    lines = [a.get("title", "")]
+    lines = [title_of(ds)]
     length = units_of(ds, "x") if "x" in ds else (units_of(ds, "width") if "width" in ds else "")
     period = a.get("period")
     per = f"; period L = {period:.10g} {length} from x = {a.get('period_start', 0.0):.10g}" if period is not None else ""

@@ -11,7 +11,7 @@ import json
 
 import numpy as np
 
-from fdsolver.report._common import label, name_of, notes_of, title_of, units_of
+from fdsolver.report._common import label, name_of, notes_of, run_header, title_of, units_of
 
 ORDINAL = {0: "ground", 1: "first excited", 2: "second excited"}
 
@@ -22,10 +22,9 @@ def _g(v, fmt=".6g") -> str:
 
 def _head(ds) -> list[str]:
     a = ds.attrs
-    eu = units_of(ds, "energy")
-    lines = [title_of(ds)]
+    lines = [title_of(ds), run_header(ds)]
     params = json.loads(a.get("params", "{}"))
-    lines.append(f"units: {a.get('units_system')} (energies in {eu}); deviation = (E_finite - E_point) / |E_point|, "
+    lines.append(f"deviation = (E_finite - E_point) / |E_point|, "
                  f"tolerance {a.get('tolerance'):.1e}" + ("; params: " + ", ".join(f"{name_of(k)} = {v:.10g}" for k, v in params.items()) if params else ""))
     return lines
 

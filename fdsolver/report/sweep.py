@@ -6,7 +6,7 @@ import json
 
 import numpy as np
 
-from fdsolver.report._common import declared, name_of, notes_of, title_of, units_of
+from fdsolver.report._common import case_notes, declared, name_of, notes_of, run_header, title_of, units_of
 
 TABLE_ROWS = 30
 
@@ -58,7 +58,7 @@ def format_threshold(ds, first_only: bool = True, state=None) -> str:
     lo, hi = info["interval"]
     n_lo, n_hi = info["bound_states_at_lo"], info["bound_states_at_hi"]
     rng = f"{name} from {_with_units(lo, u, 'g')} to {_with_units(hi, u, 'g')}"
-    lines = []
+    lines = [run_header(ds)]
     if not info["found"]:
         who = f"state {state} neither appears nor disappears" if state is not None else "no bound state appears or disappears"
         lines.append(f"{who} for {rng}: {n_lo} bound state(s) at {name} = {_with_units(lo, u, 'g')}, "
@@ -102,7 +102,8 @@ def format_sweep(ds) -> str:
     a = ds.attrs
     names = json.loads(a.get("swept_params", "[]"))
     eu = units_of(ds, "energy")
-    lines = [title_of(ds), f"sweep of {int(a.get('points', 0))} points; energies in {eu}; states labelled by node count"]
+    lines = [title_of(ds), run_header(ds),
+             f"sweep of {int(a.get('points', 0))} points; energies in {eu}; states labelled by node count"]
     lines.extend("  " + _axis_text(ds, n) for n in names)
     fixed = json.loads(a.get("fixed_params", "{}"))
     if fixed:
@@ -119,6 +120,7 @@ def format_sweep(ds) -> str:
             lines.append(f"state {int(s)}: exists at no point")
     if len(names) == 1 and ds.sizes[names[0]] <= TABLE_ROWS:
         lines.extend(_table(ds, names[0], eu))
+        lines.extend(_position_table(ds, names[0]))
     if "tunnel_splitting" in ds and np.isfinite(ds.tunnel_splitting.values).any():
         ts = ds.tunnel_splitting.values
         lines.append(f"tunnel splitting E1 - E0: {np.nanmin(ts):.6g} to {np.nanmax(ts):.6g} {eu} where both states exist")
@@ -131,6 +133,7 @@ def format_sweep(ds) -> str:
         lines.append(f"note: {nc} state value(s) not converged to the tolerance (converged = 0)")
     if int(a.get("failed_points", 0)):
         lines.append(f"note: {int(a['failed_points'])} point(s) could not be solved (solved = 0)")
+    lines.extend(case_notes(ds))
     notes = notes_of(ds, "notes")
     if notes:
         lines.append(f"notes ({int(a.get('notes_count', 0))}):")
@@ -155,11 +158,37 @@ def _table(ds, name, eu) -> list[str]:
     return rows
 
 
+#: states whose <x> and strengths from the ground state the position table shows
+POSITION_STATES = 3
+
+
+def _position_table(ds, name) -> list[str]:
+    """Per point: <x> of the lowest states and the oscillator strengths from state 0 (all in the archive and
+    in ``fdsolver export``)."""
+    if "mean_x" not in ds:
+        return []
+    pu, lu = units_of(ds, name), units_of(ds, "mean_x")
+    ks = [int(s) for s in ds.state.values][:POSITION_STATES]
+    fs = [int(j) for j in ds.final_state.values if 0 < int(j) <= POSITION_STATES] if "oscillator_strength" in ds else []
+    head = f"{name + (' [' + pu + ']' if pu else ''):>14}" + "".join(f"  {'<x>' + str(k) + ' [' + lu + ']':>14}" for k in ks)
+    head += "".join(f"  {'f0' + str(j):>10}" for j in fs)
+    rows = ["position and strength from state 0 (<x>: mean position; f0j: oscillator strength 0 -> j):", head]
+    mx = np.array(ds.mean_x.values, dtype=float)
+    spread = ds.spread.values[np.isfinite(ds.spread.values)] if "spread" in ds else np.zeros(0)
+    scale = float(np.median(spread)) if spread.size else 1.0
+    mx[np.abs(mx) < 1e-9 * scale] = 0.0  # round-off of a mirror-symmetric state's <x> is shown as 0
+    for i, v in enumerate(ds[name].values):
+        row = f"{v:14.6g}" + "".join(f"  {mx[i, k]:14.6g}" for k in range(len(ks)))
+        row += "".join(f"  {ds.oscillator_strength.values[i, 0, j]:10.5f}" for j in fs)
+        rows.append(row.replace("nan", "  -"))
+    return rows
+
+
 def _format_threshold_archive(ds) -> str:
     a = ds.attrs
     name = json.loads(a.get("swept_params", '["param"]'))[0]
     u = units_of(ds, "threshold_value")
-    lines = [title_of(ds), f"binding thresholds of {name} (zero-energy phase, no box)"]
+    lines = [title_of(ds), run_header(ds), f"binding thresholds of {name} (zero-energy phase, no box)"]
     lo, hi = ds.scan.values[0], ds.scan.values[-1]
     lines.append(f"interval {name} = {lo:g} .. {hi:g} {u}; bound states {a.get('bound_states_at_lo')} at {lo:g}, {a.get('bound_states_at_hi')} at {hi:g}")
     if ds.sizes.get("threshold", 0) == 0:

@@ -161,6 +161,9 @@ def param_units(case, name: str) -> tuple[str, str]:
     declared = declared_units(case)
     if name in declared:
         return declared[name], declared[name]
+    given = getattr(case, "param_units", {}).get(name)
+    if given:  # a param written with a unit ([params] F = "20 kV/cm") is swept in that unit
+        return (given if parses_as_udunits(given) else ""), given
     dim = inferred_dimension(case, name)
     return units_of(dim, case.units) if dim else ("", "")
 

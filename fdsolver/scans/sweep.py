@@ -2,8 +2,12 @@
 
 A sweep solves ``case.with_params(**fixed, **point)`` at every point of the
 cartesian product of its axes, exactly as a single ``solve`` would, and keeps
-per state: energy, energy_error, converged, nodes, parity (and psi on a common
-x grid when asked).  States are labelled by their number of nodes (the
+per state: energy, energy_error, converged, nodes, parity, <x>, the spread,
+the probability inside every named layer or component, the hard-wall flag,
+and the dipoles and oscillator strengths to the :data:`TRANSITION_STATES`
+lowest states (one grid, O(h^2), with the length/velocity-form difference as
+their error, :func:`fdsolver.optics.solved.transitions_of`); and psi on a
+common x grid when asked.  States are labelled by their number of nodes (the
 oscillation theorem numbers bound states by it), so a label follows one state
 across the sweep and a state absent at a point is NaN there.  Per point it
 also keeps the number of bound states on the whole open line (from the
@@ -11,7 +15,12 @@ zero-energy phase, :mod:`fdsolver.boundstates.counting`, independent of the box)
 number the box solve resolved, the continuum threshold and the tunnel
 splitting E1 - E0.  Wavefunctions are interpolated linearly (error O(h^2) of
 the solver's local spacing) onto the common grid, zero outside the solver's
-box.  The points run through :func:`fdsolver.scans.runner.run` (chunks,
+box.  Without ``[sweep] psi_range`` the common grid covers the boxes of the
+corner points (solved once before the sweep) and follows the density of
+their grids' nodes (``psi_points`` quantiles of their union); the norm each
+state keeps on it is stored beside psi (``psi_norm``), with a note where it
+is below :data:`NORM_WARNING` (a point whose box reaches beyond the corners',
+or a grid too coarse for the state).  The points run through :func:`fdsolver.scans.runner.run` (chunks,
 executors, checkpoint and resume); the archive is
 :func:`fdsolver.io.datasets.sweep_dataset`.  Energies and lengths in the
 case units; params in their own units.
@@ -33,8 +42,14 @@ from fdsolver.limits import MAX_MEMORY_MB, MAX_SWEEP_POINTS
 from fdsolver.scans.axes import Axis, declared_units, parse_axes
 from fdsolver.scans.runner import base_case, counts_match
 
-BYTES_PER_STATE = 8 + 8 + 8 + 4 + 1 + 1  # energy, error, binding energy, nodes, converged, parity
-BYTES_PER_POINT = 4 + 4 + 8 + 8 + 8 + 1 + 1  # bound, resolved, threshold, splitting (+ error, bound flag), solved
+BYTES_PER_STATE = 8 + 8 + 8 + 4 + 1 + 1 + 8 + 8 + 1  # energy, error, binding energy, nodes, converged, parity, <x>, spread, wall
+BYTES_PER_POINT = 4 + 4 + 8 + 8 + 8 + 1 + 1 + 8  # bound, resolved, threshold, splitting (+ error, bound flag), solved, m_r
+#: dipoles and oscillator strengths are kept from every state to this many lowest states
+TRANSITION_STATES = 8
+#: a state keeping less of its norm on the common psi grid gets a note
+NORM_WARNING = 0.999
+#: corner points solved before a sweep to find the boxes the common psi grid must cover
+PSI_CORNERS = 16
 
 
 # ----------------------------------------------------------------- plan
@@ -91,9 +106,12 @@ class SweepSpec:
         return Results(self, base_case(self).settings.max_states)
 
 
-def estimate_bytes(n_points: int, n_states: int, n_x: int) -> int:
-    """Memory of a sweep result: per point and state variables, plus psi (n_x values per state) if kept."""
-    return int(n_points) * (BYTES_PER_POINT + int(n_states) * (BYTES_PER_STATE + 8 * int(n_x)))
+def estimate_bytes(n_points: int, n_states: int, n_x: int, n_regions: int = 0) -> int:
+    """Memory of a sweep result: per point and state variables (with the transitions to the lowest states and
+    the probability inside each of ``n_regions``), plus psi and its norm (n_x + 1 values per state) if kept."""
+    per_state = BYTES_PER_STATE + 8 * int(n_regions) + 3 * 8 * min(int(n_states), TRANSITION_STATES)
+    per_state += 8 * (int(n_x) + 1) if n_x else 0
+    return int(n_points) * (BYTES_PER_POINT + int(n_states) * per_state)
 
 
 def _mb(n: float) -> str:
@@ -109,9 +127,10 @@ def _budget(memory_mb, table, file) -> float:
     return float(budget)
 
 
-def _psi_range(table, file) -> tuple[float, float] | None:
-    """``[sweep] psi_range``: two finite numbers, low < high (booleans are not numbers)."""
-    rng = table.get("psi_range")
+def _psi_range(case, table, file) -> tuple[float, float] | None:
+    """``[sweep] psi_range``: two finite lengths, low < high (booleans are not numbers; values given with units
+    are converted to the case length unit)."""
+    rng = _psi_range_units(case, table.get("psi_range"))
     if rng is None:
         return None
     ok = isinstance(rng, (list, tuple)) and len(rng) == 2 and all(
@@ -132,14 +151,14 @@ def plan_sweep(case, axes, fixed=None, save_psi=False, memory_mb=None, chunk=Non
     n_x = table.get("psi_points", 401) if save_psi else 0
     if save_psi and (isinstance(n_x, bool) or not isinstance(n_x, int) or not 2 <= n_x <= 100000):
         raise CaseError(f"must be a whole number from 2 to 100000, got {n_x!r}", file=case.path, key="sweep.psi_points")
-    rng = _psi_range(table, case.path)
+    rng = _psi_range(case, table, case.path)
     chunk = chunk if chunk is not None else table.get("chunk")
     if chunk is not None and (isinstance(chunk, bool) or not isinstance(chunk, int) or chunk < 1):
         raise CaseError(f"must be a whole number >= 1, got {chunk!r}", file=case.path if "chunk" in table else None,
                         key="sweep.chunk" if "chunk" in table else "--chunk")
     key = axes[0].key if axes and getattr(axes[0], "key", None) else "--vary"
     n_points = math.prod(int(a.values.size) for a in axes)  # exact: 64 axes of 2 values do not overflow to 0
-    need = estimate_bytes(n_points, n_states, n_x)
+    need = estimate_bytes(n_points, n_states, n_x, len(case.potential.regions()))
     if need > budget * 2**20:
         what = f"{n_points} points x {n_states} states" + (f" x {n_x} x-points of psi" if save_psi else "")
         raise CaseError(
@@ -160,29 +179,68 @@ def plan_sweep(case, axes, fixed=None, save_psi=False, memory_mb=None, chunk=Non
     psi_x = None
     if save_psi:
         if rng is None:
-            lo, hi = min(s[0] for s in spans), max(s[1] for s in spans)
-            pad = 0.5 * (hi - lo) if hi > lo else 1.0
-            rng = (lo - pad, hi + pad)
-        if not all(math.isfinite(v) for v in rng):
-            raise CaseError("the potential's extent is not finite; give [sweep] psi_range = [low, high]",
-                            file=case.path, key="sweep.psi_range")
-        psi_x = np.linspace(float(rng[0]), float(rng[1]), n_x)
+            psi_x = _covering_grid(case, axes, fixed, n_x, spans)
+        else:
+            psi_x = np.linspace(rng[0], rng[1], n_x)
     spec = SweepSpec(case.text, case.path, dict(case.tables), fixed, tuple(axes), bool(save_psi), psi_x, chunk,
                      budget_bytes=int(budget * 2**20))
     key = hashlib.sha256(json.dumps(spec.identity(), sort_keys=True).encode()).hexdigest()
     return SweepSpec(**{**spec.__dict__, "key": key})
 
 
+def _psi_range_units(case, rng):
+    """``[sweep] psi_range`` with any values given with units converted to the case length unit."""
+    from fdsolver.input.quantities import split_quantity, to_case_units
+
+    if not isinstance(rng, (list, tuple)):
+        return rng
+    out = []
+    for v in rng:
+        q = split_quantity(v)
+        out.append(to_case_units(q[0], q[1], "length", case.units, file=case.path, key="sweep.psi_range") if q else v)
+    return out
+
+
+def _covering_grid(case, axes, fixed, n_x: int, spans) -> np.ndarray:
+    """A common x grid covering the boxes of the corner points, dense where their solver grids are dense.
+
+    The corner points (up to :data:`PSI_CORNERS`) are solved; the grid is ``n_x`` quantiles of the union of
+    their nodes (ends included).  Where no corner can be solved: the potential's extent plus 50 % each side.
+    """
+    from fdsolver.runs import solve_case
+
+    nodes = []
+    corners = itertools.product(*[(a.values[0], a.values[-1]) for a in axes])
+    for point in itertools.islice(corners, PSI_CORNERS):
+        try:
+            sol = solve_case(case.with_params(**{**fixed, **{a.name: float(v) for a, v in zip(axes, point)}}), notes=False)
+        except CaseError:
+            continue
+        nodes.append(np.asarray(sol.x, dtype=float))
+    if not nodes:
+        lo, hi = min(s[0] for s in spans), max(s[1] for s in spans)
+        pad = 0.5 * (hi - lo) if hi > lo else 1.0
+        return np.linspace(lo - pad, hi + pad, n_x)
+    union = np.unique(np.concatenate(nodes))
+    grid = np.quantile(union, np.linspace(0.0, 1.0, n_x))
+    return np.unique(grid) if np.unique(grid).size == n_x else np.linspace(union[0], union[-1], n_x)
+
+
 # --------------------------------------------------------------- points
 def solve_points(spec: SweepSpec, base, indices) -> dict:
     """Solve the points ``indices`` of ``spec`` (``base``: its case); compact arrays, one row per state found."""
     from fdsolver.runs import solve_case
+    from fdsolver.optics.solved import transitions_of
 
     n = len(indices)
     psi_x = spec.psi_x if spec.save_psi and spec.psi_x is not None else np.zeros(0)
+    n_regions = len(base.potential.regions())
     out: dict[str, Any] = {"index": np.asarray(indices, dtype=np.int64), "solved": np.zeros(n, np.int8), "bound": np.full(n, -1, np.int32),
-           "resolved": np.zeros(n, np.int32), "vt": np.full(n, np.nan), "count": np.zeros(n, np.int32)}
-    rows: dict[str, list] = {k: [] for k in ("label", "energy", "error", "converged", "parity", "psi")}
+           "resolved": np.zeros(n, np.int32), "vt": np.full(n, np.nan), "count": np.zeros(n, np.int32),
+           "ref_mass": np.full(n, np.nan)}
+    keys = ("label", "energy", "error", "converged", "parity", "psi", "mean_x", "spread", "wall", "inside", "psi_norm",
+            "dipole", "f", "f_err")
+    rows: dict[str, list] = {k: [] for k in keys}
     out["split"], out["split_error"] = np.full(n, np.nan), np.full(n, np.nan)
     out["split_bound"] = np.zeros(n, np.int8)
     messages = []
@@ -191,7 +249,8 @@ def solve_points(spec: SweepSpec, base, indices) -> dict:
         where = ", ".join(f"{k} = {v:.10g}" for k, v in point.items())
         try:
             case = base.with_params(**{**spec.fixed, **point})
-            sol = solve_case(case)
+            sol = solve_case(case, notes=False)
+            tr = transitions_of(case.potential, sol, case.units, refine=False)
         except CaseError as err:
             messages.append([int(flat), f"at {where}: {err}"])
             continue
@@ -203,22 +262,44 @@ def solve_points(spec: SweepSpec, base, indices) -> dict:
             out["split"][j], out["split_error"][j] = sol.splitting[0], sol.splitting_error[0]
             out["split_bound"][j] = int(sol.splitting_bound[0])
         out["count"][j] = sol.energy.size
-        rows["label"].append(sol.nodes.astype(np.int32))
+        labels = sol.nodes.astype(np.int32)
+        rows["label"].append(labels)
         rows["energy"].append(sol.energy)
         rows["error"].append(sol.energy_error)
         rows["converged"].append(sol.converged.astype(np.int8))
         rows["parity"].append(sol.parity.astype(np.int8))
+        rows["mean_x"].append(sol.mean_x)
+        rows["spread"].append(sol.spread)
+        rows["wall"].append(np.asarray(sol.wall, dtype=np.int8))
+        rows["inside"].append(np.asarray(sol.inside, dtype=float).reshape(sol.energy.size, n_regions))
+        for key, name in (("dipole", "dipole"), ("f", "oscillator_strength"), ("f_err", "oscillator_strength_error")):
+            block = np.full((sol.energy.size, TRANSITION_STATES), np.nan)
+            if tr is not None:
+                low = np.flatnonzero(labels < TRANSITION_STATES)
+                block[:, labels[low]] = np.asarray(getattr(tr, name))[:, low]
+            rows[key].append(block)
+        if tr is not None:
+            out["ref_mass"][j] = tr.reference_mass
         if spec.save_psi:
-            rows["psi"].append(np.array([np.interp(psi_x, sol.x, p, left=0.0, right=0.0) for p in sol.psi]).reshape(-1, psi_x.size))
+            p = np.array([np.interp(psi_x, sol.x, q, left=0.0, right=0.0) for q in sol.psi]).reshape(-1, psi_x.size)
+            sq = p * p  # trapezoid rule on the common grid
+            norm = np.sum(0.5 * (sq[:, 1:] + sq[:, :-1]) * np.diff(psi_x), axis=1) if psi_x.size > 1 else np.zeros(p.shape[0])
+            rows["psi"].append(p)
+            rows["psi_norm"].append(norm)
+            for k in np.flatnonzero(norm < NORM_WARNING):
+                messages.append([int(flat), f"at {where}: state {labels[k]} keeps {norm[k]:.4f} of its norm on the common "
+                                 "psi grid (cut at its ends or too coarse there); set [sweep] psi_range and psi_points"])
         messages.extend([int(flat), f"at {where}: {m}"] for m in sol.messages)
-    empty = {"label": np.int32, "converged": np.int8, "parity": np.int8}
+    empty = {"label": np.int32, "converged": np.int8, "parity": np.int8, "wall": np.int8}
+    widths = {"psi": psi_x.size, "inside": n_regions, "dipole": TRANSITION_STATES, "f": TRANSITION_STATES,
+              "f_err": TRANSITION_STATES}
     for k, parts in rows.items():
-        if k == "psi" and not spec.save_psi:
+        if k in ("psi", "psi_norm") and not spec.save_psi:
             continue
         if parts:
             out[k] = np.concatenate(parts)
         else:
-            out[k] = np.zeros((0, psi_x.size) if k == "psi" else 0, dtype=empty.get(k, np.float64))
+            out[k] = np.zeros((0, widths[k]) if k in widths else 0, dtype=empty.get(k, np.float64))
     out["messages"] = messages
     return out
 
@@ -235,6 +316,14 @@ class Results:
         self.converged = np.full((n, s), -1, np.int8)
         self.parity = np.zeros((n, s), np.int8)
         self.psi = np.full((n, s, spec.psi_x.size), np.nan) if spec.save_psi and spec.psi_x is not None else None
+        self.psi_norm = np.full((n, s), np.nan) if self.psi is not None else None
+        self.mean_x, self.spread = np.full((n, s), np.nan), np.full((n, s), np.nan)
+        self.wall = np.full((n, s), -2, np.int8)
+        self.regions = tuple(r[0] for r in base_case(spec).potential.regions())
+        self.inside = np.full((n, s, len(self.regions)), np.nan)
+        t = (n, s, TRANSITION_STATES)
+        self.dipole, self.f, self.f_err = np.full(t, np.nan), np.full(t, np.nan), np.full(t, np.nan)
+        self.ref_mass = np.full(n, np.nan)
         self.solved = np.zeros(n, np.int8)
         self.bound = np.full(n, -1, np.int32)
         self.resolved = np.zeros(n, np.int32)
@@ -253,8 +342,12 @@ class Results:
         pad = lambda a, fill: np.concatenate([a, np.full(a.shape[:1] + (extra,) + a.shape[2:], fill, a.dtype)], axis=1)  # noqa: E731
         self.energy, self.error = pad(self.energy, np.nan), pad(self.error, np.nan)
         self.converged, self.parity = pad(self.converged, -1), pad(self.parity, 0)
+        self.mean_x, self.spread, self.wall = pad(self.mean_x, np.nan), pad(self.spread, np.nan), pad(self.wall, -2)
+        self.inside = pad(self.inside, np.nan)
+        self.dipole, self.f, self.f_err = pad(self.dipole, np.nan), pad(self.f, np.nan), pad(self.f_err, np.nan)
         if self.psi is not None:
             self.psi = pad(self.psi, np.nan)
+            self.psi_norm = pad(self.psi_norm, np.nan)
 
     def add(self, rec: dict) -> int:
         """Store one chunk result; returns the number of points it held."""
@@ -262,6 +355,8 @@ class Results:
         count = counts_match(rec, "count", ("label", "energy", "error", "converged", "parity", "psi"))
         self.done[idx] = True
         self.solved[idx], self.bound[idx], self.resolved[idx], self.vt[idx] = rec["solved"], rec["bound"], rec["resolved"], rec["vt"]
+        if "ref_mass" in rec:
+            self.ref_mass[idx] = rec["ref_mass"]
         if "split" in rec:
             self.split[idx], self.split_error[idx], self.split_bound[idx] = rec["split"], rec["split_error"], rec["split_bound"]
         rows = np.repeat(idx, count)
@@ -280,8 +375,14 @@ class Results:
             self.error[rows, labels] = np.asarray(rec["error"])[sel]
             self.converged[rows, labels] = np.asarray(rec["converged"])[sel]
             self.parity[rows, labels] = np.asarray(rec["parity"])[sel]
+            for name, target in (("mean_x", self.mean_x), ("spread", self.spread), ("wall", self.wall),
+                                 ("inside", self.inside), ("dipole", self.dipole), ("f", self.f), ("f_err", self.f_err)):
+                if name in rec:
+                    target[rows, labels] = np.asarray(rec[name])[sel]
             if self.psi is not None:
                 self.psi[rows, labels] = np.asarray(rec["psi"])[sel]
+                if "psi_norm" in rec:
+                    self.psi_norm[rows, labels] = np.asarray(rec["psi_norm"])[sel]
         for flat, msg in rec.get("messages", []):
             self.messages.setdefault(int(flat), []).append(str(msg))
         return int(idx.size)
@@ -324,6 +425,19 @@ class Results:
         if self.psi is not None:
             out["x"] = spec.psi_x
             out["psi"] = self.psi[:, :s].reshape(shape + (s, self.psi.shape[2]))
+            out["psi_norm"] = grid(self.psi_norm)
+        out["mean_x"], out["spread"], out["wall_state"] = grid(self.mean_x), grid(self.spread), grid(self.wall)
+        if self.regions:
+            out["region"] = np.arange(len(self.regions))
+            out["region_name"] = [str(r) for r in self.regions]
+            out["probability_inside"] = self.inside[:, :s].reshape(shape + (s, len(self.regions)))
+        t = min(s, TRANSITION_STATES)
+        if t >= 2:
+            out["final_state"] = np.arange(t)
+            cut = lambda a: a[:, :s, :t].reshape(shape + (s, t))  # noqa: E731
+            out["dipole"], out["oscillator_strength"] = cut(self.dipole), cut(self.f)
+            out["oscillator_strength_error"] = cut(self.f_err)
+            out["reference_mass"] = self.ref_mass.reshape(shape)
         return out
 
 
