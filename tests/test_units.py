@@ -12,6 +12,10 @@ def test_constants_are_codata_as_scipy_has_them():
     assert units.ELECTRON_MASS == sc.m_e
     assert units.BOHR_RADIUS == sc.physical_constants["Bohr radius"][0]
     assert units.HARTREE_ENERGY == sc.physical_constants["Hartree energy"][0]
+    assert units.SPEED_OF_LIGHT == sc.c
+    assert units.BOLTZMANN == sc.k
+    assert units.VACUUM_PERMITTIVITY == sc.epsilon_0
+    assert units.HBAR == sc.hbar
 
 
 def test_kinetic_constant_in_nm_mev():

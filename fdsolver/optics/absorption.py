@@ -36,8 +36,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.constants as sc
-from scipy.optimize import brentq
+from fdsolver.model.units import BOLTZMANN, ELECTRON_MASS, ELEMENTARY_CHARGE, HBAR, SPEED_OF_LIGHT, VACUUM_PERMITTIVITY
 
 from fdsolver.model.units import UnitSystem
 
@@ -55,7 +54,7 @@ def cross_section_prefactor(units: UnitSystem, refractive_index: float) -> float
     """pi e^2 hbar^2 / (2 eps0 n c m_e), in cm^2 times energy unit: sigma = this * (f/m_r) * L (L in 1/energy unit)."""
     if not refractive_index > 0:
         raise ValueError("refractive_index must be positive")
-    si = math.pi * sc.e**2 * sc.hbar / (2 * sc.epsilon_0 * refractive_index * sc.c * sc.m_e)  # m^2 J
+    si = math.pi * ELEMENTARY_CHARGE**2 * HBAR / (2 * VACUUM_PERMITTIVITY * refractive_index * SPEED_OF_LIGHT * ELECTRON_MASS)  # m^2 J
     return si * 1e4 / units.energy_si
 
 
@@ -66,13 +65,13 @@ def subband_populations(energy, inplane_mass, sheet_density: float, temperature:
     to 1e-12 relative).  At 0 K, N_i = g_i max(mu - E_i, 0).
     """
     e = np.asarray(energy, dtype=float) * units.energy_si  # J
-    g = np.asarray(inplane_mass, dtype=float) * sc.m_e / (math.pi * sc.hbar**2) * 1e-4  # cm^-2 J^-1
+    g = np.asarray(inplane_mass, dtype=float) * ELECTRON_MASS / (math.pi * HBAR**2) * 1e-4  # cm^-2 J^-1
     ns = float(sheet_density)
     if not ns >= 0:
         raise ValueError("the sheet density must be >= 0 (cm^-2)")
     if ns == 0:
         return np.zeros_like(e)
-    kt = sc.k * float(temperature)
+    kt = BOLTZMANN * float(temperature)
 
     def fill(mu):
         if kt == 0:
@@ -82,6 +81,8 @@ def subband_populations(energy, inplane_mass, sheet_density: float, temperature:
 
     lo = e.min() - 50 * kt - ns / g.sum() - 1e-30
     hi = e.max() + 50 * kt + ns / g.min() + 1e-30
+    from scipy.optimize import brentq
+
     mu = brentq(lambda m: fill(m).sum() - ns, lo, hi, xtol=1e-300, rtol=1e-13, maxiter=500)
     return fill(mu)
 
@@ -230,8 +231,8 @@ def _chemical_potential(energy, inplane_mass, sheet_density, temperature, units:
     e = np.asarray(energy, dtype=float)
     if e.size == 0 or not sheet_density > 0:
         return math.nan
-    g = np.asarray(inplane_mass, dtype=float) * sc.m_e / (math.pi * sc.hbar**2) * 1e-4 * units.energy_si
-    kt = sc.k * float(temperature) / units.energy_si
+    g = np.asarray(inplane_mass, dtype=float) * ELECTRON_MASS / (math.pi * HBAR**2) * 1e-4 * units.energy_si
+    kt = BOLTZMANN * float(temperature) / units.energy_si
 
     def fill(mu):
         if kt == 0:
@@ -241,4 +242,6 @@ def _chemical_potential(energy, inplane_mass, sheet_density, temperature, units:
 
     lo = e.min() - 50 * kt - sheet_density / g.sum() - 1.0
     hi = e.max() + 50 * kt + sheet_density / g.min() + 1.0
+    from scipy.optimize import brentq
+
     return float(brentq(lambda m: fill(m) - sheet_density, lo, hi, xtol=1e-14 * max(1.0, abs(e).max()), maxiter=500))

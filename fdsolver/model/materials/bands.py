@@ -28,7 +28,7 @@ E_ref,e - E_ref,h + epsilon_e,i + epsilon_h,j (the gap of the well material plus
 energies in a type-I well); :func:`effective_gap` gives E_ref,e - E_ref,h.
 
 Units: :class:`StackBands` holds energies in the unit system's energy unit (meV for ``"nm-meV"``,
-hartree for ``"atomic"``), converted from eV with the CODATA constants in scipy.constants.
+hartree for ``"atomic"``), converted from eV with the CODATA constants of :mod:`fdsolver.model.units`.
 
 Strain is not modelled: every layer keeps its unstrained bulk band edges and masses, so a
 mismatched (pseudomorphic) layer is described wrongly by roughly the deformation-potential shifts
@@ -41,7 +41,6 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.constants as sc
 
 from fdsolver.errors import CaseError, did_you_mean
 from fdsolver.model.materials.library import MaterialLibrary, builtin_library
@@ -100,7 +99,9 @@ def _units(units: str | UnitSystem) -> UnitSystem:
 
 def ev_in(units: str | UnitSystem) -> float:
     """One electronvolt in the energy unit of ``units`` (1000 for nm-meV)."""
-    return sc.e / _units(units).energy_si
+    from fdsolver.model.units import ELEMENTARY_CHARGE
+
+    return ELEMENTARY_CHARGE / _units(units).energy_si
 
 
 @dataclass(frozen=True)
