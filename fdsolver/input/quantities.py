@@ -261,8 +261,8 @@ def convert_case(data: Mapping[str, Any], overrides: Mapping | None, file) -> Co
     given = "units" in data
     seen = uses_units(data) or uses_units(dict(overrides or {}))
     name = data.get("units") if given else ("nm-meV" if seen or names_materials(data) else "atomic")
-    if name not in UNIT_SYSTEMS:  # the case reader refuses it with its own message
-        return Conversion(dict(data), str(name), dict(overrides or {}), given, seen)
+    if not isinstance(name, str) or name not in UNIT_SYSTEMS:  # the case reader refuses it with its own message
+        return Conversion(dict(data), name if isinstance(name, str) else "atomic", dict(overrides or {}), given, seen)
     system = UNIT_SYSTEMS[name]
     carrier = data.get("carrier", "electron") if isinstance(data.get("carrier", "electron"), str) else "electron"
     out = dict(data)
@@ -311,7 +311,7 @@ def convert_case(data: Mapping[str, Any], overrides: Mapping | None, file) -> Co
         comps = []
         for i, comp in enumerate(data["potential"], start=1):
             shape = comp.get("shape") if isinstance(comp, Mapping) else None
-            dims = component_keys(shape) if shape in SHAPES else {}
+            dims = component_keys(shape) if isinstance(shape, str) and shape in SHAPES else {}
             comps.append(walker.table(comp, dims, f"potential[{i}]"))
         out["potential"] = comps
     for section in ("domain", "solve", "sweep"):

@@ -122,7 +122,7 @@ def component_keys(kind: str) -> dict[str, str]:
 def dimension_of(section: str, key: str, kind: str | None = None) -> str | None:
     """The dimension of ``key`` in ``section`` ("potential" needs the shape ``kind``), None if unknown."""
     if section == "potential":
-        return component_keys(kind).get(key) if kind in SHAPES else None
+        return component_keys(kind).get(key) if isinstance(kind, str) and kind in SHAPES else None
     entry = SECTIONS.get(section, {}).get(key)
     return entry.kind if entry else None
 

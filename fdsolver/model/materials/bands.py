@@ -92,7 +92,7 @@ def carrier_mass(p: MaterialParameters, carrier: str) -> float:
 def _units(units: str | UnitSystem) -> UnitSystem:
     if isinstance(units, UnitSystem):
         return units
-    if units not in UNIT_SYSTEMS:
+    if not isinstance(units, str) or units not in UNIT_SYSTEMS:
         raise CaseError(f"units must be one of {sorted(UNIT_SYSTEMS)}, got {units!r}", key="units")
     return UNIT_SYSTEMS[units]
 
