@@ -197,6 +197,7 @@ def narrow_pole(profile, x0: float, scale: float) -> NarrowPole:
         results.append((x, width, log10w))
     (x1, w1, l1), (x2, w2, l2) = results
     e_err = abs(x1 - x2) + 8.0 * 2.2e-16 * abs(x1)
-    w_err = abs(w1 - w2) if math.isfinite(l1) and l1 > -280 else abs(l1 - l2) * math.log(10.0) * w1
+    # the change between the two steps, taken four times over, and a round-off floor of 32 eps
+    w_err = 4.0 * (abs(w1 - w2) if math.isfinite(l1) and l1 > -280 else abs(l1 - l2) * math.log(10.0) * w1)
     ok = math.isfinite(x1) and (w1 >= 0)
-    return NarrowPole(x2, w2, e_err, w_err + 8.0 * 2.2e-16 * w2, l2, i_m, ok)
+    return NarrowPole(x2, w2, 4.0 * e_err, w_err + 32.0 * 2.2e-16 * w2, l2, i_m, ok)
