@@ -68,7 +68,7 @@ def amplitudes(profile, energies, incident: str = "left") -> Amplitudes:
     if np.any(open_in):
         eo = e[open_in]
         p0, u0, l0 = dst.outgoing(eo)
-        psi, u, lg = carry_waves(profile.cells, eo, i_from, i_to, p0, u0)
+        psi, u, lg = carry_waves(profile.cells, eo, i_from, i_to, p0, u0, heading=-1 if incident == "left" else 1)
         lg = lg + l0
         pi_, ui_, li_ = src.incoming(eo)
         po_, uo_, lo_ = src.outgoing(eo)

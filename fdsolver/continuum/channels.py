@@ -22,7 +22,8 @@ one of
   outgoing wave is Ci+ = Bi + i Ai ~ exp(i (zeta + pi/4)) / (sqrt(pi) |z|^(1/4)),
   zeta = (2/3) |z|^(3/2) (DLMF 9.7.9, 9.7.11), whose phase grows away from the
   structure; its flux is C |beta| / (pi m) outward (Wronskian Ai Bi' - Ai' Bi = 1/pi).
-  Ai and Bi come from scipy.special.airye with the exponential scale kept apart.
+  Ai and Bi come from scipy.special.airye with the exponential scale kept apart;
+  at complex E the waves Bi +- i Ai are evaluated as one rotated Ai (DLMF 9.2.11).
 * ``wall``: V grows without bound (a harmonic or Morse wall): closed, with the
   decaying exponential of the local kappa at the end of a tail long enough
   that the WKB decay integral is at least 20 (see :mod:`fdsolver.numerics.cells`).
@@ -80,6 +81,22 @@ def airy_scaled(z):
     return ai, aip, la.astype(float), bi, bip, lb
 
 
+def _rotated_ai(z, sign: int, gamma: float):
+    """Bi(z) +- i Ai(z) = 2 exp(+-i pi/6) Ai(z exp(+-2 pi i/3)) (DLMF 9.2.11) as (psi, u = gamma d/dz, log).
+
+    Bi + i Ai is recessive in part of the lower half plane (|Bi| 1e13 times
+    larger than the sum at z = 3 - 13i), where adding the two loses every
+    digit; the single rotated Ai keeps full relative accuracy there.
+    """
+    rot = np.exp(sign * 2j * np.pi / 3)
+    w = np.asarray(z, dtype=complex) * rot
+    ai, aip, _, _ = airye(w)
+    zeta = (2.0 / 3.0) * w * np.sqrt(w)
+    ph = np.exp(-1j * zeta.imag)
+    pre = 2.0 * np.exp(sign * 1j * np.pi / 6)
+    return pre * ai * ph, gamma * pre * rot * aip * ph, -zeta.real
+
+
 @dataclass(frozen=True)
 class Channel:
     """One outer half-line (``side`` -1 left of ``edge``, +1 right of it); see the module docstring."""
@@ -128,10 +145,14 @@ class Channel:
             kap = np.where(kap.real < 0, -kap, kap)
             return np.ones_like(kap), -self.side * self.c * kap / self.mass, np.zeros(kap.shape)
         gamma = self.c * self._beta() / self.mass
-        ai, aip, la, bi, bip, lb = airy_scaled(self._z(e))
+        z = self._z(e)
         if not self.falling:
+            ai, aip, la, bi, bip, lb = airy_scaled(z)
             ph = np.exp(1j * np.imag(la))
             return (ai * ph).astype(complex), (gamma * aip * ph).astype(complex), np.real(la)
+        if np.iscomplexobj(z):
+            return _rotated_ai(z, +1, gamma)
+        ai, aip, la, bi, bip, lb = airy_scaled(z)
         w = 1j * np.exp(la - lb)  # i Ai / Bi scale
         return bi + w * ai, gamma * (bip + w * aip), lb
 
@@ -143,7 +164,10 @@ class Channel:
             return np.ones_like(k), -1j * self.side * self.c * k / self.mass, np.zeros(k.shape)
         if self.falling:
             gamma = self.c * self._beta() / self.mass
-            ai, aip, la, bi, bip, lb = airy_scaled(self._z(e))
+            z = self._z(e)
+            if np.iscomplexobj(z):
+                return _rotated_ai(z, -1, gamma)
+            ai, aip, la, bi, bip, lb = airy_scaled(z)
             w = -1j * np.exp(la - lb)
             return bi + w * ai, gamma * (bip + w * aip), lb
         raise ValueError("a closed channel has no incoming wave")

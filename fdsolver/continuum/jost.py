@@ -34,7 +34,7 @@ def jost(profile, at: str = "left"):
     def f(energy):
         e = np.atleast_1d(np.asarray(energy, dtype=complex))
         p0, u0, l0 = far.outgoing(e)
-        psi, u, lg = carry_waves(profile.cells, e, i_from, i_to, p0, u0)
+        psi, u, lg = carry_waves(profile.cells, e, i_from, i_to, p0, u0, heading=-1 if at == "left" else 1)
         pn, un, ln = near.outgoing(e)
         w = pn * u - un * psi
         return (w if at == "left" else -w), lg + l0 + ln

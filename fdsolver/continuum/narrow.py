@@ -63,9 +63,9 @@ class NarrowPole:
     ok: bool
 
 
-def _march(profile, state, i_from, i_to, e, jump_start, jump_end):
+def _march(profile, state, i_from, i_to, e, jump_start, jump_end, heading):
     psi, u, lg = carry_waves(profile.cells, np.array([e]), i_from, i_to, np.array([state[0]]), np.array([state[1]]),
-                             jump_start=jump_start, jump_end=jump_end)
+                             jump_start=jump_start, jump_end=jump_end, heading=heading)
     return float(psi[0].real), float(u[0].real), float(lg[0]) + state[2]
 
 
@@ -76,8 +76,8 @@ def match_edge(profile, energy: float) -> int:
         return 0
     cl = profile.left.real_pair(energy)[0]
     cr = profile.right.real_pair(energy)[0]
-    _, _, _, rec_l = record_waves(profile.cells, energy, 0, n - 1, cl[0], cl[1])
-    _, _, _, rec_r = record_waves(profile.cells, energy, n - 1, 0, cr[0], cr[1])
+    _, _, _, rec_l = record_waves(profile.cells, energy, 0, n - 1, cl[0], cl[1], 1)
+    _, _, _, rec_r = record_waves(profile.cells, energy, n - 1, 0, cr[0], cr[1], -1)
     grow = np.minimum(rec_l - rec_l[0], rec_r - rec_r[-1])
     grow[0] = grow[-1] = -np.inf
     return int(np.argmax(grow))
@@ -89,11 +89,11 @@ def _side(profile, e: float, side: int, i_m: int, pivot):
     c_state, s_state, w_cs = ch.real_pair(e)
     i_from = 0 if side < 0 else profile.n_edges - 1
     K = profile.cells.kscale
-    pc, uc, lc = _march(profile, c_state, i_from, i_m, e, True, side > 0)
+    pc, uc, lc = _march(profile, c_state, i_from, i_m, e, True, side > 0, -side)
     vc = np.array([pc, uc / K])
     if s_state is None:
         return vc / np.linalg.norm(vc), 0.0 + 0.0j, LOG_TINY * 4, 0
-    ps, us, ls = _march(profile, s_state, i_from, i_m, e, True, side > 0)
+    ps, us, ls = _march(profile, s_state, i_from, i_m, e, True, side > 0, -side)
     vs = np.array([ps, us / K])
     if pivot is None:
         pivot = 0 if math.log(np.linalg.norm(vc)) + lc >= math.log(np.linalg.norm(vs)) + ls else 1
@@ -165,7 +165,19 @@ def _pole_once(profile, x0: float, h: float, i_m: int):
 
 
 def narrow_pole(profile, x0: float, scale: float) -> NarrowPole:
-    """The pole near the real energy ``x0``; ``scale`` is the distance to the nearest other pole or threshold."""
+    """The pole near the real energy ``x0``; ``scale`` is the distance to the nearest other pole or threshold.
+
+    ``ok`` is False when the construction does not apply (eps not small, or
+    an overflow): the caller keeps its complex-plane pole then.
+    """
+    try:
+        with np.errstate(over="raise", invalid="raise", divide="raise", under="ignore"):
+            return _narrow_pole(profile, x0, scale)
+    except (OverflowError, FloatingPointError, ZeroDivisionError, np.linalg.LinAlgError):
+        return NarrowPole(x0, math.nan, math.inf, math.inf, math.nan, 0, False)
+
+
+def _narrow_pole(profile, x0: float, scale: float) -> NarrowPole:
     i_m = match_edge(profile, x0)
     results = []
     for h in (1e-3 * scale, 5e-4 * scale):

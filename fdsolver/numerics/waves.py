@@ -156,15 +156,17 @@ def _linear_cell(v0, slope, length, m, c, energy, psi, u, direction, kscale):
 
 
 @njit
-def sweep(edges, v0, slope, mass, jump, c, energy, i_from, i_to, psi, u, kscale, jump_start, jump_end, rec_log):
+def sweep(edges, v0, slope, mass, jump, c, energy, i_from, i_to, psi, u, kscale, jump_start, jump_end, rec_log,
+          heading=0):
     """Carry (psi, u) from edges[i_from] to edges[i_to] (either direction); returns (psi, u, log_scale).
 
-    The point jump at the start edge is applied if ``jump_start``, the one at
+    ``heading`` (+1 right, -1 left) says which way a jump is crossed when
+    i_from == i_to (0: rightward unless i_to < i_from).  The point jump at the start edge is applied if ``jump_start``, the one at
     the end edge if ``jump_end``; every edge in between is crossed.  If
     ``rec_log`` has one entry per edge, log|psi| (with the dropped factors)
     is stored at every edge visited (before the jump there).
     """
-    direction = 1 if i_to >= i_from else -1
+    direction = 1 if i_to > i_from else (-1 if i_to < i_from else (heading if heading != 0 else 1))
     record = rec_log.shape[0] == edges.shape[0]
     log_scale = 0.0
     energy = complex(energy)
@@ -198,7 +200,8 @@ _NO_RECORD = np.zeros(0)
 
 
 @njit
-def sweep_many(edges, v0, slope, mass, jump, c, energies, i_from, i_to, psi0, u0, kscale, jump_start, jump_end):
+def sweep_many(edges, v0, slope, mass, jump, c, energies, i_from, i_to, psi0, u0, kscale, jump_start, jump_end,
+               heading=0):
     """:func:`sweep` for an array of energies (start states ``psi0``, ``u0`` per energy)."""
     n = energies.shape[0]
     psi = np.empty(n, dtype=np.complex128)
@@ -207,27 +210,30 @@ def sweep_many(edges, v0, slope, mass, jump, c, energies, i_from, i_to, psi0, u0
     rec = np.zeros(0)
     for k in range(n):
         p, q, s = sweep(edges, v0, slope, mass, jump, c, energies[k], i_from, i_to, psi0[k], u0[k], kscale,
-                        jump_start, jump_end, rec)
+                        jump_start, jump_end, rec, heading)
         psi[k] = p
         u[k] = q
         lg[k] = s
     return psi, u, lg
 
 
-def carry_waves(cells, energies, i_from: int, i_to: int, psi0, u0, *, jump_start: bool = True, jump_end: bool = True):
+def carry_waves(cells, energies, i_from: int, i_to: int, psi0, u0, *, jump_start: bool = True, jump_end: bool = True,
+                heading: int = 0):
     """Array front end of :func:`sweep_many` for a cell set ``cells`` (any object with edges, v0, slope, mass, jump, c, kscale)."""
     e = np.atleast_1d(np.asarray(energies, dtype=np.complex128))
     p0 = np.broadcast_to(np.asarray(psi0, dtype=np.complex128), e.shape).copy()
     q0 = np.broadcast_to(np.asarray(u0, dtype=np.complex128), e.shape).copy()
     return sweep_many(cells.edges, cells.v0, cells.slope, cells.mass, cells.jump, float(cells.c), e.ravel(),
-                      int(i_from), int(i_to), p0.ravel(), q0.ravel(), float(cells.kscale), bool(jump_start), bool(jump_end))
+                      int(i_from), int(i_to), p0.ravel(), q0.ravel(), float(cells.kscale), bool(jump_start), bool(jump_end),
+                      int(heading))
 
 
-def record_waves(cells, energy, i_from: int, i_to: int, psi0, u0):
+def record_waves(cells, energy, i_from: int, i_to: int, psi0, u0, heading: int = 0):
     """One sweep that also returns log|psi| at every edge (nan where not visited)."""
     rec = np.full(cells.edges.size, np.nan)
     psi, u, lg = sweep(cells.edges, cells.v0, cells.slope, cells.mass, cells.jump, float(cells.c), complex(energy),
-                       int(i_from), int(i_to), complex(psi0), complex(u0), float(cells.kscale), True, True, rec)
+                       int(i_from), int(i_to), complex(psi0), complex(u0), float(cells.kscale), True, True, rec,
+                       int(heading))
     return psi, u, lg, rec
 
 
