@@ -161,7 +161,7 @@ def _pole_once(profile, x0: float, h: float, i_m: int):
     delta = _root(js * h, vals)
     # the tunnelling scale of this pole, for the log form when eps underflows
     lmax = max(parts[2][5], parts[2][7])
-    return delta, parts, lmax
+    return delta, pivots, lmax
 
 
 def narrow_pole(profile, x0: float, scale: float) -> NarrowPole:
@@ -183,10 +183,10 @@ def _narrow_pole(profile, x0: float, scale: float) -> NarrowPole:
     for h in (1e-3 * scale, 5e-4 * scale):
         x = x0
         delta = 0j
-        parts = None
+        pivots = (None, None)
         lmax = 0.0
         for _ in range(4):
-            delta, parts, lmax = _pole_once(profile, x, h, i_m)
+            delta, pivots, lmax = _pole_once(profile, x, h, i_m)
             if not np.isfinite(delta):
                 return NarrowPole(x0, math.nan, math.inf, math.inf, math.nan, i_m, False)
             x_new = x + delta.real
@@ -200,9 +200,9 @@ def _narrow_pole(profile, x0: float, scale: float) -> NarrowPole:
         if lmax < LOG_TINY or width <= 0:
             # first-order width in logs: Gamma = 2 Im F(x) / F'(x) with the eps terms scaled by exp(-lmax)
             js = np.arange(-2, 3)
-            vals = np.array([_f_value(p) for p in [_f_parts(profile, x + j * h, i_m, parts[-1]) for j in js]])
+            vals = np.array([_f_value(p) for p in [_f_parts(profile, x + j * h, i_m, pivots) for j in js]])
             slope = float(np.real(np.polyder(np.polyfit(js * h, vals, 4))[-1]))
-            im_scaled = _f_imag_scaled(_f_parts(profile, x, i_m, parts[-1]), lmax)
+            im_scaled = _f_imag_scaled(_f_parts(profile, x, i_m, pivots), lmax)
             if slope != 0 and im_scaled != 0:
                 log10w = (math.log(2.0 * abs(im_scaled / slope)) + lmax) / math.log(10.0)
                 width = 10.0**log10w if log10w > -300 else 0.0

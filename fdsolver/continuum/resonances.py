@@ -62,7 +62,7 @@ class Resonances:
     ``log10_width`` = log10(Gamma / energy_unit), finite even where Gamma
     underflows a double (then ``width`` is 0 but ``bound`` is False);
     ``lifetime`` = hbar / Gamma and ``lifetime_error`` in s (inf for bound
-    states); ``bound`` marks true bound states (real zeros below every
+    states), ``log10_lifetime`` = log10(lifetime / s) (finite beyond the double range); ``bound`` marks true bound states (real zeros below every
     threshold); ``method`` names how each pole was obtained.  ``count`` is the
     number of zeros the contours counted, ``max_width`` the largest width
     searched, ``levels`` the cell levels used (1 = exact per segment).
@@ -75,6 +75,7 @@ class Resonances:
     log10_width: np.ndarray
     lifetime: np.ndarray
     lifetime_error: np.ndarray
+    log10_lifetime: np.ndarray
     bound: np.ndarray
     method: tuple[str, ...]
     window: tuple[float, float]
@@ -209,7 +210,10 @@ def find_resonances(potential, window, *, max_width: float | None = None, tol: f
         tau_err = np.where(w > 0, tau * we / np.where(w > 0, w, 1.0), np.where(bound, 0.0, np.inf))
     if not keep:
         notes.append(f"no resonance with its energy in [{lo:g}, {hi:g}] {unit} and a width up to {max_width:g} {unit}")
-    return Resonances(e, w, ee, we, l10, tau, tau_err, bound, tuple(q.method for q, _ in keep), (lo, hi), max_width,
+    from fdsolver.continuum.si import HBAR, joule_per_energy_unit
+
+    l10_tau = np.where(bound, np.inf, math.log10(HBAR / joule_per_energy_unit(potential.units)) - l10)
+    return Resonances(e, w, ee, we, l10, tau, tau_err, l10_tau, bound, tuple(q.method for q, _ in keep), (lo, hi), max_width,
                       unit, count, levels, tuple(dict.fromkeys(notes)))
 
 
