@@ -133,6 +133,9 @@ def _refine(profile, p: _Pole, scale: float, dist: float, units) -> _Pole:
     a = polish(fl, p.z, scale=scale)
     b = polish(fr, a.z, scale=scale)
     err = abs(a.z - b.z) + a.error + b.error
+    # round-off floor: 64 eps of the energy scale; scipy's complex Airy functions carry about 1e-13 themselves
+    airy = profile.left.kind == "airy" or profile.right.kind == "airy"
+    err += (1e-13 if airy else 64.0 * EPS) * max(abs(a.z), dist)
     if p.bound:
         return _Pole(complex(a.z.real, 0.0), err, 0.0, True, "bound state: real zero of the Jost function")
     out = _Pole(a.z, err, err, False, "contour count, Newton on the Jost function")
