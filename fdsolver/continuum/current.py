@@ -13,7 +13,7 @@ S(E) = (mu_L - E)_+ - (mu_R - E)_+ at T = 0.  T(E) is the exact transmission
 of the biased stack (:mod:`fdsolver.continuum.amplitudes`: constant and Airy
 cells).  The integral runs from the higher of the two outer band edges to
 max(mu_L, mu_R) + 40 k_B T (the supply is below exp(-40) beyond).  Every
-resonance in that range is found first (:func:`find_resonances`) and its
+resonance in that range (width up to a quarter of it) is found first (:func:`find_resonances`) and its
 neighbourhood E_r +- 30 Gamma is integrated in the phase variable
 theta = atan(2 (E - E_r) / Gamma), where the Lorentzian is flat; the rest in E.
 Each piece is halved until a 20-point and a 10-point Gauss-Legendre rule agree
@@ -96,7 +96,8 @@ def current_density(potential: Potential, bias: float, *, temperature: float, fe
     pref = E_CHARGE * mass * M_ELECTRON / (2.0 * math.pi**2 * HBAR**3) * unit_j**2
     if not e_hi > e_lo:
         return 0.0, 0.0, None, 0
-    res = find_resonances(biased, (e_lo, e_hi), max_width=e_hi - e_lo, lad=ladder(biased, e_lo, e_hi))
+    # poles broader than a quarter of the range are smooth on it: the plain quadrature takes them
+    res = find_resonances(biased, (e_lo, e_hi), max_width=0.25 * (e_hi - e_lo), lad=ladder(biased, e_lo, e_hi))
     marks = [e_lo, e_hi] + [m for m in (mu_l, mu_r) if e_lo < m < e_hi]
     pieces = []  # (a, b, centre, half-width) ; centre None for plain pieces
     lor = []
