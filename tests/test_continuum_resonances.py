@@ -125,3 +125,29 @@ def test_adaptive_grid_resolves_every_resonance():
         near = np.abs(tr.energy - e_r) < g
         assert np.count_nonzero(near) >= 10  # the peak is sampled inside its half width
         assert np.max(tr.transmission[near]) > 0.99  # and reaches T = 1 (symmetric double barrier)
+
+
+def test_smooth_well_bound_states_by_richardson():
+    # Landau & Lifshitz sec. 23 problem 4: U = -U0 / cosh^2(x/a) has E_n = -(1/(8 a^2)) [sqrt(1 + 8 U0 a^2) - (1 + 2n)]^2
+    # (hbar = m = 1).  The sech^2 well is smooth: midpoint cells on nested levels, Richardson; the levels are the
+    # real zeros of the Jost function.
+    u0, a = 3.0, 1.0
+    pot = case_from_dict({"units": "atomic", "potential": [
+        {"shape": "sech2", "center": 0.0, "width": a, "depth": u0}]}).potential
+    root = np.sqrt(1 + 8 * u0 * a * a)
+    exact = [-(root - (1 + 2 * n)) ** 2 / (8 * a * a) for n in range(3) if root > 1 + 2 * n]
+    res = find_resonances(pot, (-u0, -1e-3))
+    assert np.all(res.bound) and len(res) == len(exact) and res.levels > 1
+    err = np.abs(res.energy - np.array(exact))
+    assert np.max(err) < 1e-9
+    assert np.all(err <= res.energy_error)
+
+
+def test_deep_poles_of_smooth_tails_are_refused_with_a_note():
+    # the sech^2 barrier's pole at k = (s - i/2)/a (Landau & Lifshitz sec. 25 problem 4 continued to complex k) lies
+    # too deep for its 17 a long tails; the finder says so instead of returning noise
+    pot = case_from_dict({"units": "atomic", "potential": [
+        {"shape": "sech2", "center": 0.0, "width": 1.0, "height": 2.0}]}).potential
+    res = find_resonances(pot, (0.5, 2.0), max_width=2.2)
+    assert len(res) == 0
+    assert any("not searched" in n for n in res.notes)

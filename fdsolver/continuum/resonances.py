@@ -127,6 +127,37 @@ def _bound_energy(f, x: float, width: float) -> float:
     return x
 
 
+#: largest growth exponent |Im k| L of the outgoing waves over a smooth potential's tails (e^12 ~ 1.6e5)
+MAX_TAIL_GROWTH = 12.0
+
+
+def _depth_cap(potential, prof, lo: float, hi: float, depth: float) -> float:
+    """Largest depth below the real axis at which the tails amplify round-off by at most exp(MAX_TAIL_GROWTH)."""
+    from fdsolver.continuum.channels import wavenumber
+
+    feats = potential.features()
+    if feats.size == 0:
+        return depth
+    tails = (max(float(feats[0] - prof.cells.edges[0]), 0.0), max(float(prof.cells.edges[-1] - feats[-1]), 0.0))
+
+    def growth(h):
+        g = 0.0
+        for ch, t in zip((prof.left, prof.right), tails):
+            if ch.kind != "plane" or t == 0.0:
+                continue
+            k = wavenumber(np.array([lo - 1j * h, hi - 1j * h]), ch.v, ch.mass, ch.c)
+            g += t * float(np.max(np.clip(-k.imag, 0.0, None)))  # only waves that grow outward (Im k < 0)
+        return g
+
+    if growth(depth) <= MAX_TAIL_GROWTH:
+        return depth
+    a, b = 0.0, depth
+    for _ in range(60):
+        m = 0.5 * (a + b)
+        a, b = (m, b) if growth(m) <= MAX_TAIL_GROWTH else (a, m)
+    return a
+
+
 def _refine(profile, p: _Pole, scale: float, dist: float, units) -> _Pole:
     """Polish one pole on ``profile``: Newton on J from both edges, and the real-axis formula if it is narrow."""
     fl, fr = jost(profile, "left"), jost(profile, "right")
@@ -172,12 +203,16 @@ def find_resonances(potential, window, *, max_width: float | None = None, tol: f
     poles: list[_Pole] = []
     count = 0
     f = jost(prof)
+    depth_cap = _depth_cap(potential, prof, lo, hi, 0.5 * max_width) if not lad.exact else math.inf
+    if depth_cap < 0.5 * max_width:
+        notes.append(f"poles deeper than Gamma/2 = {depth_cap:.3g} {unit} were not searched: over the smooth "
+                     "potential's tails the outgoing waves of deeper poles grow beyond what double precision resolves")
     for a, b, below in pieces:
         d = 1e-9 * (b - a)
         a2 = a + d if a in thresholds else a
         b2 = b - d if b in thresholds else b
         top = min(0.5 * (b - a), max(0.5 * max_width, 0.05 * (b - a)))  # on the physical sheet: no zeros there
-        bottom = -0.5 * max_width if not below else -0.25 * (b - a)
+        bottom = -min(0.5 * max_width, depth_cap) if not below else -min(0.25 * (b - a), depth_cap)
         found = find_zeros(f, a2, b2, bottom, top)
         count += found.count
         notes.extend(found.notes)
