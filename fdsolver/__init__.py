@@ -10,6 +10,9 @@ Public API (every name is imported on first use, so ``import fdsolver`` stays li
     th = fdsolver.threshold(case, "d=0.1:6")               # where a state binds, no box
     dc = fdsolver.delta_check(case)                       # finite wells vs point model, over widths
     dm = fdsolver.delta_map(case, ["width=0.01:1:20", "d=5:15:20"])
+    tr = fdsolver.transmit(case, "0:300")                 # T(E), every resonance in the range resolved
+    rs = fdsolver.resonances(case, "0:300")               # S-matrix poles: energies, widths, lifetimes
+    iv = fdsolver.current(case, "0:0.5:51", fermi_level=10.0)   # Tsu-Esaki J(V)
 
 Every call returns the Dataset the command line writes (see :mod:`fdsolver.api`).
 Cases can also be built in code with :func:`case_from_dict` (the TOML schema
@@ -46,6 +49,9 @@ _LAZY = {
     "threshold": "fdsolver.api",
     "delta_check": "fdsolver.api",
     "delta_map": "fdsolver.api",
+    "transmit": "fdsolver.api",
+    "resonances": "fdsolver.api",
+    "current": "fdsolver.api",
 }
 
 __all__ = sorted(_LAZY) + ["__version__"]

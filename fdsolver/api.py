@@ -9,6 +9,9 @@ call                   what                                                archi
 :func:`delta_check`    finite wells against the zero-range point model,    ``delta_check``
                        over a ladder of widths
 :func:`delta_map`      the same comparison over a plane of two params      ``delta_check`` (a map)
+:func:`transmit`       T(E), R(E) and the resonances in the range          ``transmission``
+:func:`resonances`     S-matrix poles in a window (or against params)      ``resonances``
+:func:`current`        Tsu-Esaki current density J(V) of a biased stack    ``current``
 =====================  ==================================================  =======================
 
 ``case`` is a :class:`~fdsolver.input.case.Case` (params already set with
@@ -221,3 +224,163 @@ def delta_map(case, maps: Sequence[str] | None = None, *, shape: str | None = No
     return _run_on(executor, workers, cluster, scheduler,
                    lambda ex: run_map(spec, ex, case=case, output=output, resume=resume, restart=restart, action=action,
                                       progress=progress))
+
+
+# ------------------------------------------------------------------ the continuum
+def _located(case: Case, call):
+    """``call()`` with a core CaseError located in the case file."""
+    try:
+        return call()
+    except CaseError as err:
+        raise err.located(file=case.path) from None
+
+
+def transmission_values(tr) -> dict:
+    """The variables of a transmission archive from a :class:`~fdsolver.continuum.transmission.Transmission`."""
+    import numpy as np
+
+    from fdsolver.scans.continuum import resonance_arrays
+
+    out = {"energy": tr.energy, "transmission": tr.transmission, "transmission_error": tr.transmission_error,
+           "reflection": tr.reflection, "log10_transmission": tr.log_transmission / np.log(10.0),
+           "unitarity_defect": tr.unitarity_defect, "incident_open": tr.open.astype(np.int8)}
+    if tr.resonances is not None:
+        out.update(resonance_arrays(tr.resonances))
+    return out
+
+
+def transmit(case, energies=None, *, incident: str | None = None, action: str | None = None) -> xr.Dataset:
+    """T(E) and R(E) of ``case`` (kind ``transmission``), every resonance in the range found and resolved.
+
+    ``energies``: ``"LO:HI"`` (an adaptive grid that samples every resonance
+    in the range, whatever its width) or ``"LO:HI:N"`` (exactly N even
+    energies); default: the case's ``[transport] energies``, else from just
+    above the incident asymptote to 1.5 times the structure's height.
+    ``incident``: ``"left"`` (default) or ``"right"``.
+    """
+    from fdsolver.continuum.options import energies_of, incident_of
+    from fdsolver.continuum.scan import fixed_grid, transmission_scan
+    from fdsolver.io.datasets import transmission_dataset
+
+    case = _case(case)
+    side = incident_of(case, incident)
+    lo, hi, n, src = energies_of(case, energies, side)
+
+    def run():
+        if n is None:
+            return transmission_scan(case.potential, lo, hi, incident=side, domain=case.domain)
+        return fixed_grid(case.potential, lo, hi, n, incident=side, domain=case.domain)
+
+    try:
+        tr = run()
+    except CaseError as err:
+        if err.key == "energies":  # name the option or table key the range came from
+            raise CaseError(err.message, file=src.file or case.path, key=src.key) from None
+        raise err.located(file=case.path) from None
+    grid = (f"{n} even energies" if n is not None else
+            f"adaptive: {tr.energy.size} energies (every pole in the range sampled uniformly in its phase)")
+    text = action or f"transmit {_where(case)}" + (f" --energies {energies}" if energies else "")
+    return transmission_dataset(case, transmission_values(tr), stamp(text), incident=side, method=tr.method,
+                                grid=grid, notes=tr.notes)
+
+
+def resonances(case, window=None, *, max_width=None, vary: str | Sequence[str] = (), output=None,
+               resume: bool = False, restart: bool = False, executor=None, workers: int | None = None,
+               cluster: str | None = None, scheduler: str | None = None, chunk: int | None = None, progress=None,
+               action: str | None = None) -> xr.Dataset:
+    """Resonances (S-matrix poles E_r - i Gamma/2) and bound states in an energy window (kind ``resonances``).
+
+    ``window``: ``"LO:HI"`` or ``(lo, hi)`` (case energy unit); default: the
+    case's ``[transport] window``, else the lowest to the highest V of the
+    structure.  ``max_width``: the widest pole searched (default the window's
+    width).  With ``vary`` (``"NAME=START:STOP:COUNT"``, as for
+    :func:`sweep`) the window is searched at every point of the swept params
+    through the scan runner (``output``, ``resume``, ``restart``,
+    ``executor``, ``workers``, ``cluster``, ``scheduler``, ``chunk`` and
+    ``progress`` as for :func:`sweep`); resonances are numbered from the low
+    end of the window at each point.
+    """
+    from fdsolver.continuum.options import positive_energy, window_of
+    from fdsolver.io.datasets import resonances_dataset
+
+    case = _case(case)
+    if isinstance(window, (tuple, list)):
+        window = f"{window[0]!r}:{window[1]!r}"
+    lo, hi, _ = window_of(case, window)
+    width = positive_energy(case, "max_width", max_width, "--max-width")
+    texts = _texts(vary)
+    text = action or f"resonances {_where(case)}" + (f" --window {window}" if window else "") + \
+        "".join(f" --vary {t}" for t in texts)
+    if not texts:
+        if resume or restart:
+            raise CaseError("--resume and --restart continue a sweep (--vary); one window has no checkpoint",
+                            key="--resume" if resume else "--restart")
+        from fdsolver.continuum.resonances import find_resonances
+        from fdsolver.scans.continuum import resonance_arrays
+
+        res = _located(case, lambda: find_resonances(case.potential, (lo, hi), max_width=width, domain=case.domain))
+        values = {**resonance_arrays(res), "solved": 1, "resonance_count": len(res)}
+        ds = resonances_dataset(case, values, stamp(text), window=(lo, hi), max_width=res.max_width, notes=res.notes)
+        if output is not None:
+            from fdsolver.io.archive import write_dataset
+
+            write_dataset(ds, output)
+        return ds
+    from fdsolver.io.specs import KINDS
+    from fdsolver.scans.axes import parse_axes
+    from fdsolver.scans.continuum import plan_resonance_sweep
+    from fdsolver.scans.runner import run
+
+    _scan_checks(output, resume, restart, chunk)
+    axes = parse_axes(texts, case, "--vary", reserved=KINDS["resonances"].names())
+    spec = plan_resonance_sweep(case, axes, dict(case.overrides), (lo, hi), width, chunk)
+    base = case.with_params(**spec.fixed) if spec.fixed else case
+
+    def finish(results, history):
+        return resonances_dataset(base, results.arrays(), history, window=(lo, hi),
+                                  max_width=width if width is not None else hi - lo, notes=results.notes(), axes=axes,
+                                  fixed=spec.fixed)
+
+    return _run_on(executor, workers, cluster, scheduler,
+                   lambda ex: run(spec, ex, finish, action=text, output=output, resume=resume, restart=restart,
+                                  progress=progress))
+
+
+def current(case, bias=None, *, temperature: float | None = None, fermi_level: float | None = None, output=None,
+            resume: bool = False, restart: bool = False, executor=None, workers: int | None = None,
+            cluster: str | None = None, scheduler: str | None = None, chunk: int | None = None, progress=None,
+            action: str | None = None) -> xr.Dataset:
+    """Tsu-Esaki current density J(V) of a layer stack under bias (kind ``current``), with peak and valley.
+
+    ``bias``: ``"LO:HI:N"`` (V), ``"V1,V2,..."`` or a sequence of values;
+    default the case's ``[transport] bias``.  ``temperature`` in K (default
+    300), ``fermi_level`` the emitter Fermi level in the case energy unit
+    (required: here or in ``[transport]``).  The bias points run through the
+    scan runner (executor options, checkpoint and ``progress`` as for
+    :func:`sweep`).
+    """
+    import numpy as np
+
+    from fdsolver.continuum.options import biases_of, fermi_level_of, temperature_of
+    from fdsolver.io.datasets import current_dataset
+    from fdsolver.scans.continuum import plan_current
+    from fdsolver.scans.runner import run
+
+    case = _case(case)
+    _scan_checks(output, resume, restart, chunk)
+    if bias is not None and not isinstance(bias, str):
+        values = np.atleast_1d(np.asarray(bias, dtype=float))
+        text_bias = ",".join(repr(float(v)) for v in values)
+    else:
+        values, text_bias = biases_of(case, bias)[0], bias
+    kt = temperature_of(case, temperature)
+    ef = fermi_level_of(case, fermi_level)
+    spec = plan_current(case, values, kt, ef, dict(case.overrides), chunk)
+    text = action or f"current {_where(case)}" + (f" --bias {text_bias}" if text_bias else "")
+
+    def finish(results, history):
+        return current_dataset(case, results.arrays(), history, temperature=kt, fermi_level=ef, notes=results.notes())
+
+    return _run_on(executor, workers, cluster, scheduler,
+                   lambda ex: run(spec, ex, finish, action=text, output=output, resume=resume, restart=restart,
+                                  progress=progress))

@@ -16,7 +16,7 @@ import sys
 from fdsolver._version import __version__
 from fdsolver.errors import CaseError, FdsolverError
 
-SUBCOMMAND_MODULES = ("solve", "delta", "sweep")
+SUBCOMMAND_MODULES = ("solve", "delta", "sweep", "continuum")
 
 
 class _Parser(argparse.ArgumentParser):

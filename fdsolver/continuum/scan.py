@@ -104,3 +104,33 @@ def _merge(chunks):
     vals = {name: cat(name)[idx] for name in fields}
     notes = tuple(dict.fromkeys(n for c in chunks for n in c.notes))
     return replace(first, notes=notes, levels=max(c.levels for c in chunks), **vals)
+
+
+def fixed_grid(potential, lo: float, hi: float, n: int, *, incident: str = "left", domain=None):
+    """T(E) at ``n`` evenly spaced energies on [lo, hi] exactly, with the poles in the range attached.
+
+    The poles are found as for :func:`transmission_scan` (they mark the
+    figure); a note names each resonance narrower than twice the spacing,
+    which this grid cannot resolve (the adaptive grid does).
+    """
+    lo, hi = float(lo), float(hi)
+    if not (math.isfinite(lo) and math.isfinite(hi) and lo < hi):
+        raise CaseError(f"the energy range must be low < high, got {lo:g}:{hi:g}", key="energies")
+    margin = 0.05 * (hi - lo)
+    lad = ladder(potential, lo - margin, hi + margin, domain)
+    prof = lad.at(0)
+    src = prof.left if incident == "left" else prof.right
+    unit = potential.units.energy
+    if hi <= src.threshold:
+        raise CaseError(f"the range {lo:g}:{hi:g} {unit} lies below the {incident} asymptote ({src.threshold:g} {unit}): "
+                        "no wave comes in; give energies above it", key="energies")
+    e = np.linspace(lo, hi, int(n))
+    tr = transmission(potential, e, incident=incident, lad=lad)
+    start = max(lo, src.threshold) if math.isfinite(src.threshold) else lo
+    res = find_resonances(potential, (start, hi), max_width=hi - lo, lad=lad)
+    step = (hi - lo) / max(int(n) - 1, 1)
+    notes = [f"the resonance at {e_r:.10g} {unit} (width {g:.3g} {unit}) is narrower than twice the grid spacing "
+             f"{step:.3g} {unit}: this grid does not resolve it (leave out N for the adaptive grid)"
+             for e_r, g, b in zip(res.energy, res.width, res.bound) if not b and g < 2.0 * step]
+    notes += [n_ for n_ in res.notes if not n_.startswith("no resonance")]
+    return replace(tr, resonances=res, notes=tuple(dict.fromkeys(list(tr.notes) + notes)))

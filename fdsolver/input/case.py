@@ -210,7 +210,7 @@ def case_from_dict(data: Mapping[str, Any], *, path=None, text=None, overrides=N
     potential = Potential(shapes, units, mass, stack)
     domain = _domain(data, params, potential, file)
     settings = _settings(data, params, file)
-    for section in ("delta_check", "sweep"):
+    for section in ("delta_check", "sweep", "transport"):
         check_section(data, section, file)
     if text is None:
         text = dumps_case(data)

@@ -41,6 +41,7 @@ TOP: dict[str, Key] = {
     "solve": Key("table [solve]", TABLE),
     "delta_check": Key("table [delta_check] (zero-range comparison settings)", TABLE),
     "sweep": Key("table [sweep] (parameter scan settings)", TABLE),
+    "transport": Key("table [transport] (transmission, resonances and current settings)", TABLE),
 }
 
 #: keys every [[potential]] component may have besides its shape's own
@@ -87,6 +88,16 @@ DELTA_CHECK: dict[str, Key] = {
     "from_finite": Key("compare the case's own narrow wells with their point model", BOOL),
 }
 
+TRANSPORT: dict[str, Key] = {
+    "energies": Key('"LO:HI" (adaptive grid) or "LO:HI:N" (N even energies) of transmit', TEXT),
+    "incident": Key('"left" (default) or "right": the side the wave comes from', TEXT),
+    "window": Key("[low, high]: the energy window of resonances", ENERGY),
+    "max_width": Key("widest resonance searched (default: the window's width)", ENERGY),
+    "bias": Key('"LO:HI:N" biases of current, in V', TEXT),
+    "temperature": Key("temperature of the current's Fermi-Dirac supply, K (default 300)", NUMBER),
+    "fermi_level": Key("emitter Fermi level of the current", ENERGY),
+}
+
 #: section name -> its keys ("" is the top level)
 SECTIONS: dict[str, dict[str, Key]] = {
     "": TOP,
@@ -95,6 +106,7 @@ SECTIONS: dict[str, dict[str, Key]] = {
     "solve": SOLVE,
     "sweep": SWEEP,
     "delta_check": DELTA_CHECK,
+    "transport": TRANSPORT,
 }
 
 

@@ -11,6 +11,9 @@ adds the kind's global attributes:
 :func:`threshold_dataset`  a threshold search (:class:`fdsolver.boundstates.counting.Search`)
 :func:`ladder_dataset`  a zero-range check over widths (:class:`fdsolver.zerorange.ladder.Ladder`)
 :func:`map_dataset`    a zero-range validity map (:class:`fdsolver.scans.maps.MapResults`)
+:func:`transmission_dataset`  T(E), R(E) and the poles in the range
+:func:`resonances_dataset`  resonances of a window (or against swept params)
+:func:`current_dataset`  Tsu-Esaki J(V) with peak and valley
 =====================  =====================================================
 
 :func:`check` is the reader's side: it refuses a Dataset whose variables do
@@ -237,6 +240,61 @@ def map_dataset(case, spec, results, history: str) -> xr.Dataset:
         "messages": "\n".join(results.notes()[:MESSAGES_SHOWN]),
     })
     return build("delta_map", results.arrays(spec.tolerance), case.units, attrs, axes=spec.axes)
+
+
+# ------------------------------------------------------------ the continuum
+def _notes_attr(notes) -> str:
+    notes = list(dict.fromkeys(notes))
+    more = [f"... and {len(notes) - NOTES_SHOWN} more"] if len(notes) > NOTES_SHOWN else []
+    return "\n".join(notes[:NOTES_SHOWN] + more)
+
+
+def transmission_dataset(case, values: dict, history: str, *, incident: str, method: str, grid: str, notes=(),
+                         axes=()) -> xr.Dataset:
+    """The archive of T(E): coordinate ``energy`` (and ``resonance`` for the poles in its range)."""
+    attrs = base_attrs(case, "transmission", history)
+    attrs.update({
+        "swept_params": json.dumps([a.name for a in axes]),
+        "incident_side": incident,
+        "method": method,
+        "energy_grid": grid,
+        "normalisation": "T = (flux out) / (flux in) = (k_out/m_out) |t|^2 / (k_in/m_in) for plane-wave leads "
+                         "(BenDaniel-Duke matching); R likewise",
+        "notes": _notes_attr(notes),
+    })
+    return build("transmission", values, case.units, attrs, axes=axes)
+
+
+def resonances_dataset(case, values: dict, history: str, *, window, max_width, notes=(), axes=(),
+                       fixed=None) -> xr.Dataset:
+    """The archive of resonances in a window: dimension ``resonance`` (and the swept params of a sweep)."""
+    attrs = base_attrs(case, "resonances", history)
+    attrs.update({
+        "swept_params": json.dumps([a.name for a in axes]),
+        "window": [float(window[0]), float(window[1])],
+        "max_width": float(max_width),
+        "fixed_params": json.dumps(fixed or {}, sort_keys=True),
+        "method": "zeros of the Jost function (S-matrix poles E_r - i Gamma/2): argument-principle count on "
+                  "rectangles, Newton from both edges; real-axis formula for narrow poles",
+        "notes": _notes_attr(notes),
+    })
+    return build("resonances", values, case.units, attrs, axes=axes)
+
+
+def current_dataset(case, values: dict, history: str, *, temperature: float, fermi_level: float,
+                    notes=()) -> xr.Dataset:
+    """The archive of J(V): coordinate ``bias`` (and ``resonance`` for the poles at each bias)."""
+    attrs = base_attrs(case, "current", history)
+    attrs.update({
+        "temperature_K": float(temperature),
+        "emitter_fermi_level": float(fermi_level),
+        "emitter_fermi_level_units": case.units.energy,
+        "emitter_band_edge": float(case.potential.asymptote(-1)),
+        "model": "Tsu-Esaki: J = (e m* / (2 pi^2 hbar^3)) int T(E) S(E) dE, Fermi-Dirac supply S; the bias drops "
+                 "linearly across the inner layers; transverse mass = the emitter layer's",
+        "notes": _notes_attr(notes),
+    })
+    return build("current", values, case.units, attrs)
 
 
 # ------------------------------------------------------------ reading

@@ -263,6 +263,71 @@ DELTA_MAP = (
 )
 
 
+# ------------------------------------------------------------ the continuum
+TIME, VOLTAGE, CURRENT_DENSITY, TEMPERATURE = "time", "voltage", "current_density", "temperature"
+_R = PARAMS, "resonance"
+_E = PARAMS, "energy"
+
+
+def resonance_rows(dims: tuple[str, ...], required: bool) -> tuple[Var, ...]:
+    """The per-resonance variables over ``dims`` (the resonances of a window, or of T(E)'s range)."""
+    return (
+        Var("resonance", ("resonance",), "i4", "resonance number, counted from the low end of the window (0 = lowest)",
+            coord=True, required=required),
+        Var("resonance_energy", dims, "f8", "resonance energy E_r (S-matrix pole at E_r - i Gamma/2); NaN where "
+            "there is no such resonance", ENERGY, required=required),
+        Var("resonance_energy_error", dims, "f8", "estimated absolute error of resonance_energy", ENERGY),
+        Var("resonance_width", dims, "f8", "full width Gamma of the resonance (0 for a true bound state)", ENERGY,
+            required=required),
+        Var("resonance_width_error", dims, "f8", "estimated absolute error of resonance_width", ENERGY),
+        Var("log10_resonance_width", dims, "f8", "log10 of resonance_width in the energy unit (finite where Gamma "
+            "underflows a double)"),
+        Var("lifetime", dims, "f8", "lifetime hbar / Gamma (inf for a true bound state)", TIME, required=required),
+        Var("lifetime_error", dims, "f8", "estimated absolute error of lifetime", TIME),
+        Var("log10_lifetime", dims, "f8", "log10 of lifetime in s (finite beyond the double range)"),
+        Var("bound", dims, "i1", "true bound state (a real pole below every threshold) rather than a resonance",
+            flags=("resonance", "bound_state")),
+    )
+
+
+TRANSMISSION = (
+    Var("energy", ("energy",), "f8", "energy of the incident wave", ENERGY, coord=True, required=True),
+    Var("transmission", _E, "f8", "transmission probability T (flux ratio, BenDaniel-Duke)", required=True),
+    Var("transmission_error", _E, "f8", "estimated absolute error of transmission", required=True),
+    Var("reflection", _E, "f8", "reflection probability R (flux ratio)", required=True),
+    Var("log10_transmission", _E, "f8", "log10 T (finite where T underflows a double)"),
+    Var("unitarity_defect", _E, "f8", "|R + T - 1| where the incident channel is open (0 elsewhere)"),
+    Var("incident_open", _E, "i1", "1 where a wave can come in from the incident side",
+        flags=("closed", "open")),
+) + resonance_rows(_R, False)
+
+RESONANCES = resonance_rows(_R, True) + (
+    Var("solved", (PARAMS,), "i1", "1 if the point was solved, 0 if its case was invalid"),
+    Var("resonance_count", (PARAMS,), "i4", "number of poles found in the window"),
+)
+
+CURRENT = (
+    Var("bias", ("bias",), "f8", "applied bias (emitter Fermi level minus collector Fermi level, over e)", VOLTAGE,
+        coord=True, required=True),
+    Var("current_density", ("bias",), "f8", "Tsu-Esaki current density, emitter to collector", CURRENT_DENSITY,
+        required=True),
+    Var("current_density_error", ("bias",), "f8", "estimated absolute error of current_density", CURRENT_DENSITY,
+        required=True),
+    Var("solved", ("bias",), "i1", "1 if the bias point was solved"),
+    Var("transmission_evaluations", ("bias",), "i4", "energies at which T(E) was computed for the integral"),
+    Var("resonance", ("resonance",), "i4", "resonance number at each bias, from the low end of the transport window",
+        coord=True),
+    Var("resonance_energy", ("bias", "resonance"), "f8", "resonance energy of the biased structure (NaN: none)",
+        ENERGY),
+    Var("resonance_width", ("bias", "resonance"), "f8", "full width of the resonance", ENERGY),
+    Var("peak_bias", (), "f8", "bias of the resonant peak current (the local maximum followed by the deepest drop)",
+        VOLTAGE),
+    Var("peak_current_density", (), "f8", "current density at peak_bias", CURRENT_DENSITY),
+    Var("valley_bias", (), "f8", "bias of the valley current (the minimum after the peak)", VOLTAGE),
+    Var("valley_current_density", (), "f8", "current density at valley_bias", CURRENT_DENSITY),
+)
+
+
 @dataclass(frozen=True)
 class Kind:
     """One archive kind: its ``fdsolver_kind`` attribute, the ``delta_mode`` values that select it, its rows."""
@@ -288,6 +353,9 @@ KINDS: dict[str, Kind] = {
     "threshold": Kind("threshold", "threshold", THRESHOLD),
     "delta_check": Kind("delta_check", "delta_check", LADDER, modes=("replace", "from_finite")),
     "delta_map": Kind("delta_map", "delta_check", DELTA_MAP, modes=("replace_map", "from_finite_map"), axes_attr="map_axes"),
+    "transmission": Kind("transmission", "transmission", TRANSMISSION, axes_attr="swept_params"),
+    "resonances": Kind("resonances", "resonances", RESONANCES, axes_attr="swept_params"),
+    "current": Kind("current", "current", CURRENT),
 }
 #: the values of the global attribute fdsolver_kind
 ARCHIVE_KINDS = tuple(dict.fromkeys(k.fdsolver_kind for k in KINDS.values()))

@@ -15,6 +15,9 @@ PLOTTERS = {
     "delta_check": "fdsolver.plot.delta:plot_delta",
     "sweep": "fdsolver.plot.sweep:plot_sweep",
     "threshold": "fdsolver.plot.sweep:plot_sweep",
+    "transmission": "fdsolver.plot.continuum:plot_transmission",
+    "resonances": "fdsolver.plot.continuum:plot_resonances",
+    "current": "fdsolver.plot.continuum:plot_current",
 }
 
 

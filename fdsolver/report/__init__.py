@@ -14,6 +14,9 @@ FORMATTERS = {
     "delta_check": "fdsolver.report.delta:format_delta",
     "sweep": "fdsolver.report.sweep:format_sweep",
     "threshold": "fdsolver.report.sweep:format_sweep",
+    "transmission": "fdsolver.report.continuum:format_transmission",
+    "resonances": "fdsolver.report.continuum:format_resonances",
+    "current": "fdsolver.report.continuum:format_current",
 }
 
 
