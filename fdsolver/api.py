@@ -249,6 +249,23 @@ def transmission_values(tr) -> dict:
     return out
 
 
+def _below_asymptotes(case, lo: float, hi: float, side: str) -> str | None:
+    """The message for an energy range where no wave comes in from ``side`` (None if that is not the trouble)."""
+    import math
+
+    unit = case.units.energy
+    v_l, v_r = case.potential.asymptote(-1), case.potential.asymptote(1)
+    v_in, v_out = (v_l, v_r) if side == "left" else (v_r, v_l)
+    if not (math.isfinite(v_in) and hi <= v_in):
+        return None
+    other = "right" if side == "left" else "left"
+    if math.isfinite(v_out) and hi <= v_out or v_out == math.inf:
+        return (f"the range {lo:g}:{hi:g} {unit} lies below both asymptotes (left {v_l:g}, right {v_r:g} {unit}): "
+                f"no wave can come in from either side; give energies above {min(v_l, v_r):g} {unit}")
+    return (f"the range {lo:g}:{hi:g} {unit} lies below the {side} asymptote ({v_in:g} {unit}): no wave comes in from "
+            f"the {side}; give energies above it, or --incident {other}")
+
+
 def transmit(case, energies=None, *, incident: str | None = None, action: str | None = None) -> xr.Dataset:
     """T(E) and R(E) of ``case`` (kind ``transmission``), every resonance in the range found and resolved.
 
@@ -274,8 +291,9 @@ def transmit(case, energies=None, *, incident: str | None = None, action: str | 
     try:
         tr = run()
     except CaseError as err:
-        if err.key == "energies":  # name the option or table key the range came from
-            raise CaseError(err.message, file=src.file or case.path, key=src.key) from None
+        if err.key == "energies":  # name the option or table key the range came from, and both asymptotes
+            raise CaseError(_below_asymptotes(case, lo, hi, side) or err.message, file=src.file or case.path,
+                            key=src.key) from None
         raise err.located(file=case.path) from None
     grid = (f"{n} even energies" if n is not None else
             f"adaptive: {tr.energy.size} energies (every pole in the range sampled uniformly in its phase)")
@@ -320,7 +338,8 @@ def resonances(case, window=None, *, max_width=None, vary: str | Sequence[str] =
 
         res = _located(case, lambda: find_resonances(case.potential, (lo, hi), max_width=width, domain=case.domain))
         values = {**resonance_arrays(res), "solved": 1, "resonance_count": len(res)}
-        ds = resonances_dataset(case, values, stamp(text), window=(lo, hi), max_width=res.max_width, notes=res.notes)
+        notes = [n for n in res.notes if not n.startswith("no resonance")]  # the table says so itself
+        ds = resonances_dataset(case, values, stamp(text), window=(lo, hi), max_width=res.max_width, notes=notes)
         if output is not None:
             from fdsolver.io.archive import write_dataset
 

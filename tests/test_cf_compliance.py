@@ -62,6 +62,11 @@ def _archives(folder: Path) -> dict[str, Path]:
         "delta_check from finite": fdsolver.delta_check(CASES / "impurity_pair_finite.toml", from_finite=True),
         "delta_map": fdsolver.delta_map(pair, ["width=0.3:6:3", "d=9.2:10.6:3"], executor="serial"),
         "delta_map atomic": fdsolver.delta_map(points, ["width=0.01:1:3", "d=2:6:3"], executor="serial"),
+        "transmission": fdsolver.transmit(CASES / "double_barrier.toml", "1:400:40"),
+        "transmission atomic": fdsolver.transmit(atomic, "0.05:3"),
+        "resonances": fdsolver.resonances(CASES / "double_barrier.toml"),
+        "resonances sweep": fdsolver.resonances(CASES / "stark_well.toml", vary="F=0:40:3", executor="serial"),
+        "current": fdsolver.current(CASES / "double_barrier.toml", "0:0.2:3", executor="serial"),
     }
     out = {}
     for name, ds in made.items():
@@ -75,7 +80,8 @@ def archives(tmp_path_factory) -> dict[str, Path]:
 
 
 NAMES = ["solve", "solve atomic", "sweep", "sweep atomic", "sweep atomic two params", "threshold", "threshold atomic",
-         "delta_check", "delta_check atomic", "delta_check from finite", "delta_map", "delta_map atomic"]
+         "delta_check", "delta_check atomic", "delta_check from finite", "delta_map", "delta_map atomic",
+         "transmission", "transmission atomic", "resonances", "resonances sweep", "current"]
 
 
 def test_every_archive_kind_is_covered(archives):
@@ -98,7 +104,7 @@ def test_every_units_attribute_is_a_udunits_unit(archives, name):
         seen += 1
     assert seen >= 5
     if "atomic" in name:  # bohr and hartree are written as scaled SI units (CODATA, scipy.constants), named beside them
-        energy = ds["energy" if "energy" in ds else "threshold_value"]
+        energy = ds["energy" if "energy" in ds else "threshold_value"]  # both in hartree
         hartree = physical_constants["Hartree energy"][0]
         if energy.name == "energy":
             assert energy.attrs["units_name"] == "hartree"

@@ -86,7 +86,9 @@ def plot_resonances(ds, path) -> None:
             gtxt = f"{g[k]:.3g}" if g[k] > 0 else f"1e{lw[k]:.0f}"
             ax.annotate(f"E_r = {e[k]:.5g} {eu}\nGamma = {gtxt} {eu}\nlifetime {ttxt}", (e[k], y[k]), xytext=(4, 4), textcoords="offset points",
                         fontsize=7)
-    lo, hi = (float(v) for v in np.atleast_1d(ds.attrs["window"]))
+    from fdsolver.report.continuum import window_of
+
+    lo, hi = window_of(ds)
     for k in np.flatnonzero(np.isfinite(e) & bound):
         ax.axvline(e[k], color="C2", lw=1.0, ls="--")
     if bound.any():

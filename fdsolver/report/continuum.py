@@ -15,6 +15,13 @@ TABLE_ROWS = 30
 COLUMNS = 4
 
 
+def window_of(ds) -> tuple[float, float]:
+    """The window attribute (a pair, or its JSON text once written to a file)."""
+    w = ds.attrs["window"]
+    lo, hi = json.loads(w) if isinstance(w, str) else np.atleast_1d(w)
+    return float(lo), float(hi)
+
+
 def _params(ds) -> list[str]:
     params = json.loads(ds.attrs.get("params", "{}"))
     return ["params: " + ", ".join(f"{k} = {v:.10g}" for k, v in params.items())] if params else []
@@ -101,7 +108,7 @@ def format_resonances(ds) -> str:
     """The table of a resonances archive: one row per pole, or per swept point the lowest poles."""
     a = ds.attrs
     eu = units_of(ds, "resonance_energy")
-    lo, hi = (float(v) for v in np.atleast_1d(a.get("window")))
+    lo, hi = window_of(ds)
     names = json.loads(a.get("swept_params", "[]"))
     lines = [a.get("title", ""), f"units: {a.get('units_system')} (energies in {eu}); poles E_r - i Gamma/2 in the window "
              f"[{lo:.6g}, {hi:.6g}] {eu} with widths up to {float(a.get('max_width')):.4g} {eu}; lifetime = hbar/Gamma"]
