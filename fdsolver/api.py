@@ -49,8 +49,21 @@ def _where(case: Case) -> str:
 
 
 def solve_case(case: Case) -> Solution:
-    """Solve ``case`` and return the raw :class:`~fdsolver.boundstates.result.Solution`."""
+    """Solve ``case`` and return the raw :class:`~fdsolver.boundstates.result.Solution`.
+
+    On the open line a potential that leaks (falls without bound at an end, or
+    encloses a well by barriers above the continuum threshold) also gets its
+    quasi-bound states, with widths and lifetimes
+    (:mod:`fdsolver.continuum.openline`); other cases are the bound-state
+    solver's alone.
+    """
+    from fdsolver.continuum.confinement import leaks  # numpy only: no start-up cost for plain solves
+
     try:
+        if leaks(case.potential, case.domain):
+            from fdsolver.continuum.openline import solve_open_line
+
+            return solve_open_line(case.potential, case.domain, case.settings)
         return solve_potential(case.potential, case.domain, case.settings)
     except CaseError as err:  # the core does not know the file; name it here
         raise err.located(file=case.path) from None

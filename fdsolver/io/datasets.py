@@ -154,7 +154,7 @@ def solve_record(case, sol, history: str) -> Record:
     """:func:`solve_dataset` without xarray (a :class:`~fdsolver.io.record.Record`)."""
     attrs = base_attrs(case, "solve", history)
     attrs.update({
-        "continuum_threshold": float(sol.threshold) if math.isfinite(sol.threshold) else np.inf,
+        "continuum_threshold": float(sol.threshold) if math.isfinite(sol.threshold) else (np.inf if sol.threshold > 0 else -np.inf),
         "box_left": sol.box[0],
         "box_right": sol.box[1],
         "boundary": sol.boundary,

@@ -82,6 +82,11 @@ def _pad(values, n: int, fill=np.nan) -> np.ndarray:
     return out
 
 
+def _zeros_if_none(values, n: int, fill: float = 0.0) -> np.ndarray:
+    """``values``, or ``fill`` for each of n states (a solve of bound states only has no widths)."""
+    return np.full(n, fill) if getattr(values, "__len__", None) is None else np.asarray(values, float)
+
+
 def _count(name: str) -> Callable[[Any], np.ndarray]:
     """A coordinate 0, 1, ... as long as the attribute ``name`` of the result."""
     return lambda r: np.arange(len(getattr(r, name)))
@@ -132,6 +137,16 @@ SOLVE = (
     Var("splitting_is_bound", ("state",), "i1", "1 where the splitting is below double precision: splitting is "
         "only an upper bound", flags=("value", "upper_bound"),
         source=lambda r: _pad(np.asarray(r.splitting_bound, dtype=np.int8), r.energy.size, 0)),
+    Var("width", ("state",), "f8", "full width Gamma of a quasi-bound state (0 for a true bound state)", ENERGY,
+        source=lambda r: _zeros_if_none(r.width, r.energy.size)),
+    Var("width_error", ("state",), "f8", "estimated absolute error of width", ENERGY,
+        source=lambda r: _zeros_if_none(r.width_error, r.energy.size)),
+    Var("log10_width", ("state",), "f8", "log10 of width in the energy unit (finite where it underflows a double; "
+        "-inf for a true bound state)", source=lambda r: _zeros_if_none(r.log10_width, r.energy.size, -np.inf)),
+    Var("lifetime", ("state",), "f8", "lifetime hbar / width (inf for a true bound state)", "time",
+        source=lambda r: _zeros_if_none(r.lifetime, r.energy.size, np.inf)),
+    Var("log10_lifetime", ("state",), "f8", "log10 of lifetime in s (finite beyond the double range)",
+        source=lambda r: _zeros_if_none(r.log10_lifetime, r.energy.size, np.inf)),
     Var("psi", ("state", "x"), "f8", "normalised wavefunction times sqrt(length unit)", note=PSI_NOTE, required=True),
     Var("potential", ("x",), "f8", "potential energy (dual-cell average at interior nodes)", ENERGY, required=True),
     Var("mass", ("x",), "f8", "effective mass in units of the free-electron mass", MASS),
@@ -154,6 +169,10 @@ SWEEP = (
         flags=("no_such_state", "not_converged", "converged"), flag_start=-1),
     Var("nodes", _ST, "i4", "number of nodes of the wavefunction (-1: no such state)"),
     Var("parity", _ST, "i1", "mirror parity (+1 even, -1 odd, 0 no mirror symmetry or no state)"),
+    Var("level_width", _ST, "f8", "full width Gamma of a quasi-bound state (0 for a true bound state; NaN: no state)",
+        ENERGY),
+    Var("log10_level_width", _ST, "f8", "log10 of level_width in the energy unit (finite where it underflows a double; "
+        "-inf for a true bound state)"),
     Var("bound_states", (PARAMS,), "i4",
         "number of bound states on the whole open line (zero-energy phase count, no box); -1 where every state is bound"),
     Var("resolved_states", (PARAMS,), "i4", "number of states the box solve returned"),

@@ -267,3 +267,43 @@ class WaveCells:
         """V just right of each edge but the last, and just left of each edge but the first."""
         length = np.diff(self.edges)
         return self.v0, self.v0 + self.slope * length
+
+
+@njit
+def _trace(edges, v0, slope, mass, jump, c, energy, i_from, i_to, psi, u, kscale, out_psi, out_log):
+    """:func:`sweep` that stores psi (complex, before the jump) and its log scale at every edge it visits."""
+    direction = 1 if i_to >= i_from else -1
+    log_scale = 0.0
+    energy = complex(energy)
+    psi = complex(psi)
+    u = complex(u)
+    i = i_from
+    while True:
+        out_psi[i] = psi
+        out_log[i] = log_scale
+        if i != i_from and jump[i] != 0.0:
+            u = u - direction * jump[i] * psi
+        if i == i_to:
+            break
+        cell = i if direction > 0 else i - 1
+        length = edges[cell + 1] - edges[cell]
+        m = mass[cell]
+        if slope[cell] == 0.0:
+            psi, u, d = _constant_cell(m * (v0[cell] - energy) / c, length, m, c, psi, u, direction)
+            log_scale += d
+            psi, u, d = _normalise(psi, u, kscale)
+            log_scale += d
+        else:
+            psi, u, d = _linear_cell(v0[cell], slope[cell], length, m, c, energy, psi, u, direction, kscale)
+            log_scale += d
+        i += direction
+
+
+def trace_waves(cells, energy, i_from: int, i_to: int, psi0, u0):
+    """psi at every edge from ``i_from`` to ``i_to`` (the jump at ``i_from`` not applied): (psi, log) arrays over
+    the edges, psi the complex value times exp(-log) (nan where not visited)."""
+    out_psi = np.full(cells.edges.size, np.nan + 0j)
+    out_log = np.full(cells.edges.size, np.nan)
+    _trace(cells.edges, cells.v0, cells.slope, cells.mass, cells.jump, float(cells.c), complex(energy), int(i_from),
+           int(i_to), complex(psi0), complex(u0), float(cells.kscale), out_psi, out_log)
+    return out_psi, out_log

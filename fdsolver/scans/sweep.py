@@ -31,7 +31,7 @@ from fdsolver.errors import CaseError
 from fdsolver.scans.axes import Axis, declared_units, parse_axes
 from fdsolver.scans.runner import base_case
 
-BYTES_PER_STATE = 8 + 8 + 8 + 4 + 1 + 1  # energy, error, binding energy, nodes, converged, parity
+BYTES_PER_STATE = 8 + 8 + 8 + 4 + 1 + 1 + 8 + 8  # energy, error, binding energy, nodes, converged, parity, width, log10 width
 BYTES_PER_POINT = 4 + 4 + 8 + 8 + 8 + 1 + 1  # bound, resolved, threshold, splitting (+ error, bound flag), solved
 
 
@@ -151,7 +151,8 @@ def solve_points(spec: SweepSpec, base, indices) -> dict:
     psi_x = spec.psi_x if spec.save_psi and spec.psi_x is not None else np.zeros(0)
     out: dict[str, Any] = {"index": np.asarray(indices, dtype=np.int64), "solved": np.zeros(n, np.int8), "bound": np.full(n, -1, np.int32),
            "resolved": np.zeros(n, np.int32), "vt": np.full(n, np.nan), "count": np.zeros(n, np.int32)}
-    rows: dict[str, list] = {k: [] for k in ("label", "energy", "error", "converged", "parity", "psi")}
+    rows: dict[str, list] = {k: [] for k in ("label", "energy", "error", "converged", "parity", "psi", "width",
+                                             "log10_width")}
     out["split"], out["split_error"] = np.full(n, np.nan), np.full(n, np.nan)
     out["split_bound"] = np.zeros(n, np.int8)
     messages = []
@@ -177,6 +178,10 @@ def solve_points(spec: SweepSpec, base, indices) -> dict:
         rows["error"].append(sol.energy_error)
         rows["converged"].append(sol.converged.astype(np.int8))
         rows["parity"].append(sol.parity.astype(np.int8))
+        # quasi-bound states (a field, or a well between barriers above the threshold) carry their widths
+        rows["width"].append(np.zeros(sol.energy.size) if sol.width is None else np.asarray(sol.width, float))
+        rows["log10_width"].append(np.full(sol.energy.size, -np.inf) if sol.log10_width is None
+                                   else np.asarray(sol.log10_width, float))
         if spec.save_psi:
             rows["psi"].append(np.array([np.interp(psi_x, sol.x, p, left=0.0, right=0.0) for p in sol.psi]).reshape(-1, psi_x.size))
         messages.extend([int(flat), f"at {where}: {m}"] for m in sol.messages)
@@ -203,6 +208,7 @@ class Results:
         self.error = np.full((n, s), np.nan)
         self.converged = np.full((n, s), -1, np.int8)
         self.parity = np.zeros((n, s), np.int8)
+        self.width, self.log10_width = np.full((n, s), np.nan), np.full((n, s), np.nan)
         self.psi = np.full((n, s, spec.psi_x.size), np.nan) if spec.save_psi and spec.psi_x is not None else None
         self.solved = np.zeros(n, np.int8)
         self.bound = np.full(n, -1, np.int32)
@@ -218,6 +224,7 @@ class Results:
         pad = lambda a, fill: np.concatenate([a, np.full(a.shape[:1] + (extra,) + a.shape[2:], fill, a.dtype)], axis=1)  # noqa: E731
         self.energy, self.error = pad(self.energy, np.nan), pad(self.error, np.nan)
         self.converged, self.parity = pad(self.converged, -1), pad(self.parity, 0)
+        self.width, self.log10_width = pad(self.width, np.nan), pad(self.log10_width, np.nan)
         if self.psi is not None:
             self.psi = pad(self.psi, np.nan)
 
@@ -242,6 +249,9 @@ class Results:
             self.error[rows, labels] = np.asarray(rec["error"])[sel]
             self.converged[rows, labels] = np.asarray(rec["converged"])[sel]
             self.parity[rows, labels] = np.asarray(rec["parity"])[sel]
+            if "width" in rec:  # checkpoints written before widths existed have none
+                self.width[rows, labels] = np.asarray(rec["width"])[sel]
+                self.log10_width[rows, labels] = np.asarray(rec["log10_width"])[sel]
             if self.psi is not None:
                 self.psi[rows, labels] = np.asarray(rec["psi"])[sel]
         for flat, msg in rec.get("messages", []):
@@ -274,6 +284,8 @@ class Results:
             "converged": grid(self.converged),
             "nodes": np.where(np.isfinite(energy), np.arange(s), -1),
             "parity": grid(self.parity),
+            "level_width": grid(self.width),
+            "log10_level_width": grid(self.log10_width),
             "bound_states": self.bound.reshape(shape),
             "resolved_states": self.resolved.reshape(shape),
             "continuum_threshold": vt,
