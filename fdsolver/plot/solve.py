@@ -39,13 +39,21 @@ def plot_solve(ds, path) -> None:
     if np.isfinite(thr):
         top = max(top, thr)
     span = max(top - vshow.min(), 1e-300)
-    ax.plot(x[sel], np.minimum(vshow, top + 0.3 * span), color="0.2", lw=1.5, label="potential")
+    clip = top + 0.3 * span
+    quasi = "log10_width" in ds and bool(np.isfinite(ds.log10_width.values).any())
+    if quasi:  # quasi-bound states: show the barriers that hold them
+        clip = max(clip, float(np.max(vshow)))
+    ax.plot(x[sel], np.minimum(vshow, clip), color="0.2", lw=1.5, label="potential")
     gaps = np.diff(energy) if energy.size > 1 else np.array([0.1 * span])
     amp = 0.4 * max(np.min(gaps[gaps > 0]) if np.any(gaps > 0) else 0.1 * span, 0.02 * span)
     for k, e in enumerate(energy):
         p = psi[k][sel]
         scale = amp / max(np.max(np.abs(p)), 1e-300)
-        line = ax.plot(x[sel], e + scale * p, lw=1.2, label=f"state {k}: {e:.6g} {eu}")[0]
+        text = f"state {k}: {e:.6g} {eu}"
+        if quasi and np.isfinite(ds.log10_width.values[k]):
+            w = float(ds.width.values[k])
+            text += f", width {w:.2g} {eu}" if w > 0 else f", width 1e{float(ds.log10_width.values[k]):.0f} {eu}"
+        line = ax.plot(x[sel], e + scale * p, lw=1.2, label=text)[0]
         ax.axhline(e, color=line.get_color(), lw=0.6, ls="--")
     if np.isfinite(thr):
         ax.axhline(thr, color="0.5", lw=0.8, ls=":", label=f"continuum threshold {thr:.4g} {eu}")

@@ -18,11 +18,32 @@ import numpy as np
 from fdsolver.plot._common import figure, label, save, units_of
 
 
-def _with_splitting(has_split: bool):
-    """One panel, or the energies above the tunnel splitting (sharing the param axis)."""
-    if not has_split:
+def _with_splitting(has_split: bool, has_width: bool = False):
+    """One panel, or the energies above the tunnel splitting and/or the widths of quasi-bound states (sharing the
+    param axis)."""
+    extra = int(has_split) + int(has_width)
+    if not extra:
         return figure()
-    return figure(2, 1, height=7.0, sharex=True, gridspec_kw={"height_ratios": [3, 1.3]})
+    return figure(1 + extra, 1, height=5.0 + 2.2 * extra, sharex=True, gridspec_kw={"height_ratios": [3] + [1.3] * extra})
+
+
+def _widths_panel(ax, ds, name, x) -> None:
+    """Widths of the quasi-bound states against the param on a log axis (log10 of the width where it underflows)."""
+    w, l10 = ds.level_width.values, ds.log10_level_width.values
+    eu = units_of(ds, "level_width")
+    use_log10 = bool(np.any(np.isfinite(l10) & (l10 < -290)))
+    for k, s in enumerate(ds.state.values):
+        y = l10[:, k] if use_log10 else w[:, k]
+        ok = np.isfinite(l10[:, k]) & (np.isfinite(y))
+        if not use_log10:
+            ok &= y > 0
+        if ok.any():
+            ax.plot(x[ok], y[ok], marker="." if x.size <= 200 else None, lw=1.2, color=f"C{k % 10}",
+                    label=f"state {int(s)}")
+    if not use_log10:
+        ax.set_yscale("log")
+    ax.set_ylabel(f"log10(width / {eu})" if use_log10 else f"width [{eu}] (quasi-bound)")
+    ax.grid(True, which="major", lw=0.3, alpha=0.5)
 
 
 def _log(ds, name) -> bool:
@@ -55,7 +76,8 @@ def _plot_line(ds, name, path) -> None:
     eu = units_of(ds, "energy")
     split = ds["tunnel_splitting"].values if "tunnel_splitting" in ds else np.array([np.nan])
     has_split = bool(np.any(np.isfinite(split) & (split > 0)))
-    fig, axes = _with_splitting(has_split)
+    has_width = "log10_level_width" in ds and bool(np.isfinite(ds.log10_level_width.values).any())
+    fig, axes = _with_splitting(has_split, has_width)
     ax = axes[0]
     for s in ds.state.values:
         e = ds.energy.sel(state=s).values
@@ -75,6 +97,8 @@ def _plot_line(ds, name, path) -> None:
         ax2.semilogy(x[ok], split[ok], color="C3", lw=1.3)
         ax2.set_ylabel(label(ds, "tunnel_splitting", "E1 - E0"))
         _markers(ax2, ds, name)
+    if has_width:
+        _widths_panel(axes[-1], ds, name, x)
     for a in axes:
         if _log(ds, name):
             a.set_xscale("log")
