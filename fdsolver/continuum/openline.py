@@ -40,6 +40,7 @@ from fdsolver.continuum.narrow import match_edge
 from fdsolver.continuum.profile import Profile, ladder
 from fdsolver.continuum.quasibound import default_window
 from fdsolver.continuum.resonances import find_resonances
+from fdsolver.errors import CaseError
 from fdsolver.numerics.waves import WaveCells, trace_waves
 
 #: quasi-bound states are the poles narrower than this fraction of the window
@@ -52,6 +53,10 @@ def solve_open_line(potential, domain, settings) -> Solution:
     from fdsolver.boundstates.driver import solve_potential
 
     if falls(potential):
+        if confined_top(potential) is None and not any(a > 0 for _, a in potential.point_terms()):
+            raise CaseError("V falls without bound at an open end and encloses no well, so nothing is bound or "
+                            "quasi-bound on the open line (every energy is in the field's continuum); add a well, or "
+                            'put the case between hard walls with [domain] boundary = "hard"', key="potential")
         return _quasi_only(potential, domain, settings)
     sol = solve_potential(potential, domain, settings)
     return _with_quasi(potential, domain, settings, sol)
