@@ -188,6 +188,11 @@ def delta_check(case, *, shape: str | None = None, widths=None, tolerance: float
                 from_finite: bool | None = None, progress=None, action: str | None = None) -> xr.Dataset:
     """Finite wells against the zero-range point model over a ladder of widths (kind ``delta_check``).
 
+    A case whose points sit on a background (a layer stack, other components,
+    hard walls) is checked against the same case with exact point
+    interactions instead (kind ``delta_background``,
+    :mod:`fdsolver.zerorange.background`).
+
     Each point component is replaced by a ``shape`` well ("square",
     "smooth_square", "gaussian", "sech2") of the same strength and centroid,
     at the ``widths`` "LO:HI:N" (default: automatic from the decay length);
@@ -198,6 +203,7 @@ def delta_check(case, *, shape: str | None = None, widths=None, tolerance: float
     """
     from fdsolver.io.datasets import ladder_dataset
     from fdsolver.scans.options import read_options
+    from fdsolver.zerorange.background import on_background
     from fdsolver.zerorange.ladder import run_ladder
 
     case = _case(case)
@@ -206,6 +212,12 @@ def delta_check(case, *, shape: str | None = None, widths=None, tolerance: float
     options = read_options(case, shape=shape, widths=widths, tolerance=tolerance, from_finite=from_finite)
     if options.from_finite and options.widths is not None:
         raise CaseError("--widths sets the replacement widths; --from-finite keeps the case's own wells", key="--widths")
+    if not options.from_finite and on_background(case):
+        from fdsolver.io.datasets import background_dataset
+        from fdsolver.zerorange.background import run_background
+
+        check = run_background(case, options.shape, options.widths, options.tolerance, progress=progress)
+        return background_dataset(case, check, stamp(action or f"delta-check {_where(case)}"))
     lad = run_ladder(case, options, progress=progress)
     return ladder_dataset(case, lad, stamp(action or f"delta-check {_where(case)}"))
 
@@ -225,6 +237,7 @@ def delta_map(case, maps: Sequence[str] | None = None, *, shape: str | None = No
     """
     from fdsolver.scans.maps import plan_map, run_map
     from fdsolver.scans.options import read_options
+    from fdsolver.zerorange.background import on_background
 
     case = _case(case)
     _scan_checks(output, resume, restart, chunk)
@@ -232,6 +245,9 @@ def delta_map(case, maps: Sequence[str] | None = None, *, shape: str | None = No
         raise CaseError("--shape chooses the wells that replace points; --from-finite uses the case's own wells", key="--shape")
     options = read_options(case, shape=shape, widths=widths, tolerance=tolerance, from_finite=from_finite,
                            maps=_texts(maps) or None)
+    if not options.from_finite and on_background(case):
+        raise CaseError("validity maps compare points on the open line with nothing else; a case with a background "
+                        "(layers, other components, walls) is checked over widths: drop --map", key="--map")
     spec = plan_map(case, options, dict(case.overrides), chunk)
     action = action or f"delta-check {_where(case)} " + " ".join(f"--map {a.text}" for a in spec.axes)
     return _run_on(executor, workers, cluster, scheduler,

@@ -12,7 +12,8 @@ def register(sub) -> None:
         "delta-check",
         help="how far zero-range point interactions are from finite narrow wells (width ladder or validity map)",
         description="Replace each point component by a finite well of the same strength and centroid and walk a "
-        "ladder of widths, or (--from-finite) compare a case of narrow wells with its zero-range model; "
+        "ladder of widths (on a background of layers, other components or walls: against the same case with exact "
+        "point interactions), or (--from-finite) compare a case of narrow wells with its zero-range model; "
         "--map NAME=LO:HI:N twice draws a validity map over two params ('width' = the replacement width).",
     )
     p.add_argument("case", help="case file (TOML)")
@@ -41,7 +42,7 @@ OPTIONS = (("--shape", "shape"), ("--widths", "widths"), ("--tolerance", "tolera
 def run_delta(args) -> int:
     import fdsolver
     from fdsolver.cli._common import ARCHIVE_SUFFIXES, FIG_SUFFIXES, ProgressBar, check_output, command, parse_set, write_figure
-    from fdsolver.report.delta import format_delta
+    from fdsolver.report import format_archive
     from fdsolver.scans.options import read_options
 
     check_output(args.output, "--output", ARCHIVE_SUFFIXES)
@@ -69,7 +70,7 @@ def run_delta(args) -> int:
             raise CaseError("--resume and --restart continue a validity map (--map); a width ladder has no checkpoint",
                             key="--resume" if args.resume else "--restart")
         ds = fdsolver.delta_check(case, **settings, action=action)
-    print(format_delta(ds))
+    print(format_archive(ds))
     if args.output:
         if not is_map:  # a map is written by its run, which keeps the checkpoint until then
             fdsolver.write_dataset(ds, args.output)

@@ -224,6 +224,22 @@ def ladder_dataset(case, lad, history: str) -> xr.Dataset:
     return build("delta_check", lad, case.units, attrs)
 
 
+
+def background_dataset(case, chk, history: str) -> xr.Dataset:
+    """The archive of a zero-range check on a background: coordinates width, state and point."""
+    attrs = base_attrs(case, "delta_background", history)
+    attrs.update({
+        "delta_mode": "replace_on_background",
+        "replacement_shape": chk.shape,
+        "tolerance": float(chk.tolerance),
+        "reference_energy": float(chk.reference),
+        "reference_note": "deviation is relative to |energy_limit - reference_energy|: the continuum threshold, or "
+                          "the lowest V where every state is bound",
+        "messages": "\n".join(chk.notes),
+    })
+    return build("delta_background", chk, case.units, attrs)
+
+
 MESSAGES_SHOWN = 200
 
 

@@ -347,6 +347,45 @@ CURRENT = (
 )
 
 
+_BS, _BP = ("width", "state"), ("width", "point")
+#: zero-range check on a background (fdsolver.zerorange.background): the reference is the case with exact point terms
+DELTA_BACKGROUND = (
+    Var("width", ("width",), "f8", WIDTH_LONG_NAME, LENGTH, coord=True, source="widths", required=True),
+    Var("state", ("state",), "i4", "state index = Sturm number (0 = ground state)", coord=True,
+        source=lambda c: np.arange(c.energy_limit.size)),
+    Var("point", ("point",), "i4", "point index, left to right", coord=True,
+        source=lambda c: np.arange(c.positions.size)),
+    Var("energy", _BS, "f8", "energy of the case with the points replaced by finite-width wells", ENERGY,
+        required=True),
+    Var("energy_error", _BS, "f8", "estimated absolute error of energy", ENERGY, required=True),
+    Var("energy_limit", ("state",), "f8", "energy of the case with exact point interactions (finite-difference "
+        "solve, derivative jump at a node)", ENERGY, required=True),
+    Var("energy_limit_error", ("state",), "f8", "estimated absolute error of energy_limit", ENERGY),
+    Var("energy_deviation", _BS, "f8", "energy - energy_limit", ENERGY, required=True),
+    Var("deviation", _BS, "f8", "relative deviation (energy - energy_limit) / |energy_limit - reference_energy|",
+        required=True),
+    Var("resolved", _BS, "i1", "1 if energy_error + energy_limit_error <= |energy_deviation| / 10",
+        flags=("not_resolved", "resolved"), source=lambda c: c.resolved.astype(np.int8)),
+    Var("predicted_deviation", _BS, "f8", "first-order relative deviation sum_p m alpha_p^2 psi(x_p)^2 l_p / "
+        "(2 hbar^2/2m_e) / |energy_limit - reference_energy| (l_p: mean distance over the well)", source="predicted"),
+    Var("law_coefficient", ("state",), "f8", "fitted a in deviation = a * width on the narrowest widths",
+        INVERSE_LENGTH),
+    Var("law_exponent", ("state",), "f8", "fitted log-log slope of |deviation| against width (1: first order)"),
+    Var("validity_width", ("state",), "f8", "largest width with |deviation| below the tolerance", LENGTH,
+        source="validity", required=True),
+    Var("validity_flag", ("state",), "i1", "how validity_width was found", flags=_validity_flags),
+    Var("states_returned", ("width",), "i4", "states the finite-width solve returned", source="count"),
+    Var("point_name", ("point",), "str", "name of the point component", None, source="names", required=True),
+    Var("point_center", ("point",), "f8", "position of the point", LENGTH, source="positions", required=True),
+    Var("point_strength", ("point",), "f8", "strength alpha of the point (-alpha delta(x - x_j); > 0 attracts)",
+        STRENGTH, source="strengths", required=True),
+    Var("decay_length", ("point",), "f8", "1/kappa = 2 (hbar^2/2m_e) / (m |alpha|): the decay length of the point "
+        "alone", LENGTH),
+    Var("width_in_decay_lengths", _BP, "f8", "width / decay_length"),
+    Var("replacement_depth", _BP, "f8", "depth of the replacement well (its -V at the centre; < 0: a barrier's "
+        "height)", ENERGY, source="depth"),
+)
+
 @dataclass(frozen=True)
 class Kind:
     """One archive kind: its ``fdsolver_kind`` attribute, the ``delta_mode`` values that select it, its rows."""
@@ -375,6 +414,7 @@ KINDS: dict[str, Kind] = {
     "transmission": Kind("transmission", "transmission", TRANSMISSION, axes_attr="swept_params"),
     "resonances": Kind("resonances", "resonances", RESONANCES, axes_attr="swept_params"),
     "current": Kind("current", "current", CURRENT),
+    "delta_background": Kind("delta_background", "delta_background", DELTA_BACKGROUND),
 }
 #: the values of the global attribute fdsolver_kind
 ARCHIVE_KINDS = tuple(dict.fromkeys(k.fdsolver_kind for k in KINDS.values()))

@@ -18,6 +18,7 @@ PLOTTERS = {
     "transmission": "fdsolver.plot.continuum:plot_transmission",
     "resonances": "fdsolver.plot.continuum:plot_resonances",
     "current": "fdsolver.plot.continuum:plot_current",
+    "delta_background": "fdsolver.plot.background:plot_background",
 }
 
 

@@ -17,6 +17,7 @@ FORMATTERS = {
     "transmission": "fdsolver.report.continuum:format_transmission",
     "resonances": "fdsolver.report.continuum:format_resonances",
     "current": "fdsolver.report.continuum:format_current",
+    "delta_background": "fdsolver.report.background:format_background",
 }
 
 
