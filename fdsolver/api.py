@@ -185,13 +185,18 @@ def threshold(case, vary: str, *, state: int | None = None, scan: int = 129, rto
 
 
 def delta_check(case, *, shape: str | None = None, widths=None, tolerance: float | None = None,
-                from_finite: bool | None = None, progress=None, action: str | None = None) -> xr.Dataset:
+                from_finite: bool | None = None, transmission: bool = False, energies=None, progress=None,
+                action: str | None = None) -> xr.Dataset:
     """Finite wells against the zero-range point model over a ladder of widths (kind ``delta_check``).
 
     A case whose points sit on a background (a layer stack, other components,
     hard walls) is checked against the same case with exact point
     interactions instead (kind ``delta_background``,
     :mod:`fdsolver.zerorange.background`).
+    With ``transmission`` the comparison is of scattering instead: T(E) at
+    ``energies`` ("LO:HI" or "LO:HI:N", case energy unit; default as for
+    :func:`transmit`) and the resonances in that range (kind
+    ``delta_transmission``, :mod:`fdsolver.zerorange.scattercheck`).
 
     Each point component is replaced by a ``shape`` well ("square",
     "smooth_square", "gaussian", "sech2") of the same strength and centroid,
@@ -212,6 +217,20 @@ def delta_check(case, *, shape: str | None = None, widths=None, tolerance: float
     options = read_options(case, shape=shape, widths=widths, tolerance=tolerance, from_finite=from_finite)
     if options.from_finite and options.widths is not None:
         raise CaseError("--widths sets the replacement widths; --from-finite keeps the case's own wells", key="--widths")
+    if transmission:
+        from fdsolver.continuum.options import energies_of
+        from fdsolver.io.datasets import scatter_check_dataset
+        from fdsolver.zerorange.scattercheck import run_scatter_check
+
+        if options.from_finite:
+            raise CaseError("--transmission replaces points by finite wells; --from-finite does not apply",
+                            key="--from-finite")
+        lo, hi, n, _ = energies_of(case, energies)
+        check = _located(case, lambda: run_scatter_check(case, options.shape, options.widths, options.tolerance,
+                                                         (lo, hi, n), progress=progress))
+        return scatter_check_dataset(case, check, stamp(action or f"delta-check {_where(case)} --transmission"))
+    if energies is not None:
+        raise CaseError("--energies sets the energies of a scattering check; add --transmission", key="--energies")
     if not options.from_finite and on_background(case):
         from fdsolver.io.datasets import background_dataset
         from fdsolver.zerorange.background import run_background

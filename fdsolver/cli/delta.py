@@ -23,6 +23,11 @@ def register(sub) -> None:
     p.add_argument("--tolerance", type=float, metavar="REL", help="relative deviation the model must stay below (default 1e-2)")
     p.add_argument("--from-finite", action="store_true", default=None,
                    help="the case holds finite wells: compare them with their zero-range model")
+    p.add_argument("--transmission", action="store_true",
+                   help="compare scattering instead: T(E) and the resonances of the finite wells/barriers against "
+                        "the point interactions")
+    p.add_argument("--energies", metavar="LO:HI[:N]", help="energies of --transmission (case energy unit; default "
+                   "N = 201 from the incident asymptote to 1.5x the structure, or [transport] energies)")
     p.add_argument("--map", action="append", metavar="NAME=LO:HI:N[:log]", help="validity-map axis (give two)")
     p.add_argument("--set", action="append", metavar="NAME=VALUE", help="override a [params] entry (repeatable)")
     p.add_argument("-o", "--output", metavar="CHECK.nc", help="write the result to this NetCDF archive")
@@ -36,7 +41,7 @@ def register(sub) -> None:
 
 
 OPTIONS = (("--shape", "shape"), ("--widths", "widths"), ("--tolerance", "tolerance"), ("--from-finite", "from_finite"),
-           ("--map", "map"), ("--set", "set"))
+           ("--map", "map"), ("--set", "set"), ("--transmission", "transmission"), ("--energies", "energies"))
 
 
 def run_delta(args) -> int:
@@ -51,6 +56,8 @@ def run_delta(args) -> int:
     settings = dict(shape=args.shape, widths=args.widths, tolerance=args.tolerance, from_finite=args.from_finite)
     action = command("delta-check", args, OPTIONS)
     is_map = bool(read_options(case, **settings, maps=args.map).maps)  # --map, or the case's [delta_check] map
+    if is_map and (args.transmission or args.energies):
+        raise CaseError("--transmission compares scattering over a ladder of widths; drop --map", key="--map")
     if is_map:
         bar = ProgressBar("delta map", args.quiet)
         try:
@@ -69,7 +76,8 @@ def run_delta(args) -> int:
         if args.resume or args.restart:
             raise CaseError("--resume and --restart continue a validity map (--map); a width ladder has no checkpoint",
                             key="--resume" if args.resume else "--restart")
-        ds = fdsolver.delta_check(case, **settings, action=action)
+        ds = fdsolver.delta_check(case, **settings, transmission=args.transmission, energies=args.energies,
+                                  action=action)
     print(format_archive(ds))
     if args.output:
         if not is_map:  # a map is written by its run, which keeps the checkpoint until then

@@ -240,6 +240,21 @@ def background_dataset(case, chk, history: str) -> xr.Dataset:
     return build("delta_background", chk, case.units, attrs)
 
 
+
+def scatter_check_dataset(case, chk, history: str) -> xr.Dataset:
+    """The archive of a zero-range check of scattering: coordinates width, energy, resonance and point."""
+    attrs = base_attrs(case, "delta_transmission", history)
+    attrs.update({
+        "delta_mode": "transmission",
+        "replacement_shape": chk.shape,
+        "tolerance": float(chk.tolerance),
+        "reference": chk.reference,
+        "incident_side": "left",
+        "messages": "\n".join(chk.notes),
+    })
+    return build("delta_transmission", chk, case.units, attrs)
+
+
 MESSAGES_SHOWN = 200
 
 

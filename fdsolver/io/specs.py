@@ -386,6 +386,43 @@ DELTA_BACKGROUND = (
         "height)", ENERGY, source="depth"),
 )
 
+_TW, _TR = ("width", "energy"), ("width", "resonance")
+#: zero-range check for scattering (fdsolver.zerorange.scattercheck)
+DELTA_TRANSMISSION = (
+    Var("width", ("width",), "f8", WIDTH_LONG_NAME, LENGTH, coord=True, source="widths", required=True),
+    Var("energy", ("energy",), "f8", "energy of the incident wave", ENERGY, coord=True, required=True),
+    Var("resonance", ("resonance",), "i4", "resonance of the point model, by energy", coord=True,
+        source=lambda c: np.arange(c.resonance_energy_limit.size)),
+    Var("point", ("point",), "i4", "point index, left to right", coord=True,
+        source=lambda c: np.arange(c.positions.size)),
+    Var("transmission", _TW, "f8", "transmission T of the finite-width wells or barriers", required=True),
+    Var("transmission_error", _TW, "f8", "estimated absolute error of transmission"),
+    Var("transmission_limit", ("energy",), "f8", "transmission of the point interactions", required=True),
+    Var("transmission_deviation", ("width",), "f8", "largest |transmission - transmission_limit| over the energies",
+        required=True),
+    Var("resonance_energy_limit", ("resonance",), "f8", "resonance energy E_r of the point model", ENERGY),
+    Var("resonance_width_limit", ("resonance",), "f8", "full width Gamma of the point model's resonance", ENERGY),
+    Var("resonance_energy", _TR, "f8", "resonance energy of the finite model (nearest pole)", ENERGY),
+    Var("resonance_width", _TR, "f8", "full width of the finite model's resonance", ENERGY),
+    Var("resonance_energy_deviation", _TR, "f8", "resonance_energy - resonance_energy_limit", ENERGY),
+    Var("resonance_relative_shift", _TR, "f8", "resonance_energy_deviation / (resonance_energy_limit - incident "
+        "asymptote)"),
+    Var("resonance_width_deviation", _TR, "f8", "resonance_width / resonance_width_limit - 1"),
+    Var("law_coefficient", (), "f8", "fitted a in transmission_deviation = a * width on the narrowest widths",
+        INVERSE_LENGTH),
+    Var("law_exponent", (), "f8", "fitted log-log slope of transmission_deviation against width (1: first order)"),
+    Var("validity_width", (), "f8", "largest width up to which transmission_deviation and every relative resonance "
+        "shift and width change stay below the tolerance", LENGTH, source="validity", required=True),
+    Var("point_name", ("point",), "str", "name of the point component", None, source="names", required=True),
+    Var("point_center", ("point",), "f8", "position of the point", LENGTH, source="positions", required=True),
+    Var("point_strength", ("point",), "f8", "strength alpha of the point (-alpha delta(x - x_j); > 0 attracts)",
+        STRENGTH, source="strengths", required=True),
+    Var("decay_length", ("point",), "f8", "2 (hbar^2/2m_e) / (m |alpha|): the length scale of the point", LENGTH),
+    Var("width_in_decay_lengths", ("width", "point"), "f8", "width / decay_length"),
+    Var("replacement_depth", ("width", "point"), "f8", "depth of the replacement well (its -V at the centre; < 0: a "
+        "barrier's height)", ENERGY, source="depth"),
+)
+
 @dataclass(frozen=True)
 class Kind:
     """One archive kind: its ``fdsolver_kind`` attribute, the ``delta_mode`` values that select it, its rows."""
@@ -415,6 +452,7 @@ KINDS: dict[str, Kind] = {
     "resonances": Kind("resonances", "resonances", RESONANCES, axes_attr="swept_params"),
     "current": Kind("current", "current", CURRENT),
     "delta_background": Kind("delta_background", "delta_background", DELTA_BACKGROUND),
+    "delta_transmission": Kind("delta_transmission", "delta_transmission", DELTA_TRANSMISSION),
 }
 #: the values of the global attribute fdsolver_kind
 ARCHIVE_KINDS = tuple(dict.fromkeys(k.fdsolver_kind for k in KINDS.values()))

@@ -19,6 +19,7 @@ PLOTTERS = {
     "resonances": "fdsolver.plot.continuum:plot_resonances",
     "current": "fdsolver.plot.continuum:plot_current",
     "delta_background": "fdsolver.plot.background:plot_background",
+    "delta_transmission": "fdsolver.plot.background:plot_scatter_check",
 }
 
 

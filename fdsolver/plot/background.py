@@ -48,3 +48,45 @@ def plot_background(ds, path) -> None:
     bx.legend(fontsize=8)
     fig.suptitle(ds.attrs.get("title", ""), fontsize=11)
     save(fig, path, rect=(0, 0, 1, 0.95))
+
+
+def plot_scatter_check(ds, path) -> None:
+    """T(E) of the points and of a few replacement widths on a log axis (resonances marked), and the deviations
+    against width on log-log axes (max |dT|, relative resonance shifts and width changes, the tolerance)."""
+    eu, lu = units_of(ds, "energy"), units_of(ds, "width")
+    fig, (ax, bx) = figure(1, 2, width=13.0, height=5.0)
+    e, w = ds.energy.values, ds.width.values
+    ax.semilogy(e, ds.transmission_limit.values, color="k", lw=1.6, label="point interactions")
+    for n, i in enumerate(sorted({0, w.size // 2, w.size - 1})):
+        ax.semilogy(e, ds.transmission.values[i], lw=1.0, ls="--", color=f"C{n}", label=f"width {w[i]:.3g} {lu}")
+    for k in range(ds.sizes.get("resonance", 0)):
+        ax.axvline(float(ds.resonance_energy_limit.values[k]), color="C3", lw=0.7, ls=":",
+                   label="resonance (points)" if k == 0 else None)
+    ax.set_xlabel(f"energy [{eu}]")
+    ax.set_ylabel("transmission T [1] (log axis)")
+    ax.set_title("T(E), wave from the left", fontsize=10)
+    ax.grid(True, which="major", lw=0.3, alpha=0.5)
+    ax.legend(fontsize=8)
+    tol = float(ds.attrs.get("tolerance", np.nan))
+    d = ds.transmission_deviation.values
+    ok = np.isfinite(d) & (d > 0)
+    bx.loglog(w[ok], d[ok], "o-", color="k", ms=4, lw=1.2, label="max |T - T_point|")
+    for k in range(ds.sizes.get("resonance", 0)):
+        s = np.abs(ds.resonance_relative_shift.values[:, k])
+        g = np.abs(ds.resonance_width_deviation.values[:, k])
+        c = f"C{k % 10}"
+        good = np.isfinite(s) & (s > 0)
+        bx.loglog(w[good], s[good], "s-", color=c, ms=3, lw=1.0, label=f"resonance {k}: |dE_r| / (E_r - V_in)")
+        good = np.isfinite(g) & (g > 0)
+        bx.loglog(w[good], g[good], "^--", color=c, ms=3, lw=1.0, label=f"resonance {k}: |dGamma| / Gamma")
+    bx.axhline(tol, color="0.3", lw=0.8, ls="-.", label=f"tolerance {tol:g}")
+    v = float(ds.validity_width)
+    if np.isfinite(v):
+        bx.axvline(v, color="0.3", lw=0.8, ls="--", label=f"validity width {v:.3g} {lu}")
+    bx.set_xlabel(f"replacement width [{lu}]")
+    bx.set_ylabel("deviation [1]")
+    bx.set_title("deviation from the point interactions", fontsize=10)
+    bx.grid(True, which="major", lw=0.3, alpha=0.5)
+    bx.legend(fontsize=7)
+    fig.suptitle(ds.attrs.get("title", ""), fontsize=11)
+    save(fig, path, rect=(0, 0, 1, 0.95))

@@ -18,6 +18,7 @@ FORMATTERS = {
     "resonances": "fdsolver.report.continuum:format_resonances",
     "current": "fdsolver.report.continuum:format_current",
     "delta_background": "fdsolver.report.background:format_background",
+    "delta_transmission": "fdsolver.report.background:format_scatter_check",
 }
 
 

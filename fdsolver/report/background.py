@@ -50,3 +50,56 @@ def format_background(ds) -> str:
         if m:
             lines.append(f"note: {m}")
     return "\n".join(lines)
+
+
+#: energies shown in the T(E) table of a scattering check
+SHOWN_ENERGIES = 12
+
+
+def format_scatter_check(ds) -> str:
+    """Table of a zero-range check for scattering (kind ``delta_transmission``)."""
+    a = ds.attrs
+    eu, lu = units_of(ds, "energy"), units_of(ds, "width")
+    tol = float(a.get("tolerance", np.nan))
+    e = ds.energy.values
+    lines = [a.get("title", ""),
+             f"zero-range check for scattering: each point replaced by a {a.get('replacement_shape')} well or barrier of "
+             f"the same strength; reference: the point interactions by {a.get('reference')}; wave from the left; "
+             f"{e.size} energies {e[0]:.6g} to {e[-1]:.6g} {eu}; lengths in {lu}"]
+    for p in ds.point.values:
+        lines.append(f"point {int(p)} '{ds.point_name.values[p]}': x = {float(ds.point_center.values[p]):.6g} {lu}, "
+                     f"alpha = {float(ds.point_strength.values[p]):.6g} {units_of(ds, 'point_strength')}, "
+                     f"length scale 2C/(m|alpha|) = {float(ds.decay_length.values[p]):.4g} {lu}")
+    lines.append(f"max |T - T_point| ~ {float(ds.law_coefficient):.4g} {lu}^-1 x width (fitted slope "
+                 f"{float(ds.law_exponent):.3f}); every deviation below {tol:g} up to width "
+                 f"{float(ds.validity_width):.4g} {lu}")
+    n_r = ds.sizes.get("resonance", 0)
+    if n_r:
+        lines.append("resonances of the point model: " + ", ".join(
+            f"E_r = {float(ds.resonance_energy_limit.values[k]):.8g} {eu} (width {float(ds.resonance_width_limit.values[k]):.4g})"
+            for k in range(n_r)))
+    else:
+        lines.append("no resonance of the point model in the energy range")
+    head = f"{'width [' + lu + ']':>14} {'w/scale':>9} {'depth [' + eu + ']':>14} {'max |dT|':>10}"
+    for k in range(n_r):
+        head += f"  {'dE_r' + str(k) + ' [' + eu + ']':>16} {'rel':>9} {'dGamma/Gamma':>12}"
+    lines.append(head)
+    for i, wi in enumerate(ds.width.values):
+        row = (f"{wi:14.5g} {float(ds.width_in_decay_lengths.values[i, 0]):9.3g} "
+               f"{float(ds.replacement_depth.values[i, 0]):14.5g} {float(ds.transmission_deviation.values[i]):10.3e}")
+        for k in range(n_r):
+            row += (f"  {float(ds.resonance_energy_deviation.values[i, k]):16.4e} "
+                    f"{float(ds.resonance_relative_shift.values[i, k]):9.2e} "
+                    f"{float(ds.resonance_width_deviation.values[i, k]):12.3e}")
+        lines.append(row)
+    step = max(1, e.size // SHOWN_ENERGIES)
+    lines.append(f"T(E) (every {step}th energy; the archive holds all): narrowest and widest width against the points")
+    lines.append(f"{'energy [' + eu + ']':>16} {'T_point':>12} {'T (w=' + format(float(ds.width.values[0]), '.3g') + ')':>16} "
+                 f"{'T (w=' + format(float(ds.width.values[-1]), '.3g') + ')':>16}")
+    for j in range(0, e.size, step):
+        lines.append(f"{e[j]:16.6g} {float(ds.transmission_limit.values[j]):12.6g} "
+                     f"{float(ds.transmission.values[0, j]):16.6g} {float(ds.transmission.values[-1, j]):16.6g}")
+    for m in str(a.get("messages", "")).splitlines():
+        if m:
+            lines.append(f"note: {m}")
+    return "\n".join(lines)
