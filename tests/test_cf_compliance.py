@@ -69,6 +69,7 @@ def _archives(folder: Path) -> dict[str, Path]:
         "current": fdsolver.current(CASES / "double_barrier.toml", "0:0.2:3", executor="serial"),
         "solve quasi-bound": fdsolver.solve(fdsolver.load_case(CASES / "stark_well.toml")),
         "delta_background": fdsolver.delta_check(CASES / "sheet_in_well.toml", widths="0.01:1:3"),
+        "delta_transmission": fdsolver.delta_check(points, transmission=True, energies="0.05:2:20", widths="1e-3:0.1:3"),
     }
     out = {}
     for name, ds in made.items():
@@ -84,7 +85,7 @@ def archives(tmp_path_factory) -> dict[str, Path]:
 NAMES = ["solve", "solve atomic", "sweep", "sweep atomic", "sweep atomic two params", "threshold", "threshold atomic",
          "delta_check", "delta_check atomic", "delta_check from finite", "delta_map", "delta_map atomic",
          "transmission", "transmission atomic", "resonances", "resonances sweep", "current", "solve quasi-bound",
-         "delta_background"]
+         "delta_background", "delta_transmission"]
 
 
 def test_every_archive_kind_is_covered(archives):
