@@ -314,14 +314,22 @@ def _below_asymptotes(case, lo: float, hi: float, side: str) -> str | None:
             f"the {side}; give energies above it, or --incident {other}")
 
 
-def transmit(case, energies=None, *, incident: str | None = None, action: str | None = None) -> xr.Dataset:
+def transmit(case, energies=None, *, incident: str | None = None, vary: str | Sequence[str] = (), output=None,
+             resume: bool = False, restart: bool = False, executor=None, workers: int | None = None,
+             cluster: str | None = None, scheduler: str | None = None, chunk: int | None = None, progress=None,
+             action: str | None = None) -> xr.Dataset:
     """T(E) and R(E) of ``case`` (kind ``transmission``), every resonance in the range found and resolved.
 
     ``energies``: ``"LO:HI"`` (an adaptive grid that samples every resonance
     in the range, whatever its width) or ``"LO:HI:N"`` (exactly N even
     energies); default: the case's ``[transport] energies``, else from just
     above the incident asymptote to 1.5 times the structure's height.
-    ``incident``: ``"left"`` (default) or ``"right"``.
+    ``incident``: ``"left"`` (default) or ``"right"``.  With ``vary``
+    (``"NAME=START:STOP:COUNT"``, as for :func:`sweep`) T(E) is computed at
+    every point of the swept params through the scan runner, on one common
+    grid: ``energies`` must then give a count (``"LO:HI:N"``); ``output``,
+    ``resume``, ``restart``, ``executor``, ``workers``, ``cluster``,
+    ``scheduler``, ``chunk`` and ``progress`` as for :func:`sweep`.
     """
     from fdsolver.continuum.options import energies_of, incident_of
     from fdsolver.continuum.scan import fixed_grid, transmission_scan
@@ -330,6 +338,14 @@ def transmit(case, energies=None, *, incident: str | None = None, action: str | 
     case = _case(case)
     side = incident_of(case, incident)
     lo, hi, n, src = energies_of(case, energies, side)
+    texts = _texts(vary)
+    if texts:
+        return _transmit_sweep(case, texts, (lo, hi, n, src), side, energies, output=output, resume=resume,
+                               restart=restart, executor=executor, workers=workers, cluster=cluster,
+                               scheduler=scheduler, chunk=chunk, progress=progress, action=action)
+    if resume or restart:
+        raise CaseError("--resume and --restart continue a sweep (--vary); one T(E) has no checkpoint",
+                        key="--resume" if resume else "--restart")
 
     def run():
         if n is None:
@@ -348,6 +364,40 @@ def transmit(case, energies=None, *, incident: str | None = None, action: str | 
     text = action or f"transmit {_where(case)}" + (f" --energies {energies}" if energies else "")
     return transmission_dataset(case, transmission_values(tr), stamp(text), incident=side, method=tr.method,
                                 grid=grid, notes=tr.notes)
+
+
+def _transmit_sweep(case, texts, span, side, energies, *, output, resume, restart, executor, workers, cluster,
+                    scheduler, chunk, progress, action):
+    """:func:`transmit` over swept params (one common grid of N even energies) through the runner."""
+    from fdsolver.io.datasets import transmission_dataset
+    from fdsolver.io.specs import KINDS
+    from fdsolver.scans.axes import parse_axes
+    from fdsolver.scans.continuum import plan_transmission_sweep
+    from fdsolver.scans.runner import run
+
+    lo, hi, n, src = span
+    if n is None:
+        raise CaseError(f"a sweep needs one common energy grid: give a count, e.g. {lo:g}:{hi:g}:201",
+                        file=src.file or case.path, key=src.key)
+    msg = _below_asymptotes(case, lo, hi, side)
+    if msg:
+        raise CaseError(msg, file=src.file or case.path, key=src.key)
+    _scan_checks(output, resume, restart, chunk)
+    axes = parse_axes(texts, case, "--vary", reserved=KINDS["transmission"].names())
+    spec = plan_transmission_sweep(case, axes, dict(case.overrides), (lo, hi, n), side, chunk)
+    base = case.with_params(**spec.fixed) if spec.fixed else case
+    text = action or f"transmit {_where(case)}" + (f" --energies {energies}" if energies else "") + \
+        "".join(f" --vary {t}" for t in texts)
+
+    def finish(results, history):
+        return transmission_dataset(base, results.arrays(), history, incident=side,
+                                    method="exact per segment (constant and Airy cells) or nested cells with "
+                                           "Richardson; complex march from the transmitted side",
+                                    grid=f"{n} even energies at every point", notes=results.notes(), axes=axes)
+
+    return _run_on(executor, workers, cluster, scheduler,
+                   lambda ex: run(spec, ex, finish, action=text, output=output, resume=resume, restart=restart,
+                                  progress=progress))
 
 
 def resonances(case, window=None, *, max_width=None, vary: str | Sequence[str] = (), output=None,

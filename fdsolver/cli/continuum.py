@@ -39,6 +39,9 @@ def register(sub) -> None:
     p.add_argument("--energies", metavar="LO:HI[:N]", help="energy range (case energy unit); with N, exactly N even "
                    "energies; default [transport] energies, else from the incident asymptote to 1.5x the structure")
     p.add_argument("--incident", choices=("left", "right"), help="side the wave comes from (default left)")
+    p.add_argument("--vary", action="append", metavar="NAME=START:STOP:COUNT",
+                   help="sweep a param (repeatable; needs --energies LO:HI:N, one common grid)")
+    _scan_options(p, "points")
     p.set_defaults(func=run_transmit)
 
     p = sub.add_parser("resonances", help="resonance energies, widths and lifetimes (S-matrix poles) in a window",
@@ -95,9 +98,15 @@ def run_transmit(args) -> int:
 
     _checks(args)
     case = fdsolver.load_case(args.case, **parse_set(args.set))
-    action = command("transmit", args, (("--energies", "energies"), ("--incident", "incident"), ("--set", "set")))
-    ds = fdsolver.transmit(case, args.energies, incident=args.incident, action=action)
-    return _finish(ds, args, False)
+    action = command("transmit", args, (("--energies", "energies"), ("--incident", "incident"), ("--vary", "vary"),
+                                        ("--set", "set")))
+    if not args.vary:
+        ds = fdsolver.transmit(case, args.energies, incident=args.incident, action=action, resume=args.resume,
+                               restart=args.restart)
+        return _finish(ds, args, False)
+    ds = _scan(args, lambda bar: fdsolver.transmit(case, args.energies, incident=args.incident, vary=args.vary,
+                                                   progress=bar, action=action, **_executor(args)), "T(E) sweep")
+    return _finish(ds, args, True)
 
 
 def _scan(args, call, what: str):

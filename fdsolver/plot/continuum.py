@@ -29,7 +29,10 @@ def _width_axis(widths, log10w):
 
 # --------------------------------------------------------------- transmission
 def plot_transmission(ds, path) -> None:
-    """Draw a transmission archive to ``path``."""
+    """Draw a transmission archive to ``path`` (a sweep over one param: log10 T as a map over (param, E))."""
+    if ds.transmission.ndim > 1:
+        _plot_transmission_map(ds, path)
+        return
     e = ds.energy.values
     t = ds.transmission.values
     l10 = ds.log10_transmission.values if "log10_transmission" in ds else np.log10(np.maximum(t, 1e-300))
@@ -186,4 +189,26 @@ def plot_current(ds, path) -> None:
         ax2.set_xlabel(label(ds, "bias"))
     else:
         ax.set_xlabel(label(ds, "bias"))
+    save(fig, path)
+
+
+def _plot_transmission_map(ds, path) -> None:
+    """log10 T over (first swept param, energy); further swept params at their first value."""
+    import json
+
+    names = json.loads(ds.attrs.get("swept_params", "[]"))
+    sel = ds.isel({n: 0 for n in names[1:]}) if len(names) > 1 else ds
+    p = names[0]
+    l10 = sel.log10_transmission.transpose(p, "energy").values
+    e, x = sel.energy.values, sel[p].values
+    eu = units_of(ds, "energy")
+    fig, (ax,) = figure(1, 1, width=8.0, height=5.5)
+    lo = max(float(np.nanmin(l10)), -12.0) if np.isfinite(l10).any() else -12.0
+    mesh = ax.pcolormesh(x, e, np.clip(l10.T, lo, 0.0), shading="nearest", cmap="viridis", vmin=lo, vmax=0.0)
+    fig.colorbar(mesh, ax=ax, label="log10 T [1]" + (f" (clipped at {lo:g})" if lo == -12.0 else ""))
+    ax.set_xlabel(label(ds, p))
+    ax.set_ylabel(f"energy [{eu}]")
+    extra = ", ".join(f"{n} = {float(ds[n].values[0]):g}" for n in names[1:])
+    ax.set_title(ds.attrs.get("title", "") + (f" ({extra})" if extra else "") +
+                 f"\nT(E) against {p}, wave from the {ds.attrs.get('incident_side')}", fontsize=10)
     save(fig, path)

@@ -72,8 +72,11 @@ def resonance_rows(ds, idx=()) -> list[str]:
 
 
 def format_transmission(ds) -> str:
-    """The table of a transmission archive: the resonances in the range, then T(E) at up to 30 energies."""
+    """The table of a transmission archive: the resonances in the range, then T(E) at up to 30 energies (a sweep:
+    per point the largest T and where, and the flux conservation)."""
     a = ds.attrs
+    if ds.transmission.ndim > 1:
+        return _transmission_sweep(ds)
     eu = units_of(ds, "energy")
     e = ds.energy.values
     lines = [a.get("title", ""), f"units: {a.get('units_system')} (energies in {eu}); wave incident from the "
@@ -178,4 +181,33 @@ def format_current(ds) -> str:
         lines.append(f"{v[i]:10.5g}  {j[i]:14.6g}  {ds.current_density_error.values[i]:14.2e}  {int(n_res[i]):>10d}")
     if rows.size < v.size:
         lines.append(f"({rows.size} of {v.size} biases shown; the archive holds all)")
+    return "\n".join(lines + _notes(ds))
+
+
+def _transmission_sweep(ds) -> str:
+    """A T(E) sweep over params: per point the peak T, its energy, and min log10 T (T(E) itself is in the archive)."""
+    import json
+
+    a = ds.attrs
+    eu = units_of(ds, "energy")
+    names = json.loads(a.get("swept_params", "[]"))
+    e = ds.energy.values
+    lines = [a.get("title", ""), f"units: {a.get('units_system')} (energies in {eu}); wave incident from the "
+             f"{a.get('incident_side')}; {a.get('energy_grid')} from {e[0]:.6g} to {e[-1]:.6g} {eu}"]
+    lines.append("sweep over " + ", ".join(f"{n} [{units_of(ds, n) or '1'}]" for n in names) +
+                 "; per point: the largest T on the grid and its energy (the archive holds T(E) at every point)")
+    t = ds.transmission.transpose(*names, "energy").values.reshape(-1, e.size)
+    l10 = ds.log10_transmission.transpose(*names, "energy").values.reshape(-1, e.size)
+    grids = np.meshgrid(*[ds[n].values for n in names], indexing="ij")
+    head = "  ".join(f"{n:>14}" for n in names) + f"  {'max T':>12}  {'at E [' + eu + ']':>16}  {'min log10 T':>12}"
+    lines.append(head)
+    for i in range(t.shape[0]):
+        row = "  ".join(f"{float(g.ravel()[i]):14.6g}" for g in grids)
+        if not np.isfinite(t[i]).any():
+            lines.append(row + "  not solved")
+            continue
+        k = int(np.nanargmax(t[i]))
+        lines.append(row + f"  {t[i, k]:12.6g}  {e[k]:16.10g}  {np.nanmin(l10[i]):12.3f}")
+    if "unitarity_defect" in ds:
+        lines.append(f"flux conservation: max |R + T - 1| = {float(np.nanmax(ds.unitarity_defect.values)):.1e}")
     return "\n".join(lines + _notes(ds))

@@ -177,6 +177,131 @@ def plan_resonance_sweep(case, axes, fixed, window, max_width, chunk=None) -> Re
     return ResonanceScan(**{**spec.__dict__, "key": _key(spec)})
 
 
+# ------------------------------------------------------------- transmission
+#: per-energy fields of a transmission sweep record (archive variable names)
+T_FIELDS = ("transmission", "transmission_error", "reflection", "log10_transmission", "unitarity_defect",
+            "incident_open")
+
+
+@dataclass(frozen=True)
+class TransmissionScan:
+    """T(E), R(E) at ``n`` even energies from ``lo`` to ``hi`` at every point of ``axes`` (plain data)."""
+
+    case_text: str
+    case_path: str | None
+    tables: dict
+    fixed: dict
+    axes: tuple
+    energies: tuple[float, float, int]
+    incident: str
+    chunk: int | None = None
+    key: str = field(default="", compare=False)
+
+    what = "transmission sweep"
+    verb = "sweeping"
+    max_chunk = 20
+
+    @property
+    def shape(self) -> tuple[int, ...]:
+        return tuple(a.values.size for a in self.axes)
+
+    @property
+    def n_points(self) -> int:
+        return int(np.prod(self.shape, dtype=np.int64))
+
+    @property
+    def energy(self) -> np.ndarray:
+        lo, hi, n = self.energies
+        return np.linspace(lo, hi, int(n))
+
+    def point(self, flat: int) -> dict:
+        idx = np.unravel_index(int(flat), self.shape)
+        return {a.name: float(a.values[i]) for a, i in zip(self.axes, idx)}
+
+    def identity(self) -> dict:
+        from fdsolver._version import __version__
+
+        return {"study": "transmission sweep", "fdsolver": __version__, "case_text": self.case_text,
+                "case_tables": self.tables, "fixed": self.fixed,
+                "axes": [{"name": a.name, "text": a.text, "values": [float(v) for v in a.values]} for a in self.axes],
+                "energies": [float(v) for v in self.energies], "incident": self.incident}
+
+    def solve_points(self, base, indices) -> dict:
+        from fdsolver.continuum.scan import fixed_grid
+
+        n, n_e = len(indices), int(self.energies[2])
+        out: dict[str, Any] = {"index": np.asarray(indices, dtype=np.int64), "solved": np.zeros(n, np.int8)}
+        for f in T_FIELDS:
+            out[f] = np.full((n, n_e), 0 if f == "incident_open" else np.nan)
+        messages = []
+        lo, hi, _ = self.energies
+        for j, flat in enumerate(indices):
+            point = self.point(flat)
+            where = ", ".join(f"{k} = {v:.10g}" for k, v in point.items())
+            try:
+                case = base.with_params(**{**self.fixed, **point})
+                tr = fixed_grid(case.potential, lo, hi, n_e, incident=self.incident, domain=case.domain)
+            except CaseError as err:
+                messages.append([int(flat), f"at {where}: {err.message}"])
+                continue
+            out["solved"][j] = 1
+            vals = {"transmission": tr.transmission, "transmission_error": tr.transmission_error,
+                    "reflection": tr.reflection, "log10_transmission": tr.log_transmission / np.log(10.0),
+                    "unitarity_defect": tr.unitarity_defect, "incident_open": tr.open}
+            for f in T_FIELDS:
+                out[f][j] = np.asarray(vals[f], float)
+            messages.extend([int(flat), f"at {where}: {m}"] for m in tr.notes)
+        out["messages"] = messages
+        return out
+
+    def collector(self) -> "TransmissionResults":
+        return TransmissionResults(self)
+
+
+class TransmissionResults:
+    """The sweep's (point, energy) arrays, filled chunk by chunk in any order."""
+
+    def __init__(self, spec: TransmissionScan):
+        self.spec = spec
+        n, n_e = spec.n_points, int(spec.energies[2])
+        self.values = {f: np.full((n, n_e), 0 if f == "incident_open" else np.nan) for f in T_FIELDS}
+        self.solved = np.zeros(n, np.int8)
+        self.done = np.zeros(n, bool)
+        self.messages: dict[int, list[str]] = {}
+
+    def add(self, rec: dict) -> int:
+        idx = np.asarray(rec["index"], dtype=np.int64)
+        self.done[idx] = True
+        self.solved[idx] = rec["solved"]
+        for f in T_FIELDS:
+            self.values[f][idx] = np.asarray(rec[f])
+        for flat, msg in rec.get("messages", []):
+            self.messages.setdefault(int(flat), []).append(str(msg))
+        return int(idx.size)
+
+    def notes(self) -> list[str]:
+        return [m for k in sorted(self.messages) for m in self.messages[k]]
+
+    def arrays(self) -> dict:
+        shape = self.spec.shape + (int(self.spec.energies[2]),)
+        out: dict[str, Any] = {"energy": self.spec.energy}
+        for f in T_FIELDS:
+            out[f] = self.values[f].reshape(shape).astype(np.int8 if f == "incident_open" else float)
+        return out
+
+
+def plan_transmission_sweep(case, axes, fixed, energies, incident, chunk=None) -> TransmissionScan:
+    """Check a transmission sweep before any work: the corner points are valid cases."""
+    import itertools
+
+    fixed = {k: v for k, v in (fixed or {}).items() if k not in {a.name for a in axes}}
+    for corner in itertools.islice(itertools.product(*[(a.values[0], a.values[-1]) for a in axes]), 64):
+        case.with_params(**{**fixed, **{a.name: float(v) for a, v in zip(axes, corner)}})
+    spec = TransmissionScan(case.text, case.path, dict(case.tables), dict(fixed), tuple(axes),
+                            (float(energies[0]), float(energies[1]), int(energies[2])), incident, chunk)
+    return TransmissionScan(**{**spec.__dict__, "key": _key(spec)})
+
+
 # ------------------------------------------------------------------ current
 @dataclass(frozen=True)
 class BiasScan:
