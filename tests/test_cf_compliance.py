@@ -64,6 +64,7 @@ def _archives(folder: Path) -> dict[str, Path]:
         "delta_map atomic": fdsolver.delta_map(points, ["width=0.01:1:3", "d=2:6:3"], executor="serial"),
         "transmission": fdsolver.transmit(CASES / "double_barrier.toml", "1:400:40"),
         "transmission atomic": fdsolver.transmit(atomic, "0.05:3"),
+        "transmission sweep": fdsolver.transmit(atomic, "0.05:3:20", vary="d=0.5:2:3", executor="serial"),
         "resonances": fdsolver.resonances(CASES / "double_barrier.toml"),
         "resonances sweep": fdsolver.resonances(CASES / "stark_well.toml", vary="F=0:40:3", executor="serial"),
         "current": fdsolver.current(CASES / "double_barrier.toml", "0:0.2:3", executor="serial"),
@@ -84,7 +85,7 @@ def archives(tmp_path_factory) -> dict[str, Path]:
 
 NAMES = ["solve", "solve atomic", "sweep", "sweep atomic", "sweep atomic two params", "threshold", "threshold atomic",
          "delta_check", "delta_check atomic", "delta_check from finite", "delta_map", "delta_map atomic",
-         "transmission", "transmission atomic", "resonances", "resonances sweep", "current", "solve quasi-bound",
+         "transmission", "transmission atomic", "transmission sweep", "resonances", "resonances sweep", "current", "solve quasi-bound",
          "delta_background", "delta_transmission"]
 
 
