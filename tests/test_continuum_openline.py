@@ -87,3 +87,38 @@ def test_field_sweep_carries_widths_and_they_grow_with_the_field(tmp_path, capsy
     assert np.all(np.isfinite(l10)) and np.all(np.diff(l10) > 0)  # field ionisation speeds up with F
     one = fdsolver.solve(fdsolver.load_case(CASES / "stark_well.toml").with_params(F=40.0))
     assert abs(float(ds.level_width.sel(state=0).values[1]) / float(one.width[0]) - 1) < 1e-6
+
+
+def _double_barrier_pole(v0, b, w, guess):
+    """Derived here (hbar = m = 1): barriers of height v0 on [0, b] and [b + w, 2b + w], V = 0 elsewhere.
+    Outgoing on both sides: psi = e^{-ikx} left of 0 (psi = 1, psi' = -ik at 0), marched through each constant
+    region by [[cos qL, sin(qL)/q], [-q sin qL, cos qL]] with q = sqrt(2(E - V)); the pole is where the wave
+    leaving on the right is outgoing too: psi' - ik psi = 0 at 2b + w (k = sqrt(2E), Im k < 0 below the axis)."""
+    mp.mp.dps = 30
+
+    def f(e):
+        k = mp.sqrt(2 * e)
+        y = mp.matrix([[1], [-1j * k]])
+        for v, length in ((v0, b), (0, w), (v0, b)):
+            q = mp.sqrt(2 * (e - v))
+            y = mp.matrix([[mp.cos(q * length), mp.sin(q * length) / q],
+                           [-q * mp.sin(q * length), mp.cos(q * length)]]) * y
+        return y[1] - 1j * k * y[0]
+
+    g = mp.mpc(guess.real, guess.imag)
+    return complex(mp.findroot(f, (g, g + mp.mpf(10) ** -9)))
+
+
+def test_well_between_barriers_above_the_threshold_gives_its_resonances():
+    v0, b, w = 1.0, 1.5, 3.0
+    ds = fdsolver.solve(fdsolver.case_from_dict({
+        "title": "double barrier (invented)", "units": "atomic",
+        "potential": [{"shape": "square", "center": b / 2, "width": b, "height": v0},
+                      {"shape": "square", "center": 1.5 * b + w, "width": b, "height": v0}]}))
+    assert ds.sizes["state"] >= 1 and np.all(ds.width.values > 0)  # nothing is bound: V >= 0 everywhere
+    for k in range(ds.sizes["state"]):
+        e, g = float(ds.energy[k]), float(ds.width[k])
+        assert 0 < e < v0
+        pole = _double_barrier_pole(v0, b, w, complex(e, -g / 2))
+        assert abs(e - pole.real) < 1e-10 and abs(g / (-2 * pole.imag) - 1) < 1e-8
+    assert ds.attrs["box_left"] == float(ds.x[0]) and ds.attrs["box_right"] == float(ds.x[-1])  # the shown grid

@@ -329,7 +329,7 @@ def _with_quasi(potential, domain, settings, sol: Solution) -> Solution:
         x = _display_grid(potential, s_lo - pad, s_hi + pad)
         with np.errstate(all="ignore"):
             sol = replace(sol, x=x, potential=potential.value(x), mass=potential.mass_at(x), weights=_weights(x),
-                          psi=np.zeros((0, x.size)))
+                          psi=np.zeros((0, x.size)), box=(float(x[0]), float(x[-1])))
     x = sol.x
     psi_q = np.array([_display(prof, _pole_energy(res, k), x, _weights(x), (s_lo - pad, s_hi + pad)) for k in keep])
     e = np.asarray(res.energy)[keep]

@@ -41,11 +41,14 @@ def plot_solve(ds, path) -> None:
     span = max(top - vshow.min(), 1e-300)
     clip = top + 0.3 * span
     quasi = "log10_width" in ds and bool(np.isfinite(ds.log10_width.values).any())
-    if quasi:  # quasi-bound states: show the barriers that hold them
+    if quasi:  # quasi-bound states: show the barriers that hold them, and size the waves to that range
         clip = max(clip, float(np.max(vshow)))
+        span = max(span, 0.5 * (clip - float(vshow.min())))
     ax.plot(x[sel], np.minimum(vshow, clip), color="0.2", lw=1.5, label="potential")
     gaps = np.diff(energy) if energy.size > 1 else np.array([0.1 * span])
     amp = 0.4 * max(np.min(gaps[gaps > 0]) if np.any(gaps > 0) else 0.1 * span, 0.02 * span)
+    if quasi and energy.size == 1:  # one resonance between tall barriers: a wave a tenth of their height
+        amp = 0.1 * (clip - float(vshow.min()))
     for k, e in enumerate(energy):
         p = psi[k][sel]
         scale = amp / max(np.max(np.abs(p)), 1e-300)
