@@ -54,13 +54,14 @@ def solve_case(case: Case) -> Solution:
     On the open line a potential that leaks (falls without bound at an end, or
     encloses a well by barriers above the continuum threshold) also gets its
     quasi-bound states, with widths and lifetimes
-    (:mod:`fdsolver.continuum.openline`); other cases are the bound-state
-    solver's alone.
+    (:mod:`fdsolver.continuum.openline`; those above a continuum threshold only
+    with ``[solve] quasi_bound = true``); other cases are
+    the bound-state solver's alone.
     """
     from fdsolver.continuum.confinement import leaks  # numpy only: no start-up cost for plain solves
 
     try:
-        if leaks(case.potential, case.domain):
+        if leaks(case.potential, case.domain) and case.settings.quasi_bound is not False:
             from fdsolver.continuum.openline import solve_open_line
 
             return solve_open_line(case.potential, case.domain, case.settings)

@@ -24,3 +24,6 @@ class SolveSettings:
     max_levels: int = 9
     min_levels: int = 3
     grid: GridSettings = field(default_factory=GridSettings)
+    #: quasi-bound states above the continuum threshold (a well between higher barriers) are listed above the bound
+    #: states only when True; False also refuses a field as the bound-state solver does (continuum.openline)
+    quasi_bound: bool | None = None

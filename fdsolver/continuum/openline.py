@@ -12,7 +12,9 @@ Two cases reach here (:mod:`fdsolver.continuum.confinement`):
 * **A well enclosed by barriers above the continuum threshold**: the
   finite-difference solver returns the true bound states, unchanged; the
   quasi-bound states between the threshold and the enclosing barriers' top
-  are the poles found there and are appended above them.
+  are the poles found there and are appended above them with
+  ``[solve] quasi_bound = true`` (otherwise a note says they may exist, so
+  the bound-state contract of ``solve`` is unchanged).
 
 Each quasi-bound state gets a wavefunction for display: the solution at the
 complex pole energy, marched exactly (:func:`fdsolver.numerics.waves.trace_waves`)
@@ -316,6 +318,10 @@ def _with_quasi(potential, domain, settings, sol: Solution) -> Solution:
     n_b = sol.energy.size
     if not hi > lo or not math.isfinite(lo):
         return replace(sol, **zero)
+    if settings.quasi_bound is not True:  # the bound states stay the solver's alone unless asked
+        msg = (f"quasi-bound states may lie between the continuum threshold and the enclosing barriers' top "
+               f"({hi:.6g} {potential.units.energy}); [solve] quasi_bound = true lists them (or fdsolver resonances)")
+        return replace(sol, messages=sol.messages + (msg,), **zero)
     if n_b >= settings.max_states or sol.bound_count > n_b:
         msg = "quasi-bound states above the continuum threshold were not searched: the bound states fill max_states"
         return replace(sol, messages=sol.messages + (msg + " (raise [solve] max_states)",), **zero)

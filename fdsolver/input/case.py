@@ -280,7 +280,8 @@ def _settings(data, params, file) -> SolveSettings:
         if not lo < hi:
             raise CaseError(f"low ({lo:g}) must be below high ({hi:g})", file=file, key="solve.energy_window")
         window = (lo, hi)
-    return SolveSettings(tol, max_states, window, mem, levels, 3, GridSettings())
+    quasi = F.flag(table, "quasi_bound", file, "solve")
+    return SolveSettings(tol, max_states, window, mem, levels, 3, GridSettings(), quasi_bound=quasi)
 
 
 # ---------------------------------------------------------------- writing

@@ -69,6 +69,9 @@ SOLVE: dict[str, Key] = {
     "energy_window": Key("[low, high]: only states in this energy range", ENERGY),
     "memory_mb": Key("memory budget of the grid, MB", NUMBER),
     "max_levels": Key("most nested grid levels", COUNT),
+    "quasi_bound": Key("true: also list the quasi-bound states above the continuum threshold (a well between higher "
+                       "barriers) above the bound states; false: not even in a field (refused, use hard walls); default: only in a "
+                       "field", BOOL),
 }
 
 SWEEP: dict[str, Key] = {
