@@ -114,7 +114,8 @@ def test_well_between_barriers_above_the_threshold_gives_its_resonances():
     ds = fdsolver.solve(fdsolver.case_from_dict({
         "title": "double barrier (invented)", "units": "atomic",
         "potential": [{"shape": "square", "center": b / 2, "width": b, "height": v0},
-                      {"shape": "square", "center": 1.5 * b + w, "width": b, "height": v0}]}))
+                      {"shape": "square", "center": 1.5 * b + w, "width": b, "height": v0}],
+        "solve": {"quasi_bound": True}}))
     assert ds.sizes["state"] >= 1 and np.all(ds.width.values > 0)  # nothing is bound: V >= 0 everywhere
     for k in range(ds.sizes["state"]):
         e, g = float(ds.energy[k]), float(ds.width[k])
@@ -122,3 +123,32 @@ def test_well_between_barriers_above_the_threshold_gives_its_resonances():
         pole = _double_barrier_pole(v0, b, w, complex(e, -g / 2))
         assert abs(e - pole.real) < 1e-10 and abs(g / (-2 * pole.imag) - 1) < 1e-8
     assert ds.attrs["box_left"] == float(ds.x[0]) and ds.attrs["box_right"] == float(ds.x[-1])  # the shown grid
+
+
+def test_quasi_bound_key_chooses_whether_states_above_the_threshold_are_listed():
+    # a well with a thin right barrier above a lower right cladding (invented): bound below 100 meV, quasi-bound
+    # between 100 and 300 meV.  By default the bound states stay the solver's alone (a note says more may exist),
+    # and a structure that binds nothing still returns no state.
+    layers = [{"band_edge": 300.0}, {"thickness": 8.0, "band_edge": 0.0}, {"thickness": 3.0, "band_edge": 300.0},
+              {"band_edge": 100.0}]
+    base = {"title": "leaky well (invented)", "units": "nm-meV", "mass": 0.067, "layer": layers}
+    plain = fdsolver.solve(fdsolver.case_from_dict(base))
+    assert np.all(plain.width.values == 0) and np.all(plain.energy.values < 100.0)
+    assert "quasi_bound = true" in plain.attrs["messages"]
+    full = fdsolver.solve(fdsolver.case_from_dict({**base, "solve": {"quasi_bound": True}}))
+    n = plain.sizes["state"]
+    assert np.array_equal(full.energy.values[:n], plain.energy.values)  # the bound states are untouched
+    q = full.energy.values[n:]
+    assert q.size >= 1 and np.all((q > 100.0) & (q < 300.0)) and np.all(full.width.values[n:] > 0)
+    assert np.all(np.diff(full.energy.values) > 0)
+    # the same poles as `fdsolver resonances` in that window (one engine)
+    res = fdsolver.resonances(fdsolver.case_from_dict(base), (100.0, 300.0), max_width=50.0)
+    assert np.allclose(res.resonance_energy.values[: q.size], q, rtol=1e-10)
+
+
+def test_quasi_bound_false_keeps_the_old_refusal_in_a_field(tmp_path, capsys):
+    case = tmp_path / "field.toml"
+    case.write_text((CASES / "stark_well.toml").read_text() + "\n[solve]\nquasi_bound = false\n")
+    assert main(["solve", str(case), "-o", str(tmp_path / "x.nc")]) == 2
+    err = capsys.readouterr().err
+    assert "hard" in err and err.count("\n") == 1 and not (tmp_path / "x.nc").exists()
