@@ -58,7 +58,7 @@ def solve_open_line(potential, domain, settings) -> Solution:
         if confined_top(potential) is None and not any(a > 0 for _, a in potential.point_terms()):
             raise CaseError("V falls without bound at an open end and encloses no well, so nothing is bound or "
                             "quasi-bound on the open line (every energy is in the field's continuum); add a well, or "
-                            'put the case between hard walls with [domain] boundary = "hard"', key="potential")
+                            'put the case between hard walls with [domain] boundary = "hard"', key="domain.boundary")
         return _quasi_only(potential, domain, settings)
     sol = solve_potential(potential, domain, settings)
     return _with_quasi(potential, domain, settings, sol)
