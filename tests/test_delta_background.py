@@ -69,7 +69,7 @@ def test_point_in_a_box_against_exact_matching_conditions():
         assert abs(float(ds.energy_limit[s]) - exact) < 1e-8 * max(1.0, abs(exact))
         assert abs(float(ds.energy_limit[s]) - exact) <= 10 * float(ds.energy_limit_error[s]) + 1e-12
         for i, w in enumerate(ds.width.values):
-            fin = _root(lambda e: _square_condition(e, float(w)), float(ds.energy[i, s]))
+            fin = _root(lambda e, w=float(w): _square_condition(e, w), float(ds.energy[i, s]))
             assert abs(float(ds.energy[i, s]) - fin) < 1e-8 * max(1.0, abs(fin))
             # the archived deviation is the difference of the two exact roots to within both error bars
             assert abs(float(ds.energy_deviation[i, s]) - (fin - exact)) <= 2e-8 * max(1.0, abs(fin))
@@ -89,7 +89,8 @@ def test_first_order_law_on_the_narrowest_widths():
     for s in (0, 1):  # state 2 has a node within 0.04 of x0: its psi(x0)^2 is small and the w^2 term competes
         e = _root(_point_condition, float(ds.energy_limit[s]))
         p, q = _u(e, X0)[0], _u(e, L - X0)[0]
-        norm = mp.quad(lambda x: (_u(e, x)[0] / p) ** 2 if x < X0 else (_u(e, L - x)[0] / q) ** 2, [0, X0, L])
+        norm = mp.quad(lambda x, e=e, p=p, q=q: (_u(e, x)[0] / p) ** 2 if x < X0 else (_u(e, L - x)[0] / q) ** 2,
+                       [0, X0, L])
         law = ALPHA**2 / float(norm) / 3 / abs(e)  # relative to |E - 0| (the box floor is the reference energy)
         assert abs(float(ds.law_exponent[s]) - 1) < 0.01
         assert abs(float(ds.law_coefficient[s]) / law - 1) < 3e-3

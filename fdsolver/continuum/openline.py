@@ -149,8 +149,8 @@ def wave_on(profile, energy: complex, x) -> np.ndarray:
     n = prof.n_edges
     m = match_edge(prof, float(energy.real))
     m = min(max(m, 0), n - 1)
-    pl, ul, ll = prof.left.outgoing(np.array([energy]))
-    pr, ur, lr = prof.right.outgoing(np.array([energy]))
+    pl, ul, _ = prof.left.outgoing(np.array([energy]))
+    pr, ur, _ = prof.right.outgoing(np.array([energy]))
     psi_l, log_l = trace_waves(prof.cells, energy, 0, m, pl[0], ul[0])
     psi_r, log_r = trace_waves(prof.cells, energy, n - 1, m, pr[0], ur[0])
     out = np.zeros(n, dtype=complex)

@@ -27,7 +27,6 @@ from typing import Any
 import numpy as np
 
 from fdsolver.errors import CaseError
-from fdsolver.scans.runner import base_case
 
 #: per-resonance fields of a record and of the arrays (record key -> archive variable)
 RES_FIELDS = {
@@ -115,7 +114,7 @@ class ResonanceScan:
         out["messages"] = messages
         return out
 
-    def collector(self) -> "ResonanceResults":
+    def collector(self) -> ResonanceResults:
         return ResonanceResults(self)
 
 
@@ -254,7 +253,7 @@ class TransmissionScan:
         out["messages"] = messages
         return out
 
-    def collector(self) -> "TransmissionResults":
+    def collector(self) -> TransmissionResults:
         return TransmissionResults(self)
 
 
@@ -362,7 +361,7 @@ class BiasScan:
         out["messages"] = messages
         return out
 
-    def collector(self) -> "CurrentResults":
+    def collector(self) -> CurrentResults:
         return CurrentResults(self)
 
 

@@ -38,7 +38,13 @@ import numpy as np
 from fdsolver.errors import CaseError
 from fdsolver.model import shapes as S
 from fdsolver.model.potential import Potential
-from fdsolver.zerorange.background import LADDER_SIZE, LADDER_SPAN, _points, auto_widths, has_background
+from fdsolver.zerorange.background import (
+    LADDER_SIZE,
+    LADDER_SPAN,
+    _points,
+    auto_widths,
+    has_background,
+)
 
 #: energies of the comparison when the range gives no count
 DEFAULT_POINTS = 201
