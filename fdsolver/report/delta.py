@@ -239,4 +239,5 @@ def _depths(ds) -> np.ndarray:
     from fdsolver.model.shapes import FINITE_REPLACEMENTS
 
     alpha = float(ds.well_strength.values[0])
-    return np.array([-float(FINITE_REPLACEMENTS[shape]("", 0.0, alpha, float(w)).amplitude) for w in ds.width.values])
+    make = FINITE_REPLACEMENTS[shape]
+    return np.array([-float(getattr(make("", 0.0, alpha, float(w)), "amplitude")) for w in ds.width.values])
