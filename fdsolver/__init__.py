@@ -12,6 +12,9 @@ Public API (every name is imported on first use, so ``import fdsolver`` stays li
     dm = fdsolver.delta_map(case, ["width=0.01:1:20", "d=5:15:20"])
     b = fdsolver.bands("cases/superlattice.toml", stacks="2,4,8")   # Bloch bands of a periodic case
     bs = fdsolver.band_sweep("cases/superlattice.toml", ["barrier=1:6:100"])   # band edges over a param
+    tr = fdsolver.transmit(case, "0:300")                 # T(E), every resonance in the range resolved
+    rs = fdsolver.resonances(case, "0:300")               # S-matrix poles: energies, widths, lifetimes
+    iv = fdsolver.current(case, "0:0.5:51", fermi_level=10.0)   # Tsu-Esaki J(V)
 
 Every call returns the Dataset the command line writes (see :mod:`fdsolver.api`).
 Cases can also be built in code with :func:`case_from_dict` (the TOML schema
@@ -55,6 +58,9 @@ _LAZY = {
     "interband": "fdsolver.api",
     "materials": "fdsolver.api",
     "export_csv": "fdsolver.report.export",
+    "transmit": "fdsolver.api",
+    "resonances": "fdsolver.api",
+    "current": "fdsolver.api",
 }
 
 __all__ = sorted(_LAZY) + ["__version__"]

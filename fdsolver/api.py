@@ -13,6 +13,9 @@ call                   what                                                archi
                        stacks beside them)
 :func:`band_sweep`     band edges, widths, gaps and masses over a grid     ``band_sweep``
                        of param values
+:func:`transmit`       T(E), R(E) and the resonances in the range          ``transmission``
+:func:`resonances`     S-matrix poles in a window (or against params)      ``resonances``
+:func:`current`        Tsu-Esaki current density J(V) of a biased stack    ``current``
 =====================  ==================================================  =======================
 
 :func:`delta_check` of a periodic case compares its delta comb with combs of finite wells or
@@ -216,8 +219,18 @@ def threshold(case, vary: str, *, state: int | None = None, scan: int = 129, rto
 
 
 def delta_check(case, *, shape: str | None = None, widths=None, tolerance: float | None = None,
-                from_finite: bool | None = None, progress=None, action: str | None = None) -> xr.Dataset:
+                from_finite: bool | None = None, transmission: bool = False, energies=None, progress=None,
+                action: str | None = None) -> xr.Dataset:
     """Finite wells against the zero-range point model over a ladder of widths (kind ``delta_check``).
+
+    A case whose points sit on a background (a layer stack, other components,
+    hard walls) is checked against the same case with exact point
+    interactions instead (kind ``delta_background``,
+    :mod:`fdsolver.zerorange.background`).
+    With ``transmission`` the comparison is of scattering instead: T(E) at
+    ``energies`` ("LO:HI" or "LO:HI:N", case energy unit; default as for
+    :func:`transmit`) and the resonances in that range (kind
+    ``delta_transmission``, :mod:`fdsolver.zerorange.scattercheck`).
 
     Each point component is replaced by a ``shape`` well ("square",
     "smooth_square", "gaussian", "sech2") of the same strength and centroid,
@@ -229,6 +242,7 @@ def delta_check(case, *, shape: str | None = None, widths=None, tolerance: float
     """
     from fdsolver.io.datasets import ladder_dataset
     from fdsolver.scans.options import read_options
+    from fdsolver.zerorange.background import on_background
     from fdsolver.zerorange.ladder import run_ladder
 
     case = _case(case)
@@ -239,6 +253,26 @@ def delta_check(case, *, shape: str | None = None, widths=None, tolerance: float
     options = read_options(case, shape=shape, widths=widths, tolerance=tolerance, from_finite=from_finite)
     if options.from_finite and options.widths is not None:
         raise CaseError("--widths sets the replacement widths; --from-finite keeps the case's own wells", key="--widths")
+    if transmission:
+        from fdsolver.continuum.options import energies_of
+        from fdsolver.io.datasets import scatter_check_dataset
+        from fdsolver.zerorange.scattercheck import run_scatter_check
+
+        if options.from_finite:
+            raise CaseError("--transmission replaces points by finite wells; --from-finite does not apply",
+                            key="--from-finite")
+        lo, hi, n, _ = energies_of(case, energies)
+        check = _located(case, lambda: run_scatter_check(case, options.shape, options.widths, options.tolerance,
+                                                         (lo, hi, n), progress=progress))
+        return scatter_check_dataset(case, check, stamp(action or f"delta-check {_where(case)} --transmission"))
+    if energies is not None:
+        raise CaseError("--energies sets the energies of a scattering check; add --transmission", key="--energies")
+    if not options.from_finite and on_background(case):
+        from fdsolver.io.datasets import background_dataset
+        from fdsolver.zerorange.background import run_background
+
+        check = run_background(case, options.shape, options.widths, options.tolerance, progress=progress)
+        return background_dataset(case, check, stamp(action or f"delta-check {_where(case)}"))
     lad = run_ladder(case, options, progress=progress)
     return ladder_dataset(case, lad, stamp(action or f"delta-check {_where(case)}"))
 
@@ -258,6 +292,7 @@ def delta_map(case, maps: Sequence[str] | None = None, *, shape: str | None = No
     """
     from fdsolver.scans.maps import plan_map, run_map
     from fdsolver.scans.options import read_options
+    from fdsolver.zerorange.background import on_background
 
     case = _case(case)
     _not_periodic(case, f"fdsolver delta-check {_where(case)} (without --map: the comb check of its bands)")
@@ -266,6 +301,9 @@ def delta_map(case, maps: Sequence[str] | None = None, *, shape: str | None = No
         raise CaseError("--shape chooses the wells that replace points; --from-finite uses the case's own wells", key="--shape")
     options = read_options(case, shape=shape, widths=widths, tolerance=tolerance, from_finite=from_finite,
                            maps=_texts(maps, "--map") or None)
+    if not options.from_finite and on_background(case):
+        raise CaseError("validity maps compare points on the open line with nothing else; a case with a background "
+                        "(layers, other components, walls) is checked over widths: drop --map", key="--map")
     spec = plan_map(case, options, dict(case.overrides), chunk)
     action = action or f"delta-check {_where(case)} " + " ".join(f"--map {a.text}" for a in spec.axes)
     return _run_on(executor, workers, cluster, scheduler,
@@ -517,3 +555,232 @@ def materials(name: str | None = None, *, x: float | None = None, temperature: f
 
     out = format_material(name, x=x, temperature=temperature, library=load_library(file))
     return out if text else out[1]
+
+
+# ------------------------------------------------------------------ the continuum
+def _located(case: Case, call):
+    """``call()`` with a core CaseError located in the case file."""
+    try:
+        return call()
+    except CaseError as err:
+        raise err.located(file=case.path) from None
+
+
+def transmission_values(tr) -> dict:
+    """The variables of a transmission archive from a :class:`~fdsolver.continuum.transmission.Transmission`."""
+    import numpy as np
+
+    from fdsolver.scans.continuum import resonance_arrays
+
+    out = {"energy": tr.energy, "transmission": tr.transmission, "transmission_error": tr.transmission_error,
+           "reflection": tr.reflection, "log10_transmission": tr.log_transmission / np.log(10.0),
+           "unitarity_defect": tr.unitarity_defect, "incident_open": tr.open.astype(np.int8)}
+    if tr.resonances is not None:
+        out.update(resonance_arrays(tr.resonances))
+    return out
+
+
+def _below_asymptotes(case, lo: float, hi: float, side: str) -> str | None:
+    """The message for an energy range where no wave comes in from ``side`` (None if that is not the trouble)."""
+    import math
+
+    unit = case.units.energy
+    v_l, v_r = case.potential.asymptote(-1), case.potential.asymptote(1)
+    v_in, v_out = (v_l, v_r) if side == "left" else (v_r, v_l)
+    if not (math.isfinite(v_in) and hi <= v_in):
+        return None
+    other = "right" if side == "left" else "left"
+    if math.isfinite(v_out) and hi <= v_out or v_out == math.inf:
+        return (f"the range {lo:g}:{hi:g} {unit} lies below both asymptotes (left {v_l:g}, right {v_r:g} {unit}): "
+                f"no wave can come in from either side; give energies above {min(v_l, v_r):g} {unit}")
+    return (f"the range {lo:g}:{hi:g} {unit} lies below the {side} asymptote ({v_in:g} {unit}): no wave comes in from "
+            f"the {side}; give energies above it, or --incident {other}")
+
+
+def transmit(case, energies=None, *, incident: str | None = None, vary: str | Sequence[str] = (), output=None,
+             resume: bool = False, restart: bool = False, executor=None, workers: int | None = None,
+             cluster: str | None = None, scheduler: str | None = None, chunk: int | None = None, progress=None,
+             action: str | None = None) -> xr.Dataset:
+    """T(E) and R(E) of ``case`` (kind ``transmission``), every resonance in the range found and resolved.
+
+    ``energies``: ``"LO:HI"`` (an adaptive grid that samples every resonance
+    in the range, whatever its width) or ``"LO:HI:N"`` (exactly N even
+    energies); default: the case's ``[transport] energies``, else from just
+    above the incident asymptote to 1.5 times the structure's height.
+    ``incident``: ``"left"`` (default) or ``"right"``.  With ``vary``
+    (``"NAME=START:STOP:COUNT"``, as for :func:`sweep`) T(E) is computed at
+    every point of the swept params through the scan runner, on one common
+    grid: ``energies`` must then give a count (``"LO:HI:N"``); ``output``,
+    ``resume``, ``restart``, ``executor``, ``workers``, ``cluster``,
+    ``scheduler``, ``chunk`` and ``progress`` as for :func:`sweep`.
+    """
+    from fdsolver.continuum.options import energies_of, incident_of
+    from fdsolver.continuum.scan import fixed_grid, transmission_scan
+    from fdsolver.io.datasets import transmission_dataset
+
+    case = _case(case)
+    side = incident_of(case, incident)
+    lo, hi, n, src = energies_of(case, energies, side)
+    texts = _texts(vary)
+    if texts:
+        return _transmit_sweep(case, texts, (lo, hi, n, src), side, energies, output=output, resume=resume,
+                               restart=restart, executor=executor, workers=workers, cluster=cluster,
+                               scheduler=scheduler, chunk=chunk, progress=progress, action=action)
+    if resume or restart:
+        raise CaseError("--resume and --restart continue a sweep (--vary); one T(E) has no checkpoint",
+                        key="--resume" if resume else "--restart")
+
+    def run():
+        if n is None:
+            return transmission_scan(case.potential, lo, hi, incident=side, domain=case.domain)
+        return fixed_grid(case.potential, lo, hi, n, incident=side, domain=case.domain)
+
+    try:
+        tr = run()
+    except CaseError as err:
+        if err.key == "energies":  # name the option or table key the range came from, and both asymptotes
+            raise CaseError(_below_asymptotes(case, lo, hi, side) or err.message, file=src.file or case.path,
+                            key=src.key) from None
+        raise err.located(file=case.path) from None
+    grid = (f"{n} even energies" if n is not None else
+            f"adaptive: {tr.energy.size} energies (every pole in the range sampled uniformly in its phase)")
+    text = action or f"transmit {_where(case)}" + (f" --energies {energies}" if energies else "")
+    return transmission_dataset(case, transmission_values(tr), stamp(text), incident=side, method=tr.method,
+                                grid=grid, notes=tr.notes)
+
+
+def _transmit_sweep(case, texts, span, side, energies, *, output, resume, restart, executor, workers, cluster,
+                    scheduler, chunk, progress, action):
+    """:func:`transmit` over swept params (one common grid of N even energies) through the runner."""
+    from fdsolver.io.datasets import transmission_dataset
+    from fdsolver.io.specs import KINDS
+    from fdsolver.scans.axes import parse_axes
+    from fdsolver.scans.continuum import plan_transmission_sweep
+    from fdsolver.scans.runner import run
+
+    lo, hi, n, src = span
+    if n is None:
+        raise CaseError(f"a sweep needs one common energy grid: give a count, e.g. {lo:g}:{hi:g}:201",
+                        file=src.file or case.path, key=src.key)
+    msg = _below_asymptotes(case, lo, hi, side)
+    if msg:
+        raise CaseError(msg, file=src.file or case.path, key=src.key)
+    _scan_checks(output, resume, restart, chunk)
+    axes = parse_axes(texts, case, "--vary", reserved=KINDS["transmission"].names())
+    spec = plan_transmission_sweep(case, axes, dict(case.overrides), (lo, hi, n), side, chunk)
+    base = case.with_params(**spec.fixed) if spec.fixed else case
+    text = action or f"transmit {_where(case)}" + (f" --energies {energies}" if energies else "") + \
+        "".join(f" --vary {t}" for t in texts)
+
+    def finish(results, history):
+        return transmission_dataset(base, results.arrays(), history, incident=side,
+                                    method="exact per segment (constant and Airy cells) or nested cells with "
+                                           "Richardson; complex march from the transmitted side",
+                                    grid=f"{n} even energies at every point", notes=results.notes(), axes=axes)
+
+    return _run_on(executor, workers, cluster, scheduler,
+                   lambda ex: run(spec, ex, finish, action=text, output=output, resume=resume, restart=restart,
+                                  progress=progress))
+
+
+def resonances(case, window=None, *, max_width=None, vary: str | Sequence[str] = (), output=None,
+               resume: bool = False, restart: bool = False, executor=None, workers: int | None = None,
+               cluster: str | None = None, scheduler: str | None = None, chunk: int | None = None, progress=None,
+               action: str | None = None) -> xr.Dataset:
+    """Resonances (S-matrix poles E_r - i Gamma/2) and bound states in an energy window (kind ``resonances``).
+
+    ``window``: ``"LO:HI"`` or ``(lo, hi)`` (case energy unit); default: the
+    case's ``[transport] window``, else the lowest to the highest V of the
+    structure.  ``max_width``: the widest pole searched (default the window's
+    width).  With ``vary`` (``"NAME=START:STOP:COUNT"``, as for
+    :func:`sweep`) the window is searched at every point of the swept params
+    through the scan runner (``output``, ``resume``, ``restart``,
+    ``executor``, ``workers``, ``cluster``, ``scheduler``, ``chunk`` and
+    ``progress`` as for :func:`sweep`); resonances are numbered from the low
+    end of the window at each point.
+    """
+    from fdsolver.continuum.options import positive_energy, window_of
+    from fdsolver.io.datasets import resonances_dataset
+
+    case = _case(case)
+    if isinstance(window, (tuple, list)):
+        window = f"{window[0]!r}:{window[1]!r}"
+    lo, hi, _ = window_of(case, window)
+    width = positive_energy(case, "max_width", max_width, "--max-width")
+    texts = _texts(vary)
+    text = action or f"resonances {_where(case)}" + (f" --window {window}" if window else "") + \
+        "".join(f" --vary {t}" for t in texts)
+    if not texts:
+        if resume or restart:
+            raise CaseError("--resume and --restart continue a sweep (--vary); one window has no checkpoint",
+                            key="--resume" if resume else "--restart")
+        from fdsolver.continuum.resonances import find_resonances
+        from fdsolver.scans.continuum import resonance_arrays
+
+        res = _located(case, lambda: find_resonances(case.potential, (lo, hi), max_width=width, domain=case.domain))
+        values = {**resonance_arrays(res), "solved": 1, "resonance_count": len(res)}
+        notes = [n for n in res.notes if not n.startswith("no resonance")]  # the table says so itself
+        ds = resonances_dataset(case, values, stamp(text), window=(lo, hi), max_width=res.max_width, notes=notes)
+        if output is not None:
+            from fdsolver.io.archive import write_dataset
+
+            write_dataset(ds, output)
+        return ds
+    from fdsolver.io.specs import KINDS
+    from fdsolver.scans.axes import parse_axes
+    from fdsolver.scans.continuum import plan_resonance_sweep
+    from fdsolver.scans.runner import run
+
+    _scan_checks(output, resume, restart, chunk)
+    axes = parse_axes(texts, case, "--vary", reserved=KINDS["resonances"].names())
+    spec = plan_resonance_sweep(case, axes, dict(case.overrides), (lo, hi), width, chunk)
+    base = case.with_params(**spec.fixed) if spec.fixed else case
+
+    def finish(results, history):
+        return resonances_dataset(base, results.arrays(), history, window=(lo, hi),
+                                  max_width=width if width is not None else hi - lo, notes=results.notes(), axes=axes,
+                                  fixed=spec.fixed)
+
+    return _run_on(executor, workers, cluster, scheduler,
+                   lambda ex: run(spec, ex, finish, action=text, output=output, resume=resume, restart=restart,
+                                  progress=progress))
+
+
+def current(case, bias=None, *, temperature: float | None = None, fermi_level: float | None = None, output=None,
+            resume: bool = False, restart: bool = False, executor=None, workers: int | None = None,
+            cluster: str | None = None, scheduler: str | None = None, chunk: int | None = None, progress=None,
+            action: str | None = None) -> xr.Dataset:
+    """Tsu-Esaki current density J(V) of a layer stack under bias (kind ``current``), with peak and valley.
+
+    ``bias``: ``"LO:HI:N"`` (V), ``"V1,V2,..."`` or a sequence of values;
+    default the case's ``[transport] bias``.  ``temperature`` in K (default
+    300), ``fermi_level`` the emitter Fermi level in the case energy unit
+    (required: here or in ``[transport]``).  The bias points run through the
+    scan runner (executor options, checkpoint and ``progress`` as for
+    :func:`sweep`).
+    """
+    import numpy as np
+
+    from fdsolver.continuum.options import biases_of, fermi_level_of, temperature_of
+    from fdsolver.io.datasets import current_dataset
+    from fdsolver.scans.continuum import plan_current
+    from fdsolver.scans.runner import run
+
+    case = _case(case)
+    _scan_checks(output, resume, restart, chunk)
+    if bias is not None and not isinstance(bias, str):
+        values = np.atleast_1d(np.asarray(bias, dtype=float))
+        text_bias = ",".join(repr(float(v)) for v in values)
+    else:
+        values, text_bias = biases_of(case, bias)[0], bias
+    kt = temperature_of(case, temperature)
+    ef = fermi_level_of(case, fermi_level)
+    spec = plan_current(case, values, kt, ef, dict(case.overrides), chunk)
+    text = action or f"current {_where(case)}" + (f" --bias {text_bias}" if text_bias else "")
+
+    def finish(results, history):
+        return current_dataset(case, results.arrays(), history, temperature=kt, fermi_level=ef, notes=results.notes())
+
+    return _run_on(executor, workers, cluster, scheduler,
+                   lambda ex: run(spec, ex, finish, action=text, output=output, resume=resume, restart=restart,
+                                  progress=progress))

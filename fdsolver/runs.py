@@ -35,7 +35,14 @@ def solve_case(case: Case, notes: bool = True) -> Solution:
     (:func:`fdsolver.boundstates.nonparabolic.solve_energy_dependent`); the result then also carries each
     state's mass profile (``state_mass``).  ``notes``: put the case's own notes (unit system, lattice
     mismatch) first among the messages.
+
+    On the open line a potential that leaks (falls without bound at an end, or encloses a well by barriers above
+    the continuum threshold) also gets its quasi-bound states, with widths and lifetimes
+    (:mod:`fdsolver.continuum.openline`; those above a continuum threshold only with ``[solve] quasi_bound =
+    true``).
     """
+    from fdsolver.continuum.confinement import leaks  # numpy only: no start-up cost for plain solves
+
     not_periodic(case)
     try:
         with one_blas_thread():
@@ -43,6 +50,10 @@ def solve_case(case: Case, notes: bool = True) -> Solution:
                 from fdsolver.boundstates.nonparabolic import solve_energy_dependent
 
                 sol = solve_energy_dependent(case.potential, case.domain, case.settings, case.gaps, solve_potential)
+            elif leaks(case.potential, case.domain) and case.settings.quasi_bound is not False:
+                from fdsolver.continuum.openline import solve_open_line
+
+                sol = solve_open_line(case.potential, case.domain, case.settings)
             else:
                 sol = solve_potential(case.potential, case.domain, case.settings)
     except CaseError as err:  # the core does not know the file; name it here

@@ -164,8 +164,8 @@ def test_show_and_plot_through_the_archive(tmp_path, capsys):
 def test_result_too_big_is_refused_before_any_work(tmp_path, capsys):
     case = fdsolver.load_case(CASE)
     # psi alone is 4e6 points x 10 states x 401 x 8 bytes = 119.5 GiB; the other variables (with <x>, the spread, the
-    # probability inside 2 wells, psi's norm and the transitions to the 8 lowest states) add ~10 GiB
-    with pytest.raises(CaseError, match=r"about 129 GB .*4000000 points x 10 states x 401 x-points"):
+    # probability inside 2 wells, psi's norm, the transitions to the 8 lowest states and the widths) add ~11 GiB
+    with pytest.raises(CaseError, match=r"about 130 GB .*4000000 points x 10 states x 401 x-points"):
         sw.plan_sweep(case, sw.sweep_axes(["d=0.1:6:2000", "depth=50:150:2000"], case), save_psi=True)
     out = tmp_path / "big.nc"
     rc = main(["sweep", CASE, "--vary", "d=0.1:6:100000", "--vary", "depth=1:2:1000", "-o", str(out), "-q"])

@@ -75,6 +75,14 @@ class Solution:
     resolved_count: int  # states the box resolved below the window top
     whole_line_count: int  # box-independent number of bound states on the open line (-1: not counted)
     reference: float  # the energy the solver measured from (continuum threshold or lowest V)
+    # --- quasi-bound states on the open line (set by fdsolver.continuum.openline; None for bound states only,
+    # read as zero widths and infinite lifetimes).  Full width Gamma (case energy unit), its error, log10 of
+    # Gamma in the energy unit (finite where Gamma underflows a double), lifetime hbar/Gamma (s) and its log10.
+    width: np.ndarray | None = None
+    width_error: np.ndarray | None = None
+    log10_width: np.ndarray | None = None
+    lifetime: np.ndarray | None = None
+    log10_lifetime: np.ndarray | None = None
 
 
 def _unfold(sector, u: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

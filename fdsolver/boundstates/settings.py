@@ -28,3 +28,6 @@ class SolveSettings:
     grid: GridSettings = field(default_factory=GridSettings)
     bands: int | None = None
     wavevectors: int = 101
+    #: quasi-bound states above the continuum threshold (a well between higher barriers) are listed above the bound
+    #: states only when True; False also refuses a field as the bound-state solver does (continuum.openline)
+    quasi_bound: bool | None = None

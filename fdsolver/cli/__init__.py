@@ -17,21 +17,23 @@ import warnings
 from fdsolver._version import __version__
 from fdsolver.errors import CaseError, FdsolverError
 
-SUBCOMMAND_MODULES = ("solve", "delta", "sweep", "bands", "optics")
+SUBCOMMAND_MODULES = ("solve", "delta", "sweep", "continuum", "bands", "optics")
 
 
 class _Parser(argparse.ArgumentParser):
     """argparse that reports usage errors as one line and exit code 2."""
 
     def error(self, message):  # noqa: D102
-        self.exit(2, f"fdsolver: error: {message} (see 'fdsolver {self.prog.split()[-1]} --help')\n")
+        words = self.prog.split()[1:]  # the subcommand, if this is its parser ("fdsolver solve")
+        self.exit(2, f"fdsolver: error: {message} (see '{' '.join(['fdsolver', *words[-1:]])} --help')\n")
 
 
 def build_parser() -> argparse.ArgumentParser:
     import importlib
 
-    parser = _Parser(prog="fdsolver", description="Bound states of 1D potentials on adaptive finite-difference grids, and Bloch bands "
-                        "of periodic ones.")
+    parser = _Parser(prog="fdsolver", description="Bound states, transmission, resonances and tunnelling current of 1D "
+                     "potentials (adaptive finite-difference grids and exact transfer), Bloch bands of periodic ones, and "
+                     "optical transitions.")
     parser.add_argument("--version", action="version", version=f"fdsolver {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     for name in SUBCOMMAND_MODULES:

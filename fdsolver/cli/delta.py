@@ -12,7 +12,8 @@ def register(sub) -> None:
         "delta-check",
         help="how far zero-range point interactions are from finite narrow wells (width ladder or validity map)",
         description="Replace each point component by a finite well of the same strength and centroid and walk a "
-        "ladder of widths, or (--from-finite) compare a case of narrow wells with its zero-range model; "
+        "ladder of widths (on a background of layers, other components or walls: against the same case with exact "
+        "point interactions), or (--from-finite) compare a case of narrow wells with its zero-range model; "
         "--map NAME=LO:HI:N twice draws a validity map over two params ('width' = the replacement width).",
     )
     p.add_argument("case", help="case file (TOML)")
@@ -22,6 +23,11 @@ def register(sub) -> None:
     p.add_argument("--tolerance", type=float, metavar="REL", help="relative deviation the model must stay below (default 1e-2)")
     p.add_argument("--from-finite", action="store_true", default=None,
                    help="the case holds finite wells: compare them with their zero-range model")
+    p.add_argument("--transmission", action="store_true",
+                   help="compare scattering instead: T(E) and the resonances of the finite wells/barriers against "
+                        "the point interactions")
+    p.add_argument("--energies", metavar="LO:HI[:N]", help="energies of --transmission (case energy unit; default "
+                   "N = 201 from the incident asymptote to 1.5x the structure, or [transport] energies)")
     p.add_argument("--map", action="append", metavar="NAME=LO:HI:N[:log]", help="validity-map axis (give two)")
     p.add_argument("--set", action="append", metavar="NAME=VALUE", help="override a [params] entry (repeatable)")
     p.add_argument("-o", "--output", metavar="CHECK.nc", help="write the result to this NetCDF archive")
@@ -35,7 +41,7 @@ def register(sub) -> None:
 
 
 OPTIONS = (("--shape", "shape"), ("--widths", "widths"), ("--tolerance", "tolerance"), ("--from-finite", "from_finite"),
-           ("--map", "map"), ("--set", "set"))
+           ("--map", "map"), ("--set", "set"), ("--transmission", "transmission"), ("--energies", "energies"))
 
 
 def run_delta(args) -> int:
@@ -66,6 +72,8 @@ def run_delta(args) -> int:
     action = command("delta-check", args, OPTIONS)
     is_map = bool(read_options(case, **settings, maps=args.map).maps)  # --map, or the case's [delta_check] map
     check_outputs(outputs, inputs=case_inputs(case), checkpoint_of=args.output if is_map else None)
+    if is_map and (args.transmission or args.energies):
+        raise CaseError("--transmission compares scattering over a ladder of widths; drop --map", key="--map")
     figure: list = []
 
     def before_write(ds):  # the figure first: one that cannot be made leaves no archive behind
@@ -97,7 +105,8 @@ def run_delta(args) -> int:
             bar = ProgressBar("delta-check widths", args.quiet)
             bar.start(None, "")  # the number of widths is known only once the ladder is planned
             try:
-                ds = delta_check(case, **settings, progress=bar, action=action)
+                ds = delta_check(case, **settings, transmission=args.transmission, energies=args.energies, progress=bar,
+                                 action=action)
             finally:
                 bar.close()
             before_write(ds)

@@ -332,7 +332,7 @@ def case_from_dict(data: Mapping[str, Any], *, path=None, text=None, overrides=N
     potential = Potential(shapes, units, mass, stack)
     domain = _domain(data, params, potential, file)
     settings = _settings(data, params, file)
-    for section in ("delta_check", "sweep"):
+    for section in ("delta_check", "sweep", "transport"):
         check_section(data, section, file)
     if text is None:
         text = dumps_case(raw_data)
@@ -496,7 +496,8 @@ def _settings(data, params, file) -> SolveSettings:
         window = (lo, hi)
     bands = F.whole(table, "bands", file, "solve", None, 1, 10000)
     wavevectors = F.whole(table, "wavevectors", file, "solve", 101, 2, 100000)
-    return SolveSettings(tol, max_states, window, mem, levels, 3, GridSettings(), bands, wavevectors)
+    quasi = F.flag(table, "quasi_bound", file, "solve")
+    return SolveSettings(tol, max_states, window, mem, levels, 3, GridSettings(), bands, wavevectors, quasi_bound=quasi)
 
 
 # ---------------------------------------------------------------- writing

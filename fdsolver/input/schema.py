@@ -47,6 +47,7 @@ TOP: dict[str, Key] = {
     "carrier": Key('"electron", "heavy_hole" or "light_hole" (default electron)', TEXT),
     "nonparabolicity": Key("energy-dependent two-band (Kane) mass, solved per state", BOOL),
     "materials_file": Key("a materials data file of your own, added to the built-in library", TEXT),
+    "transport": Key("table [transport] (transmission, resonances and current settings)", TABLE),
 }
 
 #: keys every [[potential]] component may have besides its shape's own
@@ -83,6 +84,9 @@ SOLVE: dict[str, Key] = {
     "max_levels": Key("most nested grid levels", COUNT),
     "bands": Key("number of Bloch bands from the lowest (periodic; default 10, delta-check 4)", COUNT),
     "wavevectors": Key("wavevectors q on [0, pi/L], both ends included (periodic; default 101)", COUNT),
+    "quasi_bound": Key("true: also list the quasi-bound states above the continuum threshold (a well between higher "
+                       "barriers) above the bound states; false: not even in a field (refused, use hard walls); default: only in a "
+                       "field", BOOL),
 }
 
 SWEEP: dict[str, Key] = {
@@ -102,6 +106,16 @@ DELTA_CHECK: dict[str, Key] = {
     "from_finite": Key("compare the case's own narrow wells with their point model", BOOL),
 }
 
+TRANSPORT: dict[str, Key] = {
+    "energies": Key('"LO:HI" (adaptive grid) or "LO:HI:N" (N even energies) of transmit', TEXT),
+    "incident": Key('"left" (default) or "right": the side the wave comes from', TEXT),
+    "window": Key("[low, high]: the energy window of resonances", ENERGY),
+    "max_width": Key("widest resonance searched (default: the window's width)", ENERGY),
+    "bias": Key('"LO:HI:N" biases of current, in V', TEXT),
+    "temperature": Key("temperature of the current's Fermi-Dirac supply, K (default 300)", NUMBER),
+    "fermi_level": Key("emitter Fermi level of the current", ENERGY),
+}
+
 #: section name -> its keys ("" is the top level)
 SECTIONS: dict[str, dict[str, Key]] = {
     "": TOP,
@@ -110,6 +124,7 @@ SECTIONS: dict[str, dict[str, Key]] = {
     "solve": SOLVE,
     "sweep": SWEEP,
     "delta_check": DELTA_CHECK,
+    "transport": TRANSPORT,
 }
 
 

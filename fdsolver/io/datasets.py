@@ -15,6 +15,9 @@ adds the kind's global attributes:
 :func:`bands_dataset`  Bloch bands of a periodic case (:class:`fdsolver.bloch.study.BandStudy`)
 :func:`band_sweep_dataset`  band edges over a parameter sweep (:class:`fdsolver.scans.bandsweep.BandResults`)
 :func:`comb_check_dataset`  a delta comb against finite lattices (:class:`fdsolver.zerorange.combcheck.CombCheck`)
+:func:`transmission_dataset`  T(E), R(E) and the poles in the range
+:func:`resonances_dataset`  resonances of a window (or against swept params)
+:func:`current_dataset`  Tsu-Esaki J(V) with peak and valley
 =====================  =====================================================
 
 :func:`check` is the reader's side: it refuses a Dataset whose variables do
@@ -182,7 +185,7 @@ def solve_record(case, sol, history: str) -> Record:
     Dataset): coordinates x, state, region (with region_name), level; see :data:`specs.SOLVE`."""
     attrs = base_attrs(case, "solve", history)
     attrs.update({
-        "continuum_threshold": float(sol.threshold) if math.isfinite(sol.threshold) else np.inf,
+        "continuum_threshold": float(sol.threshold) if math.isfinite(sol.threshold) else (np.inf if sol.threshold > 0 else -np.inf),
         "box_left": sol.box[0],
         "box_right": sol.box[1],
         "boundary": sol.boundary,
@@ -262,6 +265,37 @@ def ladder_dataset(case, lad, history: str) -> xr.Dataset:
         "well_shapes": ", ".join(w.kind for w in lad.models[0].wells),
     })
     return build("delta_check", lad, case.units, attrs)
+
+
+
+def background_dataset(case, chk, history: str) -> xr.Dataset:
+    """The archive of a zero-range check on a background: coordinates width, state and point."""
+    attrs = base_attrs(case, "delta_background", history)
+    attrs.update({
+        "delta_mode": "replace_on_background",
+        "replacement_shape": chk.shape,
+        "tolerance": float(chk.tolerance),
+        "reference_energy": float(chk.reference),
+        "reference_note": "deviation is relative to |energy_limit - reference_energy|: the continuum threshold, or "
+                          "the lowest V where every state is bound",
+        "messages": "\n".join(chk.notes),
+    })
+    return build("delta_background", chk, case.units, attrs)
+
+
+
+def scatter_check_dataset(case, chk, history: str) -> xr.Dataset:
+    """The archive of a zero-range check of scattering: coordinates width, energy, resonance and point."""
+    attrs = base_attrs(case, "delta_transmission", history)
+    attrs.update({
+        "delta_mode": "transmission",
+        "replacement_shape": chk.shape,
+        "tolerance": float(chk.tolerance),
+        "reference": chk.reference,
+        "incident_side": "left",
+        "messages": "\n".join(chk.notes),
+    })
+    return build("delta_transmission", chk, case.units, attrs)
 
 
 MESSAGES_SHOWN = 200
@@ -352,6 +386,61 @@ def comb_check_dataset(case, check, history: str) -> xr.Dataset:
     return build("comb_check", check, case.units, attrs)
 
 
+# ------------------------------------------------------------ the continuum
+def _notes_attr(notes) -> str:
+    notes = list(dict.fromkeys(notes))
+    more = [f"... and {len(notes) - NOTES_SHOWN} more"] if len(notes) > NOTES_SHOWN else []
+    return "\n".join(notes[:NOTES_SHOWN] + more)
+
+
+def transmission_dataset(case, values: dict, history: str, *, incident: str, method: str, grid: str, notes=(),
+                         axes=()) -> xr.Dataset:
+    """The archive of T(E): coordinate ``energy`` (and ``resonance`` for the poles in its range)."""
+    attrs = base_attrs(case, "transmission", history)
+    attrs.update({
+        "swept_params": json.dumps([a.name for a in axes]),
+        "incident_side": incident,
+        "method": method,
+        "energy_grid": grid,
+        "normalisation": "T = (flux out) / (flux in) = (k_out/m_out) |t|^2 / (k_in/m_in) for plane-wave leads "
+                         "(BenDaniel-Duke matching); R likewise",
+        "notes": _notes_attr(notes),
+    })
+    return build("transmission", values, case.units, attrs, axes=axes)
+
+
+def resonances_dataset(case, values: dict, history: str, *, window, max_width, notes=(), axes=(),
+                       fixed=None) -> xr.Dataset:
+    """The archive of resonances in a window: dimension ``resonance`` (and the swept params of a sweep)."""
+    attrs = base_attrs(case, "resonances", history)
+    attrs.update({
+        "swept_params": json.dumps([a.name for a in axes]),
+        "window": [float(window[0]), float(window[1])],
+        "max_width": float(max_width),
+        "fixed_params": json.dumps(fixed or {}, sort_keys=True),
+        "method": "zeros of the Jost function (S-matrix poles E_r - i Gamma/2): argument-principle count on "
+                  "rectangles, Newton from both edges; real-axis formula for narrow poles",
+        "notes": _notes_attr(notes),
+    })
+    return build("resonances", values, case.units, attrs, axes=axes)
+
+
+def current_dataset(case, values: dict, history: str, *, temperature: float, fermi_level: float,
+                    notes=()) -> xr.Dataset:
+    """The archive of J(V): coordinate ``bias`` (and ``resonance`` for the poles at each bias)."""
+    attrs = base_attrs(case, "current", history)
+    attrs.update({
+        "temperature_K": float(temperature),
+        "emitter_fermi_level": float(fermi_level),
+        "emitter_fermi_level_units": case.units.energy,
+        "emitter_band_edge": float(case.potential.asymptote(-1)),
+        "model": "Tsu-Esaki: J = (e m* / (2 pi^2 hbar^3)) int T(E) S(E) dE, Fermi-Dirac supply S; the bias drops "
+                 "linearly across the inner layers; transverse mass = the emitter layer's",
+        "notes": _notes_attr(notes),
+    })
+    return build("current", values, case.units, attrs)
+
+
 # ------------------------------------------------------------ reading
 def axes_of(ds: xr.Dataset, kind: Kind, path) -> tuple[str, ...]:
     """The scanned axes of an archive of ``kind`` (what :data:`PARAMS` stands for; none for a solve)."""
@@ -361,7 +450,7 @@ def axes_of(ds: xr.Dataset, kind: Kind, path) -> tuple[str, ...]:
         names = json.loads(ds.attrs[kind.axes_attr])
     except (KeyError, ValueError, TypeError, RecursionError):
         names = None
-    if not isinstance(names, list) or not names or not all(isinstance(n, str) for n in names):
+    if not isinstance(names, list) or not (names or kind.axes_optional) or not all(isinstance(n, str) for n in names):
         raise ArchiveError(f"archive of kind '{kind.name}' has no readable {kind.axes_attr} attribute; it is damaged "
                            "or was not written by fdsolver", file=str(path))
     return tuple(names)

@@ -82,6 +82,11 @@ def _pad(values, n: int, fill=np.nan) -> np.ndarray:
     return out
 
 
+def _zeros_if_none(values, n: int, fill: float = 0.0) -> np.ndarray:
+    """``values``, or ``fill`` for each of n states (a solve of bound states only has no widths)."""
+    return np.full(n, fill) if getattr(values, "__len__", None) is None else np.asarray(values, float)
+
+
 def _count(name: str) -> Callable[[Any], np.ndarray]:
     """A coordinate 0, 1, ... as long as the attribute ``name`` of the result."""
     return lambda r: np.arange(len(getattr(r, name)))
@@ -152,6 +157,16 @@ SOLVE = (
     Var("splitting_is_bound", ("state",), "i1", "1 where the splitting is below double precision: splitting is "
         "only an upper bound", flags=("value", "upper_bound"),
         source=lambda r: _pad(np.asarray(r.splitting_bound, dtype=np.int8), r.energy.size, 0)),
+    Var("width", ("state",), "f8", "full width Gamma of a quasi-bound state (0 for a true bound state)", ENERGY,
+        source=lambda r: _zeros_if_none(r.width, r.energy.size)),
+    Var("width_error", ("state",), "f8", "estimated absolute error of width", ENERGY,
+        source=lambda r: _zeros_if_none(r.width_error, r.energy.size)),
+    Var("log10_width", ("state",), "f8", "log10 of width in the energy unit (finite where it underflows a double; "
+        "-inf for a true bound state)", source=lambda r: _zeros_if_none(r.log10_width, r.energy.size, -np.inf)),
+    Var("lifetime", ("state",), "f8", "lifetime hbar / width (inf for a true bound state)", "time",
+        source=lambda r: _zeros_if_none(r.lifetime, r.energy.size, np.inf)),
+    Var("log10_lifetime", ("state",), "f8", "log10 of lifetime in s (finite beyond the double range)",
+        source=lambda r: _zeros_if_none(r.log10_lifetime, r.energy.size, np.inf)),
     Var("psi", ("state", "x"), "f8", "normalised wavefunction times sqrt(length unit)", note=PSI_NOTE, required=True),
     Var("potential", ("x",), "f8", "potential energy (dual-cell average at interior nodes)", ENERGY, required=True),
     Var("mass", ("x",), "f8", "effective mass in units of the free-electron mass", MASS),
@@ -194,6 +209,10 @@ SWEEP = (
         flags=("no_such_state", "not_converged", "converged"), flag_start=-1),
     Var("nodes", _ST, "i4", "number of nodes of the wavefunction (-1: no such state)"),
     Var("parity", _ST, "i1", "mirror parity (+1 even, -1 odd, 0 no mirror symmetry or no state)"),
+    Var("level_width", _ST, "f8", "full width Gamma of a quasi-bound state (0 for a true bound state; NaN: no state)",
+        ENERGY),
+    Var("log10_level_width", _ST, "f8", "log10 of level_width in the energy unit (finite where it underflows a double; "
+        "-inf for a true bound state)"),
     Var("bound_states", (PARAMS,), "i4",
         "number of bound states on the whole open line (zero-energy phase count, no box); -1 where every state is bound"),
     Var("resolved_states", (PARAMS,), "i4", "number of states the box solve returned"),
@@ -611,6 +630,26 @@ INTERBAND_ATTRS = {
     "valence_band_reference": Attr(NUMBER), "notes": Attr(), "overlap_note": Attr(),
     "heavy_hole_layer_masses": Attr(NUMBERS), "light_hole_layer_masses": Attr(NUMBERS),
 }
+TRANSMISSION_ATTRS = {
+    "swept_params": Attr(NAMES), "incident_side": Attr(choices=("left", "right")), "method": Attr(),
+    "energy_grid": Attr(), "normalisation": Attr(), "notes": Attr(),
+}
+RESONANCES_ATTRS = {
+    "swept_params": Attr(NAMES), "window": Attr(PAIR), "max_width": Attr(NUMBER), "fixed_params": Attr(PLAIN),
+    "method": Attr(), "notes": Attr(),
+}
+CURRENT_ATTRS = {
+    "temperature_K": Attr(NUMBER), "emitter_fermi_level": Attr(NUMBER), "emitter_fermi_level_units": Attr(),
+    "emitter_band_edge": Attr(NUMBER), "model": Attr(), "notes": Attr(),
+}
+BACKGROUND_ATTRS = {
+    "delta_mode": Attr(), "replacement_shape": Attr(), "tolerance": Attr(NUMBER), "messages": Attr(),
+    "reference_energy": Attr(NUMBER), "reference_note": Attr(),
+}
+SCATTER_CHECK_ATTRS = {
+    "delta_mode": Attr(), "replacement_shape": Attr(), "tolerance": Attr(NUMBER), "messages": Attr(),
+    "incident_side": Attr(choices=("left", "right")), "reference": Attr(),
+}
 PERIODIC_ATTRS = {"boundary": Attr(choices=("periodic",)), "period": Attr(NUMBER), "period_start": Attr(NUMBER)}
 BANDS_ATTRS = {
     **PERIODIC_ATTRS, "method": Attr(), "tolerance": Attr(NUMBER), "zone_energy": Attr(NUMBER),
@@ -684,6 +723,147 @@ INTERBAND = (
 )
 
 
+# ------------------------------------------------------------ the continuum
+TIME, VOLTAGE, CURRENT_DENSITY, TEMPERATURE = "time", "voltage", "current_density", "temperature"
+_R = PARAMS, "resonance"
+_E = PARAMS, "energy"
+
+
+def resonance_rows(dims: tuple[str, ...], required: bool) -> tuple[Var, ...]:
+    """The per-resonance variables over ``dims`` (the resonances of a window, or of T(E)'s range)."""
+    return (
+        Var("resonance", ("resonance",), "i4", "resonance number, counted from the low end of the window (0 = lowest)",
+            coord=True, required=required),
+        Var("resonance_energy", dims, "f8", "resonance energy E_r (S-matrix pole at E_r - i Gamma/2); NaN where "
+            "there is no such resonance", ENERGY, required=required),
+        Var("resonance_energy_error", dims, "f8", "estimated absolute error of resonance_energy", ENERGY),
+        Var("resonance_width", dims, "f8", "full width Gamma of the resonance (0 for a true bound state)", ENERGY,
+            required=required),
+        Var("resonance_width_error", dims, "f8", "estimated absolute error of resonance_width", ENERGY),
+        Var("log10_resonance_width", dims, "f8", "log10 of resonance_width in the energy unit (finite where Gamma "
+            "underflows a double)"),
+        Var("lifetime", dims, "f8", "lifetime hbar / Gamma (inf for a true bound state)", TIME, required=required),
+        Var("lifetime_error", dims, "f8", "estimated absolute error of lifetime", TIME),
+        Var("log10_lifetime", dims, "f8", "log10 of lifetime in s (finite beyond the double range)"),
+        Var("bound", dims, "i1", "true bound state (a real pole below every threshold) rather than a resonance",
+            flags=("resonance", "bound_state")),
+    )
+
+
+TRANSMISSION = (
+    Var("energy", ("energy",), "f8", "energy of the incident wave", ENERGY, coord=True, required=True),
+    Var("transmission", _E, "f8", "transmission probability T (flux ratio, BenDaniel-Duke)", required=True),
+    Var("transmission_error", _E, "f8", "estimated absolute error of transmission", required=True),
+    Var("reflection", _E, "f8", "reflection probability R (flux ratio)", required=True),
+    Var("log10_transmission", _E, "f8", "log10 T (finite where T underflows a double)"),
+    Var("unitarity_defect", _E, "f8", "|R + T - 1| where the incident channel is open (0 elsewhere)"),
+    Var("incident_open", _E, "i1", "1 where a wave can come in from the incident side",
+        flags=("closed", "open")),
+) + resonance_rows(_R, False)
+
+RESONANCES = resonance_rows(_R, True) + (
+    Var("solved", (PARAMS,), "i1", "1 if the point was solved, 0 if its case was invalid"),
+    Var("resonance_count", (PARAMS,), "i4", "number of poles found in the window"),
+)
+
+CURRENT = (
+    Var("bias", ("bias",), "f8", "applied bias (emitter Fermi level minus collector Fermi level, over e)", VOLTAGE,
+        coord=True, required=True),
+    Var("current_density", ("bias",), "f8", "Tsu-Esaki current density, emitter to collector", CURRENT_DENSITY,
+        required=True),
+    Var("current_density_error", ("bias",), "f8", "estimated absolute error of current_density", CURRENT_DENSITY,
+        required=True),
+    Var("solved", ("bias",), "i1", "1 if the bias point was solved"),
+    Var("transmission_evaluations", ("bias",), "i4", "energies at which T(E) was computed for the integral"),
+    Var("resonance", ("resonance",), "i4", "resonance number at each bias, from the low end of the transport window",
+        coord=True),
+    Var("resonance_energy", ("bias", "resonance"), "f8", "resonance energy of the biased structure (NaN: none)",
+        ENERGY),
+    Var("resonance_width", ("bias", "resonance"), "f8", "full width of the resonance", ENERGY),
+    Var("peak_bias", (), "f8", "bias of the resonant peak current (the local maximum followed by the deepest drop)",
+        VOLTAGE),
+    Var("peak_current_density", (), "f8", "current density at peak_bias", CURRENT_DENSITY),
+    Var("valley_bias", (), "f8", "bias of the valley current (the minimum after the peak)", VOLTAGE),
+    Var("valley_current_density", (), "f8", "current density at valley_bias", CURRENT_DENSITY),
+)
+
+
+_BS, _BP = ("width", "state"), ("width", "point")
+#: zero-range check on a background (fdsolver.zerorange.background): the reference is the case with exact point terms
+DELTA_BACKGROUND = (
+    Var("width", ("width",), "f8", WIDTH_LONG_NAME, LENGTH, coord=True, source="widths", required=True),
+    Var("state", ("state",), "i4", "state index = Sturm number (0 = ground state)", coord=True,
+        source=lambda c: np.arange(c.energy_limit.size)),
+    Var("point", ("point",), "i4", "point index, left to right", coord=True,
+        source=lambda c: np.arange(c.positions.size)),
+    Var("energy", _BS, "f8", "energy of the case with the points replaced by finite-width wells", ENERGY,
+        required=True),
+    Var("energy_error", _BS, "f8", "estimated absolute error of energy", ENERGY, required=True),
+    Var("energy_limit", ("state",), "f8", "energy of the case with exact point interactions (finite-difference "
+        "solve, derivative jump at a node)", ENERGY, required=True),
+    Var("energy_limit_error", ("state",), "f8", "estimated absolute error of energy_limit", ENERGY),
+    Var("energy_deviation", _BS, "f8", "energy - energy_limit", ENERGY, required=True),
+    Var("deviation", _BS, "f8", "relative deviation (energy - energy_limit) / |energy_limit - reference_energy|",
+        required=True),
+    Var("resolved", _BS, "i1", "1 if energy_error + energy_limit_error <= |energy_deviation| / 10",
+        flags=("not_resolved", "resolved"), source=lambda c: c.resolved.astype(np.int8)),
+    Var("predicted_deviation", _BS, "f8", "first-order relative deviation sum_p m alpha_p^2 psi(x_p)^2 l_p / "
+        "(2 hbar^2/2m_e) / |energy_limit - reference_energy| (l_p: mean distance over the well)", source="predicted"),
+    Var("law_coefficient", ("state",), "f8", "fitted a in deviation = a * width on the narrowest widths",
+        INVERSE_LENGTH),
+    Var("law_exponent", ("state",), "f8", "fitted log-log slope of |deviation| against width (1: first order)"),
+    Var("validity_width", ("state",), "f8", "largest width with |deviation| below the tolerance", LENGTH,
+        source="validity", required=True),
+    Var("validity_flag", ("state",), "i1", "how validity_width was found", flags=_validity_flags),
+    Var("states_returned", ("width",), "i4", "states the finite-width solve returned", source="count"),
+    Var("point_name", ("point",), "str", "name of the point component", None, source="names", required=True),
+    Var("point_center", ("point",), "f8", "position of the point", LENGTH, source="positions", required=True),
+    Var("point_strength", ("point",), "f8", "strength alpha of the point (-alpha delta(x - x_j); > 0 attracts)",
+        STRENGTH, source="strengths", required=True),
+    Var("decay_length", ("point",), "f8", "1/kappa = 2 (hbar^2/2m_e) / (m |alpha|): the decay length of the point "
+        "alone", LENGTH),
+    Var("width_in_decay_lengths", _BP, "f8", "width / decay_length"),
+    Var("replacement_depth", _BP, "f8", "depth of the replacement well (its -V at the centre; < 0: a barrier's "
+        "height)", ENERGY, source="depth"),
+)
+
+_TW, _TR = ("width", "energy"), ("width", "resonance")
+#: zero-range check for scattering (fdsolver.zerorange.scattercheck)
+DELTA_TRANSMISSION = (
+    Var("width", ("width",), "f8", WIDTH_LONG_NAME, LENGTH, coord=True, source="widths", required=True),
+    Var("energy", ("energy",), "f8", "energy of the incident wave", ENERGY, coord=True, required=True),
+    Var("resonance", ("resonance",), "i4", "resonance of the point model, by energy", coord=True,
+        source=lambda c: np.arange(c.resonance_energy_limit.size)),
+    Var("point", ("point",), "i4", "point index, left to right", coord=True,
+        source=lambda c: np.arange(c.positions.size)),
+    Var("transmission", _TW, "f8", "transmission T of the finite-width wells or barriers", required=True),
+    Var("transmission_error", _TW, "f8", "estimated absolute error of transmission"),
+    Var("transmission_limit", ("energy",), "f8", "transmission of the point interactions", required=True),
+    Var("transmission_deviation", ("width",), "f8", "largest |transmission - transmission_limit| over the energies",
+        required=True),
+    Var("resonance_energy_limit", ("resonance",), "f8", "resonance energy E_r of the point model", ENERGY),
+    Var("resonance_width_limit", ("resonance",), "f8", "full width Gamma of the point model's resonance", ENERGY),
+    Var("resonance_energy", _TR, "f8", "resonance energy of the finite model (nearest pole)", ENERGY),
+    Var("resonance_width", _TR, "f8", "full width of the finite model's resonance", ENERGY),
+    Var("resonance_energy_deviation", _TR, "f8", "resonance_energy - resonance_energy_limit", ENERGY),
+    Var("resonance_relative_shift", _TR, "f8", "resonance_energy_deviation / (resonance_energy_limit - incident "
+        "asymptote)"),
+    Var("resonance_width_deviation", _TR, "f8", "resonance_width / resonance_width_limit - 1"),
+    Var("law_coefficient", (), "f8", "fitted a in transmission_deviation = a * width on the narrowest widths",
+        INVERSE_LENGTH),
+    Var("law_exponent", (), "f8", "fitted log-log slope of transmission_deviation against width (1: first order)"),
+    Var("validity_width", (), "f8", "largest width up to which transmission_deviation and every relative resonance "
+        "shift and width change stay below the tolerance", LENGTH, source="validity", required=True),
+    Var("point_name", ("point",), "str", "name of the point component", None, source="names", required=True),
+    Var("point_center", ("point",), "f8", "position of the point", LENGTH, source="positions", required=True),
+    Var("point_strength", ("point",), "f8", "strength alpha of the point (-alpha delta(x - x_j); > 0 attracts)",
+        STRENGTH, source="strengths", required=True),
+    Var("decay_length", ("point",), "f8", "2 (hbar^2/2m_e) / (m |alpha|): the length scale of the point", LENGTH),
+    Var("width_in_decay_lengths", ("width", "point"), "f8", "width / decay_length"),
+    Var("replacement_depth", ("width", "point"), "f8", "depth of the replacement well (its -V at the centre; < 0: a "
+        "barrier's height)", ENERGY, source="depth"),
+)
+
 @dataclass(frozen=True)
 class Kind:
     """One archive kind: its ``fdsolver_kind`` attribute, the ``delta_mode`` values that select it, its rows and
@@ -695,6 +875,8 @@ class Kind:
     modes: tuple[str, ...] = ()
     #: global attribute holding the JSON list of the scanned axes (what PARAMS stands for)
     axes_attr: str = ""
+    #: the scanned axes may be none (a study that is also run on its own, without --vary)
+    axes_optional: bool = False
     attrs: dict = field(default_factory=dict)
 
     def attributes(self) -> dict[str, Attr]:
@@ -721,6 +903,14 @@ KINDS: dict[str, Kind] = {
     "comb_check": Kind("comb_check", "comb_check", COMB_CHECK, attrs=COMB_ATTRS),
     "absorption": Kind("absorption", "absorption", ABSORPTION, attrs=ABSORPTION_ATTRS),
     "interband": Kind("interband", "interband", INTERBAND, attrs=INTERBAND_ATTRS),
+    "transmission": Kind("transmission", "transmission", TRANSMISSION, axes_attr="swept_params", axes_optional=True,
+                         attrs=TRANSMISSION_ATTRS),
+    "resonances": Kind("resonances", "resonances", RESONANCES, axes_attr="swept_params", axes_optional=True,
+                       attrs=RESONANCES_ATTRS),
+    "current": Kind("current", "current", CURRENT, attrs=CURRENT_ATTRS),
+    "delta_background": Kind("delta_background", "delta_background", DELTA_BACKGROUND, attrs=BACKGROUND_ATTRS),
+    "delta_transmission": Kind("delta_transmission", "delta_transmission", DELTA_TRANSMISSION,
+                               attrs=SCATTER_CHECK_ATTRS),
 }
 #: the values of the global attribute fdsolver_kind
 ARCHIVE_KINDS = tuple(dict.fromkeys(k.fdsolver_kind for k in KINDS.values()))

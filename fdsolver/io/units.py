@@ -2,7 +2,8 @@
 
 Dimensions are the strings of :mod:`fdsolver.model.shapes` (``"length"``,
 ``"energy"``, ``"energy*length"``, ``"energy/length"``, ``"1/length"``,
-``"mass"``, ``"1"``): products and quotients of ``length``, ``energy``,
+``"mass"``, ``"1"``, and the SI quantities ``"time"``, ``"voltage"``,
+``"current_density"``, ``"temperature"``): products and quotients of ``length``, ``energy``,
 ``mass`` and ``1``.  In a unit system (:mod:`fdsolver.model.units`) each
 becomes a pair
 
@@ -20,7 +21,9 @@ from __future__ import annotations
 import re
 
 #: plain names and UDUNITS spellings of the one-word dimensions that need no unit system
-_FIXED = {"1": ("1", "1"), "mass": ("1", "m_e"), "temperature": ("K", "K")}
+_FIXED = {"1": ("1", "1"), "mass": ("1", "m_e"),
+          # SI quantities of the continuum studies (lifetimes, biases, current densities, temperatures)
+          "time": ("s", "s"), "voltage": ("V", "V"), "current_density": ("A m-2", "A/m^2"), "temperature": ("K", "K")}
 _TOKEN = re.compile(r"\s*([*/])\s*")
 
 

@@ -166,3 +166,15 @@ def cells(pot, layout: Layout, level: int, e_ref: float):
         i -= (pos - edges[i - 1]) < (edges[i] - pos)  # the nearer edge (points are features, so exactly on one)
         np.add.at(jump, i, alpha)
     return edges, mid, jump
+
+
+def is_piecewise_linear(pot) -> bool:
+    """True if V is linear between the features: steps, points and stacks plus uniform fields and linear tables.
+
+    Such potentials are solved exactly per segment by the complex march of
+    :mod:`fdsolver.numerics.waves` (Airy solutions summed as series).
+    """
+    from fdsolver.model.shapes import Linear, Table
+
+    return all(getattr(s, "piecewise_constant", False) or isinstance(s, Linear)
+               or (isinstance(s, Table) and s.interpolation == "linear") for s in pot.shapes)

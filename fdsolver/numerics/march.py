@@ -34,6 +34,10 @@ signs and node counts are exact.
 
 Units: lengths in the case length unit, k2 in 1/length^2, u in energy * length^-1
 times psi's unit (any consistent scale).
+
+The same state carried at complex energy, with complex (psi, u), linear
+(Airy) cells and both directions, for transmission and S-matrix poles, is
+:mod:`fdsolver.numerics.waves`.
 """
 
 from __future__ import annotations

@@ -21,6 +21,11 @@ PLOTTERS = {
     "comb_check": "fdsolver.plot.bands:plot_comb_check",
     "absorption": "fdsolver.plot.optics:plot_absorption",
     "interband": "fdsolver.plot.optics:plot_interband",
+    "transmission": "fdsolver.plot.continuum:plot_transmission",
+    "resonances": "fdsolver.plot.continuum:plot_resonances",
+    "current": "fdsolver.plot.continuum:plot_current",
+    "delta_background": "fdsolver.plot.background:plot_background",
+    "delta_transmission": "fdsolver.plot.background:plot_scatter_check",
 }
 
 

@@ -26,6 +26,25 @@ F_FINALS = 4
 F_FLOOR = 1e-6
 
 
+def _widths_panel(ax, ds, name, x) -> None:
+    """Widths of the quasi-bound states against the param on a log axis (log10 of the width where it underflows)."""
+    w, l10 = ds.level_width.values, ds.log10_level_width.values
+    eu = units_of(ds, "level_width")
+    use_log10 = bool(np.any(np.isfinite(l10) & (l10 < -290)))
+    for k, s in enumerate(ds.state.values):
+        y = l10[:, k] if use_log10 else w[:, k]
+        ok = np.isfinite(l10[:, k]) & (np.isfinite(y))
+        if not use_log10:
+            ok &= y > 0
+        if ok.any():
+            ax.plot(x[ok], y[ok], marker="." if x.size <= 200 else None, lw=1.2, color=f"C{k % 10}",
+                    label=f"state {int(s)}")
+    if not use_log10:
+        ax.set_yscale("log")
+    ax.set_ylabel(f"log10(width / {eu})" if use_log10 else f"width [{eu}] (quasi-bound)")
+    ax.grid(True, which="major", lw=0.3, alpha=0.5)
+
+
 def _log(ds, name) -> bool:
     return ds[name].attrs.get("spacing") == "log"
 
@@ -61,6 +80,8 @@ def _panels(ds, split) -> list[str]:
         out.append("f")
     if np.any(np.isfinite(split) & (split > 0)):
         out.append("splitting")
+    if "log10_level_width" in ds and np.isfinite(ds.log10_level_width.values).any():
+        out.append("width")  # quasi-bound states (a field): their widths
     return out
 
 
@@ -69,7 +90,8 @@ def _plot_line(ds, name, path) -> None:
     eu = units_of(ds, "energy")
     split = ds["tunnel_splitting"].values if "tunnel_splitting" in ds else np.array([np.nan])
     panels = _panels(ds, split)
-    heights = {"energy": 3.0, "mean_x": 1.5, "f": 1.5, "splitting": 1.4}
+    has_width = "width" in panels
+    heights = {"energy": 3.0, "mean_x": 1.5, "f": 1.5, "splitting": 1.4, "width": 1.4}
     fig, axes = figure(len(panels), 1, width=8.5, height=1.3 + 1.35 * sum(heights[p] for p in panels), sharex=True,
                        gridspec_kw={"height_ratios": [heights[p] for p in panels]}) \
         if len(panels) > 1 else figure(width=8.5, height=5.0)
@@ -137,6 +159,8 @@ def _plot_line(ds, name, path) -> None:
             ax2.set_yscale("log")
         ax2.set_ylabel(label(ds, "tunnel_splitting", "E1 - E0"))
         _markers(ax2, ds, name)
+    if has_width:
+        _widths_panel(by["width"], ds, name, x)
     for a in axes:
         if _log(ds, name):
             a.set_xscale("log")

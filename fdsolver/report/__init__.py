@@ -20,6 +20,11 @@ FORMATTERS = {
     "comb_check": "fdsolver.report.bands:format_comb_check",
     "absorption": "fdsolver.report.optics:format_absorption",
     "interband": "fdsolver.report.optics:format_interband",
+    "transmission": "fdsolver.report.continuum:format_transmission",
+    "resonances": "fdsolver.report.continuum:format_resonances",
+    "current": "fdsolver.report.continuum:format_current",
+    "delta_background": "fdsolver.report.background:format_background",
+    "delta_transmission": "fdsolver.report.background:format_scatter_check",
 }
 
 

@@ -76,7 +76,10 @@ def _state_block(ds, k, eu, lu) -> list[str]:
     lines = ["", f"state {k} ({name}): point model " + (f"E = {lim:.10g} {eu}" if np.isfinite(lim) else "does not bind it")]
     crit = ds.critical_separation.values[:, k]
     show_c = np.isfinite(crit).any()
-    head = (f"  {'width [' + lu + ']':>13}  {'energy [' + eu + ']':>18}  {'error [' + eu + ']':>11}  {'deviation':>10}  "
+    kappa = _kappa(ds, lim)
+    depth = _depths(ds)
+    head = (f"  {'width [' + lu + ']':>13}  {'w*kappa':>8}  {'depth [' + eu + ']':>13}  {'energy [' + eu + ']':>18}  "
+            f"{'error [' + eu + ']':>11}  {'E - E_point [' + eu + ']':>20}  {'deviation':>10}  "
             f"{'predicted':>10}" + (f"  {'d_c [' + lu + ']':>11}" if show_c else "") + "  ok")
     lines.append(head)
     for i, w in enumerate(ds.width.values):
@@ -87,7 +90,9 @@ def _state_block(ds, k, eu, lu) -> list[str]:
         flag = "yes" if ex and res and abs(dev) < ds.attrs["tolerance"] else ("unbound" if not ex else ("NOT RESOLVED" if not res else "no"))
         if not np.isfinite(lim) and ex:
             flag = "finite only"
-        row = (f"  {w:13.5g}  {_g(e, '18.10g') if ex else 'not bound'.rjust(18)}  {_g(ds.energy_error.values[i, k], '11.2e'):>11}  "
+        row = (f"  {w:13.5g}  {_g(w * kappa, '8.3g'):>8}  {_g(depth[i], '13.5g'):>13}  "
+               f"{_g(e, '18.10g') if ex else 'not bound'.rjust(18)}  {_g(ds.energy_error.values[i, k], '11.2e'):>11}  "
+               f"{_g(e - lim if ex else np.nan, '20.4e'):>20}  "
                f"{_g(dev, '10.3e'):>10}  {_g(ds.predicted_deviation.values[i, k], '10.3e'):>10}")
         if show_c:
             row += f"  {_g(crit[i], '11.6g'):>11}"
@@ -211,3 +216,23 @@ def _width_rows(ds, ax, tol) -> list[str]:
             row += f"  {cell:>12}"
         lines.append(row)
     return lines
+
+
+def _kappa(ds, energy) -> float:
+    """Decay constant sqrt(m |E| / (hbar^2/2m_e)) of a point-model level (1/length; nan if unknown)."""
+    m, c = ds.attrs.get("particle_mass"), ds.attrs.get("hbar2_2me")
+    if m is None or c is None or not np.isfinite(energy):
+        return float("nan")
+    return float(np.sqrt(float(m) * abs(float(energy)) / float(c)))
+
+
+def _depths(ds) -> np.ndarray:
+    """Depth of the first replacement well at each width (its -V at the centre, energy unit; nan from finite)."""
+    shape = ds.attrs.get("replacement_shape", "")
+    if ds.attrs.get("delta_mode") != "replace" or not shape:
+        return np.full(ds.sizes["width"], np.nan)
+    from fdsolver.model.shapes import FINITE_REPLACEMENTS
+
+    alpha = float(ds.well_strength.values[0])
+    make = FINITE_REPLACEMENTS[shape]
+    return np.array([-float(getattr(make("", 0.0, alpha, float(w)), "amplitude")) for w in ds.width.values])

@@ -29,6 +29,8 @@ def format_solve(ds: xr.Dataset | Record, transitions: bool = True) -> str:
     lines = [title_of(ds), run_header(ds)]
     thr = a.get("continuum_threshold", math.inf)
     thr_s = "none (every state bound)" if not np.isfinite(thr) else f"{thr:.10g} {eu}"
+    if thr == -math.inf:
+        thr_s = "none: V falls without bound at an open end (every level is quasi-bound)"
     lines.append(
         f"continuum threshold: {thr_s}; box [{a.get('box_left'):.6g}, {a.get('box_right'):.6g}] {lu}, "
         f"{a.get('boundary')} ends"
@@ -55,6 +57,9 @@ def format_solve(ds: xr.Dataset | Record, transitions: bool = True) -> str:
     lev = ds.level_nodes.values
     if lev.size:
         lines.append(f"grid: {lev.size} nested levels, {int(lev[0])} to {int(lev[-1])} nodes; tolerance {a.get('tolerance'):.1e} relative")
+    if "log10_width" in ds and np.isfinite(ds.log10_width.values).any():
+        lines.append("width, lifetime: quasi-bound states on the open line are S-matrix poles E - i width/2 (zeros of "
+                     "the Jost function with outgoing-wave conditions, no box); lifetime = hbar/width")
     shown = set(case_notes(ds))
     lines.extend(case_notes(ds))
     lines.extend(f"note: {m}" for m in notes_of(ds, "messages") if f"note: {m}" not in shown)
@@ -144,6 +149,9 @@ def _state_table(ds: xr.Dataset | Record, eu: str, lu: str) -> list[str]:
     sw = max([16] + [len(x) for x in split])
     head = (f"{'state':>5}  {'energy [' + eu + ']':>22}  {'error [' + eu + ']':>12}  {'parity':>6}  "
             f"{'<x> [' + lu + ']':>12}  {'dx [' + lu + ']':>11}  {'lives in':<{ww}}  {'to next [' + eu + ']':<{sw}}  conv")
+    quasi = _quasi_columns(ds, eu)
+    if quasi:
+        head += "  " + quasi[0]
     rows = [head]
     for k in range(n):
         par = int(ds.parity.values[k])
@@ -151,7 +159,7 @@ def _state_table(ds: xr.Dataset | Record, eu: str, lu: str) -> list[str]:
             f"{int(ds.state.values[k]):5d}  {ds.energy.values[k]:22.12g}  {ds.energy_error.values[k]:12.2e}  "
             f"{('+1' if par > 0 else '-1' if par < 0 else '0'):>6}  {ds.mean_x.values[k]:12.6g}  "
             f"{ds.spread.values[k]:11.5g}  {where[k]:<{ww}}  {split[k]:<{sw}}  "
-            f"{'yes' if int(ds.converged.values[k]) else 'NO'}"
+            f"{'yes' if int(ds.converged.values[k]) else 'NO'}" + (f"   {quasi[k + 1]}" if quasi else "")
         )
     return rows
 
@@ -174,3 +182,21 @@ def _param_text(attrs, name: str, value: float) -> str:
     except (FdsolverError, KeyError, ValueError):
         return f"{name_of(name)} = {value:.10g}"
     return f"{name_of(name)} = {value / size + 0.0:.10g} {name_of(given)}"  # + 0.0: no "-0" where holes flip a zero
+
+
+def _quasi_columns(ds: xr.Dataset, eu: str) -> list[str]:
+    """Header and one cell per state of width and lifetime, when any state is quasi-bound (else nothing)."""
+    if "log10_width" not in ds or not np.isfinite(ds.log10_width.values).any():
+        return []
+    out = [f"{'width [' + eu + ']':>14}  {'lifetime [s]':>12}"]
+    for k in range(ds.sizes["state"]):
+        l10 = float(ds.log10_width.values[k])
+        if not np.isfinite(l10):
+            out.append(f"{'0 (bound)':>14}  {'bound':>12}")
+            continue
+        w = float(ds.width.values[k])
+        tau, l10t = float(ds.lifetime.values[k]), float(ds.log10_lifetime.values[k])
+        w_s = f"{w:.4e}" if w > 0 else f"1e{l10:.1f}"
+        t_s = f"{tau:.4e}" if np.isfinite(tau) and tau > 0 else f"1e{l10t:.1f}"
+        out.append(f"{w_s:>14}  {t_s:>12}")
+    return out

@@ -115,7 +115,8 @@ def format_sweep(ds) -> str:
         e = ds.energy.sel(state=s).values
         ok = np.isfinite(e)
         if ok.any():
-            lines.append(f"state {int(s)}: exists at {int(ok.sum())} of {e.size} points, energy {np.nanmin(e):.8g} to {np.nanmax(e):.8g} {eu}")
+            lines.append(f"state {int(s)}: exists at {int(ok.sum())} of {e.size} points, energy {np.nanmin(e):.8g} to {np.nanmax(e):.8g} {eu}"
+                         + _width_range(ds, s, eu))
         else:
             lines.append(f"state {int(s)}: exists at no point")
     if len(names) == 1 and ds.sizes[names[0]] <= TABLE_ROWS:
@@ -198,3 +199,15 @@ def _format_threshold_archive(ds) -> str:
         lines.append(f"  state {int(s)} appears at {name} = {v:.12g} {u} (+- {e:.2g} {u}); binds as {name} {way}")
     lines.extend(f"note: {n}" for n in notes_of(ds, "notes"))
     return "\n".join(lines)
+
+
+def _width_range(ds, s, eu: str) -> str:
+    """", quasi-bound at P points, width 1e-a to 1e-b EU" for a state that is quasi-bound somewhere (else "")."""
+    if "log10_level_width" not in ds:
+        return ""
+    l10 = ds.log10_level_width.sel(state=s).values
+    q = np.isfinite(l10)
+    if not q.any():
+        return ""
+    return (f"; quasi-bound at {int(q.sum())} points, width 10^{np.min(l10[q]):.2f} to 10^{np.max(l10[q]):.2f} {eu} "
+            "(log10_level_width)")

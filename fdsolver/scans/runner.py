@@ -227,7 +227,7 @@ def run(scan: Scan, executor, finish: Callable[[Any, str], Any], *, action: str,
     try:
         start = getattr(progress, "start", None)
         if start is not None:
-            verb = "mapping" if "map" in scan.what else "sweeping"
+            verb = getattr(scan, "verb", None) or ("mapping" if "map" in scan.what else "sweeping")
             text = f"{verb} {scan.n_points} points {where(executor)}"
             lines.append(text + (f"; checkpoint {path_for(output)}" if output is not None else ""))
             start(scan.n_points, "\n".join(lines))

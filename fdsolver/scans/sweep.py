@@ -42,7 +42,8 @@ from fdsolver.limits import MAX_MEMORY_MB, MAX_SWEEP_POINTS
 from fdsolver.scans.axes import Axis, declared_units, parse_axes
 from fdsolver.scans.runner import base_case, counts_match
 
-BYTES_PER_STATE = 8 + 8 + 8 + 4 + 1 + 1 + 8 + 8 + 1  # energy, error, binding energy, nodes, converged, parity, <x>, spread, wall
+BYTES_PER_STATE = 8 + 8 + 8 + 4 + 1 + 1 + 8 + 8 + 1 + 8 + 8  # energy, error, binding energy, nodes, converged, parity, <x>, spread, wall,
+# width, log10 width
 BYTES_PER_POINT = 4 + 4 + 8 + 8 + 8 + 1 + 1 + 8  # bound, resolved, threshold, splitting (+ error, bound flag), solved, m_r
 #: dipoles and oscillator strengths are kept from every state to this many lowest states
 TRANSITION_STATES = 8
@@ -239,7 +240,7 @@ def solve_points(spec: SweepSpec, base, indices) -> dict:
            "resolved": np.zeros(n, np.int32), "vt": np.full(n, np.nan), "count": np.zeros(n, np.int32),
            "ref_mass": np.full(n, np.nan)}
     keys = ("label", "energy", "error", "converged", "parity", "psi", "mean_x", "spread", "wall", "inside", "psi_norm",
-            "dipole", "f", "f_err")
+            "dipole", "f", "f_err", "width", "log10_width")
     rows: dict[str, list] = {k: [] for k in keys}
     out["split"], out["split_error"] = np.full(n, np.nan), np.full(n, np.nan)
     out["split_bound"] = np.zeros(n, np.int8)
@@ -280,6 +281,10 @@ def solve_points(spec: SweepSpec, base, indices) -> dict:
             rows[key].append(block)
         if tr is not None:
             out["ref_mass"][j] = tr.reference_mass
+        # quasi-bound states (a field, or a well between barriers above the threshold) carry their widths
+        rows["width"].append(np.zeros(sol.energy.size) if sol.width is None else np.asarray(sol.width, float))
+        rows["log10_width"].append(np.full(sol.energy.size, -np.inf) if sol.log10_width is None
+                                   else np.asarray(sol.log10_width, float))
         if spec.save_psi:
             p = np.array([np.interp(psi_x, sol.x, q, left=0.0, right=0.0) for q in sol.psi]).reshape(-1, psi_x.size)
             sq = p * p  # trapezoid rule on the common grid
@@ -315,6 +320,7 @@ class Results:
         self.error = np.full((n, s), np.nan)
         self.converged = np.full((n, s), -1, np.int8)
         self.parity = np.zeros((n, s), np.int8)
+        self.width, self.log10_width = np.full((n, s), np.nan), np.full((n, s), np.nan)
         self.psi = np.full((n, s, spec.psi_x.size), np.nan) if spec.save_psi and spec.psi_x is not None else None
         self.psi_norm = np.full((n, s), np.nan) if self.psi is not None else None
         self.mean_x, self.spread = np.full((n, s), np.nan), np.full((n, s), np.nan)
@@ -345,6 +351,7 @@ class Results:
         self.mean_x, self.spread, self.wall = pad(self.mean_x, np.nan), pad(self.spread, np.nan), pad(self.wall, -2)
         self.inside = pad(self.inside, np.nan)
         self.dipole, self.f, self.f_err = pad(self.dipole, np.nan), pad(self.f, np.nan), pad(self.f_err, np.nan)
+        self.width, self.log10_width = pad(self.width, np.nan), pad(self.log10_width, np.nan)
         if self.psi is not None:
             self.psi = pad(self.psi, np.nan)
             self.psi_norm = pad(self.psi_norm, np.nan)
@@ -376,7 +383,8 @@ class Results:
             self.converged[rows, labels] = np.asarray(rec["converged"])[sel]
             self.parity[rows, labels] = np.asarray(rec["parity"])[sel]
             for name, target in (("mean_x", self.mean_x), ("spread", self.spread), ("wall", self.wall),
-                                 ("inside", self.inside), ("dipole", self.dipole), ("f", self.f), ("f_err", self.f_err)):
+                                 ("inside", self.inside), ("dipole", self.dipole), ("f", self.f), ("f_err", self.f_err),
+                                 ("width", self.width), ("log10_width", self.log10_width)):
                 if name in rec:
                     target[rows, labels] = np.asarray(rec[name])[sel]
             if self.psi is not None:
@@ -413,6 +421,8 @@ class Results:
             "converged": grid(self.converged),
             "nodes": np.where(np.isfinite(energy), np.arange(s), -1),
             "parity": grid(self.parity),
+            "level_width": grid(self.width),
+            "log10_level_width": grid(self.log10_width),
             "bound_states": self.bound.reshape(shape),
             "resolved_states": self.resolved.reshape(shape),
             "continuum_threshold": vt,

@@ -1,0 +1,65 @@
+"""Does a potential leak?  Cheap tests (numpy only) that decide whether a solve needs quasi-bound states.
+
+A potential *leaks* on the open line when
+
+* it falls without bound at an open end (a uniform field): no state is
+  bound, the well's levels are resonances; or
+* some region is enclosed by higher potential on both sides, up to an energy
+  above the continuum threshold (a well between barriers whose tops rise
+  above the lower asymptote): the levels between the threshold and that
+  energy are quasi-bound.
+
+The enclosure is measured on V sampled over the features' span (4097 even
+points plus both sides of every feature): with L(x), R(x) the highest V to
+the left and to the right of x, the region below min(L, R) is enclosed, and
+:func:`confined_top` is the highest min(L, R) over the points where V lies
+below it.  Repulsive point terms are not counted as barriers here.  Energies
+in the case energy unit.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+#: samples of V over the features' span
+SAMPLES = 4097
+
+
+def falls(potential) -> bool:
+    """True if V falls without bound (or is undefined) toward an open end."""
+    return any(v == -math.inf or math.isnan(v) for v in (potential.asymptote(-1), potential.asymptote(1)))
+
+
+def confined_top(potential) -> float | None:
+    """The highest energy up to which some region is enclosed by higher V on both sides; None if none is."""
+    lo, hi = potential.support()
+    if not hi > lo:
+        return None
+    feats = np.asarray(potential.features(), dtype=float)
+    d = 1e-9 * max(1.0, hi - lo)
+    xs = np.unique(np.concatenate([np.linspace(lo, hi, SAMPLES), feats - d, feats + d, [lo - d, hi + d]]))
+    with np.errstate(all="ignore"):
+        v = potential.value(xs)
+    if not np.all(np.isfinite(v)):
+        return None
+    left = np.maximum.accumulate(v)
+    right = np.maximum.accumulate(v[::-1])[::-1]
+    enclosing = np.minimum(left, right)
+    scale = float(np.max(np.abs(v))) or 1.0
+    inside = enclosing - v > 1e-9 * scale
+    return float(np.max(enclosing[inside])) if inside.any() else None
+
+
+def leaks(potential, domain=None) -> bool:
+    """True if the open-line solve of ``potential`` has quasi-bound states to add (module docstring)."""
+    if domain is not None and getattr(domain, "hard", False):
+        return False
+    if falls(potential):
+        return True
+    top = confined_top(potential)
+    if top is None:
+        return False
+    threshold = min(potential.asymptote(-1), potential.asymptote(1))
+    return math.isfinite(threshold) and top > threshold + 1e-9 * max(1.0, abs(threshold), abs(top))
