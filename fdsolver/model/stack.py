@@ -7,6 +7,7 @@ layer starts at ``origin``.  Lengths in the case length unit.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -30,22 +31,31 @@ class LayerStack:
     layers: tuple[Layer, ...]
     origin: float = 0.0
 
-    @property
+    @cached_property
     def interfaces(self) -> np.ndarray:
+        """Interface positions (computed once: the stack is immutable)."""
         inner = [layer.thickness for layer in self.layers[1:-1]]
-        return self.origin + np.concatenate([[0.0], np.cumsum(inner)]) if len(self.layers) > 1 else np.array([])
+        out = self.origin + np.concatenate([[0.0], np.cumsum(inner)]) if len(self.layers) > 1 else np.array([])
+        out.flags.writeable = False
+        return out
+
+    @cached_property
+    def _edges(self) -> np.ndarray:
+        return np.array([layer.band_edge for layer in self.layers])
+
+    @cached_property
+    def _masses(self) -> np.ndarray:
+        return np.array([layer.mass for layer in self.layers])
 
     def index(self, x: np.ndarray) -> np.ndarray:
         """Layer index of each position (a point on an interface belongs to the layer on its right)."""
         return np.searchsorted(self.interfaces, np.asarray(x, dtype=float), side="right")
 
     def band_edge(self, x):
-        edges = np.array([layer.band_edge for layer in self.layers])
-        return edges[self.index(x)]
+        return self._edges[self.index(x)]
 
     def mass(self, x):
-        masses = np.array([layer.mass for layer in self.layers])
-        return masses[self.index(x)]
+        return self._masses[self.index(x)]
 
     def regions(self) -> list[tuple[str | None, float, float]]:
         bounds = np.concatenate([[-INF], self.interfaces, [INF]])
