@@ -12,7 +12,6 @@ Prints, in one run:
     relative error is <= 1e-8 (generous to the baseline: a user without a reference would need
     one more doubling to see it); time summed over all doublings, as the user pays it;
   * their ratio;
-  * peak memory of one eigen-solve on a 1e6-node grid (separate process, ru_maxrss);
   * wall time of `fdsolver solve` from a cold shell (numba cache warm).
 
 Usage:  python scripts/bench_solve.py
@@ -23,7 +22,6 @@ from __future__ import annotations
 import math
 import os
 import subprocess
-import sys
 import time
 
 import numpy as np
@@ -99,25 +97,6 @@ def baseline(case, exact, box, tol=1e-8):
         h /= 2
 
 
-def peak_memory_1e6():
-    """Working memory (tracemalloc peak) and process peak RSS of assembling + solving on 1e6 nodes."""
-    code = (
-        "import resource, tracemalloc, numpy as np, fdsolver\n"
-        "from fdsolver.numerics.operator import assemble\nfrom fdsolver.boundstates.eigen import solve_window\n"
-        f"case = fdsolver.load_case({CASE!r})\n"
-        "x = np.unique(np.concatenate([np.linspace(-40.0, 54.0, 1_000_002), case.potential.features()]))\n"
-        "solve_window(assemble(case.potential, x[:2000]), 220.0, 10)\n"
-        "before = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024\n"
-        "tracemalloc.start()\n"
-        "op = assemble(case.potential, x)\n"
-        "st = solve_window(op, 220.0, 10)\n"
-        "peak = tracemalloc.get_traced_memory()[1] / 2**20\n"
-        "print(op.size, peak, resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024, before)\n"
-    )
-    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout.split()
-    return int(out[0]), float(out[1]), float(out[2]), float(out[3])
-
-
 def cold_cli():
     t0 = time.perf_counter()
     subprocess.run(["fdsolver", "solve", CASE], capture_output=True, check=True)
@@ -126,7 +105,7 @@ def cold_cli():
 
 def main():
     import fdsolver
-    from fdsolver.api import solve_case
+    from fdsolver.runs import solve_case
 
     case = fdsolver.load_case(CASE)
     stack = case.potential.stack
@@ -148,7 +127,6 @@ def main():
     box = (-pad, 14 + pad)
     t_base, n_base, err_base = baseline(case, exact, box)
 
-    n1e6, work, rss, rss0 = peak_memory_1e6()
     t_cli = min(cold_cli() for _ in range(3))
 
     print(f"case: {os.path.relpath(CASE, ROOT)}  ({exact.size} bound states, exact by transfer matrices)")
@@ -157,8 +135,6 @@ def main():
     print(f"{'baseline (uniform, eigsh shift-invert, doubling)':<44} {t_base:10.4f} {n_base:10d} {err_base:15.2e}")
     print(f"speed-up fdsolver / baseline: {t_base / t_fd:.1f}x   (target >= 30x)")
     print(f"warm solve: {t_fd * 1000:.1f} ms   (target < 200 ms)")
-    print(f"memory of one assemble + eigen-solve on {n1e6} nodes: {work:.0f} MB working arrays (tracemalloc peak; "
-          f"target < 300 MB); process peak RSS {rss:.0f} MB, of which {rss0:.0f} MB before the solve (imports, JIT)")
     print(f"cold 'fdsolver solve' wall time: {t_cli:.2f} s   (target < 3 s)")
 
 
