@@ -14,9 +14,9 @@ Outside references, named per check:
 
 from __future__ import annotations
 
+import io
 import json
-import subprocess
-import sys
+from contextlib import chdir, nullcontext, redirect_stderr, redirect_stdout
 from pathlib import Path
 
 import pytest
@@ -26,8 +26,13 @@ CASE = ROOT / "cases" / "algaas_well.toml"
 
 
 def run_cli(*args, cwd=None):
-    proc = subprocess.run([sys.executable, "-m", "fdsolver", *map(str, args)], capture_output=True, text=True, cwd=cwd)
-    return proc.returncode, proc.stdout, proc.stderr
+    """The command line in this process (fdsolver.cli.main): exit code, stdout and stderr."""
+    from fdsolver.cli import main
+
+    out, err = io.StringIO(), io.StringIO()
+    with redirect_stdout(out), redirect_stderr(err), (chdir(cwd) if cwd else nullcontext()):
+        code = main([str(a) for a in args])
+    return code, out.getvalue(), err.getvalue()
 
 
 @pytest.fixture(scope="module")
