@@ -22,6 +22,8 @@ import re
 import warnings
 from pathlib import Path
 
+import cf_units  # the test extra installs it: a missing one is an error, never a skip
+import compliance_checker.runner as runner  # likewise
 import pytest
 from scipy.constants import physical_constants
 
@@ -29,8 +31,6 @@ import fdsolver
 import fdsolver.api
 from fdsolver.io.specs import KINDS, kind_of
 
-cf_units = pytest.importorskip("cf_units", reason="the test extra installs cf-units")
-runner = pytest.importorskip("compliance_checker.runner", reason="the test extra installs compliance-checker")
 
 ROOT = Path(__file__).resolve().parents[1]
 CASES = ROOT / "cases"

@@ -836,9 +836,7 @@ def problems(entry: dict, r: dict, reference: dict | None = None) -> list[str]:
 
 
 def verdict(entry: dict, r: dict, reference: dict | None = None) -> None:
-    bad = problems(entry, r, reference)
-    if bad and any(b.startswith("setup failed: RuntimeError: cannot make a read-only folder") for b in bad):
-        pytest.skip(bad[0])
+    bad = problems(entry, r, reference)  # a read-only folder that cannot be made here fails too: never skipped
     if bad:
         lines = [ln for ln in r.get("stderr", "").splitlines() if ln.strip()]
         shown = " / ".join(lines[-2:])[:400] if lines else "(nothing on stderr)"
@@ -1056,7 +1054,7 @@ def test_sigint_to_the_sweep_main_process_stops_it_like_ctrl_c(tmp_path, where, 
     ignored (POSIX shells do this for background jobs); issue 11 asks that `kill -INT` stop the sweep there too.
     """
     if where[0] == "--cluster":
-        pytest.importorskip("distributed", reason="the Dask executor is an optional extra")
+        import distributed  # noqa: F401  (in the test extra: a missing Dask is an error, never a skip)
     work = tmp_path / "work"
     prepare(work)
     out = work / "out" / "sweep.nc"
