@@ -278,3 +278,32 @@ def parse_interval(text, case, key: str = "--vary") -> tuple[str, float, float]:
     if lo > hi:
         raise CaseError(f"'{text}' is reversed: LO {lo:g} is above HI {hi:g}; write {name}={parts[1]}:{parts[0]}", key=key)
     return name, lo, hi
+
+
+class OnAxes:
+    """The points of a scan over the cartesian product of its ``axes`` (a tuple of :class:`Axis`), numbered in C
+    order: the shape, the exact count, one point's param values, and the axes as compared on resume.  Mixed into
+    the frozen dataclasses of the point-based scans (sweeps, band sweeps, continuum scans; a validity map has a
+    field named ``shape`` and numbers its two axes itself)."""
+
+    axes: tuple
+
+    @property
+    def shape(self) -> tuple[int, ...]:
+        return tuple(a.values.size for a in self.axes)
+
+    @property
+    def n_points(self) -> int:
+        return math.prod(self.shape)  # exact: 64 axes of 2 values do not overflow
+
+    def point(self, flat: int) -> dict:
+        idx = np.unravel_index(int(flat), self.shape)
+        return {a.name: float(a.values[i]) for a, i in zip(self.axes, idx)}
+
+    def axes_identity(self) -> list[dict]:
+        return axes_identity(self.axes)
+
+
+def axes_identity(axes) -> list[dict]:
+    """Scanned axes as a scan's identity records them, compared on resume (exact float values)."""
+    return [{"name": a.name, "text": a.text, "values": [float(v) for v in a.values]} for a in axes]

@@ -21,7 +21,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from fdsolver.errors import CaseError
-from fdsolver.scans.axes import Axis
+from fdsolver.scans.axes import Axis, OnAxes
 from fdsolver.scans.runner import base_case
 
 #: per-band arrays of a band sweep: (archive name, BandEdges field)
@@ -33,7 +33,7 @@ BYTES_PER_BAND = 8 * len(FIELDS) + 2
 
 
 @dataclass(frozen=True)
-class BandSweepSpec:
+class BandSweepSpec(OnAxes):
     """A planned band sweep: the case (text, path, tables), fixed params, axes, bands, tolerance, chunk size."""
 
     case_text: str
@@ -50,18 +50,6 @@ class BandSweepSpec:
     #: most points per chunk by default
     max_chunk = 100
 
-    @property
-    def shape(self) -> tuple[int, ...]:
-        return tuple(a.values.size for a in self.axes)
-
-    @property
-    def n_points(self) -> int:
-        return int(np.prod(self.shape, dtype=np.int64))
-
-    def point(self, flat: int) -> dict:
-        idx = np.unravel_index(int(flat), self.shape)
-        return {a.name: float(a.values[i]) for a, i in zip(self.axes, idx)}
-
     def identity(self) -> dict:
         """JSON-able description compared on resume (exact float values)."""
         from fdsolver._version import __version__
@@ -72,7 +60,7 @@ class BandSweepSpec:
             "case_text": self.case_text,
             "case_tables": self.tables,
             "fixed": self.fixed,
-            "axes": [{"name": a.name, "text": a.text, "values": [float(v) for v in a.values]} for a in self.axes],
+            "axes": self.axes_identity(),
             "n_bands": int(self.n_bands),
         }
 

@@ -26,6 +26,7 @@ from typing import Any
 
 import numpy as np
 
+from fdsolver.scans.axes import OnAxes
 from fdsolver.errors import CaseError
 
 #: per-resonance fields of a record and of the arrays (record key -> archive variable)
@@ -50,7 +51,7 @@ def _key(spec) -> str:
 
 # ------------------------------------------------------------- resonances
 @dataclass(frozen=True)
-class ResonanceScan:
+class ResonanceScan(OnAxes):
     """Resonances in ``window`` (widths up to ``max_width``) at every point of ``axes`` (plain data)."""
 
     case_text: str
@@ -67,24 +68,12 @@ class ResonanceScan:
     verb = "sweeping"
     max_chunk = 20
 
-    @property
-    def shape(self) -> tuple[int, ...]:
-        return tuple(a.values.size for a in self.axes)
-
-    @property
-    def n_points(self) -> int:
-        return int(np.prod(self.shape, dtype=np.int64))
-
-    def point(self, flat: int) -> dict:
-        idx = np.unravel_index(int(flat), self.shape)
-        return {a.name: float(a.values[i]) for a, i in zip(self.axes, idx)}
-
     def identity(self) -> dict:
         from fdsolver._version import __version__
 
         return {"study": "resonance sweep", "fdsolver": __version__, "case_text": self.case_text,
                 "case_tables": self.tables, "fixed": self.fixed,
-                "axes": [{"name": a.name, "text": a.text, "values": [float(v) for v in a.values]} for a in self.axes],
+                "axes": self.axes_identity(),
                 "window": [float(v) for v in self.window], "max_width": self.max_width}
 
     def solve_points(self, base, indices) -> dict:
@@ -183,7 +172,7 @@ T_FIELDS = ("transmission", "transmission_error", "reflection", "log10_transmiss
 
 
 @dataclass(frozen=True)
-class TransmissionScan:
+class TransmissionScan(OnAxes):
     """T(E), R(E) at ``n`` even energies from ``lo`` to ``hi`` at every point of ``axes`` (plain data)."""
 
     case_text: str
@@ -201,28 +190,16 @@ class TransmissionScan:
     max_chunk = 20
 
     @property
-    def shape(self) -> tuple[int, ...]:
-        return tuple(a.values.size for a in self.axes)
-
-    @property
-    def n_points(self) -> int:
-        return int(np.prod(self.shape, dtype=np.int64))
-
-    @property
     def energy(self) -> np.ndarray:
         lo, hi, n = self.energies
         return np.linspace(lo, hi, int(n))
-
-    def point(self, flat: int) -> dict:
-        idx = np.unravel_index(int(flat), self.shape)
-        return {a.name: float(a.values[i]) for a, i in zip(self.axes, idx)}
 
     def identity(self) -> dict:
         from fdsolver._version import __version__
 
         return {"study": "transmission sweep", "fdsolver": __version__, "case_text": self.case_text,
                 "case_tables": self.tables, "fixed": self.fixed,
-                "axes": [{"name": a.name, "text": a.text, "values": [float(v) for v in a.values]} for a in self.axes],
+                "axes": self.axes_identity(),
                 "energies": [float(v) for v in self.energies], "incident": self.incident}
 
     def solve_points(self, base, indices) -> dict:

@@ -24,7 +24,7 @@ from typing import Any
 import numpy as np
 
 from fdsolver.errors import CaseError
-from fdsolver.scans.axes import Extra, parse_axes
+from fdsolver.scans.axes import Extra, axes_identity, parse_axes
 from fdsolver.scans.runner import base_case, counts_match
 
 #: most points of a map, and of one of its axes
@@ -77,7 +77,7 @@ class MapSpec:
             "case_text": self.case_text,
             "case_tables": self.tables,
             "fixed": self.fixed,
-            "axes": [{"name": a.name, "text": a.text, "values": [float(v) for v in a.values]} for a in self.axes],
+            "axes": axes_identity(self.axes),
             "shape": self.shape,
             "tolerance": self.tolerance,
             "from_finite": self.from_finite,

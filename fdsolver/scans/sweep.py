@@ -39,7 +39,7 @@ import numpy as np
 
 from fdsolver.errors import CaseError
 from fdsolver.limits import MAX_MEMORY_MB, MAX_SWEEP_POINTS
-from fdsolver.scans.axes import Axis, declared_units, parse_axes
+from fdsolver.scans.axes import Axis, OnAxes, declared_units, parse_axes
 from fdsolver.scans.runner import base_case, counts_match
 
 BYTES_PER_STATE = 8 + 8 + 8 + 4 + 1 + 1 + 8 + 8 + 1 + 8 + 8  # energy, error, binding energy, nodes, converged, parity, <x>, spread, wall,
@@ -55,7 +55,7 @@ PSI_CORNERS = 16
 
 # ----------------------------------------------------------------- plan
 @dataclass(frozen=True)
-class SweepSpec:
+class SweepSpec(OnAxes):
     """A planned sweep: the case (text, path, tables), fixed params, axes, psi grid and chunk size."""
 
     case_text: str
@@ -74,18 +74,6 @@ class SweepSpec:
     #: most points per chunk by default
     max_chunk = 200
 
-    @property
-    def shape(self) -> tuple[int, ...]:
-        return tuple(a.values.size for a in self.axes)
-
-    @property
-    def n_points(self) -> int:
-        return math.prod(self.shape)
-
-    def point(self, flat: int) -> dict:
-        idx = np.unravel_index(int(flat), self.shape)
-        return {a.name: float(a.values[i]) for a, i in zip(self.axes, idx)}
-
     def identity(self) -> dict:
         """JSON-able description compared on resume (exact float values)."""
         from fdsolver._version import __version__
@@ -95,7 +83,7 @@ class SweepSpec:
             "case_text": self.case_text,
             "case_tables": self.tables,
             "fixed": self.fixed,
-            "axes": [{"name": a.name, "text": a.text, "values": [float(v) for v in a.values]} for a in self.axes],
+            "axes": self.axes_identity(),
             "save_psi": bool(self.save_psi),
             "psi_x": None if self.psi_x is None else [float(v) for v in self.psi_x],
         }
