@@ -34,11 +34,8 @@ def _lorentz_points(e_r: float, gamma: float, n: int) -> np.ndarray:
     return e_r + 0.5 * gamma * np.tan(theta)
 
 
-def transmission_scan(potential, lo: float, hi: float, *, points: int = 201, per_resonance: int = 41,
-                      tol: float = 1e-3, max_points: int = 100_000, max_width: float | None = None,
-                      incident: str = "left", domain=None):
-    """:class:`~fdsolver.continuum.transmission.Transmission` on an adaptive grid over [lo, hi] with its poles attached."""
-    lo, hi = float(lo), float(hi)
+def _range(potential, lo: float, hi: float, incident: str, domain):
+    """The checks and set-up both grids share: (margin, the profile ladder, the incident side's channel)."""
     if not (math.isfinite(lo) and math.isfinite(hi) and lo < hi):
         raise CaseError(f"the energy range must be low < high, got {lo:g}:{hi:g}", key="energies")
     margin = 0.05 * (hi - lo)
@@ -49,6 +46,16 @@ def transmission_scan(potential, lo: float, hi: float, *, points: int = 201, per
     if hi <= src.threshold:
         raise CaseError(f"the range {lo:g}:{hi:g} {unit} lies below the {incident} asymptote ({src.threshold:g} {unit}): "
                         "no wave comes in; give energies above it", key="energies")
+    return margin, lad, src
+
+
+def transmission_scan(potential, lo: float, hi: float, *, points: int = 201, per_resonance: int = 41,
+                      tol: float = 1e-3, max_points: int = 100_000, max_width: float | None = None,
+                      incident: str = "left", domain=None):
+    """:class:`~fdsolver.continuum.transmission.Transmission` on an adaptive grid over [lo, hi] with its poles attached."""
+    lo, hi = float(lo), float(hi)
+    margin, lad, src = _range(potential, lo, hi, incident, domain)
+    unit = potential.units.energy
     start = max(lo, src.threshold) if math.isfinite(src.threshold) else lo
     res = find_resonances(potential, (start - margin, hi + margin), max_width=max_width or (hi - lo), lad=lad)
     notes = list(res.notes)
@@ -114,16 +121,8 @@ def fixed_grid(potential, lo: float, hi: float, n: int, *, incident: str = "left
     which this grid cannot resolve (the adaptive grid does).
     """
     lo, hi = float(lo), float(hi)
-    if not (math.isfinite(lo) and math.isfinite(hi) and lo < hi):
-        raise CaseError(f"the energy range must be low < high, got {lo:g}:{hi:g}", key="energies")
-    margin = 0.05 * (hi - lo)
-    lad = ladder(potential, lo - margin, hi + margin, domain)
-    prof = lad.at(0)
-    src = prof.left if incident == "left" else prof.right
+    margin, lad, src = _range(potential, lo, hi, incident, domain)
     unit = potential.units.energy
-    if hi <= src.threshold:
-        raise CaseError(f"the range {lo:g}:{hi:g} {unit} lies below the {incident} asymptote ({src.threshold:g} {unit}): "
-                        "no wave comes in; give energies above it", key="energies")
     e = np.linspace(lo, hi, int(n))
     tr = transmission(potential, e, incident=incident, lad=lad)
     start = max(lo, src.threshold) if math.isfinite(src.threshold) else lo
