@@ -156,6 +156,19 @@ def _linear_cell(v0, slope, length, m, c, energy, psi, u, direction, kscale):
 
 
 @njit
+def _cell_step(edges, v0, slope, mass, c, energy, cell, psi, u, direction, kscale):
+    """One cell crossed in ``direction``: exact constant or Airy (linear) solution, then normalised; returns
+    (psi, u, ln of the scale removed)."""
+    length = edges[cell + 1] - edges[cell]
+    m = mass[cell]
+    if slope[cell] == 0.0:
+        psi, u, d = _constant_cell(m * (v0[cell] - energy) / c, length, m, c, psi, u, direction)
+        psi, u, d2 = _normalise(psi, u, kscale)
+        return psi, u, d + d2
+    return _linear_cell(v0[cell], slope[cell], length, m, c, energy, psi, u, direction, kscale)
+
+
+@njit
 def sweep(edges, v0, slope, mass, jump, c, energy, i_from, i_to, psi, u, kscale, jump_start, jump_end, rec_log,
           heading=0):
     """Carry (psi, u) from edges[i_from] to edges[i_to] (either direction); returns (psi, u, log_scale).
@@ -181,17 +194,9 @@ def sweep(edges, v0, slope, mass, jump, c, energy, i_from, i_to, psi, u, kscale,
             u = u - direction * jump[i] * psi
         if i == i_to:
             break
-        cell = i if direction > 0 else i - 1
-        length = edges[cell + 1] - edges[cell]
-        m = mass[cell]
-        if slope[cell] == 0.0:
-            psi, u, d = _constant_cell(m * (v0[cell] - energy) / c, length, m, c, psi, u, direction)
-            log_scale += d
-            psi, u, d = _normalise(psi, u, kscale)
-            log_scale += d
-        else:
-            psi, u, d = _linear_cell(v0[cell], slope[cell], length, m, c, energy, psi, u, direction, kscale)
-            log_scale += d
+        psi, u, d = _cell_step(edges, v0, slope, mass, c, energy, i if direction > 0 else i - 1, psi, u, direction,
+                               kscale)
+        log_scale += d
         i += direction
     return psi, u, log_scale
 
@@ -285,17 +290,9 @@ def _trace(edges, v0, slope, mass, jump, c, energy, i_from, i_to, psi, u, kscale
             u = u - direction * jump[i] * psi
         if i == i_to:
             break
-        cell = i if direction > 0 else i - 1
-        length = edges[cell + 1] - edges[cell]
-        m = mass[cell]
-        if slope[cell] == 0.0:
-            psi, u, d = _constant_cell(m * (v0[cell] - energy) / c, length, m, c, psi, u, direction)
-            log_scale += d
-            psi, u, d = _normalise(psi, u, kscale)
-            log_scale += d
-        else:
-            psi, u, d = _linear_cell(v0[cell], slope[cell], length, m, c, energy, psi, u, direction, kscale)
-            log_scale += d
+        psi, u, d = _cell_step(edges, v0, slope, mass, c, energy, i if direction > 0 else i - 1, psi, u, direction,
+                               kscale)
+        log_scale += d
         i += direction
 
 
