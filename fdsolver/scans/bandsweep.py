@@ -22,7 +22,7 @@ import numpy as np
 
 from fdsolver.errors import CaseError
 from fdsolver.scans.axes import Axis, OnAxes
-from fdsolver.scans.runner import base_case
+from fdsolver.scans.runner import PointNotes, base_case
 
 #: per-band arrays of a band sweep: (archive name, BandEdges field)
 FIELDS = ("band_bottom", "band_bottom_error", "band_top", "band_top_error", "band_width", "band_width_error",
@@ -136,7 +136,7 @@ def solve_points(spec: BandSweepSpec, base, indices) -> dict:
     return out
 
 
-class BandResults:
+class BandResults(PointNotes):
     """The band sweep's arrays, filled chunk by chunk in any order."""
 
     def __init__(self, spec: BandSweepSpec):
@@ -158,13 +158,8 @@ class BandResults:
             self.values[name][idx] = rec[name]
         self.gap_closed[idx] = rec["gap_closed"]
         self.converged[idx] = rec["converged"]
-        for flat, msg in rec.get("messages", []):
-            self.messages.setdefault(int(flat), []).append(str(msg))
+        self.keep_notes(rec)
         return int(idx.size)
-
-    def notes(self) -> list[str]:
-        """Every message, in point order."""
-        return [m for k in sorted(self.messages) for m in self.messages[k]]
 
     def arrays(self) -> dict:
         """The values of the band-sweep archive's variables (:data:`fdsolver.io.specs.BAND_SWEEP`) on the axes' grid."""

@@ -26,6 +26,7 @@ from typing import Any
 
 import numpy as np
 
+from fdsolver.scans.runner import PointNotes
 from fdsolver.scans.axes import OnAxes
 from fdsolver.errors import CaseError
 
@@ -107,7 +108,7 @@ class ResonanceScan(OnAxes):
         return ResonanceResults(self)
 
 
-class ResonanceResults:
+class ResonanceResults(PointNotes):
     """The sweep's per-resonance arrays (flat point x resonance), filled chunk by chunk in any order."""
 
     def __init__(self, spec: ResonanceScan):
@@ -135,12 +136,8 @@ class ResonanceResults:
         cols = np.concatenate([np.arange(c) for c in counts]) if counts.size else np.zeros(0, np.int64)
         for f in RES_FIELDS:
             self.values[f][rows, cols.astype(np.int64)] = np.asarray(rec[f])
-        for flat, msg in rec.get("messages", []):
-            self.messages.setdefault(int(flat), []).append(str(msg))
+        self.keep_notes(rec)
         return int(idx.size)
-
-    def notes(self) -> list[str]:
-        return [m for k in sorted(self.messages) for m in self.messages[k]]
 
     def arrays(self) -> dict:
         shape = self.spec.shape
@@ -234,7 +231,7 @@ class TransmissionScan(OnAxes):
         return TransmissionResults(self)
 
 
-class TransmissionResults:
+class TransmissionResults(PointNotes):
     """The sweep's (point, energy) arrays, filled chunk by chunk in any order."""
 
     def __init__(self, spec: TransmissionScan):
@@ -251,12 +248,8 @@ class TransmissionResults:
         self.solved[idx] = rec["solved"]
         for f in T_FIELDS:
             self.values[f][idx] = np.asarray(rec[f])
-        for flat, msg in rec.get("messages", []):
-            self.messages.setdefault(int(flat), []).append(str(msg))
+        self.keep_notes(rec)
         return int(idx.size)
-
-    def notes(self) -> list[str]:
-        return [m for k in sorted(self.messages) for m in self.messages[k]]
 
     def arrays(self) -> dict:
         shape = self.spec.shape + (int(self.spec.energies[2]),)
@@ -342,7 +335,7 @@ class BiasScan:
         return CurrentResults(self)
 
 
-class CurrentResults:
+class CurrentResults(PointNotes):
     """J, its error and the resonances of the biased structure at every bias, filled in any order."""
 
     def __init__(self, spec: BiasScan):
@@ -369,12 +362,8 @@ class CurrentResults:
         cols = np.concatenate([np.arange(c) for c in counts]).astype(np.int64) if counts.size else np.zeros(0, np.int64)
         self.res_energy[rows, cols] = np.asarray(rec["res_energy"])
         self.res_width[rows, cols] = np.asarray(rec["res_width"])
-        for flat, msg in rec.get("messages", []):
-            self.messages.setdefault(int(flat), []).append(str(msg))
+        self.keep_notes(rec)
         return int(idx.size)
-
-    def notes(self) -> list[str]:
-        return [m for k in sorted(self.messages) for m in self.messages[k]]
 
     def arrays(self) -> dict:
         bias = np.asarray(self.spec.biases, float)

@@ -25,7 +25,7 @@ import numpy as np
 
 from fdsolver.errors import CaseError
 from fdsolver.scans.axes import Extra, axes_identity, parse_axes
-from fdsolver.scans.runner import base_case, counts_match
+from fdsolver.scans.runner import PointNotes, base_case, counts_match
 
 #: most points of a map, and of one of its axes
 MAX_POINTS = 250_000
@@ -184,7 +184,7 @@ def solve_points(spec: MapSpec, base, indices) -> dict:
 
 
 # ------------------------------------------------------------ assembly
-class MapResults:
+class MapResults(PointNotes):
     """The map's arrays, filled chunk by chunk in any order (flat point index x state)."""
 
     def __init__(self, spec: MapSpec):
@@ -229,15 +229,14 @@ class MapResults:
                 self.flags["exists"][rows, cols.astype(np.int64)] = 1
             if k == "limit":
                 self.flags["exists_limit"][rows, cols.astype(np.int64)] = 1
-        for flat, msg in rec.get("messages", []):
-            self.messages.setdefault(int(flat), []).append(str(msg))
+        self.keep_notes(rec)
         return int(idx.size)
 
     def notes(self) -> list[str]:
         """The overlap count, then every message in point order."""
         n_over = int(self.overlap.sum())
         head = [f"{n_over} of {self.spec.n_points} points have overlapping wells and were not solved"] if n_over else []
-        return head + [m for k in sorted(self.messages) for m in self.messages[k]]
+        return head + super().notes()
 
     def arrays(self, tolerance: float) -> dict:
         """The values of the map archive's variables (:data:`fdsolver.io.specs.DELTA_MAP`) on the plane."""

@@ -149,6 +149,22 @@ def _chunks(todo: np.ndarray, size: int):
             yield part[i: i + size]
 
 
+class PointNotes:
+    """What every collector does with the notes of its points: keep them by point (records come in any order)
+    and give them back in point order."""
+
+    messages: dict[int, list[str]]
+
+    def keep_notes(self, rec: dict) -> None:
+        """Store the ``messages`` of one chunk record (pairs of flat point index and text)."""
+        for flat, msg in rec.get("messages", []):
+            self.messages.setdefault(int(flat), []).append(str(msg))
+
+    def notes(self) -> list[str]:
+        """Every message, in point order."""
+        return [m for k in sorted(self.messages) for m in self.messages[k]]
+
+
 def check_record(rec: dict, n_points: int) -> None:
     """ValueError unless ``rec`` holds some points of a scan of ``n_points`` (its ``index`` in range, no repeats):
     a checkpoint is a file on disk, and a damaged or forged one must not index outside the result.  Each

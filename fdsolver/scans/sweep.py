@@ -40,7 +40,7 @@ import numpy as np
 from fdsolver.errors import CaseError
 from fdsolver.limits import MAX_MEMORY_MB, MAX_SWEEP_POINTS
 from fdsolver.scans.axes import Axis, OnAxes, declared_units, parse_axes
-from fdsolver.scans.runner import base_case, counts_match
+from fdsolver.scans.runner import PointNotes, base_case, counts_match
 
 BYTES_PER_STATE = 8 + 8 + 8 + 4 + 1 + 1 + 8 + 8 + 1 + 8 + 8  # energy, error, binding energy, nodes, converged, parity, <x>, spread, wall,
 # width, log10 width
@@ -298,7 +298,7 @@ def solve_points(spec: SweepSpec, base, indices) -> dict:
 
 
 # ------------------------------------------------------------- assembly
-class Results:
+class Results(PointNotes):
     """The sweep's arrays, filled chunk by chunk in any order; memory is that of the result only."""
 
     def __init__(self, spec: SweepSpec, n_states: int):
@@ -379,13 +379,8 @@ class Results:
                 self.psi[rows, labels] = np.asarray(rec["psi"])[sel]
                 if "psi_norm" in rec:
                     self.psi_norm[rows, labels] = np.asarray(rec["psi_norm"])[sel]
-        for flat, msg in rec.get("messages", []):
-            self.messages.setdefault(int(flat), []).append(str(msg))
+        self.keep_notes(rec)
         return int(idx.size)
-
-    def notes(self) -> list[str]:
-        """Every message, in point order."""
-        return [m for k in sorted(self.messages) for m in self.messages[k]]
 
     def arrays(self) -> dict:
         """The values of the sweep archive's variables (:data:`fdsolver.io.specs.SWEEP`), on the grid of the axes.
