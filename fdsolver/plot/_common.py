@@ -30,10 +30,26 @@ def save(fig, path, rect=None, layout: bool = True) -> None:
     and close it."""
     import matplotlib.pyplot as plt
 
+    _plain_log_ticks(fig)
     if layout:
         fig.tight_layout(rect=rect)
     fig.savefig(path, bbox_inches="tight", pad_inches=0.08)  # nothing outside the axes (legends, labels) is clipped
     plt.close(fig)
+
+
+def _plain_log_ticks(fig) -> None:
+    """Log axes labelled 1e-05 ... 1 instead of with mathtext, which figures do not parse (``text.parse_math`` is
+    off so that '$' in a title or a name stays a dollar)."""
+    from matplotlib.ticker import LogFormatter, LogFormatterMathtext
+
+    for ax in fig.axes:
+        for axis in (ax.xaxis, ax.yaxis):
+            for get, put in ((axis.get_major_formatter, axis.set_major_formatter),
+                             (axis.get_minor_formatter, axis.set_minor_formatter)):
+                fmt = get()
+                if isinstance(fmt, LogFormatterMathtext):
+                    put(LogFormatter(base=getattr(fmt, "_base", 10.0), labelOnlyBase=fmt.labelOnlyBase,
+                                     minor_thresholds=fmt.minor_thresholds))
 
 
 def legend_outside(ax, handles=None, labels=None, fontsize: float = 7.5, title: str | None = None, max_rows: int = 24):
