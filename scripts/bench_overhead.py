@@ -9,7 +9,7 @@ Calibration: the machine's cost of one Sturm count per grid node (fdsolver.numer
 10^6 nodes, ns per node, measured in the same run), so figures from different machines compare.
 
 1. start-up: a bare Python start, `fdsolver --version`, `fdsolver --help`, and a cold `fdsolver solve` of a
-   bundled case (numba cache warm: one untimed run first).  Targets: --help and --version < 0.15 s CPU;
+   bundled case (numba cache warm: one untimed run first), printed and written to an archive.  Targets: --help and --version < 0.15 s CPU;
    the cold solve < 0.8 s CPU.
 2. per solve: every bundled case solved warm; the ratio printed is
    measured CPU / (node-states x Sturm ns per node), where node-states = sum over grid levels of
@@ -33,6 +33,7 @@ import resource  # noqa: E402
 import statistics  # noqa: E402
 import subprocess  # noqa: E402
 import sys  # noqa: E402
+import tempfile  # noqa: E402
 import time  # noqa: E402
 from pathlib import Path  # noqa: E402
 
@@ -76,11 +77,13 @@ def calibrate(repeat: int) -> float:
 def startup(repeat: int) -> None:
     py = sys.executable
     case = str(ROOT / "cases" / "coupled_wells.toml")
+    archive = str(Path(tempfile.mkdtemp()) / "run.nc")
     commands = [
         ("python -c pass (bare start)", [py, "-c", "pass"], None),
         ("fdsolver --version", [py, "-m", "fdsolver", "--version"], 0.15),
         ("fdsolver --help", [py, "-m", "fdsolver", "--help"], 0.15),
         ("fdsolver solve coupled_wells (cold)", [py, "-m", "fdsolver", "solve", case], 0.8),
+        ("  the same with -o run.nc (archive)", [py, "-m", "fdsolver", "solve", case, "-o", archive], 0.8),
     ]
     child_cpu(commands[-1][1])  # the numba cache is warm from here on
     print("1. start-up (child processes; seconds)")

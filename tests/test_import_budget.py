@@ -71,3 +71,41 @@ def test_the_check_sees_a_heavy_import(tmp_path):
     case.write_text('title = "one point interaction (invented)"\n[[potential]]\nshape = "point"\ncenter = 0\nstrength = 1\n')
     loaded = loaded_by(RUN_ENTRY_POINT, json.dumps(["solve", str(case)]))
     assert "numba" in loaded and not loaded.isdisjoint(HELP)
+
+
+def test_writing_an_archive_loads_no_unused_array_library(tmp_path):
+    """``solve -o`` builds a Dataset and writes it without importing Dask, its scheduler or pint (installed here:
+    pint is a dependency, Dask comes with the test extra), which xarray would otherwise import to ask whether each
+    value is one of their arrays (1.4 to 2 s of CPU, measured; see fdsolver/io/lightxr.py)."""
+    import importlib.util
+
+    assert importlib.util.find_spec("dask") and importlib.util.find_spec("pint")  # else the check proves nothing
+    case = tmp_path / "point.toml"
+    case.write_text('title = "one point interaction (invented)"\n[[potential]]\nshape = "point"\ncenter = 0\nstrength = 1\n')
+    loaded = loaded_by(RUN_ENTRY_POINT, json.dumps(["solve", str(case), "-o", str(tmp_path / "run.nc")]))
+    assert (tmp_path / "run.nc").stat().st_size > 0
+    assert {"xarray", "netCDF4"} <= loaded
+    assert loaded.isdisjoint({"dask", "distributed", "pint"}), sorted(loaded & {"dask", "distributed", "pint"})
+
+
+def test_deferred_array_checks_answer_as_xarray_does():
+    """Once a library is imported, xarray recognises its arrays again (pint Quantity, a Dask array), and a plain
+    array is not taken for a Dask collection: the deferral changes imports, not answers."""
+    code = """
+import json, sys
+from fdsolver.io.lightxr import xarray
+xr = xarray()
+import numpy as np
+from xarray.namedarray.pycompat import array_type, is_chunked_array
+before = [array_type("pint") == (), array_type("dask") == (), is_chunked_array(np.zeros(3))]
+import pint, dask.array as da
+q = pint.UnitRegistry().Quantity(np.ones(3), "m")
+after = [isinstance(q, array_type("pint")), isinstance(da.ones(3), array_type("dask")), is_chunked_array(da.ones(3)),
+         xr.DataArray(da.ones(4), dims="x").chunks is not None]
+print("MODULES " + json.dumps([*before, *after]))
+"""
+    env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(PACKAGE_PARENT), os.environ.get("PYTHONPATH", "")]))
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, timeout=120)
+    assert proc.returncode == 0, proc.stderr
+    answers = json.loads(proc.stdout.rsplit("MODULES ", 1)[1])
+    assert answers == [True, True, False, True, True, True, True], answers

@@ -40,6 +40,7 @@ import numpy as np
 from fdsolver._version import __version__
 from fdsolver.errors import ArchiveError, CaseError, printable, shorten, write_failure
 from fdsolver.io.datasets import check
+from fdsolver.io.lightxr import store_netcdf, xarray
 from fdsolver.limits import ARCHIVE_MEMORY_MB, MAX_MEMORY_MB, MAX_VARIABLES
 
 if TYPE_CHECKING:
@@ -160,7 +161,7 @@ def write_dataset(ds: xr.Dataset, path) -> Path:
         try:
             fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
             os.close(fd)
-            ds.to_netcdf(tmp, engine="netcdf4", encoding=encoding)
+            store_netcdf(ds, tmp, encoding)
             umask = os.umask(0)
             os.umask(umask)
             os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; archives get the usual permissions
@@ -230,8 +231,7 @@ def open_run(path, *, memory_mb: float = ARCHIVE_MEMORY_MB) -> xr.Dataset:
                            "reading an archive; nothing was read (open_run(path, memory_mb=...) raises it)",
                            file=str(path))
     try:
-        import xarray as xr
-
+        xr = xarray()
         with xr.open_dataset(p, engine="netcdf4") as lazy:  # nothing is read yet but the attributes
             kind = untrusted.kind_attribute(lazy.attrs, path)
             attrs = untrusted.global_attributes(lazy.attrs, kind, path)

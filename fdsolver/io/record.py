@@ -66,9 +66,9 @@ class Record:
 
     def dataset(self):
         """The :class:`xarray.Dataset` of the archive (imports xarray)."""
-        import xarray as xr
+        from fdsolver.io.lightxr import xarray
 
-        return xr.Dataset(
+        return xarray().Dataset(
             data_vars={k: (f.dims, f.values, f.attrs) for k, f in self.data.items()},
             coords={k: (f.dims, f.values, f.attrs) for k, f in self.coords.items()},
             attrs=self.attrs,

@@ -1,0 +1,115 @@
+"""xarray, imported so that building or writing a Dataset does not import array libraries nobody uses.
+
+When it first turns data into a Dataset, xarray asks of every value whether it
+is a Dask, pint, CuPy, sparse or cubed array, and to answer it imports each of
+those libraries that is installed.  pint is a dependency of fdsolver and Dask
+comes with the cluster extra, so that question alone cost 1.4 to 2 s of CPU on
+a cold ``fdsolver solve -o run.nc`` (measured 2026-12-02, see DEVELOPERS.md,
+"Benchmark: start-up").
+
+An array of a library can only exist once that library has been imported.
+:func:`xarray` therefore gives xarray, for each such library not yet imported,
+an answer that is computed when it is asked: "no array type" while the library
+is absent from ``sys.modules``, and xarray's own answer (which imports the
+library) as soon as it is there.  The result of every type check is the one
+xarray itself would give; only the imports are saved.  If xarray's private
+cache moves in a later release nothing is installed and xarray behaves as
+shipped (only slower to start).
+
+xarray also asks of every value whether it is a Dask collection, and imports
+Dask to ask.  Dask's own answer is False for any object without a callable
+``__dask_graph__`` attribute (``dask.base.is_dask_collection``), so that test
+is made first and Dask is consulted only for an object that has one.
+
+Writing goes through :func:`store_netcdf`, which is ``Dataset.to_netcdf``
+without its probe of the Dask scheduler (that probe imports Dask and Dask's
+distributed scheduler, about 0.5 s, to learn how to lock chunked writes;
+fdsolver's Datasets are never chunked, and the file is a fresh temporary one,
+so the netCDF4 library lock xarray takes anyway is the only lock needed).
+"""
+
+from __future__ import annotations
+
+import sys
+from types import ModuleType
+from typing import Any
+
+#: the optional array libraries xarray checks values against (xarray.namedarray.pycompat)
+ARRAY_LIBRARIES = ("dask", "pint", "cupy", "sparse", "cubed")
+
+_installed = False
+
+
+class _Deferred:
+    """xarray's record of one array library, made only once the library is imported."""
+
+    def __init__(self, name: str, cache: dict, maker) -> None:
+        self._name, self._cache, self._maker = name, cache, maker
+
+    def _real(self) -> Any:
+        real = self._maker(self._name)  # imports the library, as xarray would have
+        self._cache[self._name] = real
+        return real
+
+    @property
+    def type(self) -> tuple:
+        if sys.modules.get(self._name) is None:
+            return ()  # nothing can be an instance of a class that was never imported
+        return self._real().type
+
+    def __getattr__(self, attr: str) -> Any:
+        return getattr(self._real(), attr)
+
+
+def xarray() -> ModuleType:
+    """The xarray module, with the array-library checks deferred as described above (idempotent)."""
+    global _installed
+    import xarray as xr
+
+    if not _installed:
+        _installed = True
+        try:
+            from xarray.namedarray import pycompat
+
+            cache = pycompat._cached_duck_array_modules
+            maker = pycompat.DuckArrayModule
+        except (ImportError, AttributeError):  # a later xarray: behave as shipped
+            return xr
+        if isinstance(cache, dict):
+            for name in ARRAY_LIBRARIES:
+                if name not in cache and sys.modules.get(name) is None:
+                    cache[name] = _Deferred(name, cache, maker)
+        _check_graph_first()
+    return xr
+
+
+def _check_graph_first() -> None:
+    """Ask Dask whether a value is a Dask collection only when the value has a callable ``__dask_graph__``."""
+    try:
+        from xarray.namedarray import utils
+    except ImportError:
+        return
+    shipped = getattr(utils, "is_dask_collection", None)
+    if shipped is None or getattr(shipped, "_graph_first", False):
+        return
+
+    def is_dask_collection(x: object) -> bool:
+        if isinstance(x, type) or not callable(getattr(x, "__dask_graph__", None)):
+            return False  # what dask.base.is_dask_collection answers for such an object
+        return shipped(x)
+
+    is_dask_collection._graph_first = True  # type: ignore[attr-defined]
+    utils.is_dask_collection = is_dask_collection
+
+
+def store_netcdf(ds, path: str, encoding: dict) -> None:
+    """Write ``ds`` (not chunked) to a new NETCDF4 file at ``path`` with ``encoding``, through xarray's netCDF4
+    store: the same file ``ds.to_netcdf(path, engine="netcdf4", encoding=encoding)`` writes."""
+    xr = xarray()
+    from xarray.backends.netCDF4_ import NETCDF4_PYTHON_LOCK
+
+    store = xr.backends.NetCDF4DataStore.open(path, mode="w", format="NETCDF4", lock=NETCDF4_PYTHON_LOCK)
+    try:
+        ds.dump_to_store(store, encoding=encoding)
+    finally:
+        store.close()
