@@ -36,7 +36,7 @@ import math
 
 import numpy as np
 
-from fdsolver.numerics.kernels import lipschitz_limit
+from fdsolver.numerics.kernels import coarse_midpoints, grid_samples, lipschitz_limit, segment_nodes
 
 
 #: uniform samples of the spacing function over the box before the samples are refined where it asks for it
@@ -51,27 +51,6 @@ class GridSettings:
     wave_fraction: float = 0.5
     growth: float = 0.25
     min_cells_per_segment: int = 2
-
-
-def _segment_nodes(bounds: np.ndarray, xs: np.ndarray, hs: np.ndarray, min_cells: int) -> np.ndarray:
-    """Nodes on [bounds[0], bounds[-1]] with every bound a node and local spacing close to h(x).
-
-    xi(x) = int dx / h counts the cells wanted up to x (trapezoid over the
-    samples, which include every bound); segment k gets
-    max(min_cells, ceil(xi(b_k+1) - xi(b_k))) cells placed at equal steps of xi.
-    All segments at once: O(samples + nodes).
-    """
-    inv = 1.0 / hs
-    xi = np.concatenate([[0.0], np.cumsum(0.5 * (inv[1:] + inv[:-1]) * np.diff(xs))])
-    xb = np.interp(bounds, xs, xi)
-    n = np.maximum(min_cells, np.ceil(np.diff(xb) - 1e-9)).astype(np.int64)
-    start = np.concatenate([[0], np.cumsum(n)])
-    seg = np.repeat(np.arange(n.size), n)
-    j = np.arange(start[-1]) - start[seg]
-    targets = xb[seg] + (xb[seg + 1] - xb[seg]) * (j / n[seg])
-    nodes = np.interp(targets, xi, xs)
-    nodes[j == 0] = bounds[:-1]  # the bounds themselves, exactly
-    return np.concatenate([nodes, bounds[-1:]])
 
 
 def base_grid(
@@ -100,27 +79,14 @@ def base_grid(
                 kept.append(b)
         bps = np.asarray(kept)
     bounds = np.concatenate([[lo], bps, [hi]])
-    # samples: dense near every bound (geometric), plus a uniform background
     width = hi - lo
-    sample = [np.linspace(lo, hi, BACKGROUND_SAMPLES)]
-    local = spacing(bounds)
-    # geometric offsets from every bound, each reaching only as far as the farther neighbouring bound
-    offs = np.cumsum(0.05 * (1.0 + settings.growth * 0.5) ** np.arange(0, 400))
-    gap = np.maximum(np.diff(bounds, prepend=bounds[0]), np.diff(bounds, append=bounds[-1]))
-    reach = np.minimum(np.maximum(gap, 0.0), width)
-    steps = local[:, None] * offs[None, :]
-    keep = steps < reach[:, None]
-    around = bounds[:, None] + np.where(keep, steps, np.nan)
-    below = bounds[:, None] - np.where(keep, steps, np.nan)
-    sample.extend([around[keep], below[keep]])
-    xs = np.unique(np.clip(np.concatenate(sample + [bounds]), lo, hi))
+    # samples: dense near every bound (geometric), plus a uniform background; refined where the spacing asks
+    xs = grid_samples(lo, hi, bounds, spacing(bounds), settings.growth, BACKGROUND_SAMPLES)
     for _ in range(8):
         hs = lipschitz_limit(xs, np.minimum(spacing(xs), width / 4.0), settings.growth)
-        gaps = np.diff(xs)
-        coarse = gaps > 0.25 * np.minimum(hs[1:], hs[:-1])
-        if not np.any(coarse):
+        mids = coarse_midpoints(xs, hs)
+        if mids.size == 0:
             break
-        mids = 0.5 * (xs[1:] + xs[:-1])[coarse]
         xs = np.unique(np.concatenate([xs, mids]))
     else:
         hs = lipschitz_limit(xs, np.minimum(spacing(xs), width / 4.0), settings.growth)
@@ -134,7 +100,7 @@ def base_grid(
                 "raise [solve] memory_mb or loosen the tolerance",
                 key="solve.memory_mb",
             )
-    return _segment_nodes(bounds, xs, hs, settings.min_cells_per_segment)
+    return segment_nodes(bounds, xs, hs, settings.min_cells_per_segment)
 
 
 def refine(nodes: np.ndarray, level: int) -> np.ndarray:

@@ -449,3 +449,159 @@ def lipschitz_limit(x, h, growth):
         if lim < out[i]:
             out[i] = lim
     return out
+
+
+@njit
+def grid_samples(lo, hi, bounds, local, growth, background):
+    """Sorted distinct sample positions for a base grid on [lo, hi] (length unit).
+
+    ``background`` uniform samples, every bound, and from every bound
+    geometric offsets local_i * sum_{k<=j} 0.05 (1 + growth/2)^k outward on
+    both sides, each reaching only as far as the farther neighbouring bound
+    (at most the box width); everything clipped to [lo, hi].  O(S log S) for S
+    samples.
+    """
+    nb = bounds.shape[0]
+    width = hi - lo
+    offs = np.empty(400)
+    ratio = 1.0 + growth * 0.5
+    acc = 0.0
+    for k in range(400):
+        acc += 0.05 * ratio**k
+        offs[k] = acc
+    count = background + nb
+    reach = np.empty(nb)
+    for i in range(nb):
+        left = bounds[i] - bounds[i - 1] if i > 0 else 0.0
+        right = bounds[i + 1] - bounds[i] if i < nb - 1 else 0.0
+        reach[i] = min(max(max(left, right), 0.0), width)
+        for k in range(400):
+            if local[i] * offs[k] < reach[i]:
+                count += 2
+    out = np.empty(count)
+    step = (hi - lo) / (background - 1)
+    for j in range(background):
+        out[j] = lo + j * step
+    out[background - 1] = hi
+    m = background
+    for i in range(nb):
+        out[m] = bounds[i]
+        m += 1
+        for k in range(400):
+            s = local[i] * offs[k]
+            if s < reach[i]:
+                out[m] = bounds[i] + s
+                out[m + 1] = bounds[i] - s
+                m += 2
+    for j in range(count):
+        out[j] = min(max(out[j], lo), hi)
+    out.sort()
+    n = 1
+    for j in range(1, count):
+        if out[j] != out[n - 1]:
+            out[n] = out[j]
+            n += 1
+    return out[:n].copy()
+
+
+@njit
+def coarse_midpoints(x, h):
+    """Midpoints of the sample gaps wider than a quarter of the smaller spacing at their ends (empty if none)."""
+    n = x.shape[0]
+    count = 0
+    for i in range(n - 1):
+        if x[i + 1] - x[i] > 0.25 * min(h[i + 1], h[i]):
+            count += 1
+    out = np.empty(count)
+    m = 0
+    for i in range(n - 1):
+        if x[i + 1] - x[i] > 0.25 * min(h[i + 1], h[i]):
+            out[m] = 0.5 * (x[i + 1] + x[i])
+            m += 1
+    return out
+
+
+@njit
+def segment_nodes(bounds, x, h, min_cells):
+    """Nodes on [bounds[0], bounds[-1]] with every bound a node and local spacing close to h(x) (length unit).
+
+    xi(x) = int dx / h counts the cells wanted up to x (trapezoid over the
+    samples ``x``, which include every bound); segment k gets
+    max(min_cells, ceil(xi(b_k+1) - xi(b_k))) cells placed at equal steps of
+    xi, mapped back by linear interpolation.  O(samples + nodes).
+    """
+    ns = x.shape[0]
+    xi = np.empty(ns)
+    xi[0] = 0.0
+    acc = 0.0
+    for i in range(1, ns):
+        acc += 0.5 * (1.0 / h[i] + 1.0 / h[i - 1]) * (x[i] - x[i - 1])
+        xi[i] = acc
+    xb = np.interp(bounds, x, xi)
+    nb = bounds.shape[0]
+    cells = np.empty(nb - 1, dtype=np.int64)
+    total = 0
+    for k in range(nb - 1):
+        c = int(math.ceil(xb[k + 1] - xb[k] - 1e-9))
+        cells[k] = max(min_cells, c)
+        total += cells[k]
+    targets = np.empty(total)
+    m = 0
+    for k in range(nb - 1):
+        for j in range(cells[k]):
+            targets[m] = xb[k] + (xb[k + 1] - xb[k]) * (j / cells[k])
+            m += 1
+    nodes = np.empty(total + 1)
+    nodes[:total] = np.interp(targets, xi, x)
+    m = 0
+    for k in range(nb - 1):
+        nodes[m] = bounds[k]  # the bounds themselves, exactly
+        m += cells[k]
+    nodes[total] = bounds[nb - 1]
+    return nodes
+
+
+@njit
+def flux_operator(nodes, mass, il, ir, c, shift, neumann):
+    """Arrays of the flux-form operator on ``nodes`` (see :mod:`fdsolver.numerics.operator`), one pass.
+
+    ``mass`` per cell (m_e), ``il``/``ir`` the integrals of V - shift over the
+    left/right half of every cell (energy x length), ``c`` = hbar^2/(2 m_e) in
+    case units.  Returns (a, w, vint, v, d, e): couplings C/(m h) (a[0] = 0 for
+    a Neumann left end), node weights, dual-cell integrals, dual-cell averages
+    of V (unshifted), and the diagonal and off-diagonal of
+    T = W^-1/2 K W^-1/2, all without point terms.  ``ok`` is False when the
+    nodes do not increase strictly (the arrays are then meaningless).
+    """
+    ncell = nodes.shape[0] - 1
+    n = ncell if neumann else ncell - 1  # unknowns: nodes 0 .. ncell-1, or 1 .. ncell-1
+    a = np.empty(n + 1)
+    w = np.empty(n)
+    vint = np.empty(n)
+    ok = True
+    for j in range(ncell):
+        h = nodes[j + 1] - nodes[j]
+        if not h > 0.0:
+            ok = False
+            h = 1.0
+        if neumann:
+            a[j + 1] = c / (mass[j] * h)
+        else:
+            a[j] = c / (mass[j] * h)
+    if neumann:
+        a[0] = 0.0
+        w[0] = 0.5 * (nodes[1] - nodes[0])
+        vint[0] = il[0]
+    for i in range(1, ncell):
+        k = i if neumann else i - 1
+        w[k] = 0.5 * ((nodes[i] - nodes[i - 1]) + (nodes[i + 1] - nodes[i]))
+        vint[k] = ir[i - 1] + il[i]
+    v = np.empty(n)
+    d = np.empty(n)
+    e = np.empty(max(n - 1, 0))
+    for i in range(n):
+        v[i] = vint[i] / w[i] + shift
+        d[i] = (a[i] + a[i + 1] + vint[i]) / w[i]
+    for i in range(n - 1):
+        e[i] = -a[i + 1] / math.sqrt(w[i] * w[i + 1])
+    return a, w, vint, v, d, e, ok

@@ -41,6 +41,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from fdsolver.errors import CaseError
+from fdsolver.numerics.kernels import flux_operator
 
 DIRICHLET, NEUMANN = "dirichlet", "neumann"
 
@@ -72,31 +73,20 @@ class Operator:
 
 def assemble(potential, nodes: np.ndarray, shift: float = 0.0, left: str = DIRICHLET) -> Operator:
     """Assemble the operator of ``potential`` on ``nodes`` (see module docstring)."""
-    h = np.diff(nodes)
-    if np.any(h <= 0):
-        raise ValueError("grid nodes must be strictly increasing")
+    nodes = np.ascontiguousarray(nodes, dtype=float)
     mid = 0.5 * (nodes[:-1] + nodes[1:])
     mass = potential.mass_at(mid)
-    cell = potential.hbar2_2me / (mass * h)
     il, ir = potential.half_cell_integrals(nodes, shift)
-    if left == NEUMANN:
-        a = np.concatenate([[0.0], cell])
-        w = np.concatenate([[0.5 * h[0]], 0.5 * (h[:-1] + h[1:])])
-        vint = np.concatenate([[il[0]], ir[:-1] + il[1:]])
-        x = nodes[:-1]
-    else:
-        a = cell
-        w = 0.5 * (h[:-1] + h[1:])
-        vint = ir[:-1] + il[1:]
-        x = nodes[1:-1]
-    if not np.all(np.isfinite(vint)):
-        bad = x[~np.isfinite(vint)][0]
+    a, w, vw, v, d, e, ok = flux_operator(nodes, mass, il, ir, float(potential.hbar2_2me), float(shift), left == NEUMANN)
+    if not ok:
+        raise ValueError("grid nodes must be strictly increasing")
+    x = nodes[:-1] if left == NEUMANN else nodes[1:-1]
+    if not np.isfinite(vw).all():
+        bad = x[~np.isfinite(vw)][0]
         raise CaseError(
             f"the potential is not finite near x = {bad:g}; check its expression or table, or set [domain] left/right",
             key="potential",
         )
-    v = vint / w + shift
-    vw = vint.copy()
     terms = potential.point_terms()
     if terms:
         pos, alpha = (np.array(t, dtype=float) for t in zip(*terms))
@@ -110,8 +100,7 @@ def assemble(potential, nodes: np.ndarray, shift: float = 0.0, left: str = DIRIC
         if left == NEUMANN:  # a point on the mirror centre acts half on each half line
             alpha = np.where(i == 0, 0.5 * alpha, alpha)
         np.subtract.at(vw, i, alpha)
-    d = (a[:-1] + a[1:] + vw) / w
-    e = -a[1:-1] / np.sqrt(w[:-1] * w[1:])
+        d[i] = (a[i] + a[i + 1] + vw[i]) / w[i]
     return Operator(nodes=nodes, a=a, w=w, vw=vw, v=v, mass=mass, d=d, e=e, shift=float(shift), left=left)
 
 
