@@ -189,11 +189,11 @@ def _rayleigh_ritz(op: Operator, vectors: np.ndarray, first: np.ndarray) -> None
 
 
 def solve_grid(sectors, e_lo: float | None, e_hi: float, max_states: int, floor: float,
-               guess: list | None = None) -> GridStates:
+               guess: tuple | None = None) -> GridStates:
     """The lowest states with e_lo <= E < e_hi (at most ``max_states``) of the sectors (module docstring).
 
     ``floor`` is the smallest energy scale that counts (for relative
-    comparisons near E = 0).  ``guess``, predicted (energy, sector) pairs of
+    comparisons near E = 0).  ``guess``, predicted energies and sectors (two arrays) of
     exactly these states from a coarser grid, lets the eigenvalues be found
     by inverse iteration instead of bisection; the prediction is proved by
     Sturm counts and replaced by bisection where the proof fails.
@@ -231,37 +231,37 @@ def solve_grid(sectors, e_lo: float | None, e_hi: float, max_states: int, floor:
         vecs.append(got[0])
         energies.append(got[1])
         rounds.append(got[2])
-    energy = np.concatenate(energies)
-    sector_of = np.concatenate([np.full(e.size, s) for s, e in enumerate(energies)])
-    within = np.concatenate([np.arange(e.size) for e in energies])
+    energy = np.concatenate(energies) if len(energies) > 1 else energies[0]
+    sizes = [e.size for e in energies]
+    sector_of = np.repeat(np.arange(len(sectors)), sizes)
     if len(sectors) == 2:
         # mirror halves: by the oscillation theorem the even sector's j-th state is state 2j of the whole grid and
         # the odd sector's j-th is 2j + 1, so the order is exact even where the two energies agree to every digit
-        rank = np.where(sector_of == 0, 2 * (lows[0] + within), 2 * (lows[1] + within) + 1)
+        rank = np.concatenate([2 * (lows[0] + np.arange(sizes[0])), 2 * (lows[1] + np.arange(sizes[1])) + 1])
         order = np.argsort(rank, kind="stable")
     else:
         order = np.argsort(energy, kind="stable")
     if predicted is not None and not _complete(sectors, float(np.max(energy)), first_index + n, floor):
         return solve_grid(sectors, e_lo, e_hi, max_states, floor, None)
-    flat_vecs = [v for block in vecs for v in block]
-    parity = np.array([sectors[s].parity for s in sector_of], dtype=int)
-    keep = energy[order] < e_hi if math.isfinite(e_hi) else np.ones(order.size, dtype=bool)
-    order = order[keep]
+    if math.isfinite(e_hi):
+        order = order[energy[order] < e_hi]
+    flat_vecs = [v for block in vecs for v in block]  # the sectors' vectors differ in length
+    parity = np.array([s.parity for s in sectors], dtype=int)[sector_of]
     return GridStates(energy[order], first_index + np.arange(order.size), sector_of[order], parity[order],
-                      tuple(flat_vecs[i] for i in order), np.concatenate(rounds)[order],
-                      count_below - int(np.count_nonzero(~keep)), first_index)
+                      tuple(flat_vecs[i] for i in order), (np.concatenate(rounds) if len(rounds) > 1 else rounds[0])[order],
+                      count_below - (energy.size - order.size), first_index)
 
 
 def _predicted(guess, n_sectors: int, n: int):
-    """Per-sector arrays of predicted energies, or None if the guess does not describe exactly n states."""
-    if guess is None or len(guess) != n:
+    """Per-sector arrays of predicted energies, or None if the guess does not describe exactly n states.
+
+    ``guess`` is (energies, sectors), two arrays of one entry per state."""
+    if guess is None:
         return None
-    per = [[] for _ in range(n_sectors)]
-    for energy, sector in guess:
-        if not (0 <= sector < n_sectors and math.isfinite(energy)):
-            return None
-        per[sector].append(float(energy))
-    return [np.sort(np.asarray(v, dtype=float)) for v in per]
+    energy, sector = guess
+    if energy.size != n or not np.all(np.isfinite(energy)) or np.any((sector < 0) | (sector >= n_sectors)):
+        return None
+    return [np.sort(energy[sector == s]) for s in range(n_sectors)]
 
 
 def _sector_states(op: Operator, values: np.ndarray, lo: int, floor: float, prove: bool):

@@ -76,7 +76,7 @@ def _prediction(level_e: list, sectors: np.ndarray):
     if not level_e:
         return None
     nxt = level_e[-1] - (level_e[-2] - level_e[-1]) / 4.0 if len(level_e) >= 2 else level_e[-1]
-    return list(zip(nxt.tolist(), sectors.tolist()))
+    return np.asarray(nxt, dtype=float), np.asarray(sectors)
 
 
 def refine_levels(problem: Problem, base: np.ndarray, center: float | None, messages: list) -> LevelRun:

@@ -36,6 +36,7 @@ read in the chosen system, a one-line note says which (:attr:`Conversion.note`).
 from __future__ import annotations
 
 import ast
+import functools
 import math
 import re
 from collections.abc import Mapping
@@ -187,7 +188,14 @@ class Conversion:
                 "that names materials or gives values with units")
 
 
-def _names(text: str) -> set[str]:
+@functools.lru_cache(maxsize=4096)
+def _names(text: str) -> frozenset[str]:
+    """The param names an expression uses (not its function names, nor pi, e and x); remembered per text, since
+    every sweep point converts the same case text again."""
+    return frozenset(_parse_names(text))
+
+
+def _parse_names(text: str) -> set[str]:
     try:
         tree = ast.parse(text.strip(), mode="eval")
     except (SyntaxError, ValueError, RecursionError, MemoryError):
