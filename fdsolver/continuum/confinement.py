@@ -10,7 +10,9 @@ A potential *leaks* on the open line when
   energy are quasi-bound.
 
 The enclosure is measured on V sampled over the features' span (4097 even
-points plus both sides of every feature): with L(x), R(x) the highest V to
+points plus both sides of every feature; for a V constant between its
+features, both sides of every feature and the middle of every gap sample
+every piece, which is all the even points add): with L(x), R(x) the highest V to
 the left and to the right of x, the region below min(L, R) is enclosed, and
 :func:`confined_top` is the highest min(L, R) over the points where V lies
 below it.  Repulsive point terms are not counted as barriers here.  Energies
@@ -39,7 +41,12 @@ def confined_top(potential) -> float | None:
         return None
     feats = np.asarray(potential.features(), dtype=float)
     d = 1e-9 * max(1.0, hi - lo)
-    xs = np.unique(np.concatenate([np.linspace(lo, hi, SAMPLES), feats - d, feats + d, [lo - d, hi + d]]))
+    if potential.piecewise_constant:
+        ends = np.unique(np.concatenate([feats, [lo, hi]]))
+        even = 0.5 * (ends[1:] + ends[:-1])
+    else:
+        even = np.linspace(lo, hi, SAMPLES)
+    xs = np.unique(np.concatenate([even, feats - d, feats + d, [lo - d, hi + d]]))
     with np.errstate(all="ignore"):
         v = potential.value(xs)
     if not np.all(np.isfinite(v)):

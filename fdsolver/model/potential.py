@@ -103,6 +103,11 @@ class Potential:
         """True if V is constant between the features (square wells, point terms, a layer stack)."""
         return all(s.piecewise_constant for s in self.shapes)
 
+    @property
+    def piecewise_constant(self) -> bool:
+        """True if V (without point terms) is constant between consecutive features."""
+        return self._piecewise_constant
+
     @cached_property
     def _point_terms(self) -> tuple[tuple[float, float], ...]:
         out: list[tuple[float, float]] = []
