@@ -53,11 +53,11 @@ def _before(tmp_path: Path) -> tuple[Path, bytes]:
 def test_disk_full_while_writing(solved, tmp_path, monkeypatch):
     target, old = _before(tmp_path)
 
-    def full(self, path, *args, **kwargs):
+    def full(ds, path, encoding):  # the NetCDF write (fdsolver.io.lightxr.store_netcdf) stops half way
         Path(path).write_bytes(b"half an archive")
         raise OSError(errno.ENOSPC, "No space left on device")
 
-    monkeypatch.setattr(type(solved), "to_netcdf", full)
+    monkeypatch.setattr(archive, "store_netcdf", full)
     with pytest.raises(CaseError, match="is full"):
         archive.write_dataset(solved, target)
     assert target.read_bytes() == old and sorted(p.name for p in tmp_path.iterdir()) == ["run.nc"]
@@ -68,14 +68,14 @@ def test_hdf_error_on_a_full_disk_is_called_a_full_disk(solved, tmp_path, monkey
     target, old = _before(tmp_path)
     calls = []
 
-    def hdf_error(self, path, *args, **kwargs):
+    def hdf_error(ds, path, encoding):
         raise RuntimeError("NetCDF: HDF error")
 
     def free(folder):
         calls.append(folder)
         return 10**12 if len(calls) == 1 else 1000  # room before the write, none after it
 
-    monkeypatch.setattr(type(solved), "to_netcdf", hdf_error)
+    monkeypatch.setattr(archive, "store_netcdf", hdf_error)
     monkeypatch.setattr(archive, "_free_bytes", free)
     with pytest.raises(CaseError, match="is full"):
         archive.write_dataset(solved, target)
