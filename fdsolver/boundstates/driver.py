@@ -55,8 +55,10 @@ BOX_RTOL = 1e-9
 BOX_CHECK_SAFETY = 2.0
 #: the energy range of the final grid reaches this fraction of the spectrum below the ground state
 BELOW_GROUND = 0.05
-#: below this tolerance the levels start from a base grid twice as fine in wave number (see _level_grid)
+#: below this tolerance the levels start from a base grid twice as fine in wave number (see _level_base)
 TIGHT_TOLERANCE = 1e-7
+#: ... when that base grid has at most this many nodes (beyond, the grid's work outweighs the per-level overhead)
+FINE_START_MAX_NODES = 2000
 
 
 def solve_potential(potential, domain: Domain, settings: SolveSettings) -> Solution:
@@ -172,23 +174,33 @@ def _top(problem: Problem, states, box) -> float:
 
 
 # --------------------------------------------------------------------- levels
-def _level_grid(settings: SolveSettings) -> GridSettings:
-    """The resolution the nested levels start from.
+def _level_base(problem: Problem, prov: Provisional) -> np.ndarray:
+    """The base grid the nested levels refine.
 
     A tight tolerance needs four or more levels; from the usual base (half a
     radian of the local wave per cell) the first of them lie before the
     asymptotic h^2, h^4 ... regime, where the Romberg table gains little from
-    them.  Below :data:`TIGHT_TOLERANCE` the base therefore resolves the wave
-    twice as finely (a quarter radian per cell; features keep their own
-    resolution): on the bundled cases at 1e-8 this converges with one level
-    fewer and a finest grid 10-20 % smaller, energies agreeing with the usual
-    start to 2 % of their error bars (measured 2026-12-02, DEVELOPERS.md,
-    "Benchmark: warm solves").  At looser tolerances three levels from the
-    usual base suffice and it is kept.
+    them, and on a small grid each level costs mostly its fixed overhead.
+    Below :data:`TIGHT_TOLERANCE` the base therefore resolves the wave twice
+    as finely (a quarter radian per cell; features keep their own
+    resolution) as long as it stays within :data:`FINE_START_MAX_NODES`: on
+    the bundled cases at 1e-8 this converges with one level fewer and a
+    finest grid 10-20 % smaller, energies agreeing with the usual start to
+    2 % of their error bars (measured 2026-12-02, DEVELOPERS.md, "Benchmark:
+    warm solves").  A larger grid, and any looser tolerance, starts from the
+    usual base: there the levels' work dominates, and under a memory budget
+    the extra coarse levels are what the extrapolation has.
     """
+    settings = problem.settings
     if settings.tolerance < TIGHT_TOLERANCE:
-        return replace(settings.grid, wave_fraction=0.5 * settings.grid.wave_fraction)
-    return settings.grid
+        fine = replace(settings.grid, wave_fraction=0.5 * settings.grid.wave_fraction)
+        try:
+            base = _grid(problem, prov.box, prov.e_lo, prov.e_hi, fine, prov.center)
+        except BudgetError:
+            base = None
+        if base is not None and base.size <= FINE_START_MAX_NODES:
+            return base
+    return _grid(problem, prov.box, prov.e_lo, prov.e_hi, settings.grid, prov.center)
 
 
 def _levels(problem: Problem, prov: Provisional) -> LevelRun:
@@ -201,7 +213,7 @@ def _levels(problem: Problem, prov: Provisional) -> LevelRun:
             e0, etop = (float(v) for v in problem.absolute(states.energy[[0, -1]]))
             prov.e_lo = e0 - BELOW_GROUND * max(abs(e0 - problem.reference), etop - e0)
             prov.e_hi = problem.threshold if math.isfinite(problem.threshold) else etop
-        base = _grid(problem, prov.box, prov.e_lo, prov.e_hi, _level_grid(settings), prov.center)
+        base = _level_base(problem, prov)
         run = refine_levels(problem, base, prov.center, problem.messages)
         if problem.domain.hard:
             break
