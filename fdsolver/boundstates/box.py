@@ -29,16 +29,19 @@ def length_scale(potential: Potential) -> float:
     return scale if scale > 0 else 1.0  # nothing to measure (e.g. a bare expression): one length unit
 
 
-def decay_extent(potential: Potential, start: float, side: int, e_top: float, budget: float, scale: float) -> float:
-    """Position beyond ``start`` (direction ``side``) where the WKB decay integral of energy e_top reaches ``budget``."""
-    c = potential.hbar2_2me
-    t = scale * 1e-3 * GROWTH ** np.arange(0, int(np.log(1e12) / np.log(GROWTH)) + 2)
-    t = t[t < scale * 1e9]
-    x = start + side * np.concatenate([[0.0], t])
-    with np.errstate(over="ignore", invalid="ignore"):
-        v = potential.value(x)
+#: sample distances of the decay walk in units of the length scale: 1e-3 growing by GROWTH up to 1e9
+_LADDER = GROWTH ** np.arange(0, int(np.log(1e12) / np.log(GROWTH)) + 2)
+
+
+def _walk(scale: float) -> np.ndarray:
+    t = scale * 1e-3 * _LADDER
+    return np.concatenate([[0.0], t[t < scale * 1e9]])
+
+
+def _extent(x: np.ndarray, v: np.ndarray, m: np.ndarray, c: float, e_top: float, budget: float) -> float:
+    """First sample of the walk ``x`` (V = ``v``, mass ``m``) where the WKB decay integral of e_top reaches budget."""
     v = np.where(np.isfinite(v), v, 1e300)
-    kappa = np.sqrt(np.maximum(0.0, potential.mass_at(x) * (v - e_top) / c))
+    kappa = np.sqrt(np.maximum(0.0, m * (v - e_top) / c))
     allowed = np.flatnonzero(v <= e_top)
     i0 = int(allowed[-1]) if allowed.size else 0
     seg = kappa[i0:]
@@ -49,23 +52,36 @@ def decay_extent(potential: Potential, start: float, side: int, e_top: float, bu
     return float(x[i0 + hit[0]])
 
 
-def open_box(pot: Potential, dom, e_top: float, budget: float, minimum) -> tuple[float, float]:
-    """Box for open ends: WKB decay budget of energy e_top on both sides, at least ``minimum``, symmetric when V is."""
+def decay_extent(potential: Potential, start: float, side: int, e_top: float, budget: float, scale: float) -> float:
+    """Position beyond ``start`` (direction ``side``) where the WKB decay integral of energy e_top reaches ``budget``."""
+    x = start + side * _walk(scale)
+    with np.errstate(over="ignore", invalid="ignore"):
+        v = potential.value(x)
+    return _extent(x, v, potential.mass_at(x), potential.hbar2_2me, e_top, budget)
+
+
+def open_box(pot: Potential, dom, e_top: float, budget: float, minimum, mirror: float | None) -> tuple[float, float]:
+    """Box for open ends: WKB decay budget of energy e_top on both sides, at least ``minimum``, and symmetric about
+    ``mirror`` (the potential's mirror centre, None if it has none) so that mirror nodes exist."""
     lo_s, hi_s = pot.support()
     scale = length_scale(pot)
-    lo = decay_extent(pot, lo_s, -1, e_top, budget, scale)
-    hi = decay_extent(pot, hi_s, +1, e_top, budget, scale)
+    t = _walk(scale)
+    x = np.concatenate([lo_s - t, hi_s + t])  # both walks in one evaluation of V
+    with np.errstate(over="ignore", invalid="ignore"):
+        v = pot.value(x)
+    m = pot.mass_at(x)
+    k = t.size
+    lo = _extent(x[:k], v[:k], m[:k], pot.hbar2_2me, e_top, budget)
+    hi = _extent(x[k:], v[k:], m[k:], pot.hbar2_2me, e_top, budget)
     lo = min(lo, minimum[0], lo_s - 0.5 * scale)
     hi = max(hi, minimum[1], hi_s + 0.5 * scale)
     if dom.left is not None:
         lo = min(lo, dom.left)
     if dom.right is not None:
         hi = max(hi, dom.right)
-    # a symmetric potential gets a symmetric box so mirror nodes exist
-    x0 = pot.mirror_center(lo_s - scale, hi_s + scale)
-    if x0 is not None:
-        half = max(x0 - lo, hi - x0)
-        lo, hi = x0 - half, x0 + half
+    if mirror is not None:
+        half = max(mirror - lo, hi - mirror)
+        lo, hi = mirror - half, mirror + half
     return (lo, hi)
 
 

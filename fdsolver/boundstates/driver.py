@@ -149,7 +149,7 @@ def _provisional(problem: Problem) -> Provisional:
         center = _center_for(problem, box)
         _, states = solve_nodes(problem, _grid(problem, box, e_lo, e_hi, coarse, center), center)
     # the box the shallowest state asks for; the levels check it again with the converged energies
-    box = open_box(pot, problem.domain, _top(problem, states, box), problem.budget, box)
+    box = open_box(pot, problem.domain, _top(problem, states, box), problem.budget, box, problem.mirror)
     return Provisional(box, _center_for(problem, box), e_lo, e_hi, states)
 
 
@@ -221,7 +221,7 @@ def _levels(problem: Problem, prov: Provisional) -> LevelRun:
             prov.box = _grow(prov.box)  # the fine grid binds a state the box cannot hold
         elif run.energy.size:
             need = open_box(problem.potential, problem.domain, _top(problem, run.states, prov.box), problem.budget,
-                            prov.box)
+                            prov.box, problem.mirror)
             if need[0] >= prov.box[0] - BOX_RTOL * problem.scale and need[1] <= prov.box[1] + BOX_RTOL * problem.scale:
                 break
             prov.box = need
