@@ -210,6 +210,32 @@ def test_many_random_siblings(seed):
                 f"sibling seed {seed} ({n_wells} wells, barriers <= {max_barrier} nm, symmetric={symmetric})")
 
 
+#: a 10-well mirror-symmetric sibling (seed 1020 of the sample above) whose two lowest even states, in unlike
+#: wells 6e-5 meV apart, are in the wrong order on grids up to about 6,000 nodes: their discrete levels cross
+#: only on a finer grid (the discretisation error of each state depends on its well)
+CROSSING_SEED = 1020
+
+
+def test_states_whose_levels_cross_on_a_fine_grid_get_their_own_indices():
+    """Refinement goes on until the extrapolated energies are in index order, then every check holds."""
+    n_wells, max_barrier, symmetric = _sibling(CROSSING_SEED)
+    assert (n_wells, symmetric) == (10, True)
+    sol, _ = check_stack(random_stack(CROSSING_SEED, n_wells, max_barrier, symmetric), "crossing sibling")
+    assert sol.level_sizes[-1] > 6000  # it did need the finer levels
+
+
+def test_levels_stopped_before_the_crossing_say_so_and_widen_the_bars():
+    """With too few levels allowed to reach the crossing, the two states' bars cover the exchange of their
+    energies (honest against the exact levels), they are not converged, and a note names them."""
+    layers = random_stack(CROSSING_SEED, *_sibling(CROSSING_SEED))
+    levels, _ = exact(_key(layers))
+    sol = solve(layers, max_levels=4)
+    ref = np.array([float(levels[i]) for i in sol.index])
+    assert np.all(np.abs(sol.energy - ref) <= sol.energy_error + 1e-9 * np.abs(ref))
+    assert not sol.converged[0] and not sol.converged[2]
+    assert any("out of order" in m and m.startswith("states 0, 2:") for m in sol.messages), sol.messages
+
+
 def test_reference_is_stable_under_more_digits():
     """The reference's own check: 30 more working digits change no level beyond 1e-28 of E, and no
     splitting above 1e-20 of E beyond 1e-6 of itself (common practice, no source)."""

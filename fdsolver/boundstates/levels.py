@@ -79,6 +79,20 @@ def _prediction(level_e: list, sectors: np.ndarray):
     return np.asarray(nxt, dtype=float), np.asarray(sectors)
 
 
+def _out_of_order(value: np.ndarray, err: np.ndarray) -> np.ndarray:
+    """How far each extrapolated energy lies from the value at its index in the sorted energies, where that is
+    more than the two errors (0 elsewhere).
+
+    On a grid the states are numbered by Sturm index, so their energies rise with it; their extrapolations
+    can still come out in the wrong order when two nearly equal states of different discretisation error
+    (states of two unlike wells) have not yet crossed on the finest grid: each extrapolation then follows
+    the other state's index.  Such states are not converged until a finer level separates them.
+    """
+    order = np.argsort(value, kind="stable")
+    off = np.abs(value - value[order])
+    return np.where(off > err + err[order], off, 0.0)
+
+
 def refine_levels(problem: Problem, base: np.ndarray, center: float | None, messages: list) -> LevelRun:
     """Solve nested refinements of ``base`` until every state has converged (module docstring)."""
     settings = problem.settings
@@ -124,8 +138,9 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
             continue
         err = table.error() + states.roundoff
         scale = problem.energy_scale(states.energy)
-        done = err <= tol * scale
-        limited = ~done & (ROUNDOFF_GROWTH * states.roundoff > tol * scale)
+        crossed = _out_of_order(table.value(), err) > 0 if table.levels >= 2 else np.zeros(states.size, dtype=bool)
+        done = (err <= tol * scale) & ~crossed
+        limited = ~done & ~crossed & (ROUNDOFF_GROWTH * states.roundoff > tol * scale)
         if table.levels >= settings.min_levels and (np.all(done) or np.all(done | limited)):
             break
     if states is None or states.size == 0:
@@ -152,5 +167,15 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
         # an inversion within the error bars (a doublet split below double precision): the two agree, in order
         if energy[k] - energy[k + 1] <= error[k] + error[k + 1]:
             energy[k] = energy[k + 1] = 0.5 * (energy[k] + energy[k + 1])
+    off = _out_of_order(energy, error)
+    if np.any(off > 0):
+        # beyond the bars: the levels of nearly equal states have not yet crossed on the finest grid, so an
+        # extrapolation may belong to another state's index; each such error covers the exchange (not converged)
+        error = np.maximum(error, off)
+        which = ", ".join(str(states.first_index + k) for k in np.flatnonzero(off > 0))
+        messages.append(f"states {which}: their extrapolated energies are out of order by up to {float(np.max(off)):.3g} "
+                        "(the grid levels have not yet separated nearly equal states of unlike wells; their discrete "
+                        "levels cross beyond the finest grid): which energy belongs to which index is uncertain by "
+                        "that much, and their errors include it")
     return LevelRun(energy, error, splitting, splitting_error, bound, states, sectors, nodes, last, level_e, level_n,
                     limited, base)
