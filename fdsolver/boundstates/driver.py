@@ -102,9 +102,13 @@ def _deep_reach(problem: Problem, e_lo: float) -> float | None:
     return problem.budget / kappa
 
 
-def _grid(problem: Problem, box, e_lo: float, e_hi: float, gs: GridSettings, center) -> np.ndarray:
+def _grid(problem: Problem, box, e_lo: float, e_hi: float, gs: GridSettings, center,
+          max_nodes: int | None = None) -> np.ndarray:
+    """The base grid for states in [e_lo, e_hi] (absolute); :class:`BudgetError` beyond ``max_nodes`` (default:
+    the problem's memory budget), found from the spacing before any node is placed."""
+    limit = problem.max_nodes if max_nodes is None else max_nodes
     spacing = spacing_function(problem.potential, e_lo, e_hi, gs, _deep_reach(problem, e_lo))
-    nodes = base_grid(spacing, problem.potential.features(), box[0], box[1], gs, center, problem.max_nodes)
+    nodes = base_grid(spacing, problem.potential.features(), box[0], box[1], gs, center, limit)
     if nodes.size > problem.max_nodes:
         raise BudgetError(
             f"the grid would need {nodes.size} nodes, more than the memory budget allows "
@@ -192,10 +196,12 @@ def _level_base(problem: Problem, prov: Provisional) -> np.ndarray:
     the extra coarse levels are what the extrapolation has.
     """
     settings = problem.settings
-    if settings.tolerance < TIGHT_TOLERANCE:
+    # every feature is a node with cells on both sides: many features rule the small grid out before any work
+    if settings.tolerance < TIGHT_TOLERANCE and problem.potential.features().size <= FINE_START_MAX_NODES // 4:
         fine = replace(settings.grid, wave_fraction=0.5 * settings.grid.wave_fraction)
-        try:
-            base = _grid(problem, prov.box, prov.e_lo, prov.e_hi, fine, prov.center)
+        try:  # the budget check inside base_grid gives up early on a grid that would be larger
+            base = _grid(problem, prov.box, prov.e_lo, prov.e_hi, fine, prov.center,
+                         min(problem.max_nodes, FINE_START_MAX_NODES))
         except BudgetError:
             base = None
         if base is not None and base.size <= FINE_START_MAX_NODES:

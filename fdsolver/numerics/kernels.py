@@ -574,28 +574,27 @@ def flux_operator(nodes, mass, il, ir, c, shift, neumann):
     nodes do not increase strictly (the arrays are then meaningless).
     """
     ncell = nodes.shape[0] - 1
-    n = ncell if neumann else ncell - 1  # unknowns: nodes 0 .. ncell-1, or 1 .. ncell-1
-    a = np.empty(n + 1)
-    w = np.empty(n)
-    vint = np.empty(n)
+    off = 1 if neumann else 0  # index of cell j's coupling in a; of node i's unknown: i - 1 + off
+    n = ncell - 1 + off  # unknowns: nodes 0 .. ncell-1 (Neumann left end), or 1 .. ncell-1
+    h = np.empty(ncell)
     ok = True
     for j in range(ncell):
-        h = nodes[j + 1] - nodes[j]
-        if not h > 0.0:
+        h[j] = nodes[j + 1] - nodes[j]
+        if not h[j] > 0.0:
             ok = False
-            h = 1.0
-        if neumann:
-            a[j + 1] = c / (mass[j] * h)
-        else:
-            a[j] = c / (mass[j] * h)
+            h[j] = 1.0
+    a = np.empty(n + 1)
+    a[0] = 0.0
+    for j in range(ncell):
+        a[j + off] = c / (mass[j] * h[j])
+    w = np.empty(n)
+    vint = np.empty(n)
     if neumann:
-        a[0] = 0.0
-        w[0] = 0.5 * (nodes[1] - nodes[0])
+        w[0] = 0.5 * h[0]
         vint[0] = il[0]
     for i in range(1, ncell):
-        k = i if neumann else i - 1
-        w[k] = 0.5 * ((nodes[i] - nodes[i - 1]) + (nodes[i + 1] - nodes[i]))
-        vint[k] = ir[i - 1] + il[i]
+        w[i - 1 + off] = 0.5 * (h[i - 1] + h[i])
+        vint[i - 1 + off] = ir[i - 1] + il[i]
     v = np.empty(n)
     d = np.empty(n)
     e = np.empty(max(n - 1, 0))
