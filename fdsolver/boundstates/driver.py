@@ -211,7 +211,6 @@ def _level_base(problem: Problem, prov: Provisional) -> np.ndarray:
 
 def _levels(problem: Problem, prov: Provisional) -> LevelRun:
     """Nested levels on the final box, growing it while the converged shallowest state asks for more."""
-    settings = problem.settings
     run = None
     for _round in range(MAX_BOX_ROUNDS):
         states = prov.states

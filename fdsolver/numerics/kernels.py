@@ -542,7 +542,7 @@ def segment_nodes(bounds, x, h, min_cells):
     cells = np.empty(nb - 1, dtype=np.int64)
     total = 0
     for k in range(nb - 1):
-        c = int(math.ceil(xb[k + 1] - xb[k] - 1e-9))
+        c = math.ceil(xb[k + 1] - xb[k] - 1e-9)
         cells[k] = max(min_cells, c)
         total += cells[k]
     targets = np.empty(total)
