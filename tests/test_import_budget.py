@@ -76,7 +76,7 @@ def test_the_check_sees_a_heavy_import(tmp_path):
 def test_writing_an_archive_loads_no_unused_array_library(tmp_path):
     """``solve -o`` builds a Dataset and writes it without importing Dask, its scheduler or pint (installed here:
     pint is a dependency, Dask comes with the test extra), which xarray would otherwise import to ask whether each
-    value is one of their arrays (1.4 to 2 s of CPU, measured; see fdsolver/io/lightxr.py)."""
+    value is one of their arrays (about 2 s of CPU with the write's scheduler probe, measured; see fdsolver/io/lightxr.py)."""
     import importlib.util
 
     assert importlib.util.find_spec("dask") and importlib.util.find_spec("pint")  # else the check proves nothing

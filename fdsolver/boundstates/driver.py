@@ -190,10 +190,11 @@ def _level_base(problem: Problem, prov: Provisional) -> np.ndarray:
     resolution) as long as it stays within :data:`FINE_START_MAX_NODES`: on
     the bundled cases at 1e-8 this converges with one level fewer and a
     finest grid 10-20 % smaller, energies agreeing with the usual start to
-    2 % of their error bars (measured 2026-12-02, DEVELOPERS.md, "Benchmark:
-    warm solves").  A larger grid, and any looser tolerance, starts from the
-    usual base: there the levels' work dominates, and under a memory budget
-    the extra coarse levels are what the extrapolation has.
+    2 % of their error bars (measured 2026-12-02; DEVELOPERS.md, "Numerics:
+    decisions" and "Benchmark: start-up, per-solve overhead, many states").
+    A larger grid, and any looser tolerance, starts from the usual base:
+    there the levels' work dominates, and under a memory budget the extra
+    coarse levels are what the extrapolation has.
     """
     settings = problem.settings
     # every feature is a node with cells on both sides: many features rule the small grid out before any work

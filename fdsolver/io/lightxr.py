@@ -3,9 +3,10 @@
 When it first turns data into a Dataset, xarray asks of every value whether it
 is a Dask, pint, CuPy, sparse or cubed array, and to answer it imports each of
 those libraries that is installed.  pint is a dependency of fdsolver and Dask
-comes with the cluster extra, so that question alone cost 1.4 to 2 s of CPU on
-a cold ``fdsolver solve -o run.nc`` (measured 2026-12-02, see DEVELOPERS.md,
-"Benchmark: start-up").
+comes with the cluster extra; with the Dask scheduler the write imported (below)
+they made a cold ``fdsolver solve -o run.nc`` cost 4.2-4.8 s of CPU instead of
+2.2-2.7 s (measured 2026-12-02, see DEVELOPERS.md, "Benchmark: start-up,
+per-solve overhead, many states").
 
 An array of a library can only exist once that library has been imported.
 :func:`xarray` therefore gives xarray, for each such library not yet imported,
