@@ -14,6 +14,12 @@
   ulps of the energy scale rather than of the matrix norm (which grows as
   1/h_min^2 on graded grids).
 * :func:`lipschitz_limit` - the lower envelope min_j (h_j + g |x_i - x_j|).
+* :func:`grid_samples`, :func:`coarse_midpoints`, :func:`segment_nodes` - the
+  sampling of the spacing function and the node placement of a base grid
+  (:mod:`fdsolver.numerics.grid`), one pass each instead of a chain of numpy
+  calls (a base grid is built twice per solve, on a few hundred samples).
+* :func:`flux_operator` - the arrays of the flux-form operator
+  (:mod:`fdsolver.numerics.operator`) in one pass over the cells.
 
 Numba is used here because these loops are sequential recurrences that numpy
 cannot vectorise; measured figures are in DEVELOPERS.md.  Compilation results
