@@ -55,10 +55,6 @@ BOX_RTOL = 1e-9
 BOX_CHECK_SAFETY = 2.0
 #: the energy range of the final grid reaches this fraction of the spectrum below the ground state
 BELOW_GROUND = 0.05
-#: below this tolerance the levels start from a base grid twice as fine in wave number (see _level_base)
-TIGHT_TOLERANCE = 1e-7
-#: ... when that base grid has at most this many nodes (beyond, the grid's work outweighs the per-level overhead)
-FINE_START_MAX_NODES = 2000
 
 
 def solve_potential(potential, domain: Domain, settings: SolveSettings) -> Solution:
@@ -102,13 +98,10 @@ def _deep_reach(problem: Problem, e_lo: float) -> float | None:
     return problem.budget / kappa
 
 
-def _grid(problem: Problem, box, e_lo: float, e_hi: float, gs: GridSettings, center,
-          max_nodes: int | None = None) -> np.ndarray:
-    """The base grid for states in [e_lo, e_hi] (absolute); :class:`BudgetError` beyond ``max_nodes`` (default:
-    the problem's memory budget), found from the spacing before any node is placed."""
-    limit = problem.max_nodes if max_nodes is None else max_nodes
+def _grid(problem: Problem, box, e_lo: float, e_hi: float, gs: GridSettings, center) -> np.ndarray:
+    """The base grid for states in [e_lo, e_hi] (absolute); :class:`BudgetError` beyond the memory budget."""
     spacing = spacing_function(problem.potential, e_lo, e_hi, gs, _deep_reach(problem, e_lo))
-    nodes = base_grid(spacing, problem.potential.features(), box[0], box[1], gs, center, limit)
+    nodes = base_grid(spacing, problem.potential.features(), box[0], box[1], gs, center, problem.max_nodes)
     if nodes.size > problem.max_nodes:
         raise BudgetError(
             f"the grid would need {nodes.size} nodes, more than the memory budget allows "
@@ -178,38 +171,6 @@ def _top(problem: Problem, states, box) -> float:
 
 
 # --------------------------------------------------------------------- levels
-def _level_base(problem: Problem, prov: Provisional) -> np.ndarray:
-    """The base grid the nested levels refine.
-
-    A tight tolerance needs four or more levels; from the usual base (half a
-    radian of the local wave per cell) the first of them lie before the
-    asymptotic h^2, h^4 ... regime, where the Romberg table gains little from
-    them, and on a small grid each level costs mostly its fixed overhead.
-    Below :data:`TIGHT_TOLERANCE` the base therefore resolves the wave twice
-    as finely (a quarter radian per cell; features keep their own
-    resolution) as long as it stays within :data:`FINE_START_MAX_NODES`: on
-    the bundled cases at 1e-8 this converges with one level fewer and a
-    finest grid 10-20 % smaller, energies agreeing with the usual start to
-    2 % of their error bars (measured 2026-12-02; DEVELOPERS.md, "Numerics:
-    decisions" and "Benchmark: start-up, per-solve overhead, many states").
-    A larger grid, and any looser tolerance, starts from the usual base:
-    there the levels' work dominates, and under a memory budget the extra
-    coarse levels are what the extrapolation has.
-    """
-    settings = problem.settings
-    # every feature is a node with cells on both sides: many features rule the small grid out before any work
-    if settings.tolerance < TIGHT_TOLERANCE and problem.potential.features().size <= FINE_START_MAX_NODES // 4:
-        fine = replace(settings.grid, wave_fraction=0.5 * settings.grid.wave_fraction)
-        try:  # the budget check inside base_grid gives up early on a grid that would be larger
-            base = _grid(problem, prov.box, prov.e_lo, prov.e_hi, fine, prov.center,
-                         min(problem.max_nodes, FINE_START_MAX_NODES))
-        except BudgetError:
-            base = None
-        if base is not None and base.size <= FINE_START_MAX_NODES:
-            return base
-    return _grid(problem, prov.box, prov.e_lo, prov.e_hi, settings.grid, prov.center)
-
-
 def _levels(problem: Problem, prov: Provisional) -> LevelRun:
     """Nested levels on the final box, growing it while the converged shallowest state asks for more."""
     run = None
@@ -219,7 +180,7 @@ def _levels(problem: Problem, prov: Provisional) -> LevelRun:
             e0, etop = (float(v) for v in problem.absolute(states.energy[[0, -1]]))
             prov.e_lo = e0 - BELOW_GROUND * max(abs(e0 - problem.reference), etop - e0)
             prov.e_hi = problem.threshold if math.isfinite(problem.threshold) else etop
-        base = _level_base(problem, prov)
+        base = _grid(problem, prov.box, prov.e_lo, prov.e_hi, problem.settings.grid, prov.center)
         run = refine_levels(problem, base, prov.center, problem.messages)
         if problem.domain.hard:
             break
