@@ -231,7 +231,7 @@ def solve_grid(sectors, e_lo: float | None, e_hi: float, max_states: int, floor:
         vecs.append(got[0])
         energies.append(got[1])
         rounds.append(got[2])
-    energy = np.concatenate(energies) if len(energies) > 1 else energies[0]
+    energy = np.concatenate(energies)
     sizes = [e.size for e in energies]
     sector_of = np.repeat(np.arange(len(sectors)), sizes)
     if len(sectors) == 2:
@@ -248,7 +248,7 @@ def solve_grid(sectors, e_lo: float | None, e_hi: float, max_states: int, floor:
     flat_vecs = [v for block in vecs for v in block]  # the sectors' vectors differ in length
     parity = np.array([s.parity for s in sectors], dtype=int)[sector_of]
     return GridStates(energy[order], first_index + np.arange(order.size), sector_of[order], parity[order],
-                      tuple(flat_vecs[i] for i in order), (np.concatenate(rounds) if len(rounds) > 1 else rounds[0])[order],
+                      tuple(flat_vecs[i] for i in order), np.concatenate(rounds)[order],
                       count_below - (energy.size - order.size), first_index)
 
 
