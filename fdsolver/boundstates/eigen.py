@@ -231,24 +231,28 @@ def solve_grid(sectors, e_lo: float | None, e_hi: float, max_states: int, floor:
         vecs.append(got[0])
         energies.append(got[1])
         rounds.append(got[2])
-    energy = np.concatenate(energies)
-    sizes = [e.size for e in energies]
-    sector_of = np.repeat(np.arange(len(sectors)), sizes)
     if len(sectors) == 2:
+        energy = np.concatenate(energies)
+        sizes = (energies[0].size, energies[1].size)
+        sector_of = np.concatenate([np.zeros(sizes[0], dtype=int), np.ones(sizes[1], dtype=int)])
         # mirror halves: by the oscillation theorem the even sector's j-th state is state 2j of the whole grid and
         # the odd sector's j-th is 2j + 1, so the order is exact even where the two energies agree to every digit
         rank = np.concatenate([2 * (lows[0] + np.arange(sizes[0])), 2 * (lows[1] + np.arange(sizes[1])) + 1])
         order = np.argsort(rank, kind="stable")
+        flat_vecs = [*vecs[0], *vecs[1]]  # the sectors' vectors differ in length
+        rounding = np.concatenate(rounds)
     else:
+        energy, rounding = energies[0], rounds[0]
+        sector_of = np.zeros(energy.size, dtype=int)
         order = np.argsort(energy, kind="stable")
-    if predicted is not None and not _complete(sectors, float(np.max(energy)), first_index + n, floor):
+        flat_vecs = vecs[0]
+    if predicted is not None and not _complete(sectors, float(energy.max()), first_index + n, floor):
         return solve_grid(sectors, e_lo, e_hi, max_states, floor, None)
     if math.isfinite(e_hi):
         order = order[energy[order] < e_hi]
-    flat_vecs = [v for block in vecs for v in block]  # the sectors' vectors differ in length
     parity = np.array([s.parity for s in sectors], dtype=int)[sector_of]
     return GridStates(energy[order], first_index + np.arange(order.size), sector_of[order], parity[order],
-                      tuple(flat_vecs[i] for i in order), np.concatenate(rounds)[order],
+                      tuple(flat_vecs[i] for i in order), rounding[order],
                       count_below - (energy.size - order.size), first_index)
 
 
@@ -259,8 +263,10 @@ def _predicted(guess, n_sectors: int, n: int):
     if guess is None:
         return None
     energy, sector = guess
-    if energy.size != n or not np.all(np.isfinite(energy)) or np.any((sector < 0) | (sector >= n_sectors)):
+    if energy.size != n or not np.isfinite(energy).all() or (n and (sector.min() < 0 or sector.max() >= n_sectors)):
         return None
+    if n_sectors == 1:
+        return [np.sort(energy)]
     return [np.sort(energy[sector == s]) for s in range(n_sectors)]
 
 

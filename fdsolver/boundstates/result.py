@@ -128,12 +128,19 @@ def _wall_zones(problem, box) -> list[tuple[int, float, float]]:
     return [(-1, box[0], float(feats[0])), (1, float(feats[-1]), box[1])]
 
 
-def _cell_overlap(x_all: np.ndarray, lo: float, hi: float) -> np.ndarray:
-    """Length of each node's dual cell inside [lo, hi]."""
+def _cell_overlaps(x_all: np.ndarray, intervals) -> np.ndarray:
+    """Length of each node's dual cell inside each of the ``intervals`` (lo, hi): one column per interval."""
+    bounds = np.asarray(intervals, dtype=float).reshape(-1, 2)
     h = np.diff(x_all)
     lo_cell = np.concatenate([[x_all[0]], x_all[1:] - 0.5 * h])
     hi_cell = np.concatenate([x_all[:-1] + 0.5 * h, [x_all[-1]]])
-    return np.clip(np.minimum(hi_cell, hi) - np.maximum(lo_cell, lo), 0.0, None)
+    return np.clip(np.minimum(hi_cell[:, None], bounds[None, :, 1]) - np.maximum(lo_cell[:, None], bounds[None, :, 0]),
+                   0.0, None)
+
+
+def _cell_overlap(x_all: np.ndarray, lo: float, hi: float) -> np.ndarray:
+    """Length of each node's dual cell inside [lo, hi]."""
+    return _cell_overlaps(x_all, [(lo, hi)])[:, 0]
 
 
 def finish(problem, box, center, run, box_error: np.ndarray, messages: list) -> Solution:
@@ -155,9 +162,8 @@ def finish(problem, box, center, run, box_error: np.ndarray, messages: list) -> 
     # per node: weight, weight * x, weight * x^2 and each region's and wall zone's share of the node's cell;
     # one product with psi^2 gives every state's norm-weighted sums (psi^2 made in chunks: memory O(N) per state)
     x_ref = 0.5 * sum(pot.support())  # second moments about the structure's middle: no cancellation against <x>
-    columns = np.column_stack([w_all * x_all, w_all * (x_all - x_ref) ** 2]
-                              + [_cell_overlap(x_all, rlo, rhi) for _, rlo, rhi in regions]
-                              + [_cell_overlap(x_all, lo, hi) for _, lo, hi in zones])
+    columns = np.column_stack([w_all * x_all, w_all * (x_all - x_ref) ** 2,
+                               _cell_overlaps(x_all, [(lo, hi) for _, lo, hi in regions] + [(lo, hi) for _, lo, hi in zones])])
     sums = np.empty((n, columns.shape[1]))
     for a in range(0, n, OBSERVABLE_CHUNK):
         sums[a : a + OBSERVABLE_CHUNK] = (psi[a : a + OBSERVABLE_CHUNK] ** 2) @ columns

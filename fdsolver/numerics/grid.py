@@ -36,7 +36,7 @@ import math
 
 import numpy as np
 
-from fdsolver.numerics.kernels import coarse_midpoints, grid_samples, lipschitz_limit, segment_nodes
+from fdsolver.numerics.kernels import coarse_midpoints, grid_samples, lipschitz_limit, segment_nodes, target_spacing
 
 
 #: uniform samples of the spacing function over the box before the samples are refined where it asks for it
@@ -135,44 +135,33 @@ def spacing_function(potential, e_lo: float, e_hi: float, gs: GridSettings, deep
     m_max = max(float(np.max(potential.mass_at(np.array(potential.support())))), potential.mass)
     lo_s, hi_s = potential.support()
 
-    def spacing(x):
-        x = np.asarray(x, dtype=float)
-        with np.errstate(invalid="ignore", over="ignore"):
-            v = potential.value(x)
-            m = potential.mass_at(x)
-            deep = np.abs(v - e_lo)
-            if deep_reach is not None:
-                far = np.maximum(lo_s - x, x - hi_s) > deep_reach
-                deep = np.where(far, 0.0, deep)
-            r2 = m * np.maximum(deep, np.abs(v - e_hi)) / c
-        r2 = np.minimum(np.where(np.isfinite(r2), r2, np.inf), r2_cap * m_max / potential.mass)
-        h = gs.wave_fraction / np.sqrt(r2 + 1e-300)
-        return np.minimum(h, cones(x))
-
     cone_p = [p for p, s in feats if math.isfinite(s)] + [p for p, _ in pts]
     cone_c = [gs.feature_fraction * s for _, s in feats if math.isfinite(s)] + [0.5 * gs.wave_fraction * s for _, s in pts]
-    cones = cone_envelope(np.asarray(cone_p, dtype=float), np.asarray(cone_c, dtype=float), gs.growth)
+    apex, left, right = _cone_tables(np.asarray(cone_p, dtype=float), np.asarray(cone_c, dtype=float), gs.growth)
+    reach = math.inf if deep_reach is None else float(deep_reach)
+    cap = float(r2_cap * m_max / potential.mass)
+
+    def spacing(x):
+        x = np.ascontiguousarray(x, dtype=float)
+        with np.errstate(invalid="ignore", over="ignore"):
+            v = np.ascontiguousarray(potential.value(x), dtype=float)
+            m = np.ascontiguousarray(potential.mass_at(x), dtype=float)
+        return target_spacing(x, v, m, float(e_lo), float(e_hi), float(c), reach, float(lo_s), float(hi_s), cap,
+                              float(gs.wave_fraction), apex, left, right, float(gs.growth))
+
     return spacing
 
 
-def cone_envelope(p: np.ndarray, c: np.ndarray, slope: float):
-    """x -> min_j (c_j + slope |x - p_j|) (inf without cones), in O((N + K) log K) for N samples and K cones.
+def _cone_tables(p: np.ndarray, c: np.ndarray, slope: float):
+    """Tables of the cone envelope x -> min_j (c_j + slope |x - p_j|) (inf without cones), O((N + K) log K) for N
+    samples and K cones: the sorted apexes p, prefix minima of c - slope p (inf first) and suffix minima of
+    c + slope p (inf last).
 
-    Left of x the minimum is min_{p_j <= x} (c_j - slope p_j) + slope x, right of
-    it min_{p_j >= x} (c_j + slope p_j) - slope x: prefix and suffix minima over
-    the sorted apexes.
+    Left of x the minimum is min_{p_j <= x} (c_j - slope p_j) + slope x, right of it
+    min_{p_j >= x} (c_j + slope p_j) - slope x; :func:`fdsolver.numerics.kernels.target_spacing` reads it.
     """
-    if p.size == 0:
-        return lambda x: np.full(np.shape(x), np.inf)
     order = np.argsort(p)
-    p, c = p[order], c[order]
+    p, c = np.ascontiguousarray(p[order]), c[order]
     left = np.concatenate([[np.inf], np.minimum.accumulate(c - slope * p)])
     right = np.concatenate([np.minimum.accumulate((c + slope * p)[::-1])[::-1], [np.inf]])
-
-    def envelope(x):
-        x = np.asarray(x, dtype=float)
-        k = np.searchsorted(p, x, side="right")  # apexes p[:k] are <= x
-        j = np.searchsorted(p, x, side="left")  # apexes p[j:] are >= x
-        return np.minimum(left[k] + slope * x, right[j] - slope * x)
-
-    return envelope
+    return p, left, right

@@ -18,6 +18,8 @@
   sampling of the spacing function and the node placement of a base grid
   (:mod:`fdsolver.numerics.grid`), one pass each instead of a chain of numpy
   calls (a base grid is built twice per solve, on a few hundred samples).
+* :func:`target_spacing` - the raw target spacing of a base grid from sampled V and m (the arithmetic
+  of :func:`fdsolver.numerics.grid.spacing_function` in one pass).
 * :func:`flux_operator` - the arrays of the flux-form operator
   (:mod:`fdsolver.numerics.operator`) in one pass over the cells.
 
@@ -508,6 +510,44 @@ def grid_samples(lo, hi, bounds, local, growth, background):
             out[n] = out[j]
             n += 1
     return out[:n].copy()
+
+
+@njit
+def target_spacing(x, v, m, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap, wave_fraction, apex, left, right, slope):
+    """The raw target spacing h(x) of a base grid from V and m sampled at ``x`` (length unit), one pass.
+
+    h = wave_fraction / sqrt(r2), r2 = m max(|V - e_lo|, |V - e_hi|) / c (|V - e_lo| taken as 0 farther than
+    ``reach`` outside [lo_s, hi_s]; a non-finite r2 counts as inf; r2 at most ``r2_cap``), then at most the cone
+    envelope min_j (c_j + slope |x - p_j|) over the sorted apexes ``apex`` with prefix minima ``left`` of
+    c_j - slope p_j and suffix minima ``right`` of c_j + slope p_j (:func:`fdsolver.numerics.grid._cone_tables`).
+    The same floating-point operations as the numpy form, in the same order.
+    """
+    n = x.shape[0]
+    out = np.empty(n)
+    n_apex = apex.shape[0]
+    for i in range(n):
+        xi = x[i]
+        deep = abs(v[i] - e_lo)
+        if max(lo_s - xi, xi - hi_s) > reach:
+            deep = 0.0
+        high = abs(v[i] - e_hi)
+        if deep != deep or high != high:
+            r2 = math.inf
+        else:
+            r2 = m[i] * (deep if deep >= high else high) / c
+            if not (abs(r2) < math.inf):
+                r2 = math.inf
+        if r2 > r2_cap:
+            r2 = r2_cap
+        h = wave_fraction / math.sqrt(r2 + 1e-300)
+        if n_apex:
+            k = np.searchsorted(apex, xi, side="right")
+            j = np.searchsorted(apex, xi, side="left")
+            cone = min(left[k] + slope * xi, right[j] - slope * xi)
+            if cone < h:
+                h = cone
+        out[i] = h
+    return out
 
 
 @njit
