@@ -230,6 +230,35 @@ def test_mirror_wells_alternate_parity(half, gap, x0, c):
     assert_ordered(sol, f"mirror wells {comps}")
 
 
+@settings(PROPS, max_examples=80)  # no solve: about 10 ms each
+@given(st.lists(st.tuples(dyadic(0.5, 20.0), dyadic(-4.0, 4.0, 3), dyadic(1.0, 80.0)), min_size=1, max_size=4),
+       dyadic(-10.0, 10.0), st.sampled_from(["equal", "deeper", "wider"]), st.sampled_from(["square", "gaussian"]))
+def test_mirror_decision_on_thin_wells(pairs, x0, change, shape):
+    """Mirror symmetry is decided however thin a well is: pairs of wells mirrored about x0, one of them of size
+    1e-4 nm (well under the spacing of any even sampling of the box), are symmetric when the pair is equal and
+    not when its right member is 1e-6 deeper in relative terms, or twice as wide (the definition,
+    V(x0 + u) = V(x0 - u) for all u; no source needed).  Square wells are constant between their edges and are
+    tested exactly; Gaussians across each centre on their own width.  A wrong 'symmetric' would solve the
+    structure as symmetric halves and give every state a parity it does not have."""
+    size = "width" if shape == "square" else "sigma"
+    comps = []
+    for k, (d, log_w, depth) in enumerate(pairs):
+        w = 10.0 ** log_w if k else 1e-4
+        right = {"shape": shape, "center": x0 + d + w, size: w, "depth": depth}
+        if k == 0 and change == "deeper":
+            right["depth"] = depth * (1.0 + 1e-6)
+        if k == 0 and change == "wider":
+            right[size] = 2.0 * w
+        comps += [{"shape": shape, "center": x0 - d - w, size: w, "depth": depth}, right]
+    case = fdsolver.case_from_dict({"units": "nm-meV", "mass": 0.067, "potential": comps})
+    lo, hi = x0 - 200.0, x0 + 200.0
+    got = case.potential.mirror_center(lo, hi)
+    if change == "equal":
+        assert got is not None and abs(got - x0) <= 1e-12 * max(1.0, abs(x0)), (comps, got)
+    else:
+        assert got is None, (comps, got)
+
+
 @settings(PROPS, max_examples=8)
 @given(dyadic(3.0, 12.0, 3), dyadic(40.0, 90.0, 3), dyadic(150.0, 400.0), masses, masses, dyadic(-500.0, 500.0, 3))
 # found by this property: E0 > E1 by one ulp-scale step, and a negative 'upper bound' of the splitting

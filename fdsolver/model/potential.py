@@ -205,9 +205,12 @@ class Potential:
     def mirror_center(self, lo: float, hi: float) -> float | None:
         """The point x0 about which V, m and the point terms are mirror-symmetric, or None.
 
-        Tested on 257 sample points of [lo, hi] (the solver's box) and densely
-        where the potential varies, to 1e-10 of the potential's range, and on
-        the asymptotes; remembered per interval.
+        Tested on 257 sample points of [lo, hi] (the solver's box), densely
+        where the potential varies and across every feature on its own length
+        scale, to 1e-10 of the potential's range, and on the asymptotes; a
+        potential constant between its features (which must mirror each other)
+        is tested exactly, in the middle of every piece.
+        Remembered per interval.
         """
         key = (float(lo), float(hi))
         if key not in self._mirror_memo:
@@ -242,6 +245,12 @@ class Potential:
             mirrored = np.sort(2.0 * x0 - feats)
             if np.max(np.abs(mirrored - feats)) > 1e-9 * span:
                 return None
+        if self._piecewise_constant:
+            # V and m are constant between the features, which mirror each other: one sample in the middle of
+            # every piece of the right half decides exactly
+            right = feats[(feats > x0) & (feats < x0 + half)]
+            ends = np.concatenate([[x0], right, [x0 + half]])
+            return self._mirrors(x0, 0.5 * (ends[1:] + ends[:-1]) - x0)
         # dense samples where the potential varies (the features' extent plus a few length scales), sparse beyond
         scales = [s for _, s in self.feature_scales() if math.isfinite(s)]
         inner = min(half, 0.5 * (float(feats[-1] - feats[0]) if feats.size else 0.0) + 3.0 * max(scales + [0.0]))
@@ -251,6 +260,15 @@ class Potential:
         s = np.concatenate(parts)
         # offset samples by an irrational fraction of their spacing so they avoid discontinuities
         s = np.abs(s - 0.3183098861837907 * np.concatenate([np.full(256, half / 256), np.full(s.size - 256, inner / 2048 if inner > 0 else 0.0)]))
+        # and across every feature of the right half on its own length scale, however thin it is
+        near = [(p - x0, q) for p, q in self.feature_scales() if math.isfinite(q) and p >= x0]
+        if near:
+            pos, size = (np.array(v, dtype=float) for v in zip(*near))
+            s = np.concatenate([s, np.abs((pos[:, None] + size[:, None] * _ACROSS_FEATURE[None, :]).ravel())])
+        return self._mirrors(x0, s)
+
+    def _mirrors(self, x0: float, s: np.ndarray) -> float | None:
+        """x0 if V (to 1e-10 of its range over the samples) and m agree at x0 - s and x0 + s, else None."""
         vl, vr = self.value(x0 - s), self.value(x0 + s)
         if not (np.all(np.isfinite(vl)) and np.all(np.isfinite(vr))):
             return None
@@ -261,6 +279,9 @@ class Potential:
             return None
         return float(x0)
 
+
+#: offsets across a feature, in its length scale, for the mirror test (irrational: they avoid its edges)
+_ACROSS_FEATURE = np.array([-2.718281828, -1.159, -0.3183098862, 0.3183098862, 1.159, 2.718281828])
 
 _GL_X = np.array([-np.sqrt(0.6), 0.0, np.sqrt(0.6)])
 _GL_W = np.array([5.0, 8.0, 5.0]) / 9.0
