@@ -531,21 +531,17 @@ def target_spacing(x, v, m, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap, wave_fract
         if max(lo_s - xi, xi - hi_s) > reach:
             deep = 0.0
         high = abs(v[i] - e_hi)
-        if deep != deep or high != high:
+        if math.isnan(deep) or math.isnan(high):
             r2 = math.inf
         else:
-            r2 = m[i] * (deep if deep >= high else high) / c
+            r2 = m[i] * max(deep, high) / c
             if not (abs(r2) < math.inf):
                 r2 = math.inf
-        if r2 > r2_cap:
-            r2 = r2_cap
-        h = wave_fraction / math.sqrt(r2 + 1e-300)
+        h = wave_fraction / math.sqrt(min(r2, r2_cap) + 1e-300)
         if n_apex:
             k = np.searchsorted(apex, xi, side="right")
             j = np.searchsorted(apex, xi, side="left")
-            cone = min(left[k] + slope * xi, right[j] - slope * xi)
-            if cone < h:
-                h = cone
+            h = min(h, left[k] + slope * xi, right[j] - slope * xi)
         out[i] = h
     return out
 
