@@ -42,8 +42,7 @@ def confined_top(potential) -> float | None:
     feats = np.asarray(potential.features(), dtype=float)
     d = 1e-9 * max(1.0, hi - lo)
     if potential.piecewise_constant:
-        ends = np.unique(np.concatenate([feats, [lo, hi]]))
-        even = 0.5 * (ends[1:] + ends[:-1])
+        even = potential.piece_midpoints(lo, hi)
     else:
         even = np.linspace(lo, hi, SAMPLES)
     xs = np.unique(np.concatenate([even, feats - d, feats + d, [lo - d, hi + d]]))

@@ -108,6 +108,13 @@ class Potential:
         """True if V (without point terms) is constant between consecutive features."""
         return self._piecewise_constant
 
+    def piece_midpoints(self, lo: float, hi: float) -> np.ndarray:
+        """The middle of every piece of [lo, hi] between consecutive features: one sample per piece where V (and
+        m) is constant between the features (:attr:`piecewise_constant`) sees every value V takes there."""
+        feats = self.features()
+        ends = np.concatenate([[lo], feats[(feats > lo) & (feats < hi)], [hi]])
+        return 0.5 * (ends[1:] + ends[:-1])
+
     @cached_property
     def _point_terms(self) -> tuple[tuple[float, float], ...]:
         out: list[tuple[float, float]] = []
@@ -248,9 +255,7 @@ class Potential:
         if self._piecewise_constant:
             # V and m are constant between the features, which mirror each other: one sample in the middle of
             # every piece of the right half decides exactly
-            right = feats[(feats > x0) & (feats < x0 + half)]
-            ends = np.concatenate([[x0], right, [x0 + half]])
-            return self._mirrors(x0, 0.5 * (ends[1:] + ends[:-1]) - x0)
+            return self._mirrors(x0, self.piece_midpoints(x0, x0 + half) - x0)
         # dense samples where the potential varies (the features' extent plus a few length scales), sparse beyond
         scales = [s for _, s in self.feature_scales() if math.isfinite(s)]
         inner = min(half, 0.5 * (float(feats[-1] - feats[0]) if feats.size else 0.0) + 3.0 * max(scales + [0.0]))
