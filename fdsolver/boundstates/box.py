@@ -16,6 +16,7 @@ import math
 import numpy as np
 
 from fdsolver.model.potential import Potential
+from fdsolver.numerics.kernels import decay_reach
 
 #: ratio of successive sample distances when the WKB decay integral is walked out from the potential
 GROWTH = 1.05
@@ -39,17 +40,11 @@ def _walk(scale: float) -> np.ndarray:
 
 
 def _extent(x: np.ndarray, v: np.ndarray, m: np.ndarray, c: float, e_top: float, budget: float) -> float:
-    """First sample of the walk ``x`` (V = ``v``, mass ``m``) where the WKB decay integral of e_top reaches budget."""
-    v = np.where(np.isfinite(v), v, 1e300)
-    kappa = np.sqrt(np.maximum(0.0, m * (v - e_top) / c))
-    allowed = np.flatnonzero(v <= e_top)
-    i0 = int(allowed[-1]) if allowed.size else 0
-    seg = kappa[i0:]
-    integral = np.concatenate([[0.0], np.cumsum(0.5 * (seg[1:] + seg[:-1]) * np.abs(np.diff(x[i0:])))])
-    hit = np.flatnonzero(integral >= budget)
-    if hit.size == 0:
-        return float(x[-1])
-    return float(x[i0 + hit[0]])
+    """First sample of the walk ``x`` (V = ``v``, mass ``m``) where the WKB decay integral of e_top reaches budget
+    (:func:`fdsolver.numerics.kernels.decay_reach`); the walk's last sample if it never does."""
+    i = decay_reach(np.ascontiguousarray(x, dtype=float), np.ascontiguousarray(v, dtype=float),
+                    np.ascontiguousarray(m, dtype=float), float(c), float(e_top), float(budget))
+    return float(x[-1] if i < 0 else x[i])
 
 
 def decay_extent(potential: Potential, start: float, side: int, e_top: float, budget: float, scale: float) -> float:

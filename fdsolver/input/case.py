@@ -302,7 +302,7 @@ def case_from_dict(data: Mapping[str, Any], *, path=None, text=None, overrides=N
     data, overrides = conv.data, conv.overrides
     units_name = F.text(data, "units", file, "", choices=tuple(UNIT_SYSTEMS), default=conv.system)
     units = UNIT_SYSTEMS[units_name]
-    title = data.get("title", Path(path).stem if path else "untitled case")
+    title = data["title"] if "title" in data else (Path(path).stem if path else "untitled case")
     if not isinstance(title, str):
         raise CaseError("must be a string", file=file, key="title")
     params = _params(data, overrides, file)

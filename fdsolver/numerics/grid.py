@@ -36,7 +36,8 @@ import math
 
 import numpy as np
 
-from fdsolver.numerics.kernels import coarse_midpoints, grid_samples, lipschitz_limit, segment_nodes, target_spacing
+from fdsolver.numerics.kernels import (coarse_midpoints, grid_samples, lipschitz_limit, refine_nodes, segment_nodes,
+                                      target_spacing)
 
 
 #: uniform samples of the spacing function over the box before the samples are refined where it asks for it
@@ -107,11 +108,7 @@ def refine(nodes: np.ndarray, level: int) -> np.ndarray:
     """Split every cell of ``nodes`` into 2**level equal cells (nested refinement)."""
     if level == 0:
         return nodes
-    k = 2**level
-    h = np.diff(nodes)
-    frac = np.arange(k) / k
-    inner = (nodes[:-1, None] + h[:, None] * frac[None, :]).ravel()
-    return np.concatenate([inner, nodes[-1:]])
+    return refine_nodes(np.ascontiguousarray(nodes, dtype=float), 2**level)
 
 
 def spacing_function(potential, e_lo: float, e_hi: float, gs: GridSettings, deep_reach: float | None = None):

@@ -22,6 +22,8 @@
   of :func:`fdsolver.numerics.grid.spacing_function` in one pass).
 * :func:`flux_operator` - the arrays of the flux-form operator
   (:mod:`fdsolver.numerics.operator`) in one pass over the cells.
+* :func:`refine_nodes` - nested refinement of a grid (every cell split in k).
+* :func:`decay_reach` - where the WKB decay integral along a walk first reaches a budget (the box's ends).
 
 Numba is used here because these loops are sequential recurrences that numpy
 cannot vectorise; measured figures are in DEVELOPERS.md.  Compilation results
@@ -646,3 +648,48 @@ def flux_operator(nodes, mass, il, ir, c, shift, neumann):
     for i in range(n - 1):
         e[i] = -a[i + 1] / math.sqrt(w[i] * w[i + 1])
     return a, w, vint, v, d, e, ok
+
+
+@njit
+def refine_nodes(nodes, k):
+    """Every cell of ``nodes`` split into ``k`` equal cells: x_i + h_i (j / k), j = 0 .. k-1, then the last node.
+
+    The same floating-point operations as the numpy form (nested grids of one
+    piecewise-linear map, :func:`fdsolver.numerics.grid.refine`).  O(N k).
+    """
+    n = nodes.shape[0] - 1
+    out = np.empty(n * k + 1)
+    for i in range(n):
+        h = nodes[i + 1] - nodes[i]
+        for j in range(k):
+            out[i * k + j] = nodes[i] + h * (j / k)
+    out[n * k] = nodes[n]
+    return out
+
+
+@njit
+def decay_reach(x, v, m, c, e_top, budget):
+    """Index of the first sample of a walk ``x`` (outward, V = ``v``, mass ``m`` in m_e) at which the WKB decay
+    integral of energy ``e_top``, int kappa dx with kappa = sqrt(m (V - e_top) / c), counted from the last
+    classically allowed sample (V <= e_top; else the first), reaches ``budget``; -1 if it never does.
+
+    Trapezoid rule over the walk's samples, summed in order (the arithmetic of the numpy form in
+    :func:`fdsolver.boundstates.box.decay_extent`).  A non-finite V counts as 1e300.  O(N).
+    """
+    n = x.shape[0]
+    kappa = np.empty(n)
+    i0 = 0
+    for i in range(n):
+        vi = v[i] if math.isfinite(v[i]) else 1e300
+        if vi <= e_top:
+            i0 = i
+        y = m[i] * (vi - e_top) / c
+        kappa[i] = math.sqrt(y) if y > 0.0 else (y if y != y else 0.0)
+    if 0.0 >= budget:
+        return i0
+    total = 0.0
+    for i in range(i0 + 1, n):
+        total += 0.5 * (kappa[i] + kappa[i - 1]) * abs(x[i] - x[i - 1])
+        if total >= budget:
+            return i
+    return -1
