@@ -260,6 +260,34 @@ def test_mirror_decision_on_thin_wells(pairs, x0, change, shape):
         assert got is None, (comps, got)
 
 
+@settings(PROPS, max_examples=40)  # no solve
+@given(st.lists(st.tuples(dyadic(-90.0, 90.0), dyadic(-4.0, -2.0, 3), dyadic(1.0, 8000.0)), min_size=1, max_size=3),
+       st.sampled_from(["square", "layer"]))
+def test_lowest_potential_between_walls_on_thin_pieces(wells, kind):
+    """Between hard walls energies are measured from the lowest V in the box, and each state's tolerance is
+    relative to its distance from it (DEVELOPERS.md, "Tolerance"; the definition of the reference, no source
+    needed).  The lowest V is found however thin the piece that holds it: square wells or layers 1e-4 to
+    1e-2 nm thin, far below the spacing of any even sampling of the 200 nm box."""
+    from fdsolver.boundstates.problem import plan
+
+    pieces = []
+    for c, log_w, depth in wells:  # disjoint thin pieces: centres on a 10 nm lattice
+        pieces.append((10.0 * round(c / 10.0), 10.0 ** log_w, depth))
+    pieces = sorted({p[0]: p for p in pieces}.values())
+    walls = {"boundary": "hard", "left": -100.0, "right": 100.0}
+    if kind == "square":
+        data = {"potential": [{"shape": "square", "center": c, "width": w, "depth": d} for c, w, d in pieces]}
+    else:
+        layers, x = [], -100.0
+        for c, w, d in pieces:
+            layers += [{"thickness": c - 0.5 * w - x, "band_edge": 0.0}, {"thickness": w, "band_edge": -d}]
+            x = c + 0.5 * w
+        data = {"layer": layers + [{"thickness": 100.0 - x, "band_edge": 0.0}], "stack_origin": -100.0}
+    case = fdsolver.case_from_dict({"units": "nm-meV", "mass": 0.067, **data, "domain": walls})
+    problem = plan(case.potential, case.domain, case.settings)
+    assert problem.reference == -max(d for _, _, d in pieces), (pieces, problem.reference)
+
+
 @settings(PROPS, max_examples=8)
 @given(dyadic(3.0, 12.0, 3), dyadic(40.0, 90.0, 3), dyadic(150.0, 400.0), masses, masses, dyadic(-500.0, 500.0, 3))
 # found by this property: E0 > E1 by one ulp-scale step, and a negative 'upper bound' of the splitting

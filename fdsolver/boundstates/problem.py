@@ -33,7 +33,8 @@ BYTES_PER_NODE_STATE = 8 * 3
 DECAY_TARGET = 100.0
 #: the energy scale of relative tolerances never falls below this fraction of the potential's range
 ENERGY_FLOOR = 1e-6
-#: samples of V over the provisional box for its range and minimum
+#: samples of V over the provisional box for its range and minimum (a V that varies between its features; one
+#: constant between them is read once in the middle of every piece, which sees every value it takes)
 RANGE_SAMPLES = 4001
 
 
@@ -93,8 +94,12 @@ def plan(potential, domain: Domain, settings: SolveSettings) -> Problem:
     max_nodes = int(settings.memory_mb * 2**20 / (BYTES_PER_NODE + BYTES_PER_NODE_STATE * settings.max_states))
     budget = 0.5 * math.log(DECAY_TARGET / tol) + 1.0
     box = provisional_box(potential, domain, threshold, budget)
+    if potential.piecewise_constant:  # exact: every piece once, however thin
+        xs = potential.piece_midpoints(box[0], box[1])
+    else:
+        xs = np.linspace(box[0], box[1], RANGE_SAMPLES)[1:-1]
     with np.errstate(all="ignore"):
-        vs = potential.value(np.linspace(box[0], box[1], RANGE_SAMPLES)[1:-1])
+        vs = potential.value(xs)
     if not np.all(np.isfinite(vs)):
         raise CaseError("the potential is not finite everywhere in the box; check its expression or table, "
                         "or set [domain] left/right", key="potential")
