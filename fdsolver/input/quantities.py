@@ -171,7 +171,7 @@ class Conversion:
     system: str
     overrides: dict
     units_given: bool
-    seen_units: bool = False
+    seen_units: bool = False  # a value with a unit was met (read in full only for a case without a units key)
     plain: list = field(default_factory=list)  # keys whose plain numbers depend on the unit system
     param_units: dict = field(default_factory=dict)  # param -> its unit text
 
@@ -267,7 +267,8 @@ def convert_case(data: Mapping[str, Any], overrides: Mapping | None, file) -> Co
     from fdsolver.model.units import UNIT_SYSTEMS
 
     given = "units" in data
-    seen = uses_units(data) or uses_units(dict(overrides or {}))
+    # without a units key the system follows what the case uses (walking the data only then)
+    seen = not given and (uses_units(data) or uses_units(dict(overrides or {})))
     name = data.get("units") if given else ("nm-meV" if seen or names_materials(data) else "atomic")
     if not isinstance(name, str) or name not in UNIT_SYSTEMS:  # the case reader refuses it with its own message
         return Conversion(dict(data), name if isinstance(name, str) else "atomic", dict(overrides or {}), given, seen)
