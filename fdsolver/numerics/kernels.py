@@ -4,6 +4,8 @@
   matrix (diagonal d, off-diagonal e) below a shift, from the signs of the
   LDL^T pivots (Sturm sequence).  Exact in exact arithmetic; in floating point
   it is the count of a matrix within a few ulps of the given one.
+  :func:`bisect_eigenvalues` and :func:`prove_indices` count at several
+  shifts in one pass (independent recurrences side by side).
 * :func:`tridiag_factor` / :func:`tridiag_apply` / :func:`tridiag_solve` -
   (T - sigma I) y = b by Gaussian elimination with partial pivoting;
   :func:`inverse_iteration` - eigenvectors of a batch of shifts from one
@@ -78,6 +80,37 @@ def sturm_count(d, e, sigma):
 
 
 @njit
+def _sturm_counts3(d, e, s0, s1, s2):
+    """:func:`sturm_count` at three shifts in one pass (the same arithmetic; three independent recurrences run
+    side by side, so the pass costs little more than one)."""
+    n = d.shape[0]
+    tiny = 1e-300
+    q0 = d[0] - s0
+    q1 = d[0] - s1
+    q2 = d[0] - s2
+    c0 = 1 if q0 < 0.0 else 0
+    c1 = 1 if q1 < 0.0 else 0
+    c2 = 1 if q2 < 0.0 else 0
+    for i in range(1, n):
+        if q0 == 0.0:
+            q0 = tiny
+        if q1 == 0.0:
+            q1 = tiny
+        if q2 == 0.0:
+            q2 = tiny
+        q0 = d[i] - s0 - e[i - 1] * e[i - 1] / q0
+        q1 = d[i] - s1 - e[i - 1] * e[i - 1] / q1
+        q2 = d[i] - s2 - e[i - 1] * e[i - 1] / q2
+        if q0 < 0.0:
+            c0 += 1
+        if q1 < 0.0:
+            c1 += 1
+        if q2 < 0.0:
+            c2 += 1
+    return c0, c1, c2
+
+
+@njit
 def bisect_eigenvalues(d, e, lo, count, below, above, rtol, floor):
     """Eigenvalues number lo .. lo + count - 1 of tridiag(e, d, e) by bisection on Sturm counts.
 
@@ -85,6 +118,9 @@ def bisect_eigenvalues(d, e, lo, count, below, above, rtol, floor):
     until its bracket is narrower than rtol * max(|value|, floor); the lower
     end of one bracket starts the next.  Accurate enough to start inverse
     iteration (the eigenvectors and the polished energies come from there).
+    Two halvings per pass over the matrix: the midpoint and both possible
+    next midpoints are counted together (:func:`_sturm_counts3`), so the
+    brackets are exactly those of halving one step at a time.
     O(N log2(range / tolerance)) per value.
     """
     out = np.empty(count)
@@ -97,7 +133,20 @@ def bisect_eigenvalues(d, e, lo, count, below, above, rtol, floor):
             mid = 0.5 * (a + b)
             if mid <= a or mid >= b:
                 break
-            if sturm_count(d, e, mid) > target:
+            c_mid, c_left, c_right = _sturm_counts3(d, e, mid, 0.5 * (a + mid), 0.5 * (mid + b))
+            if c_mid > target:
+                b = mid
+                c_next = c_left
+            else:
+                a = mid
+                c_next = c_right
+            # the second halving, exactly as the loop would take it (its midpoint was counted above)
+            if not (b - a > rtol * max(abs(a), abs(b), floor)):
+                break
+            mid = 0.5 * (a + b)
+            if mid <= a or mid >= b:
+                break
+            if c_next > target:
                 b = mid
             else:
                 a = mid
@@ -386,9 +435,8 @@ def prove_indices(d, e, values, first, lo, floor, matrix):
         gap_hi = values[end + 1] - values[end] if end + 1 < k else math.inf
         delta_lo = min(0.5 * gap_lo, max(1e-7 * max(abs(values[j]), floor), 100.0 * matrix[j]))
         delta_hi = min(0.5 * gap_hi, max(1e-7 * max(abs(values[end]), floor), 100.0 * matrix[end]))
-        if sturm_count(d, e, values[j] - delta_lo) != lo + j:
-            return False
-        if sturm_count(d, e, values[end] + delta_hi) != lo + end + 1:
+        below, above, _ = _sturm_counts3(d, e, values[j] - delta_lo, values[end] + delta_hi, values[end] + delta_hi)
+        if below != lo + j or above != lo + end + 1:
             return False
         j = end + 1
     return True
