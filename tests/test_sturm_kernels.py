@@ -59,3 +59,20 @@ def test_bisection_brackets_the_lapack_eigenvalues(seed, n, spread, first):
     # LAPACK's own values are accurate to a few eps * ||T|| (Golub & Van Loan, sec. 8.4.1)
     slack = rtol * np.maximum(np.abs(want), floor) + 64 * np.finfo(float).eps * max(abs(below), abs(above))
     assert np.all(np.abs(got - want) <= slack), (got, want, slack)
+
+
+@PROPS
+@given(st.integers(0, 10**6), st.integers(2, 300), st.floats(0.0, 5.0), st.floats(1e-12, 1e3), st.integers(1, 300))
+def test_upper_bracket_is_the_first_doubled_step_that_holds_the_values(seed, n, spread, step, count):
+    """Against the plain loop it replaces: try below + step, doubling the step, until the Sturm count reaches
+    ``count``; the bracket then holds the lowest ``count`` eigenvalues (LAPACK)."""
+    d, e = matrix(seed, n, spread)
+    count = min(count, n)
+    below = float(np.min(d - np.abs(np.concatenate([[0.0], e])) - np.abs(np.concatenate([e, [0.0]]))))
+    want, s = below + step, step
+    while kernels.sturm_count(d, e, want) < count and np.isfinite(want):
+        s *= 2.0
+        want = below + s
+    got = kernels.upper_bracket(d, e, below, step, count)
+    assert got == want
+    assert eigvalsh_tridiagonal(d, e)[count - 1] < got

@@ -119,11 +119,7 @@ def _bisection(op: Operator, lo: int, hi: int, top: float, floor: float) -> np.n
     below = float(np.min(op.d - off))
     above = top
     if not math.isfinite(above):  # walls or a confining potential: double a step until it holds the values
-        step = max(floor, 1e-3 * abs(below), 1e-300)
-        above = below + step
-        while kernels.sturm_count(op.d, op.e, above) < hi and math.isfinite(above):
-            step *= 2.0
-            above = below + step
+        above = kernels.upper_bracket(op.d, op.e, below, max(floor, 1e-3 * abs(below), 1e-300), hi)
     return kernels.bisect_eigenvalues(op.d, op.e, lo, hi - lo, below, above, BISECTION_RTOL, floor)
 
 

@@ -111,6 +111,27 @@ def _sturm_counts3(d, e, s0, s1, s2):
 
 
 @njit
+def upper_bracket(d, e, below, step, count):
+    """The first of below + step, below + 2 step, below + 4 step, ... with at least ``count`` eigenvalues of
+    tridiag(e, d, e) under it (or the first that is not finite): an upper end for bisection when no bound on
+    the wanted values is known (walls, a confining potential).  Three candidates per pass over the matrix
+    (:func:`_sturm_counts3`); the result is that of trying them one at a time.
+    """
+    while True:
+        s1 = step * 2.0
+        s2 = s1 * 2.0
+        a0, a1, a2 = below + step, below + s1, below + s2
+        c0, c1, c2 = _sturm_counts3(d, e, a0, a1, a2)
+        if c0 >= count or not math.isfinite(a0):
+            return a0
+        if c1 >= count or not math.isfinite(a1):
+            return a1
+        if c2 >= count or not math.isfinite(a2):
+            return a2
+        step = s2 * 2.0
+
+
+@njit
 def bisect_eigenvalues(d, e, lo, count, below, above, rtol, floor):
     """Eigenvalues number lo .. lo + count - 1 of tridiag(e, d, e) by bisection on Sturm counts.
 
