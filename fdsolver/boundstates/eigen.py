@@ -129,18 +129,12 @@ def _clusters(values: np.ndarray, floor: float) -> np.ndarray:
 
 
 def _roundoff(matrix: np.ndarray, quotient: np.ndarray, energies: np.ndarray) -> np.ndarray:
-    """Round-off floor of each energy: the quotient's ulps; the rounding of its differences on fine cells,
-    about 4 eps sqrt((|E| + <|V|>) sum |T_ii| u_i^2); and matrix^2 / gap (a vector mixed with its nearest
-    neighbour of the same sector moves the quotient by gap * mixing^2, mixing ~ matrix / gap), at most the gap."""
-    # the differences psi_i+1 - psi_i in the quotient lose eps |psi| / |dpsi| each: eps sqrt(E ||T||_local) in all
-    graded = 4.0 * np.sqrt(matrix * quotient / QUOTIENT_ULPS)
-    if energies.size < 2:
-        return quotient + graded
-    d = np.diff(energies)
-    gap = np.concatenate([d, [np.inf]])
-    gap[1:] = np.minimum(gap[1:], d)
-    gap = np.maximum(gap, 1e-300)
-    return quotient + graded + np.minimum(matrix * matrix / gap, np.where(np.isfinite(gap), gap, 0.0))
+    """Round-off floor of each energy (:func:`fdsolver.numerics.kernels.roundoff_floor`): the quotient's ulps;
+    the rounding of its differences on fine cells, about 4 eps sqrt((|E| + <|V|>) sum |T_ii| u_i^2); and
+    matrix^2 / gap (a vector mixed with its nearest neighbour of the same sector moves the quotient by
+    gap * mixing^2, mixing ~ matrix / gap), at most the gap."""
+    return kernels.roundoff_floor(np.ascontiguousarray(matrix, dtype=float), np.ascontiguousarray(quotient, dtype=float),
+                                  np.ascontiguousarray(energies, dtype=float), QUOTIENT_ULPS)
 
 
 def _vectors(op: Operator, values: np.ndarray, floor: float):
@@ -194,6 +188,10 @@ def solve_grid(sectors, e_lo: float | None, e_hi: float, max_states: int, floor:
     by inverse iteration instead of bisection; the prediction is proved by
     Sturm counts and replaced by bisection where the proof fails.
     """
+    if guess is not None:
+        fast = _predicted_grid(sectors, e_lo, e_hi, max_states, floor, guess)
+        if fast is not None:
+            return fast
     lows = [_count(s.op, e_lo, 0) for s in sectors]
     highs = [_count(s.op, e_hi, s.op.size) for s in sectors]
     total = sum(h - lo for h, lo in zip(highs, lows))
@@ -250,6 +248,28 @@ def solve_grid(sectors, e_lo: float | None, e_hi: float, max_states: int, floor:
     return GridStates(energy[order], first_index + np.arange(order.size), sector_of[order], parity[order],
                       tuple(flat_vecs[i] for i in order), rounding[order],
                       count_below - (energy.size - order.size), first_index)
+
+
+def _predicted_grid(sectors, e_lo, e_hi: float, max_states: int, floor: float, guess) -> GridStates | None:
+    """:func:`solve_grid` with a guess, every step in one compiled call
+    (:func:`fdsolver.numerics.kernels.predicted_grid`): the same counts, passes, round-off floors, merge and
+    checks, hence the same states; None wherever the general path must decide (a cluster, a failed proof, a
+    guess that does not fit the window), which then starts from the beginning."""
+    two = len(sectors) == 2
+    op0 = sectors[0].op
+    op1 = sectors[1].op if two else op0
+    energy, sector = guess
+    status, en, sec, rounding, row, count_below, first_index, v0, v1 = kernels.predicted_grid(
+        op0.d, op0.e, op0.a, op0.vw, op0.w, op1.d, op1.e, op1.a, op1.vw, op1.w, two,
+        np.ascontiguousarray(energy, dtype=float), np.ascontiguousarray(sector, dtype=np.int64), e_lo is not None,
+        0.0 if e_lo is None else float(e_lo), float(e_hi), int(max_states), float(floor), CLUSTER_RTOL,
+        INVERSE_STEPS, RESIDUAL_FACTOR, QUOTIENT_ULPS, EPS)
+    if status != 0:
+        return None
+    rows = (v0, v1)
+    parity = np.array([s.parity for s in sectors], dtype=int)[sec]
+    return GridStates(en, first_index + np.arange(en.size), sec, parity, tuple(rows[s][r] for s, r in zip(sec, row)),
+                      rounding, count_below, first_index)
 
 
 def _predicted(guess, n_sectors: int, n: int):

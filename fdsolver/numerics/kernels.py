@@ -515,6 +515,154 @@ def sector_pass(d, e, a, vw, w, shifts, lo, floor, prove, cluster_rtol, steps, r
 
 
 @njit
+def _nan_min(x, y):
+    """min(x, y) that propagates NaN (numpy.minimum)."""
+    if x != x or y != y:
+        return math.nan
+    return x if x <= y else y
+
+
+@njit
+def roundoff_floor(matrix, quotient, energies, ulps):
+    """Round-off floor of each of a sector's ascending energies from its (matrix, quotient) scales.
+
+    quotient + 4 sqrt(matrix quotient / ulps) (the rounding of the quotient's differences on fine cells)
+    + min(matrix^2 / gap, gap), gap the distance to the nearest neighbour (none for a single state): a
+    vector mixed with its neighbour by matrix / gap moves the quotient by gap times the square of that.
+    Energy unit of the operator.
+    """
+    k = energies.shape[0]
+    out = np.empty(k)
+    for j in range(k):
+        out[j] = quotient[j] + 4.0 * math.sqrt(matrix[j] * quotient[j] / ulps)
+    if k < 2:
+        return out
+    for j in range(k):
+        gap = math.inf
+        if j + 1 < k:
+            gap = energies[j + 1] - energies[j]
+        if j > 0:
+            gap = _nan_min(gap, energies[j] - energies[j - 1])
+        gap = gap if gap != gap or gap >= 1e-300 else 1e-300  # numpy.maximum(gap, 1e-300)
+        cap = gap if math.isfinite(gap) else 0.0
+        out[j] = out[j] + _nan_min(matrix[j] * matrix[j] / gap, cap)
+    return out
+
+
+@njit
+def _sector_count(d, e, shift, default):
+    """Sturm count below ``shift``; ``default`` for a shift that is not finite."""
+    if not math.isfinite(shift):
+        return default
+    return sturm_count(d, e, shift)
+
+
+@njit
+def predicted_grid(d0, e0, a0, vw0, w0, d1, e1, a1, vw1, w1, two, guess_e, guess_s, has_lo, e_lo, e_hi,
+                   max_states, floor, cluster_rtol, steps, residual_factor, ulps, eps):
+    """The states of one grid level from the energies predicted by the coarser levels, in one compiled call.
+
+    Sectors: one operator (d0 .. w0) or, with ``two``, the even and odd
+    halves (d0 .. w0 even, d1 .. w1 odd).  The steps are those of
+    :func:`fdsolver.boundstates.eigen.solve_grid` with a guess: Sturm counts
+    in the window [e_lo, e_hi) give the number n of states and their global
+    indices; the guess must hold exactly n finite energies of known sectors;
+    each sector's pass (:func:`sector_pass`, proving the indices) and its
+    round-off floors (:func:`roundoff_floor`); the merge (mirror halves by the
+    oscillation theorem: the even sector's j-th state is state 2j of the whole
+    grid); the check that no state was skipped below the highest; the cut at
+    e_hi.  Returns (status, energy, sector, rounding, row, count_below,
+    first_index, vectors0, vectors1): status 0 on success, anything else when
+    the general path must decide (a cluster, a failed proof, a guess that
+    does not fit, no state in the window); ``row`` is each state's row in
+    its sector's vectors.  Energies in the operator's unit, relative to its shift.
+    """
+    n0 = d0.shape[0]
+    n1 = d1.shape[0] if two else 0
+    fail = (1, np.empty(0), np.empty(0, np.int64), np.empty(0), np.empty(0, np.int64), 0, 0,
+            np.empty((0, n0)), np.empty((0, n1)))
+    lo0 = _sector_count(d0, e0, e_lo, 0) if has_lo else 0
+    hi0 = _sector_count(d0, e0, e_hi, n0)
+    lo1 = 0
+    hi1 = 0
+    if two:
+        lo1 = _sector_count(d1, e1, e_lo, 0) if has_lo else 0
+        hi1 = _sector_count(d1, e1, e_hi, n1)
+    n = min((hi0 - lo0) + (hi1 - lo1), max_states)
+    first_index = lo0 + lo1
+    count_below = hi0 + hi1
+    if n <= 0 or guess_e.shape[0] != n:
+        return fail
+    k0 = 0
+    for j in range(n):
+        if not math.isfinite(guess_e[j]) or guess_s[j] < 0 or guess_s[j] >= (2 if two else 1):
+            return fail
+        if guess_s[j] == 0:
+            k0 += 1
+    k1 = n - k0
+    p0 = np.empty(k0)
+    p1 = np.empty(k1)
+    i0 = 0
+    i1 = 0
+    for j in range(n):
+        if guess_s[j] == 0:
+            p0[i0] = guess_e[j]
+            i0 += 1
+        else:
+            p1[i1] = guess_e[j]
+            i1 += 1
+    p0 = np.sort(p0)
+    p1 = np.sort(p1)
+    v0 = np.empty((k0, n0))
+    en0 = np.empty(k0)
+    sc0 = np.empty((k0, 2))
+    if k0 and sector_pass(d0, e0, a0, vw0, w0, p0, lo0, floor, True, cluster_rtol, steps, residual_factor, ulps,
+                          eps, v0, en0, sc0) != 0:
+        return fail
+    v1 = np.empty((k1, n1))
+    en1 = np.empty(k1)
+    sc1 = np.empty((k1, 2))
+    if k1 and sector_pass(d1, e1, a1, vw1, w1, p1, lo1, floor, True, cluster_rtol, steps, residual_factor, ulps,
+                          eps, v1, en1, sc1) != 0:
+        return fail
+    r0 = roundoff_floor(sc0[:, 0].copy(), sc0[:, 1].copy(), en0, ulps)
+    r1 = roundoff_floor(sc1[:, 0].copy(), sc1[:, 1].copy(), en1, ulps)
+    # merge: by the mirror ranks 2 (lo0 + j) and 2 (lo1 + j) + 1, or a single sector's ascending energies
+    energy = np.empty(n)
+    sector = np.empty(n, np.int64)
+    rounding = np.empty(n)
+    row = np.empty(n, np.int64)
+    a = 0
+    b = 0
+    for m in range(n):
+        take_even = b >= k1 or (a < k0 and 2 * (lo0 + a) < 2 * (lo1 + b) + 1)
+        if take_even:
+            energy[m], sector[m], rounding[m], row[m] = en0[a], 0, r0[a], a
+            a += 1
+        else:
+            energy[m], sector[m], rounding[m], row[m] = en1[b], 1, r1[b], b
+            b += 1
+    # nothing skipped: exactly first_index + n states of the whole grid at or below the highest
+    top = energy[0]
+    for m in range(n):
+        if energy[m] > top:
+            top = energy[m]
+    delta = max(1e-7 * max(abs(top), floor), 0.0)
+    below = sturm_count(d0, e0, top + delta) + (sturm_count(d1, e1, top + delta) if two else 0)
+    if below != first_index + n:
+        return fail
+    kept = n
+    if math.isfinite(e_hi):
+        kept = 0
+        for m in range(n):
+            if energy[m] < e_hi:
+                energy[kept], sector[kept], rounding[kept], row[kept] = energy[m], sector[m], rounding[m], row[m]
+                kept += 1
+    return (0, energy[:kept].copy(), sector[:kept].copy(), rounding[:kept].copy(), row[:kept].copy(),
+            count_below - (n - kept), first_index, v0, v1)
+
+
+@njit
 def lipschitz_limit(x, h, growth):
     """Return min over j of (h_j + growth |x_i - x_j|) for every i (x increasing)."""
     out = h.copy()
