@@ -36,11 +36,14 @@ ROUNDOFF_GROWTH = 4.0
 
 
 def sectors_on(problem: Problem, nodes: np.ndarray, center: float | None) -> list[Sector]:
-    """The operators of a grid: the whole grid, or its even and odd halves about the mirror centre."""
-    whole = assemble(problem.potential, nodes, problem.reference)
+    """The operators of a grid: the whole grid, or its even and odd halves about the mirror centre (assembled on
+    the right half only)."""
     if center is None:
-        return [Sector(whole, 0)]
-    even, odd = mirror_halves(whole, int(np.searchsorted(nodes, center, side="left")))
+        return [Sector(assemble(problem.potential, nodes, problem.reference), 0)]
+    c = int(np.searchsorted(nodes, center, side="left"))
+    # the right half and the one cell left of the centre: every array of the halves is local to its cells and
+    # nodes, so this is exactly the whole grid's assembly there (the left half is its mirror image)
+    even, odd = mirror_halves(assemble(problem.potential, nodes[c - 1:], problem.reference), 1)
     return [Sector(even, 1), Sector(odd, -1)]
 
 
