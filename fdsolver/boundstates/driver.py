@@ -181,7 +181,8 @@ def _levels(problem: Problem, prov: Provisional) -> LevelRun:
             prov.e_lo = e0 - BELOW_GROUND * max(abs(e0 - problem.reference), etop - e0)
             prov.e_hi = problem.threshold if math.isfinite(problem.threshold) else etop
         base = _grid(problem, prov.box, prov.e_lo, prov.e_hi, problem.settings.grid, prov.center)
-        run = refine_levels(problem, base, prov.center, problem.messages)
+        guess = (states.energy, states.sector) if states.size else None  # the coarse solve's states start level 0
+        run = refine_levels(problem, base, prov.center, problem.messages, guess)
         if problem.domain.hard:
             break
         if _missing(problem, run.states) and _may_grow(problem, prov.box):

@@ -96,8 +96,13 @@ def _out_of_order(value: np.ndarray, err: np.ndarray) -> np.ndarray:
     return np.where(off > err + err[order], off, 0.0)
 
 
-def refine_levels(problem: Problem, base: np.ndarray, center: float | None, messages: list) -> LevelRun:
-    """Solve nested refinements of ``base`` until every state has converged (module docstring)."""
+def refine_levels(problem: Problem, base: np.ndarray, center: float | None, messages: list,
+                  first_guess: tuple | None = None) -> LevelRun:
+    """Solve nested refinements of ``base`` until every state has converged (module docstring).
+
+    ``first_guess``: (energies, sectors) of the states expected on the first level, from a coarser solve; like
+    every prediction it is proved by Sturm counts, and bisection takes over where the proof fails.
+    """
     settings = problem.settings
     tol = settings.tolerance
     table, gaps = Romberg(), Romberg()
@@ -115,7 +120,7 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
                 f"exceeds the memory budget (memory_mb = {settings.memory_mb:g})"
             )
             break
-        guess = _prediction(level_e, states.sector) if states is not None else None
+        guess = _prediction(level_e, states.sector) if states is not None else first_guess
         grid = refine(base, level)
         sectors_k, st_k = solve_nodes(problem, grid, center, guess)
         if n_expected is not None and st_k.size < n_expected:
