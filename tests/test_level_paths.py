@@ -69,3 +69,21 @@ def test_compiled_level_equals_general_path(wells, gap, mirrored, max_states):
         assert np.array_equal(getattr(fast, name), getattr(general, name)), name
     for u, v in zip(fast.vectors, general.vectors):
         assert np.array_equal(u, v)
+
+
+@pytest.mark.parametrize("name", ["double_square", "coupled_wells", "sheet_in_well", "impurity_pair_finite"])
+def test_energies_only_solve_is_the_full_solve_without_wavefunctions(name):
+    """A study that needs energies only (the zero-range comparison) skips the wavefunctions and observables:
+    its energies, errors, indices, parities, splittings and flags are those of the full solve, bit for bit."""
+    from pathlib import Path
+
+    from fdsolver.boundstates.driver import solve_potential
+
+    case = fdsolver.load_case(Path(__file__).resolve().parent.parent / "cases" / f"{name}.toml")
+    full = solve_potential(case.potential, case.domain, case.settings)
+    light = solve_potential(case.potential, case.domain, case.settings, wavefunctions=False)
+    for key in ("energy", "energy_error", "index", "parity", "converged", "splitting", "splitting_error",
+                "level_energies", "level_sizes", "box_error"):
+        assert np.array_equal(getattr(full, key), getattr(light, key), equal_nan=True), key
+    assert full.energy.size and light.psi.shape == (full.energy.size, 0) and np.isnan(light.mean_x).all()
+    assert (light.bound_count, light.resolved_count, light.box) == (full.bound_count, full.resolved_count, full.box)

@@ -57,14 +57,17 @@ BOX_CHECK_SAFETY = 2.0
 BELOW_GROUND = 0.05
 
 
-def solve_potential(potential, domain: Domain, settings: SolveSettings) -> Solution:
-    """Bound states of ``potential`` in ``domain`` to ``settings.tolerance`` (see module docstring)."""
+def solve_potential(potential, domain: Domain, settings: SolveSettings, wavefunctions: bool = True) -> Solution:
+    """Bound states of ``potential`` in ``domain`` to ``settings.tolerance`` (see module docstring).
+
+    ``wavefunctions=False``: energies, errors, indices and parities only (:func:`~fdsolver.boundstates.result.finish`).
+    """
     problem = plan(potential, domain, settings)
     messages = problem.messages
     prov = _provisional(problem)
     run = _levels(problem, prov)
     box_error = _box_check(problem, prov, run)
-    return finish(problem, prov.box, prov.center, run, box_error, messages)
+    return finish(problem, prov.box, prov.center, run, box_error, messages, wavefunctions)
 
 
 # ---------------------------------------------------------------------- grids

@@ -143,11 +143,18 @@ def _cell_overlap(x_all: np.ndarray, lo: float, hi: float) -> np.ndarray:
     return _cell_overlaps(x_all, [(lo, hi)])[:, 0]
 
 
-def finish(problem, box, center, run, box_error: np.ndarray, messages: list) -> Solution:
-    """The :class:`Solution` of the finest level (module docstring)."""
+def finish(problem, box, center, run, box_error: np.ndarray, messages: list, wavefunctions: bool = True) -> Solution:
+    """The :class:`Solution` of the finest level (module docstring).
+
+    Without ``wavefunctions`` only the energies, errors, indices, parities and splittings are made (a study
+    that needs nothing else): ``x``, ``psi`` and the node arrays are empty, the observables NaN, no state is
+    a hard-wall state, and the sign changes of psi are not checked.
+    """
     states, pot = run.states, problem.potential
     tol = problem.settings.tolerance
     n = run.energy.size
+    if not wavefunctions:
+        return _energies_only(problem, box, center, run, box_error, messages)
     if run.sectors:
         x_all = _unfold(run.sectors[0], np.zeros(run.sectors[0].op.size))[0]
     else:
@@ -227,6 +234,36 @@ def finish(problem, box, center, run, box_error: np.ndarray, messages: list) -> 
         resolved_count=int(states.count_below),
         whole_line_count=-1 if whole is None else int(whole),
         reference=problem.reference,
+    )
+
+
+def _energies_only(problem, box, center, run, box_error: np.ndarray, messages: list) -> Solution:
+    """:func:`finish` without wavefunctions and observables."""
+    states, n = run.states, run.energy.size
+    error = run.error + box_error
+    scale = problem.energy_scale(run.energy)
+    conv = error <= problem.settings.tolerance * scale if n else np.zeros(0, dtype=bool)
+    index = states.index.copy() if n else np.zeros(0, dtype=int)
+    _convergence_notes(problem, run, error, scale, conv, index, messages)
+    _existence_notes(problem, run, index, messages)
+    le = np.full((len(run.level_energies), n), np.nan)
+    for i, row in enumerate(run.level_energies):
+        le[i, : min(n, row.size)] = problem.absolute(row[:n])
+    whole = problem.whole_line_count() if problem.whole_spectrum else None
+    bound = whole if whole is not None else (int(states.count_below) if math.isfinite(problem.e_hi) else n)
+    empty, nothing = np.zeros(0), np.full(n, np.nan)
+    return Solution(
+        x=empty, potential=empty, mass=empty, weights=empty, energy=problem.absolute(run.energy), energy_error=error,
+        converged=conv, psi=np.zeros((n, 0)), nodes=index.copy(),
+        parity=states.parity.copy() if n else np.zeros(0, dtype=int), mean_x=nothing, spread=nothing.copy(),
+        inside=np.full((n, len(problem.potential.regions())), np.nan),
+        region_names=tuple(r[0] for r in problem.potential.regions()), threshold=problem.threshold,
+        box=(float(box[0]), float(box[1])), boundary=problem.domain.boundary, mirror_center=center,
+        level_energies=le, level_sizes=np.array(run.level_sizes, dtype=int), box_error=box_error,
+        bound_count=int(bound), messages=tuple(dict.fromkeys(messages)), index=index, home=np.full(n, -1),
+        wall=np.zeros(n, dtype=int), splitting=run.splitting, splitting_error=run.splitting_error,
+        splitting_bound=run.splitting_bound, resolved_count=int(states.count_below),
+        whole_line_count=-1 if whole is None else int(whole), reference=problem.reference,
     )
 
 

@@ -137,7 +137,8 @@ def _solve(potential, case, settings, notes, what):
     try:
         with warnings.catch_warnings(), np.errstate(over="ignore", under="ignore"):
             warnings.simplefilter("ignore", RuntimeWarning)
-            return solve_potential(potential, case.domain, settings)
+            # the reference's wavefunctions predict the first-order shifts; the ladder needs energies only
+            return solve_potential(potential, case.domain, settings, wavefunctions=what == "reference")
     except CaseError as err:
         if what == "reference":
             raise err.located(file=case.path) from None

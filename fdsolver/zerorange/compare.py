@@ -227,7 +227,7 @@ def _solve(pot, domain, settings, notes):
     try:
         with warnings.catch_warnings(), np.errstate(over="ignore", under="ignore"):
             warnings.simplefilter("ignore", RuntimeWarning)
-            return solve_potential(pot, domain, settings)
+            return solve_potential(pot, domain, settings, wavefunctions=False)  # energies are all it compares
     except CaseError as err:  # budget exhausted and the like: the point is reported unresolved
         notes.append(f"solve failed: {err.message}")
         return None
