@@ -132,14 +132,18 @@ def _missing(problem: Problem, states) -> bool:
 
 # ---------------------------------------------------------------- provisional
 def _provisional(problem: Problem) -> Provisional:
-    """A coarse solve; for open ends, the box sized for the shallowest state (module docstring, phase 2)."""
+    """A coarse solve; for open ends, the box sized for the shallowest state (module docstring, phase 2).
+
+    Only the energies and counts of the coarse grid are used (they set the final grid's energy range, the box
+    and the first level's starting values), so it finds eigenvalues by bisection and no eigenvectors.
+    """
     pot, settings = problem.potential, problem.settings
     coarse = replace(settings.grid, wave_fraction=2.0 * settings.grid.wave_fraction)
     e_lo = problem.reference + problem.v_range[0] - _point_depth(pot)
     e_hi = problem.threshold if math.isfinite(problem.threshold) else problem.reference + problem.v_range[1]
     box = problem.box
     center = _center_for(problem, box)
-    _, states = solve_nodes(problem, _grid(problem, box, e_lo, e_hi, coarse, center), center)
+    _, states = solve_nodes(problem, _grid(problem, box, e_lo, e_hi, coarse, center), center, vectors=False)
     if problem.domain.hard:
         return Provisional(box, center, e_lo, e_hi, states)
     for _attempt in range(MAX_BOX_ATTEMPTS):
@@ -147,7 +151,7 @@ def _provisional(problem: Problem) -> Provisional:
             break
         box = _grow(box)  # a very shallow state: its decay length exceeds the box
         center = _center_for(problem, box)
-        _, states = solve_nodes(problem, _grid(problem, box, e_lo, e_hi, coarse, center), center)
+        _, states = solve_nodes(problem, _grid(problem, box, e_lo, e_hi, coarse, center), center, vectors=False)
     # the box the shallowest state asks for; the levels check it again with the converged energies
     box = open_box(pot, problem.domain, _top(problem, states, box), problem.budget, box, problem.mirror)
     return Provisional(box, _center_for(problem, box), e_lo, e_hi, states)

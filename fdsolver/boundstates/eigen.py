@@ -179,14 +179,17 @@ def _rayleigh_ritz(op: Operator, vectors: np.ndarray, first: np.ndarray) -> None
 
 
 def solve_grid(sectors, e_lo: float | None, e_hi: float, max_states: int, floor: float,
-               guess: tuple | None = None) -> GridStates:
+               guess: tuple | None = None, vectors: bool = True) -> GridStates:
     """The lowest states with e_lo <= E < e_hi (at most ``max_states``) of the sectors (module docstring).
 
     ``floor`` is the smallest energy scale that counts (for relative
     comparisons near E = 0).  ``guess``, predicted energies and sectors (two arrays) of
     exactly these states from a coarser grid, lets the eigenvalues be found
     by inverse iteration instead of bisection; the prediction is proved by
-    Sturm counts and replaced by bisection where the proof fails.
+    Sturm counts and replaced by bisection where the proof fails.  Without
+    ``vectors`` the energies are the bisection values (relative accuracy
+    :data:`BISECTION_RTOL`), with empty vectors and zero round-off floors: a
+    coarse solve that only locates the states.
     """
     if guess is not None:
         fast = _predicted_grid(sectors, e_lo, e_hi, max_states, floor, guess)
@@ -216,6 +219,11 @@ def solve_grid(sectors, e_lo: float | None, e_hi: float, max_states: int, floor:
         values_of = [values_of[s][: wanted[s]] for s in range(len(sectors))]
     vecs, energies, rounds = [], [], []
     for s, sector in enumerate(sectors):
+        if not vectors and predicted is None:
+            vecs.append([np.empty(0)] * values_of[s].size)
+            energies.append(values_of[s])
+            rounds.append(np.zeros(values_of[s].size))
+            continue
         got = _sector_states(sector.op, values_of[s], lows[s], floor, predicted is not None)
         if got is None:  # the prediction failed its proof: bisection
             got = _sector_states(sector.op, _bisection(sector.op, lows[s], lows[s] + wanted[s], e_hi, floor), lows[s],

@@ -47,11 +47,12 @@ def sectors_on(problem: Problem, nodes: np.ndarray, center: float | None) -> lis
     return [Sector(even, 1), Sector(odd, -1)]
 
 
-def solve_nodes(problem: Problem, nodes: np.ndarray, center: float | None, guess=None) -> tuple[list[Sector], GridStates]:
-    """The states of ``problem`` on one grid."""
+def solve_nodes(problem: Problem, nodes: np.ndarray, center: float | None, guess=None,
+                vectors: bool = True) -> tuple[list[Sector], GridStates]:
+    """The states of ``problem`` on one grid (energies only without ``vectors``: :func:`solve_grid`)."""
     sectors = sectors_on(problem, nodes, center)
     s = problem.settings
-    states = solve_grid(sectors, problem.e_lo, problem.e_hi, s.max_states, problem.floor, guess)
+    states = solve_grid(sectors, problem.e_lo, problem.e_hi, s.max_states, problem.floor, guess, vectors)
     return sectors, states
 
 
