@@ -155,12 +155,16 @@ def _walled(pot, case, model, base, j0, j1, e_top, tol, lo, energy, error, notes
     wall shift bound 4 |E| exp(-2 kappa L) is added to each error estimate.
     """
     m_c = case.mass / case.units.hbar2_2me
+    # between walls the solver measures energies from the lowest V and its tolerance is relative to E - V_min;
+    # the tolerances here are relative to |E|, the binding energy below the background
+    depth = max(-min(float(w.amplitude) for w in model.wells), 0.0)
     for _ in range(4):
         t = float(np.clip(max(tol, _floor(abs(e_top), vmax)), 1e-13, 1e-2))
+        t_solver = t * abs(e_top) / (abs(e_top) + depth) if abs(e_top) > 0 else t
         window = None if lo is None else (lo, abs(e_top))
         count = j1 if lo is None else j1 - j0 + 2
         domain, reach = _walls(model, math.sqrt(m_c * abs(e_top)), t)
-        sol = _solve(pot, domain, replace(base, tolerance=t, max_states=count, energy_window=window), notes)
+        sol = _solve(pot, domain, replace(base, tolerance=t_solver, max_states=count, energy_window=window), notes)
         if sol is None:
             return j1
         got = {int(nd): (float(e), float(err)) for nd, e, err in zip(sol.nodes, sol.energy, sol.energy_error)}
