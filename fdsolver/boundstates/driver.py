@@ -53,7 +53,8 @@ MAX_BOX_IN_SCALES = 1e12
 BOX_RTOL = 1e-9
 #: the box-truncation estimate enters the error bar this many times over
 BOX_CHECK_SAFETY = 2.0
-#: the energy range of the final grid reaches this fraction of the spectrum below the ground state
+#: the energy range of the final grid reaches this fraction of the spectrum below the ground state (measured from
+#: the reference, or from the problem's binding floor where that is higher)
 BELOW_GROUND = 0.05
 
 
@@ -139,7 +140,7 @@ def _provisional(problem: Problem) -> Provisional:
     """
     pot, settings = problem.potential, problem.settings
     coarse = replace(settings.grid, wave_fraction=2.0 * settings.grid.wave_fraction)
-    e_lo = problem.reference + problem.v_range[0] - _point_depth(pot)
+    e_lo = problem.reference + problem.deepest - _point_depth(pot)
     e_hi = problem.threshold if math.isfinite(problem.threshold) else problem.reference + problem.v_range[1]
     box = problem.box
     center = _center_for(problem, box)
@@ -185,7 +186,10 @@ def _levels(problem: Problem, prov: Provisional) -> LevelRun:
         states = prov.states
         if states.size:
             e0, etop = (float(v) for v in problem.absolute(states.energy[[0, -1]]))
-            prov.e_lo = e0 - BELOW_GROUND * max(abs(e0 - problem.reference), etop - e0)
+            # the spectrum's extent below the ground state is measured from the reference, or from the lowest
+            # energy a bound state can have where that lies above it (walls around a thin deep well)
+            bottom = problem.reference + max(problem.deepest, 0.0)
+            prov.e_lo = e0 - BELOW_GROUND * max(abs(e0 - bottom), etop - e0)
             prov.e_hi = problem.threshold if math.isfinite(problem.threshold) else etop
         base = _grid(problem, prov.box, prov.e_lo, prov.e_hi, problem.settings.grid, prov.center)
         guess = (states.energy, states.sector) if states.size else None  # the coarse solve's states start level 0

@@ -54,6 +54,7 @@ class Problem:
     scale: float  # the potential's largest length (box growth limits)
     box: tuple[float, float]  # provisional box
     v_range: tuple[float, float]  # min and max of V - reference over the provisional box
+    deepest: float  # no bound state lies below this (relative; :func:`binding_floor`)
     floor: float  # smallest energy scale of relative tolerances
     mirror: float | None = None  # the potential's mirror centre (tested once), or None
     messages: list[str] = field(default_factory=list)
@@ -87,6 +88,29 @@ class Problem:
         return self._count[0]
 
 
+def binding_floor(potential, domain: Domain, threshold: float, xs: np.ndarray, vs: np.ndarray, dx: np.ndarray) -> float:
+    """An energy no bound state lies below (absolute, case energy unit), from V sampled at ``xs`` (``vs``) with
+    cell widths ``dx`` over the box.
+
+    On the line, every bound state of -d/dx (C/m) d/dx + V with V -> c at infinity obeys
+    |E - c| <= (m_max / 4C) (int (c - V)_+ dx)^2: the case gamma = 1/2 of the Lieb-Thirring inequalities, whose
+    sharp constant 1/2 (for sum |E_j|^(1/2) <= 1/2 int V_-, units hbar^2/2m = 1) was proved by Hundertmark,
+    Lieb and Thomas, Adv. Theor. Math. Phys. 2, 719 (1998) (quoted from memory); a delta well meets it,
+    and a larger mass only lowers the kinetic energy, hence m_max.  Walls only raise the energies (min-max),
+    so between walls it holds with c the potential's asymptotic level, where that is finite.  The floor is the
+    higher of this and the lowest V: for a well much narrower than its decay length (a thin deep layer) it
+    is far above the bottom of the well.  The integral is exact for a V constant between its features
+    (``xs`` their pieces), a midpoint sum otherwise.  Point terms are not included.
+    """
+    lowest = float(np.min(vs)) if vs.size else math.inf
+    level = threshold if math.isfinite(threshold) else min(potential.asymptote(-1), potential.asymptote(1))
+    if not (math.isfinite(level) and vs.size):
+        return lowest
+    m_max = max(float(np.max(potential.mass_at(xs))), potential.mass)
+    area = float(np.sum(np.maximum(level - vs, 0.0) * dx))
+    return max(lowest, level - m_max * area * area / (4.0 * potential.hbar2_2me))
+
+
 def plan(potential, domain: Domain, settings: SolveSettings) -> Problem:
     """The problem's facts: threshold, reference, window, node budget, decay budget and a first box."""
     tol = settings.tolerance
@@ -95,9 +119,10 @@ def plan(potential, domain: Domain, settings: SolveSettings) -> Problem:
     budget = 0.5 * math.log(DECAY_TARGET / tol) + 1.0
     box = provisional_box(potential, domain, threshold, budget)
     if potential.piecewise_constant:  # exact: every piece once, however thin
-        xs = potential.piece_midpoints(box[0], box[1])
+        xs, dx = potential.pieces(box[0], box[1])
     else:
         xs = np.linspace(box[0], box[1], RANGE_SAMPLES)[1:-1]
+        dx = np.full(xs.size, (box[1] - box[0]) / (RANGE_SAMPLES - 1))
     with np.errstate(all="ignore"):
         vs = potential.value(xs)
     if not np.all(np.isfinite(vs)):
@@ -125,6 +150,7 @@ def plan(potential, domain: Domain, settings: SolveSettings) -> Problem:
         scale=length_scale(potential),
         box=box,
         v_range=(vmin - reference, vmax - reference),
+        deepest=binding_floor(potential, domain, threshold, xs, vs, dx) - reference,
         floor=floor,
         mirror=potential.mirror_center(box[0], box[1]),
     )

@@ -111,9 +111,13 @@ class Potential:
     def piece_midpoints(self, lo: float, hi: float) -> np.ndarray:
         """The middle of every piece of [lo, hi] between consecutive features: one sample per piece where V (and
         m) is constant between the features (:attr:`piecewise_constant`) sees every value V takes there."""
+        return self.pieces(lo, hi)[0]
+
+    def pieces(self, lo: float, hi: float) -> tuple[np.ndarray, np.ndarray]:
+        """(middles, lengths) of the pieces of [lo, hi] between consecutive features (length unit)."""
         feats = self.features()
         ends = np.concatenate([[lo], feats[(feats > lo) & (feats < hi)], [hi]])
-        return 0.5 * (ends[1:] + ends[:-1])
+        return 0.5 * (ends[1:] + ends[:-1]), np.diff(ends)
 
     @cached_property
     def _point_terms(self) -> tuple[tuple[float, float], ...]:
