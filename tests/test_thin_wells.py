@@ -15,7 +15,6 @@ Numbers in nm and meV; mass 0.067 m_e (GaAs-like, common practice, no source).
 
 from __future__ import annotations
 
-import math
 import sys
 from pathlib import Path
 
@@ -26,7 +25,7 @@ import fdsolver
 from fdsolver.boundstates.problem import plan
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from references.transfer import Layer, Stack  # noqa: E402
+from references.transfer import Layer, Stack
 
 PROPS = settings(deadline=None, derandomize=True, max_examples=20, phases=(Phase.explicit, Phase.generate),
                  suppress_health_check=[HealthCheck.too_slow])

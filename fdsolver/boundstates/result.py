@@ -196,11 +196,7 @@ def finish(problem, box, center, run, box_error: np.ndarray, messages: list, wav
             )
     _convergence_notes(problem, run, error, scale, conv, index, messages)
     _existence_notes(problem, run, index, messages)
-    le = np.full((len(run.level_energies), n), np.nan)
-    for i, row in enumerate(run.level_energies):
-        le[i, : min(n, row.size)] = problem.absolute(row[:n])
-    whole = problem.whole_line_count() if problem.whole_spectrum else None
-    bound = whole if whole is not None else (int(states.count_below) if math.isfinite(problem.e_hi) else n)
+    le, whole, bound = _levels_and_counts(problem, run)
     return Solution(
         x=x_all,
         potential=_potential_on(pot, x_all),
@@ -246,11 +242,7 @@ def _energies_only(problem, box, center, run, box_error: np.ndarray, messages: l
     index = states.index.copy() if n else np.zeros(0, dtype=int)
     _convergence_notes(problem, run, error, scale, conv, index, messages)
     _existence_notes(problem, run, index, messages)
-    le = np.full((len(run.level_energies), n), np.nan)
-    for i, row in enumerate(run.level_energies):
-        le[i, : min(n, row.size)] = problem.absolute(row[:n])
-    whole = problem.whole_line_count() if problem.whole_spectrum else None
-    bound = whole if whole is not None else (int(states.count_below) if math.isfinite(problem.e_hi) else n)
+    le, whole, bound = _levels_and_counts(problem, run)
     empty, nothing = np.zeros(0), np.full(n, np.nan)
     return Solution(
         x=empty, potential=empty, mass=empty, weights=empty, energy=problem.absolute(run.energy), energy_error=error,
@@ -265,6 +257,18 @@ def _energies_only(problem, box, center, run, box_error: np.ndarray, messages: l
         splitting_bound=run.splitting_bound, resolved_count=int(states.count_below),
         whole_line_count=-1 if whole is None else int(whole), reference=problem.reference,
     )
+
+
+def _levels_and_counts(problem, run) -> tuple[np.ndarray, int | None, int]:
+    """Every level's energies (absolute; level x state, NaN where a level had fewer states), the box-independent
+    count of bound states (None where it is not counted) and the count reported as bound."""
+    n = run.energy.size
+    le = np.full((len(run.level_energies), n), np.nan)
+    for i, row in enumerate(run.level_energies):
+        le[i, : min(n, row.size)] = problem.absolute(row[:n])
+    whole = problem.whole_line_count() if problem.whole_spectrum else None
+    bound = whole if whole is not None else (int(run.states.count_below) if math.isfinite(problem.e_hi) else n)
+    return le, whole, bound
 
 
 def _convergence_notes(problem, run, error, scale, conv, index, messages) -> None:

@@ -517,9 +517,9 @@ def sector_pass(d, e, a, vw, w, shifts, lo, floor, prove, cluster_rtol, steps, r
 @njit
 def _nan_min(x, y):
     """min(x, y) that propagates NaN (numpy.minimum)."""
-    if x != x or y != y:
+    if math.isnan(x) or math.isnan(y):
         return math.nan
-    return x if x <= y else y
+    return min(x, y)
 
 
 @njit
@@ -543,7 +543,7 @@ def roundoff_floor(matrix, quotient, energies, ulps):
             gap = energies[j + 1] - energies[j]
         if j > 0:
             gap = _nan_min(gap, energies[j] - energies[j - 1])
-        gap = gap if gap != gap or gap >= 1e-300 else 1e-300  # numpy.maximum(gap, 1e-300)
+        gap = gap if math.isnan(gap) or gap >= 1e-300 else 1e-300  # numpy.maximum(gap, 1e-300)
         cap = gap if math.isfinite(gap) else 0.0
         out[j] = out[j] + _nan_min(matrix[j] * matrix[j] / gap, cap)
     return out
@@ -555,6 +555,21 @@ def _sector_count(d, e, shift, default):
     if not math.isfinite(shift):
         return default
     return sturm_count(d, e, shift)
+
+
+@njit
+def _proved_sector(d, e, a, vw, w, shifts, lo, floor, cluster_rtol, steps, residual_factor, ulps, eps):
+    """(ok, vectors, energies, round-off floors) of one sector from predicted energies ``shifts``
+    (:func:`sector_pass` with the index proof, then :func:`roundoff_floor`); ok is False where the general path
+    must decide."""
+    k = shifts.shape[0]
+    vectors = np.empty((k, d.shape[0]))
+    energy = np.empty(k)
+    scales = np.empty((k, 2))
+    if k and sector_pass(d, e, a, vw, w, shifts, lo, floor, True, cluster_rtol, steps, residual_factor, ulps, eps,
+                         vectors, energy, scales) != 0:
+        return False, vectors, energy, energy
+    return True, vectors, energy, roundoff_floor(scales[:, 0].copy(), scales[:, 1].copy(), energy, ulps)
 
 
 @njit
@@ -613,20 +628,12 @@ def predicted_grid(d0, e0, a0, vw0, w0, d1, e1, a1, vw1, w1, two, guess_e, guess
             i1 += 1
     p0 = np.sort(p0)
     p1 = np.sort(p1)
-    v0 = np.empty((k0, n0))
-    en0 = np.empty(k0)
-    sc0 = np.empty((k0, 2))
-    if k0 and sector_pass(d0, e0, a0, vw0, w0, p0, lo0, floor, True, cluster_rtol, steps, residual_factor, ulps,
-                          eps, v0, en0, sc0) != 0:
+    ok0, v0, en0, r0 = _proved_sector(d0, e0, a0, vw0, w0, p0, lo0, floor, cluster_rtol, steps, residual_factor,
+                                      ulps, eps)
+    ok1, v1, en1, r1 = _proved_sector(d1, e1, a1, vw1, w1, p1, lo1, floor, cluster_rtol, steps, residual_factor,
+                                      ulps, eps)
+    if not (ok0 and ok1):
         return fail
-    v1 = np.empty((k1, n1))
-    en1 = np.empty(k1)
-    sc1 = np.empty((k1, 2))
-    if k1 and sector_pass(d1, e1, a1, vw1, w1, p1, lo1, floor, True, cluster_rtol, steps, residual_factor, ulps,
-                          eps, v1, en1, sc1) != 0:
-        return fail
-    r0 = roundoff_floor(sc0[:, 0].copy(), sc0[:, 1].copy(), en0, ulps)
-    r1 = roundoff_floor(sc1[:, 0].copy(), sc1[:, 1].copy(), en1, ulps)
     # merge: by the mirror ranks 2 (lo0 + j) and 2 (lo1 + j) + 1, or a single sector's ascending energies
     energy = np.empty(n)
     sector = np.empty(n, np.int64)
@@ -645,8 +652,7 @@ def predicted_grid(d0, e0, a0, vw0, w0, d1, e1, a1, vw1, w1, two, guess_e, guess
     # nothing skipped: exactly first_index + n states of the whole grid at or below the highest
     top = energy[0]
     for m in range(n):
-        if energy[m] > top:
-            top = energy[m]
+        top = max(top, energy[m])
     delta = max(1e-7 * max(abs(top), floor), 0.0)
     below = sturm_count(d0, e0, top + delta) + (sturm_count(d1, e1, top + delta) if two else 0)
     if below != first_index + n:
@@ -901,7 +907,7 @@ def decay_reach(x, v, m, c, e_top, budget):
         if vi <= e_top:
             i0 = i
         y = m[i] * (vi - e_top) / c
-        kappa[i] = math.sqrt(y) if y > 0.0 else (y if y != y else 0.0)
+        kappa[i] = math.sqrt(y) if y > 0.0 else (math.nan if math.isnan(y) else 0.0)
     if 0.0 >= budget:
         return i0
     total = 0.0
