@@ -124,8 +124,10 @@ def _where(ds: xr.Dataset | Record, k: int) -> str:
         r = int(ds.lives_in.values[k])
         if 0 <= r < ds.sizes.get("region", 0):
             share = ds.probability_inside.values[k]
-            # regions holding nearly as much as the main one (the wells of a symmetric doublet) are named too
-            near = [j for j in np.argsort(-share) if share[j] >= SHARED * share[r]]
+            # regions holding nearly as much as the main one (the wells of a symmetric doublet) are named too,
+            # largest share first; shares equal to 1e-6 (mirror images, apart by round-off) in the case's order
+            near = sorted((j for j in range(share.size) if share[j] >= SHARED * share[r]),
+                          key=lambda j: (-round(float(share[j] / share[r]), 6), j))
             return " + ".join(name_of(ds.region_name.values[j]) for j in near[:MAX_NAMED])
     return "-"
 
