@@ -88,7 +88,7 @@ class Problem:
         return self._count[0]
 
 
-def binding_floor(potential, domain: Domain, threshold: float, xs: np.ndarray, vs: np.ndarray, dx: np.ndarray) -> float:
+def binding_floor(potential, threshold: float, xs: np.ndarray, vs: np.ndarray, dx: np.ndarray) -> float:
     """An energy no bound state lies below (absolute, case energy unit), from V sampled at ``xs`` (``vs``) with
     cell widths ``dx`` over the box.
 
@@ -150,7 +150,7 @@ def plan(potential, domain: Domain, settings: SolveSettings) -> Problem:
         scale=length_scale(potential),
         box=box,
         v_range=(vmin - reference, vmax - reference),
-        deepest=binding_floor(potential, domain, threshold, xs, vs, dx) - reference,
+        deepest=binding_floor(potential, threshold, xs, vs, dx) - reference,
         floor=floor,
         mirror=potential.mirror_center(box[0], box[1]),
     )
