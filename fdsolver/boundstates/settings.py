@@ -7,6 +7,10 @@ from dataclasses import dataclass, field
 from fdsolver.numerics.grid import GridSettings
 
 
+#: levels every solve takes at least (unless max_levels is smaller)
+MIN_LEVELS = 4
+
+
 @dataclass(frozen=True)
 class SolveSettings:
     """Accuracy and size controls of a solve.
@@ -14,7 +18,11 @@ class SolveSettings:
     ``tolerance`` is the target error of every energy relative to |E|;
     ``max_states`` the most states returned; ``energy_window`` (low, high) in
     the case energy unit restricts them; ``memory_mb`` bounds the grid;
-    ``max_levels`` / ``min_levels`` bound the nested refinements.  A periodic
+    ``max_levels`` / ``min_levels`` bound the nested refinements (at least
+    :data:`MIN_LEVELS` by default: the error estimate of three levels compares
+    the h^4 and h^6 extrapolations of one level and cannot tell a coarsest
+    level outside the asymptotic range; from four on it compares two levels'
+    h^6 values).  A periodic
     case reads ``bands`` (None: the command's default) and ``wavevectors``
     (:mod:`fdsolver.bloch`).
     """
@@ -24,7 +32,7 @@ class SolveSettings:
     energy_window: tuple[float, float] | None = None
     memory_mb: float = 1500.0
     max_levels: int = 9
-    min_levels: int = 3
+    min_levels: int = MIN_LEVELS
     grid: GridSettings = field(default_factory=GridSettings)
     bands: int | None = None
     wavevectors: int = 101

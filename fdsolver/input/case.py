@@ -18,7 +18,7 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any, Mapping
 
-from fdsolver.boundstates.settings import SolveSettings
+from fdsolver.boundstates.settings import MIN_LEVELS, SolveSettings
 from fdsolver.errors import CaseError, did_you_mean, shorten
 from fdsolver.input import fields as F
 from fdsolver.input._expressions import (
@@ -497,7 +497,8 @@ def _settings(data, params, file) -> SolveSettings:
     bands = F.whole(table, "bands", file, "solve", None, 1, 10000)
     wavevectors = F.whole(table, "wavevectors", file, "solve", 101, 2, 100000)
     quasi = F.flag(table, "quasi_bound", file, "solve")
-    return SolveSettings(tol, max_states, window, mem, levels, 3, GridSettings(), bands, wavevectors, quasi_bound=quasi)
+    return SolveSettings(tol, max_states, window, mem, levels, min(MIN_LEVELS, levels), GridSettings(), bands, wavevectors,
+                         quasi_bound=quasi)
 
 
 # ---------------------------------------------------------------- writing
