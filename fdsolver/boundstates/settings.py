@@ -6,7 +6,6 @@ from dataclasses import dataclass, field
 
 from fdsolver.numerics.grid import GridSettings
 
-
 #: levels every solve takes at least (unless max_levels is smaller)
 MIN_LEVELS = 4
 
