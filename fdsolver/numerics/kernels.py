@@ -81,8 +81,9 @@ def sturm_count(d, e, sigma):
 
 @njit
 def _sturm_counts3(d, e, s0, s1, s2):
-    """:func:`sturm_count` at three shifts in one pass (the same arithmetic; three independent recurrences run
-    side by side, so the pass costs little more than one)."""
+    """:func:`sturm_count` at three shifts in one pass (the same arithmetic, hence the same counts; three
+    independent recurrences run side by side, so the pass costs little more than one).  Exact integers; shifts
+    in the matrix's energy unit.  O(N)."""
     n = d.shape[0]
     tiny = 1e-300
     q0 = d[0] - s0
@@ -115,7 +116,8 @@ def upper_bracket(d, e, below, step, count):
     """The first of below + step, below + 2 step, below + 4 step, ... with at least ``count`` eigenvalues of
     tridiag(e, d, e) under it (or the first that is not finite): an upper end for bisection when no bound on
     the wanted values is known (walls, a confining potential).  Three candidates per pass over the matrix
-    (:func:`_sturm_counts3`); the result is that of trying them one at a time.
+    (:func:`_sturm_counts3`); the result is that of trying them one at a time.  Energies in the matrix's unit.
+    O(N log2(bracket / step)).
     """
     while True:
         s1 = step * 2.0
