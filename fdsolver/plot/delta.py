@@ -171,8 +171,10 @@ def _plot_map(ds, path) -> None:
         for axis, coord, which in ((ax.set_xscale, xa, ax.xaxis), (ax.set_yscale, ya, ax.yaxis)):
             if coord.attrs.get("spacing") == "log":
                 axis("log")
-                # a short log axis: ticks at 1, 2 and 5 per decade as plain numbers (minor labels ran into each other)
-                which.set_major_locator(LogLocator(subs=(1.0, 2.0, 5.0)))
+                # ticks as plain numbers: at 1, 2 and 5 per decade on a short axis (minor labels ran into each
+                # other), at every power of ten beyond about two decades (1, 2 and 5 ran into each other there)
+                decades = np.log10(float(np.max(coord.values)) / float(np.min(coord.values)))
+                which.set_major_locator(LogLocator(subs=(1.0, 2.0, 5.0) if decades <= 2.5 else (1.0,)))
                 which.set_major_formatter(FormatStrFormatter("%g"))
                 which.set_minor_formatter(NullFormatter())
         ax.set_xlabel(label(ds, names[0]))
