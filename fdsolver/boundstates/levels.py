@@ -124,17 +124,20 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
         guess = _prediction(level_e, states.sector) if states is not None else first_guess
         grid = refine(base, level)
         sectors_k, st_k = solve_nodes(problem, grid, center, guess)
-        if n_expected is not None and st_k.size < n_expected:
-            # the top state(s) rose out of the window on the finer grid: they are not resolved; the others keep
-            # their levels (states are numbered from the bottom, so the rows are cut, not shifted)
-            vanished.append((st_k.first_index + st_k.size, st_k.first_index + n_expected - 1, grid.size))
-            level_e = [row[: st_k.size] for row in level_e]
+        below = st_k.first_index - states.first_index if states is not None else 0
+        if n_expected is not None and st_k.size < n_expected and below >= 0:
+            # fewer states on the finer grid: those that sank below an energy window's foot left it (no note),
+            # the top one(s) rose out of the window and are not resolved; the others keep their levels, so each
+            # row keeps the states of the same global indices
+            if below + st_k.size < n_expected:
+                vanished.append((st_k.first_index + st_k.size, states.first_index + n_expected - 1, grid.size))
+            level_e = [row[below: below + st_k.size] for row in level_e]
             table, gaps = Romberg(), Romberg()
             for row in level_e:
                 table.add(row)
                 gaps.add(np.diff(row))
-        elif n_expected is not None and st_k.size != n_expected:
-            table, gaps, level_e, level_n = Romberg(), Romberg(), [], []  # a state appeared: restart the tables
+        elif n_expected is not None and (st_k.size != n_expected or below != 0):
+            table, gaps, level_e, level_n = Romberg(), Romberg(), [], []  # the states changed: restart the tables
         n_expected = st_k.size
         states, sectors, nodes, last = st_k, sectors_k, grid, level
         table.add(states.energy)
