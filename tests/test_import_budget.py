@@ -109,3 +109,50 @@ print("MODULES " + json.dumps([*before, *after]))
     assert proc.returncode == 0, proc.stderr
     answers = json.loads(proc.stdout.rsplit("MODULES ", 1)[1])
     assert answers == [True, True, False, True, True, True, True], answers
+
+
+def test_a_solve_loads_no_scipy_linalg(tmp_path):
+    """numba imports scipy.linalg (about 0.25 s of CPU, measured) only to ask whether ``np.dot`` may call BLAS; no
+    kernel of fdsolver calls it, so a bound-state solve of square wells does not load it (fdsolver/numerics/kernels.py)."""
+    case = tmp_path / "pair.toml"
+    case.write_text('title = "two square wells (invented)"\nunits = "nm-meV"\nmass = 0.067\n'
+                    '[[potential]]\nshape = "square"\ncenter = -3\nwidth = 4\ndepth = 150\n'
+                    '[[potential]]\nshape = "square"\ncenter = 3\nwidth = 4\ndepth = 150\n')
+    code = RUN_ENTRY_POINT.replace("sorted(sys.modules)", "sorted(m for m in sys.modules if m.startswith('scipy'))")
+    env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(PACKAGE_PARENT), os.environ.get("PYTHONPATH", "")]))
+    proc = subprocess.run([sys.executable, "-c", code, json.dumps(["solve", str(case)])], check=False,
+                          capture_output=True, text=True, env=env, timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    assert "energy [meV]" in proc.stdout  # the solve did run
+    scipy_modules = json.loads(proc.stdout.rsplit("MODULES ", 1)[1])
+    assert not any(m.startswith("scipy.linalg") for m in scipy_modules), scipy_modules
+
+
+def test_numba_linear_algebra_still_works_after_the_kernels_load():
+    """With the kernels loaded first, a later kernel's ``np.dot`` (lowered as a plain loop) and ``np.linalg`` (which
+    imports scipy.linalg when it compiles) give numpy's answers, and scipy.linalg imports normally."""
+    code = """
+import json, sys
+import numpy as np
+from fdsolver.numerics import kernels
+kernels.sturm_count(np.array([1.0, 2.0]), np.array([0.5]), 1.5)
+hidden = "scipy.linalg" not in sys.modules
+import numba
+@numba.njit
+def dot(a, b):
+    return np.dot(a, b)
+@numba.njit
+def eigvals(m):
+    return np.linalg.eigvalsh(m)
+rng = np.random.default_rng(3)
+a, b = rng.random(50), rng.random(50)
+m = rng.random((4, 4)); m = m + m.T
+import scipy.linalg
+ok = [hidden, bool(abs(dot(a, b) - a @ b) <= 1e-13 * (a @ b)), bool(np.allclose(eigvals(m), np.linalg.eigvalsh(m), rtol=0, atol=1e-12)),
+      bool(np.allclose(scipy.linalg.eigvalsh(m), np.linalg.eigvalsh(m), rtol=0, atol=1e-12))]
+print("MODULES " + json.dumps(ok))
+"""
+    env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(PACKAGE_PARENT), os.environ.get("PYTHONPATH", "")]))
+    proc = subprocess.run([sys.executable, "-c", code], check=False, capture_output=True, text=True, env=env, timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    assert json.loads(proc.stdout.rsplit("MODULES ", 1)[1]) == [True, True, True, True]

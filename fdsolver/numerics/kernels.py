@@ -54,7 +54,36 @@ def _jit():
         os.environ["NUMBA_CACHE_DIR"] = os.path.join(tempfile.gettempdir(), "fdsolver-numba-cache")
     import numba
 
+    _load_numpy_typing_without_scipy_linalg()
     return numba.njit(cache=True, nogil=True)
+
+
+def _load_numpy_typing_without_scipy_linalg():
+    """Import numba's numpy-array typing (``numba.np.arraymath``) without importing scipy.linalg.
+
+    numba imports ``numba.np.arraymath`` when the first kernel is loaded, and that module imports
+    ``scipy.linalg.cython_blas`` only to decide whether ``np.dot`` may call BLAS.  The whole of scipy.linalg
+    comes with it: about 0.25 s of CPU, a quarter of a cold ``fdsolver solve`` (measured in DEVELOPERS.md).
+    No kernel here calls ``np.dot``, ``@`` or ``np.linalg``, so the module is imported once here with
+    scipy.linalg hidden; numba then lowers ``np.dot`` (in any later kernel) as a plain loop.  Where
+    scipy.linalg is already loaded (the sweep workers load it first on purpose) nothing is hidden.
+    ``numba.np.linalg`` still imports scipy.linalg at compile time for a kernel that uses ``np.linalg``.
+    """
+    import importlib.abc
+    import sys
+
+    class _HideScipyLinalg(importlib.abc.MetaPathFinder):
+        def find_spec(self, name, path, target=None):
+            if name == "scipy.linalg":
+                raise ImportError("scipy.linalg is not needed to load fdsolver's kernels")
+
+    if "scipy.linalg" not in sys.modules and "numba.np.arraymath" not in sys.modules:
+        hider = _HideScipyLinalg()
+        sys.meta_path.insert(0, hider)
+        try:
+            import numba.np.arraymath  # noqa: F401
+        finally:
+            sys.meta_path.remove(hider)
 
 
 #: numba.njit(cache=True, nogil=True) with a cache folder that is always writable
