@@ -111,13 +111,23 @@ print("MODULES " + json.dumps([*before, *after]))
     assert answers == [True, True, False, True, True, True, True], answers
 
 
-def test_a_solve_loads_no_scipy_linalg(tmp_path):
+PAIR = ('title = "two square wells (invented)"\nunits = "nm-meV"\nmass = 0.067\n'
+        '[[potential]]\nshape = "square"\ncenter = -3\nwidth = 4\ndepth = 150\n'
+        '[[potential]]\nshape = "square"\ncenter = 3\nwidth = 4\ndepth = 150\n')
+#: barriers above a zero baseline: the open line's quasi-bound states (widths), no bound state, no field
+BARRIERS = ('title = "two thin barriers (invented)"\nunits = "nm-meV"\nmass = 0.067\n'
+            '[[potential]]\nshape = "square"\ncenter = -4\nwidth = 2\ndepth = -300\n'
+            '[[potential]]\nshape = "square"\ncenter = 4\nwidth = 2\ndepth = -300\n[solve]\nquasi_bound = true\n')
+
+
+@pytest.mark.parametrize("text", [PAIR, BARRIERS], ids=["square-well pair", "double barrier on the open line"])
+def test_a_solve_loads_no_scipy_linalg_special_or_optimize(tmp_path, text):
     """numba imports scipy.linalg (about 0.25 s of CPU, measured) only to ask whether ``np.dot`` may call BLAS; no
-    kernel of fdsolver calls it, so a bound-state solve of square wells does not load it (fdsolver/numerics/kernels.py)."""
-    case = tmp_path / "pair.toml"
-    case.write_text('title = "two square wells (invented)"\nunits = "nm-meV"\nmass = 0.067\n'
-                    '[[potential]]\nshape = "square"\ncenter = -3\nwidth = 4\ndepth = 150\n'
-                    '[[potential]]\nshape = "square"\ncenter = 3\nwidth = 4\ndepth = 150\n')
+    kernel of fdsolver calls it (fdsolver/numerics/kernels.py).  scipy.special (Airy functions, for a field at an
+    open end) and scipy.optimize (a bound state's root on the open line) are imported where they are called.  So
+    neither a bound-state solve of square wells nor the quasi-bound states of a double barrier load any of them."""
+    case = tmp_path / "case.toml"
+    case.write_text(text)
     code = RUN_ENTRY_POINT.replace("sorted(sys.modules)", "sorted(m for m in sys.modules if m.startswith('scipy'))")
     env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(PACKAGE_PARENT), os.environ.get("PYTHONPATH", "")]))
     proc = subprocess.run([sys.executable, "-c", code, json.dumps(["solve", str(case)])], check=False,
@@ -125,7 +135,9 @@ def test_a_solve_loads_no_scipy_linalg(tmp_path):
     assert proc.returncode == 0, proc.stderr
     assert "energy [meV]" in proc.stdout  # the solve did run
     scipy_modules = json.loads(proc.stdout.rsplit("MODULES ", 1)[1])
-    assert not any(m.startswith("scipy.linalg") for m in scipy_modules), scipy_modules
+    heavy = [m for m in scipy_modules if m.split(".")[:2] in (["scipy", "linalg"], ["scipy", "special"],
+                                                               ["scipy", "optimize"])]
+    assert not heavy, heavy
 
 
 def test_numba_linear_algebra_still_works_after_the_kernels_load():

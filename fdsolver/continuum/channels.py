@@ -42,7 +42,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.special import airy, airye
 
 ROT = np.exp(0.25j * np.pi)
 
@@ -58,8 +57,11 @@ def airy_scaled(z):
 
     Real z give real values (scipy.special.airye for z >= 0, airy for z < 0);
     complex z use the complex airye with la = -zeta, lb = |Re zeta|,
-    zeta = (2/3) z sqrt(z).
+    zeta = (2/3) z sqrt(z).  scipy.special is imported here, where the Airy functions are called (a field at an
+    open end), not with this module: it costs a cold start about 0.3 s of CPU.
     """
+    from scipy.special import airy, airye
+
     z = np.asarray(z)
     if np.iscomplexobj(z):
         ai, aip, bi, bip = airye(z)
@@ -88,6 +90,8 @@ def _rotated_ai(z, sign: int, gamma: float):
     larger than the sum at z = 3 - 13i), where adding the two loses every
     digit; the single rotated Ai keeps full relative accuracy there.
     """
+    from scipy.special import airye
+
     rot = np.exp(sign * 2j * np.pi / 3)
     w = np.asarray(z, dtype=complex) * rot
     ai, aip, _, _ = airye(w)

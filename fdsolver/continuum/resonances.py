@@ -36,7 +36,6 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.optimize import brentq
 
 from fdsolver.continuum.jost import jost
 from fdsolver.continuum.narrow import narrow_pole
@@ -122,6 +121,8 @@ def _bound_energy(f, x: float, width: float) -> float:
         if fb == 0:
             return b
         if (fa > 0) != (fb > 0):
+            from scipy.optimize import brentq  # here, not at import: scipy.optimize costs a cold start ~0.4 s
+
             return brentq(s, a, b, xtol=4 * EPS * abs(x) + 1e-300, rtol=4 * EPS)
         w *= 4.0
     return x
