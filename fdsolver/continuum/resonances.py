@@ -121,7 +121,8 @@ def _bound_energy(f, x: float, width: float) -> float:
         if fb == 0:
             return b
         if (fa > 0) != (fb > 0):
-            from scipy.optimize import brentq  # here, not at import: scipy.optimize costs a cold start ~0.4 s
+            # imported here, not with the module: scipy.optimize costs a cold start about 0.4 s
+            from scipy.optimize import brentq
 
             return brentq(s, a, b, xtol=4 * EPS * abs(x) + 1e-300, rtol=4 * EPS)
         w *= 4.0
