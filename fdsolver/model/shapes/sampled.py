@@ -10,6 +10,7 @@ import numpy as np
 
 from fdsolver.errors import CaseError, did_you_mean
 from fdsolver.model.shapes.base import COUNT, INF, TEXT, Shape, register
+from fdsolver.model.shapes.spline import evaluate, not_a_knot
 
 INTERPOLATIONS = ("linear", "cubic")
 #: a linear table with at most this many rows has every row as a grid feature
@@ -54,9 +55,7 @@ class Table(Shape):
         xs, vs = np.asarray(self.xs, dtype=float), np.asarray(self.vs, dtype=float)
         object.__setattr__(self, "_arrays", (xs, vs))
         if self.interpolation == "cubic":
-            from scipy.interpolate import CubicSpline
-
-            object.__setattr__(self, "_spline", CubicSpline(xs, vs))
+            object.__setattr__(self, "_spline", not_a_knot(xs, vs))
 
     @property
     def exact_integrals(self) -> bool:  # type: ignore[override]
@@ -68,7 +67,7 @@ class Table(Shape):
         xs, vs = self._arrays
         if self._spline is None:
             return np.interp(x, xs, vs)
-        inside = self._spline(np.clip(x, xs[0], xs[-1]))
+        inside = evaluate(self._spline, np.clip(x, xs[0], xs[-1]))
         return np.where(x <= xs[0], vs[0], np.where(x >= xs[-1], vs[-1], inside))
 
     def integrate(self, a, b):
