@@ -1,23 +1,41 @@
-"""SI values of the case units, for lifetimes (s) and current densities (A/m^2); CODATA via scipy.constants."""
+"""SI values of the case units, for lifetimes (s) and current densities (A/m^2); CODATA values from
+:mod:`fdsolver.model.units` (the one table of constants; its tests check it against scipy.constants, which is not
+imported here: it costs a cold start about 0.1 s of CPU)."""
 
 from __future__ import annotations
 
 import math
 
-import scipy.constants as sc
+from fdsolver.model.units import (
+    BOHR_RADIUS,
+    BOLTZMANN,
+    ELECTRON_MASS,
+    ELEMENTARY_CHARGE,
+    HARTREE_ENERGY,
+    HBAR,
+)
 
-HBAR = sc.hbar  # J s
-E_CHARGE = sc.e  # C
-K_BOLTZMANN = sc.k  # J / K
-M_ELECTRON = sc.m_e  # kg
+__all__ = [
+    "E_CHARGE",
+    "HBAR",
+    "K_BOLTZMANN",
+    "M_ELECTRON",
+    "joule_per_energy_unit",
+    "lifetime_seconds",
+    "metre_per_length_unit",
+]
+
+E_CHARGE = ELEMENTARY_CHARGE  # C
+K_BOLTZMANN = BOLTZMANN  # J / K
+M_ELECTRON = ELECTRON_MASS  # kg
 
 
 def joule_per_energy_unit(units) -> float:
     """One case energy unit in J (meV or hartree); nan for an unnamed unit system."""
     if units.name == "nm-meV":
-        return 1e-3 * sc.e
+        return 1e-3 * ELEMENTARY_CHARGE
     if units.name == "atomic":
-        return sc.physical_constants["Hartree energy"][0]
+        return HARTREE_ENERGY
     return math.nan
 
 
@@ -26,7 +44,7 @@ def metre_per_length_unit(units) -> float:
     if units.name == "nm-meV":
         return 1e-9
     if units.name == "atomic":
-        return sc.physical_constants["Bohr radius"][0]
+        return BOHR_RADIUS
     return math.nan
 
 
