@@ -14,9 +14,11 @@ Calibration: the machine's cost of one Sturm count per grid node (fdsolver.numer
    numba itself sets for any cold start that calls a cached kernel: a script with no fdsolver code that imports
    numba and calls one trivial cached function; and the same floor with scipy.linalg kept out of numba's start, as
    fdsolver.numerics.kernels does.
-2. per solve: every bundled case solved warm; the ratio printed is
-   measured CPU / (node-states x Sturm ns per node), where node-states = sum over grid levels of
-   (nodes x states found).  Target for the double wells: ratio <= 5 and about 2 ms.
+   Every other bundled case that ``solve`` takes is timed the same way (same target).
+2. per solve: every bundled case solved warm; two ratios are printed: measured CPU / (node-states x Sturm ns
+   per node), where node-states = sum over grid levels of (nodes x states found), and measured CPU / the lean
+   estimate (node-states x 30 ns at 8 ns per Sturm node, scaled by this machine's Sturm count).  Target for the
+   double wells: within 5 times of the lean estimate, about 2 ms.
 3. many states (skipped with --quick): 10, 50, 200, 1000 states of a 1000 nm wide, 6000 meV deep well
    (mass 0.067, invented); CPU time, CPU per state, how many converged.  Target: 1000 states converged
    in < 30 s, cost per state flat from 10 to 1000.
@@ -32,6 +34,7 @@ for _var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ[_var] = "1"
 
 import argparse  # noqa: E402
+import math
 import resource  # noqa: E402
 import statistics  # noqa: E402
 import subprocess  # noqa: E402
@@ -43,14 +46,19 @@ from pathlib import Path  # noqa: E402
 import numpy as np  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
+#: the lean estimate of a solve's cost per node-state in Sturm counts: one inverse iteration and one Rayleigh
+#: quotient per state and level, about 30 ns per node-state on a machine whose Sturm count costs about 8 ns per node
+LEAN_PER_STURM = 30.0 / 8.0
 CASES = sorted((ROOT / "cases").glob("*.toml"))
 
 
-def child_cpu(cmd: list[str], env=None) -> tuple[float, float]:
-    """CPU seconds (user + system) and wall seconds of one child process."""
+def child_cpu(cmd: list[str], env=None, check: bool = True) -> tuple[float, float]:
+    """CPU seconds (user + system) and wall seconds of one child process (nan, nan if it failed and not check)."""
     before = resource.getrusage(resource.RUSAGE_CHILDREN)
     t0 = time.perf_counter()
-    subprocess.run(cmd, capture_output=True, check=True, env=os.environ if env is None else env)
+    done = subprocess.run(cmd, capture_output=True, check=check, env=os.environ if env is None else env)
+    if done.returncode != 0:
+        return float("nan"), float("nan")
     wall = time.perf_counter() - t0
     after = resource.getrusage(resource.RUSAGE_CHILDREN)
     return (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime), wall
@@ -109,6 +117,11 @@ def startup(repeat: int) -> None:
         ("fdsolver solve coupled_wells (cold)", [py, "-m", "fdsolver", "solve", case], 0.8),
         ("  the same with -o run.nc (archive)", [py, "-m", "fdsolver", "solve", case, "-o", archive], 0.8),
     ]
+    # every other bundled case that `solve` takes (a periodic case is refused: it has bands, not bound states)
+    for other in CASES:
+        cmd = [py, "-m", "fdsolver", "solve", str(other)]
+        if other.stem != "coupled_wells" and not math.isnan(child_cpu(cmd, bytecode_env, check=False)[0]):
+            commands.append((f"fdsolver solve {other.stem} (cold)", cmd, 0.8))
     for _name, cmd, _target in commands:  # untimed: numba cache and bytecode warm from here on
         child_cpu(cmd, bytecode_env)
     print("1. start-up (child processes; seconds)")
@@ -127,7 +140,7 @@ def per_solve(repeat: int, sturm_ns: float) -> None:
 
     print(f"2. warm solves (CPU in this process; {repeat} runs each)")
     print(f"   {'case':<26} {'states':>6} {'levels':>6} {'node-states':>12} {'CPU min [ms]':>12} {'median':>8} "
-          f"{'wall med':>8} {'lean [ms]':>9} {'ratio':>7}")
+          f"{'wall med':>8} {'lean [ms]':>9} {'ratio':>7} {'to lean':>7}")
     for path in CASES:
         try:
             case = load_case(path)
@@ -145,8 +158,11 @@ def per_solve(repeat: int, sturm_ns: float) -> None:
         lean = node_states * sturm_ns * 1e-9
         print(f"   {path.stem:<26} {sol.energy.size:6d} {len(sol.level_sizes):6d} {node_states:12d} "
               f"{min(cpu) * 1e3:12.2f} {statistics.median(cpu) * 1e3:8.2f} {statistics.median(wall) * 1e3:8.2f} "
-              f"{lean * 1e3:9.3f} {min(cpu) / lean:7.1f}")
-    print("   target: double wells within 5x of the lean estimate, about 2 ms")
+              f"{lean * 1e3:9.3f} {min(cpu) / lean:7.1f} {min(cpu) / (lean * LEAN_PER_STURM):7.1f}")
+    print("   ratio = measured / (node-states x Sturm ns per node); to lean = measured / (node-states x "
+          f"{LEAN_PER_STURM:g} x Sturm ns per node), the lean estimate of one inverse iteration and one Rayleigh")
+    print("   quotient per node-state (30 ns where a Sturm count costs 8 ns per node).  Target for the double wells:")
+    print("   within 5 times of the lean estimate, about 2 ms")
 
 
 def many_states() -> None:
