@@ -130,8 +130,8 @@ TABLE = ('title = "a tabulated well (invented)"\nunits = "nm-meV"\nmass = 0.067\
 @pytest.mark.parametrize("text", [PAIR, BARRIERS, TABLE],
                          ids=["square-well pair", "double barrier on the open line", "cubic table"])
 def test_a_solve_loads_no_heavy_scipy_subpackage(tmp_path, text):
-    """numba imports scipy.linalg (about 0.25 s of CPU, measured) only to ask whether ``np.dot`` may call BLAS; no
-    kernel of fdsolver calls it (fdsolver/numerics/kernels.py).  scipy.special (Airy functions, for a field at an
+    """numba imports scipy.linalg (about 0.25 s of CPU, measured) only to ask whether its ``np.correlate`` and
+    ``np.convolve`` may call BLAS; no kernel of fdsolver calls them (fdsolver/numerics/kernels.py).  scipy.special (Airy functions, for a field at an
     open end) and scipy.optimize (a bound state's root on the open line) are imported where they are called; the
     cubic spline of a table and the constants of lifetimes need neither scipy.interpolate nor scipy.constants.  So
     no solve of these structures loads any of them (0.1 to 0.4 s of CPU each, measured; DEVELOPERS.md)."""
@@ -152,8 +152,9 @@ def test_a_solve_loads_no_heavy_scipy_subpackage(tmp_path, text):
 
 
 def test_numba_linear_algebra_still_works_after_the_kernels_load():
-    """With the kernels loaded first, a later kernel's ``np.dot`` (lowered as a plain loop) and ``np.linalg`` (which
-    imports scipy.linalg when it compiles) give numpy's answers, and scipy.linalg imports normally."""
+    """With the kernels loaded first, a later kernel's ``np.convolve`` (its inner products then a plain loop),
+    ``np.dot`` and ``np.linalg`` (which import scipy.linalg when they compile) give numpy's answers, and
+    scipy.linalg imports normally."""
     code = """
 import json, sys
 import numpy as np
@@ -165,13 +166,17 @@ import numba
 def dot(a, b):
     return np.dot(a, b)
 @numba.njit
+def convolve(a, b):
+    return np.convolve(a, b)
+@numba.njit
 def eigvals(m):
     return np.linalg.eigvalsh(m)
 rng = np.random.default_rng(3)
 a, b = rng.random(50), rng.random(50)
 m = rng.random((4, 4)); m = m + m.T
+conv = bool(np.allclose(convolve(a, b[:7]), np.convolve(a, b[:7]), rtol=1e-14, atol=0))
 import scipy.linalg
-ok = [hidden, bool(abs(dot(a, b) - a @ b) <= 1e-13 * (a @ b)), bool(np.allclose(eigvals(m), np.linalg.eigvalsh(m), rtol=0, atol=1e-12)),
+ok = [hidden and conv, bool(abs(dot(a, b) - a @ b) <= 1e-13 * (a @ b)), bool(np.allclose(eigvals(m), np.linalg.eigvalsh(m), rtol=0, atol=1e-12)),
       bool(np.allclose(scipy.linalg.eigvalsh(m), np.linalg.eigvalsh(m), rtol=0, atol=1e-12))]
 print("MODULES " + json.dumps(ok))
 """

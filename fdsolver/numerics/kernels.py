@@ -62,12 +62,13 @@ def _load_numpy_typing_without_scipy_linalg():
     """Import numba's numpy-array typing (``numba.np.arraymath``) without importing scipy.linalg.
 
     numba imports ``numba.np.arraymath`` when the first kernel is loaded, and that module imports
-    ``scipy.linalg.cython_blas`` only to decide whether ``np.dot`` may call BLAS.  The whole of scipy.linalg
-    comes with it: about 0.25 s of CPU, a quarter of a cold ``fdsolver solve`` (measured in DEVELOPERS.md).
-    No kernel here calls ``np.dot``, ``@`` or ``np.linalg``, so the module is imported once here with
-    scipy.linalg hidden; numba then lowers ``np.dot`` (in any later kernel) as a plain loop.  Where
+    ``scipy.linalg.cython_blas`` only to decide whether the inner products of its ``np.correlate`` and
+    ``np.convolve`` may call BLAS.  The whole of scipy.linalg comes with it: about 0.25 s of CPU, a quarter of
+    a cold ``fdsolver solve`` (measured in DEVELOPERS.md).  No kernel here calls those, so the module is
+    imported once here with scipy.linalg hidden; numba then computes those inner products (in any later kernel
+    of the process) as a plain loop, with the same result to round-off.  ``np.dot``, ``@`` and ``np.linalg``
+    are not affected: ``numba.np.linalg`` imports scipy.linalg when a kernel using them compiles.  Where
     scipy.linalg is already loaded (the sweep workers load it first on purpose) nothing is hidden.
-    ``numba.np.linalg`` still imports scipy.linalg at compile time for a kernel that uses ``np.linalg``.
     """
     import importlib.abc
     import sys
