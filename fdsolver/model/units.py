@@ -41,12 +41,12 @@ class UnitSystem:
 
     ``hbar2_2me`` is hbar^2 / (2 m_e) in ``energy * length**2``.
     ``length_si`` and ``energy_si`` are one length unit in metres and one energy unit in joules
-    (CODATA values from scipy.constants; NaN for an unnamed system), for the quantities that
+    (the CODATA values above; NaN for an unnamed system), for the quantities that
     leave the Schroedinger problem's own units (optical cross-sections, material data in eV).
     ``length_udunits`` and ``energy_udunits`` are the CF/UDUNITS spellings used
     in archives.  UDUNITS knows no bohr or hartree, so atomic-unit archives
-    write them as scaled SI units ("5.29177210544e-11 m", CODATA values from
-    scipy.constants) and name them in ``units_name`` beside ``units``.
+    write them as scaled SI units ("5.29177210544e-11 m", the CODATA values
+    above) and name them in ``units_name`` beside ``units``.
     """
 
     name: str
