@@ -96,7 +96,7 @@ def startup(repeat: int) -> None:
                                                "    return x + 1.0\n")
     floor_cmd = [py, "-c", f"import sys; sys.path.insert(0, {str(floor_dir)!r}); import floor_kernel; floor_kernel.one(1.0)"]
     # the same with scipy.linalg kept out of numba's start, as fdsolver.numerics.kernels does (numba imports it only
-    # to ask whether np.dot may call BLAS)
+    # to ask whether the inner products of np.correlate and np.convolve may call BLAS)
     (floor_dir / "floor_hidden.py").write_text(
         "import importlib.abc, sys\n\n\nclass Hide(importlib.abc.MetaPathFinder):\n"
         "    def find_spec(self, name, path, target=None):\n"
@@ -140,7 +140,7 @@ def per_solve(repeat: int, sturm_ns: float) -> None:
 
     print(f"2. warm solves (CPU in this process; {repeat} runs each)")
     print(f"   {'case':<26} {'states':>6} {'levels':>6} {'node-states':>12} {'CPU min [ms]':>12} {'median':>8} "
-          f"{'wall med':>8} {'lean [ms]':>9} {'ratio':>7} {'to lean':>7}")
+          f"{'wall med':>8} {'Sturm [ms]':>10} {'ratio':>7} {'to lean':>7}")
     for path in CASES:
         try:
             case = load_case(path)
@@ -155,11 +155,11 @@ def per_solve(repeat: int, sturm_ns: float) -> None:
             cpu.append(time.process_time() - t0)
             wall.append(time.perf_counter() - w0)
         node_states = int(np.sum(sol.level_sizes)) * max(int(sol.energy.size), 1)
-        lean = node_states * sturm_ns * 1e-9
+        sturm = node_states * sturm_ns * 1e-9  # one Sturm count per node-state
         print(f"   {path.stem:<26} {sol.energy.size:6d} {len(sol.level_sizes):6d} {node_states:12d} "
               f"{min(cpu) * 1e3:12.2f} {statistics.median(cpu) * 1e3:8.2f} {statistics.median(wall) * 1e3:8.2f} "
-              f"{lean * 1e3:9.3f} {min(cpu) / lean:7.1f} {min(cpu) / (lean * LEAN_PER_STURM):7.1f}")
-    print("   ratio = measured / (node-states x Sturm ns per node); to lean = measured / (node-states x "
+              f"{sturm * 1e3:10.3f} {min(cpu) / sturm:7.1f} {min(cpu) / (sturm * LEAN_PER_STURM):7.1f}")
+    print("   Sturm = node-states x Sturm ns per node; ratio = measured / Sturm; to lean = measured / (node-states x "
           f"{LEAN_PER_STURM:g} x Sturm ns per node), the lean estimate of one inverse iteration and one Rayleigh")
     print("   quotient per node-state (30 ns where a Sturm count costs 8 ns per node).  Target for the double wells:")
     print("   within 5 times of the lean estimate, about 2 ms")
