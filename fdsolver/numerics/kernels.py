@@ -68,7 +68,10 @@ def _load_numpy_typing_without_scipy_linalg():
     imported once here with scipy.linalg hidden; numba then computes those inner products (in any later kernel
     of the process) as a plain loop, with the same result to round-off.  ``np.dot``, ``@`` and ``np.linalg``
     are not affected: ``numba.np.linalg`` imports scipy.linalg when a kernel using them compiles.  Where
-    scipy.linalg is already loaded (the sweep workers load it first on purpose) nothing is hidden.
+    scipy.linalg is already loaded (the sweep workers load it first on purpose) nothing is hidden.  The hiding
+    lasts only while this one import runs, when fdsolver's kernels are first imported; another thread of the
+    same process importing scipy.linalg in that instant would get an ImportError (fdsolver imports its kernels
+    from the importing thread only).
     """
     import importlib.abc
     import sys
