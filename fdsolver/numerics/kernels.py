@@ -70,8 +70,8 @@ def _load_numpy_typing_without_scipy_linalg():
     are not affected: ``numba.np.linalg`` imports scipy.linalg when a kernel using them compiles.  Where
     scipy.linalg is already loaded (the sweep workers load it first on purpose) nothing is hidden.  The hiding
     lasts only while this one import runs, when fdsolver's kernels are first imported; another thread of the
-    same process importing scipy.linalg in that instant would get an ImportError (fdsolver imports its kernels
-    from the importing thread only).
+    same process importing scipy.linalg in that instant would get an ImportError.  fdsolver's own threads (a
+    threaded Dask cluster) start after this: reading a case imports the kernels.
     """
     import importlib.abc
     import sys
