@@ -150,11 +150,57 @@ def finish(problem, box, center, run, box_error: np.ndarray, messages: list, wav
     that needs nothing else): ``x``, ``psi`` and the node arrays are empty, the observables NaN, no state is
     a hard-wall state, and the sign changes of psi are not checked.
     """
-    states, pot = run.states, problem.potential
-    tol = problem.settings.tolerance
+    states = run.states
     n = run.energy.size
-    if not wavefunctions:
-        return _energies_only(problem, box, center, run, box_error, messages)
+    error = run.error + box_error
+    scale = problem.energy_scale(run.energy)
+    conv = error <= problem.settings.tolerance * scale if n else np.zeros(0, dtype=bool)
+    index = states.index.copy() if n else np.zeros(0, dtype=int)
+    if wavefunctions:
+        waves = _observables(problem, box, run, conv, index, messages)
+    else:
+        empty, nothing = np.zeros(0), np.full(n, np.nan)
+        waves = {"x": empty, "potential": empty, "mass": empty, "weights": empty, "psi": np.zeros((n, 0)),
+                 "mean_x": nothing, "spread": nothing.copy(),
+                 "inside": np.full((n, len(problem.potential.regions())), np.nan), "home": np.full(n, -1),
+                 "wall": np.zeros(n, dtype=int)}
+    _convergence_notes(problem, run, error, scale, conv, index, messages)
+    _existence_notes(problem, run, index, messages)
+    le, whole, bound = _levels_and_counts(problem, run)
+    return Solution(
+        **waves,
+        energy=problem.absolute(run.energy),
+        energy_error=error,
+        converged=conv,
+        nodes=index.copy(),
+        parity=states.parity.copy() if n else np.zeros(0, dtype=int),
+        region_names=tuple(r[0] for r in problem.potential.regions()),
+        threshold=problem.threshold,
+        box=(float(box[0]), float(box[1])),
+        boundary=problem.domain.boundary,
+        mirror_center=center,
+        level_energies=le,
+        level_sizes=np.array(run.level_sizes, dtype=int),
+        box_error=box_error,
+        bound_count=int(bound),
+        messages=tuple(dict.fromkeys(messages)),
+        index=index,
+        splitting=run.splitting,
+        splitting_error=run.splitting_error,
+        splitting_bound=run.splitting_bound,
+        resolved_count=int(states.count_below),
+        whole_line_count=-1 if whole is None else int(whole),
+        reference=problem.reference,
+    )
+
+
+def _observables(problem, box, run, conv: np.ndarray, index: np.ndarray, messages: list) -> dict:
+    """The wavefunctions on the whole finest grid and what :func:`finish` derives from them: the nodes, V, m and
+    weights there, <x>, the spreads, each region's share, each state's home region and hard-wall side.  A state
+    whose resolved wavefunction changes sign more often than its index allows is marked not converged (``conv``)
+    with a note."""
+    states, pot = run.states, problem.potential
+    n = run.energy.size
     if run.sectors:
         x_all = _unfold(run.sectors[0], np.zeros(run.sectors[0].op.size))[0]
     else:
@@ -181,11 +227,6 @@ def finish(problem, box, center, run, box_error: np.ndarray, messages: list, wav
     wall = np.zeros(n, dtype=int)
     for j, (side, _, _) in enumerate(zones):
         wall[sums[:, 2 + len(regions) + j] > WALL_SHARE] = side
-    error = run.error + box_error
-    energy = problem.absolute(run.energy)
-    scale = problem.energy_scale(run.energy)
-    conv = error <= tol * scale if n else np.zeros(0, dtype=bool)
-    index = states.index.copy() if n else np.zeros(0, dtype=int)
     for k in range(n):
         found = _sign_changes(psi[k])
         if found > index[k]:
@@ -194,69 +235,8 @@ def finish(problem, box, center, run, box_error: np.ndarray, messages: list, wav
                 f"state {index[k]}: its wavefunction changes sign {found} times where it is resolved, more than its "
                 f"index allows: the grid does not separate it from a neighbouring state"
             )
-    _convergence_notes(problem, run, error, scale, conv, index, messages)
-    _existence_notes(problem, run, index, messages)
-    le, whole, bound = _levels_and_counts(problem, run)
-    return Solution(
-        x=x_all,
-        potential=_potential_on(pot, x_all),
-        mass=pot.mass_at(x_all),
-        weights=w_all,
-        energy=energy,
-        energy_error=error,
-        converged=conv,
-        psi=psi,
-        nodes=index.copy(),
-        parity=states.parity.copy() if n else np.zeros(0, dtype=int),
-        mean_x=mean_x,
-        spread=spread,
-        inside=inside,
-        region_names=tuple(r[0] for r in regions),
-        threshold=problem.threshold,
-        box=(float(box[0]), float(box[1])),
-        boundary=problem.domain.boundary,
-        mirror_center=center,
-        level_energies=le,
-        level_sizes=np.array(run.level_sizes, dtype=int),
-        box_error=box_error,
-        bound_count=int(bound),
-        messages=tuple(dict.fromkeys(messages)),
-        index=index,
-        home=home.astype(int),
-        wall=wall,
-        splitting=run.splitting,
-        splitting_error=run.splitting_error,
-        splitting_bound=run.splitting_bound,
-        resolved_count=int(states.count_below),
-        whole_line_count=-1 if whole is None else int(whole),
-        reference=problem.reference,
-    )
-
-
-def _energies_only(problem, box, center, run, box_error: np.ndarray, messages: list) -> Solution:
-    """:func:`finish` without wavefunctions and observables."""
-    states, n = run.states, run.energy.size
-    error = run.error + box_error
-    scale = problem.energy_scale(run.energy)
-    conv = error <= problem.settings.tolerance * scale if n else np.zeros(0, dtype=bool)
-    index = states.index.copy() if n else np.zeros(0, dtype=int)
-    _convergence_notes(problem, run, error, scale, conv, index, messages)
-    _existence_notes(problem, run, index, messages)
-    le, whole, bound = _levels_and_counts(problem, run)
-    empty, nothing = np.zeros(0), np.full(n, np.nan)
-    return Solution(
-        x=empty, potential=empty, mass=empty, weights=empty, energy=problem.absolute(run.energy), energy_error=error,
-        converged=conv, psi=np.zeros((n, 0)), nodes=index.copy(),
-        parity=states.parity.copy() if n else np.zeros(0, dtype=int), mean_x=nothing, spread=nothing.copy(),
-        inside=np.full((n, len(problem.potential.regions())), np.nan),
-        region_names=tuple(r[0] for r in problem.potential.regions()), threshold=problem.threshold,
-        box=(float(box[0]), float(box[1])), boundary=problem.domain.boundary, mirror_center=center,
-        level_energies=le, level_sizes=np.array(run.level_sizes, dtype=int), box_error=box_error,
-        bound_count=int(bound), messages=tuple(dict.fromkeys(messages)), index=index, home=np.full(n, -1),
-        wall=np.zeros(n, dtype=int), splitting=run.splitting, splitting_error=run.splitting_error,
-        splitting_bound=run.splitting_bound, resolved_count=int(states.count_below),
-        whole_line_count=-1 if whole is None else int(whole), reference=problem.reference,
-    )
+    return {"x": x_all, "potential": _potential_on(pot, x_all), "mass": pot.mass_at(x_all), "weights": w_all,
+            "psi": psi, "mean_x": mean_x, "spread": spread, "inside": inside, "home": home.astype(int), "wall": wall}
 
 
 def _levels_and_counts(problem, run) -> tuple[np.ndarray, int | None, int]:
