@@ -15,12 +15,15 @@ Usage:  python scripts/bench_cold_pairs.py BASE_TREE NEW_TREE [--repeat N] [CASE
 from __future__ import annotations
 
 import argparse
+import math
 import os
-import resource
 import statistics
-import subprocess
 import sys
 from pathlib import Path
+
+from bench_overhead import (
+    child_cpu,  # one BLAS thread set on import; CPU of a child process
+)
 
 ROOT = Path(__file__).resolve().parent.parent
 
@@ -28,14 +31,10 @@ ROOT = Path(__file__).resolve().parent.parent
 def cold_cpu(tree: str, case: Path) -> float | None:
     """CPU seconds of one cold solve of ``case`` with ``tree`` on PYTHONPATH (None if the solve was refused)."""
     env = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
-    env.update(PYTHONPATH=tree, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1", MKL_NUM_THREADS="1")
-    before = resource.getrusage(resource.RUSAGE_CHILDREN)
-    done = subprocess.run([sys.executable, "-m", "fdsolver", "solve", str(case)], env=env, capture_output=True,
-                          cwd=tree, check=False)
-    after = resource.getrusage(resource.RUSAGE_CHILDREN)
-    if done.returncode != 0:
-        return None
-    return (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
+    env["PYTHONPATH"] = tree
+    # run from the tree: `python -m` puts the working folder ahead of PYTHONPATH
+    cpu, _ = child_cpu([sys.executable, "-m", "fdsolver", "solve", str(case)], env, check=False, cwd=tree)
+    return None if math.isnan(cpu) else cpu
 
 
 def main() -> None:
@@ -44,7 +43,7 @@ def main() -> None:
     ap.add_argument("new")
     ap.add_argument("cases", nargs="*", help="case names in cases/ (default: all)")
     ap.add_argument("--repeat", type=int, default=5, help="runs per tree and case")
-    args = ap.parse_args()
+    args = ap.parse_intermixed_args()
     names = args.cases or [p.stem for p in sorted((ROOT / "cases").glob("*.toml"))]
     print(f"cold solves, CPU s (min / median of {args.repeat}, alternated); base {args.base}, new {args.new}")
     for name in names:

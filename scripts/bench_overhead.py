@@ -52,11 +52,11 @@ LEAN_PER_STURM = 30.0 / 8.0
 CASES = sorted((ROOT / "cases").glob("*.toml"))
 
 
-def child_cpu(cmd: list[str], env=None, check: bool = True) -> tuple[float, float]:
+def child_cpu(cmd: list[str], env=None, check: bool = True, cwd=None) -> tuple[float, float]:
     """CPU seconds (user + system) and wall seconds of one child process (nan, nan if it failed and not check)."""
     before = resource.getrusage(resource.RUSAGE_CHILDREN)
     t0 = time.perf_counter()
-    done = subprocess.run(cmd, capture_output=True, check=check, env=os.environ if env is None else env)
+    done = subprocess.run(cmd, capture_output=True, check=check, env=os.environ if env is None else env, cwd=cwd)
     if done.returncode != 0:
         return float("nan"), float("nan")
     wall = time.perf_counter() - t0
