@@ -408,12 +408,11 @@ def _quantity_option(value, dimension: str, case: Case, key: str) -> float:
 
 def _sheet_density(value) -> float:
     """A sheet density in cm^-2: a number (cm^-2) or a string with a unit ("1e11 cm^-2", "0.01 nm^-2")."""
-    from fdsolver.input.quantities import _quantity, split_quantity
+    from fdsolver.input.quantities import _quantity, pint_module, split_quantity
 
     q = split_quantity(value)
     if q is not None:
-        import pint
-
+        pint = pint_module()
         try:
             v = float(_quantity(q[0], q[1], None, "--density").to("1/cm**2").magnitude)
         except pint.errors.DimensionalityError:

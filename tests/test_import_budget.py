@@ -151,6 +151,63 @@ def test_a_solve_loads_no_heavy_scipy_subpackage(tmp_path, text):
     assert not heavy, heavy
 
 
+#: values with units (pint) in a field between walls
+WITH_UNITS = ('title = "a well given with units (invented)"\nunits = "nm-meV"\nmass = 0.067\n'
+              '[[potential]]\nshape = "square"\ncenter = "0 nm"\nwidth = "60 angstrom"\ndepth = "0.2 eV"\n'
+              '[[potential]]\nshape = "linear"\nfield = "15 kV/cm"\n'
+              '[domain]\nboundary = "hard"\nleft = "-20 nm"\nright = "20 nm"\n')
+
+
+def test_values_with_units_load_pint_without_dask(tmp_path):
+    """pint imports Dask when it is installed, to support Dask arrays of quantities (about 0.1 s of CPU,
+    measured); fdsolver converts plain numbers, so a solve of a case written with units loads pint and not Dask."""
+    import importlib.util
+
+    assert importlib.util.find_spec("dask") and importlib.util.find_spec("pint")  # else the check proves nothing
+    case = tmp_path / "units.toml"
+    case.write_text(WITH_UNITS)
+    loaded = loaded_by(RUN_ENTRY_POINT, json.dumps(["solve", str(case)]))
+    assert "pint" in loaded
+    assert loaded.isdisjoint({"dask", "distributed"}), sorted(loaded & {"dask", "distributed"})
+
+
+def test_dask_and_pint_work_after_pint_was_loaded_without_dask():
+    """After fdsolver has loaded pint with Dask absent, Dask imports and computes as usual, and pint still
+    converts: 1 eV = 1.602176634e-19 J exactly (SI 2019 definition of the elementary charge)."""
+    code = """
+import json
+from fdsolver.input.quantities import registry
+ureg = registry()
+joule = ureg.Quantity(1.0, "eV").to("J").magnitude
+import dask.array as da
+total = float(da.ones(10, chunks=5).sum().compute())
+print("MODULES " + json.dumps([joule, total]))
+"""
+    env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(PACKAGE_PARENT), os.environ.get("PYTHONPATH", "")]))
+    proc = subprocess.run([sys.executable, "-c", code], check=False, capture_output=True, text=True, env=env, timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    joule, total = json.loads(proc.stdout.rsplit("MODULES ", 1)[1])
+    assert joule == pytest.approx(1.602176634e-19, rel=1e-15)
+    assert total == 10.0
+
+
+def test_absent_hides_only_what_is_not_imported_and_restores_it():
+    """``absent`` blocks an import and a find_spec inside the block, leaves an imported module alone, and
+    removes its mark on leaving, even when the block raises."""
+    import importlib.util
+
+    from fdsolver.absent import absent
+
+    name = "fdsolver_test_no_such_module_yet"
+    with pytest.raises(RuntimeError), absent(name, "json"):
+        assert sys.modules[name] is None and importlib.util.find_spec(name) is None
+        with pytest.raises(ImportError):
+            __import__(name)
+        assert sys.modules["json"] is json  # already imported: not hidden
+        raise RuntimeError("leave the block by an exception")
+    assert name not in sys.modules and sys.modules["json"] is json
+
+
 def test_numba_linear_algebra_still_works_after_the_kernels_load():
     """With the kernels loaded first, a later kernel's ``np.convolve`` (its inner products then a plain loop),
     ``np.dot`` and ``np.linalg`` (which import scipy.linalg when they compile) give numpy's answers, and

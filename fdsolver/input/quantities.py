@@ -60,12 +60,26 @@ _NUMBER_AND_UNIT = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\
 _REGISTRY = None
 
 
+def pint_module():
+    """The pint module, imported without Dask.
+
+    At import pint looks for Dask and, where it is installed, imports it (about 0.1 s of CPU) to support Dask
+    arrays of quantities.  fdsolver converts plain numbers, and Dask is for a cluster only, so Dask is made to
+    look absent while pint is first imported (:func:`fdsolver.absent.absent`); a Dask cluster started later
+    imports Dask as usual.
+    """
+    from fdsolver.absent import absent
+
+    with absent("dask"):
+        import pint
+    return pint
+
+
 def registry():
     """pint's unit registry, made once (cached on disk by pint where it can)."""
     global _REGISTRY
     if _REGISTRY is None:
-        import pint
-
+        pint = pint_module()
         try:
             _REGISTRY = pint.UnitRegistry(cache_folder=":auto:")
         except Exception:  # a read-only home: no cache
@@ -127,7 +141,7 @@ def _dimensionality(dim: str) -> str:
 
 def _quantity(number: float, unit: str, file, key):
     ureg = registry()
-    import pint
+    pint = pint_module()
 
     try:
         return ureg.Quantity(number, unit)
@@ -140,7 +154,7 @@ def _quantity(number: float, unit: str, file, key):
 def to_case_units(number: float, unit: str, dimension: str, system, carrier: str = "electron", *, file=None,
                   key=None) -> float:
     """``number unit`` in the case units of ``system`` for a key of ``dimension`` (module table)."""
-    import pint
+    pint = pint_module()
 
     q = _quantity(number, unit, file, key)
     try:
@@ -349,7 +363,7 @@ def _library_overrides(table: Mapping, units: Mapping[str, str], file, where: st
         if q is None or k not in units:
             continue
         target = {"m_e": "electron_mass", "1": "dimensionless"}.get(units[k], units[k])
-        import pint
+        pint = pint_module()
 
         qty = _quantity(q[0], q[1], file, f"{where}.{k}")
         try:

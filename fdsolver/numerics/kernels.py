@@ -65,29 +65,21 @@ def _load_numpy_typing_without_scipy_linalg():
     ``scipy.linalg.cython_blas`` only to decide whether the inner products of its ``np.correlate`` and
     ``np.convolve`` may call BLAS.  The whole of scipy.linalg comes with it: about 0.25 s of CPU, a quarter of
     a cold ``fdsolver solve`` (measured in DEVELOPERS.md).  No kernel here calls those, so the module is
-    imported once here with scipy.linalg hidden; numba then computes those inner products (in any later kernel
-    of the process) as a plain loop, with the same result to round-off.  ``np.dot``, ``@`` and ``np.linalg``
+    imported once here with scipy.linalg hidden (:func:`fdsolver.absent.absent`); numba then computes those
+    inner products (in any later kernel of the process) as a plain loop, with the same result to round-off.  ``np.dot``, ``@`` and ``np.linalg``
     are not affected: ``numba.np.linalg`` imports scipy.linalg when a kernel using them compiles.  Where
     scipy.linalg is already loaded (the sweep workers load it first on purpose) nothing is hidden.  The hiding
     lasts only while this one import runs, when fdsolver's kernels are first imported; another thread of the
     same process importing scipy.linalg in that instant would get an ImportError.  fdsolver's own threads (a
     threaded Dask cluster) start after this: reading a case imports the kernels.
     """
-    import importlib.abc
     import sys
 
-    class _HideScipyLinalg(importlib.abc.MetaPathFinder):
-        def find_spec(self, name, path, target=None):
-            if name == "scipy.linalg":
-                raise ImportError("scipy.linalg is not needed to load fdsolver's kernels")
+    from fdsolver.absent import absent
 
-    if "scipy.linalg" not in sys.modules and "numba.np.arraymath" not in sys.modules:
-        hider = _HideScipyLinalg()
-        sys.meta_path.insert(0, hider)
-        try:
+    if "numba.np.arraymath" not in sys.modules:
+        with absent("scipy.linalg"):
             import numba.np.arraymath  # noqa: F401
-        finally:
-            sys.meta_path.remove(hider)
 
 
 #: numba.njit(cache=True, nogil=True) with a cache folder that is always writable
