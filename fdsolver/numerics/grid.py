@@ -36,8 +36,8 @@ import math
 
 import numpy as np
 
-from fdsolver.numerics.kernels import (coarse_midpoints, grid_samples, lipschitz_limit, refine_nodes, segment_nodes,
-                                      target_spacing)
+from fdsolver.numerics.kernels import (coarse_midpoints, grid_samples, inner_bounds, lipschitz_limit, merge_samples,
+                                      refine_nodes, segment_nodes, target_spacing)
 
 
 #: uniform samples of the spacing function over the box before the samples are refined where it asks for it
@@ -60,7 +60,8 @@ def base_grid(
     """Nodes of the base grid on [lo, hi] (both ends included), strictly increasing.
 
     ``spacing(x)`` returns the raw target spacing (length unit) at sample
-    positions; ``breakpoints`` are positions that must be nodes.  With
+    positions, each value depending on its own position only (it is sampled
+    once per position); ``breakpoints`` are positions that must be nodes.  With
     ``center`` the grid is mirror-symmetric about it (``lo`` and ``hi`` must be
     symmetric too).  With ``max_nodes`` the node count is checked before any
     node array is allocated (:class:`~fdsolver.errors.BudgetError`).
@@ -71,26 +72,21 @@ def base_grid(
         left = 2.0 * center - right[:0:-1]
         return np.concatenate([left, right])
     tiny = 64.0 * np.finfo(float).eps * max(abs(lo), abs(hi), hi - lo)  # closer than this is round-off
-    bps = np.unique(np.asarray(list(breakpoints), dtype=float))
-    bps = bps[(bps > lo + tiny) & (bps < hi - tiny)]
-    if bps.size > 1 and np.any(np.diff(bps) <= tiny):  # features closer than round-off are one node
-        kept = [bps[0]]
-        for b in bps[1:]:
-            if b - kept[-1] > tiny:
-                kept.append(b)
-        bps = np.asarray(kept)
+    bps = inner_bounds(np.asarray(list(breakpoints), dtype=float), float(lo), float(hi), tiny)
     bounds = np.concatenate([[lo], bps, [hi]])
     width = hi - lo
     # samples: dense near every bound (geometric), plus a uniform background; refined where the spacing asks
+    # (h(x) is pointwise, so each pass samples it at the new midpoints only)
     xs = grid_samples(lo, hi, bounds, spacing(bounds), settings.growth, BACKGROUND_SAMPLES)
+    raw = spacing(xs)
     for _ in range(8):
-        hs = lipschitz_limit(xs, np.minimum(spacing(xs), width / 4.0), settings.growth)
+        hs = lipschitz_limit(xs, np.minimum(raw, width / 4.0), settings.growth)
         mids = coarse_midpoints(xs, hs)
         if mids.size == 0:
             break
-        xs = np.unique(np.concatenate([xs, mids]))
+        xs, raw = merge_samples(xs, raw, mids, np.ascontiguousarray(spacing(mids), dtype=float))
     else:
-        hs = lipschitz_limit(xs, np.minimum(spacing(xs), width / 4.0), settings.growth)
+        hs = lipschitz_limit(xs, np.minimum(raw, width / 4.0), settings.growth)
     if max_nodes is not None:
         total = float(np.sum(0.5 * (1.0 / hs[1:] + 1.0 / hs[:-1]) * np.diff(xs))) + bounds.size * settings.min_cells_per_segment
         if total > max_nodes:

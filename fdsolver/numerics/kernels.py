@@ -16,14 +16,14 @@
   ulps of the energy scale rather than of the matrix norm (which grows as
   1/h_min^2 on graded grids).
 * :func:`lipschitz_limit` - the lower envelope min_j (h_j + g |x_i - x_j|).
-* :func:`grid_samples`, :func:`coarse_midpoints`, :func:`segment_nodes` - the
-  sampling of the spacing function and the node placement of a base grid
+* :func:`grid_samples`, :func:`coarse_midpoints`, :func:`merge_samples`, :func:`inner_bounds`,
+  :func:`segment_nodes` - the sampling of the spacing function and the node placement of a base grid
   (:mod:`fdsolver.numerics.grid`), one pass each instead of a chain of numpy
   calls (a base grid is built twice per solve, on a few hundred samples).
 * :func:`target_spacing` - the raw target spacing of a base grid from sampled V and m (the arithmetic
   of :func:`fdsolver.numerics.grid.spacing_function` in one pass).
 * :func:`flux_operator` - the arrays of the flux-form operator
-  (:mod:`fdsolver.numerics.operator`) in one pass over the cells.
+  (:mod:`fdsolver.numerics.operator`) in one pass over the cells; :func:`even_half` its even mirror sector.
 * :func:`refine_nodes` - nested refinement of a grid (every cell split in k).
 * :func:`decay_reach` - where the WKB decay integral along a walk first reaches a budget (the box's ends).
 
@@ -816,6 +816,46 @@ def coarse_midpoints(x, h):
 
 
 @njit
+def merge_samples(x, h, xm, hm):
+    """The sorted union of the samples ``x`` and ``xm`` (both ascending), each position once, with their values
+    ``h`` and ``hm`` alongside: ``numpy.unique(numpy.concatenate([x, xm]))`` for a pointwise function sampled at
+    both, without sampling it again at ``x``.  O(N + M)."""
+    n = x.shape[0]
+    k = xm.shape[0]
+    xo = np.empty(n + k)
+    ho = np.empty(n + k)
+    i = 0
+    j = 0
+    m = 0
+    while i < n or j < k:
+        if j >= k or (i < n and x[i] <= xm[j]):
+            xv, hv = x[i], h[i]
+            i += 1
+        else:
+            xv, hv = xm[j], hm[j]
+            j += 1
+        if m == 0 or xv != xo[m - 1]:
+            xo[m] = xv
+            ho[m] = hv
+            m += 1
+    return xo[:m].copy(), ho[:m].copy()
+
+
+@njit
+def inner_bounds(points, lo, hi, tiny):
+    """The distinct ``points`` strictly inside (lo + tiny, hi - tiny), ascending, with points closer than
+    ``tiny`` to the previous kept one dropped (closer than round-off they are one node).  O(N log N)."""
+    srt = np.sort(points)
+    out = np.empty(srt.shape[0])
+    m = 0
+    for p in srt:
+        if p > lo + tiny and p < hi - tiny and (m == 0 or p - out[m - 1] > tiny):
+            out[m] = p
+            m += 1
+    return out[:m].copy()
+
+
+@njit
 def segment_nodes(bounds, x, h, min_cells):
     """Nodes on [bounds[0], bounds[-1]] with every bound a node and local spacing close to h(x) (length unit).
 
@@ -898,6 +938,31 @@ def flux_operator(nodes, mass, il, ir, c, shift, neumann):
     for i in range(n - 1):
         e[i] = -a[i + 1] / math.sqrt(w[i] * w[i + 1])
     return a, w, vint, v, d, e, ok
+
+
+@njit
+def even_half(a, w, vw, c):
+    """The even sector's arrays from a mirror-symmetric operator's (:func:`fdsolver.numerics.operator.mirror_halves`):
+    the unknowns c, c + 1, ... with unknown c the mirror centre as a Neumann end (half its weight and dual-cell
+    integral, no coupling to its left).  Returns (a, w, vw, d, e) with the floating-point operations of the numpy
+    form, in the same order.  O(N)."""
+    n = w.shape[0] - c
+    a_even = np.empty(n + 1)
+    a_even[0] = 0.0
+    a_even[1:] = a[c + 1:]
+    w_even = np.empty(n)
+    w_even[0] = 0.5 * w[c]
+    w_even[1:] = w[c + 1:]
+    vw_even = np.empty(n)
+    vw_even[0] = 0.5 * vw[c]
+    vw_even[1:] = vw[c + 1:]
+    d_even = np.empty(n)
+    for i in range(n):
+        d_even[i] = (a_even[i] + a_even[i + 1] + vw_even[i]) / w_even[i]
+    e_even = np.empty(max(n - 1, 0))
+    for i in range(n - 1):
+        e_even[i] = -a_even[i + 1] / math.sqrt(w_even[i] * w_even[i + 1])
+    return a_even, w_even, vw_even, d_even, e_even
 
 
 @njit

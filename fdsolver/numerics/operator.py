@@ -41,7 +41,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from fdsolver.errors import CaseError
-from fdsolver.numerics.kernels import flux_operator
+from fdsolver.numerics.kernels import even_half, flux_operator
 
 DIRICHLET, NEUMANN = "dirichlet", "neumann"
 
@@ -116,12 +116,8 @@ def mirror_halves(op: Operator, center_index: int) -> tuple[Operator, Operator]:
     c = center_index - 1  # the centre among the unknowns
     nodes = op.nodes[center_index:]
     mass = op.mass[center_index:]
-    a_even = np.concatenate([[0.0], op.a[c + 1:]])
-    w_even = np.concatenate([[0.5 * op.w[c]], op.w[c + 1:]])
-    vw_even = np.concatenate([[0.5 * op.vw[c]], op.vw[c + 1:]])
+    a_even, w_even, vw_even, d_even, e_even = even_half(op.a, op.w, op.vw, c)
     v_even = op.v[c:]
-    d_even = (a_even[:-1] + a_even[1:] + vw_even) / w_even
-    e_even = -a_even[1:-1] / np.sqrt(w_even[:-1] * w_even[1:])
     even = Operator(nodes=nodes, a=a_even, w=w_even, vw=vw_even, v=v_even, mass=mass, d=d_even, e=e_even,
                     shift=op.shift, left=NEUMANN)
     odd = Operator(nodes=nodes, a=op.a[c + 1:], w=op.w[c + 1:], vw=op.vw[c + 1:], v=op.v[c + 1:], mass=mass,

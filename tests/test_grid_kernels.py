@@ -1,0 +1,105 @@
+"""The compiled steps of grid building and mirror sectors against the numpy forms they replace, bit for bit.
+
+Why: the base grid and the mirror sectors were built with numpy before these loops were compiled; the same
+floating-point operations in the same order give the same nodes and operators, hence results identical to
+the last bit (IEEE 754: +, -, *, / and sqrt are correctly rounded, so the same operations on the same
+operands give the same values; common practice, no source needed beyond the standard).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from hypothesis import HealthCheck, Phase, given, settings
+from hypothesis import strategies as st
+
+from fdsolver.numerics import kernels
+from fdsolver.numerics.operator import NEUMANN, assemble, mirror_halves
+
+PROPS = settings(deadline=None, derandomize=True, phases=(Phase.explicit, Phase.generate),
+                 suppress_health_check=[HealthCheck.too_slow])
+
+
+@PROPS
+@given(st.integers(0, 10**6), st.integers(0, 300), st.integers(0, 300))
+def test_merged_samples_are_the_sorted_union(seed, n, k):
+    """merge_samples(x, f(x), y, f(y)) = numpy.unique of the union, with f at every position, for sorted x and y
+    that share some positions."""
+    rng = np.random.default_rng(seed)
+    x = np.unique(rng.uniform(-5.0, 5.0, n))
+    y = np.unique(np.concatenate([rng.uniform(-5.0, 5.0, k), x[: n // 3]]))  # some positions in both
+
+    def f(z):
+        return np.cos(3.0 * z) + z**2
+
+    xo, ho = kernels.merge_samples(x, f(x), y, f(y))
+    union = np.unique(np.concatenate([x, y]))
+    assert np.array_equal(xo, union)
+    assert np.array_equal(ho, f(union))
+
+
+def _inner_bounds_numpy(points, lo, hi, tiny):
+    """The numpy form the kernel replaces (fdsolver.numerics.grid.base_grid before it was compiled)."""
+    bps = np.unique(np.asarray(points, dtype=float))
+    bps = bps[(bps > lo + tiny) & (bps < hi - tiny)]
+    if bps.size > 1 and np.any(np.diff(bps) <= tiny):
+        kept = [bps[0]]
+        for b in bps[1:]:
+            if b - kept[-1] > tiny:
+                kept.append(b)
+        bps = np.asarray(kept)
+    return bps
+
+
+@PROPS
+@given(st.integers(0, 10**6), st.integers(0, 60), st.floats(1e-12, 0.5))
+def test_inner_bounds_are_the_numpy_form(seed, n, tiny):
+    """Distinct points strictly inside, near-duplicates (closer than tiny) merged, repeated and edge points
+    included in the draw."""
+    rng = np.random.default_rng(seed)
+    pts = rng.uniform(-12.0, 12.0, n)
+    pts = np.concatenate([pts, pts[: n // 4], pts[: n // 5] + 0.3 * tiny, [-10.0, 10.0, -10.0 + 0.5 * tiny]])
+    got = kernels.inner_bounds(pts, -10.0, 10.0, tiny)
+    assert np.array_equal(got, _inner_bounds_numpy(pts, -10.0, 10.0, tiny))
+
+
+def _even_half_numpy(a, w, vw, c):
+    """The numpy form the kernel replaces (fdsolver.numerics.operator.mirror_halves before it was compiled)."""
+    a_even = np.concatenate([[0.0], a[c + 1:]])
+    w_even = np.concatenate([[0.5 * w[c]], w[c + 1:]])
+    vw_even = np.concatenate([[0.5 * vw[c]], vw[c + 1:]])
+    d_even = (a_even[:-1] + a_even[1:] + vw_even) / w_even
+    e_even = -a_even[1:-1] / np.sqrt(w_even[:-1] * w_even[1:])
+    return a_even, w_even, vw_even, d_even, e_even
+
+
+@PROPS
+@given(st.integers(0, 10**6), st.integers(2, 200))
+def test_even_sector_is_the_numpy_form(seed, n):
+    """Random graded cells, masses and potential values: every array of the even sector bit for bit."""
+    rng = np.random.default_rng(seed)
+    a = 10.0 ** rng.uniform(-2.0, 3.0, n + 1)
+    w = 10.0 ** rng.uniform(-3.0, 0.0, n)
+    vw = rng.normal(0.0, 5.0, n)
+    for c in (0, n // 2, n - 1):
+        for got, want in zip(kernels.even_half(a, w, vw, c), _even_half_numpy(a, w, vw, c)):
+            assert np.array_equal(got, want)
+
+
+def test_mirror_halves_are_the_assembly_on_the_right_half():
+    """mirror_halves of the whole grid's operator = the operator assembled on the right half (Neumann centre for
+    the even sector, Dirichlet for the odd): the halves of a symmetric double well (invented), to round-off."""
+    from fdsolver.input.case import case_from_text
+
+    pot = case_from_text('title = "two square wells (invented)"\nunits = "nm-meV"\nmass = 0.067\n'
+                         '[[potential]]\nshape = "square"\ncenter = -2.5\nwidth = 3\ndepth = 100\n'
+                         '[[potential]]\nshape = "square"\ncenter = 2.5\nwidth = 3\ndepth = 100\n').potential
+    half = np.concatenate([[0.0], np.cumsum(np.linspace(0.05, 0.4, 60))])
+    nodes = np.concatenate([-half[:0:-1], half])
+    c = half.size - 1
+    even, odd = mirror_halves(assemble(pot, nodes[c - 1:]), 1)
+    ref_even = assemble(pot, half, left=NEUMANN)
+    ref_odd = assemble(pot, half)
+    for got, want in ((even, ref_even), (odd, ref_odd)):
+        for name in ("a", "w", "d", "e"):
+            assert np.allclose(getattr(got, name), getattr(want, name), rtol=1e-13, atol=0), name
+        assert np.allclose(got.vw, want.vw, rtol=1e-13, atol=1e-13 * np.abs(want.vw).max()), "vw"
