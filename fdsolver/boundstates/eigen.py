@@ -276,8 +276,8 @@ def _predicted_grid(sectors, e_lo, e_hi: float, max_states: int, floor: float, g
         return None
     rows = (v0, v1)
     parity = np.array([s.parity for s in sectors], dtype=int)[sec]
-    return GridStates(en, first_index + np.arange(en.size), sec, parity, tuple(rows[s][r] for s, r in zip(sec, row)),
-                      rounding, count_below, first_index)
+    return GridStates(en, first_index + np.arange(en.size), sec, parity,
+                      tuple(rows[s][r] for s, r in zip(sec.tolist(), row.tolist())), rounding, count_below, first_index)
 
 
 def _predicted(guess, n_sectors: int, n: int):
