@@ -103,3 +103,23 @@ def test_mirror_halves_are_the_assembly_on_the_right_half():
         for name in ("a", "w", "d", "e"):
             assert np.allclose(getattr(got, name), getattr(want, name), rtol=1e-13, atol=0), name
         assert np.allclose(got.vw, want.vw, rtol=1e-13, atol=1e-13 * np.abs(want.vw).max()), "vw"
+
+
+@PROPS
+@given(st.integers(0, 10**6), st.integers(2, 300), st.integers(0, 100))
+def test_a_sampling_pass_is_the_numpy_sequence(seed, n, k):
+    """sample_pass = merge (numpy.unique of the union), then lipschitz_limit of numpy.minimum(raw, cap), then
+    the midpoints of the gaps too wide for it: the steps of a base grid's sampling before they were one kernel."""
+    rng = np.random.default_rng(seed)
+    x = np.unique(rng.uniform(0.0, 10.0, n))
+    xm = np.unique(rng.uniform(0.0, 10.0, k))
+
+    def f(z):
+        return 0.05 + 0.5 * np.abs(np.sin(z))
+
+    cap, growth = 1.2, 0.25
+    got = kernels.sample_pass(x, f(x), xm, f(xm), cap, growth)
+    xs = np.unique(np.concatenate([x, xm]))
+    hs = kernels.lipschitz_limit(xs, np.minimum(f(xs), cap), growth)
+    for a, b in zip(got, (xs, f(xs), hs, kernels.coarse_midpoints(xs, hs))):
+        assert np.array_equal(a, b)

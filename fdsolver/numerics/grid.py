@@ -36,8 +36,8 @@ import math
 
 import numpy as np
 
-from fdsolver.numerics.kernels import (coarse_midpoints, grid_samples, inner_bounds, lipschitz_limit, merge_samples,
-                                      refine_nodes, segment_nodes, target_spacing)
+from fdsolver.numerics.kernels import (grid_samples, inner_bounds, refine_nodes, sample_pass, segment_nodes,
+                                      target_spacing)
 
 
 #: uniform samples of the spacing function over the box before the samples are refined where it asks for it
@@ -78,15 +78,13 @@ def base_grid(
     # samples: dense near every bound (geometric), plus a uniform background; refined where the spacing asks
     # (h(x) is pointwise, so each pass samples it at the new midpoints only)
     xs = grid_samples(lo, hi, bounds, spacing(bounds), settings.growth, BACKGROUND_SAMPLES)
-    raw = spacing(xs)
+    none, cap = np.empty(0), float(width / 4.0)
+    xs, raw, hs, mids = sample_pass(xs, np.ascontiguousarray(spacing(xs), dtype=float), none, none, cap, settings.growth)
     for _ in range(8):
-        hs = lipschitz_limit(xs, np.minimum(raw, width / 4.0), settings.growth)
-        mids = coarse_midpoints(xs, hs)
         if mids.size == 0:
             break
-        xs, raw = merge_samples(xs, raw, mids, np.ascontiguousarray(spacing(mids), dtype=float))
-    else:
-        hs = lipschitz_limit(xs, np.minimum(raw, width / 4.0), settings.growth)
+        xs, raw, hs, mids = sample_pass(xs, raw, mids, np.ascontiguousarray(spacing(mids), dtype=float), cap,
+                                        settings.growth)
     if max_nodes is not None:
         total = float(np.sum(0.5 * (1.0 / hs[1:] + 1.0 / hs[:-1]) * np.diff(xs))) + bounds.size * settings.min_cells_per_segment
         if total > max_nodes:

@@ -16,8 +16,9 @@
   ulps of the energy scale rather than of the matrix norm (which grows as
   1/h_min^2 on graded grids).
 * :func:`lipschitz_limit` - the lower envelope min_j (h_j + g |x_i - x_j|).
-* :func:`grid_samples`, :func:`coarse_midpoints`, :func:`merge_samples`, :func:`inner_bounds`,
-  :func:`segment_nodes` - the sampling of the spacing function and the node placement of a base grid
+* :func:`grid_samples`, :func:`inner_bounds`, :func:`sample_pass` (:func:`merge_samples`,
+  :func:`lipschitz_limit`, :func:`coarse_midpoints`), :func:`segment_nodes` - the sampling of the spacing
+  function and the node placement of a base grid
   (:mod:`fdsolver.numerics.grid`), one pass each instead of a chain of numpy
   calls (a base grid is built twice per solve, on a few hundred samples).
 * :func:`target_spacing` - the raw target spacing of a base grid from sampled V and m (the arithmetic
@@ -839,6 +840,24 @@ def merge_samples(x, h, xm, hm):
             ho[m] = hv
             m += 1
     return xo[:m].copy(), ho[:m].copy()
+
+
+@njit
+def sample_pass(x, raw, xm, raw_m, cap, growth):
+    """One pass of a base grid's sampling: the new samples ``xm`` (with the spacing function's values ``raw_m``)
+    merged into ``x`` (:func:`merge_samples`), then the Lipschitz-limited spacing h there
+    (:func:`lipschitz_limit` of min(raw, cap)) and the midpoints of the gaps it finds too wide
+    (:func:`coarse_midpoints`).  Returns (x, raw, h, midpoints).  O(N)."""
+    if xm.shape[0]:
+        x, raw = merge_samples(x, raw, xm, raw_m)
+    capped = np.empty(raw.shape[0])
+    for i in range(raw.shape[0]):
+        r = raw[i]
+        if r > cap:  # numpy.minimum(raw, cap): a NaN stays NaN
+            r = cap
+        capped[i] = r
+    h = lipschitz_limit(x, capped, growth)
+    return x, raw, h, coarse_midpoints(x, h)
 
 
 @njit
