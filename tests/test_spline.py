@@ -12,7 +12,12 @@ import numpy as np
 import pytest
 from scipy.interpolate import CubicSpline
 
-from fdsolver.model.shapes.spline import _solve_tridiagonal, evaluate, not_a_knot
+from fdsolver.model.shapes.spline import (
+    _solve_tridiagonal,
+    evaluate,
+    not_a_knot,
+    table_values,
+)
 
 
 def _table(rng, n, spread):
@@ -102,3 +107,24 @@ def test_refuses_short_or_unsorted_tables():
         not_a_knot([0.0, 1.0, 2.0], [1.0, 2.0, 0.0])
     with pytest.raises(ValueError):
         not_a_knot([0.0, 2.0, 1.0, 3.0], [1.0, 2.0, 0.0, 1.0])
+
+
+@pytest.mark.parametrize("seed", range(12))
+def test_table_values_are_the_numpy_form_bit_for_bit(seed):
+    """The compiled values of a tabulated profile = the numpy form they replaced (constants at and beyond the
+    end rows, the spline in between, NaN where the position is NaN), in any array shape; against SciPy's
+    CubicSpline inside the table to round-off."""
+    rng = np.random.default_rng(100 + seed)
+    n = int(rng.choice([4, 5, 9, 161, 700]))
+    x, y = _table(rng, n, spread=float(rng.choice([0.0, 3.0, 30.0])))
+    spline = not_a_knot(x, y)
+    width = x[-1] - x[0]
+    at = np.concatenate([x, rng.uniform(x[0] - 0.2 * width, x[-1] + 0.2 * width, 600), [np.nan, -np.inf, np.inf]])
+    numpy_form = np.where(at <= x[0], y[0], np.where(at >= x[-1], y[-1], evaluate(spline, np.clip(at, x[0], x[-1]))))
+    got = table_values(spline, at, y[0], y[-1])
+    assert np.array_equal(got, numpy_form, equal_nan=True)
+    assert np.array_equal(table_values(spline, at[:600].reshape(20, 30), y[0], y[-1]), numpy_form[:600].reshape(20, 30))
+    assert table_values(spline, np.float64(at[5]), y[0], y[-1]).shape == ()
+    inside = (at > x[0]) & (at < x[-1])
+    assert np.max(np.abs(got[inside] - CubicSpline(x, y)(at[inside]))) <= 1e-12 * np.max(np.abs(y))
+

@@ -10,7 +10,7 @@ import numpy as np
 
 from fdsolver.errors import CaseError, did_you_mean
 from fdsolver.model.shapes.base import COUNT, INF, TEXT, Shape, register
-from fdsolver.model.shapes.spline import evaluate, not_a_knot
+from fdsolver.model.shapes.spline import not_a_knot, table_values
 
 INTERPOLATIONS = ("linear", "cubic")
 #: a linear table with at most this many rows has every row as a grid feature
@@ -67,8 +67,7 @@ class Table(Shape):
         xs, vs = self._arrays
         if self._spline is None:
             return np.interp(x, xs, vs)
-        inside = evaluate(self._spline, np.clip(x, xs[0], xs[-1]))
-        return np.where(x <= xs[0], vs[0], np.where(x >= xs[-1], vs[-1], inside))
+        return table_values(self._spline, x, vs[0], vs[-1])
 
     def integrate(self, a, b):
         """Exact integrals of the linear interpolant (constant beyond the ends) over [a_i, b_i], energy * length.

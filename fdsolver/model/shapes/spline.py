@@ -105,3 +105,50 @@ def evaluate(spline: tuple[np.ndarray, np.ndarray], at) -> np.ndarray:
     i = np.clip(np.searchsorted(x, at, side="right") - 1, 0, x.size - 2)
     t = at - x[i]
     return ((c[0, i] * t + c[1, i]) * t + c[2, i]) * t + c[3, i]
+
+
+def _table_values(x, c, at, below, above):
+    """The loop of :func:`table_values` (compiled on first use)."""
+    out = np.empty(at.shape[0])
+    last = x.shape[0] - 2
+    for k in range(at.shape[0]):
+        a = at[k]
+        if a <= x[0]:
+            out[k] = below
+        elif a >= x[-1]:
+            out[k] = above
+        else:  # NaN lands here too, and stays NaN
+            lo, hi = 0, x.shape[0]
+            while lo < hi:  # numpy.searchsorted(x, a, side="right")
+                mid = (lo + hi) // 2
+                if x[mid] <= a:
+                    lo = mid + 1
+                else:
+                    hi = mid
+            i = min(max(lo - 1, 0), last)
+            t = a - x[i]
+            out[k] = ((c[0, i] * t + c[1, i]) * t + c[2, i]) * t + c[3, i]
+    return out
+
+
+_COMPILED: list = []
+
+
+def table_values(spline: tuple[np.ndarray, np.ndarray], at, below: float, above: float) -> np.ndarray:
+    """Values of a tabulated profile through its spline: ``below`` at and before the first row, ``above`` at and
+    after the last, the spline (:func:`evaluate`) in between; the shape of ``at``.
+
+    One compiled pass (numba, loaded when first called: a table's profile is evaluated a few dozen times per
+    solve, on up to six points per cell) with the floating-point operations of the numpy form
+    ``where(at <= x0, below, where(at >= xn, above, evaluate(spline, clip(at, x0, xn))))``, so the values are
+    the same to the last bit.  O(N log n) for N points and n rows.
+    """
+    if not _COMPILED:
+        from fdsolver.compiled import njit
+
+        _COMPILED.append(njit(_table_values))
+    x, c = spline
+    pts = np.asarray(at, dtype=float)
+    flat = np.ascontiguousarray(pts.reshape(-1))
+    return _COMPILED[0](x, c, flat, float(below), float(above)).reshape(pts.shape)
+
