@@ -131,7 +131,7 @@ TABLE = ('title = "a tabulated well (invented)"\nunits = "nm-meV"\nmass = 0.067\
                          ids=["square-well pair", "double barrier on the open line", "cubic table"])
 def test_a_solve_loads_no_heavy_scipy_subpackage(tmp_path, text):
     """numba imports scipy.linalg (about 0.25 s of CPU, measured) only to ask whether its ``np.correlate`` and
-    ``np.convolve`` may call BLAS; no kernel of fdsolver calls them (fdsolver/numerics/kernels.py).  scipy.special (Airy functions, for a field at an
+    ``np.convolve`` may call BLAS; no kernel of fdsolver calls them (fdsolver/compiled.py).  scipy.special (Airy functions, for a field at an
     open end) and scipy.optimize (a bound state's root on the open line) are imported where they are called; the
     cubic spline of a table and the constants of lifetimes need neither scipy.interpolate nor scipy.constants.  So
     no solve of these structures loads any of them (0.1 to 0.4 s of CPU each, measured; DEVELOPERS.md)."""

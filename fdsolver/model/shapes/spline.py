@@ -10,7 +10,9 @@ Construction: the first derivatives s_i at the rows solve a tridiagonal system (
 Splines*, chapter IV; the rows below are those of the C2 conditions with the not-a-knot end rows), by Gaussian
 elimination with partial pivoting as LAPACK's ``dgtsv`` does it.  O(n) work, in Python: about 0.5-0.7 us per row
 (10^5 rows in 0.05 s, 10^6 in 0.74 s of CPU, measured), so it outruns scipy's import below about 5 x 10^5 rows;
-values to a few ulps of the table's range.  Units: those of the table (x and y as given).
+values to a few ulps of the table's range.  Values: :func:`evaluate` (numpy, the spline's own cubics beyond
+its ends), and :func:`table_values`, a tabulated profile's values in one compiled pass (constants beyond the
+ends).  Units: those of the table (x and y as given).
 """
 
 from __future__ import annotations
@@ -151,4 +153,3 @@ def table_values(spline: tuple[np.ndarray, np.ndarray], at, below: float, above:
     pts = np.asarray(at, dtype=float)
     flat = np.ascontiguousarray(pts.reshape(-1))
     return _COMPILED[0](x, c, flat, float(below), float(above)).reshape(pts.shape)
-
