@@ -79,7 +79,8 @@ def base_grid(
     # (h(x) is pointwise, so each pass samples it at the new midpoints only)
     xs = grid_samples(lo, hi, bounds, spacing(bounds), settings.growth, BACKGROUND_SAMPLES)
     none, cap = np.empty(0), float(width / 4.0)
-    xs, raw, hs, mids = sample_pass(xs, np.ascontiguousarray(spacing(xs), dtype=float), none, none, cap, settings.growth)
+    xs, raw, hs, mids = sample_pass(xs, np.ascontiguousarray(spacing(xs), dtype=float), none, none, cap,
+                                    settings.growth)
     for _ in range(8):
         if mids.size == 0:
             break

@@ -919,10 +919,10 @@ def flux_operator(nodes, mass, il, ir, c, shift, neumann):
 
 @njit
 def even_half(a, w, vw, c):
-    """The even sector's arrays from a mirror-symmetric operator's (:func:`fdsolver.numerics.operator.mirror_halves`):
-    the unknowns c, c + 1, ... with unknown c the mirror centre as a Neumann end (half its weight and dual-cell
-    integral, no coupling to its left).  Returns (a, w, vw, d, e) with the floating-point operations of the numpy
-    form, in the same order.  O(N)."""
+    """The even sector's arrays from a mirror-symmetric operator's
+    (:func:`fdsolver.numerics.operator.mirror_halves`): the unknowns c, c + 1, ... with unknown c the mirror
+    centre as a Neumann end (half its weight and dual-cell integral, no coupling to its left).  Returns
+    (a, w, vw, d, e) with the floating-point operations of the numpy form, in the same order.  O(N)."""
     n = w.shape[0] - c
     a_even = np.empty(n + 1)
     a_even[0] = 0.0
