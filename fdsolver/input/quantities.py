@@ -66,8 +66,13 @@ def pint_module():
     At import pint looks for Dask and, where it is installed, imports it (about 0.1 s of CPU) to support Dask
     arrays of quantities.  fdsolver converts plain numbers, and Dask is for a cluster only, so Dask is made to
     look absent while pint is first imported (:func:`fdsolver.absent.absent`); a Dask cluster started later
-    imports Dask as usual.
+    imports Dask as usual.  Once pint is imported nothing is hidden again, so a thread importing Dask later is
+    never refused.
     """
+    import sys
+
+    if sys.modules.get("pint") is not None:  # imported already: nothing is hidden again
+        return sys.modules["pint"]
     from fdsolver.absent import absent
 
     with absent("dask"):
