@@ -32,10 +32,11 @@ import numpy as np
 from fdsolver.continuum.amplitudes import amplitudes
 from fdsolver.continuum.profile import ladder
 from fdsolver.continuum.resonances import find_resonances
-from fdsolver.continuum.si import E_CHARGE, HBAR, K_BOLTZMANN, M_ELECTRON, joule_per_energy_unit
+from fdsolver.continuum.si import joule_per_energy_unit
 from fdsolver.errors import CaseError
 from fdsolver.model.potential import Potential
 from fdsolver.model.shapes import Table
+from fdsolver.model.units import BOLTZMANN, ELECTRON_MASS, ELEMENTARY_CHARGE, HBAR
 
 _X10, _W10 = np.polynomial.legendre.leggauss(10)
 _X20, _W20 = np.polynomial.legendre.leggauss(20)
@@ -65,7 +66,7 @@ def biased_potential(potential: Potential, bias: float) -> Potential:
     if potential.stack is None or len(potential.stack.layers) < 3:
         raise CaseError("a bias needs a layer stack with at least one inner layer ([[layer]] tables)", key="layer")
     x = potential.stack.interfaces
-    drop = float(bias) * E_CHARGE / joule_per_energy_unit(potential.units)
+    drop = float(bias) * ELEMENTARY_CHARGE / joule_per_energy_unit(potential.units)
     if not math.isfinite(drop):
         raise CaseError("the current needs named units (nm-meV or atomic)", key="units")
     ramp = Table("bias", (float(x[0]), float(x[-1])), (0.0, -drop), "linear", "bias")
@@ -85,15 +86,15 @@ def current_density(potential: Potential, bias: float, *, temperature: float, fe
         raise CaseError(f"temperature must be >= 0 K, got {temperature!r}", key="--temperature")
     biased = biased_potential(potential, bias)
     unit_j = joule_per_energy_unit(potential.units)
-    kt = K_BOLTZMANN * temperature / unit_j
-    drop = float(bias) * E_CHARGE / unit_j
+    kt = BOLTZMANN * temperature / unit_j
+    drop = float(bias) * ELEMENTARY_CHARGE / unit_j
     mu_l, mu_r = float(fermi_level), float(fermi_level) - drop
     lad = ladder(biased, mu_r - 1.0, mu_l + 1.0)
     prof = lad.at(0)
     e_lo = max(prof.left.threshold, prof.right.threshold)
     e_hi = max(mu_l, mu_r) + 40.0 * kt
     mass = prof.left.mass
-    pref = E_CHARGE * mass * M_ELECTRON / (2.0 * math.pi**2 * HBAR**3) * unit_j**2
+    pref = ELEMENTARY_CHARGE * mass * ELECTRON_MASS / (2.0 * math.pi**2 * HBAR**3) * unit_j**2
     if not e_hi > e_lo:
         return 0.0, 0.0, None, 0
     # poles broader than a quarter of the range are smooth on it: the plain quadrature takes them

@@ -40,8 +40,9 @@ import numpy as np
 from fdsolver.continuum.jost import jost
 from fdsolver.continuum.narrow import narrow_pole
 from fdsolver.continuum.profile import ladder
-from fdsolver.continuum.si import lifetime_seconds
+from fdsolver.continuum.si import joule_per_energy_unit, lifetime_seconds
 from fdsolver.errors import CaseError
+from fdsolver.model.units import HBAR
 from fdsolver.numerics.complexroots import find_zeros, polish
 from fdsolver.numerics.precision import EPS
 from fdsolver.numerics.richardson import Romberg
@@ -250,8 +251,6 @@ def find_resonances(potential, window, *, max_width: float | None = None, tol: f
         tau_err = np.where(w > 0, tau * we / np.where(w > 0, w, 1.0), np.where(bound, 0.0, np.inf))
     if not keep:
         notes.append(f"no resonance with its energy in [{lo:g}, {hi:g}] {unit} and a width up to {max_width:g} {unit}")
-    from fdsolver.continuum.si import HBAR, joule_per_energy_unit
-
     l10_tau = np.where(bound, np.inf, math.log10(HBAR / joule_per_energy_unit(potential.units)) - l10)
     return Resonances(e, w, ee, we, l10, tau, tau_err, l10_tau, bound, tuple(q.method for q, _ in keep), (lo, hi), max_width,
                       unit, count, levels, tuple(dict.fromkeys(notes)))

@@ -6,28 +6,7 @@ from __future__ import annotations
 
 import math
 
-from fdsolver.model.units import (
-    BOHR_RADIUS,
-    BOLTZMANN,
-    ELECTRON_MASS,
-    ELEMENTARY_CHARGE,
-    HARTREE_ENERGY,
-    HBAR,
-)
-
-__all__ = [
-    "E_CHARGE",
-    "HBAR",
-    "K_BOLTZMANN",
-    "M_ELECTRON",
-    "joule_per_energy_unit",
-    "lifetime_seconds",
-    "metre_per_length_unit",
-]
-
-E_CHARGE = ELEMENTARY_CHARGE  # C
-K_BOLTZMANN = BOLTZMANN  # J / K
-M_ELECTRON = ELECTRON_MASS  # kg
+from fdsolver.model.units import BOHR_RADIUS, ELEMENTARY_CHARGE, HARTREE_ENERGY, HBAR
 
 
 def joule_per_energy_unit(units) -> float:
