@@ -12,12 +12,22 @@ import numpy as np
 import pytest
 from scipy.interpolate import CubicSpline
 
-from fdsolver.model.shapes.spline import (
-    _solve_tridiagonal,
-    evaluate,
-    not_a_knot,
-    table_values,
-)
+from fdsolver.model.shapes.spline import _solve_tridiagonal, not_a_knot, table_values
+
+
+def _evaluate_numpy(spline, at):
+    """The spline's cubics evaluated with numpy (the end cubics continue beyond the rows): the form
+    ``table_values`` compiles, kept here as its reference."""
+    x, c = spline
+    at = np.asarray(at, dtype=float)
+    i = np.clip(np.searchsorted(x, at, side="right") - 1, 0, x.size - 2)
+    t = at - x[i]
+    return ((c[0, i] * t + c[1, i]) * t + c[2, i]) * t + c[3, i]
+
+
+def _values(x, y, at):
+    """A tabulated profile's values through its spline, as the table shape computes them."""
+    return table_values(not_a_knot(x, y), at, y[0], y[-1])
 
 
 def _table(rng, n, spread):
@@ -33,12 +43,12 @@ def test_matches_scipy_cubic_spline(seed):
     n = int(rng.choice([4, 5, 6, 9, 40, 700]))
     x, y = _table(rng, n, spread=float(rng.choice([0.0, 3.0, 30.0])))
     at = np.concatenate([x, rng.uniform(x[0], x[-1], 400), [x[0], x[-1]]])
-    ours = evaluate(not_a_knot(x, y), at)
+    ours = _values(x, y, at)
     ref = CubicSpline(x, y)(at)
     scale = np.max(np.abs(y))
     assert np.max(np.abs(ours - ref)) <= 1e-12 * scale
-    assert np.array_equal(evaluate(not_a_knot(x, y), x), evaluate(not_a_knot(x, y), x))  # deterministic
-    assert np.max(np.abs(evaluate(not_a_knot(x, y), x) - y)) <= 1e-13 * scale  # it interpolates
+    assert np.array_equal(_values(x, y, x), _values(x, y, x))  # deterministic
+    assert np.max(np.abs(_values(x, y, x) - y)) <= 1e-13 * scale  # it interpolates
 
 
 def _mp_spline(x, y, at):
@@ -78,7 +88,7 @@ def test_as_accurate_as_scipy_against_40_digits(seed):
     x, y = _table(rng, n, spread=1000.0)
     at = np.concatenate([x, rng.uniform(x[0], x[-1], 60)])
     exact = _mp_spline(x, y, at)
-    ours = np.max(np.abs(evaluate(not_a_knot(x, y), at) - exact))
+    ours = np.max(np.abs(_values(x, y, at) - exact))
     ref = np.max(np.abs(CubicSpline(x, y)(at) - exact))
     assert ours <= 4.0 * ref + 1e-14 * np.max(np.abs(y))
 
@@ -87,7 +97,7 @@ def test_reproduces_a_cubic_exactly():
     x = np.array([-1.0, -0.2, 0.3, 1.1, 1.5, 2.9, 3.0])
     cubic = np.polynomial.Polynomial([-3.0, 0.5, -1.0, 2.0])
     t = np.linspace(-2.0, 4.0, 241)  # inside and beyond the rows (the end cubics continue)
-    assert np.max(np.abs(evaluate(not_a_knot(x, cubic(x)), t) - cubic(t))) <= 1e-12 * np.max(np.abs(cubic(t)))
+    assert np.max(np.abs(_evaluate_numpy(not_a_knot(x, cubic(x)), t) - cubic(t))) <= 1e-12 * np.max(np.abs(cubic(t)))
 
 
 def test_tridiagonal_solver_pivots_like_a_dense_solve():
@@ -120,7 +130,7 @@ def test_table_values_are_the_numpy_form_bit_for_bit(seed):
     spline = not_a_knot(x, y)
     width = x[-1] - x[0]
     at = np.concatenate([x, rng.uniform(x[0] - 0.2 * width, x[-1] + 0.2 * width, 600), [np.nan, -np.inf, np.inf]])
-    numpy_form = np.where(at <= x[0], y[0], np.where(at >= x[-1], y[-1], evaluate(spline, np.clip(at, x[0], x[-1]))))
+    numpy_form = np.where(at <= x[0], y[0], np.where(at >= x[-1], y[-1], _evaluate_numpy(spline, np.clip(at, x[0], x[-1]))))
     got = table_values(spline, at, y[0], y[-1])
     assert np.array_equal(got, numpy_form, equal_nan=True)
     assert np.array_equal(table_values(spline, at[:600].reshape(20, 30), y[0], y[-1]), numpy_form[:600].reshape(20, 30))

@@ -10,9 +10,9 @@ Construction: the first derivatives s_i at the rows solve a tridiagonal system (
 Splines*, chapter IV; the rows below are those of the C2 conditions with the not-a-knot end rows), by Gaussian
 elimination with partial pivoting as LAPACK's ``dgtsv`` does it.  O(n) work, in Python: about 0.5-0.7 us per row
 (10^5 rows in 0.05 s, 10^6 in 0.74 s of CPU, measured), so it outruns scipy's import below about 5 x 10^5 rows;
-values to a few ulps of the table's range.  Values: :func:`evaluate` (numpy, the spline's own cubics beyond
-its ends), and :func:`table_values`, a tabulated profile's values in one compiled pass (constants beyond the
-ends).  Units: those of the table (x and y as given).
+values to a few ulps of the table's range.  Values: :func:`table_values`, a tabulated profile's values in one
+compiled pass (the cubic of each interval inside the table, constants beyond its ends).  Units: those of the
+table (x and y as given).
 """
 
 from __future__ import annotations
@@ -100,15 +100,6 @@ def not_a_knot(x, y) -> tuple[np.ndarray, np.ndarray]:
     return x, c
 
 
-def evaluate(spline: tuple[np.ndarray, np.ndarray], at) -> np.ndarray:
-    """Values of the spline from :func:`not_a_knot` at ``at`` (its end cubics continue beyond the rows)."""
-    x, c = spline
-    at = np.asarray(at, dtype=float)
-    i = np.clip(np.searchsorted(x, at, side="right") - 1, 0, x.size - 2)
-    t = at - x[i]
-    return ((c[0, i] * t + c[1, i]) * t + c[2, i]) * t + c[3, i]
-
-
 def _table_values(x, c, at, below, above):
     """The loop of :func:`table_values` (compiled on first use)."""
     out = np.empty(at.shape[0])
@@ -120,14 +111,7 @@ def _table_values(x, c, at, below, above):
         elif a >= x[-1]:
             out[k] = above
         else:  # NaN lands here too, and stays NaN
-            lo, hi = 0, x.shape[0]
-            while lo < hi:  # numpy.searchsorted(x, a, side="right")
-                mid = (lo + hi) // 2
-                if x[mid] <= a:
-                    lo = mid + 1
-                else:
-                    hi = mid
-            i = min(max(lo - 1, 0), last)
+            i = min(max(np.searchsorted(x, a, side="right") - 1, 0), last)
             t = a - x[i]
             out[k] = ((c[0, i] * t + c[1, i]) * t + c[2, i]) * t + c[3, i]
     return out
@@ -137,13 +121,13 @@ _COMPILED: list = []
 
 
 def table_values(spline: tuple[np.ndarray, np.ndarray], at, below: float, above: float) -> np.ndarray:
-    """Values of a tabulated profile through its spline: ``below`` at and before the first row, ``above`` at and
-    after the last, the spline (:func:`evaluate`) in between; the shape of ``at``.
+    """Values of a tabulated profile through its spline (x, c) from :func:`not_a_knot`: ``below`` at and before
+    the first row, ``above`` at and after the last, in between c[0, i] t^3 + c[1, i] t^2 + c[2, i] t + c[3, i]
+    (Horner) with t = at - x_i on the interval [x_i, x_{i+1}] holding ``at``; the shape of ``at``.
 
     One compiled pass (numba, loaded when first called: a table's profile is evaluated a few dozen times per
-    solve, on up to six points per cell) with the floating-point operations of the numpy form
-    ``where(at <= x0, below, where(at >= xn, above, evaluate(spline, clip(at, x0, xn))))``, so the values are
-    the same to the last bit.  O(N log n) for N points and n rows.
+    solve, on up to six points per cell); ``tests/test_spline.py`` holds it to the numpy form of the same
+    operations bit for bit.  O(N log n) for N points and n rows.
     """
     if not _COMPILED:
         from fdsolver.compiled import njit
