@@ -13,7 +13,7 @@ Calibration: the machine's cost of one Sturm count per grid node (fdsolver.numer
    to an archive.  Targets: --help and --version < 0.15 s CPU; the cold solve < 0.8 s CPU.  Beside them, the floor
    numba itself sets for any cold start that calls a cached kernel: a script with no fdsolver code that imports
    numba and calls one trivial cached function; and the same floor with scipy.linalg kept out of numba's start, as
-   fdsolver.numerics.kernels does.
+   fdsolver.compiled does.
    Every other bundled case that ``solve`` takes is timed the same way (same target).
 2. per solve: every bundled case solved warm; two ratios are printed: measured CPU / (node-states x Sturm ns
    per node), where node-states = sum over grid levels of (nodes x states found), and measured CPU / the lean
@@ -95,13 +95,11 @@ def startup(repeat: int) -> None:
     (floor_dir / "floor_kernel.py").write_text("import numba\n\n\n@numba.njit(cache=True)\ndef one(x):\n"
                                                "    return x + 1.0\n")
     floor_cmd = [py, "-c", f"import sys; sys.path.insert(0, {str(floor_dir)!r}); import floor_kernel; floor_kernel.one(1.0)"]
-    # the same with scipy.linalg kept out of numba's start, as fdsolver.numerics.kernels does (numba imports it only
-    # to ask whether the inner products of np.correlate and np.convolve may call BLAS)
+    # the same with scipy.linalg kept out of numba's start the way fdsolver.compiled does it (fdsolver.absent: numba
+    # imports it only to ask whether the inner products of np.correlate and np.convolve may call BLAS)
     (floor_dir / "floor_hidden.py").write_text(
-        "import importlib.abc, sys\n\n\nclass Hide(importlib.abc.MetaPathFinder):\n"
-        "    def find_spec(self, name, path, target=None):\n"
-        "        if name == 'scipy.linalg':\n            raise ImportError(name)\n\n\n"
-        "hide = Hide()\nsys.meta_path.insert(0, hide)\nimport numba.np.arraymath  # noqa\nsys.meta_path.remove(hide)\n")
+        "import sys\n\nsys.modules['scipy.linalg'] = None\nimport numba.np.arraymath  # noqa\n"
+        "del sys.modules['scipy.linalg']\n")
     hidden_cmd = [py, "-c", (f"import sys; sys.path.insert(0, {str(floor_dir)!r}); import floor_hidden, floor_kernel; "
                              "floor_kernel.one(1.0)")]
     # an installed package has its bytecode compiled at install time; a source tree run with

@@ -85,15 +85,11 @@ def ceiling(workers: int) -> float:
 #: sweeps and the map measured after it in the same process took 1-2.5 s longer (measured); each figure would
 #: then depend on the order of the steps
 DASK_CHILD = """
-import json, resource, sys, time, warnings
+import json, sys, warnings
+sys.path.insert(0, sys.argv[5])
+from bench_sweep import timed  # this script's own timer (one BLAS thread set on import)
 warnings.simplefilter("ignore")
 import fdsolver
-
-
-def cpu():
-    s, c = resource.getrusage(resource.RUSAGE_SELF), resource.getrusage(resource.RUSAGE_CHILDREN)
-    return s.ru_utime + s.ru_stime + c.ru_utime + c.ru_stime
-
 
 if __name__ == "__main__":
     case = fdsolver.load_case(sys.argv[1])
@@ -102,10 +98,9 @@ if __name__ == "__main__":
                    thresholds=False)
     times = []
     for k in range(2):  # the first with Dask's import, both with a cluster of their own
-        c0, w0 = cpu(), time.perf_counter()
-        fdsolver.sweep(case, json.loads(sys.argv[2]), output=sys.argv[3] + str(k), cluster="local:" + sys.argv[4],
-                       thresholds=False)
-        times += [time.perf_counter() - w0, cpu() - c0]
+        _, wall, cpu = timed(lambda k=k: fdsolver.sweep(case, json.loads(sys.argv[2]), output=sys.argv[3] + str(k),
+                                                        cluster="local:" + sys.argv[4], thresholds=False))
+        times += [wall, cpu]
     print("TIMES", json.dumps(times))
 """
 
@@ -118,8 +113,8 @@ def dask_sweeps(vary, output, workers: int) -> list[float]:
     import subprocess
     import sys
 
-    proc = subprocess.run([sys.executable, "-c", DASK_CHILD, str(SQUARE), json.dumps(vary), str(output), str(workers)],
-                          capture_output=True, text=True, check=True)
+    proc = subprocess.run([sys.executable, "-c", DASK_CHILD, str(SQUARE), json.dumps(vary), str(output), str(workers),
+                           str(Path(__file__).resolve().parent)], capture_output=True, text=True, check=True)
     return json.loads(proc.stdout.rsplit("TIMES", 1)[1])
 
 
