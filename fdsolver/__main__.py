@@ -2,6 +2,6 @@
 
 import sys
 
-from fdsolver.cli import main
+from fdsolver.cli import command_line
 
-sys.exit(main())
+sys.exit(command_line())

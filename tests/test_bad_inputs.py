@@ -306,13 +306,23 @@ def test_entry_point_process_matches_in_process(corpus_run, name):
     assert (work / "out" / "precious.nc").read_bytes() == PRECIOUS
 
 
-def test_console_script_is_the_cli_main():
+def test_console_script_is_the_cli_command_line():
     from importlib.metadata import entry_points
 
     (ep,) = [e for e in entry_points(group="console_scripts") if e.name == "fdsolver"]
-    from fdsolver.cli import main
+    from fdsolver.cli import command_line
 
-    assert ep.load() is main
+    assert ep.load() is command_line
+
+
+def test_command_line_returns_mains_code_and_skips_the_shutdown_collection(tmp_path):
+    # in a process of its own: gc.freeze() is for a process about to end, never for this test process
+    code = ("import gc, sys; from fdsolver.cli import command_line; "
+            f"sys.argv = ['fdsolver', 'solve', {str(tmp_path / 'absent.toml')!r}]; "
+            "code = command_line(); print(code, gc.get_freeze_count() > 0)")
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert proc.stdout.split() == ["2", "True"]
+    assert proc.stderr.startswith("fdsolver: error:") and "absent.toml" in proc.stderr
 
 
 # ------------------------------------------------------ special files (FIFOs)
