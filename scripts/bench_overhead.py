@@ -102,8 +102,8 @@ def startup(repeat: int) -> None:
                                                "    return x + 1.0\n")
     # it ends as fdsolver's command does (fdsolver.cli.command_line): gc.freeze(), so that Python's shutdown does
     # not walk numba's 100,000 objects once more (0.2-0.3 s, paid by any script that imports numba and exits)
-    floor_cmd = [py, "-c", f"import sys; sys.path.insert(0, {str(floor_dir)!r}); import floor_kernel; floor_kernel.one(1.0); "
-                 "import gc; gc.freeze()"]
+    floor_cmd = [py, "-c", (f"import sys; sys.path.insert(0, {str(floor_dir)!r}); import floor_kernel; "
+                            "floor_kernel.one(1.0); import gc; gc.freeze()")]
     # the same with scipy.linalg kept out of numba's start the way fdsolver.compiled does it (fdsolver.absent: numba
     # imports it only to ask whether the inner products of np.correlate and np.convolve may call BLAS)
     (floor_dir / "floor_hidden.py").write_text(
@@ -200,8 +200,8 @@ def per_solve(repeat: int, sturm_ns: float) -> None:
             periodic.append(case)
             continue
         sol = solve_case(case)  # warm: kernels loaded, grid planned once
-        cpu, wall = timed_runs(lambda: solve_case(case), repeat)
-        inside = compiled_cpu(lambda: solve_case(case), repeat)
+        cpu, wall = timed_runs(lambda case=case: solve_case(case), repeat)
+        inside = compiled_cpu(lambda case=case: solve_case(case), repeat)
         node_states = int(np.sum(sol.level_sizes)) * max(int(sol.energy.size), 1)
         sturm = node_states * sturm_ns * 1e-9  # one Sturm count per node-state
         lean = sturm * LEAN_PER_STURM
@@ -219,7 +219,7 @@ def per_solve(repeat: int, sturm_ns: float) -> None:
         print(f"   {'case':<22} {'bands':>6} {'wavevectors':>11} {'CPU min [ms]':>12} {'median':>7} {'wall med':>8}")
     for case in periodic:
         study = band_study(case)  # warm
-        cpu, wall = timed_runs(lambda: band_study(case), repeat)
+        cpu, wall = timed_runs(lambda case=case: band_study(case), repeat)
         print(f"   {Path(case.path).stem:<22} {study.bands.n_bands:6d} "
               f"{case.settings.wavevectors:11d} {min(cpu) * 1e3:12.2f} {statistics.median(cpu) * 1e3:7.2f} "
               f"{statistics.median(wall) * 1e3:8.2f}")
