@@ -1,10 +1,9 @@
 """numba's ``njit`` as every compiled loop of fdsolver uses it: cached on disk, no GIL, a lean first load.
 
-:data:`njit` is ``numba.njit(cache=True, nogil=True)``, with the compilation cache in a folder that is always
-writable (the package's, the user's, or the temp folder for a read-only install with no writable home), and
-with numba's numpy-array typing loaded without scipy.linalg (below).  Importing this module imports numba; the
-modules that define kernels import it, and a module that compiles a loop only when it is first called (a
-table's cubic spline) imports it then.
+:data:`njit` is ``numba.njit(cache=True, nogil=True)``, with the compilation cache in fdsolver's own folder of
+the user's cache (:func:`cache_folder`), and with numba's numpy-array typing loaded without scipy.linalg (below).
+Importing this module imports numba; the modules that define kernels import it, and a module that compiles a
+loop only when it is first called (a table's cubic spline) imports it then.
 """
 
 from __future__ import annotations
@@ -13,20 +12,58 @@ import os
 import tempfile
 
 
+def cache_folder() -> str | None:
+    """The folder fdsolver's compiled kernels are cached in, or None where the user chose one for numba.
+
+    ``NUMBA_CACHE_DIR`` set by the user: numba's own rule (None here).  Otherwise ``fdsolver/numba`` in the
+    user's cache folder (``XDG_CACHE_HOME``, else ``~/.cache``), or in the temp folder where that cannot be
+    made or written.  Not numba's default, the ``__pycache__`` beside the installed source: pip removes only
+    the files it installed, so the cache files kept an uninstalled package's folder alive in site-packages,
+    and that empty folder then shadowed a later editable install (``import fdsolver`` found a namespace
+    package with nothing in it; seen in development).  numba names each source folder's cache by its path,
+    so two installs never share entries.
+    """
+    if os.environ.get("NUMBA_CACHE_DIR"):
+        return None
+    base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
+    for root in (base, tempfile.gettempdir()):
+        folder = os.path.join(root, "fdsolver", "numba")
+        try:
+            os.makedirs(folder, exist_ok=True)
+        except OSError:
+            continue
+        if os.access(folder, os.W_OK):
+            return folder
+    return None  # nowhere writable: numba's own rule (it compiles in memory when it cannot cache)
+
+
 def _jit():
-    """numba.njit with an on-disk cache wherever one is writable (never raising at import)."""
-    here = os.path.join(os.path.dirname(__file__), "__pycache__")
-    writable = os.access(here if os.path.isdir(here) else os.path.dirname(__file__), os.W_OK)
-    home_cache = os.path.join(os.path.expanduser("~"), ".cache")
-    if not writable and not os.environ.get("NUMBA_CACHE_DIR") and not os.access(
-        home_cache if os.path.isdir(home_cache) else os.path.expanduser("~"), os.W_OK
-    ):
-        # read-only install and no writable home: cache in the temp folder (must be set before numba loads)
-        os.environ["NUMBA_CACHE_DIR"] = os.path.join(tempfile.gettempdir(), "fdsolver-numba-cache")
+    """numba.njit(cache=True, nogil=True), each kernel's cache in :func:`cache_folder` (never raising at import).
+
+    numba takes a function's cache folder from ``numba.core.config.CACHE_DIR`` when the function is
+    decorated; it is set to fdsolver's folder only for the length of each decoration, so the caches of other
+    numba users in the same process, and the environment child processes inherit, are left as they were.
+    (A thread of the same process decorating its own cached function in that instant would put its cache
+    in fdsolver's folder; nothing else changes for it.)
+    """
     import numba
+    from numba.core import config
 
     _load_numpy_typing_without_scipy_linalg()
-    return numba.njit(cache=True, nogil=True)
+    decorate = numba.njit(cache=True, nogil=True)
+    folder = cache_folder()
+
+    def njit(fn):
+        if folder is None:
+            return decorate(fn)
+        saved = config.CACHE_DIR
+        config.CACHE_DIR = folder
+        try:
+            return decorate(fn)
+        finally:
+            config.CACHE_DIR = saved
+
+    return njit
 
 
 def _load_numpy_typing_without_scipy_linalg():
@@ -54,5 +91,5 @@ def _load_numpy_typing_without_scipy_linalg():
             import numba.np.arraymath  # noqa: F401
 
 
-#: numba.njit(cache=True, nogil=True) with a cache folder that is always writable
+#: numba.njit(cache=True, nogil=True), cached in fdsolver's folder of the user's cache (cache_folder)
 njit = _jit()

@@ -1,0 +1,60 @@
+"""Where fdsolver's compiled kernels are cached (fdsolver.compiled.cache_folder).
+
+The rule (common practice for per-user caches, no source): the user's own NUMBA_CACHE_DIR wins; otherwise
+fdsolver/numba in XDG_CACHE_HOME or ~/.cache, the temp folder where that cannot be written; never beside the
+installed source, where pip's uninstall left the cache files (and so the package's folder) behind.
+"""
+
+from __future__ import annotations
+
+import os
+import subprocess
+import sys
+import tempfile
+import textwrap
+from pathlib import Path
+
+import fdsolver
+from fdsolver.compiled import cache_folder
+
+
+def test_the_users_numba_cache_dir_wins(monkeypatch, tmp_path):
+    monkeypatch.setenv("NUMBA_CACHE_DIR", str(tmp_path / "mine"))
+    assert cache_folder() is None  # numba's own rule applies
+
+
+def test_the_user_cache_folder(monkeypatch, tmp_path):
+    monkeypatch.delenv("NUMBA_CACHE_DIR", raising=False)
+    monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path / "cache"))
+    assert cache_folder() == str(tmp_path / "cache" / "fdsolver" / "numba")
+    assert (tmp_path / "cache" / "fdsolver" / "numba").is_dir()
+
+
+def test_an_unusable_cache_home_falls_back_to_the_temp_folder(monkeypatch, tmp_path):
+    monkeypatch.delenv("NUMBA_CACHE_DIR", raising=False)
+    blocker = tmp_path / "not-a-folder"
+    blocker.write_text("a file where the cache folder would go")
+    monkeypatch.setenv("XDG_CACHE_HOME", str(blocker))
+    assert cache_folder() == os.path.join(tempfile.gettempdir(), "fdsolver", "numba")
+
+
+def test_a_kernel_is_cached_there_and_not_beside_the_source(tmp_path):
+    # a fresh process with an empty cache home compiles one small kernel and writes its cache there
+    package = Path(fdsolver.__file__).parent
+    before = {p: p.stat().st_mtime_ns for p in package.rglob("*.nb[ic]")}
+    env = {k: v for k, v in os.environ.items() if k != "NUMBA_CACHE_DIR"}
+    env["XDG_CACHE_HOME"] = str(tmp_path)
+    code = textwrap.dedent("""
+        import numpy as np
+        from fdsolver.numerics import kernels
+        print(kernels.sturm_count(np.array([2.0, 2.0, 2.0]), np.array([-1.0, -1.0]), 2.0))
+    """)
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, timeout=300,
+                          check=False)
+    assert proc.returncode == 0, proc.stderr
+    # tridiag(-1, 2, -1) of size 3 has eigenvalues 2 - sqrt(2), 2, 2 + sqrt(2): one below 2
+    # (the discrete Laplacian's spectrum 2 - 2 cos(k pi / 4), common practice, no source)
+    assert proc.stdout.split() == ["1"]
+    assert list((tmp_path / "fdsolver" / "numba").glob("*/kernels.sturm_count-*.nbi"))
+    after = {p: p.stat().st_mtime_ns for p in package.rglob("*.nb[ic]")}
+    assert after == before  # nothing new or rewritten beside the source
