@@ -25,8 +25,11 @@ def cache_folder() -> str | None:
     """
     if os.environ.get("NUMBA_CACHE_DIR"):
         return None
-    base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
+    home = os.path.expanduser("~")  # "~" itself where the process has no home: never a folder under the cwd
+    base = os.environ.get("XDG_CACHE_HOME") or (os.path.join(home, ".cache") if os.path.isabs(home) else "")
     for root in (base, tempfile.gettempdir()):
+        if not os.path.isabs(root):
+            continue
         folder = os.path.join(root, "fdsolver", "numba")
         try:
             os.makedirs(folder, exist_ok=True)

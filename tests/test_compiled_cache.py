@@ -38,6 +38,18 @@ def test_an_unusable_cache_home_falls_back_to_the_temp_folder(monkeypatch, tmp_p
     assert cache_folder() == os.path.join(tempfile.gettempdir(), "fdsolver", "numba")
 
 
+def test_no_home_and_a_relative_cache_home_fall_back_to_the_temp_folder(monkeypatch, tmp_path):
+    # never a folder named "~" or "relative" under the working folder
+    monkeypatch.delenv("NUMBA_CACHE_DIR", raising=False)
+    monkeypatch.setenv("XDG_CACHE_HOME", "relative")
+    monkeypatch.chdir(tmp_path)
+    assert cache_folder() == os.path.join(tempfile.gettempdir(), "fdsolver", "numba")
+    monkeypatch.delenv("XDG_CACHE_HOME")
+    monkeypatch.setattr(os.path, "expanduser", lambda path: path)  # what it returns without a home
+    assert cache_folder() == os.path.join(tempfile.gettempdir(), "fdsolver", "numba")
+    assert list(tmp_path.iterdir()) == []
+
+
 def test_a_kernel_is_cached_there_and_not_beside_the_source(tmp_path):
     # a fresh process with an empty cache home compiles one small kernel and writes its cache there
     package = Path(fdsolver.__file__).parent
