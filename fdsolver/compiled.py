@@ -16,17 +16,19 @@ def cache_folder() -> str | None:
     """The folder fdsolver's compiled kernels are cached in, or None where the user chose one for numba.
 
     ``NUMBA_CACHE_DIR`` set by the user: numba's own rule (None here).  Otherwise ``fdsolver/numba`` in the
-    user's cache folder (``XDG_CACHE_HOME``, else ``~/.cache``), or in the temp folder where that cannot be
-    made or written.  Not numba's default, the ``__pycache__`` beside the installed source: pip removes only
-    the files it installed, so the cache files kept an uninstalled package's folder alive in site-packages,
-    and that empty folder then shadowed a later editable install (``import fdsolver`` found a namespace
-    package with nothing in it; seen in development).  numba names each source folder's cache by its path,
-    so two installs never share entries.
+    user's cache folder (``XDG_CACHE_HOME`` if it is an absolute path, else ``~/.cache``), or in the temp
+    folder where that cannot be made or written (or the process has no home).  Not numba's default, the
+    ``__pycache__`` beside the installed source: pip removes only the files it installed, so the cache files
+    kept an uninstalled package's folder alive in site-packages, and that folder then shadowed a later
+    editable install (``import fdsolver`` found a namespace package with nothing in it; seen in
+    development).  numba names each source folder's cache by its path, so two installs never share entries.
     """
     if os.environ.get("NUMBA_CACHE_DIR"):
         return None
     home = os.path.expanduser("~")  # "~" itself where the process has no home: never a folder under the cwd
-    base = os.environ.get("XDG_CACHE_HOME") or (os.path.join(home, ".cache") if os.path.isabs(home) else "")
+    base = os.environ.get("XDG_CACHE_HOME", "")
+    if not os.path.isabs(base):  # unset, empty or relative: the XDG base directory rule says ~/.cache
+        base = os.path.join(home, ".cache")
     for root in (base, tempfile.gettempdir()):
         if not os.path.isabs(root):
             continue
@@ -37,7 +39,7 @@ def cache_folder() -> str | None:
             continue
         if os.access(folder, os.W_OK):
             return folder
-    return None  # nowhere writable: numba's own rule (it compiles in memory when it cannot cache)
+    return None  # nowhere writable: numba's own locators (beside the source, then its user-wide folder)
 
 
 def _jit():

@@ -38,16 +38,17 @@ def test_an_unusable_cache_home_falls_back_to_the_temp_folder(monkeypatch, tmp_p
     assert cache_folder() == os.path.join(tempfile.gettempdir(), "fdsolver", "numba")
 
 
-def test_no_home_and_a_relative_cache_home_fall_back_to_the_temp_folder(monkeypatch, tmp_path):
-    # never a folder named "~" or "relative" under the working folder
+def test_a_relative_cache_home_is_ignored_and_no_home_falls_back_to_the_temp_folder(monkeypatch, tmp_path):
+    # the XDG base directory rule (freedesktop.org): a relative XDG_CACHE_HOME is invalid, ~/.cache is used;
+    # without a home, the temp folder; never a folder named "~" or "relative" under the working folder
     monkeypatch.delenv("NUMBA_CACHE_DIR", raising=False)
     monkeypatch.setenv("XDG_CACHE_HOME", "relative")
+    monkeypatch.setenv("HOME", str(tmp_path / "home"))
     monkeypatch.chdir(tmp_path)
-    assert cache_folder() == os.path.join(tempfile.gettempdir(), "fdsolver", "numba")
-    monkeypatch.delenv("XDG_CACHE_HOME")
+    assert cache_folder() == str(tmp_path / "home" / ".cache" / "fdsolver" / "numba")
     monkeypatch.setattr(os.path, "expanduser", lambda path: path)  # what it returns without a home
     assert cache_folder() == os.path.join(tempfile.gettempdir(), "fdsolver", "numba")
-    assert list(tmp_path.iterdir()) == []
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["home"]
 
 
 def test_a_kernel_is_cached_there_and_not_beside_the_source(tmp_path):
