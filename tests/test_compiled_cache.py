@@ -60,12 +60,12 @@ def test_a_kernel_is_cached_there_and_not_beside_the_source(tmp_path):
     code = textwrap.dedent("""
         import numpy as np
         from fdsolver.numerics import kernels
-        print(kernels.sturm_count(np.array([2.0, 2.0, 2.0]), np.array([-1.0, -1.0]), 2.0))
+        print(kernels.sturm_count(np.array([2.0, 2.0, 2.0]), np.array([-1.0, -1.0]), 1.0))
     """)
     proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, timeout=300,
                           check=False)
     assert proc.returncode == 0, proc.stderr
-    # tridiag(-1, 2, -1) of size 3 has eigenvalues 2 - sqrt(2), 2, 2 + sqrt(2): one below 2
+    # tridiag(-1, 2, -1) of size 3 has eigenvalues 2 - sqrt(2), 2, 2 + sqrt(2): one below 1
     # (the discrete Laplacian's spectrum 2 - 2 cos(k pi / 4), common practice, no source)
     assert proc.stdout.split() == ["1"]
     assert list((tmp_path / "fdsolver" / "numba").glob("*/kernels.sturm_count-*.nbi"))

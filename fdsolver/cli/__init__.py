@@ -88,8 +88,8 @@ def command_line() -> int:
     """The installed ``fdsolver`` command and ``python -m fdsolver``: :func:`main`, in a process that ends right after.
 
     Python's shutdown first runs a full garbage collection over every object the process made, and a solve's
-    imports make over 100,000 (numba's type system most of them): 0.2-0.3 s of CPU on the 2-core development
-    machine, a third of a cold ``fdsolver solve`` (DEVELOPERS.md, start-up).  ``gc.freeze()`` moves them out of
+    imports make over 100,000 (numba's type system most of them): 0.19-0.37 s of CPU on the 2-core development
+    machine, about a third of a cold ``fdsolver solve`` (DEVELOPERS.md, start-up).  ``gc.freeze()`` moves them out of
     the collector's reach, so the shutdown frees what reference counting frees and leaves the rest to the
     operating system.  Nothing waits on that collection: every file fdsolver writes is closed (or, for a
     checkpoint, flushed and synced record by record) before the command returns, the interpreter still flushes
