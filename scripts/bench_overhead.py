@@ -142,17 +142,17 @@ def startup(repeat: int) -> None:
 
 
 def compiled_entry_points() -> set[tuple[str, int, str]]:
-    """(file, first line, name) of every numba entry point fdsolver defines: how cProfile names a call to one."""
+    """(file, first line, name) of every numba entry point fdsolver has made so far, module-level or compiled on
+    first use (a table's spline): how cProfile names a call to one."""
+    import gc
+
     from numba.core.dispatcher import Dispatcher
 
     found = set()
-    for name, module in list(sys.modules.items()):
-        if not (name == "fdsolver" or name.startswith("fdsolver.")) or module is None:
-            continue
-        for obj in vars(module).values():
-            if isinstance(obj, Dispatcher):
-                code = obj.py_func.__code__
-                found.add((code.co_filename, code.co_firstlineno, code.co_name))
+    for obj in gc.get_objects():
+        if isinstance(obj, Dispatcher) and str(getattr(obj.py_func, "__module__", "")).startswith("fdsolver."):
+            code = obj.py_func.__code__
+            found.add((code.co_filename, code.co_firstlineno, code.co_name))
     return found
 
 
