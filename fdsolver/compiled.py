@@ -16,12 +16,14 @@ def cache_folder() -> str | None:
     """The folder fdsolver's compiled kernels are cached in, or None where the user chose one for numba.
 
     ``NUMBA_CACHE_DIR`` set by the user: numba's own rule (None here).  Otherwise ``fdsolver/numba`` in the
-    user's cache folder (``XDG_CACHE_HOME`` if it is an absolute path, else ``~/.cache``), or in the temp
-    folder where that cannot be made or written (or the process has no home).  Not numba's default, the
-    ``__pycache__`` beside the installed source: pip removes only the files it installed, so the cache files
-    kept an uninstalled package's folder alive in site-packages, and that folder then shadowed a later
-    editable install (``import fdsolver`` found a namespace package with nothing in it; seen in
-    development).  numba names each source folder's cache by its path, so two installs never share entries.
+    user's cache folder (``XDG_CACHE_HOME`` if it is an absolute path, else ``~/.cache``), or, where that
+    cannot be made or written (or the process has no home), ``fdsolver-UID/numba`` in the temp folder: made
+    private to the user (mode 0700) and used only if the user owns it and nobody else may write to it, since
+    the cache holds machine code the process will run.  Not numba's default, the ``__pycache__`` beside the
+    installed source: pip removes only the files it installed, so the cache files kept an uninstalled
+    package's folder alive in site-packages, and that folder then shadowed a later editable install (``import
+    fdsolver`` found a namespace package with nothing in it; seen in development).  numba names each source
+    folder's cache by its path, so two installs never share entries.
     """
     if os.environ.get("NUMBA_CACHE_DIR"):
         return None
@@ -29,17 +31,24 @@ def cache_folder() -> str | None:
     base = os.environ.get("XDG_CACHE_HOME", "")
     if not os.path.isabs(base):  # unset, empty or relative: the XDG base directory rule says ~/.cache
         base = os.path.join(home, ".cache")
-    for root in (base, tempfile.gettempdir()):
-        if not os.path.isabs(root):
+    uid = os.getuid() if hasattr(os, "getuid") else None
+    shared = os.path.join(tempfile.gettempdir(), "fdsolver" if uid is None else f"fdsolver-{uid}")
+    for top in (os.path.join(base, "fdsolver"), shared):
+        if not os.path.isabs(top):
             continue
-        folder = os.path.join(root, "fdsolver", "numba")
+        folder = os.path.join(top, "numba")
         try:
+            os.makedirs(top, mode=0o700, exist_ok=True)
             os.makedirs(folder, exist_ok=True)
+            if top == shared and uid is not None:
+                st = os.stat(top)
+                if st.st_uid != uid or st.st_mode & 0o022:
+                    continue  # another user's folder, or one others may write to: not trusted
         except OSError:
             continue
         if os.access(folder, os.W_OK):
             return folder
-    return None  # nowhere writable: numba's own locators (beside the source, then its user-wide folder)
+    return None  # nowhere usable: numba's own locators (beside the source, then its user-wide folder)
 
 
 def _jit():

@@ -1,8 +1,9 @@
 """Where fdsolver's compiled kernels are cached (fdsolver.compiled.cache_folder).
 
-The rule (common practice for per-user caches, no source): the user's own NUMBA_CACHE_DIR wins; otherwise
-fdsolver/numba in XDG_CACHE_HOME or ~/.cache, the temp folder where that cannot be written; never beside the
-installed source, where pip's uninstall left the cache files (and so the package's folder) behind.
+The rule (common practice for per-user caches, no source; the XDG base directory specification for
+XDG_CACHE_HOME): the user's own NUMBA_CACHE_DIR wins; otherwise fdsolver/numba in XDG_CACHE_HOME or ~/.cache,
+a private folder of the user in the temp folder where that cannot be written; never beside the installed
+source, where pip's uninstall left the cache files (and so the package's folder) behind.
 """
 
 from __future__ import annotations
@@ -13,6 +14,8 @@ import sys
 import tempfile
 import textwrap
 from pathlib import Path
+
+import pytest
 
 import fdsolver
 from fdsolver.compiled import cache_folder
@@ -30,12 +33,33 @@ def test_the_user_cache_folder(monkeypatch, tmp_path):
     assert (tmp_path / "cache" / "fdsolver" / "numba").is_dir()
 
 
-def test_an_unusable_cache_home_falls_back_to_the_temp_folder(monkeypatch, tmp_path):
+def _private_temp(tmp_path) -> Path:
+    return tmp_path / "temp" / (f"fdsolver-{os.getuid()}" if hasattr(os, "getuid") else "fdsolver")
+
+
+def test_an_unusable_cache_home_falls_back_to_a_private_temp_folder(monkeypatch, tmp_path):
     monkeypatch.delenv("NUMBA_CACHE_DIR", raising=False)
     blocker = tmp_path / "not-a-folder"
     blocker.write_text("a file where the cache folder would go")
     monkeypatch.setenv("XDG_CACHE_HOME", str(blocker))
-    assert cache_folder() == os.path.join(tempfile.gettempdir(), "fdsolver", "numba")
+    (tmp_path / "temp").mkdir()
+    monkeypatch.setattr(tempfile, "gettempdir", lambda: str(tmp_path / "temp"))
+    assert cache_folder() == str(_private_temp(tmp_path) / "numba")
+    if hasattr(os, "getuid"):
+        assert _private_temp(tmp_path).stat().st_mode & 0o777 == 0o700  # the user's alone
+
+
+@pytest.mark.skipif(not hasattr(os, "getuid"), reason="POSIX owners and modes")
+def test_a_temp_folder_others_may_write_to_is_not_used(monkeypatch, tmp_path):
+    # the cache holds machine code the process runs: a folder another user could fill is never trusted
+    monkeypatch.delenv("NUMBA_CACHE_DIR", raising=False)
+    blocker = tmp_path / "not-a-folder"
+    blocker.write_text("a file where the cache folder would go")
+    monkeypatch.setenv("XDG_CACHE_HOME", str(blocker))
+    _private_temp(tmp_path).mkdir(parents=True)
+    _private_temp(tmp_path).chmod(0o777)
+    monkeypatch.setattr(tempfile, "gettempdir", lambda: str(tmp_path / "temp"))
+    assert cache_folder() is None  # numba's own locators decide instead
 
 
 def test_a_relative_cache_home_is_ignored_and_no_home_falls_back_to_the_temp_folder(monkeypatch, tmp_path):
@@ -47,8 +71,9 @@ def test_a_relative_cache_home_is_ignored_and_no_home_falls_back_to_the_temp_fol
     monkeypatch.chdir(tmp_path)
     assert cache_folder() == str(tmp_path / "home" / ".cache" / "fdsolver" / "numba")
     monkeypatch.setattr(os.path, "expanduser", lambda path: path)  # what it returns without a home
-    assert cache_folder() == os.path.join(tempfile.gettempdir(), "fdsolver", "numba")
-    assert sorted(p.name for p in tmp_path.iterdir()) == ["home"]
+    monkeypatch.setattr(tempfile, "gettempdir", lambda: str(tmp_path / "temp"))
+    assert cache_folder() == str(_private_temp(tmp_path) / "numba")
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["home", "temp"]
 
 
 def test_a_kernel_is_cached_there_and_not_beside_the_source(tmp_path):
