@@ -30,8 +30,8 @@
 
 Numba is used here because these loops are sequential recurrences that numpy
 cannot vectorise; measured figures are in DEVELOPERS.md.  Compilation results
-are cached on disk when a cache folder is writable (``NUMBA_CACHE_DIR`` or the
-package folder), and silently not cached otherwise (:mod:`fdsolver.compiled`).
+are cached on disk in fdsolver's folder of the user's cache, or where the user's
+``NUMBA_CACHE_DIR`` says (:func:`fdsolver.compiled.cache_folder`).
 """
 
 from __future__ import annotations
