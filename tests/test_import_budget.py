@@ -127,13 +127,19 @@ TABLE = ('title = "a tabulated well (invented)"\nunits = "nm-meV"\nmass = 0.067\
          '[[potential]]\nshape = "table"\nfile = "profile.csv"\ninterpolation = "cubic"\n')
 
 
-@pytest.mark.parametrize("text", [PAIR, BARRIERS, TABLE],
-                         ids=["square-well pair", "double barrier on the open line", "cubic table"])
+#: graded interfaces written with the error function (erf and erfc in one expression)
+GRADED = ('title = "erf-graded well (invented)"\nunits = "nm-meV"\nmass = 0.067\n'
+          '[[potential]]\nshape = "expression"\nV = "-150 * 0.5 * (erf((x + 4) / 0.7) + erfc((x - 4) / 0.7) - 1)"\n'
+          '[domain]\nboundary = "hard"\nleft = -30.0\nright = 30.0\n')
+
+
+@pytest.mark.parametrize("text", [PAIR, BARRIERS, TABLE, GRADED],
+                         ids=["square-well pair", "double barrier on the open line", "cubic table", "erf expression"])
 def test_a_solve_loads_no_heavy_scipy_subpackage(tmp_path, text):
     """numba imports scipy.linalg (about 0.25 s of CPU, measured) only to ask whether its ``np.correlate`` and
     ``np.convolve`` may call BLAS; no kernel of fdsolver calls them (fdsolver/compiled.py).  scipy.special (Airy functions, for a field at an
-    open end) and scipy.optimize (a bound state's root on the open line) are imported where they are called; the
-    cubic spline of a table and the constants of lifetimes need neither scipy.interpolate nor scipy.constants.  So
+    open end) and scipy.optimize (a bound state's root on the open line) are imported where they are called; erf and
+    erfc in an expression are compiled loops of their own (fdsolver.input._expressions.special); the cubic spline of a table and the constants of lifetimes need neither scipy.interpolate nor scipy.constants.  So
     no solve of these structures loads any of them (0.1 to 0.4 s of CPU each, measured; DEVELOPERS.md)."""
     case = tmp_path / "case.toml"
     case.write_text(text)

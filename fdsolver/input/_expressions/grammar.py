@@ -13,10 +13,11 @@ import numpy as np
 
 
 def _special(name: str):
-    """A function of scipy.special, imported when an expression first calls it (it costs start-up)."""
-    import scipy.special
+    """erf or erfc (:mod:`fdsolver.input._expressions.special`, compiled), imported when an expression first calls
+    it (loading it costs start-up)."""
+    from fdsolver.input._expressions import special
 
-    return getattr(scipy.special, name)
+    return getattr(special, name)
 
 
 MAX_LENGTH = 2000
