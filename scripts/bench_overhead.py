@@ -15,7 +15,8 @@ Calibration: the machine's cost of one Sturm count per grid node (fdsolver.numer
    numba and calls one trivial cached function; and the same floor with scipy.linalg kept out of numba's start, as
    fdsolver.compiled does.  Both floor scripts end as the fdsolver command does, with gc.freeze() (the shutdown
    then skips a full garbage collection: fdsolver.cli.command_line).
-   Every other bundled case that ``solve`` takes is timed the same way (same target).
+   Every other bundled case that ``solve`` takes is timed the same way (same target), and a case written here
+   whose potential is an expression with erf and erfc (an invented erf-graded well).
 2. per solve: every bundled case solved warm; two ratios are printed: measured CPU / (node-states x Sturm ns
    per node), where node-states = sum over grid levels of (nodes x states found), and measured CPU / the lean
    estimate (node-states x 30 ns at 8 ns per Sturm node, scaled by this machine's Sturm count).  Target for the
@@ -129,6 +130,13 @@ def startup(repeat: int) -> None:
         cmd = [py, "-m", "fdsolver", "solve", str(other)]
         if other.stem != "coupled_wells" and not math.isnan(child_cpu(cmd, bytecode_env, check=False)[0]):
             commands.append((f"fdsolver solve {other.stem} (cold)", cmd, 0.8))
+    # beyond the bundled cases: a well whose graded interfaces are written with erf and erfc in an expression
+    # (invented numbers), the class of cases that once imported scipy.special for them
+    graded = floor_dir / "erf_graded.toml"
+    graded.write_text('title = "erf-graded well (invented)"\nunits = "nm-meV"\nmass = 0.067\n[[potential]]\n'
+                      'shape = "expression"\nV = "-150 * 0.5 * (erf((x + 4) / 0.7) + erfc((x - 4) / 0.7) - 1)"\n'
+                      '[domain]\nboundary = "hard"\nleft = -30.0\nright = 30.0\n')
+    commands.append(("fdsolver solve erf-graded well (cold)", [py, "-m", "fdsolver", "solve", str(graded)], 0.8))
     for _name, cmd, _target in commands:  # untimed: numba cache and bytecode warm from here on
         child_cpu(cmd, bytecode_env)
     print("1. start-up (child processes; seconds)")
