@@ -288,34 +288,36 @@ def test_kill_during_write_leaves_old_or_new_file(good, tmp_path):
     assert interrupted >= 1, "no kill landed inside a write; the test did not test anything"
 
 
-# Ctrl-C at an exact moment: the writer delivers SIGINT to itself right after the n-th lock that the
-# NetCDF writer takes during the second write (xarray.backends.locks.acquire is wrapped for that).
-INTERRUPT_AT_LOCK = """
+# Ctrl-C at an exact moment: the writer delivers SIGINT to itself right after the n-th variable that the
+# NetCDF writer (fdsolver.io.netcdf.store_netcdf) creates in the file during the second write (netCDF4.Dataset
+# is replaced by a subclass that counts them).
+INTERRUPT_AT_VARIABLE = """
 import os
-import xarray.backends.locks as _locks
-_orig_acquire, _count, _armed = _locks.acquire, [0], [False]
-def _acquire(lock, blocking=True):
-    got = _orig_acquire(lock, blocking)
-    if _armed[0]:
-        _count[0] += 1
-        if _count[0] == int(sys.argv[4]):
-            os.kill(os.getpid(), signal.SIGINT)
-    return got
-_locks.acquire = _acquire
+import netCDF4 as _nc
+_count, _armed = [0], [False]
+class _Counting(_nc.Dataset):
+    def createVariable(self, *args, **kwargs):
+        var = super().createVariable(*args, **kwargs)
+        if _armed[0]:
+            _count[0] += 1
+            if _count[0] == int(sys.argv[4]):
+                os.kill(os.getpid(), signal.SIGINT)
+        return var
+_nc.Dataset = _Counting
 """
 
 @pytest.mark.slow
-@pytest.mark.parametrize("nth_lock", [3, 10])
-def test_interrupt_during_write_cleans_up(good, tmp_path, nth_lock):
+@pytest.mark.parametrize("nth_variable", [3, 10])
+def test_interrupt_during_write_cleans_up(good, tmp_path, nth_variable):
     """Ctrl-C (SIGINT) in the middle of a write: the process ends (no hang), the target is one complete
     version (the write in progress is finished before the interrupt is raised), no temporary file is left."""
     code = WRITER.replace("signal.signal(signal.SIGINT, signal.default_int_handler)\n",
-                          "signal.signal(signal.SIGINT, signal.default_int_handler)\n" + INTERRUPT_AT_LOCK)
+                          "signal.signal(signal.SIGINT, signal.default_int_handler)\n" + INTERRUPT_AT_VARIABLE)
     code = code.replace('    print("start", k, flush=True)', '    _armed[0] = k == 2\n    print("start", k, flush=True)')
     assert code.count("_armed[0] = k == 2") == 1
     target = tmp_path / "run.nc"
     proc = subprocess.Popen(
-        [sys.executable, "-c", code, str(good), str(target), "500", str(nth_lock)],
+        [sys.executable, "-c", code, str(good), str(target), "500", str(nth_variable)],
         stdin=subprocess.PIPE, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
     )
     try:

@@ -183,3 +183,69 @@ def test_cf_checker_finds_nothing_wrong(archives, checker, name):
             continue  # our declared version is newer than the checker's: the one allowed complaint
         problems.append((result.weight, result.name, result.msgs))
     assert problems == []
+
+
+def _layout(path: Path) -> dict:
+    """Everything a reader sees of a NetCDF-4 file, read with the netCDF4 library itself: global attributes,
+    dimensions in order, and per variable (in order) its type, dimensions, attributes, HDF5 filters, chunking and
+    raw values (no masking)."""
+    import netCDF4
+    import numpy as np
+
+    with netCDF4.Dataset(path) as nc:
+        nc.set_auto_mask(False)
+        out = {"attributes": {a: repr(nc.getncattr(a)) for a in nc.ncattrs()},
+               "dimensions": [(d, len(v)) for d, v in nc.dimensions.items()]}
+        for name, var in nc.variables.items():
+            raw = var[...]
+            values = repr(np.asarray(raw).tolist()) if var.dtype is str else np.asarray(raw).tobytes()
+            out[name] = (str(var.dtype), var.dimensions, {a: repr(var.getncattr(a)) for a in var.ncattrs()},
+                         var.filters(), var.chunking(), values)
+        out["order"] = list(nc.variables)
+    return out
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_the_archive_writer_writes_what_xarray_writes(archives, name, tmp_path):
+    """fdsolver writes archives with the netCDF4 library alone (fdsolver/io/netcdf.py).  Reference: xarray's own
+    ``Dataset.to_netcdf`` (netCDF4 engine) of the same Dataset with the encoding the writer documents (NaN
+    ``_FillValue`` on float data, none on coordinates, Fletcher-32 checksums on numeric data of one dimension or
+    more): the two files must hold the same attributes, dimensions, variables, types, filters, chunks and bytes."""
+    import numpy as np
+
+    from fdsolver.io.archive import write_dataset
+
+    ds = fdsolver.open_run(archives[name])
+    ours = write_dataset(ds, tmp_path / "ours.nc")
+    encoding = {}
+    for var in ds.variables:
+        kind = ds[var].dtype.kind
+        enc = {}
+        if kind == "f":
+            enc["_FillValue"] = None if var in ds.coords else np.nan
+        if var in ds.data_vars and kind in "fiu" and ds[var].ndim > 0:
+            enc["fletcher32"] = True
+        encoding[var] = enc
+    reference = tmp_path / "xarray.nc"
+    ds.to_netcdf(reference, engine="netcdf4", encoding=encoding)
+    assert _layout(ours) == _layout(reference)
+
+
+def test_the_archive_writer_names_auxiliary_coordinates_as_xarray_does(tmp_path):
+    """No archive kind has a coordinate that is not a dimension (a label over a dimension, a scalar); the writer
+    still writes one as CF asks (the ``coordinates`` attribute of the data variables over its dimensions,
+    CF conventions sec. 5), checked against xarray's ``to_netcdf``.  Booleans and complex values are refused."""
+    import numpy as np
+    import xarray as xr
+
+    from fdsolver.io.netcdf import store_netcdf
+
+    ds = xr.Dataset({"a": ("t", [1.0, 2.0]), "b": ("s", [5, 6, 7])},
+                    coords={"t": [0, 1], "label": ("t", ["near", "far"]), "depth": 3.5}, attrs={"title": "x"})
+    store_netcdf(ds, str(tmp_path / "ours.nc"), {})
+    ds.to_netcdf(tmp_path / "xarray.nc", engine="netcdf4",
+                 encoding={v: {"_FillValue": None} for v in ds.variables if ds[v].dtype.kind == "f"})
+    assert _layout(tmp_path / "ours.nc") == _layout(tmp_path / "xarray.nc")
+    for bad in (np.array([True, False]), np.array([1j, 2j])):
+        with pytest.raises(TypeError, match="cannot be archived"):
+            store_netcdf(xr.Dataset({"flag": ("t", bad)}), str(tmp_path / "bad.nc"), {})

@@ -96,11 +96,12 @@ def run_bands(args) -> int:
         finally:
             discard(figure if figure and os.path.exists(figure) else None)
         shown = ds
-    else:  # the table prints from the archive's variables; xarray is loaded only to write or draw
+    else:  # the table prints from the archive's variables and the archive is written from them; xarray is loaded
+        # only to draw
         shown = bands_record_of(case, n_bands=args.bands, wavevectors=args.wavevectors, bloch=args.bloch,
                                 stacks=args.stacks, termination=args.termination, action=action)
         if output or args.plot:
-            ds = shown.dataset()
+            ds = shown.dataset() if args.plot else shown
             figure = draw_figure(ds, args.plot)  # first: a figure that fails leaves no archive behind
             try:
                 if output:

@@ -50,8 +50,8 @@ def run_solve(args) -> int:
     case = load_case(args.case, **parse_set(args.set))
     check_outputs(outputs, inputs=case_inputs(case))  # and not onto a table the case read
     rec = solve_record_of(case, action=command("solve", args, [("--set", "set")]))
-    if args.output or args.plot:  # xarray is imported only when an archive or a figure is made
-        ds = rec.dataset()
+    if args.output or args.plot:  # xarray is imported only when a figure is made (the archive is written without it)
+        ds = rec.dataset() if args.plot else rec
         figure = draw_figure(ds, args.plot)  # first: a figure that fails leaves no archive behind
         try:
             if args.output:

@@ -14,7 +14,9 @@ Wavefunctions are stored as psi * sqrt(1 length unit), which is
 dimensionless (``units = "1"``), because UDUNITS cannot write half powers;
 ``units_note`` says so on the variable.
 
-:func:`write_dataset` writes to a temporary file in the target folder,
+:func:`write_dataset` writes (with the netCDF4 library alone,
+:mod:`fdsolver.io.netcdf`, from a Dataset or from the
+:class:`~fdsolver.io.record.Record` a command built without xarray) to a temporary file in the target folder,
 fsyncs it and renames it over the target (``os.replace``), holding Ctrl-C
 until the file is complete, so a crash leaves the old file or the new one,
 never a truncated one.  :func:`open_run` reads an archive back fully into
@@ -40,7 +42,9 @@ import numpy as np
 from fdsolver._version import __version__
 from fdsolver.errors import ArchiveError, CaseError, printable, shorten, write_failure
 from fdsolver.io.datasets import check
-from fdsolver.io.lightxr import store_netcdf, xarray
+from fdsolver.io.lightxr import xarray
+from fdsolver.io.netcdf import as_record, store_netcdf
+from fdsolver.io.record import Field, Record
 from fdsolver.limits import ARCHIVE_MEMORY_MB, MAX_MEMORY_MB, MAX_VARIABLES
 
 if TYPE_CHECKING:
@@ -120,10 +124,12 @@ def _cannot_write(exc: BaseException, path: Path, need: int) -> CaseError:
                      "the folder's permissions", key="--output")
 
 
-def write_dataset(ds: xr.Dataset, path) -> Path:
-    """Write ``ds`` to NetCDF at ``path`` atomically (temp file + os.replace); stale temporary files of the same
-    target left by killed writes are removed first.  A full disk, a read-only folder and the like are a
-    :class:`CaseError` (key ``--output``), and nothing is left behind."""
+def write_dataset(ds: xr.Dataset | Record, path) -> Path:
+    """Write ``ds`` (an xarray Dataset, or the :class:`~fdsolver.io.record.Record` of one: writing it needs no
+    xarray) to NetCDF at ``path`` atomically (temp file + os.replace), through the one writer of archives
+    (:func:`fdsolver.io.netcdf.store_netcdf`); stale temporary files of the same target left by killed writes are
+    removed first.  A full disk, a read-only folder and the like are a :class:`CaseError` (key ``--output``), and
+    nothing is left behind."""
     path = Path(path)
     folder = path.parent if str(path.parent) else Path(".")
     if not folder.is_dir():
@@ -131,24 +137,26 @@ def write_dataset(ds: xr.Dataset, path) -> Path:
     if path.is_dir():
         raise CaseError(f"'{shorten(path)}' is a directory; give a file name for the archive", key="--output")
     remove_stale(path)
-    need = int(ds.nbytes)
+    rec = as_record(ds)
+    need = rec.nbytes
     free = _free_bytes(folder)
     if free is not None and free < need:
         raise CaseError(f"the archive needs about {need / 2**20:.3g} MB but the disk holding '{shorten(folder)}' has "
                         f"{free / 2**20:.3g} MB free; free some space or write elsewhere", key="--output")
-    ds = ds.copy()
-    ds.attrs = _clean_attrs(ds.attrs)
-    for name in ds.variables:
-        ds[name].attrs = _clean_attrs(ds[name].attrs)
+
+    def cleaned(fields: dict) -> dict:
+        return {k: Field(f.dims, f.values, _clean_attrs(f.attrs)) for k, f in fields.items()}
+
+    rec = Record(data=cleaned(rec.data), coords=cleaned(rec.coords), attrs=_clean_attrs(rec.attrs))
     encoding: dict = {}
-    for name in ds.variables:
-        var = ds[name]
-        if var.dtype.kind == "f":
-            encoding[name] = {"_FillValue": None} if name in ds.coords else {"_FillValue": np.nan}
-        if var.dtype.kind == "b":
+    for name, f in (*rec.data.items(), *rec.coords.items()):
+        kind = np.asarray(f.values).dtype.kind
+        if kind == "f":
+            encoding[name] = {"_FillValue": None} if name in rec.coords else {"_FillValue": np.nan}
+        if kind == "b":
             raise TypeError(f"boolean variable {name} must be stored as int8")
-    for name in ds.data_vars:  # HDF5 checksums: a flipped byte is detected on reading
-        if ds[name].dtype.kind in "fiu" and ds[name].ndim > 0:
+    for name, f in rec.data.items():  # HDF5 checksums: a flipped byte is detected on reading
+        if np.asarray(f.values).dtype.kind in "fiu" and np.ndim(f.values) > 0:
             encoding.setdefault(name, {})["fletcher32"] = True
     # Ctrl-C is held back until the file is complete: an interrupt inside the NetCDF library can leave
     # its locks taken (the process would hang in the cleanup); it is raised right after the rename.
@@ -161,7 +169,7 @@ def write_dataset(ds: xr.Dataset, path) -> Path:
         try:
             fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
             os.close(fd)
-            store_netcdf(ds, tmp, encoding)
+            store_netcdf(rec, tmp, encoding)
             umask = os.umask(0)
             os.umask(umask)
             os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; archives get the usual permissions

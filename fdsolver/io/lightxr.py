@@ -1,12 +1,12 @@
-"""xarray, imported so that building or writing a Dataset does not import array libraries nobody uses.
+"""xarray, imported so that building a Dataset does not import array libraries nobody uses.
 
 When it first turns data into a Dataset, xarray asks of every value whether it
 is a Dask, pint, CuPy, sparse or cubed array, and to answer it imports each of
 those libraries that is installed.  pint is a dependency of fdsolver and Dask
 comes with the cluster extra; with the Dask scheduler the write imported (below)
 they made a cold ``fdsolver solve -o run.nc`` cost 4.2-4.8 s of CPU instead of
-2.2-2.7 s (measured 2026-12-02, see DEVELOPERS.md, "Benchmark: start-up,
-per-solve overhead, many states").
+2.2-2.7 s when that command still wrote through xarray (measured 2026-12-02,
+see DEVELOPERS.md, "Benchmark: start-up, per-solve overhead, many states").
 
 An array of a library can only exist once that library has been imported.
 :func:`xarray` therefore gives xarray, for each such library not yet imported,
@@ -22,11 +22,9 @@ Dask to ask.  Dask's own answer is False for any object without a callable
 ``__dask_graph__`` attribute (``dask.base.is_dask_collection``), so that test
 is made first and Dask is consulted only for an object that has one.
 
-Writing goes through :func:`store_netcdf`, which is ``Dataset.to_netcdf``
-without its probe of the Dask scheduler (that probe imports Dask and Dask's
-distributed scheduler, about 0.5 s, to learn how to lock chunked writes;
-fdsolver's Datasets are never chunked, and the file is a fresh temporary one,
-so the netCDF4 library lock xarray takes anyway is the only lock needed).
+Archives are written without xarray (:mod:`fdsolver.io.netcdf`); xarray is
+loaded to read one back, to build the Dataset of a command that returns one
+(sweeps, the API), and to draw a figure.
 """
 
 from __future__ import annotations
@@ -101,16 +99,3 @@ def _check_graph_first() -> None:
 
     is_dask_collection._graph_first = True  # type: ignore[attr-defined]
     utils.is_dask_collection = is_dask_collection
-
-
-def store_netcdf(ds, path: str, encoding: dict) -> None:
-    """Write ``ds`` (not chunked) to a new NETCDF4 file at ``path`` with ``encoding``, through xarray's netCDF4
-    store: the same file ``ds.to_netcdf(path, engine="netcdf4", encoding=encoding)`` writes."""
-    xr = xarray()
-    from xarray.backends.netCDF4_ import NETCDF4_PYTHON_LOCK
-
-    store = xr.backends.NetCDF4DataStore.open(path, mode="w", format="NETCDF4", lock=NETCDF4_PYTHON_LOCK)
-    try:
-        ds.dump_to_store(store, encoding=encoding)
-    finally:
-        store.close()
