@@ -18,7 +18,10 @@ are compared in pairs taken in the same minute.
 
 Cases `solve` refuses (periodic ones) are skipped.
 
-Usage:  python scripts/bench_pairs.py BASE_TREE NEW_TREE [--warm] [--repeat N] [CASE ...]
+``--archive``: each cold solve also writes an archive (``solve -o``, a temporary file).  A CASE is a bundled
+case's name or the path of a case file.
+
+Usage:  python scripts/bench_pairs.py BASE_TREE NEW_TREE [--warm | --archive] [--repeat N] [CASE ...]
         (a tree is a directory holding the fdsolver package, e.g. a `git worktree add /tmp/base REV`)
 """
 
@@ -30,6 +33,7 @@ import os
 import statistics
 import subprocess
 import sys
+import tempfile
 from pathlib import Path
 
 from bench_overhead import (
@@ -39,12 +43,14 @@ from bench_overhead import (
 ROOT = Path(__file__).resolve().parent.parent
 
 
-def cold_cpu(tree: str, case: Path) -> float | None:
-    """CPU seconds of one cold solve of ``case`` with ``tree`` on PYTHONPATH (None if the solve was refused)."""
+def cold_cpu(tree: str, case: Path, archive: str | None = None) -> float | None:
+    """CPU seconds of one cold solve of ``case`` with ``tree`` on PYTHONPATH, writing ``archive`` if given (None if
+    the solve was refused)."""
     env = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
     env["PYTHONPATH"] = tree
+    extra = ["-o", archive] if archive else []
     # run from the tree: `python -m` puts the working folder ahead of PYTHONPATH
-    cpu, _ = child_cpu([sys.executable, "-m", "fdsolver", "solve", str(case)], env, check=False, cwd=tree)
+    cpu, _ = child_cpu([sys.executable, "-m", "fdsolver", "solve", str(case), *extra], env, check=False, cwd=tree)
     return None if math.isnan(cpu) else cpu
 
 
@@ -100,7 +106,7 @@ def main_warm(args, names) -> None:
     print(f"warm solves, CPU ms per solve ({args.repeat} alternated blocks of {WARM_BLOCK}); base {args.base}, "
           f"new {args.new}")
     for name in names:
-        got = warm_pairs(args.base, args.new, ROOT / "cases" / f"{name}.toml", args.repeat)
+        got = warm_pairs(args.base, args.new, _case_path(name), args.repeat)
         if got is None:
             print(f"  {name:22s} not a `solve` case here (skipped)")
             continue
@@ -112,28 +118,38 @@ def main_warm(args, names) -> None:
               f"   new/base: fastest {fast_n / fast_b:.3f}, median of block ratios {ratios:.3f}", flush=True)
 
 
+def _case_path(name: str) -> Path:
+    """A bundled case by name, or a case file by path."""
+    given = Path(name)
+    return given.resolve() if given.suffix == ".toml" and given.is_file() else ROOT / "cases" / f"{name}.toml"
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("base")
     ap.add_argument("new")
-    ap.add_argument("cases", nargs="*", help="case names in cases/ (default: all)")
+    ap.add_argument("cases", nargs="*", help="case names in cases/, or paths of case files (default: all bundled)")
     ap.add_argument("--repeat", type=int, default=5, help="runs (cold) or blocks (warm) per tree and case")
     ap.add_argument("--warm", action="store_true", help="warm solves in two long-lived processes, not cold starts")
+    ap.add_argument("--archive", action="store_true", help="cold solves write an archive (solve -o, a temp file)")
     args = ap.parse_intermixed_args()
     names = args.cases or [p.stem for p in sorted((ROOT / "cases").glob("*.toml"))]
     if args.warm:
         main_warm(args, names)
         return
-    print(f"cold solves, CPU s (min / median of {args.repeat}, alternated); base {args.base}, new {args.new}")
+    archive = str(Path(tempfile.mkdtemp()) / "run.nc") if args.archive else None
+    print(f"cold solves{' -o run.nc' if archive else ''}, CPU s (min / median of {args.repeat}, alternated); "
+          f"base {args.base}, new {args.new}")
     for name in names:
-        case = ROOT / "cases" / f"{name}.toml"
-        if cold_cpu(args.new, case) is None or cold_cpu(args.base, case) is None:
+        case = _case_path(name)
+        name = case.stem
+        if cold_cpu(args.new, case, archive) is None or cold_cpu(args.base, case, archive) is None:
             print(f"  {name:22s} not a `solve` case here (skipped)")
             continue
         times: dict[str, list[float]] = {args.base: [], args.new: []}
         for i in range(args.repeat):
             for tree in (args.base, args.new) if i % 2 == 0 else (args.new, args.base):
-                times[tree].append(cold_cpu(tree, case) or float("nan"))
+                times[tree].append(cold_cpu(tree, case, archive) or float("nan"))
         b, n = times[args.base], times[args.new]
         print(f"  {name:22s} base {min(b):.3f} / {statistics.median(b):.3f}   new {min(n):.3f} / "
               f"{statistics.median(n):.3f}   new/base {statistics.median(n) / statistics.median(b):.2f}", flush=True)
