@@ -18,35 +18,27 @@ from fdsolver.compiled import njit
 
 
 @njit
-def _erf_flat(x):
-    """erf of every element of a 1-D float array (C library erf)."""
+def _error_function(x, complement):
+    """erf (or, with ``complement``, erfc) of every element of a 1-D float array: the C library's erf / erfc (erfc
+    keeps its relative accuracy in the far tail, where 1 - erf would be 0)."""
     out = np.empty_like(x)
     for i in range(x.shape[0]):
-        out[i] = math.erf(x[i])
+        out[i] = math.erfc(x[i]) if complement else math.erf(x[i])
     return out
 
 
-@njit
-def _erfc_flat(x):
-    """erfc of every element of a 1-D float array (C library erfc: relative accuracy kept in the far tail)."""
-    out = np.empty_like(x)
-    for i in range(x.shape[0]):
-        out[i] = math.erfc(x[i])
-    return out
-
-
-def _elementwise(kernel, v):
-    """``kernel`` over the elements of ``v`` (any shape; a scalar gives a numpy float, as a ufunc does)."""
+def _elementwise(v, complement: bool):
+    """erf or erfc over the elements of ``v`` (any shape; a scalar gives a numpy float, as a ufunc does)."""
     a = np.asarray(v, dtype=float)
-    out = kernel(np.ascontiguousarray(a).reshape(-1)).reshape(a.shape)
+    out = _error_function(np.ascontiguousarray(a).reshape(-1), complement).reshape(a.shape)
     return out[()] if out.ndim == 0 else out
 
 
 def erf(v):
     """The error function erf(v) = 2/sqrt(pi) int_0^v exp(-t^2) dt, elementwise."""
-    return _elementwise(_erf_flat, v)
+    return _elementwise(v, False)
 
 
 def erfc(v):
     """The complementary error function erfc(v) = 1 - erf(v), elementwise, accurate where it is tiny."""
-    return _elementwise(_erfc_flat, v)
+    return _elementwise(v, True)
