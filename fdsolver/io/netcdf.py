@@ -16,8 +16,9 @@ strings; a ``_FillValue`` where the encoding gives one (NaN for float data,
 none for coordinates); HDF5 Fletcher-32 checksums where the encoding asks for
 them (the library then chooses the chunks); a coordinate that is not a
 dimension (or a scalar one) is named in the CF ``coordinates`` attribute of
-every data variable over its dimensions (names sorted).  Booleans, dates and complex numbers are refused (the
-archives store flags as int8 and have no dates).
+every data variable over its dimensions (names sorted).  Booleans, dates and
+complex numbers are refused (the archives store flags as int8 and have no
+dates).
 """
 
 from __future__ import annotations

@@ -2,7 +2,8 @@
 
 Building an :class:`xarray.Dataset` imports xarray and pandas (about 0.3 s
 of start-up); ``fdsolver solve`` without ``--plot`` prints a table and writes
-its archive (:mod:`fdsolver.io.netcdf`) from the record alone.  :class:`Record` holds the same variables, coordinates and
+its archive (:mod:`fdsolver.io.netcdf`) from the record alone.
+:class:`Record` holds the same variables, coordinates and
 attributes as the archive (built from the same rows of
 :mod:`fdsolver.io.specs`) and answers the few questions the tables ask of a
 Dataset: ``record.attrs``, ``record.sizes``, ``record["energy"].values`` /
