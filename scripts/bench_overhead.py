@@ -248,7 +248,7 @@ def many_states() -> None:
         print(f"   {n:6d} {cpu:8.2f} {wall:8.2f} {cpu / n * 1e3:14.2f} {int(sol.converged.sum()):5d}/{sol.energy.size:<4d}"
               f"  {int(sol.level_sizes[-1])} nodes")
         for m in sol.messages[:1]:
-            print(f"          note: {m[:150]}")
+            print(f"          note: {m[:320]}")
     print("   target: 1000 states converged in < 30 s CPU, cost per state flat")
 
 

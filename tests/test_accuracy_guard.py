@@ -180,6 +180,26 @@ def test_memory_limited_refinement_says_which_state_and_by_how_much():
     assert ds.converged.values.all()  # the largest budget converges
 
 
+def test_the_budget_note_says_what_memory_the_next_level_needs():
+    """When the budget stops refinement with states not converged, the note gives the memory the next level needs
+    and says to raise [solve] memory_mb; a solve with that much reaches that level, and its flags stay honest
+    (reference: Griffiths' square-well levels, sec. 2.6)."""
+    wells = [(0.0, 2.0, 10.0)]
+    exact = griffiths_square_well(10.0, 2.0)
+    ds = fdsolver.solve(square_case(wells, memory_mb=0.5, max_states=3, tolerance=1e-11))
+    assert not ds.converged.values.all()
+    note = next(m for m in ds.attrs["messages"].split("\n") if "exceeds the memory budget" in m)
+    assert "raise [solve] memory_mb" in note
+    size = int(re.search(r"the next level \((\d+) nodes\)", note).group(1))
+    need = float(re.search(r"it needs about (\d+) MB", note).group(1))
+    more = fdsolver.solve(square_case(wells, memory_mb=need, max_states=3, tolerance=1e-11))
+    assert size in more.level_nodes.values
+    check_honest(more, exact, 1e-11)
+    if not more.converged.values.all():  # the next level was not enough: the note names a finer one
+        again = next(m for m in more.attrs["messages"].split("\n") if "exceeds the memory budget" in m)
+        assert int(re.search(r"the next level \((\d+) nodes\)", again).group(1)) > size
+
+
 # A narrow deep well next to a wide shallow one: the narrow one needs the fine cells.  At every
 # budget the flags must be honest against the exact levels.
 TWO_SCALE = [(-1.5, 0.05, 400.0), (1.0, 3.0, 2.0)]

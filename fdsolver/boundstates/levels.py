@@ -21,6 +21,7 @@ Energies relative to the problem's reference, in the case energy unit.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -118,7 +119,9 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
         if size > problem.max_nodes:
             messages.append(
                 f"refinement stopped at {level_n[-1] if level_n else 0} nodes: the next level ({size} nodes) "
-                f"exceeds the memory budget (memory_mb = {settings.memory_mb:g})"
+                f"exceeds the memory budget (memory_mb = {settings.memory_mb:g}; it needs about "
+                f"{math.ceil(problem.megabytes_for(size)):d} MB with max_states = {settings.max_states}); where states "
+                "are not converged, raise [solve] memory_mb, ask for fewer states or loosen the tolerance"
             )
             break
         guess = _prediction(level_e, states.sector) if states is not None else first_guess

@@ -79,6 +79,10 @@ class Problem:
         have its energy to 1e-8 of that, or be reported as not converged)."""
         return np.maximum(np.abs(energy), 1e-300)
 
+    def megabytes_for(self, nodes: int) -> float:
+        """The memory (MB, as ``memory_mb`` counts it) a grid of ``nodes`` nodes takes with ``max_states`` states."""
+        return nodes * (BYTES_PER_NODE + BYTES_PER_NODE_STATE * self.settings.max_states) / 2**20
+
     def whole_line_count(self) -> int | None:
         """The box-independent number of bound states (zero-energy phase, computed once); None without a threshold."""
         if not self.open:
