@@ -15,8 +15,9 @@ Calibration: the machine's cost of one Sturm count per grid node (fdsolver.numer
    numba and calls one trivial cached function; and the same floor with scipy.linalg kept out of numba's start, as
    fdsolver.compiled does.  Both floor scripts end as the fdsolver command does, with gc.freeze() (the shutdown
    then skips a full garbage collection: fdsolver.cli.command_line).
-   Every other bundled case that ``solve`` takes is timed the same way (same target), and a case written here
-   whose potential is an expression with erf and erfc (an invented erf-graded well).
+   Every other bundled case that ``solve`` takes is timed the same way (same target), and one invented case of
+   each other kind of structure (:data:`OTHER_CASES`: erf in an expression, a harmonic trap, Gaussian traps, a
+   sech^2 and a Morse well in atomic units, a nonparabolic material stack).
 2. per solve: every bundled case solved warm; two ratios are printed: measured CPU / (node-states x Sturm ns
    per node), where node-states = sum over grid levels of (nodes x states found), and measured CPU / the lean
    estimate (node-states x 30 ns at 8 ns per Sturm node, scaled by this machine's Sturm count).  Target for the
@@ -58,6 +59,27 @@ ROOT = Path(__file__).resolve().parent.parent
 #: quotient per state and level, about 30 ns per node-state on a machine whose Sturm count costs about 8 ns per node
 LEAN_PER_STURM = 30.0 / 8.0
 CASES = sorted((ROOT / "cases").glob("*.toml"))
+
+
+#: invented cases beyond the bundled ones, timed cold like them (label -> case text)
+OTHER_CASES = {
+    "erf-graded well": ('title = "erf-graded well (invented)"\nunits = "nm-meV"\nmass = 0.067\n[[potential]]\n'
+                        'shape = "expression"\nV = "-150 * 0.5 * (erf((x + 4) / 0.7) + erfc((x - 4) / 0.7) - 1)"\n'
+                        '[domain]\nboundary = "hard"\nleft = -30.0\nright = 30.0\n'),
+    "harmonic trap": ('title = "harmonic trap (invented)"\nunits = "nm-meV"\nmass = 0.067\n[[potential]]\n'
+                      'shape = "harmonic"\ncenter = 0.0\nomega = 10.0\n'),
+    "gaussian pair": ('title = "two Gaussian traps (invented)"\nunits = "nm-meV"\nmass = 0.067\n'
+                      '[[potential]]\nshape = "gaussian"\ncenter = -5.0\nsigma = 2.0\ndepth = 100.0\n'
+                      '[[potential]]\nshape = "gaussian"\ncenter = 5.0\nsigma = 2.0\ndepth = 100.0\n'),
+    "sech2 well": ('title = "sech2 well (invented)"\nunits = "atomic"\n[[potential]]\nshape = "sech2"\n'
+                   'center = 0.0\nwidth = 1.0\ndepth = 6.0\n'),
+    "morse well": ('title = "Morse well (invented)"\nunits = "atomic"\nmass = 1836.0\n[[potential]]\n'
+                   'shape = "morse"\ncenter = 1.4\na = 1.0\ndepth = 0.17\n'),
+    "nonparabolic stack": ('title = "nonparabolic GaAs well (invented)"\nunits = "nm-meV"\nnonparabolicity = true\n'
+                           '[[layer]]\nmaterial = "AlGaAs"\nx = 0.3\n[[layer]]\nmaterial = "GaAs"\n'
+                           'thickness = "100 angstrom"\n[[layer]]\nmaterial = "AlGaAs"\nx = 0.3\n'
+                           '[domain]\nboundary = "hard"\nleft = "-20 nm"\nright = "30 nm"\n'),
+}
 
 
 def child_cpu(cmd: list[str], env=None, check: bool = True, cwd=None) -> tuple[float, float]:
@@ -131,13 +153,14 @@ def startup(repeat: int) -> None:
         cmd = [py, "-m", "fdsolver", "solve", str(other)]
         if other.stem != "coupled_wells" and not math.isnan(child_cpu(cmd, bytecode_env, check=False)[0]):
             commands.append((f"fdsolver solve {other.stem} (cold)", cmd, 0.8))
-    # beyond the bundled cases: a well whose graded interfaces are written with erf and erfc in an expression
-    # (invented numbers), the class of cases that once imported scipy.special for them
-    graded = floor_dir / "erf_graded.toml"
-    graded.write_text('title = "erf-graded well (invented)"\nunits = "nm-meV"\nmass = 0.067\n[[potential]]\n'
-                      'shape = "expression"\nV = "-150 * 0.5 * (erf((x + 4) / 0.7) + erfc((x - 4) / 0.7) - 1)"\n'
-                      '[domain]\nboundary = "hard"\nleft = -30.0\nright = 30.0\n')
-    commands.append(("fdsolver solve erf-graded well (cold)", [py, "-m", "fdsolver", "solve", str(graded)], 0.8))
+    # beyond the bundled cases, one invented case of each other kind of structure: a well whose graded interfaces
+    # are written with erf and erfc in an expression (the class that once imported scipy.special for them), a
+    # harmonic trap, a pair of Gaussian traps, a sech^2 well and a Morse well in atomic units, and a material
+    # stack with the two-band (nonparabolic) mass
+    for label, text in OTHER_CASES.items():
+        path = floor_dir / f"{label.replace(' ', '_')}.toml"
+        path.write_text(text)
+        commands.append((f"fdsolver solve {label} (cold)", [py, "-m", "fdsolver", "solve", str(path)], 0.8))
     for _name, cmd, _target in commands:  # untimed: numba cache and bytecode warm from here on
         child_cpu(cmd, bytecode_env)
     print("1. start-up (child processes; seconds)")
