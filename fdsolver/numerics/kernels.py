@@ -24,7 +24,8 @@
 * :func:`target_spacing` - the raw target spacing of a base grid from sampled V and m (the arithmetic
   of :func:`fdsolver.numerics.grid.spacing_function` in one pass).
 * :func:`flux_operator` - the arrays of the flux-form operator
-  (:mod:`fdsolver.numerics.operator`) in one pass over the cells; :func:`even_half` its even mirror sector.
+  (:mod:`fdsolver.numerics.operator`) in one pass over the cells; :func:`even_half` its even mirror sector;
+  both through :func:`symmetric_form`, the one formula of T's diagonal and off-diagonal.
 * :func:`refine_nodes` - nested refinement of a grid (every cell split in k).
 * :func:`decay_reach` - where the WKB decay integral along a walk first reaches a budget (the box's ends).
 
@@ -907,14 +908,25 @@ def flux_operator(nodes, mass, il, ir, c, shift, neumann):
         w[i - 1 + off] = 0.5 * (h[i - 1] + h[i])
         vint[i - 1 + off] = ir[i - 1] + il[i]
     v = np.empty(n)
-    d = np.empty(n)
-    e = np.empty(max(n - 1, 0))
     for i in range(n):
         v[i] = vint[i] / w[i] + shift
-        d[i] = (a[i] + a[i + 1] + vint[i]) / w[i]
+    d, e = symmetric_form(a, w, vint)
+    return a, w, vint, v, d, e, ok
+
+
+@njit
+def symmetric_form(a, w, vw):
+    """Diagonal ``d`` and off-diagonal ``e`` of T = W^-1/2 K W^-1/2 from the couplings ``a`` (n + 1), the node
+    weights ``w`` and the dual-cell integrals ``vw`` (n each): d_i = (a_i + a_{i+1} + vw_i) / w_i,
+    e_i = -a_{i+1} / sqrt(w_i w_{i+1}).  Energy unit of the operator.  O(N)."""
+    n = w.shape[0]
+    d = np.empty(n)
+    for i in range(n):
+        d[i] = (a[i] + a[i + 1] + vw[i]) / w[i]
+    e = np.empty(max(n - 1, 0))
     for i in range(n - 1):
         e[i] = -a[i + 1] / math.sqrt(w[i] * w[i + 1])
-    return a, w, vint, v, d, e, ok
+    return d, e
 
 
 @njit
@@ -933,12 +945,7 @@ def even_half(a, w, vw, c):
     vw_even = np.empty(n)
     vw_even[0] = 0.5 * vw[c]
     vw_even[1:] = vw[c + 1:]
-    d_even = np.empty(n)
-    for i in range(n):
-        d_even[i] = (a_even[i] + a_even[i + 1] + vw_even[i]) / w_even[i]
-    e_even = np.empty(max(n - 1, 0))
-    for i in range(n - 1):
-        e_even[i] = -a_even[i + 1] / math.sqrt(w_even[i] * w_even[i + 1])
+    d_even, e_even = symmetric_form(a_even, w_even, vw_even)
     return a_even, w_even, vw_even, d_even, e_even
 
 
