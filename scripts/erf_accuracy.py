@@ -16,11 +16,13 @@ import os
 os.environ["OMP_NUM_THREADS"] = "1"
 
 import statistics
-import time
 
 import mpmath
 import numpy as np
 import scipy.special
+from bench_overhead import (
+    timed_runs,  # CPU and wall seconds of repeated calls (sets one BLAS thread)
+)
 
 from fdsolver.input._expressions import special
 
@@ -31,13 +33,10 @@ def ulps(got: np.ndarray, exact: np.ndarray) -> float:
 
 
 def cpu_ms(f, x: np.ndarray) -> tuple[float, float]:
+    """Min and median CPU milliseconds of 50 calls f(x), after one untimed call."""
     f(x)
-    times = []
-    for _ in range(50):
-        t0 = time.process_time()
-        f(x)
-        times.append(time.process_time() - t0)
-    return min(times) * 1e3, statistics.median(times) * 1e3
+    cpu, _ = timed_runs(lambda: f(x), 50)
+    return min(cpu) * 1e3, statistics.median(cpu) * 1e3
 
 
 def main() -> None:
