@@ -6,10 +6,10 @@
   it is the count of a matrix within a few ulps of the given one.
   :func:`bisect_eigenvalues` and :func:`prove_indices` count at several
   shifts in one pass (independent recurrences side by side).
-* :func:`tridiag_factor` / :func:`tridiag_apply` / :func:`tridiag_solve` -
+* :func:`tridiag_factor` / :func:`tridiag_apply` (:func:`tridiag_apply_into`) / :func:`tridiag_solve` -
   (T - sigma I) y = b by Gaussian elimination with partial pivoting;
   :func:`inverse_iteration` - eigenvectors of a batch of shifts from one
-  factorisation each, orthonormal within clusters.
+  factorisation each (from :func:`start_vector`), orthonormal within clusters.
 * :func:`flux_quotient` - the Rayleigh quotient of the flux-form operator,
   sum a_j (psi_{j+1} - psi_j)^2 + sum (Vw_i - alpha_i) psi_i^2 over
   sum w_i psi_i^2, computed from differences so that its round-off is a few
@@ -165,15 +165,16 @@ def bisect_eigenvalues(d, e, lo, count, below, above, rtol, floor):
 
 @njit
 def tridiag_factor(d, e, sigma):
-    """LU factors of tridiag(e, d, e) - sigma I with partial pivoting: (u0, u1, u2, lmul, piv).
+    """LU factors of tridiag(e, d, e) - sigma I with partial pivoting: (r0, u1, u2, lmul, piv).
 
-    u0/u1/u2 are the diagonal and the first and second superdiagonals of U
-    (the second appears where rows were swapped), lmul the multipliers and piv
-    the swaps.  A zero pivot is replaced by 1e-300 (inverse iteration at an
-    exact eigenvalue).  O(N).
+    r0 holds the reciprocals of U's diagonal (the solves multiply instead of
+    dividing: a multiplication's latency, not a division's, on their chain),
+    u1/u2 the first and second superdiagonals of U (the second appears where
+    rows were swapped), lmul the multipliers and piv the swaps.  A zero pivot
+    is replaced by 1e-300 (inverse iteration at an exact eigenvalue).  O(N).
     """
     n = d.shape[0]
-    u0 = np.empty(n)
+    r0 = np.empty(n)
     u1 = np.zeros(n)
     u2 = np.zeros(n)
     lmul = np.zeros(n)
@@ -188,14 +189,14 @@ def tridiag_factor(d, e, sigma):
             if diag == 0.0:
                 diag = 1e-300
             m = sub / diag
-            u0[i] = diag
+            r0[i] = diag
             u1[i] = sup
             lmul[i] = m
             diag = nd - m * sup
             sup = nsup
         else:  # swap rows i and i+1
             m = diag / sub
-            u0[i] = sub
+            r0[i] = sub
             u1[i] = nd
             u2[i] = nsup
             lmul[i] = m
@@ -204,15 +205,19 @@ def tridiag_factor(d, e, sigma):
             sup = -m * nsup
     if diag == 0.0:
         diag = 1e-300
-    u0[n - 1] = diag
-    return u0, u1, u2, lmul, piv
+    r0[n - 1] = diag
+    for i in range(n):
+        r0[i] = 1.0 / r0[i]
+    return r0, u1, u2, lmul, piv
 
 
 @njit
-def tridiag_apply(u0, u1, u2, lmul, piv, b):
-    """Solve with the factors of :func:`tridiag_factor`; returns a new array.  O(N)."""
-    n = u0.shape[0]
-    y = b.copy()
+def tridiag_apply_into(r0, u1, u2, lmul, piv, b, y):
+    """Solve with the factors of :func:`tridiag_factor` into ``y`` (``b`` is not changed); returns max |y|
+    (NaN if y is not finite).  O(N)."""
+    n = r0.shape[0]
+    for i in range(n):
+        y[i] = b[i]
     for i in range(n - 1):
         if piv[i]:
             t = y[i]
@@ -220,65 +225,98 @@ def tridiag_apply(u0, u1, u2, lmul, piv, b):
             y[i + 1] = t - lmul[i] * y[i]
         else:
             y[i + 1] = y[i + 1] - lmul[i] * y[i]
-    y[n - 1] = y[n - 1] / u0[n - 1]
+    y[n - 1] = y[n - 1] * r0[n - 1]
+    big = abs(y[n - 1])
     if n > 1:
-        y[n - 2] = (y[n - 2] - u1[n - 2] * y[n - 1]) / u0[n - 2]
+        y[n - 2] = (y[n - 2] - u1[n - 2] * y[n - 1]) * r0[n - 2]
+        big = max(big, abs(y[n - 2]))
     for i in range(n - 3, -1, -1):
-        y[i] = (y[i] - u1[i] * y[i + 1] - u2[i] * y[i + 2]) / u0[i]
+        y[i] = (y[i] - u1[i] * y[i + 1] - u2[i] * y[i + 2]) * r0[i]
+        big = max(big, abs(y[i]))
+    return big
+
+
+@njit
+def tridiag_apply(r0, u1, u2, lmul, piv, b):
+    """Solve with the factors of :func:`tridiag_factor`; returns a new array.  O(N)."""
+    y = np.empty(r0.shape[0])
+    tridiag_apply_into(r0, u1, u2, lmul, piv, b, y)
     return y
 
 
 @njit
 def tridiag_solve(d, e, sigma, b):
     """Solve (tridiag(e, d, e) - sigma I) y = b with partial pivoting; returns y."""
-    u0, u1, u2, lmul, piv = tridiag_factor(d, e, sigma)
-    return tridiag_apply(u0, u1, u2, lmul, piv, b)
+    r0, u1, u2, lmul, piv = tridiag_factor(d, e, sigma)
+    return tridiag_apply(r0, u1, u2, lmul, piv, b)
+
+
+#: the start vector of inverse iteration: 1 + START_RIPPLE sin(i START_STEP + j) at unknown i for state j
+START_STEP = 0.7548776662466927
+START_RIPPLE = 0.01
+
+
+@njit
+def start_vector(n, j):
+    """The deterministic start vector of state ``j`` (:data:`START_STEP`, :data:`START_RIPPLE`) on ``n`` unknowns:
+    nearly constant with a small ripple whose step is not a rational multiple of pi, so that in practice it
+    overlaps every eigenvector and equals none.  The sines come from the angle-addition recurrence (two
+    sin/cos calls per vector instead of one per node); its rounding grows slowly along the vector, which a
+    start vector does not mind.  O(N)."""
+    u = np.empty(n)
+    c, s = math.cos(START_STEP), math.sin(START_STEP)
+    re, im = math.cos(float(j)), math.sin(float(j))
+    for i in range(n):
+        u[i] = 1.0 + START_RIPPLE * im
+        re, im = re * c - im * s, im * c + re * s
+    return u
 
 
 @njit
 def inverse_iteration(d, e, shifts, first, steps, out):
     """Eigenvectors of tridiag(e, d, e) for the eigenvalues near ``shifts``, into the rows of ``out``.
 
-    Each vector: ``steps`` solves with the factors of T - shift I from a fixed
-    start vector, each followed by Gram-Schmidt against the vectors of the
-    same cluster computed before it (rows ``first[j]`` .. j-1), and
+    Each vector: ``steps`` solves with the factors of T - shift I from
+    :func:`start_vector`, each followed by Gram-Schmidt against the vectors of
+    the same cluster computed before it (rows ``first[j]`` .. j-1), and
     normalisation.  States closer than their eigenvector accuracy thus come
     out as an orthonormal basis of their cluster.  Sums run sequentially, so
     the result does not depend on any thread count.  Returns False if a
     solve broke down (a non-finite vector).  O(N (steps + cluster size)) per
-    vector.
+    vector: per step one solve (which also finds the largest entry), one
+    pass for the norm and one to scale.
     """
     n = d.shape[0]
     k = shifts.shape[0]
+    y = np.empty(n)
     for j in range(k):
-        u = np.empty(n)
-        for i in range(n):
-            u[i] = 1.0 + 0.01 * math.sin(i * 0.7548776662466927 + j)  # deterministic, not an eigenvector
-        u0, u1, u2, lmul, piv = tridiag_factor(d, e, shifts[j])
+        u = start_vector(n, j)
+        r0, u1, u2, lmul, piv = tridiag_factor(d, e, shifts[j])
         for _ in range(steps):
-            y = tridiag_apply(u0, u1, u2, lmul, piv, u)
-            big = 0.0
-            for i in range(n):
-                if abs(y[i]) > big:
-                    big = abs(y[i])
+            big = tridiag_apply_into(r0, u1, u2, lmul, piv, u, y)
             if not (big > 0.0 and big < math.inf):
                 return False
-            for i in range(n):
-                y[i] /= big
-            for m in range(first[j], j):
-                dot = 0.0
+            inv = 1.0 / big  # scaled by the largest entry first: no overflow in the sums below
+            if first[j] < j:
                 for i in range(n):
-                    dot += y[i] * out[m, i]
-                for i in range(n):
-                    y[i] -= dot * out[m, i]
+                    y[i] *= inv
+                for m in range(first[j], j):
+                    dot = 0.0
+                    for i in range(n):
+                        dot += y[i] * out[m, i]
+                    for i in range(n):
+                        y[i] -= dot * out[m, i]
+                inv = 1.0
             nrm = 0.0
             for i in range(n):
-                nrm += y[i] * y[i]
+                t = y[i] * inv
+                nrm += t * t
             nrm = math.sqrt(nrm)
             if not (nrm > 0.0 and nrm < math.inf):
                 return False
+            scale = inv / nrm
             for i in range(n):
-                u[i] = y[i] / nrm
+                u[i] = y[i] * scale
         out[j] = u
     return True
 
@@ -363,16 +401,51 @@ def _round_scales(d, vw, w, u, lam, ulps, eps):
 
 
 @njit
+def _sharpness(d, e, vw, w, u, lam, residual_factor, ulps, eps):
+    """(sharp, matrix, quotient): the round-off scales of unit vector u (:func:`_round_scales`) and whether its
+    residual |T u - lam u| is within ``residual_factor`` times their sum or 1e-12 of lam."""
+    mat, quo = _round_scales(d, vw, w, u, lam, ulps, eps)
+    return _residual_norm(d, e, u, lam) <= residual_factor * (mat + quo) + 1e-12 * abs(lam), mat, quo
+
+
+@njit
+def _rayleigh_step(d, e, a, vw, w, u, lam, floor):
+    """One Rayleigh-quotient step from unit vector u with quotient lam (cubic convergence from an accurate
+    vector): the new (vector, quotient), or (u, lam) where the solve breaks down or the step moves the
+    quotient by more than 1e-6 of its scale (it went to another state)."""
+    n = u.shape[0]
+    r0, u1, u2, lmul, piv = tridiag_factor(d, e, lam)
+    y = np.empty(n)
+    big = tridiag_apply_into(r0, u1, u2, lmul, piv, u, y)
+    if not (big > 0.0 and big < math.inf):
+        return u, lam
+    nrm = 0.0
+    for i in range(n):
+        y[i] /= big
+        nrm += y[i] * y[i]
+    nrm = math.sqrt(nrm)
+    for i in range(n):
+        y[i] /= nrm
+    lam_y = _quotient_of_u(y, a, vw, w)
+    if abs(lam_y - lam) <= 1e-6 * max(abs(lam), floor):
+        return y, lam_y
+    return u, lam
+
+
+@njit
 def finish_vectors(d, e, a, vw, w, first, floor, steps, residual_factor, ulps, eps, vectors, energy, scales):
     """Energies and round-off scales of a sector's eigenvectors (rows of ``vectors``, from inverse iteration).
 
-    Each energy is the flux-form Rayleigh quotient; a state whose residual
-    |T u - lambda u| exceeds ``residual_factor`` times its round-off scale is
-    redone with twice the steps; an isolated state (``first``: its own
-    cluster) is polished by one Rayleigh-quotient step when that moves it by
-    less than 1e-6 of its scale.  Fills ``vectors`` (k x n), ``energy`` (k)
-    and ``scales`` (k x 2: matrix and quotient round-off scales).
-    Returns True.
+    Each energy is the flux-form Rayleigh quotient.  A state is kept as it
+    is where it is sharp (:func:`_sharpness`: its residual |T u - lambda u|
+    within ``residual_factor`` times its round-off scale, or 1e-12 of
+    lambda): its quotient is then exact to far below that scale.  Otherwise
+    an isolated state (``first``: its own cluster) first takes one
+    Rayleigh-quotient step (:func:`_rayleigh_step`); a state still not sharp
+    is redone from the start with twice the steps at its quotient, and
+    polished by one Rayleigh-quotient step if isolated.  Fills ``vectors``
+    (k x n), ``energy`` (k) and ``scales`` (k x 2: matrix and quotient
+    round-off scales).  Returns True.
     """
     k = vectors.shape[0]
     n = d.shape[0]
@@ -381,31 +454,18 @@ def finish_vectors(d, e, a, vw, w, first, floor, steps, residual_factor, ulps, e
     for j in range(k):
         u = vectors[j].copy()
         lam = _quotient_of_u(u, a, vw, w)
-        mat, quo = _round_scales(d, vw, w, u, lam, ulps, eps)
-        if _residual_norm(d, e, u, lam) > residual_factor * (mat + quo) + 1e-12 * abs(lam):
+        sharp, mat, quo = _sharpness(d, e, vw, w, u, lam, residual_factor, ulps, eps)
+        alone = first[j] == j and (j + 1 >= k or first[j + 1] != j)
+        if not sharp and alone:
+            u, lam = _rayleigh_step(d, e, a, vw, w, u, lam, floor)
+            sharp, mat, quo = _sharpness(d, e, vw, w, u, lam, residual_factor, ulps, eps)
+        if not sharp:
             if inverse_iteration(d, e, np.array([lam]), one, 2 * steps, redo):
                 u = redo[0].copy()
                 lam = _quotient_of_u(u, a, vw, w)
-        alone = first[j] == j and (j + 1 >= k or first[j + 1] != j)
-        if alone:  # one Rayleigh-quotient step: cubic convergence from an accurate vector
-            y = tridiag_solve(d, e, lam, u)
-            big = 0.0
-            for i in range(n):
-                if abs(y[i]) > big:
-                    big = abs(y[i])
-            if big > 0.0 and big < math.inf:
-                nrm = 0.0
-                for i in range(n):
-                    y[i] /= big
-                    nrm += y[i] * y[i]
-                nrm = math.sqrt(nrm)
-                for i in range(n):
-                    y[i] /= nrm
-                lam_y = _quotient_of_u(y, a, vw, w)
-                if abs(lam_y - lam) <= 1e-6 * max(abs(lam), floor):  # the same state, only sharper
-                    u = y
-                    lam = lam_y
-        mat, quo = _round_scales(d, vw, w, u, lam, ulps, eps)
+                if alone:
+                    u, lam = _rayleigh_step(d, e, a, vw, w, u, lam, floor)
+            mat, quo = _round_scales(d, vw, w, u, lam, ulps, eps)
         vectors[j] = u
         energy[j] = lam
         scales[j, 0] = mat
