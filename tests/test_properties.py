@@ -457,3 +457,28 @@ def test_near_threshold_state_does_not_stop_the_others():
              tolerance=1e-7)
     assert ds.sizes["state"] >= 2
     assert ds.converged.values[0] == 1 and ds.converged.values[1] == 1
+
+
+def test_home_region_of_equal_shares_is_the_first_in_the_case_order():
+    """Shares equal to within 1e-6 (mirror images apart by round-off) go to the first region in the case's
+    order; a clear majority wins; no share at all is -1.  Our own rule (HOME_TIE), no source."""
+    from fdsolver.boundstates.result import home_regions
+
+    inside = np.array([[0.5 - 3e-13, 0.5], [0.5, 0.5 - 3e-13], [0.3, 0.7], [0.0, 0.0], [0.4999, 0.5001]])
+    assert home_regions(inside).tolist() == [0, 0, 1, -1, 1]
+    assert home_regions(np.zeros((2, 0))).tolist() == [-1, -1]
+
+
+@pytest.mark.parametrize("apart", [0.5, 2.0, 6.0])
+def test_mirror_pair_states_share_both_wells_equally(apart):
+    """Mirror symmetry: |psi(x0 + u)| = |psi(x0 - u)|, so every state of two equal wells holds equal shares of
+    them (fact of the physics); the reported home is then the first well, whatever the last bits of psi."""
+    comps = [{"shape": "square", "name": name, "center": side * (apart + 1.0) / 2, "width": 1.0, "depth": 8.0}
+             for name, side in (("left well", -1), ("right well", 1))]
+    ds = run(comps, tolerance=1e-9)
+    names = [str(v) for v in ds.region_name.values]
+    left, right = names.index("left well"), names.index("right well")
+    share = ds.probability_inside.values
+    assert ds.sizes["state"] >= 2
+    np.testing.assert_allclose(share[:, left], share[:, right], rtol=0, atol=1e-9)
+    assert ds.lives_in.values.tolist() == [min(left, right)] * ds.sizes["state"]

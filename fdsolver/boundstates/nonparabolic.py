@@ -166,7 +166,7 @@ def solve_energy_dependent(potential, domain, settings, gaps, solve) -> KaneSolu
     """
     from dataclasses import replace
 
-    from fdsolver.boundstates.result import _cell_overlap
+    from fdsolver.boundstates.result import _cell_overlap, home_regions
 
     base = solve(potential, domain, settings)
     stack = potential.stack
@@ -225,7 +225,7 @@ def solve_energy_dependent(potential, domain, settings, gaps, solve) -> KaneSolu
     inside = np.zeros((len(keep), len(regions)))
     for r, (_, lo, hi) in enumerate(regions):
         inside[:, r] = psi_a**2 @ _cell_overlap(x, lo, hi)
-    home = np.where(inside.max(axis=1) > 0, inside.argmax(axis=1), -1) if regions and len(keep) else np.full(len(keep), -1)
+    home = home_regions(inside) if regions and len(keep) else np.full(len(keep), -1)
     scale = np.maximum(np.abs(e - float(base.reference)), 1e-300)
     sol = replace(
         base, energy=e, energy_error=err, converged=err <= settings.tolerance * scale, psi=psi_a,

@@ -37,6 +37,22 @@ RESOLVED_FRACTION = 1e-6
 WALL_SHARE = 0.5
 #: states whose observables are summed at once (bounds the temporary psi^2 array)
 OBSERVABLE_CHUNK = 64
+#: region shares closer than this (as fractions of the state's probability) are equal: of regions that share a
+#: state equally (the wells of a mirror-symmetric pair) the first in the case's order is its home, whatever the
+#: last bits of psi say
+HOME_TIE = 1e-6
+
+
+def home_regions(inside: np.ndarray) -> np.ndarray:
+    """Each state's home: the index of the region holding the largest share of its probability (``inside``:
+    state x region, fractions of the state's probability), the first in the case's order among shares within
+    :data:`HOME_TIE` of the largest; -1 where no region holds any.  Dimensionless."""
+    inside = np.asarray(inside, dtype=float)
+    if inside.ndim != 2 or inside.shape[1] == 0:
+        return np.full(inside.shape[0] if inside.ndim else 0, -1, dtype=int)
+    best = inside.max(axis=1)
+    first = np.argmax(inside >= (best - HOME_TIE)[:, None], axis=1)
+    return np.where(best > 0, first, -1).astype(int)
 
 
 @dataclass(frozen=True)
@@ -67,7 +83,7 @@ class Solution:
     bound_count: int
     messages: tuple[str, ...]
     index: np.ndarray  # global Sturm index of every state (= its node count)
-    home: np.ndarray  # region holding most of the state's probability (-1: none named)
+    home: np.ndarray  # region holding most of the state's probability (-1: none named; the first in the case's order of equal shares)
     wall: np.ndarray  # -1 / +1: a hard-wall state at the left / right wall; 0 otherwise
     splitting: np.ndarray  # E_{k+1} - E_k, extrapolated as a sequence of its own
     splitting_error: np.ndarray
@@ -223,7 +239,7 @@ def _observables(problem, box, run, conv: np.ndarray, index: np.ndarray, message
     mean_x = sums[:, 0]
     spread = np.sqrt(np.maximum(0.0, sums[:, 1] - (mean_x - x_ref) ** 2))
     inside = sums[:, 2 : 2 + len(regions)]
-    home = np.where(inside.max(axis=1) > 0, inside.argmax(axis=1), -1) if regions and n else np.full(n, -1)
+    home = home_regions(inside) if regions and n else np.full(n, -1)
     wall = np.zeros(n, dtype=int)
     for j, (side, _, _) in enumerate(zones):
         wall[sums[:, 2 + len(regions) + j] > WALL_SHARE] = side

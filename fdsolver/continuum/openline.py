@@ -36,7 +36,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from fdsolver.boundstates.result import Solution
+from fdsolver.boundstates.result import Solution, home_regions
 from fdsolver.continuum.confinement import confined_top, falls
 from fdsolver.continuum.narrow import match_edge
 from fdsolver.continuum.profile import Profile, ladder
@@ -199,8 +199,7 @@ def _observables(potential, x, w, psi):
     inside = np.zeros((psi.shape[0], len(regions)))
     for j, (_, lo, hi) in enumerate(regions):
         inside[:, j] = (dens @ _overlap(x, lo, hi)) / total
-    home = np.where(inside.max(axis=1) > 0, inside.argmax(axis=1), -1) if regions and psi.shape[0] else \
-        np.full(psi.shape[0], -1)
+    home = home_regions(inside) if regions and psi.shape[0] else np.full(psi.shape[0], -1)
     return mean, spread, inside, home.astype(int), tuple(r[0] for r in regions)
 
 

@@ -146,8 +146,8 @@ SOLVE = (
     Var("mean_x", ("state",), "f8", "expectation value of position <x>", LENGTH, required=True),
     Var("spread", ("state",), "f8", "position spread sqrt(<x^2> - <x>^2)", LENGTH, required=True),
     Var("box_error", ("state",), "f8", "estimated shift from truncating the open line to the box", ENERGY),
-    Var("lives_in", ("state",), "i4", "region holding most of the state's probability (-1: none of the named ones)",
-        source="home"),
+    Var("lives_in", ("state",), "i4", "region holding most of the state's probability (-1: none of the named ones; "
+        "of regions holding equal shares within 1e-6, the first)", source="home"),
     Var("wall_state", ("state",), "i1", "the state lives at a hard wall, not in the structure",
         flags=("left_wall", "structure", "right_wall"), flag_start=-1, source="wall"),
     Var("splitting", ("state",), "f8", "splitting E[state+1] - E[state], extrapolated as a sequence of its own "
