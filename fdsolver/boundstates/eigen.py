@@ -299,7 +299,11 @@ def _sector_states(op: Operator, values: np.ndarray, lo: int, floor: float, prov
 
     Without clusters the whole pass is one compiled call
     (:func:`fdsolver.numerics.kernels.sector_pass`); with clusters the
-    Rayleigh-Ritz step runs between the inverse iteration and the rest.
+    Rayleigh-Ritz step runs between the inverse iteration and the rest, and
+    predicted values (``prove``) must first pass
+    :func:`fdsolver.numerics.kernels.predictions_separate` (each cluster nearer
+    its own eigenvalues than any other), so that no vectors are computed from
+    predictions the proof would refuse.
     """
     k = values.size
     if k == 0:
@@ -309,19 +313,20 @@ def _sector_states(op: Operator, values: np.ndarray, lo: int, floor: float, prov
                                  float(floor), bool(prove), CLUSTER_RTOL, INVERSE_STEPS, RESIDUAL_FACTOR,
                                  QUOTIENT_ULPS, EPS, vectors, energies, scales)
     if status == 1:
+        if prove and not kernels.predictions_separate(op.d, op.e, np.ascontiguousarray(values, dtype=float),
+                                                      _clusters(values, floor), int(lo)):
+            return None  # the predictions are too far off to start from: bisection, with no vectors spent on them
         got = _vectors(op, values, floor)
         if got is None:
             return None
         vectors, energies, scales = got
         order = np.argsort(energies, kind="stable")
-        vectors, energies, scales = vectors[order], energies[order], scales[order]
+        if np.any(order != np.arange(k)):  # (the rows are only copied where the quotients changed their order)
+            vectors, energies, scales = vectors[order], energies[order], scales[order]
         if prove and not kernels.prove_indices(op.d, op.e, energies, _clusters(energies, floor), int(lo), float(floor),
                                                np.ascontiguousarray(scales[:, 0])):
             return None
-        for j in range(k):  # sign convention: the first significant lobe is positive
-            big = np.flatnonzero(np.abs(vectors[j]) > 1e-3 * np.max(np.abs(vectors[j])))
-            if big.size and vectors[j, big[0]] < 0:
-                vectors[j] = -vectors[j]
+        kernels.sign_convention(vectors)
     elif status != 0:
         return None
     return vectors, energies, _roundoff(scales[:, 0], scales[:, 1], energies)

@@ -511,13 +511,54 @@ def prove_indices(d, e, values, first, lo, floor, matrix):
 
 
 @njit
+def predictions_separate(d, e, values, first, lo):
+    """True if Sturm counts say that every cluster of the ascending predicted ``values`` (``first``:
+    :func:`cluster_starts`) holds its own eigenvalues and they are the nearest ones: for each cluster the
+    interval from half the smaller gap to a neighbouring cluster below its first value to as far above its
+    last (a quarter of the gap on the outer side of the first and the last cluster) holds exactly the states
+    lo + (its members' positions).  Inverse iteration from such shifts then finds the states lo, lo + 1, ...;
+    where the check fails, the predictions are too far off to start from (or an unpredicted neighbour lies
+    close outside: the caller then bisects, which is always right).  Always True for a single cluster
+    (nothing to compare its distance with).  Shifts in the matrix's energy unit.  O(N) per three probe points
+    (:func:`_sturm_counts3`), two per cluster.
+    """
+    k = values.shape[0]
+    starts = np.empty(k + 1, np.int64)
+    m = 0
+    for j in range(k):
+        if first[j] == j:
+            starts[m] = j
+            m += 1
+    if m < 2:
+        return True
+    starts[m] = k
+    points = np.empty(2 * m)
+    want = np.empty(2 * m, np.int64)
+    for c in range(m):
+        a, b = starts[c], starts[c + 1] - 1  # the cluster's first and last member
+        below = values[a] - values[a - 1] if c > 0 else math.inf
+        above = values[b + 1] - values[b] if c < m - 1 else math.inf
+        half = 0.5 * min(below, above)
+        # beyond the first and last cluster the next eigenvalues are not predicted: a quarter of the inner gap
+        points[2 * c], want[2 * c] = values[a] - (half if c > 0 else 0.5 * half), lo + a
+        points[2 * c + 1], want[2 * c + 1] = values[b] + (half if c < m - 1 else 0.5 * half), lo + b + 1
+    last = 2 * m - 1
+    for i in range(0, 2 * m, 3):
+        i1, i2 = min(i + 1, last), min(i + 2, last)
+        c0, c1, c2 = _sturm_counts3(d, e, points[i], points[i1], points[i2])
+        if c0 != want[i] or c1 != want[i1] or c2 != want[i2]:
+            return False
+    return True
+
+
+@njit
 def sector_pass(d, e, a, vw, w, shifts, lo, floor, prove, cluster_rtol, steps, residual_factor, ulps, eps,
                 vectors, energy, scales):
     """A sector's eigenpairs from eigenvalue estimates, in one compiled pass, when no two of them form a cluster.
 
     Inverse iteration, the quotients, residual checks and polish
     (:func:`finish_vectors`), then sorting, the Sturm proof of the indices
-    lo, lo + 1, ... (``prove``) and the sign convention (the first lobe above
+    lo, lo + 1, ... (``prove``) and the sign convention (:func:`sign_convention`: the first lobe above
     1e-3 of the peak is positive).  Returns 0 on success, 1 if the estimates
     form a cluster (the caller takes the general path), 2 if inverse
     iteration broke down, 3 if the proof failed.
@@ -546,7 +587,16 @@ def sector_pass(d, e, a, vw, w, shifts, lo, floor, prove, cluster_rtol, steps, r
             matrix[j] = scales[j, 0]
         if not prove_indices(d, e, energy, cluster_starts(energy, floor, cluster_rtol), lo, floor, matrix):
             return 3
-    n = d.shape[0]
+    sign_convention(vectors)
+    return 0
+
+
+@njit
+def sign_convention(vectors):
+    """Flip each row of ``vectors`` (in place) so that its first entry above 1e-3 of the row's largest is
+    positive: the first significant lobe of every state is positive, whatever sign its solve gave.  O(N) per
+    row."""
+    k, n = vectors.shape
     for j in range(k):
         peak = 0.0
         for i in range(n):
@@ -558,7 +608,6 @@ def sector_pass(d, e, a, vw, w, shifts, lo, floor, prove, cluster_rtol, steps, r
                     for q in range(n):
                         vectors[j, q] = -vectors[j, q]
                 break
-    return 0
 
 
 @njit
