@@ -20,13 +20,15 @@ e_lo <= E < e_hi (at most ``max_states``):
    (:func:`fdsolver.numerics.kernels.inverse_iteration`): O(N) per state, with
    Gram-Schmidt only inside a cluster of states closer than
    :data:`CLUSTER_RTOL` of their energy, whose members then form an
-   orthonormal basis of the cluster.  Each vector's residual is checked and a
-   state that fails is redone with more steps.
+   orthonormal basis of the cluster.  Each vector's residual is checked; a
+   state that fails takes one Rayleigh-quotient step (if isolated) and is
+   redone with more steps if it still fails.  On the cluster path, predicted
+   eigenvalues are first checked by Sturm counts (each cluster nearer its own
+   eigenvalues than any other) and bisected where they are not.
 4. Each energy is the flux-form Rayleigh quotient of its vector
    (:func:`fdsolver.numerics.kernels.flux_quotient`), a few ulps of the energy
    scale where LAPACK's bisection is only accurate to eps * ||T||, which grows
-   as 1/h_min^2 on graded grids; an isolated state is polished by one more
-   Rayleigh-quotient step.
+   as 1/h_min^2 on graded grids.
 
 Energies are in the case energy unit, measured from the operator's shift;
 eigenvectors ``u`` of T are kept per sector (psi = u / sqrt(w), normalised so
@@ -48,7 +50,8 @@ from fdsolver.numerics.precision import EPS
 CLUSTER_RTOL = 1e-4
 #: inverse-iteration steps per vector (from an eigenvalue accurate to bisection)
 INVERSE_STEPS = 3
-#: a residual |T u - lambda u| above this many times the state's round-off scale is redone
+#: a residual |T u - lambda u| above this many times the state's round-off scale is sharpened (a Rayleigh-quotient
+#: step, then a redo); at or below it the state is kept as it is
 RESIDUAL_FACTOR = 1e3
 #: the flux-form Rayleigh quotient is trusted to this many ulps of its scale
 QUOTIENT_ULPS = 64.0
@@ -145,7 +148,7 @@ def _vectors(op: Operator, values: np.ndarray, floor: float):
     Rayleigh-Ritz rotation inside every cluster of two or more, which
     separates its members to the accuracy of the quotient, then
     :func:`fdsolver.numerics.kernels.finish_vectors` (quotients, residual
-    checks, polish).
+    checks, sharpening).
     """
     k = values.size
     vectors, energy, scales = np.empty((k, op.size)), np.empty(k), np.empty((k, 2))

@@ -556,7 +556,7 @@ def sector_pass(d, e, a, vw, w, shifts, lo, floor, prove, cluster_rtol, steps, r
                 vectors, energy, scales):
     """A sector's eigenpairs from eigenvalue estimates, in one compiled pass, when no two of them form a cluster.
 
-    Inverse iteration, the quotients, residual checks and polish
+    Inverse iteration, the quotients, residual checks and sharpening
     (:func:`finish_vectors`), then sorting, the Sturm proof of the indices
     lo, lo + 1, ... (``prove``) and the sign convention (:func:`sign_convention`: the first lobe above
     1e-3 of the peak is positive).  Returns 0 on success, 1 if the estimates
