@@ -200,6 +200,40 @@ def test_the_budget_note_says_what_memory_the_next_level_needs():
         assert int(re.search(r"the next level \((\d+) nodes\)", again).group(1)) > size
 
 
+@pytest.mark.parametrize("mirror", [True, False])
+def test_the_memory_budget_bounds_what_a_solve_holds(mirror):
+    """The budget's count of a grid's bytes (Problem.megabytes_for, with mirror halves or without) is at least
+    the largest memory a solve of many states holds at once (tracemalloc's peak; a budget that undercounts
+    would let a solve exceed the memory the user gave it).  Common practice, no source."""
+    import tracemalloc
+
+    import fdsolver.boundstates.driver as driver
+    from fdsolver.runs import solve_case
+
+    wells = [(0.0, 200.0, 300.0)] + ([] if mirror else [(50.0, 20.0, 5.0)])
+    case = square_case(wells, memory_mb=4000, max_states=120, tolerance=1e-8)
+    problems = []
+    plan = driver.plan
+
+    def keep(*args, **kwargs):
+        problems.append(plan(*args, **kwargs))
+        return problems[-1]
+
+    solve_case(square_case([(0.0, 2.0, 10.0)]))  # kernels loaded before the count
+    driver.plan = keep
+    tracemalloc.start()
+    try:
+        sol = solve_case(case)
+        peak = tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
+        driver.plan = plan
+    assert (sol.mirror_center is not None) == mirror
+    assert sol.energy.size == 120
+    counted = problems[-1].megabytes_for(int(sol.level_sizes[-1]), mirror) * 2**20
+    assert peak <= counted, f"a solve held {peak / 2**20:.1f} MB, the budget counted {counted / 2**20:.1f} MB"
+
+
 # A narrow deep well next to a wide shallow one: the narrow one needs the fine cells.  At every
 # budget the flags must be honest against the exact levels.
 TWO_SCALE = [(-1.5, 0.05, 400.0), (1.0, 3.0, 2.0)]

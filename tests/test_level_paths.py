@@ -125,3 +125,14 @@ def test_a_state_leaving_through_the_window_foot_is_not_reported_as_unresolved()
     assert list(sol.index) == [2] and sol.converged.all()
     assert abs(sol.energy[0] - exact[2]) <= sol.energy_error[0] + 1e-12 * abs(exact[2]), (sol.energy, exact)
     assert not any("vanished" in m for m in sol.messages), sol.messages
+
+
+@PROPS
+@given(st.permutations(list(range(9))))
+def test_rows_are_permuted_in_place_as_fancy_indexing_would(order):
+    """The cluster path reorders a sector's vectors in place (no second copy of its largest array); the result
+    must be numpy's rows[order] exactly."""
+    rows = np.arange(9 * 5, dtype=float).reshape(9, 5) ** 1.5
+    want = rows[np.array(order)]
+    eigen._permute_rows(rows, np.array(order))
+    assert np.array_equal(rows, want)

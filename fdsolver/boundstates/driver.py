@@ -105,11 +105,12 @@ def _deep_reach(problem: Problem, e_lo: float) -> float | None:
 def _grid(problem: Problem, box, e_lo: float, e_hi: float, gs: GridSettings, center) -> np.ndarray:
     """The base grid for states in [e_lo, e_hi] (absolute); :class:`BudgetError` beyond the memory budget."""
     spacing = spacing_function(problem.potential, e_lo, e_hi, gs, _deep_reach(problem, e_lo))
-    nodes = base_grid(spacing, problem.potential.features(), box[0], box[1], gs, center, problem.max_nodes)
-    if nodes.size > problem.max_nodes:
+    limit = problem.max_nodes(center is not None)
+    nodes = base_grid(spacing, problem.potential.features(), box[0], box[1], gs, center, limit)
+    if nodes.size > limit:
         raise BudgetError(
             f"the grid would need {nodes.size} nodes, more than the memory budget allows "
-            f"({problem.max_nodes} at memory_mb = {problem.settings.memory_mb:g}); raise [solve] memory_mb or "
+            f"({limit} at memory_mb = {problem.settings.memory_mb:g}); raise [solve] memory_mb or "
             "loosen the tolerance",
             key="solve.memory_mb",
         )

@@ -316,6 +316,7 @@ def _sector_states(op: Operator, values: np.ndarray, lo: int, floor: float, prov
                                  float(floor), bool(prove), CLUSTER_RTOL, INVERSE_STEPS, RESIDUAL_FACTOR,
                                  QUOTIENT_ULPS, EPS, vectors, energies, scales)
     if status == 1:
+        vectors = energies = scales = None  # the cluster path makes its own: not both at once
         if prove and not kernels.predictions_separate(op.d, op.e, np.ascontiguousarray(values, dtype=float),
                                                       _clusters(values, floor), int(lo)):
             return None  # the predictions are too far off to start from: bisection, with no vectors spent on them
@@ -324,8 +325,9 @@ def _sector_states(op: Operator, values: np.ndarray, lo: int, floor: float, prov
             return None
         vectors, energies, scales = got
         order = np.argsort(energies, kind="stable")
-        if np.any(order != np.arange(k)):  # (the rows are only copied where the quotients changed their order)
-            vectors, energies, scales = vectors[order], energies[order], scales[order]
+        if np.any(order != np.arange(k)):  # where the quotients changed their order
+            _permute_rows(vectors, order)
+            energies, scales = energies[order], scales[order]
         if prove and not kernels.prove_indices(op.d, op.e, energies, _clusters(energies, floor), int(lo), float(floor),
                                                np.ascontiguousarray(scales[:, 0])):
             return None
@@ -333,6 +335,25 @@ def _sector_states(op: Operator, values: np.ndarray, lo: int, floor: float, prov
     elif status != 0:
         return None
     return vectors, energies, _roundoff(scales[:, 0], scales[:, 1], energies)
+
+
+def _permute_rows(rows: np.ndarray, order: np.ndarray) -> None:
+    """rows[:] = rows[order] in place, with one row of scratch (a sector's vectors are the largest arrays of a
+    many-state solve: no second copy)."""
+    done = np.zeros(order.size, dtype=bool)
+    for start in range(order.size):
+        if done[start] or order[start] == start:
+            continue
+        scratch = rows[start].copy()
+        j = start
+        while True:
+            done[j] = True
+            nxt = int(order[j])
+            if nxt == start:
+                rows[j] = scratch
+                break
+            rows[j] = rows[nxt]
+            j = nxt
 
 
 def _complete(sectors, top: float, expected: int, floor: float) -> bool:

@@ -116,11 +116,12 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
     vanished: list[tuple[int, int, int]] = []  # (first, last, nodes) of states lost on a finer grid
     for level in range(settings.max_levels):
         size = (base.size - 1) * 2**level + 1
-        if size > problem.max_nodes:
+        if size > problem.max_nodes(center is not None):
             messages.append(
                 f"refinement stopped at {level_n[-1] if level_n else 0} nodes: the next level ({size} nodes) "
                 f"exceeds the memory budget (memory_mb = {settings.memory_mb:g}; it needs about "
-                f"{math.ceil(problem.megabytes_for(size)):d} MB with max_states = {settings.max_states}); where states "
+                f"{math.ceil(problem.megabytes_for(size, center is not None)):d} MB with max_states = "
+                f"{settings.max_states}); where states "
                 "are not converged, raise [solve] memory_mb, ask for fewer states or loosen the tolerance"
             )
             break

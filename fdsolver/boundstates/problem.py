@@ -20,15 +20,20 @@ import numpy as np
 
 from fdsolver.boundstates import counting
 from fdsolver.boundstates.box import length_scale, provisional_box
+from fdsolver.boundstates.result import OBSERVABLE_CHUNK
 from fdsolver.boundstates.settings import SolveSettings
 from fdsolver.errors import CaseError
 from fdsolver.model.domain import Domain, continuum_threshold
 
 #: measured upper bound of the working arrays per grid node (see DEVELOPERS.md)
 BYTES_PER_NODE = 8 * 40
-#: and per node and kept state: the sectors' eigenvectors (half the grid each for mirror halves, else the whole)
-#: and the unfolded wavefunctions, 8 bytes each, with room for one more (measured peak: see DEVELOPERS.md)
-BYTES_PER_NODE_STATE = 8 * 3
+#: per node of the whole grid and kept state, what a solve holds at its peak (the observables of its finest
+#: level) besides: the state's wavefunction unfolded on the whole grid, 8 bytes, and one byte of margin; its
+#: eigenvector adds 8 bytes per node of its sector (:data:`BYTES_PER_VECTOR_NODE`: the whole grid, or half of it
+#: for mirror halves), and the squares of up to OBSERVABLE_CHUNK wavefunctions at a time 8 bytes per node and
+#: state up to that many (peaks measured with tracemalloc: see DEVELOPERS.md)
+BYTES_PER_PSI_NODE = 8 + 1
+BYTES_PER_VECTOR_NODE = 8
 #: the WKB decay budget of a box end is ln(DECAY_TARGET / tol) / 2 + 1: truncation shift below tol / 100
 DECAY_TARGET = 100.0
 #: the energy scale of relative tolerances never falls below this fraction of the potential's range
@@ -49,7 +54,6 @@ class Problem:
     reference: float  # absolute energy the solver measures from
     e_lo: float | None  # window, relative
     e_hi: float  # relative (inf: every state below the window top is bound)
-    max_nodes: int
     budget: float  # WKB decay integral of a box end
     scale: float  # the potential's largest length (box growth limits)
     box: tuple[float, float]  # provisional box
@@ -79,9 +83,20 @@ class Problem:
         have its energy to 1e-8 of that, or be reported as not converged)."""
         return np.maximum(np.abs(energy), 1e-300)
 
-    def megabytes_for(self, nodes: int) -> float:
+    def bytes_per_node(self, halves: bool) -> int:
+        """Bytes per node of a grid (as ``memory_mb`` counts them) with ``max_states`` states, solved whole or
+        (``halves``) as its even and odd mirror halves, whose eigenvectors cover half the grid each."""
+        k = self.settings.max_states
+        vector = BYTES_PER_VECTOR_NODE // 2 if halves else BYTES_PER_VECTOR_NODE
+        return BYTES_PER_NODE + 8 * min(k, OBSERVABLE_CHUNK) + k * (BYTES_PER_PSI_NODE + vector)
+
+    def max_nodes(self, halves: bool) -> int:
+        """The most grid nodes the memory budget allows (:meth:`bytes_per_node`)."""
+        return int(self.settings.memory_mb * 2**20 / self.bytes_per_node(halves))
+
+    def megabytes_for(self, nodes: int, halves: bool) -> float:
         """The memory (MB, as ``memory_mb`` counts it) a grid of ``nodes`` nodes takes with ``max_states`` states."""
-        return nodes * (BYTES_PER_NODE + BYTES_PER_NODE_STATE * self.settings.max_states) / 2**20
+        return nodes * self.bytes_per_node(halves) / 2**20
 
     def whole_line_count(self) -> int | None:
         """The box-independent number of bound states (zero-energy phase, computed once); None without a threshold."""
@@ -119,7 +134,6 @@ def plan(potential, domain: Domain, settings: SolveSettings) -> Problem:
     """The problem's facts: threshold, reference, window, node budget, decay budget and a first box."""
     tol = settings.tolerance
     threshold = continuum_threshold(potential, domain)
-    max_nodes = int(settings.memory_mb * 2**20 / (BYTES_PER_NODE + BYTES_PER_NODE_STATE * settings.max_states))
     budget = 0.5 * math.log(DECAY_TARGET / tol) + 1.0
     box = provisional_box(potential, domain, threshold, budget)
     if potential.piecewise_constant:  # exact: every piece once, however thin
@@ -149,7 +163,6 @@ def plan(potential, domain: Domain, settings: SolveSettings) -> Problem:
         reference=reference,
         e_lo=None if e_lo is None else e_lo - reference,
         e_hi=e_hi - reference,
-        max_nodes=max_nodes,
         budget=budget,
         scale=length_scale(potential),
         box=box,
