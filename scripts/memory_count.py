@@ -15,8 +15,8 @@ import os
 for _var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ[_var] = "1"
 
-import argparse  # noqa: E402
-import tracemalloc  # noqa: E402
+import argparse
+import tracemalloc
 
 WELL = [{"shape": "square", "center": 0.0, "width": 1000.0, "depth": 6000.0}]
 STEP = WELL + [{"shape": "square", "center": 300.0, "width": 100.0, "depth": 50.0}]
@@ -27,7 +27,7 @@ def main() -> None:
     ap.add_argument("--quick", action="store_true", help="up to 200 states")
     args = ap.parse_args()
 
-    import fdsolver.boundstates.driver as driver
+    from fdsolver.boundstates import driver
     from fdsolver.input.case import case_from_dict
     from fdsolver.runs import solve_case
 

@@ -207,7 +207,7 @@ def test_the_memory_budget_bounds_what_a_solve_holds(mirror):
     would let a solve exceed the memory the user gave it).  Common practice, no source."""
     import tracemalloc
 
-    import fdsolver.boundstates.driver as driver
+    from fdsolver.boundstates import driver
     from fdsolver.runs import solve_case
 
     wells = [(0.0, 200.0, 300.0)] + ([] if mirror else [(50.0, 20.0, 5.0)])
