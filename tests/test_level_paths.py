@@ -136,3 +136,35 @@ def test_rows_are_permuted_in_place_as_fancy_indexing_would(order):
     want = rows[np.array(order)]
     eigen._permute_rows(rows, np.array(order))
     assert np.array_equal(rows, want)
+
+
+def test_predictions_that_point_at_the_wrong_states_are_bisected_before_any_vector(monkeypatch):
+    """Many states of a wide deep well (its lowest states closer than CLUSTER_RTOL of their energy: the cluster
+    path), each predicted at its neighbour's energy: the Sturm-count check refuses the prediction
+    (kernels.predictions_separate) and the grid is solved by bisection, exactly as without a prediction."""
+    from fdsolver.numerics import kernels
+
+    case = fdsolver.case_from_dict({"units": "nm-meV", "mass": 0.067, "solve": {"max_states": 40},
+                                    "potential": [{"shape": "square", "center": 0.0, "width": 1000.0,
+                                                   "depth": 6000.0}]})
+    problem = plan(case.potential, case.domain, case.settings)
+    prov = _provisional(problem)
+    base = _grid(problem, prov.box, prov.e_lo, prov.e_hi, problem.settings.grid, prov.center)
+    plain = solve_nodes(problem, base, prov.center)[1]
+    assert plain.size == 40
+    assert any(np.any(eigen._clusters(plain.energy[plain.sector == s], problem.floor) != np.arange(20))
+               for s in (0, 1)), "no cluster: not the path under test"
+    wrong = plain.energy.copy()
+    for s in (0, 1):  # each state at the next state of its sector (the top one beyond it)
+        rows = np.flatnonzero(plain.sector == s)
+        wrong[rows[:-1]] = plain.energy[rows[1:]]
+        wrong[rows[-1]] = plain.energy[rows[-1]] + (plain.energy[rows[-1]] - plain.energy[rows[-2]])
+    checks = []
+    real = kernels.predictions_separate
+    monkeypatch.setattr(kernels, "predictions_separate", lambda *a: checks.append(real(*a)) or checks[-1])
+    got = solve_nodes(problem, base, prov.center, (wrong, plain.sector.copy()))[1]
+    assert checks and not any(checks)
+    for name in ("energy", "index", "sector", "parity", "roundoff"):
+        assert np.array_equal(getattr(got, name), getattr(plain, name)), name
+    for u, v in zip(got.vectors, plain.vectors):
+        assert np.array_equal(u, v)
