@@ -171,7 +171,8 @@ def tridiag_factor(d, e, sigma):
     dividing: a multiplication's latency, not a division's, on their chain),
     u1/u2 the first and second superdiagonals of U (the second appears where
     rows were swapped), lmul the multipliers and piv the swaps.  A zero pivot
-    is replaced by 1e-300 (inverse iteration at an exact eigenvalue).  O(N).
+    is replaced by 1e-300 (inverse iteration at an exact eigenvalue), and any
+    pivot smaller than that in size by 1e-300 of its sign.  O(N).
     """
     n = d.shape[0]
     r0 = np.empty(n)
@@ -207,6 +208,8 @@ def tridiag_factor(d, e, sigma):
         diag = 1e-300
     r0[n - 1] = diag
     for i in range(n):
+        if abs(r0[i]) < 1e-300:  # (a subnormal pivot's reciprocal would overflow)
+            r0[i] = math.copysign(1e-300, r0[i])
         r0[i] = 1.0 / r0[i]
     return r0, u1, u2, lmul, piv
 
