@@ -164,6 +164,15 @@ def bisect_eigenvalues(d, e, lo, count, below, above, rtol, floor):
 
 
 @njit
+def _reciprocal(pivot):
+    """1 / pivot, with a pivot below 1e-300 in size taken as 1e-300 of its sign (a subnormal pivot's reciprocal
+    would overflow)."""
+    if abs(pivot) < 1e-300:
+        pivot = math.copysign(1e-300, pivot)
+    return 1.0 / pivot
+
+
+@njit
 def tridiag_factor(d, e, sigma):
     """LU factors of tridiag(e, d, e) - sigma I with partial pivoting: (r0, u1, u2, lmul, piv).
 
@@ -190,14 +199,14 @@ def tridiag_factor(d, e, sigma):
             if diag == 0.0:
                 diag = 1e-300
             m = sub / diag
-            r0[i] = diag
+            r0[i] = _reciprocal(diag)
             u1[i] = sup
             lmul[i] = m
             diag = nd - m * sup
             sup = nsup
         else:  # swap rows i and i+1
             m = diag / sub
-            r0[i] = sub
+            r0[i] = _reciprocal(sub)
             u1[i] = nd
             u2[i] = nsup
             lmul[i] = m
@@ -206,11 +215,7 @@ def tridiag_factor(d, e, sigma):
             sup = -m * nsup
     if diag == 0.0:
         diag = 1e-300
-    r0[n - 1] = diag
-    for i in range(n):
-        if abs(r0[i]) < 1e-300:  # (a subnormal pivot's reciprocal would overflow)
-            r0[i] = math.copysign(1e-300, r0[i])
-        r0[i] = 1.0 / r0[i]
+    r0[n - 1] = _reciprocal(diag)
     return r0, u1, u2, lmul, piv
 
 
@@ -276,6 +281,24 @@ def start_vector(n, j):
 
 
 @njit
+def _normalise(y, inv, out):
+    """out = y / |y| (unit 2-norm), the norm summed over y * inv (inv: 1 / the largest |y|, so the squares
+    neither overflow nor underflow); False if y has no finite positive norm.  One pass for the norm, one to
+    scale."""
+    nrm = 0.0
+    for i in range(y.shape[0]):
+        t = y[i] * inv
+        nrm += t * t
+    nrm = math.sqrt(nrm)
+    if not (nrm > 0.0 and nrm < math.inf):
+        return False
+    scale = inv / nrm
+    for i in range(y.shape[0]):
+        out[i] = y[i] * scale
+    return True
+
+
+@njit
 def inverse_iteration(d, e, shifts, first, steps, out):
     """Eigenvectors of tridiag(e, d, e) for the eigenvalues near ``shifts``, into the rows of ``out``.
 
@@ -310,16 +333,8 @@ def inverse_iteration(d, e, shifts, first, steps, out):
                     for i in range(n):
                         y[i] -= dot * out[m, i]
                 inv = 1.0
-            nrm = 0.0
-            for i in range(n):
-                t = y[i] * inv
-                nrm += t * t
-            nrm = math.sqrt(nrm)
-            if not (nrm > 0.0 and nrm < math.inf):
+            if not _normalise(y, inv, u):
                 return False
-            scale = inv / nrm
-            for i in range(n):
-                u[i] = y[i] * scale
         out[j] = u
     return True
 
@@ -420,15 +435,8 @@ def _rayleigh_step(d, e, a, vw, w, u, lam, floor):
     r0, u1, u2, lmul, piv = tridiag_factor(d, e, lam)
     y = np.empty(n)
     big = tridiag_apply_into(r0, u1, u2, lmul, piv, u, y)
-    if not (big > 0.0 and big < math.inf):
+    if not (big > 0.0 and big < math.inf) or not _normalise(y, 1.0 / big, y):
         return u, lam
-    nrm = 0.0
-    for i in range(n):
-        y[i] /= big
-        nrm += y[i] * y[i]
-    nrm = math.sqrt(nrm)
-    for i in range(n):
-        y[i] /= nrm
     lam_y = _quotient_of_u(y, a, vw, w)
     if abs(lam_y - lam) <= 1e-6 * max(abs(lam), floor):
         return y, lam_y
