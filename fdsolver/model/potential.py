@@ -49,10 +49,16 @@ class Potential:
         components cost O((N + K) log K) where they can, not O(N K).
         """
         x = np.asarray(x, dtype=float)
-        v = np.zeros_like(x) if self.stack is None else self.stack.band_edge(x).astype(float)
+        v = None if self.stack is None else self.stack.band_edge(x).astype(float)
         for total in self._summers:
-            v = v + total(x)
-        return v
+            t = total(x)
+            if v is not None:
+                v = v + t
+            elif isinstance(t, np.ndarray) and t.dtype == np.float64 and t.shape == x.shape and t.base is None:
+                v = t  # the first term is a fresh float array of x's shape: no zeros to add it to
+            else:
+                v = np.zeros_like(x) + t
+        return np.zeros_like(x) if v is None else v
 
     def half_cell_integrals(self, nodes: np.ndarray, shift: float = 0.0) -> tuple[np.ndarray, np.ndarray]:
         """Integrals of V - ``shift`` over the left and right half of every cell of ``nodes`` (energy * length).
@@ -146,6 +152,10 @@ class Potential:
 
     def feature_scales(self) -> list[tuple[float, float]]:
         """(position, length scale) pairs: the grid must resolve ``scale`` around ``position``."""
+        return list(self._feature_scales)
+
+    @cached_property
+    def _feature_scales(self) -> tuple[tuple[float, float], ...]:
         out = []
         for shape in self.shapes:
             s = shape.scale()
@@ -157,7 +167,7 @@ class Potential:
             s = self.stack.scale()
             for p in self.stack.interfaces:
                 out.append((float(p), s if s is not None else INF))
-        return out
+        return tuple(out)
 
     def point_scales(self) -> list[tuple[float, float]]:
         """(position, 1/g) for each attractive point term, g = m alpha / hbar^2: its bound-state decay length."""
@@ -171,6 +181,13 @@ class Potential:
 
     def asymptote(self, side: int) -> float:
         """Limit of V at side*infinity (+-inf for unbounded shapes)."""
+        return self._asymptotes[0 if side < 0 else 1]
+
+    @cached_property
+    def _asymptotes(self) -> tuple[float, float]:
+        return self._asymptote(-1), self._asymptote(1)
+
+    def _asymptote(self, side: int) -> float:
         total = 0.0
         if self.stack is not None:
             total += self.stack.layers[0 if side < 0 else -1].band_edge
