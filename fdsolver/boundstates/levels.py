@@ -98,6 +98,19 @@ def _out_of_order(value: np.ndarray, err: np.ndarray) -> np.ndarray:
     return np.where(off > err + err[order], off, 0.0)
 
 
+def _judge(problem: Problem, table: Romberg, states: GridStates) -> tuple[np.ndarray, np.ndarray]:
+    """(done, limited) of every state of the newest level: its error estimate (the table's plus its round-off
+    floor) within the tolerance and its extrapolation in order (:func:`_out_of_order`); or not done, in order,
+    and limited by round-off on the next level (which grows it about :data:`ROUNDOFF_GROWTH` times)."""
+    tol = problem.settings.tolerance
+    err = table.error() + states.roundoff
+    scale = problem.energy_scale(states.energy)
+    crossed = _out_of_order(table.value(), err) > 0 if table.levels >= 2 else np.zeros(states.size, dtype=bool)
+    done = (err <= tol * scale) & ~crossed
+    limited = ~done & ~crossed & (ROUNDOFF_GROWTH * states.roundoff > tol * scale)
+    return done, limited
+
+
 def refine_levels(problem: Problem, base: np.ndarray, center: float | None, messages: list,
                   first_guess: tuple | None = None) -> LevelRun:
     """Solve nested refinements of ``base`` until every state has converged (module docstring).
@@ -106,13 +119,13 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
     every prediction it is proved by Sturm counts, and bisection takes over where the proof fails.
     """
     settings = problem.settings
-    tol = settings.tolerance
-    table, gaps = Romberg(), Romberg()
+    table = Romberg()
     level_e: list[np.ndarray] = []
     level_n: list[int] = []
     states = sectors = nodes = None
     last, n_expected = 0, None
     limited = np.zeros(0, dtype=bool)
+    judged = -1  # the level whose states ``limited`` describes
     vanished: list[tuple[int, int, int]] = []  # (first, last, nodes) of states lost on a finer grid
     for level in range(settings.max_levels):
         size = (base.size - 1) * 2**level + 1
@@ -136,35 +149,36 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
             if below + st_k.size < n_expected:
                 vanished.append((st_k.first_index + st_k.size, states.first_index + n_expected - 1, grid.size))
             level_e = [row[below: below + st_k.size] for row in level_e]
-            table, gaps = Romberg(), Romberg()
+            table = Romberg()
             for row in level_e:
                 table.add(row)
-                gaps.add(np.diff(row))
         elif n_expected is not None and (st_k.size != n_expected or below != 0):
-            table, gaps, level_e, level_n = Romberg(), Romberg(), [], []  # the states changed: restart the tables
+            table, level_e, level_n = Romberg(), [], []  # the states changed: restart the tables
         n_expected = st_k.size
         states, sectors, nodes, last = st_k, sectors_k, grid, level
         table.add(states.energy)
-        gaps.add(np.diff(states.energy))
         level_e.append(states.energy)
         level_n.append(grid.size)
         if states.size == 0:
             if level >= 1:
                 break
             continue
-        err = table.error() + states.roundoff
-        scale = problem.energy_scale(states.energy)
-        crossed = _out_of_order(table.value(), err) > 0 if table.levels >= 2 else np.zeros(states.size, dtype=bool)
-        done = (err <= tol * scale) & ~crossed
-        limited = ~done & ~crossed & (ROUNDOFF_GROWTH * states.roundoff > tol * scale)
-        if table.levels >= settings.min_levels and (np.all(done) or np.all(done | limited)):
-            break
+        if table.levels >= settings.min_levels:  # before that no level stops the refinement: nothing to judge
+            done, limited = _judge(problem, table, states)
+            judged = level
+            if np.all(done) or np.all(done | limited):
+                break
     if states is None or states.size == 0:
         empty = np.empty(0)
         return LevelRun(empty, empty, empty, empty, np.zeros(0, bool),
                         states if states is not None else solve_nodes(problem, base, center)[1],
                         sectors or [], nodes if nodes is not None else base, last, level_e, level_n, np.zeros(0, bool),
                         base)
+    if judged != last:
+        limited = _judge(problem, table, states)[1]
+    gaps = Romberg()  # the splittings' table, from the same rows as the energies'
+    for row in level_e:
+        gaps.add(np.diff(row))
     top = states.first_index + states.size - 1
     for first, last, size in vanished:  # said only of states that did not come back
         if last > top:

@@ -101,18 +101,28 @@ class Solution:
     log10_lifetime: np.ndarray | None = None
 
 
-def _unfold(sector, u: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """(nodes of the whole grid, psi on them) of a sector's eigenvector, normalised over the whole grid."""
+def _whole_nodes(sector) -> np.ndarray:
+    """The nodes of the whole grid a sector's operator lives on (its half mirrored about the centre)."""
+    half = sector.op.nodes
+    if sector.parity == 0:
+        return half
+    return np.concatenate([2.0 * half[0] - half[:0:-1], half])
+
+
+def _unfold_into(row: np.ndarray, sector, u: np.ndarray) -> None:
+    """psi on the whole grid (``row``, zero on entry) of a sector's eigenvector u, normalised over the whole grid:
+    u / sqrt(w) at the unknowns (zero at Dirichlet ends); a half's values are divided by sqrt(2) and mirrored with
+    the sector's parity."""
     op = sector.op
     psi = u / np.sqrt(op.w)
     if sector.parity == 0:
-        return op.nodes, np.concatenate([[0.0], psi, [0.0]])
-    half = op.nodes
-    half_psi = np.concatenate([psi, [0.0]]) if op.left == NEUMANN else np.concatenate([[0.0], psi, [0.0]])
-    center = half[0]
-    nodes = np.concatenate([2.0 * center - half[:0:-1], half])
-    full = np.concatenate([sector.parity * half_psi[:0:-1], half_psi]) / math.sqrt(2.0)
-    return nodes, full
+        row[1:-1] = psi
+        return
+    size = row.size
+    centre = (size - 1) // 2
+    start = centre if op.left == NEUMANN else centre + 1  # the first unknown: the centre itself (even half)
+    row[start:start + psi.size] = psi / math.sqrt(2.0)
+    row[:centre] = sector.parity * row[size - 1:centre:-1]
 
 
 def _potential_on(pot, x_all: np.ndarray) -> np.ndarray:
@@ -125,12 +135,13 @@ def _potential_on(pot, x_all: np.ndarray) -> np.ndarray:
     return v_nodes
 
 
-def _sign_changes(psi: np.ndarray) -> int:
-    """Sign changes of psi inside the stretches where it is resolved (never across an unresolved gap)."""
-    big = np.abs(psi) > RESOLVED_FRACTION * np.max(np.abs(psi))
+def _sign_changes(psi: np.ndarray) -> np.ndarray:
+    """Sign changes of each row of psi inside the stretches where it is resolved (never across an unresolved
+    gap)."""
+    size = np.abs(psi)
+    big = size > RESOLVED_FRACTION * np.max(size, axis=1, keepdims=True)
     s = np.sign(psi)
-    adjacent = big[1:] & big[:-1]
-    return int(np.count_nonzero(adjacent & (s[1:] != s[:-1])))
+    return np.count_nonzero(big[:, 1:] & big[:, :-1] & (s[:, 1:] != s[:, :-1]), axis=1)
 
 
 def _wall_zones(problem, box) -> list[tuple[int, float, float]]:
@@ -217,13 +228,10 @@ def _observables(problem, box, run, conv: np.ndarray, index: np.ndarray, message
     with a note."""
     states, pot = run.states, problem.potential
     n = run.energy.size
-    if run.sectors:
-        x_all = _unfold(run.sectors[0], np.zeros(run.sectors[0].op.size))[0]
-    else:
-        x_all = np.asarray(run.nodes, dtype=float)
+    x_all = _whole_nodes(run.sectors[0]) if run.sectors else np.asarray(run.nodes, dtype=float)
     psi = np.zeros((n, x_all.size))
     for k in range(n):
-        psi[k] = _unfold(run.sectors[states.sector[k]], states.vectors[k])[1]
+        _unfold_into(psi[k], run.sectors[states.sector[k]], states.vectors[k])
     h = np.diff(x_all)
     w_all = np.concatenate([[0.0], 0.5 * (h[:-1] + h[1:]), [0.0]])
     regions = pot.regions()
@@ -243,14 +251,15 @@ def _observables(problem, box, run, conv: np.ndarray, index: np.ndarray, message
     wall = np.zeros(n, dtype=int)
     for j, (side, _, _) in enumerate(zones):
         wall[sums[:, 2 + len(regions) + j] > WALL_SHARE] = side
-    for k in range(n):
-        found = _sign_changes(psi[k])
-        if found > index[k]:
-            conv[k] = False
-            messages.append(
-                f"state {index[k]}: its wavefunction changes sign {found} times where it is resolved, more than its "
-                f"index allows: the grid does not separate it from a neighbouring state"
-            )
+    # a quarter of the chunk: |psi|, its sign and three masks per row take no more than the chunk's psi^2 did
+    step = OBSERVABLE_CHUNK // 4
+    found = np.concatenate([_sign_changes(psi[a : a + step]) for a in range(0, n, step)] or [np.zeros(0, dtype=int)])
+    for k in np.flatnonzero(found > index):
+        conv[k] = False
+        messages.append(
+            f"state {index[k]}: its wavefunction changes sign {found[k]} times where it is resolved, more than its "
+            f"index allows: the grid does not separate it from a neighbouring state"
+        )
     return {"x": x_all, "potential": _potential_on(pot, x_all), "mass": pot.mass_at(x_all), "weights": w_all,
             "psi": psi, "mean_x": mean_x, "spread": spread, "inside": inside, "home": home.astype(int), "wall": wall}
 
