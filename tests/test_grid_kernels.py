@@ -13,7 +13,8 @@ from hypothesis import HealthCheck, Phase, given, settings
 from hypothesis import strategies as st
 
 from fdsolver.numerics import kernels
-from fdsolver.numerics.operator import NEUMANN, assemble, mirror_halves
+from fdsolver.numerics.grid import refine
+from fdsolver.numerics.operator import NEUMANN, assemble, cell_constants, mirror_halves
 
 PROPS = settings(deadline=None, derandomize=True, phases=(Phase.explicit, Phase.generate),
                  suppress_health_check=[HealthCheck.too_slow])
@@ -103,6 +104,54 @@ def test_mirror_halves_are_the_assembly_on_the_right_half():
         for name in ("a", "w", "d", "e"):
             assert np.allclose(getattr(got, name), getattr(want, name), rtol=1e-13, atol=0), name
         assert np.allclose(got.vw, want.vw, rtol=1e-13, atol=1e-13 * np.abs(want.vw).max()), "vw"
+
+
+_STACK_CASE = ('title = "three-layer stack with a sheet (invented)"\nunits = "nm-meV"\n'
+               '[[layer]]\nband_edge = 230\nmass = 0.09\n[[layer]]\nthickness = 4.3\nband_edge = 0\nmass = 0.067\n'
+               '[[layer]]\nthickness = 1.7\nband_edge = 120\nmass = 0.08\n[[layer]]\nthickness = 5.1\nband_edge = 10\n'
+               'mass = 0.07\n[[layer]]\nband_edge = 230\nmass = 0.09\n'
+               '[[potential]]\nshape = "square"\ncenter = 2.0\nwidth = 0.9\ndepth = 35\n'
+               '[[potential]]\nshape = "point"\ncenter = 8.0\nstrength = 40\n')
+
+
+@PROPS
+@given(st.integers(0, 10**6), st.integers(3, 40), st.floats(-50.0, 50.0))
+def test_constant_cells_give_the_evaluated_operator_on_every_refinement(seed, extra, shift):
+    """For a piecewise-constant V and m (a layer stack with a square well and a point term, invented) on a grid
+    whose nodes include every feature, the operator assembled from V and m read once per base cell
+    (cell_constants) equals the one assembled by evaluating the potential, bit for bit, on refinements 0-5 and
+    with any shift: V is one value inside each cell, so every point of a sub-cell reads it (IEEE 754: the same
+    operations on the same operands; common practice, no source)."""
+    from fdsolver.input.case import case_from_text
+
+    pot = case_from_text(_STACK_CASE).potential
+    rng = np.random.default_rng(seed)
+    lo, hi = -6.0, 20.0
+    feats = pot.features()
+    base = np.unique(np.concatenate([[lo, hi], feats[(feats > lo) & (feats < hi)], rng.uniform(lo, hi, extra)]))
+    cells = cell_constants(pot, base)
+    assert cells is not None
+    for level in range(6):
+        nodes = refine(base, level)
+        sub = (np.repeat(cells[0], 2**level), np.repeat(cells[1], 2**level))
+        want, got = assemble(pot, nodes, shift), assemble(pot, nodes, shift, cells=sub)
+        for name in ("a", "w", "vw", "v", "mass", "d", "e"):
+            assert np.array_equal(getattr(got, name), getattr(want, name)), (level, name)
+
+
+def test_constant_cells_refused_where_a_cell_sees_two_values():
+    """cell_constants is None where V varies inside a cell: a feature (a layer interface) off the nodes, or a
+    smooth well (a Gaussian, invented)."""
+    from fdsolver.input.case import case_from_text
+
+    pot = case_from_text(_STACK_CASE).potential
+    feats = pot.features()
+    base = np.unique(np.concatenate([[-6.0, 20.0], feats[(feats > -6.0) & (feats < 20.0)]]))
+    assert cell_constants(pot, base) is not None
+    assert cell_constants(pot, np.delete(base, 2)) is None  # one interface inside a cell
+    smooth = case_from_text('title = "Gaussian trap (invented)"\nunits = "nm-meV"\nmass = 0.067\n[[potential]]\n'
+                            'shape = "gaussian"\ncenter = 0\nsigma = 2\ndepth = 50\n').potential
+    assert cell_constants(smooth, np.linspace(-10.0, 10.0, 41)) is None
 
 
 @PROPS

@@ -29,29 +29,31 @@ import numpy as np
 from fdsolver.boundstates.eigen import GridStates, Sector, solve_grid
 from fdsolver.boundstates.problem import Problem
 from fdsolver.numerics.grid import refine
-from fdsolver.numerics.operator import assemble, mirror_halves
+from fdsolver.numerics.operator import assemble, cell_constants, mirror_halves
 from fdsolver.numerics.richardson import Romberg
 
 #: round-off grows by about this factor per level (matrix norm ~ 1/h^2)
 ROUNDOFF_GROWTH = 4.0
 
 
-def sectors_on(problem: Problem, nodes: np.ndarray, center: float | None) -> list[Sector]:
+def sectors_on(problem: Problem, nodes: np.ndarray, center: float | None, cells=None) -> list[Sector]:
     """The operators of a grid: the whole grid, or its even and odd halves about the mirror centre (assembled on
-    the right half only)."""
+    the right half only).  ``cells``: V and m on every cell of ``nodes``, where they are constant on each
+    (:func:`fdsolver.numerics.operator.cell_constants`)."""
     if center is None:
-        return [Sector(assemble(problem.potential, nodes, problem.reference), 0)]
+        return [Sector(assemble(problem.potential, nodes, problem.reference, cells=cells), 0)]
     c = int(np.searchsorted(nodes, center, side="left"))
     # the right half and the one cell left of the centre: every array of the halves is local to its cells and
     # nodes, so this is exactly the whole grid's assembly there (the left half is its mirror image)
-    even, odd = mirror_halves(assemble(problem.potential, nodes[c - 1:], problem.reference), 1)
+    half = None if cells is None else (cells[0][c - 1:], cells[1][c - 1:])
+    even, odd = mirror_halves(assemble(problem.potential, nodes[c - 1:], problem.reference, cells=half), 1)
     return [Sector(even, 1), Sector(odd, -1)]
 
 
 def solve_nodes(problem: Problem, nodes: np.ndarray, center: float | None, guess=None,
-                vectors: bool = True) -> tuple[list[Sector], GridStates]:
+                vectors: bool = True, cells=None) -> tuple[list[Sector], GridStates]:
     """The states of ``problem`` on one grid (energies only without ``vectors``: :func:`solve_grid`)."""
-    sectors = sectors_on(problem, nodes, center)
+    sectors = sectors_on(problem, nodes, center, cells)
     s = problem.settings
     states = solve_grid(sectors, problem.e_lo, problem.e_hi, s.max_states, problem.floor, guess, vectors)
     return sectors, states
@@ -127,6 +129,7 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
     limited = np.zeros(0, dtype=bool)
     judged = -1  # the level whose states ``limited`` describes
     vanished: list[tuple[int, int, int]] = []  # (first, last, nodes) of states lost on a finer grid
+    constant = cell_constants(problem.potential, base)  # V and m per base cell, where each cell sees one value
     for level in range(settings.max_levels):
         size = (base.size - 1) * 2**level + 1
         if size > problem.max_nodes(center is not None):
@@ -140,7 +143,8 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
             break
         guess = _prediction(level_e, states.sector) if states is not None else first_guess
         grid = refine(base, level)
-        sectors_k, st_k = solve_nodes(problem, grid, center, guess)
+        cells = None if constant is None else (np.repeat(constant[0], 2**level), np.repeat(constant[1], 2**level))
+        sectors_k, st_k = solve_nodes(problem, grid, center, guess, cells=cells)
         below = st_k.first_index - states.first_index if states is not None else 0
         if n_expected is not None and st_k.size < n_expected and below >= 0:
             # fewer states on the finer grid: those that sank below an energy window's foot left it (no note),

@@ -71,12 +71,51 @@ class Operator:
         return self.w.size
 
 
-def assemble(potential, nodes: np.ndarray, shift: float = 0.0, left: str = DIRICHLET) -> Operator:
-    """Assemble the operator of ``potential`` on ``nodes`` (see module docstring)."""
+#: a feature closer than this fraction of a cell's width to one of its ends counts as on that node
+#: (:func:`cell_constants`): no half-cell midpoint of any refinement up to 2^20 sub-cells comes that close
+ON_NODE_RTOL = 1e-9
+
+
+def cell_constants(potential, nodes: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
+    """(V, m) on every cell of ``nodes`` where both are constant inside each cell, else None.
+
+    That holds for a piecewise-constant potential (square wells, layer stacks, point terms) whose features
+    are all nodes (the base grids, :func:`fdsolver.numerics.grid.base_grid`, make them so; one within
+    :data:`ON_NODE_RTOL` of a cell's width from a node counts as on it): V and m are then read once at each
+    cell's midpoint, and every nested refinement's sub-cells take their cell's values
+    (:func:`assemble` with ``cells``), exactly the values an evaluation at the sub-cells' own points gives.
+    Energy and mass units of the potential.
+    """
+    if not potential.piecewise_constant:
+        return None
     nodes = np.ascontiguousarray(nodes, dtype=float)
+    feats = potential.features()
+    i = np.searchsorted(nodes, feats, side="right") - 1  # the cell whose left node is at or below each feature
+    inside = (i >= 0) & (i < nodes.size - 1)
+    i, f = i[inside], feats[inside]
+    if np.any(np.minimum(f - nodes[i], nodes[i + 1] - f) > ON_NODE_RTOL * (nodes[i + 1] - nodes[i])):
+        return None
     mid = 0.5 * (nodes[:-1] + nodes[1:])
-    mass = potential.mass_at(mid)
-    il, ir = potential.half_cell_integrals(nodes, shift)
+    return potential.value(mid), potential.mass_at(mid)
+
+
+def assemble(potential, nodes: np.ndarray, shift: float = 0.0, left: str = DIRICHLET,
+             cells: tuple[np.ndarray, np.ndarray] | None = None) -> Operator:
+    """Assemble the operator of ``potential`` on ``nodes`` (see module docstring).
+
+    ``cells``: (V, m) on every cell of ``nodes``, where both are constant inside each cell
+    (:func:`cell_constants` of a grid these nodes refine); the half-cell integrals are then h/2 times V - shift,
+    the same numbers :meth:`~fdsolver.model.potential.Potential.half_cell_integrals` gives for such a potential,
+    without evaluating it again.
+    """
+    nodes = np.ascontiguousarray(nodes, dtype=float)
+    if cells is None:
+        mid = 0.5 * (nodes[:-1] + nodes[1:])
+        mass = potential.mass_at(mid)
+        il, ir = potential.half_cell_integrals(nodes, shift)
+    else:
+        v_cell, mass = cells
+        il = ir = 0.5 * (nodes[1:] - nodes[:-1]) * (v_cell - shift if shift else v_cell)
     a, w, vw, v, d, e, ok = flux_operator(nodes, mass, il, ir, float(potential.hbar2_2me), float(shift), left == NEUMANN)
     if not ok:
         raise ValueError("grid nodes must be strictly increasing")
