@@ -76,6 +76,7 @@ class LevelRun:
     level_sizes: list
     roundoff_limited: np.ndarray  # states whose next level would be limited by round-off
     base: np.ndarray | None = None  # the base grid the levels refine
+    cells: tuple | None = None  # (V, m) on every cell of the finest level where each cell sees one value, else None
 
 
 def _prediction(level_e: list, sectors: np.ndarray):
@@ -130,6 +131,7 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
     judged = -1  # the level whose states ``limited`` describes
     vanished: list[tuple[int, int, int]] = []  # (first, last, nodes) of states lost on a finer grid
     constant = cell_constants(problem.potential, base)  # V and m per base cell, where each cell sees one value
+    cells_last = None  # the cell values of the last level solved
     for level in range(settings.max_levels):
         size = (base.size - 1) * 2**level + 1
         if size > problem.max_nodes(center is not None):
@@ -145,6 +147,7 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
         grid = refine(base, level)
         cells = None if constant is None else (np.repeat(constant[0], 2**level), np.repeat(constant[1], 2**level))
         sectors_k, st_k = solve_nodes(problem, grid, center, guess, cells=cells)
+        cells_last = cells
         below = st_k.first_index - states.first_index if states is not None else 0
         if n_expected is not None and st_k.size < n_expected and below >= 0:
             # fewer states on the finer grid: those that sank below an energy window's foot left it (no note),
@@ -212,4 +215,4 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
                         "levels cross beyond the finest grid): which energy belongs to which index is uncertain by "
                         "that much, and their errors include it")
     return LevelRun(energy, error, splitting, splitting_error, bound, states, sectors, nodes, last, level_e, level_n,
-                    limited, base)
+                    limited, base, cells_last)

@@ -125,11 +125,16 @@ def _unfold_into(row: np.ndarray, sector, u: np.ndarray) -> None:
     row[:centre] = sector.parity * row[size - 1:centre:-1]
 
 
-def _potential_on(pot, x_all: np.ndarray) -> np.ndarray:
-    """V at the nodes: its dual-cell average at interior nodes (as the operator sees it), the value at the ends."""
+def _potential_on(pot, x_all: np.ndarray, v_cells: np.ndarray | None = None) -> np.ndarray:
+    """V at the nodes: its dual-cell average at interior nodes (as the operator sees it), the value at the ends.
+    ``v_cells``: V on every cell where it is constant on each (the levels' cell values), instead of evaluating it
+    on the cells again (the same numbers)."""
     v_nodes = pot.value(x_all)
     if x_all.size > 2:
-        il, ir = pot.half_cell_integrals(x_all)
+        if v_cells is None:
+            il, ir = pot.half_cell_integrals(x_all)
+        else:
+            il = ir = 0.5 * (x_all[1:] - x_all[:-1]) * v_cells
         h = np.diff(x_all)
         v_nodes[1:-1] = (ir[:-1] + il[1:]) / (0.5 * (h[:-1] + h[1:]))
     return v_nodes
@@ -260,7 +265,7 @@ def _observables(problem, box, run, conv: np.ndarray, index: np.ndarray, message
             f"state {index[k]}: its wavefunction changes sign {found[k]} times where it is resolved, more than its "
             f"index allows: the grid does not separate it from a neighbouring state"
         )
-    return {"x": x_all, "potential": _potential_on(pot, x_all), "mass": pot.mass_at(x_all), "weights": w_all,
+    return {"x": x_all, "potential": _potential_on(pot, x_all, None if run.cells is None else run.cells[0]), "mass": pot.mass_at(x_all), "weights": w_all,
             "psi": psi, "mean_x": mean_x, "spread": spread, "inside": inside, "home": home.astype(int), "wall": wall}
 
 
