@@ -37,6 +37,8 @@ RESOLVED_FRACTION = 1e-6
 WALL_SHARE = 0.5
 #: states whose observables are summed at once (bounds the temporary psi^2 array)
 OBSERVABLE_CHUNK = 64
+#: the sign changes of psi are counted over blocks of about this many entries (whole rows, at least one)
+SIGN_BLOCK = 1 << 16
 #: region shares closer than this (as fractions of the state's probability) are equal: of regions that share a
 #: state equally (the wells of a mirror-symmetric pair) the first in the case's order is its home, whatever the
 #: last bits of psi say
@@ -256,8 +258,9 @@ def _observables(problem, box, run, conv: np.ndarray, index: np.ndarray, message
     wall = np.zeros(n, dtype=int)
     for j, (side, _, _) in enumerate(zones):
         wall[sums[:, 2 + len(regions) + j] > WALL_SHARE] = side
-    # a quarter of the chunk: |psi|, its sign and three masks per row take no more than the chunk's psi^2 did
-    step = OBSERVABLE_CHUNK // 4
+    # rows of psi at a time whose |psi|, sign and masks stay small (a few 100 kB): large temporaries cost more in
+    # first touches of fresh memory than the passes themselves
+    step = max(1, SIGN_BLOCK // max(x_all.size, 1))
     found = np.concatenate([_sign_changes(psi[a : a + step]) for a in range(0, n, step)] or [np.zeros(0, dtype=int)])
     for k in np.flatnonzero(found > index):
         conv[k] = False

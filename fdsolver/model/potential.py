@@ -171,13 +171,18 @@ class Potential:
 
     def point_scales(self) -> list[tuple[float, float]]:
         """(position, 1/g) for each attractive point term, g = m alpha / hbar^2: its bound-state decay length."""
+        return list(self._point_scales)
+
+    @cached_property
+    def _point_scales(self) -> tuple[tuple[float, float], ...]:
+        terms = self.point_terms()
+        masses = self.mass_at(np.array([pos for pos, _ in terms], dtype=float))  # one evaluation for all of them
         out = []
-        for pos, alpha in self.point_terms():
-            m = float(self.mass_at(np.array([pos]))[0])
+        for (pos, alpha), m in zip(terms, masses.tolist()):
             g = m * abs(alpha) / (2.0 * self.hbar2_2me)
             if g > 0:
                 out.append((pos, 1.0 / g))
-        return out
+        return tuple(out)
 
     def asymptote(self, side: int) -> float:
         """Limit of V at side*infinity (+-inf for unbounded shapes)."""
