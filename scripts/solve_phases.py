@@ -8,8 +8,12 @@ same case after 100 untimed ones, and printed per solve in ms beside the whole s
 The clocks themselves cost about a microsecond per timed call, so the phases add up to slightly more than
 the untimed solve.  One BLAS thread.
 
-Usage:  python scripts/solve_phases.py [CASE ...] [--solves N]   (a CASE is a bundled case's name or a path;
-        default: double_square coupled_wells)
+``--loads``: instead, a cold ``fdsolver solve`` of each case in a fresh process, with the CPU time of every
+compiled kernel loaded from numba's cache (``numba.core.caching.Cache.load_overload``, timed around each call)
+and of the imports before the solve; the first load includes numba's own set-up of its compiler target.
+
+Usage:  python scripts/solve_phases.py [CASE ...] [--solves N] [--loads]   (a CASE is a bundled case's name or a
+        path; default: double_square coupled_wells)
 """
 
 from __future__ import annotations
@@ -22,6 +26,8 @@ for _var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
 import argparse
 import functools
 import importlib
+import subprocess
+import sys
 import time
 from pathlib import Path
 
@@ -44,19 +50,62 @@ PHASES = [
 ]
 
 
+#: the child of ``--loads``: a cold solve of argv[1] with every load from numba's cache timed
+LOADS_CHILD = """
+import sys, time
+t0 = time.process_time()
+import numba.core.caching as caching
+loads, load = [], caching.Cache.load_overload
+def timed(self, sig, target_context):
+    t = time.process_time()
+    try:
+        return load(self, sig, target_context)
+    finally:
+        name = str(getattr(self, '_name', '?'))
+        loads.append((name.split()[1] if name.startswith('<function ') else name, time.process_time() - t))
+caching.Cache.load_overload = timed
+t1 = time.process_time()
+from fdsolver.cli import main
+t2 = time.process_time()
+try:
+    main(['solve', sys.argv[1]])
+except SystemExit:
+    pass
+t3 = time.process_time()
+out = sys.stderr
+print(f"    import numba {t1 - t0:.3f} s, fdsolver's command line {t2 - t1:.3f} s, the solve command {t3 - t2:.3f} s "
+      f"(of which {len(loads)} kernels loaded from the cache {sum(t for _, t in loads):.3f} s)", file=out)
+for name, t in loads:
+    print(f"      {t * 1e3:7.1f} ms  {name}", file=out)
+"""
+
+
+def cold_loads(path: Path) -> None:
+    """A cold solve of ``path`` in a fresh process, its kernel loads timed (LOADS_CHILD); one untimed run first."""
+    for _ in range(2):
+        run = subprocess.run([sys.executable, "-c", LOADS_CHILD, str(path)], capture_output=True, text=True,
+                             cwd=ROOT, check=False)
+    print(run.stderr.rstrip())
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("cases", nargs="*", default=["double_square", "coupled_wells"])
     ap.add_argument("--solves", type=int, default=1000)
+    ap.add_argument("--loads", action="store_true", help="a cold solve per case, its kernel loads timed")
     args = ap.parse_args()
+    paths = [Path(n) if Path(n).suffix else ROOT / "cases" / f"{n}.toml" for n in args.cases]
+    if args.loads:
+        print("cold `fdsolver solve` in a fresh process, CPU (the second of two runs; the first writes the caches)")
+        for path in paths:
+            print(f"  {path.stem}:")
+            cold_loads(path)
+        return
 
     from fdsolver.input.case import load_case
     from fdsolver.runs import solve_case
 
-    cases = []
-    for name in args.cases:
-        path = Path(name) if Path(name).suffix else ROOT / "cases" / f"{name}.toml"
-        cases.append((Path(path).stem, load_case(path)))
+    cases = [(path.stem, load_case(path)) for path in paths]
 
     plain = {}
     for name, case in cases:  # untimed by the phase clocks
