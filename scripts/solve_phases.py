@@ -5,8 +5,8 @@ Each phase (the plan, the coarse solve and box, the levels, the box check, the r
 parts of them (the base grids, the zero-energy count, the operators, the compiled level passes), is timed with
 ``time.process_time_ns`` around its function, inclusive of what it calls, over ``--solves`` warm solves of the
 same case after 100 untimed ones, and printed per solve in ms beside the whole solve timed without the clocks.
-The clocks themselves cost about a microsecond per timed call, so the phases add up to slightly more than
-the untimed solve.  One BLAS thread.
+The parts overlap the phases (they are inside them), so only the five phases add up to a solve.  The wrappers
+cost some time of their own per timed call: compare the solve timed with them and without.  One BLAS thread.
 
 ``--loads``: instead, a cold ``fdsolver solve`` of each case in a fresh process, with the CPU time of every
 compiled kernel loaded from numba's cache (``numba.core.caching.Cache.load_overload``, timed around each call)
