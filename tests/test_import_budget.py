@@ -164,16 +164,18 @@ def test_a_solve_loads_no_heavy_scipy_subpackage(tmp_path, text):
     assert not heavy, heavy
 
 
-#: values with units (pint) in a field between walls
+#: values with units in a field between walls, one of them (bohr) outside the table read without pint
+#: (fdsolver.input.quantities.EXACT_UNITS): pint converts it
 WITH_UNITS = ('title = "a well given with units (invented)"\nunits = "nm-meV"\nmass = 0.067\n'
-              '[[potential]]\nshape = "square"\ncenter = "0 nm"\nwidth = "60 angstrom"\ndepth = "0.2 eV"\n'
+              '[[potential]]\nshape = "square"\ncenter = "0 nm"\nwidth = "113.4 bohr"\ndepth = "0.2 eV"\n'
               '[[potential]]\nshape = "linear"\nfield = "15 kV/cm"\n'
               '[domain]\nboundary = "hard"\nleft = "-20 nm"\nright = "20 nm"\n')
 
 
 def test_values_with_units_load_pint_without_dask(tmp_path):
     """pint imports Dask when it is installed, to support Dask arrays of quantities (about 0.1 s of CPU,
-    measured); fdsolver converts plain numbers, so a solve of a case written with units loads pint and not Dask."""
+    measured); fdsolver converts plain numbers, so a solve of a case written with a unit pint converts loads pint
+    and not Dask."""
     import importlib.util
 
     assert importlib.util.find_spec("dask") and importlib.util.find_spec("pint")  # else the check proves nothing

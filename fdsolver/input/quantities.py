@@ -4,8 +4,7 @@ Any numeric value of a case may be a string holding a number and a unit.  It is 
 before the case is read, into the case's unit system (lengths in nm or bohr, energies in meV or
 hartree, masses in m_e, temperatures in K), using the dimension the key declares in the schema
 (:mod:`fdsolver.input.schema`) or the shape registry; the rest of fdsolver sees plain floats.  pint
-does the unit arithmetic and is imported only when a case holds a unit string (importing it costs
-about 1.5 s: it imports dask and scipy).
+does the unit arithmetic for every unit outside the table below, and is imported only when a case holds one.
 
 Conversions (SI values of the case units from the CODATA constants of :mod:`fdsolver.model.units`):
 
@@ -27,6 +26,16 @@ temperature        K, degC, ...
 A ``[params]`` entry may carry a unit too (``F = "20 kV/cm"``): its own unit says what it is.  Such a
 param keeps that unit for overrides: ``--set F=30``, ``load_case(path, F=30)`` and ``--vary F=0:50:11``
 are read in kV/cm, and a sweep's axis is labelled with it.
+
+Units defined exactly in SI (SI prefixes of the metre, joule, volt per metre, the angstrom, the electron volt
+through the exact elementary charge, the kelvin) and ``m_e`` (the electron mass of :mod:`fdsolver.model.units`)
+are read from a table of their own (:data:`EXACT_UNITS`) when the unit text is one of its entries and the key
+takes that dimension: no pint, whose import and registry cost a cold solve of ``cases/algaas_well.toml`` about
+0.25 s of CPU (``python scripts/bench_pairs.py OLD NEW algaas_well``, 7 same-minute pairs, 2026-12-03).  Every other unit, and every unit given where another dimension is wanted (a
+spectroscopic energy, a wrong dimension refused), goes through pint as before.  Each entry of the table agrees
+with pint's conversion to a few ulp (tests/test_units_table.py), and a value in the case's own unit comes back
+unchanged; ``m_e`` is the electron mass of :mod:`fdsolver.model.units` exactly, where pint's own CODATA value
+differs in the 10th digit.
 
 A case without ``units`` runs in nm-meV if it names a material or holds any value with a unit, else
 in Hartree atomic units (as before units were accepted); when plain numbers with a dimension were
@@ -55,6 +64,45 @@ SPOKEN = {LENGTH: "a length (e.g. nm, angstrom)", ENERGY: "an energy (e.g. meV, 
           STRENGTH: "an energy times a length (e.g. meV nm)", INVERSE_LENGTH: "an inverse length (e.g. 1/nm)",
           MASS: "a mass (e.g. m_e)", TEMPERATURE: "a temperature (e.g. K)", "1": "a pure number"}
 CARRIER_SIGN = {"electron": 1, "heavy_hole": -1, "light_hole": -1}
+
+#: an electric field (V/m): the carrier's potential-energy slope is +-e F (module table)
+ELECTRIC = "electric field"
+
+
+def _exact_units() -> dict[str, tuple[str, float]]:
+    """unit text -> (dimension, size of one unit in the SI unit of that dimension: m, J, J/m, J m, 1/m, kg, K, and
+    V/m for :data:`ELECTRIC`).  The sizes are products and quotients of the SI prefixes and the exact elementary
+    charge (SI 2019), formed as :mod:`fdsolver.model.units` forms its unit systems (meV = 1e-3 e J), so a value
+    in the case's own unit comes back unchanged ("100 meV" is 100 in nm-meV); ``m_e`` is the electron mass of
+    that module."""
+    from fdsolver.model.units import ELECTRON_MASS, ELEMENTARY_CHARGE
+
+    micro = ("u", "\u00b5", "\u03bc")  # u, micro sign, Greek mu
+    metre = {"m": 1.0, "cm": 1e-2, "mm": 1e-3, "nm": 1e-9, "pm": 1e-12, "angstrom": 1e-10, "\u00c5": 1e-10}
+    metre.update({f"{mu}m": 1e-6 for mu in micro})
+    joule = {"J": 1.0, "eV": ELEMENTARY_CHARGE, "meV": 1e-3 * ELEMENTARY_CHARGE, "keV": 1e3 * ELEMENTARY_CHARGE}
+    joule.update({f"{mu}eV": 1e-6 * ELEMENTARY_CHARGE for mu in micro})
+    volt_per_metre = {"V/m": 1.0, "kV/m": 1e3, "V/cm": 1e2, "kV/cm": 1e5, "MV/cm": 1e8, "V/um": 1e6, "V/nm": 1e9,
+                      "mV/nm": 1e6}
+    table: dict[str, tuple[str, float]] = {u: (LENGTH, f) for u, f in metre.items()}
+    table.update({u: (ENERGY, f) for u, f in joule.items()})
+    table.update({u: (ELECTRIC, f) for u, f in volt_per_metre.items()})
+    for e in ("meV", "eV"):
+        for x in ("nm", "angstrom"):
+            table[f"{e}/{x}"] = (FIELD, joule[e] / metre[x])
+            for joint in (" ", "*"):
+                table[f"{e}{joint}{x}"] = (STRENGTH, joule[e] * metre[x])
+    for x in ("m", "cm", "nm", "angstrom"):
+        table[f"1/{x}"] = (INVERSE_LENGTH, 1.0 / metre[x])
+    table["nm^-1"] = table["1/nm"]
+    table["m_e"] = (MASS, ELECTRON_MASS)
+    table["kg"] = (MASS, 1.0)
+    table["K"] = (TEMPERATURE, 1.0)
+    return table
+
+
+#: units read without pint (module docstring): unit text -> (dimension, size in SI)
+EXACT_UNITS = _exact_units()
 
 _NUMBER_AND_UNIT = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([^\d\s.+-].*?)\s*$")
 _REGISTRY = None
@@ -128,6 +176,9 @@ _SI_UNIT = {LENGTH: "m", ENERGY: "J", FIELD: "J/m", STRENGTH: "J*m", INVERSE_LEN
 
 def dimension_of_unit(unit: str) -> str | None:
     """Our dimension of a pint unit text ("kV/cm" -> "energy/length"), None if none of ours."""
+    exact = EXACT_UNITS.get(unit)
+    if exact is not None:
+        return FIELD if exact[0] == ELECTRIC else exact[0]
     q = _quantity(1.0, unit, None, None)
     for dim in (LENGTH, ENERGY, FIELD, STRENGTH, INVERSE_LENGTH, MASS, TEMPERATURE, "1"):
         if q.check(_dimensionality(dim)):
@@ -159,6 +210,34 @@ def _quantity(number: float, unit: str, file, key):
 def to_case_units(number: float, unit: str, dimension: str, system, carrier: str = "electron", *, file=None,
                   key=None) -> float:
     """``number unit`` in the case units of ``system`` for a key of ``dimension`` (module table)."""
+    size = _exact_size(unit, dimension, carrier)
+    if size is not None:  # one unit in the case unit first: a value in the case's own unit comes back unchanged
+        value = number * (size / _si_of(system)[dimension])
+    else:
+        value = float(_pint_si(number, unit, dimension, carrier, file, key)) / _si_of(system)[dimension]
+    if not math.isfinite(value):
+        raise CaseError(f"'{number:g} {unit}' is not a finite value", file=file, key=key)
+    return value
+
+
+def _exact_size(unit: str, dimension: str, carrier: str) -> float | None:
+    """One ``unit`` in SI from :data:`EXACT_UNITS` for a key of ``dimension``, or None where pint must decide
+    (another unit, or one of another dimension)."""
+    exact = EXACT_UNITS.get(unit)
+    if exact is None:
+        return None
+    kind, size = exact
+    if kind == dimension:
+        return size
+    if kind == ELECTRIC and dimension == FIELD:  # the carrier's potential-energy slope, +-e F
+        from fdsolver.model.units import ELEMENTARY_CHARGE
+
+        return size * ELEMENTARY_CHARGE * CARRIER_SIGN.get(carrier, 1)
+    return None
+
+
+def _pint_si(number: float, unit: str, dimension: str, carrier: str, file, key) -> float:
+    """``number unit`` in SI for a key of ``dimension``, by pint (any unit it knows; a refusal as a CaseError)."""
     pint = pint_module()
 
     q = _quantity(number, unit, file, key)
@@ -176,10 +255,7 @@ def to_case_units(number: float, unit: str, dimension: str, system, carrier: str
             si = q.to(_SI_UNIT[dimension]).magnitude
     except pint.errors.DimensionalityError:
         raise CaseError(f"'{number:g} {unit}' is not {SPOKEN.get(dimension, dimension)}", file=file, key=key) from None
-    value = float(si) / _si_of(system)[dimension]
-    if not math.isfinite(value):
-        raise CaseError(f"'{number:g} {unit}' is not a finite value", file=file, key=key)
-    return value
+    return si
 
 
 @dataclass
