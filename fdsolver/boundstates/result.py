@@ -131,14 +131,16 @@ def _potential_on(pot, x_all: np.ndarray, v_cells: np.ndarray | None = None) -> 
     """V at the nodes: its dual-cell average at interior nodes (as the operator sees it), the value at the ends.
     ``v_cells``: V on every cell where it is constant on each (the levels' cell values), instead of evaluating it
     on the cells again (the same numbers)."""
-    v_nodes = pot.value(x_all)
-    if x_all.size > 2:
-        if v_cells is None:
-            il, ir = pot.half_cell_integrals(x_all)
-        else:
-            il = ir = 0.5 * (x_all[1:] - x_all[:-1]) * v_cells
-        h = np.diff(x_all)
-        v_nodes[1:-1] = (ir[:-1] + il[1:]) / (0.5 * (h[:-1] + h[1:]))
+    if x_all.size <= 2:
+        return pot.value(x_all)
+    v_nodes = np.empty(x_all.size)
+    v_nodes[[0, -1]] = pot.value(x_all[[0, -1]])  # V is evaluated point by point: the ends' values alone
+    if v_cells is None:
+        il, ir = pot.half_cell_integrals(x_all)
+    else:
+        il = ir = 0.5 * (x_all[1:] - x_all[:-1]) * v_cells
+    h = np.diff(x_all)
+    v_nodes[1:-1] = (ir[:-1] + il[1:]) / (0.5 * (h[:-1] + h[1:]))
     return v_nodes
 
 
@@ -162,14 +164,25 @@ def _wall_zones(problem, box) -> list[tuple[int, float, float]]:
     return [(-1, box[0], float(feats[0])), (1, float(feats[-1]), box[1])]
 
 
-def _cell_overlaps(x_all: np.ndarray, intervals) -> np.ndarray:
-    """Length of each node's dual cell inside each of the ``intervals`` (lo, hi): one column per interval."""
+def _cell_overlaps(x_all: np.ndarray, intervals, out: np.ndarray | None = None) -> np.ndarray:
+    """Length of each node's dual cell inside each of the ``intervals`` (lo, hi): one column per interval
+    (written into ``out``, zero on entry, where given).
+
+    min(cell end, hi) - max(cell start, lo) on the nodes whose dual cells reach into the interval (the cells'
+    starts and ends both rise with the node, so they are one stretch, found by bisection); 0 elsewhere.
+    """
     bounds = np.asarray(intervals, dtype=float).reshape(-1, 2)
     h = np.diff(x_all)
     lo_cell = np.concatenate([[x_all[0]], x_all[1:] - 0.5 * h])
     hi_cell = np.concatenate([x_all[:-1] + 0.5 * h, [x_all[-1]]])
-    return np.clip(np.minimum(hi_cell[:, None], bounds[None, :, 1]) - np.maximum(lo_cell[:, None], bounds[None, :, 0]),
-                   0.0, None)
+    if out is None:
+        out = np.zeros((x_all.size, bounds.shape[0]))
+    first = np.searchsorted(hi_cell, bounds[:, 0], side="right")  # the first cell ending beyond lo
+    stop = np.searchsorted(lo_cell, bounds[:, 1], side="left")  # past the last cell starting before hi
+    for j, (i0, i1) in enumerate(zip(first.tolist(), stop.tolist())):
+        if i1 > i0:
+            out[i0:i1, j] = np.minimum(hi_cell[i0:i1], bounds[j, 1]) - np.maximum(lo_cell[i0:i1], bounds[j, 0])
+    return out
 
 
 def _cell_overlap(x_all: np.ndarray, lo: float, hi: float) -> np.ndarray:
@@ -246,8 +259,10 @@ def _observables(problem, box, run, conv: np.ndarray, index: np.ndarray, message
     # per node: weight, weight * x, weight * x^2 and each region's and wall zone's share of the node's cell;
     # one product with psi^2 gives every state's norm-weighted sums (psi^2 made in chunks: memory O(N) per state)
     x_ref = 0.5 * sum(pot.support())  # second moments about the structure's middle: no cancellation against <x>
-    columns = np.column_stack([w_all * x_all, w_all * (x_all - x_ref) ** 2,
-                               _cell_overlaps(x_all, [(lo, hi) for _, lo, hi in regions] + [(lo, hi) for _, lo, hi in zones])])
+    columns = np.zeros((x_all.size, 2 + len(regions) + len(zones)))
+    columns[:, 0] = w_all * x_all
+    columns[:, 1] = w_all * (x_all - x_ref) ** 2
+    _cell_overlaps(x_all, [(lo, hi) for _, lo, hi in regions] + [(lo, hi) for _, lo, hi in zones], columns[:, 2:])
     sums = np.empty((n, columns.shape[1]))
     for a in range(0, n, OBSERVABLE_CHUNK):
         sums[a : a + OBSERVABLE_CHUNK] = (psi[a : a + OBSERVABLE_CHUNK] ** 2) @ columns
