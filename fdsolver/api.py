@@ -160,7 +160,8 @@ def _run_on(executor, workers, cluster, scheduler, work):
 def sweep(case, vary: str | Sequence[str] = (), *, save_psi: bool = False, output=None, resume: bool = False,
           restart: bool = False, executor=None, workers: int | None = None, cluster: str | None = None,
           scheduler: str | None = None, memory_mb: float | None = None, chunk: int | None = None,
-          thresholds: bool = True, progress=None, before_write=None, action: str | None = None) -> xr.Dataset:
+          thresholds: bool = True, energies_only: bool = False, progress=None, before_write=None,
+          action: str | None = None) -> xr.Dataset:
     """Solve ``case`` at every point of the cartesian product of the ``vary`` axes (kind ``sweep``).
 
     ``vary``: ``"NAME=START:STOP:COUNT"`` (``:log`` for geometric spacing) or
@@ -171,7 +172,11 @@ def sweep(case, vary: str | Sequence[str] = (), *, save_psi: bool = False, outpu
     checkpoint).  ``executor``/``workers``/``cluster`` ("local:N")/``scheduler``
     (a Dask address) say where points run.  ``memory_mb`` is the budget of the
     result, ``chunk`` the points per task, ``thresholds`` whether binding
-    thresholds are located along a single swept param.  ``progress(n)`` is
+    thresholds are located along a single swept param.  ``energies_only`` keeps
+    what needs no wavefunction (energies, errors, convergence, parities, level
+    widths, splittings, counts) and leaves out <x>, the spreads, the regions'
+    shares, the hard-wall flags and the transitions: each point skips them
+    (refused with ``save_psi``).  ``progress(n)`` is
     called as points finish, ``before_write(ds)`` with the result before it is
     written (see :func:`fdsolver.scans.runner.run`).
     """
@@ -182,8 +187,9 @@ def sweep(case, vary: str | Sequence[str] = (), *, save_psi: bool = False, outpu
     _scan_checks(output, resume, restart, chunk)
     fixed = dict(case.overrides)
     axes = sweep_axes(_texts(vary), case)
-    spec = plan_sweep(case, axes, fixed, save_psi, memory_mb, chunk)
-    action = action or f"sweep {_where(case)} " + " ".join(f"--vary {a.text}" for a in axes)
+    spec = plan_sweep(case, axes, fixed, save_psi, memory_mb, chunk, energies_only)
+    action = action or (f"sweep {_where(case)} " + " ".join(f"--vary {a.text}" for a in axes)
+                        + (" --energies-only" if energies_only else ""))
     return _run_on(executor, workers, cluster, scheduler,
                    lambda ex: run_sweep(spec, ex, output=output, resume=resume, restart=restart, action=action,
                                         progress=progress, locate=thresholds, before_write=before_write))

@@ -27,14 +27,16 @@ def not_periodic(case: Case, instead: str | None = None) -> None:
                         file=case.path, key="domain.boundary")
 
 
-def solve_case(case: Case, notes: bool = True) -> Solution:
+def solve_case(case: Case, notes: bool = True, wavefunctions: bool = True) -> Solution:
     """Solve ``case`` and return the raw :class:`~fdsolver.boundstates.result.Solution`, with one BLAS thread
     while it runs (:mod:`fdsolver.numerics.threads`); a periodic case is refused (:func:`not_periodic`).
 
     With ``nonparabolicity = true`` in the case, each state is solved with the energy-dependent (Kane) mass
     (:func:`fdsolver.boundstates.nonparabolic.solve_energy_dependent`); the result then also carries each
     state's mass profile (``state_mass``).  ``notes``: put the case's own notes (unit system, lattice
-    mismatch) first among the messages.
+    mismatch) first among the messages.  ``wavefunctions=False``: a plain solve makes only the energies, errors,
+    indices, parities and splittings (:func:`fdsolver.boundstates.result.finish`; ``converged`` is the same);
+    the energy-dependent mass and quasi-bound states are solved in full either way.
 
     On the open line a potential that leaks (falls without bound at an end, or encloses a well by barriers above
     the continuum threshold) also gets its quasi-bound states, with widths and lifetimes
@@ -55,7 +57,7 @@ def solve_case(case: Case, notes: bool = True) -> Solution:
 
                 sol = solve_open_line(case.potential, case.domain, case.settings)
             else:
-                sol = solve_potential(case.potential, case.domain, case.settings)
+                sol = solve_potential(case.potential, case.domain, case.settings, wavefunctions)
     except CaseError as err:  # the core does not know the file; name it here
         raise err.located(file=case.path) from None
     if notes and getattr(case, "notes", ()):

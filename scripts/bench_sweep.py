@@ -14,9 +14,12 @@ same process: the first pays Dask's import, the second (a new cluster in the sam
 
 0. the machine's ceiling: a fixed pure-Python loop in 1 process and in 2 processes at once (no fdsolver code)
    gives the parallel speed-up the hardware can deliver at all; a shared machine reports less than 2.
-1. 10,000 points of cases/double_square.toml (d x depth, energies only), local processes (target < 20 s);
-   speed-up against the serial executor on the same points (target >= 1.8x of the ceiling; the serial run is
-   a 1,000-point subset, scaled);
+1. 10,000 points of cases/double_square.toml (d x depth, no wavefunctions kept), local processes (target < 20 s):
+   the full record (energies with <x>, spreads, shares and transitions at each point), and the same points
+   with ``energies_only`` (``--energies-only``: energies, errors, flags, parities and splittings only; the
+   issue's "energies only"), with the ratio of the two in each round; speed-up of the full record against the
+   serial executor on the same points (target >= 1.8x of the ceiling; the serial run is a 1,000-point subset,
+   scaled);
 2. the same points on a Dask LocalCluster with as many workers (target within 10 % of step 1), in a fresh
    process and again in that process;
 3. the 40 x 40 validity map of cases/impurity_pair.toml on local processes (target < 6 s);
@@ -151,6 +154,7 @@ def main() -> None:
         sub = [f"d=2.5:6:{side // 10 or 1}", f"depth=100:160:{side}"]
         n_sub = (side // 10 or 1) * side
         ceils, walls, cpus, serial_ms, speedups = [], [], [], [], []
+        e_walls, e_cpus, e_ratios = [], [], []
         d_walls, d_cpus, d_ratios, d2_walls, d2_cpus, d2_ratios = [], [], [], [], [], []
         for r in range(args.repeat):
             ceils.append(ceiling(w))
@@ -158,6 +162,12 @@ def main() -> None:
                                                                 executor="processes", workers=w, thresholds=False))
             walls.append(wall)
             cpus.append(cpu)
+            _, wall_e, cpu_e = timed(lambda r=r: fdsolver.sweep(case, vary, output=out / f"energies{r}.nc",
+                                                                executor="processes", workers=w, thresholds=False,
+                                                                energies_only=True))
+            e_walls.append(wall_e)
+            e_cpus.append(cpu_e)
+            e_ratios.append(wall_e / wall)
             n = ds.sizes["d"] * ds.sizes["depth"]
             _, wall_s, _ = timed(lambda: fdsolver.sweep(case, sub, executor="serial", thresholds=False))
             serial_ms.append(wall_s / n_sub * 1e3)
@@ -174,6 +184,9 @@ def main() -> None:
         print(f"0. machine ceiling: {w} CPU-bound processes run {ceil:.2f}x faster than one (pure-Python loop; median "
               f"of {len(ceils)} rounds, {min(ceils):.2f}-{max(ceils):.2f})")
         summary(f"1. sweep, {n} points, local x{w}", walls, cpus, 20.0 if n >= 10_000 else None)
+        summary("   the same, energies only (--energies-only)", e_walls, e_cpus, 20.0 if n >= 10_000 else None)
+        print(f"   energies only / full record = {statistics.median(e_ratios):.2f} (median of the rounds' wall ratios, "
+              f"{min(e_ratios):.2f}-{max(e_ratios):.2f})")
         print(f"   serial: a {n_sub}-point subset, {min(serial_ms):.2f} / {statistics.median(serial_ms):.2f} ms per "
               f"point (min / median of the rounds), scaled to {n} points for the speed-up")
         speedup = statistics.median(speedups)

@@ -194,8 +194,9 @@ def finish(problem, box, center, run, box_error: np.ndarray, messages: list, wav
     """The :class:`Solution` of the finest level (module docstring).
 
     Without ``wavefunctions`` only the energies, errors, indices, parities and splittings are made (a study
-    that needs nothing else): ``x``, ``psi`` and the node arrays are empty, the observables NaN, no state is
-    a hard-wall state, and the sign changes of psi are not checked.
+    that needs nothing else): ``x``, ``psi`` and the node arrays are empty, the observables NaN and no state is
+    a hard-wall state.  The sign changes of psi are checked either way (:func:`_check_signs`), so ``converged``
+    is the same.
     """
     states = run.states
     n = run.energy.size
@@ -206,6 +207,7 @@ def finish(problem, box, center, run, box_error: np.ndarray, messages: list, wav
     if wavefunctions:
         waves = _observables(problem, box, run, conv, index, messages)
     else:
+        _check_signs(_unfolded(run), index, conv, messages)
         empty, nothing = np.zeros(0), np.full(n, np.nan)
         waves = {"x": empty, "potential": empty, "mass": empty, "weights": empty, "psi": np.zeros((n, 0)),
                  "mean_x": nothing, "spread": nothing.copy(),
@@ -246,12 +248,9 @@ def _observables(problem, box, run, conv: np.ndarray, index: np.ndarray, message
     weights there, <x>, the spreads, each region's share, each state's home region and hard-wall side.  A state
     whose resolved wavefunction changes sign more often than its index allows is marked not converged (``conv``)
     with a note."""
-    states, pot = run.states, problem.potential
+    pot = problem.potential
     n = run.energy.size
-    x_all = _whole_nodes(run.sectors[0]) if run.sectors else np.asarray(run.nodes, dtype=float)
-    psi = np.zeros((n, x_all.size))
-    for k in range(n):
-        _unfold_into(psi[k], run.sectors[states.sector[k]], states.vectors[k])
+    x_all, psi = _unfolded(run)
     h = np.diff(x_all)
     w_all = np.concatenate([[0.0], 0.5 * (h[:-1] + h[1:]), [0.0]])
     regions = pot.regions()
@@ -273,18 +272,37 @@ def _observables(problem, box, run, conv: np.ndarray, index: np.ndarray, message
     wall = np.zeros(n, dtype=int)
     for j, (side, _, _) in enumerate(zones):
         wall[sums[:, 2 + len(regions) + j] > WALL_SHARE] = side
+    _check_signs((x_all, psi), index, conv, messages)
+    return {"x": x_all, "potential": _potential_on(pot, x_all, None if run.cells is None else run.cells[0]), "mass": pot.mass_at(x_all), "weights": w_all,
+            "psi": psi, "mean_x": mean_x, "spread": spread, "inside": inside, "home": home.astype(int), "wall": wall}
+
+
+def _unfolded(run) -> tuple[np.ndarray, np.ndarray]:
+    """(nodes of the whole finest grid, psi of every state on them: states x nodes, length^-1/2)."""
+    states = run.states
+    x_all = _whole_nodes(run.sectors[0]) if run.sectors else np.asarray(run.nodes, dtype=float)
+    psi = np.zeros((run.energy.size, x_all.size))
+    for k in range(run.energy.size):
+        _unfold_into(psi[k], run.sectors[states.sector[k]], states.vectors[k])
+    return x_all, psi
+
+
+def _check_signs(unfolded: tuple[np.ndarray, np.ndarray], index: np.ndarray, conv: np.ndarray, messages: list) -> None:
+    """Mark not converged (``conv``, with a note) every state whose resolved wavefunction changes sign more often
+    than its index allows: the grid does not separate it from a neighbouring state.  ``unfolded``: (nodes, psi)
+    of :func:`_unfolded`."""
+    x_all, psi = unfolded
     # rows of psi at a time whose |psi|, sign and masks stay small (a few 100 kB): large temporaries cost more in
     # first touches of fresh memory than the passes themselves
     step = max(1, SIGN_BLOCK // max(x_all.size, 1))
-    found = np.concatenate([_sign_changes(psi[a : a + step]) for a in range(0, n, step)] or [np.zeros(0, dtype=int)])
+    found = np.concatenate([_sign_changes(psi[a : a + step]) for a in range(0, psi.shape[0], step)]
+                           or [np.zeros(0, dtype=int)])
     for k in np.flatnonzero(found > index):
         conv[k] = False
         messages.append(
             f"state {index[k]}: its wavefunction changes sign {found[k]} times where it is resolved, more than its "
             f"index allows: the grid does not separate it from a neighbouring state"
         )
-    return {"x": x_all, "potential": _potential_on(pot, x_all, None if run.cells is None else run.cells[0]), "mass": pot.mass_at(x_all), "weights": w_all,
-            "psi": psi, "mean_x": mean_x, "spread": spread, "inside": inside, "home": home.astype(int), "wall": wall}
 
 
 def _levels_and_counts(problem, run) -> tuple[np.ndarray, int | None, int]:

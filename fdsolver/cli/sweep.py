@@ -19,6 +19,9 @@ def register(sub) -> None:
     p.add_argument("--set", action="append", metavar="NAME=VALUE", help="fix a [params] entry for the whole sweep (repeatable)")
     p.add_argument("-o", "--output", metavar="SWEEP.nc", help="result file (default: CASE_sweep.nc here); the checkpoint is SWEEP.nc.checkpoint")
     p.add_argument("--save-psi", action="store_true", help="also keep the wavefunctions, on one common x grid")
+    p.add_argument("--energies-only", action="store_true",
+                   help="keep only what needs no wavefunction (energies, errors, convergence, parities, widths, "
+                   "splittings): no <x>, spreads, region shares or transitions; each point costs less")
     p.add_argument("--executor", choices=("serial", "processes", "dask"), help="where points run (default: processes)")
     p.add_argument("-j", "--workers", type=int, metavar="N", help="worker processes (default: all cores)")
     p.add_argument("--cluster", metavar="local:N", help="start a Dask LocalCluster of N workers")
@@ -46,7 +49,7 @@ def register(sub) -> None:
     p.set_defaults(func=run_threshold_cli)
 
 
-SWEEP_OPTIONS = (("--vary", "vary"), ("--set", "set"), ("--save-psi", "save_psi"))
+SWEEP_OPTIONS = (("--vary", "vary"), ("--set", "set"), ("--save-psi", "save_psi"), ("--energies-only", "energies_only"))
 THRESHOLD_OPTIONS = (("--vary", "vary"), ("--set", "set"), ("--state", "state"), ("--all", "all"))
 
 
@@ -85,7 +88,8 @@ def run_sweep_cli(args) -> int:
             ds = sweep(case, args.vary, save_psi=args.save_psi, output=output, resume=args.resume,
                                 restart=args.restart, executor=args.executor, workers=args.workers, cluster=args.cluster,
                                 scheduler=args.scheduler, memory_mb=args.memory_mb, chunk=args.chunk,
-                                thresholds=not args.no_thresholds, progress=bar, before_write=before_write,
+                                thresholds=not args.no_thresholds, energies_only=args.energies_only,
+                                progress=bar, before_write=before_write,
                                 action=command("sweep", args, SWEEP_OPTIONS))
         commit_figure(figure[0] if figure else None, args.plot)
     except KeyboardInterrupt:

@@ -72,6 +72,7 @@ def decode(line: bytes) -> dict | None:
 LABELS = {
     "fixed": "the fixed params (--set)",
     "save_psi": "the wavefunction settings (--save-psi or [sweep] psi_points/psi_range)",
+    "energies_only": "the record (--energies-only)",
     "psi_x": "the wavefunction settings (--save-psi or [sweep] psi_points/psi_range)",
     "shape": "the replacement shape (--shape)",
     "tolerance": "the tolerance (--tolerance)",
@@ -106,6 +107,10 @@ def _axes_difference(old: dict, new: dict) -> str | None:
     return None
 
 
+def _said(identity: dict, key: str) -> str:
+    return repr(identity[key]) if key in identity else "not set"
+
+
 def difference(old: dict, new: dict) -> str | None:
     """The first way two scan identities differ, in words (None if they agree)."""
     if old.get("study", "sweep") != new.get("study", "sweep"):
@@ -118,10 +123,11 @@ def difference(old: dict, new: dict) -> str | None:
     why = _axes_difference(old, new)
     if why:
         return why
-    for key in new:
-        if key in ("case_text", "case_tables", "fixed", "axes", "fdsolver", "study") or old.get(key) == new[key]:
+    for key in [*new, *(k for k in old if k not in new)]:  # a key either side may leave out (a default)
+        if key in ("case_text", "case_tables", "fixed", "axes", "fdsolver", "study") or old.get(key) == new.get(key):
             continue
-        return f"{LABELS.get(key, 'the ' + key.replace('_', ' '))} differ: checkpoint {old.get(key)!r}, this run {new[key]!r}"[:400]
+        return (f"{LABELS.get(key, 'the ' + key.replace('_', ' '))} differ: checkpoint {_said(old, key)}, "
+                f"this run {_said(new, key)}")[:400]
     if old.get("fdsolver") != new["fdsolver"]:
         return f"it was written by fdsolver {old.get('fdsolver')}, this is {new['fdsolver']}"
     return None

@@ -66,6 +66,8 @@ class SweepSpec(OnAxes):
     save_psi: bool = False
     psi_x: np.ndarray | None = None
     chunk: int | None = None
+    #: keep only what needs no wavefunction: energies, errors, convergence, parities, widths, splittings, counts
+    energies_only: bool = False
     key: str = field(default="", compare=False)
     #: the memory budget of the result (bytes): records that would grow it beyond are refused
     budget_bytes: int = field(default=1000 * 2**20, compare=False)
@@ -78,7 +80,7 @@ class SweepSpec(OnAxes):
         """JSON-able description compared on resume (exact float values)."""
         from fdsolver._version import __version__
 
-        return {
+        out = {
             "fdsolver": __version__,
             "case_text": self.case_text,
             "case_tables": self.tables,
@@ -87,6 +89,9 @@ class SweepSpec(OnAxes):
             "save_psi": bool(self.save_psi),
             "psi_x": None if self.psi_x is None else [float(v) for v in self.psi_x],
         }
+        if self.energies_only:  # named only where set: a full sweep's identity is what it always was
+            out["energies_only"] = True
+        return out
 
     def solve_points(self, base, indices) -> dict:
         return solve_points(self, base, indices)
@@ -130,8 +135,15 @@ def _psi_range(case, table, file) -> tuple[float, float] | None:
     return float(rng[0]), float(rng[1])
 
 
-def plan_sweep(case, axes, fixed=None, save_psi=False, memory_mb=None, chunk=None) -> SweepSpec:
-    """Check a sweep before any work: its settings, its size (points and memory), the corner points (up to 256)."""
+def plan_sweep(case, axes, fixed=None, save_psi=False, memory_mb=None, chunk=None, energies_only=False) -> SweepSpec:
+    """Check a sweep before any work: its settings, its size (points and memory), the corner points (up to 256).
+
+    ``energies_only``: keep only what needs no wavefunction (:attr:`SweepSpec.energies_only`); it keeps no psi, so
+    it is refused with ``save_psi``.  (The memory count is the full record's either way: an upper bound.)
+    """
+    if energies_only and save_psi:
+        raise CaseError("an energies-only sweep keeps no wavefunctions: drop --save-psi or --energies-only",
+                        file=case.path, key="--energies-only")
     fixed = {k: v for k, v in (fixed or {}).items() if k not in {a.name for a in axes}}  # a swept param is not fixed
     table = case.data.get("sweep") or {}
     declared_units(case)  # every [sweep] units entry a param and a UDUNITS string
@@ -172,7 +184,7 @@ def plan_sweep(case, axes, fixed=None, save_psi=False, memory_mb=None, chunk=Non
         else:
             psi_x = np.linspace(rng[0], rng[1], n_x)
     spec = SweepSpec(case.text, case.path, dict(case.tables), fixed, tuple(axes), bool(save_psi), psi_x, chunk,
-                     budget_bytes=int(budget * 2**20))
+                     bool(energies_only), budget_bytes=int(budget * 2**20))
     key = hashlib.sha256(json.dumps(spec.identity(), sort_keys=True).encode()).hexdigest()
     return SweepSpec(**{**spec.__dict__, "key": key})
 
@@ -238,8 +250,8 @@ def solve_points(spec: SweepSpec, base, indices) -> dict:
         where = ", ".join(f"{k} = {v:.10g}" for k, v in point.items())
         try:
             case = base.with_params(**{**spec.fixed, **point})
-            sol = solve_case(case, notes=False)
-            tr = transitions_of(case.potential, sol, case.units, refine=False)
+            sol = solve_case(case, notes=False, wavefunctions=not spec.energies_only)
+            tr = None if spec.energies_only else transitions_of(case.potential, sol, case.units, refine=False)
         except CaseError as err:
             messages.append([int(flat), f"at {where}: {err}"])
             continue
@@ -257,16 +269,18 @@ def solve_points(spec: SweepSpec, base, indices) -> dict:
         rows["error"].append(sol.energy_error)
         rows["converged"].append(sol.converged.astype(np.int8))
         rows["parity"].append(sol.parity.astype(np.int8))
-        rows["mean_x"].append(sol.mean_x)
-        rows["spread"].append(sol.spread)
-        rows["wall"].append(np.asarray(sol.wall, dtype=np.int8))
-        rows["inside"].append(np.asarray(sol.inside, dtype=float).reshape(sol.energy.size, n_regions))
-        for key, name in (("dipole", "dipole"), ("f", "oscillator_strength"), ("f_err", "oscillator_strength_error")):
-            block = np.full((sol.energy.size, TRANSITION_STATES), np.nan)
-            if tr is not None:
-                low = np.flatnonzero(labels < TRANSITION_STATES)
-                block[:, labels[low]] = np.asarray(getattr(tr, name))[:, low]
-            rows[key].append(block)
+        if not spec.energies_only:
+            rows["mean_x"].append(sol.mean_x)
+            rows["spread"].append(sol.spread)
+            rows["wall"].append(np.asarray(sol.wall, dtype=np.int8))
+            rows["inside"].append(np.asarray(sol.inside, dtype=float).reshape(sol.energy.size, n_regions))
+            for key, name in (("dipole", "dipole"), ("f", "oscillator_strength"),
+                              ("f_err", "oscillator_strength_error")):
+                block = np.full((sol.energy.size, TRANSITION_STATES), np.nan)
+                if tr is not None:
+                    low = np.flatnonzero(labels < TRANSITION_STATES)
+                    block[:, labels[low]] = np.asarray(getattr(tr, name))[:, low]
+                rows[key].append(block)
         if tr is not None:
             out["ref_mass"][j] = tr.reference_mass
         # quasi-bound states (a field, or a well between barriers above the threshold) carry their widths
@@ -287,7 +301,7 @@ def solve_points(spec: SweepSpec, base, indices) -> dict:
     widths = {"psi": psi_x.size, "inside": n_regions, "dipole": TRANSITION_STATES, "f": TRANSITION_STATES,
               "f_err": TRANSITION_STATES}
     for k, parts in rows.items():
-        if k in ("psi", "psi_norm") and not spec.save_psi:
+        if k in ("psi", "psi_norm") and not spec.save_psi or k in WAVE_ROWS and spec.energies_only:
             continue
         if parts:
             out[k] = np.concatenate(parts)
@@ -295,6 +309,10 @@ def solve_points(spec: SweepSpec, base, indices) -> dict:
             out[k] = np.zeros((0, widths[k]) if k in widths else 0, dtype=empty.get(k, np.float64))
     out["messages"] = messages
     return out
+
+
+#: the per-state rows of a chunk record that need the wavefunctions (left out of an energies-only sweep)
+WAVE_ROWS = ("mean_x", "spread", "wall", "inside", "dipole", "f", "f_err")
 
 
 # ------------------------------------------------------------- assembly
@@ -311,12 +329,15 @@ class Results(PointNotes):
         self.width, self.log10_width = np.full((n, s), np.nan), np.full((n, s), np.nan)
         self.psi = np.full((n, s, spec.psi_x.size), np.nan) if spec.save_psi and spec.psi_x is not None else None
         self.psi_norm = np.full((n, s), np.nan) if self.psi is not None else None
-        self.mean_x, self.spread = np.full((n, s), np.nan), np.full((n, s), np.nan)
-        self.wall = np.full((n, s), -2, np.int8)
         self.regions = tuple(r[0] for r in base_case(spec).potential.regions())
-        self.inside = np.full((n, s, len(self.regions)), np.nan)
-        t = (n, s, TRANSITION_STATES)
-        self.dipole, self.f, self.f_err = np.full(t, np.nan), np.full(t, np.nan), np.full(t, np.nan)
+        # what needs the wavefunctions (None in an energies-only sweep)
+        self.mean_x = self.spread = self.wall = self.inside = self.dipole = self.f = self.f_err = None
+        if not spec.energies_only:
+            self.mean_x, self.spread = np.full((n, s), np.nan), np.full((n, s), np.nan)
+            self.wall = np.full((n, s), -2, np.int8)
+            self.inside = np.full((n, s, len(self.regions)), np.nan)
+            t = (n, s, TRANSITION_STATES)
+            self.dipole, self.f, self.f_err = np.full(t, np.nan), np.full(t, np.nan), np.full(t, np.nan)
         self.ref_mass = np.full(n, np.nan)
         self.solved = np.zeros(n, np.int8)
         self.bound = np.full(n, -1, np.int32)
@@ -336,9 +357,10 @@ class Results(PointNotes):
         pad = lambda a, fill: np.concatenate([a, np.full(a.shape[:1] + (extra,) + a.shape[2:], fill, a.dtype)], axis=1)  # noqa: E731
         self.energy, self.error = pad(self.energy, np.nan), pad(self.error, np.nan)
         self.converged, self.parity = pad(self.converged, -1), pad(self.parity, 0)
-        self.mean_x, self.spread, self.wall = pad(self.mean_x, np.nan), pad(self.spread, np.nan), pad(self.wall, -2)
-        self.inside = pad(self.inside, np.nan)
-        self.dipole, self.f, self.f_err = pad(self.dipole, np.nan), pad(self.f, np.nan), pad(self.f_err, np.nan)
+        if not self.spec.energies_only:
+            self.mean_x, self.spread, self.wall = pad(self.mean_x, np.nan), pad(self.spread, np.nan), pad(self.wall, -2)
+            self.inside = pad(self.inside, np.nan)
+            self.dipole, self.f, self.f_err = pad(self.dipole, np.nan), pad(self.f, np.nan), pad(self.f_err, np.nan)
         self.width, self.log10_width = pad(self.width, np.nan), pad(self.log10_width, np.nan)
         if self.psi is not None:
             self.psi = pad(self.psi, np.nan)
@@ -373,7 +395,7 @@ class Results(PointNotes):
             for name, target in (("mean_x", self.mean_x), ("spread", self.spread), ("wall", self.wall),
                                  ("inside", self.inside), ("dipole", self.dipole), ("f", self.f), ("f_err", self.f_err),
                                  ("width", self.width), ("log10_width", self.log10_width)):
-                if name in rec:
+                if name in rec and target is not None:
                     target[rows, labels] = np.asarray(rec[name])[sel]
             if self.psi is not None:
                 self.psi[rows, labels] = np.asarray(rec["psi"])[sel]
@@ -419,6 +441,8 @@ class Results(PointNotes):
             out["x"] = spec.psi_x
             out["psi"] = self.psi[:, :s].reshape(shape + (s, self.psi.shape[2]))
             out["psi_norm"] = grid(self.psi_norm)
+        if spec.energies_only:  # nothing that needs the wavefunctions was made
+            return out
         out["mean_x"], out["spread"], out["wall_state"] = grid(self.mean_x), grid(self.spread), grid(self.wall)
         if self.regions:
             out["region"] = np.arange(len(self.regions))
@@ -481,7 +505,8 @@ def run_sweep(spec: SweepSpec, executor, *, output=None, resume=False, restart=F
 
     base = base_case(spec)
     case = base.with_params(**spec.fixed) if spec.fixed else base
-    action = action or f"fdsolver sweep {spec.case_path or case.title} " + " ".join(f"--vary {a.text}" for a in spec.axes)
+    action = action or (f"fdsolver sweep {spec.case_path or case.title} " + " ".join(f"--vary {a.text}" for a in spec.axes)
+                        + (" --energies-only" if spec.energies_only else ""))
 
     def finish(results: Results, history: str):
         found = locate_along(spec, results.bound) if locate else []
