@@ -98,3 +98,19 @@ def test_a_case_in_table_units_solves_as_its_plain_twin():
     b = fdsolver.solve_case(fdsolver.case_from_text(plain))
     assert a.energy.size == b.energy.size > 0
     np.testing.assert_allclose(a.energy, b.energy, rtol=1e-12, atol=0.0)
+
+
+@pytest.mark.parametrize("key, value", [("band_gap", "1500 meV"), ("electron_mass", "0.07 m_e"),
+                                        ("lattice_constant", "0.565 nm"), ("varshni_beta", "204 K"),
+                                        ("spin_orbit", "0.34 eV")])
+def test_material_overrides_in_table_units_agree_with_pint(key, value):
+    from fdsolver.input.quantities import _library_overrides, _quantity
+    from fdsolver.model.materials.parameters import MaterialParameters
+
+    units = MaterialParameters.UNITS
+    ours = _library_overrides({key: value}, units, None, "layer[1].overrides")[key]
+    number, unit = value.split()
+    target = {"m_e": "electron_mass"}.get(units[key], units[key])
+    theirs = float(_quantity(float(number), unit, None, "k").to(target).magnitude)
+    rtol = 1e-9 if "m_e" in value else 4 * np.finfo(float).eps  # pint's own CODATA electron mass (docstring)
+    assert ours == pytest.approx(theirs, rel=rtol, abs=0.0)

@@ -437,11 +437,16 @@ def _override(value, unit: str, dim: str, system, carrier: str, key: str):
 
 
 def _library_overrides(table: Mapping, units: Mapping[str, str], file, where: str) -> dict:
-    """Material parameter overrides with units converted to the library's (eV, m_e, angstrom, K)."""
+    """Material parameter overrides with units converted to the library's (eV, m_e, angstrom, K): from
+    :data:`EXACT_UNITS` where both units are in it, by pint otherwise."""
     out = dict(table)
     for k, v in table.items():
         q = split_quantity(v)
         if q is None or k not in units:
+            continue
+        own, lib = EXACT_UNITS.get(q[1]), EXACT_UNITS.get(units[k])
+        if own is not None and lib is not None and own[0] == lib[0]:  # both in the table: no pint
+            out[k] = q[0] * (own[1] / lib[1])
             continue
         target = {"m_e": "electron_mass", "1": "dimensionless"}.get(units[k], units[k])
         pint = pint_module()
