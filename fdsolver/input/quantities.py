@@ -31,11 +31,11 @@ Units defined exactly in SI (SI prefixes of the metre, joule, volt per metre, th
 through the exact elementary charge, the kelvin) and ``m_e`` (the electron mass of :mod:`fdsolver.model.units`)
 are read from a table of their own (:data:`EXACT_UNITS`) when the unit text is one of its entries and the key
 takes that dimension: no pint, whose import and registry cost a cold solve of ``cases/algaas_well.toml`` about
-0.25 s of CPU (``python scripts/bench_pairs.py OLD NEW algaas_well``, 7 same-minute pairs, 2026-12-03).  Every other unit, and every unit given where another dimension is wanted (a
-spectroscopic energy, a wrong dimension refused), goes through pint as before.  Each entry of the table agrees
-with pint's conversion to a few ulp (tests/test_units_table.py), and a value in the case's own unit comes back
-unchanged; ``m_e`` is the electron mass of :mod:`fdsolver.model.units` exactly, where pint's own CODATA value
-differs in the 10th digit.
+0.25 s of CPU (``python scripts/bench_pairs.py OLD NEW algaas_well``, 7 same-minute pairs, 2026-12-03).  Every
+other unit, and every unit given where another dimension is wanted (a spectroscopic energy, a wrong dimension
+refused), goes through pint as before.  Each entry of the table agrees with pint's conversion to a few ulp
+(tests/test_units_table.py), and a value in the case's own unit comes back unchanged; ``m_e`` is the electron
+mass of :mod:`fdsolver.model.units` exactly, where pint's own CODATA value differs in the 10th digit.
 
 A case without ``units`` runs in nm-meV if it names a material or holds any value with a unit, else
 in Hartree atomic units (as before units were accepted); when plain numbers with a dimension were

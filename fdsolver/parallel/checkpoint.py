@@ -72,7 +72,7 @@ def decode(line: bytes) -> dict | None:
 LABELS = {
     "fixed": "the fixed params (--set)",
     "save_psi": "the wavefunction settings (--save-psi or [sweep] psi_points/psi_range)",
-    "energies_only": "the record (--energies-only)",
+    "energies_only": "the records kept (--energies-only)",
     "psi_x": "the wavefunction settings (--save-psi or [sweep] psi_points/psi_range)",
     "shape": "the replacement shape (--shape)",
     "tolerance": "the tolerance (--tolerance)",
