@@ -35,7 +35,8 @@ takes that dimension: no pint, whose import and registry cost a cold solve of ``
 other unit, and every unit given where another dimension is wanted (a spectroscopic energy, a wrong dimension
 refused), goes through pint as before.  Each entry of the table agrees with pint's conversion to a few ulp
 (tests/test_units_table.py), and a value in the case's own unit comes back unchanged; ``m_e`` is the electron
-mass of :mod:`fdsolver.model.units` exactly, where pint's own CODATA value differs in the 10th digit.
+mass of :mod:`fdsolver.model.units` (CODATA 2022) exactly, whatever CODATA release the installed pint carries
+(pint 0.25.3, installed here, carries the same value).
 
 A case without ``units`` runs in nm-meV if it names a material or holds any value with a unit, else
 in Hartree atomic units (as before units were accepted); when plain numbers with a dimension were
