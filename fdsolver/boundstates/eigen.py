@@ -182,19 +182,21 @@ def _rayleigh_ritz(op: Operator, vectors: np.ndarray, first: np.ndarray) -> None
 
 
 def solve_grid(sectors, e_lo: float | None, e_hi: float, max_states: int, floor: float,
-               guess: tuple | None = None, vectors: bool = True) -> GridStates:
+               guess: tuple | None = None, vectors: bool = True, tried: bool = False) -> GridStates:
     """The lowest states with e_lo <= E < e_hi (at most ``max_states``) of the sectors (module docstring).
 
     ``floor`` is the smallest energy scale that counts (for relative
     comparisons near E = 0).  ``guess``, predicted energies and sectors (two arrays) of
     exactly these states from a coarser grid, lets the eigenvalues be found
     by inverse iteration instead of bisection; the prediction is proved by
-    Sturm counts and replaced by bisection where the proof fails.  Without
+    Sturm counts and replaced by bisection where the proof fails (``tried``: the
+    one-call pass :func:`_predicted_grid` already failed on these sectors, so
+    the general path starts at once).  Without
     ``vectors`` the energies are the bisection values (relative accuracy
     :data:`BISECTION_RTOL`), with empty vectors and zero round-off floors: a
     coarse solve that only locates the states.
     """
-    if guess is not None:
+    if guess is not None and not tried:
         fast = _predicted_grid(sectors, e_lo, e_hi, max_states, floor, guess)
         if fast is not None:
             return fast
@@ -277,10 +279,37 @@ def _predicted_grid(sectors, e_lo, e_hi: float, max_states: int, floor: float, g
         INVERSE_STEPS, RESIDUAL_FACTOR, QUOTIENT_ULPS, EPS)
     if status != 0:
         return None
-    rows = (v0, v1)
-    parity = np.array([s.parity for s in sectors], dtype=int)[sec]
+    return _states_of(sec, en, rounding, row, count_below, first_index, (v0, v1), [s.parity for s in sectors])
+
+
+def _states_of(sec, en, rounding, row, count_below: int, first_index: int, rows, parities) -> GridStates:
+    """GridStates from a compiled pass's arrays (:func:`fdsolver.numerics.kernels.predicted_grid`)."""
+    parity = np.array(parities, dtype=int)[sec]
     return GridStates(en, first_index + np.arange(en.size), sec, parity,
                       tuple(rows[s][r] for s, r in zip(sec.tolist(), row.tolist())), rounding, count_below, first_index)
+
+
+def constant_level(base: np.ndarray, cells: tuple, level: int, center: float | None, potential, shift: float,
+                   e_lo, e_hi: float, max_states: int, floor: float, guess) -> GridStates | None:
+    """The states of level ``level`` of ``base`` for a potential constant on every base cell (``cells``: its V and
+    m per base cell, :func:`fdsolver.numerics.operator.cell_constants`), from the predicted energies ``guess``,
+    in one compiled call (:func:`fdsolver.numerics.kernels.constant_level`): the operators of
+    :func:`fdsolver.boundstates.levels.sectors_on` on ``fdsolver.numerics.grid.refine(base, level)`` and the
+    states :func:`solve_grid` finds from the guess, without building the operators in Python.  None where the
+    general path must decide (:func:`_predicted_grid`).
+    """
+    energy, sector = guess
+    terms = potential.point_terms()
+    pos = np.array([p for p, _ in terms], dtype=float)
+    alpha = np.array([a for _, a in terms], dtype=float)
+    status, en, sec, rounding, row, count_below, first_index, v0, v1 = kernels.constant_level(
+        base, cells[0], cells[1], int(level), center is not None, 0.0 if center is None else float(center),
+        float(potential.hbar2_2me), float(shift), pos, alpha, np.ascontiguousarray(energy, dtype=float),
+        np.ascontiguousarray(sector, dtype=np.int64), e_lo is not None, 0.0 if e_lo is None else float(e_lo),
+        float(e_hi), int(max_states), float(floor), CLUSTER_RTOL, INVERSE_STEPS, RESIDUAL_FACTOR, QUOTIENT_ULPS, EPS)
+    if status != 0:
+        return None
+    return _states_of(sec, en, rounding, row, count_below, first_index, (v0, v1), (1, -1) if center is not None else (0,))
 
 
 def _predicted(guess, n_sectors: int, n: int):

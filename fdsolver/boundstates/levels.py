@@ -26,7 +26,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fdsolver.boundstates.eigen import GridStates, Sector, solve_grid
+from fdsolver.boundstates.eigen import GridStates, Sector, constant_level, solve_grid
 from fdsolver.boundstates.problem import Problem
 from fdsolver.numerics.grid import refine
 from fdsolver.numerics.operator import assemble, cell_constants, mirror_halves
@@ -51,11 +51,12 @@ def sectors_on(problem: Problem, nodes: np.ndarray, center: float | None, cells=
 
 
 def solve_nodes(problem: Problem, nodes: np.ndarray, center: float | None, guess=None,
-                vectors: bool = True, cells=None) -> tuple[list[Sector], GridStates]:
-    """The states of ``problem`` on one grid (energies only without ``vectors``: :func:`solve_grid`)."""
+                vectors: bool = True, cells=None, tried: bool = False) -> tuple[list[Sector], GridStates]:
+    """The states of ``problem`` on one grid (energies only without ``vectors``: :func:`solve_grid`; ``tried``:
+    the one-call pass from ``guess`` already failed on this grid)."""
     sectors = sectors_on(problem, nodes, center, cells)
     s = problem.settings
-    states = solve_grid(sectors, problem.e_lo, problem.e_hi, s.max_states, problem.floor, guess, vectors)
+    states = solve_grid(sectors, problem.e_lo, problem.e_hi, s.max_states, problem.floor, guess, vectors, tried)
     return sectors, states
 
 
@@ -77,6 +78,11 @@ class LevelRun:
     roundoff_limited: np.ndarray  # states whose next level would be limited by round-off
     base: np.ndarray | None = None  # the base grid the levels refine
     cells: tuple | None = None  # (V, m) on every cell of the finest level where each cell sees one value, else None
+
+
+def _cells_of(constant, level: int):
+    """V and m on every cell of level ``level`` (each base cell's values repeated), or None."""
+    return None if constant is None else (np.repeat(constant[0], 2**level), np.repeat(constant[1], 2**level))
 
 
 def _prediction(level_e: list, sectors: np.ndarray):
@@ -131,7 +137,6 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
     judged = -1  # the level whose states ``limited`` describes
     vanished: list[tuple[int, int, int]] = []  # (first, last, nodes) of states lost on a finer grid
     constant = cell_constants(problem.potential, base)  # V and m per base cell, where each cell sees one value
-    cells_last = None  # the cell values of the last level solved
     for level in range(settings.max_levels):
         size = (base.size - 1) * 2**level + 1
         if size > problem.max_nodes(center is not None):
@@ -144,17 +149,21 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
             )
             break
         guess = _prediction(level_e, states.sector) if states is not None else first_guess
-        grid = refine(base, level)
-        cells = None if constant is None else (np.repeat(constant[0], 2**level), np.repeat(constant[1], 2**level))
-        sectors_k, st_k = solve_nodes(problem, grid, center, guess, cells=cells)
-        cells_last = cells
+        st_k = grid = sectors_k = None  # a constant level's grid and operators are built after the loop, if finest
+        if constant is not None and guess is not None:
+            st_k = constant_level(base, constant, level, center, problem.potential, problem.reference, problem.e_lo,
+                                  problem.e_hi, settings.max_states, problem.floor, guess)
+        if st_k is None:
+            grid = refine(base, level)
+            sectors_k, st_k = solve_nodes(problem, grid, center, guess, cells=_cells_of(constant, level),
+                                          tried=constant is not None and guess is not None)
         below = st_k.first_index - states.first_index if states is not None else 0
         if n_expected is not None and st_k.size < n_expected and below >= 0:
             # fewer states on the finer grid: those that sank below an energy window's foot left it (no note),
             # the top one(s) rose out of the window and are not resolved; the others keep their levels, so each
             # row keeps the states of the same global indices
             if below + st_k.size < n_expected:
-                vanished.append((st_k.first_index + st_k.size, states.first_index + n_expected - 1, grid.size))
+                vanished.append((st_k.first_index + st_k.size, states.first_index + n_expected - 1, size))
             level_e = [row[below: below + st_k.size] for row in level_e]
             table = Romberg()
             for row in level_e:
@@ -165,7 +174,7 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
         states, sectors, nodes, last = st_k, sectors_k, grid, level
         table.add(states.energy)
         level_e.append(states.energy)
-        level_n.append(grid.size)
+        level_n.append(size)
         if states.size == 0:
             if level >= 1:
                 break
@@ -175,6 +184,10 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
             judged = level
             if np.all(done) or np.all(done | limited):
                 break
+    cells_last = _cells_of(constant, last)
+    if states is not None and sectors is None:  # the finest level came from one compiled call: its operators
+        nodes = refine(base, last)
+        sectors = sectors_on(problem, nodes, center, cells_last)
     if states is None or states.size == 0:
         empty = np.empty(0)
         return LevelRun(empty, empty, empty, empty, np.zeros(0, bool),

@@ -27,6 +27,8 @@
   (:mod:`fdsolver.numerics.operator`) in one pass over the cells; :func:`even_half` its even mirror sector;
   both through :func:`symmetric_form`, the one formula of T's diagonal and off-diagonal.
 * :func:`refine_nodes` - nested refinement of a grid (every cell split in k).
+* :func:`constant_level` - one nested level of a potential constant on every base cell: refinement,
+  assembly (point terms, mirror halves) and :func:`predicted_grid` in one call.
 * :func:`decay_reach` - where the WKB decay integral along a walk first reaches a budget (the box's ends).
 
 Numba is used here because these loops are sequential recurrences that numpy
@@ -1112,3 +1114,66 @@ def decay_reach(x, v, m, c, e_top, budget):
         if total >= budget:
             return i
     return -1
+
+
+@njit
+def constant_level(base, v_cell, m_cell, level, mirror, center, c, shift, pos, alpha, guess_e, guess_s, has_lo,
+                   e_lo, e_hi, max_states, floor, cluster_rtol, steps, residual_factor, ulps, eps):
+    """One nested level of a potential constant on every base cell, assembled and solved in one compiled call.
+
+    The grid is ``base`` with every cell split into 2^``level`` (:func:`refine_nodes`); every sub-cell takes
+    its base cell's V (``v_cell``, energy unit) and m (``m_cell``, m_e); ``c`` = hbar^2/(2 m_e) in case units;
+    point terms of strength ``alpha`` at ``pos`` (length unit) sit on their nearest unknown.  With ``mirror``
+    the operator is assembled on the cells right of ``center`` and the one left of it, and split into its even
+    and odd halves.  The operators are exactly those of :func:`fdsolver.numerics.operator.assemble` (with
+    ``cells``) and :func:`fdsolver.numerics.operator.mirror_halves` (the same floating-point operations in the
+    same order), and the states those of :func:`predicted_grid` from the guess (``guess_e``, ``guess_s``).
+    Returns :func:`predicted_grid`'s tuple; status 1 (the general path decides, and says what is wrong) also
+    where the nodes do not increase, a dual-cell integral is not finite or a point term is off its node.  O(N)
+    per state.
+    """
+    nodes = refine_nodes(base, 2**level) if level > 0 else base
+    reps = 2**level
+    first = 0
+    if mirror:
+        first = np.searchsorted(nodes, center) - 1
+    sub = nodes[first:]
+    ncell = sub.shape[0] - 1
+    mass = np.empty(ncell)
+    half = np.empty(ncell)
+    for j in range(ncell):
+        src = (first + j) // reps
+        mass[j] = m_cell[src]
+        vj = v_cell[src] - shift if shift != 0.0 else v_cell[src]
+        half[j] = 0.5 * (sub[j + 1] - sub[j]) * vj
+    a, w, vw, v, d, e, ok = flux_operator(sub, mass, half, half, c, shift, False)
+    n = w.shape[0]
+    fail = (1, np.empty(0), np.empty(0, np.int64), np.empty(0), np.empty(0, np.int64), 0, 0,
+            np.empty((0, n)), np.empty((0, n)))
+    if not ok or n < 2:
+        return fail
+    for i in range(n):
+        if not math.isfinite(vw[i]):
+            return fail
+    if pos.shape[0]:
+        x = sub[1:-1]
+        lo_x = x[0] - 1e-12 * abs(x[0])
+        hi_x = x[n - 1] + 1e-12 * abs(x[n - 1])
+        span = sub[ncell] - sub[0]
+        for p in range(pos.shape[0]):
+            q = pos[p]
+            if not (q >= lo_x and q <= hi_x):
+                continue
+            i = min(max(np.searchsorted(x, q), 0), n - 1)
+            if i > 0 and abs(x[i - 1] - q) < abs(x[i] - q):
+                i -= 1
+            if abs(x[i] - q) > 1e-9 * max(1.0, abs(q)) + 1e-12 * span:
+                return fail
+            vw[i] -= alpha[p]
+            d[i] = (a[i] + a[i + 1] + vw[i]) / w[i]
+    if mirror:
+        a0, w0, vw0, d0, e0 = even_half(a, w, vw, 0)
+        return predicted_grid(d0, e0, a0, vw0, w0, d[1:], e[1:], a[1:], vw[1:], w[1:], True, guess_e, guess_s,
+                              has_lo, e_lo, e_hi, max_states, floor, cluster_rtol, steps, residual_factor, ulps, eps)
+    return predicted_grid(d, e, a, vw, w, d, e, a, vw, w, False, guess_e, guess_s, has_lo, e_lo, e_hi, max_states,
+                          floor, cluster_rtol, steps, residual_factor, ulps, eps)
