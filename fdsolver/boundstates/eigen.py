@@ -289,19 +289,24 @@ def _states_of(sec, en, rounding, row, count_below: int, first_index: int, rows,
                       tuple(rows[s][r] for s, r in zip(sec.tolist(), row.tolist())), rounding, count_below, first_index)
 
 
+def point_arrays(potential) -> tuple[np.ndarray, np.ndarray]:
+    """(positions, strengths) of the potential's point terms as two arrays, for :func:`constant_level`."""
+    terms = potential.point_terms()
+    return np.array([p for p, _ in terms], dtype=float), np.array([a for _, a in terms], dtype=float)
+
+
 def constant_level(base: np.ndarray, cells: tuple, level: int, center: float | None, potential, shift: float,
-                   e_lo, e_hi: float, max_states: int, floor: float, guess) -> GridStates | None:
+                   e_lo, e_hi: float, max_states: int, floor: float, guess, points=None) -> GridStates | None:
     """The states of level ``level`` of ``base`` for a potential constant on every base cell (``cells``: its V and
     m per base cell, :func:`fdsolver.numerics.operator.cell_constants`), from the predicted energies ``guess``,
     in one compiled call (:func:`fdsolver.numerics.kernels.constant_level`): the operators of
     :func:`fdsolver.boundstates.levels.sectors_on` on ``fdsolver.numerics.grid.refine(base, level)`` and the
     states :func:`solve_grid` finds from the guess, without building the operators in Python.  None where the
-    general path must decide (:func:`_predicted_grid`).
+    general path must decide (:func:`_predicted_grid`).  ``points``: :func:`point_arrays` of the potential, if
+    the caller keeps them across levels.
     """
     energy, sector = guess
-    terms = potential.point_terms()
-    pos = np.array([p for p, _ in terms], dtype=float)
-    alpha = np.array([a for _, a in terms], dtype=float)
+    pos, alpha = point_arrays(potential) if points is None else points
     status, en, sec, rounding, row, count_below, first_index, v0, v1 = kernels.constant_level(
         base, cells[0], cells[1], int(level), center is not None, 0.0 if center is None else float(center),
         float(potential.hbar2_2me), float(shift), pos, alpha, np.ascontiguousarray(energy, dtype=float),

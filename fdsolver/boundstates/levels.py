@@ -26,7 +26,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fdsolver.boundstates.eigen import GridStates, Sector, constant_level, solve_grid
+from fdsolver.boundstates.eigen import GridStates, Sector, constant_level, point_arrays, solve_grid
 from fdsolver.boundstates.problem import Problem
 from fdsolver.numerics.grid import refine
 from fdsolver.numerics.operator import assemble, cell_constants, mirror_halves
@@ -137,6 +137,7 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
     judged = -1  # the level whose states ``limited`` describes
     vanished: list[tuple[int, int, int]] = []  # (first, last, nodes) of states lost on a finer grid
     constant = cell_constants(problem.potential, base)  # V and m per base cell, where each cell sees one value
+    points = None if constant is None else point_arrays(problem.potential)
     for level in range(settings.max_levels):
         size = (base.size - 1) * 2**level + 1
         if size > problem.max_nodes(center is not None):
@@ -152,7 +153,7 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
         st_k = grid = sectors_k = None  # a constant level's grid and operators are built after the loop, if finest
         if constant is not None and guess is not None:
             st_k = constant_level(base, constant, level, center, problem.potential, problem.reference, problem.e_lo,
-                                  problem.e_hi, settings.max_states, problem.floor, guess)
+                                  problem.e_hi, settings.max_states, problem.floor, guess, points)
         if st_k is None:
             grid = refine(base, level)
             sectors_k, st_k = solve_nodes(problem, grid, center, guess, cells=_cells_of(constant, level),
