@@ -16,12 +16,15 @@ are compared in pairs taken in the same minute.
   median of its block medians, and new / base as the ratio of the fastest solves and the median of the blocks'
   ratios.
 
+``--optics`` (with ``--warm``): each warm solve is ``fdsolver.solve_optics`` (the solve and its refined
+transitions, the work of the solve command).
+
 Cases `solve` refuses (periodic ones) are skipped.
 
 ``--archive``: each cold solve also writes an archive (``solve -o``, a temporary file).  A CASE is a bundled
 case's name or the path of a case file.
 
-Usage:  python scripts/bench_pairs.py BASE_TREE NEW_TREE [--warm | --archive] [--repeat N] [CASE ...]
+Usage:  python scripts/bench_pairs.py BASE_TREE NEW_TREE [--warm [--optics] | --archive] [--repeat N] [CASE ...]
         (a tree is a directory holding the fdsolver package, e.g. a `git worktree add /tmp/base REV`)
 """
 
@@ -61,6 +64,8 @@ import sys, time
 from fdsolver.input.case import load_case
 from fdsolver.runs import solve_case
 case = load_case(sys.argv[1])
+if len(sys.argv) > 2:  # --optics: the solve command's work, the solve and its refined transitions
+    from fdsolver.api import solve_optics as solve_case
 for _ in range(30):
     solve_case(case)
 for line in sys.stdin:
@@ -75,13 +80,15 @@ for line in sys.stdin:
 WARM_BLOCK = 15
 
 
-def warm_pairs(base: str, new: str, case: Path, blocks: int) -> tuple[list, list] | None:
+def warm_pairs(base: str, new: str, case: Path, blocks: int, optics: bool = False) -> tuple[list, list] | None:
     """(fastest, median) CPU seconds per solve of each block of warm solves by each tree, blocks alternated;
-    None if either tree refuses the case."""
+    None if either tree refuses the case.  ``optics``: each solve also makes its refined transitions
+    (``fdsolver.solve_optics``, what the solve command computes)."""
     env = dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1", MKL_NUM_THREADS="1")
     procs = []
     for tree in (base, new):
-        procs.append(subprocess.Popen([sys.executable, "-c", WARM_WORKER, str(case)], cwd=tree,
+        procs.append(subprocess.Popen([sys.executable, "-c", WARM_WORKER, str(case), *(["optics"] if optics else [])],
+                                      cwd=tree,
                                       env=dict(env, PYTHONPATH=tree), stdin=subprocess.PIPE,
                                       stdout=subprocess.PIPE, stderr=subprocess.DEVNULL, text=True))
     out: tuple[list, list] = ([], [])
@@ -103,10 +110,11 @@ def warm_pairs(base: str, new: str, case: Path, blocks: int) -> tuple[list, list
 
 
 def main_warm(args, names) -> None:
-    print(f"warm solves, CPU ms per solve ({args.repeat} alternated blocks of {WARM_BLOCK}); base {args.base}, "
+    what = "warm solves with refined transitions (solve_optics)" if args.optics else "warm solves"
+    print(f"{what}, CPU ms per solve ({args.repeat} alternated blocks of {WARM_BLOCK}); base {args.base}, "
           f"new {args.new}")
     for name in names:
-        got = warm_pairs(args.base, args.new, _case_path(name), args.repeat)
+        got = warm_pairs(args.base, args.new, _case_path(name), args.repeat, args.optics)
         if got is None:
             print(f"  {name:22s} not a `solve` case here (skipped)")
             continue
@@ -132,6 +140,8 @@ def main() -> None:
     ap.add_argument("--repeat", type=int, default=5, help="runs (cold) or blocks (warm) per tree and case")
     ap.add_argument("--warm", action="store_true", help="warm solves in two long-lived processes, not cold starts")
     ap.add_argument("--archive", action="store_true", help="cold solves write an archive (solve -o, a temp file)")
+    ap.add_argument("--optics", action="store_true", help="with --warm: each solve also makes its refined "
+                    "transitions (fdsolver.solve_optics, what the solve command computes)")
     args = ap.parse_intermixed_args()
     names = args.cases or [p.stem for p in sorted((ROOT / "cases").glob("*.toml"))]
     if args.warm:

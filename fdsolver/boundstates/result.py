@@ -111,7 +111,7 @@ def _whole_nodes(sector) -> np.ndarray:
     return np.concatenate([2.0 * half[0] - half[:0:-1], half])
 
 
-def _unfold_into(row: np.ndarray, sector, u: np.ndarray) -> None:
+def unfold_into(row: np.ndarray, sector, u: np.ndarray) -> None:
     """psi on the whole grid (``row``, zero on entry) of a sector's eigenvector u, normalised over the whole grid:
     u / sqrt(w) at the unknowns (zero at Dirichlet ends); a half's values are divided by sqrt(2) and mirrored with
     the sector's parity."""
@@ -283,7 +283,7 @@ def _unfolded(run) -> tuple[np.ndarray, np.ndarray]:
     x_all = _whole_nodes(run.sectors[0]) if run.sectors else np.asarray(run.nodes, dtype=float)
     psi = np.zeros((run.energy.size, x_all.size))
     for k in range(run.energy.size):
-        _unfold_into(psi[k], run.sectors[states.sector[k]], states.vectors[k])
+        unfold_into(psi[k], run.sectors[states.sector[k]], states.vectors[k])
     return x_all, psi
 
 

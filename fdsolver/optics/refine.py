@@ -15,10 +15,13 @@ level's consistent quantities into the solver's Romberg table
   change from the previous level; conservative in the asymptotic range) plus the round-off of the
   levels' vectors: each level's bound from the vectors' mixing angles (:func:`vector_mixing`,
   :func:`dipole_roundoff`), the largest over the levels, times :data:`ROMBERG_GAIN`.  Without it the
-  Romberg estimate fell to 1e-13 where two valid eigen-solves of the same grids differ by 1e-11 to 1e-8.
+  Romberg estimate fell to 1e-16 to 1e-13 where two valid eigen-solves of the same grids differ by up
+  to 1e-8.
 
 Each level starts from the solver's own energies on that grid (``level_energies``), proved by Sturm
-counts, where the solution holds the lowest states; otherwise from bisection.
+counts, where the solution holds the lowest states; otherwise from bisection.  A mirror-symmetric
+solution is re-solved in its even and odd halves, as the solver solves it, so every state keeps its
+parity exactly.  The dipoles are reported with the signs of the solution's own psi.
 
 Measured on the infinite well (f_12 = 256/27 pi^2): single grid 7e-5 relative error, extrapolated
 over 4 levels 8e-13.  The sub-grids must carry every feature of the potential (interfaces, point
@@ -29,11 +32,13 @@ energy-dependent mass gives each state its own Hamiltonian; use :func:`~fdsolver
 
 from __future__ import annotations
 
+import math
 from dataclasses import replace
 
 import numpy as np
 
 from fdsolver.boundstates.eigen import Sector, constant_level, solve_grid
+from fdsolver.boundstates.result import unfold_into
 from fdsolver.model.units import UnitSystem
 from fdsolver.numerics import kernels
 from fdsolver.numerics.operator import assemble, cell_constants, mirror_halves
@@ -82,46 +87,57 @@ def _grid_solve(potential, nodes: np.ndarray, count: int, guess: np.ndarray | No
     ``guess``: the ``count`` energies expected on this grid (absolute, the case energy unit: the solver's own
     on this level), which start inverse iteration at once; they are proved by Sturm counts, and bisection
     takes over where the proof fails (:func:`fdsolver.boundstates.eigen.solve_grid`).  ``parity``: the
-    ``count`` states' parities (+1 / -1) where the grid is a mirror image of itself about its middle node (for
-    :func:`vector_mixing`).  Where V and m are
-    constant on every cell, the operator and the states come from one compiled call
+    ``count`` states' parities (+1 / -1) of a mirror-symmetric solve, on a grid that is its own mirror image
+    about its middle node: the grid is then solved in its even and odd halves, as the solver does
+    (:func:`fdsolver.numerics.operator.mirror_halves`), so every state has its parity exactly.  Where V and m
+    are constant on every cell, the operators and the states come from one compiled call
     (:func:`fdsolver.boundstates.eigen.constant_level`).
     """
     op = assemble(potential, nodes)
     floor = max(float(np.ptp(op.v)), 1e-300)  # the energy scale relative comparisons need
+    count = int(count)
+    halves = parity is not None and len(parity) == count
+    centre = nodes.size // 2
+    if halves:
+        even, odd = mirror_halves(op, centre)
+        sectors = [Sector(even, 1), Sector(odd, -1)]
+        which = np.where(np.asarray(parity) > 0, 0, 1).astype(np.int64)
+    else:
+        sectors = [Sector(op, 0)]
+        which = np.zeros(count, dtype=np.int64)
     states = None
     if guess is not None:
-        guess = (np.asarray(guess, dtype=float), np.zeros(len(guess), dtype=np.int64))
+        guess = (np.asarray(guess, dtype=float), which)
         cells = cell_constants(potential, nodes)
         if cells is not None:
-            states = constant_level(op.nodes, cells, 0, None, potential, 0.0, None, np.inf, int(count), floor, guess)
+            states = constant_level(op.nodes, cells, 0, float(nodes[centre]) if halves else None, potential, 0.0,
+                                    None, np.inf, count, floor, guess)
     if states is None:
-        states = solve_grid([Sector(op, 0)], None, np.inf, int(count), floor, guess)
+        states = solve_grid(sectors, None, np.inf, count, floor, guess)
     psi = np.zeros((states.size, nodes.size))
     mixing = np.zeros(states.size)
-    if states.size:
-        u = np.array(states.vectors)
-        psi[:, 1:-1] = u / np.sqrt(op.w)[None, :]
-        same = parity is not None and len(parity) == states.size
-        mixing = vector_mixing(op, u, states.energy, np.asarray(parity, dtype=float) if same else None)
+    for k in range(states.size):
+        unfold_into(psi[k], sectors[states.sector[k]], states.vectors[k])
+    for s, sector in enumerate(sectors):
+        members = np.flatnonzero(states.sector == s)
+        if members.size:
+            mixing[members] = vector_mixing(sector.op, np.array([states.vectors[k] for k in members]),
+                                            states.energy[members])
     return states.energy, psi, np.concatenate([[0.0], op.w, [0.0]]), op.mass, mixing, states.roundoff
 
 
-def vector_mixing(op, u: np.ndarray, energy: np.ndarray, parity: np.ndarray | None = None) -> np.ndarray:
+def vector_mixing(op, u: np.ndarray, energy: np.ndarray) -> np.ndarray:
     """Bound on the angle between each computed eigenvector u_i (rows of ``u``, unit vectors of the operator
-    ``op``'s tridiagonal T) and the exact eigenvector of T, for the lowest states of the grid (``energy``
-    ascending, every state below the highest included).  Dimensionless, at most 1.
+    ``op``'s tridiagonal T) and the exact eigenvector of T, for the lowest states of T (``energy`` ascending,
+    every eigenvalue below the highest included).  Dimensionless, at most 1.
 
     The residual r_i = T u_i - E_i u_i bounds it (the sin-theta theorem of Davis and Kahan; Parlett, The
     Symmetric Eigenvalue Problem, ch. 11): sin angle_i <= |r_i| / gap_i, gap_i the distance of E_i to the
     rest of T's spectrum.  |r_i| is evaluated in floating point, which adds about eps |T| |u_i| of its own.
-    The gap is read from the computed energies, and above the highest state (of each parity) from Sturm
-    counts: the largest g, halving from the gap below, with no eigenvalue in (E_i, E_i + g].  With ``parity``
-    (+1 / -1 per state, on a grid that is its own mirror image about its middle node) only the states of the
-    same parity count for the gap, the counts are those of that parity's half of T
-    (:func:`fdsolver.numerics.operator.mirror_halves`), and the content of the other parity is measured
-    instead: |u_i - p_i R u_i| / 2, R the mirror image (the members of a doublet split far below round-off
-    then keep the small bars they have earned).
+    The gap is read from the computed energies, and above the highest one from Sturm counts: the largest g,
+    halving from the gap below, with no eigenvalue in (E_top, E_top + g].  For the halves of a
+    mirror-symmetric grid each half is its own T, so the members of a doublet split far below round-off
+    (one in each half) do not mix at all.
     """
     d, e = op.d, op.e
     r = (d[None, :] - energy[:, None]) * u
@@ -129,35 +145,21 @@ def vector_mixing(op, u: np.ndarray, energy: np.ndarray, parity: np.ndarray | No
     r[:, :-1] += e[None, :] * u[:, 1:]
     residual = np.sqrt((r * r).sum(axis=1))
     k = energy.size
-    kinds = np.zeros(k) if parity is None else np.asarray(parity, dtype=float)
-    if parity is None:
-        counted = {0.0: (d, e)}
-    else:
-        even, odd = mirror_halves(op, op.nodes.size // 2)
-        counted = {1.0: (even.d, even.e), -1.0: (odd.d, odd.e)}
     gap = np.full(k, np.inf)
-    for kind, (dk, ek) in counted.items():
-        members = np.flatnonzero(kinds == kind)
-        if members.size == 0:
-            continue
-        own = energy[members]
-        steps = np.diff(own)
-        gap[members[:-1]] = steps
-        gap[members[1:]] = np.minimum(gap[members[1:]], steps)
-        top, below = float(own[-1]), gap[members[-1]]
-        g = below if np.isfinite(below) else max(abs(top), float(np.max(np.abs(dk))) * 1e-6, 1e-300)
-        for _ in range(60):  # no eigenvalue of this kind in (top, top + g]
-            if kernels.sturm_count(dk, ek, top + g) <= members.size:
-                break
-            g *= 0.5
-        else:
-            g = 0.0
-        gap[members[-1]] = min(below, g)
+    steps = np.diff(energy)
+    gap[:-1] = steps
+    gap[1:] = np.minimum(gap[1:], steps)
+    top, below = float(energy[-1]), float(gap[-1])
+    g = below if math.isfinite(below) else max(abs(top), float(np.max(np.abs(d))) * 1e-6, 1e-300)
+    for _ in range(60):  # no eigenvalue in (top, top + g]
+        if kernels.sturm_count(d, e, top + g) <= k:
+            break
+        g *= 0.5
+    else:
+        g = 0.0
+    gap[-1] = min(below, g)
     with np.errstate(divide="ignore", invalid="ignore"):
         mix = np.where(gap > 0, residual / gap, 1.0)
-    if parity is not None:
-        wrong = 0.5 * np.sqrt(((u - kinds[:, None] * u[:, ::-1]) ** 2).sum(axis=1))
-        mix = np.maximum(mix, wrong)
     return np.minimum(mix, 1.0)
 
 
@@ -257,11 +259,16 @@ def refined_intersubband(potential, solution, units: UnitSystem, reference_mass:
         df = m_r * np.abs(de) * 2.0 * np.abs(z) * dz / units.hbar2_2me + np.abs(f) * (ro[:, None] + ro[None, :]) / apart
         f_round = np.maximum(f_round, df)
     np.fill_diagonal(f_round, 0.0)
+    # each re-solved vector's sign is its grid's convention: turn the dipoles to the signs of the solution's own
+    # psi (the finest level is the solution's grid), so that z_ij agrees with the psi it is reported beside
+    finest_nodes, finest_psi, _, finest_w = per_level[-1][:4]
+    sign = np.where(np.sum(finest_w * finest_psi * np.asarray(solution.psi, dtype=float), axis=1) < 0, -1.0, 1.0)
+    dipole = z_tab.value().reshape(n, n) * sign[:, None] * sign[None, :]
     # the extrapolated value combines the levels with coefficients whose magnitudes add up to at most
     # ROMBERG_GAIN: the levels' round-off enters it at most that many times over
     return replace(
         finest,
-        dipole=z_tab.value().reshape(n, n),
+        dipole=dipole,
         oscillator_strength=f_tab.value().reshape(n, n),
         reference_mass=m_r,
         sum_rule=m_r * inv,
