@@ -20,12 +20,12 @@ import os
 for _var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ[_var] = "1"
 
-import argparse  # noqa: E402
-import sys  # noqa: E402
-import warnings  # noqa: E402
-from pathlib import Path  # noqa: E402
+import argparse
+import sys
+import warnings
+from pathlib import Path
 
-import numpy as np  # noqa: E402
+import numpy as np
 
 ROOT = Path(__file__).resolve().parent.parent
 

@@ -21,7 +21,6 @@ import pytest
 from scipy.linalg import eigh_tridiagonal
 
 import fdsolver
-from fdsolver.numerics.operator import assemble
 from fdsolver.optics import refine
 from fdsolver.runs import solve_case
 

@@ -26,7 +26,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fdsolver.boundstates.eigen import GridStates, Sector, constant_level, point_arrays, solve_grid
+from fdsolver.boundstates.eigen import (
+    GridStates,
+    Sector,
+    constant_level,
+    point_arrays,
+    solve_grid,
+)
 from fdsolver.boundstates.problem import Problem
 from fdsolver.numerics.grid import refine
 from fdsolver.numerics.operator import assemble, cell_constants, mirror_halves

@@ -1146,7 +1146,7 @@ def constant_level(base, v_cell, m_cell, level, mirror, center, c, shift, pos, a
         mass[j] = m_cell[src]
         vj = v_cell[src] - shift if shift != 0.0 else v_cell[src]
         half[j] = 0.5 * (sub[j + 1] - sub[j]) * vj
-    a, w, vw, v, d, e, ok = flux_operator(sub, mass, half, half, c, shift, False)
+    a, w, vw, _, d, e, ok = flux_operator(sub, mass, half, half, c, shift, False)
     n = w.shape[0]
     fail = (1, np.empty(0), np.empty(0, np.int64), np.empty(0), np.empty(0, np.int64), 0, 0,
             np.empty((0, n)), np.empty((0, n)))

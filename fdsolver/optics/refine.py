@@ -42,7 +42,6 @@ from fdsolver.boundstates.result import unfold_into
 from fdsolver.model.units import UnitSystem
 from fdsolver.numerics import kernels
 from fdsolver.numerics.operator import assemble, cell_constants, mirror_halves
-from fdsolver.numerics.precision import EPS
 from fdsolver.numerics.richardson import Romberg
 from fdsolver.optics.intersubband import Transitions, intersubband
 from fdsolver.optics.matrix import dipole_matrix, inverse_mass_mean
@@ -261,7 +260,7 @@ def refined_intersubband(potential, solution, units: UnitSystem, reference_mass:
     np.fill_diagonal(f_round, 0.0)
     # each re-solved vector's sign is its grid's convention: turn the dipoles to the signs of the solution's own
     # psi (the finest level is the solution's grid), so that z_ij agrees with the psi it is reported beside
-    finest_nodes, finest_psi, _, finest_w = per_level[-1][:4]
+    _, finest_psi, _, finest_w = per_level[-1][:4]
     sign = np.where(np.sum(finest_w * finest_psi * np.asarray(solution.psi, dtype=float), axis=1) < 0, -1.0, 1.0)
     dipole = z_tab.value().reshape(n, n) * sign[:, None] * sign[None, :]
     # the extrapolated value combines the levels with coefficients whose magnitudes add up to at most
