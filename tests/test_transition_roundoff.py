@@ -1,11 +1,12 @@
 """The error bars of extrapolated dipoles and oscillator strengths include the round-off of the eigenvectors.
 
 Why: the refined transitions (:func:`fdsolver.optics.refine.refined_intersubband`) re-solve nested grids and
-extrapolate; their Romberg estimate alone fell to 1e-13 where two equally valid eigen-solves of the same
-grids (started from bisection, or from the solver's own level energies) differ by 1e-11 to 1e-8.  Each
+extrapolate; their Romberg estimate alone fell to 1e-16 to 1e-13 where two equally valid eigen-solves of the
+same grids (started from bisection, or from the solver's own level energies) differ by up to 1e-8.  Each
 level now adds a bound from the vectors' mixing angles (:func:`fdsolver.optics.refine.vector_mixing`: the
-residual over the gap, Davis and Kahan's sin-theta theorem as given in Parlett, The Symmetric Eigenvalue
-Problem, ch. 11); mirror-symmetric solves are re-solved in their even and odd halves, as the solver does.
+residual over the gap, the sin-theta theorem of Davis and Kahan, SIAM J. Numer. Anal. 7, 1970, also in
+Parlett, The Symmetric Eigenvalue Problem; reference cited from memory); mirror-symmetric solves are
+re-solved in their even and odd halves, as the solver does.
 
 Checks: two computations each within its bar of the truth differ by at most the sum of the bars (common
 practice, no source), on seeded random invented structures; the bound against a rotation of known angle,

@@ -130,9 +130,10 @@ def vector_mixing(op, u: np.ndarray, energy: np.ndarray) -> np.ndarray:
     ``op``'s tridiagonal T) and the exact eigenvector of T, for the lowest states of T (``energy`` ascending,
     every eigenvalue below the highest included).  Dimensionless, at most 1.
 
-    The residual r_i = T u_i - E_i u_i bounds it (the sin-theta theorem of Davis and Kahan; Parlett, The
-    Symmetric Eigenvalue Problem, ch. 11): sin angle_i <= |r_i| / gap_i, gap_i the distance of E_i to the
-    rest of T's spectrum.  |r_i| is evaluated in floating point, which adds about eps |T| |u_i| of its own.
+    The residual r_i = T u_i - E_i u_i bounds it (the sin-theta theorem of Davis and Kahan, SIAM J. Numer.
+    Anal. 7, 1970, also in Parlett, The Symmetric Eigenvalue Problem; reference cited from memory):
+    sin angle_i <= |r_i| / gap_i, gap_i the distance of E_i to the rest of T's spectrum.  |r_i| is evaluated
+    in floating point, which adds about eps |T| |u_i| of its own.
     The gap is read from the computed energies, and above the highest one from Sturm counts: the largest g,
     halving from the gap below, with no eigenvalue in (E_top, E_top + g].  For the halves of a
     mirror-symmetric grid each half is its own T, so the members of a doublet split far below round-off
