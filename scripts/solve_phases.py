@@ -34,7 +34,8 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parent.parent
 
 #: (module, function, label): each replaced in its caller's module by a timed wrapper.  The five phases first,
-#: then parts of them timed wherever they are called ("both": in the coarse solve and in the levels)
+#: then parts of them timed wherever they are called ("both": in the coarse solve and in the levels; "one call":
+#: the levels of a potential constant on every cell, each one compiled call)
 PHASES = [
     ("fdsolver.boundstates.driver", "plan", "plan"),
     ("fdsolver.boundstates.driver", "_provisional", "coarse solve and box"),
@@ -45,7 +46,8 @@ PHASES = [
     ("fdsolver.boundstates.driver", "_missing", "part: zero-energy count"),
     ("fdsolver.boundstates.driver", "open_box", "part: open box (both)"),
     ("fdsolver.boundstates.levels", "sectors_on", "part: operators (all grids)"),
-    ("fdsolver.boundstates.levels", "solve_grid", "part: level passes (all grids)"),
+    ("fdsolver.boundstates.levels", "solve_grid", "part: level passes, general"),
+    ("fdsolver.boundstates.levels", "constant_level", "part: level passes, one call"),
     ("fdsolver.boundstates.levels", "_judge", "part: judging the states"),
 ]
 
