@@ -75,13 +75,13 @@ def grid_states(potential, nodes: np.ndarray, count: int):
     node weights w (zero at the ends), the cell masses): the states of exactly this grid, for which
     the length and flux forms of the dipole agree to round-off.
     """
-    return _grid_solve(potential, nodes, count)[:4]
+    return _grid_solve(potential, nodes, count, mixing=False)[:4]
 
 
 def _grid_solve(potential, nodes: np.ndarray, count: int, guess: np.ndarray | None = None,
-                parity: np.ndarray | None = None):
-    """:func:`grid_states` and, last, each state's round-off mixing (:func:`vector_mixing`) and energy round-off
-    floor (:attr:`fdsolver.boundstates.eigen.GridStates.roundoff`).
+                parity: np.ndarray | None = None, mixing: bool = True):
+    """:func:`grid_states` and, last, each state's round-off mixing (:func:`vector_mixing`; zeros without
+    ``mixing``) and energy round-off floor (:attr:`fdsolver.boundstates.eigen.GridStates.roundoff`).
 
     ``guess``: the ``count`` energies expected on this grid (absolute, the case energy unit: the solver's own
     on this level), which start inverse iteration at once; they are proved by Sturm counts, and bisection
@@ -114,15 +114,15 @@ def _grid_solve(potential, nodes: np.ndarray, count: int, guess: np.ndarray | No
     if states is None:
         states = solve_grid(sectors, None, np.inf, count, floor, guess)
     psi = np.zeros((states.size, nodes.size))
-    mixing = np.zeros(states.size)
+    mix = np.zeros(states.size)
     for k in range(states.size):
         unfold_into(psi[k], sectors[states.sector[k]], states.vectors[k])
-    for s, sector in enumerate(sectors):
+    for s, sector in enumerate(sectors if mixing else ()):
         members = np.flatnonzero(states.sector == s)
         if members.size:
-            mixing[members] = vector_mixing(sector.op, np.array([states.vectors[k] for k in members]),
-                                            states.energy[members])
-    return states.energy, psi, np.concatenate([[0.0], op.w, [0.0]]), op.mass, mixing, states.roundoff
+            mix[members] = vector_mixing(sector.op, np.array([states.vectors[k] for k in members]),
+                                         states.energy[members])
+    return states.energy, psi, np.concatenate([[0.0], op.w, [0.0]]), op.mass, mix, states.roundoff
 
 
 def vector_mixing(op, u: np.ndarray, energy: np.ndarray) -> np.ndarray:
