@@ -119,6 +119,36 @@ class Potential:
         m) is constant between the features (:attr:`piecewise_constant`) sees every value V takes there."""
         return self.pieces(lo, hi)[0]
 
+    @cached_property
+    def piece_table(self) -> tuple[np.ndarray, ...] | None:
+        """V and m as tables, where V is constant between the features (:attr:`piecewise_constant`): (features,
+        V on each open piece, m on each, V at each feature, m at each), the pieces numbered from the one left of
+        the first feature (features.size + 1 of them).  Every entry is :meth:`value` or :meth:`mass_at` at one
+        position (a piece's middle; one length scale beyond the outer features), so a lookup
+        (:func:`fdsolver.numerics.kernels.piece_values`) returns the numbers an evaluation there returns, up to
+        the rounding of a comparison within a few ulps of a feature.  None where V is not piecewise constant,
+        or where features closer than round-off were merged (a piece between them would have no entry)."""
+        if not self._piecewise_constant:
+            return None
+        feats = self._features
+        raw: list[float] = []
+        for shape in self.shapes:
+            raw.extend(shape.features())
+        if self.stack is not None:
+            raw.extend(self.stack.interfaces.tolist())
+        if np.unique(np.asarray(raw, dtype=float)).size != feats.size:
+            return None
+        if feats.size:
+            reach = max(1.0, float(feats[-1] - feats[0]))
+            probes = np.concatenate([[feats[0] - reach], 0.5 * (feats[1:] + feats[:-1]), [feats[-1] + reach]])
+        else:
+            probes = np.zeros(1)
+        with np.errstate(invalid="ignore", over="ignore"):
+            v = np.ascontiguousarray(self.value(np.concatenate([probes, feats])), dtype=float)
+        m = np.ascontiguousarray(self.mass_at(np.concatenate([probes, feats])), dtype=float)
+        k = probes.size
+        return (np.ascontiguousarray(feats), v[:k].copy(), m[:k].copy(), v[k:].copy(), m[k:].copy())
+
     def pieces(self, lo: float, hi: float) -> tuple[np.ndarray, np.ndarray]:
         """(middles, lengths) of the pieces of [lo, hi] between consecutive features (length unit)."""
         feats = self.features()

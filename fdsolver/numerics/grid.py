@@ -30,15 +30,20 @@ exactly and parities can be read off the states.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import math
+from dataclasses import dataclass
 
 import numpy as np
 
-from fdsolver.numerics.kernels import (grid_samples, inner_bounds, refine_nodes, sample_pass, segment_nodes,
-                                      target_spacing)
-
+from fdsolver.numerics.kernels import (
+    grid_samples,
+    inner_bounds,
+    piece_grid,
+    refine_nodes,
+    sample_pass,
+    segment_nodes,
+    target_spacing,
+)
 
 #: uniform samples of the spacing function over the box before the samples are refined where it asks for it
 BACKGROUND_SAMPLES = 257
@@ -72,6 +77,13 @@ def base_grid(
         left = 2.0 * center - right[:0:-1]
         return np.concatenate([left, right])
     tiny = 64.0 * np.finfo(float).eps * max(abs(lo), abs(hi), hi - lo)  # closer than this is round-off
+    if isinstance(spacing, Spacing) and spacing.table is not None:  # every step in one compiled call
+        nodes, total = piece_grid(float(lo), float(hi), np.asarray(list(breakpoints), dtype=float), tiny,
+                                  float(settings.growth), BACKGROUND_SAMPLES, int(settings.min_cells_per_segment),
+                                  -1 if max_nodes is None else int(max_nodes), *spacing.table, *spacing.args)
+        if max_nodes is not None and total > max_nodes:
+            _over_budget(total, max_nodes)
+        return nodes
     bps = inner_bounds(np.asarray(list(breakpoints), dtype=float), float(lo), float(hi), tiny)
     bounds = np.concatenate([[lo], bps, [hi]])
     width = hi - lo
@@ -89,14 +101,18 @@ def base_grid(
     if max_nodes is not None:
         total = float(np.sum(0.5 * (1.0 / hs[1:] + 1.0 / hs[:-1]) * np.diff(xs))) + bounds.size * settings.min_cells_per_segment
         if total > max_nodes:
-            from fdsolver.errors import BudgetError
-
-            raise BudgetError(
-                f"the grid would need about {total:.3g} nodes, more than the memory budget allows ({max_nodes}); "
-                "raise [solve] memory_mb or loosen the tolerance",
-                key="solve.memory_mb",
-            )
+            _over_budget(total, max_nodes)
     return segment_nodes(bounds, xs, hs, settings.min_cells_per_segment)
+
+
+def _over_budget(total: float, max_nodes: int):
+    from fdsolver.errors import BudgetError
+
+    raise BudgetError(
+        f"the grid would need about {total:.3g} nodes, more than the memory budget allows ({max_nodes}); "
+        "raise [solve] memory_mb or loosen the tolerance",
+        key="solve.memory_mb",
+    )
 
 
 def refine(nodes: np.ndarray, level: int) -> np.ndarray:
@@ -132,16 +148,30 @@ def spacing_function(potential, e_lo: float, e_hi: float, gs: GridSettings, deep
     apex, left, right = _cone_tables(np.asarray(cone_p, dtype=float), np.asarray(cone_c, dtype=float), gs.growth)
     reach = math.inf if deep_reach is None else float(deep_reach)
     cap = float(r2_cap * m_max / potential.mass)
+    return Spacing(potential, (float(e_lo), float(e_hi), float(c), reach, float(lo_s), float(hi_s), cap,
+                               float(gs.wave_fraction), apex, left, right, float(gs.growth)))
 
-    def spacing(x):
+
+class Spacing:
+    """The raw target spacing h(x) of :func:`spacing_function` (length unit): ``spacing(x)`` samples V and m of
+    the potential at ``x`` and applies :func:`fdsolver.numerics.kernels.target_spacing` with ``args``.  Where
+    the potential is constant between its features, ``table`` holds its piece tables
+    (:attr:`fdsolver.model.potential.Potential.piece_table`, else None), and :func:`base_grid` builds the
+    whole grid in one compiled call from them."""
+
+    __slots__ = ("args", "potential", "table")
+
+    def __init__(self, potential, args: tuple):
+        self.potential = potential
+        self.args = args
+        self.table = getattr(potential, "piece_table", None)
+
+    def __call__(self, x):
         x = np.ascontiguousarray(x, dtype=float)
         with np.errstate(invalid="ignore", over="ignore"):
-            v = np.ascontiguousarray(potential.value(x), dtype=float)
-            m = np.ascontiguousarray(potential.mass_at(x), dtype=float)
-        return target_spacing(x, v, m, float(e_lo), float(e_hi), float(c), reach, float(lo_s), float(hi_s), cap,
-                              float(gs.wave_fraction), apex, left, right, float(gs.growth))
-
-    return spacing
+            v = np.ascontiguousarray(self.potential.value(x), dtype=float)
+            m = np.ascontiguousarray(self.potential.mass_at(x), dtype=float)
+        return target_spacing(x, v, m, *self.args)
 
 
 def _cone_tables(p: np.ndarray, c: np.ndarray, slope: float):

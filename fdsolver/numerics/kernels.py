@@ -23,6 +23,8 @@
   calls (a base grid is built twice per solve, on a few hundred samples).
 * :func:`target_spacing` - the raw target spacing of a base grid from sampled V and m (the arithmetic
   of :func:`fdsolver.numerics.grid.spacing_function` in one pass).
+* :func:`piece_grid` - a whole base grid in one call where V is constant between features (its spacing
+  function sampled from tables, :func:`piece_values`).
 * :func:`flux_operator` - the arrays of the flux-form operator
   (:mod:`fdsolver.numerics.operator`) in one pass over the cells; :func:`even_half` its even mirror sector;
   both through :func:`symmetric_form`, the one formula of T's diagonal and off-diagonal.
@@ -993,6 +995,75 @@ def segment_nodes(bounds, x, h, min_cells):
         m += cells[k]
     nodes[total] = bounds[nb - 1]
     return nodes
+
+
+@njit
+def piece_values(x, feats, v_piece, m_piece, v_feat, m_feat):
+    """V and m at ``x`` of a potential constant between its sorted features ``feats`` (the tables of
+    :attr:`fdsolver.model.potential.Potential.piece_table`): ``v_piece[k]`` on the open piece k (0 left of the
+    first feature, feats.size right of the last), ``v_feat[k]`` at feats[k] itself; m likewise.  The values are
+    copied, not computed.  O(N log K)."""
+    n = x.shape[0]
+    nf = feats.shape[0]
+    v = np.empty(n)
+    m = np.empty(n)
+    for i in range(n):
+        k = np.searchsorted(feats, x[i])  # feats[k - 1] < x <= feats[k]
+        if k < nf and feats[k] == x[i]:
+            v[i] = v_feat[k]
+            m[i] = m_feat[k]
+        else:
+            v[i] = v_piece[k]
+            m[i] = m_piece[k]
+    return v, m
+
+
+@njit
+def _piece_spacing(x, feats, v_piece, m_piece, v_feat, m_feat, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap,
+                   wave_fraction, apex, left, right, slope):
+    """:func:`target_spacing` at ``x`` with V and m from the piece tables (:func:`piece_values`)."""
+    v, m = piece_values(x, feats, v_piece, m_piece, v_feat, m_feat)
+    return target_spacing(x, v, m, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap, wave_fraction, apex, left, right, slope)
+
+
+@njit
+def piece_grid(lo, hi, points, tiny, growth, background, min_cells, max_nodes, feats, v_piece, m_piece, v_feat,
+               m_feat, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap, wave_fraction, apex, left, right, slope):
+    """A base grid on [lo, hi] (length unit) of a potential constant between its features, in one call.
+
+    The steps of :func:`fdsolver.numerics.grid.base_grid` (:func:`inner_bounds`, :func:`grid_samples`, up to
+    nine :func:`sample_pass` and :func:`segment_nodes`), with the spacing function :func:`target_spacing`
+    sampled from the piece tables (:func:`piece_values`) instead of a Python callback.  Returns (nodes, the
+    estimated node count); with ``max_nodes`` >= 0 and the estimate above it, the nodes are empty (none
+    allocated).  The estimate is summed in order, where the numpy form sums pairwise (last bits).
+    O(samples log K + nodes).
+    """
+    bps = inner_bounds(points, lo, hi, tiny)
+    bounds = np.empty(bps.shape[0] + 2)
+    bounds[0] = lo
+    bounds[1:-1] = bps
+    bounds[-1] = hi
+    local = _piece_spacing(bounds, feats, v_piece, m_piece, v_feat, m_feat, e_lo, e_hi, c, reach, lo_s, hi_s,
+                           r2_cap, wave_fraction, apex, left, right, slope)
+    xs = grid_samples(lo, hi, bounds, local, growth, background)
+    cap = (hi - lo) / 4.0
+    none = np.empty(0)
+    raw0 = _piece_spacing(xs, feats, v_piece, m_piece, v_feat, m_feat, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap,
+                          wave_fraction, apex, left, right, slope)
+    xs, raw, hs, mids = sample_pass(xs, raw0, none, none, cap, growth)
+    for _ in range(8):
+        if mids.shape[0] == 0:
+            break
+        raw_m = _piece_spacing(mids, feats, v_piece, m_piece, v_feat, m_feat, e_lo, e_hi, c, reach, lo_s, hi_s,
+                               r2_cap, wave_fraction, apex, left, right, slope)
+        xs, raw, hs, mids = sample_pass(xs, raw, mids, raw_m, cap, growth)
+    total = 0.0
+    for i in range(1, xs.shape[0]):
+        total += 0.5 * (1.0 / hs[i] + 1.0 / hs[i - 1]) * (xs[i] - xs[i - 1])
+    total += bounds.shape[0] * min_cells
+    if max_nodes >= 0 and total > max_nodes:
+        return np.empty(0), total
+    return segment_nodes(bounds, xs, hs, min_cells), total
 
 
 @njit

@@ -1,0 +1,143 @@
+"""Base grids of potentials constant between their features, built in one compiled call, against the general
+path.
+
+Why: where V and m are constant between the features (square wells, point terms, layer stacks),
+:func:`fdsolver.numerics.grid.base_grid` reads V and m from tables (:attr:`Potential.piece_table`,
+:func:`fdsolver.numerics.kernels.piece_values`) inside one compiled call
+(:func:`fdsolver.numerics.kernels.piece_grid`) instead of evaluating the potential from Python at every
+sampling pass.  The tables hold values of the potential's own evaluation, and the call performs the general
+path's floating-point operations in the same order (IEEE 754: +, -, *, / and sqrt are correctly rounded;
+common practice, no source needed beyond the standard), so the nodes, and every result, must be the same to
+the last bit.  The structures are invented (nm, meV, m_e), drawn at random with fixed seeds.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+import pytest
+
+import fdsolver
+from fdsolver.errors import BudgetError
+from fdsolver.model.potential import Potential
+from fdsolver.numerics import kernels
+from fdsolver.numerics.grid import GridSettings, Spacing, base_grid, spacing_function
+from fdsolver.runs import solve_case
+
+
+def _structure(seed: int) -> dict:
+    """A random piecewise-constant structure: square wells and barriers (some overlapping), point terms, or a
+    layer stack with its own masses; some mirror-symmetric, some between hard walls."""
+    rng = np.random.default_rng(seed)
+    kind = seed % 4
+    case: dict = {"units": "nm-meV", "mass": float(rng.uniform(0.04, 0.2))}
+    if kind == 3:
+        layers = [{"band_edge": float(rng.uniform(150, 400)), "mass": float(rng.uniform(0.06, 0.12))}]
+        for _ in range(int(rng.integers(1, 5))):
+            layers.append({"thickness": float(rng.uniform(0.5, 8.0)), "band_edge": float(rng.uniform(-20, 60)),
+                           "mass": float(rng.uniform(0.05, 0.1))})
+            layers.append({"thickness": float(rng.uniform(0.5, 4.0)), "band_edge": float(rng.uniform(100, 300)),
+                           "mass": float(rng.uniform(0.07, 0.12))})
+        layers[-1] = {"band_edge": layers[0]["band_edge"], "mass": layers[0]["mass"]}
+        case.pop("mass")
+        case["layer"] = layers
+        return case
+    shapes = []
+    for _ in range(int(rng.integers(1, 4))):
+        shapes.append({"shape": "square", "center": float(rng.uniform(-8, 8)), "width": float(rng.uniform(0.3, 6)),
+                       "depth": float(rng.uniform(-40, 250))})
+    if kind == 1:
+        shapes.append({"shape": "point", "center": float(rng.uniform(-5, 5)), "strength": float(rng.uniform(50, 400))})
+    if kind == 2:  # a mirror pair
+        c, w, d = float(rng.uniform(1, 7)), float(rng.uniform(0.5, 5)), float(rng.uniform(20, 300))
+        shapes = [{"shape": "square", "center": s * c, "width": w, "depth": d} for s in (-1, 1)]
+    case["potential"] = shapes
+    if seed % 5 == 0:
+        case["domain"] = {"boundary": "hard", "left": -30.0, "right": 25.0}
+    return case
+
+
+SEEDS = list(range(24))
+
+
+@pytest.mark.parametrize("seed", SEEDS)
+def test_tables_give_the_potentials_own_values(seed):
+    """piece_values = Potential.value and mass_at at the features themselves and at random positions inside
+    the pieces and beyond the outer features."""
+    pot = fdsolver.case_from_dict(_structure(seed)).potential
+    table = pot.piece_table
+    assert table is not None
+    feats = table[0]
+    rng = np.random.default_rng(1000 + seed)
+    x = np.concatenate([feats, rng.uniform(feats[0] - 50.0, feats[-1] + 50.0, 400)])
+    v, m = kernels.piece_values(x, *table)
+    assert np.array_equal(v, pot.value(x))
+    assert np.array_equal(m, pot.mass_at(x))
+
+
+@pytest.mark.parametrize("seed", SEEDS)
+def test_one_call_base_grid_is_the_general_path_bit_for_bit(seed):
+    """The same nodes from the compiled call and from sampling through a Python callback, over energy windows,
+    boxes and mirror centres drawn at random, and the same budget refusal."""
+    case = fdsolver.case_from_dict(_structure(seed))
+    pot = case.potential
+    rng = np.random.default_rng(2000 + seed)
+    lo_s, hi_s = pot.support()
+    for _ in range(3):
+        e_lo = float(rng.uniform(-300, -10))
+        e_hi = float(rng.uniform(e_lo + 1, 300))
+        gs = GridSettings(wave_fraction=float(rng.choice([0.25, 0.5, 1.0])))
+        spacing = spacing_function(pot, e_lo, e_hi, gs, float(rng.uniform(5, 50)) if rng.random() < 0.5 else None)
+        assert isinstance(spacing, Spacing) and spacing.table is not None
+
+        def plain(x, s=spacing):  # the same spacing function, as a plain callable: the general path
+            return s(x)
+
+        pad = float(rng.uniform(5, 40))
+        box = (lo_s - pad, hi_s + pad)
+        mirror = pot.mirror_center(*box)
+        centers = [None]
+        if mirror is not None:
+            half = max(mirror - box[0], box[1] - mirror)
+            box = (mirror - half, mirror + half)
+            centers.append(mirror)
+        for center in centers:
+            fast = base_grid(spacing, pot.features(), box[0], box[1], gs, center, 10**7)
+            slow = base_grid(plain, pot.features(), box[0], box[1], gs, center, 10**7)
+            assert np.array_equal(fast, slow)
+            with pytest.raises(BudgetError):
+                base_grid(spacing, pot.features(), box[0], box[1], gs, center, 20)
+
+
+def _fields(sol) -> dict:
+    inner = getattr(sol, "solution", sol)
+    return {f.name: getattr(inner, f.name) for f in dataclasses.fields(inner)}
+
+
+def _same(a, b) -> bool:
+    if isinstance(a, (tuple, list)) and isinstance(b, (tuple, list)):
+        return len(a) == len(b) and all(_same(x, y) for x, y in zip(a, b))
+    if isinstance(a, np.ndarray) or isinstance(b, np.ndarray):
+        a, b = np.asarray(a), np.asarray(b)
+        return a.shape == b.shape and np.array_equal(a, b, equal_nan=a.dtype.kind in "fc")
+    return a == b
+
+
+@pytest.mark.parametrize("seed", SEEDS[:12])
+def test_solutions_are_the_same_with_and_without_the_tables(seed, monkeypatch):
+    """Every field of the solution, with the compiled grid and with the tables switched off."""
+    d = _structure(seed)
+    fast = _fields(solve_case(fdsolver.case_from_dict(d)))
+    monkeypatch.setattr(Potential, "piece_table", property(lambda self: None))
+    general = _fields(solve_case(fdsolver.case_from_dict(d)))
+    differ = [k for k in fast if not _same(fast[k], general[k])]
+    assert not differ, f"fields differ: {differ}"
+
+
+def test_no_tables_where_the_potential_varies_between_features():
+    """A graded well is not piecewise constant: no tables, and the grid is sampled through the potential."""
+    pot = fdsolver.case_from_dict({"units": "nm-meV", "mass": 0.067, "potential": [
+        {"shape": "smooth_square", "center": 0.0, "width": 6.0, "edge": 0.5, "depth": 120.0}]}).potential
+    assert pot.piece_table is None
+    assert spacing_function(pot, -120.0, 0.0, GridSettings()).table is None
