@@ -317,6 +317,33 @@ def constant_level(base: np.ndarray, cells: tuple, level: int, center: float | N
     return _states_of(sec, en, rounding, row, count_below, first_index, (v0, v1), (1, -1) if center is not None else (0,))
 
 
+def constant_levels(base: np.ndarray, cells: tuple, center: float | None, potential, shift: float, e_lo,
+                    e_hi: float, max_states: int, floor: float, guess, max_levels: int, min_levels: int,
+                    max_nodes: int, tol: float, growth: float, points=None):
+    """Levels 0, 1, ... of ``base`` for a potential constant on every base cell, solved, extrapolated and judged
+    in one compiled call (:func:`fdsolver.numerics.kernels.constant_levels`) while they are regular.
+
+    Returns (reason, rows, sizes, states): the reason it stopped (a ``kernels.LEVELS_*`` code), the energies of
+    every level done (one array each), their node counts, and the newest done level's :class:`GridStates`
+    (None if no level was done); the caller's level loop goes on from level ``len(rows)`` where the reason asks
+    for it.  The arguments are those of :func:`constant_level`, with the level loop's limits and tolerance.
+    """
+    energy, sector = guess
+    pos, alpha = point_arrays(potential) if points is None else points
+    reason, done, rows, sizes, got = kernels.constant_levels(
+        base, cells[0], cells[1], center is not None, 0.0 if center is None else float(center),
+        float(potential.hbar2_2me), float(shift), pos, alpha, np.ascontiguousarray(energy, dtype=float),
+        np.ascontiguousarray(sector, dtype=np.int64), e_lo is not None, 0.0 if e_lo is None else float(e_lo),
+        float(e_hi), int(max_states), float(floor), CLUSTER_RTOL, INVERSE_STEPS, RESIDUAL_FACTOR, QUOTIENT_ULPS, EPS,
+        int(max_levels), int(min_levels), int(max_nodes), float(tol), float(growth))
+    states = None
+    if done:
+        _, en, sec, rounding, row, count_below, first_index, v0, v1 = got
+        states = _states_of(sec, en, rounding, row, count_below, first_index, (v0, v1),
+                            (1, -1) if center is not None else (0,))
+    return int(reason), list(rows), [int(k) for k in sizes], states
+
+
 def _predicted(guess, n_sectors: int, n: int):
     """Per-sector arrays of predicted energies, or None if the guess does not describe exactly n states.
 

@@ -30,10 +30,12 @@ from fdsolver.boundstates.eigen import (
     GridStates,
     Sector,
     constant_level,
+    constant_levels,
     point_arrays,
     solve_grid,
 )
 from fdsolver.boundstates.problem import Problem
+from fdsolver.numerics import kernels
 from fdsolver.numerics.grid import refine
 from fdsolver.numerics.operator import assemble, cell_constants, mirror_halves
 from fdsolver.numerics.richardson import Romberg
@@ -144,7 +146,24 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
     vanished: list[tuple[int, int, int]] = []  # (first, last, nodes) of states lost on a finer grid
     constant = cell_constants(problem.potential, base)  # V and m per base cell, where each cell sees one value
     points = None if constant is None else point_arrays(problem.potential)
-    for level in range(settings.max_levels):
+    start, failed, reason = 0, -1, None
+    if constant is not None and first_guess is not None:
+        # the regular levels in one compiled call; the loop below goes on from where it stopped, if it must
+        reason, rows, sizes, done = constant_levels(
+            base, constant, center, problem.potential, problem.reference, problem.e_lo, problem.e_hi,
+            settings.max_states, problem.floor, first_guess, settings.max_levels, settings.min_levels,
+            problem.max_nodes(center is not None), settings.tolerance, ROUNDOFF_GROWTH, points)
+        for row, size in zip(rows, sizes):
+            table.add(row)
+            level_e.append(row)
+            level_n.append(size)
+        if done is not None:
+            states, last, n_expected = done, len(rows) - 1, done.size
+        start = len(rows)
+        if reason == kernels.LEVELS_FAILED:
+            failed = start  # the general path decides that level at once
+    finished = reason in (kernels.LEVELS_DONE, kernels.LEVELS_ALL)  # judged, or at the level limit: no loop
+    for level in range(start, start if finished else settings.max_levels):
         size = (base.size - 1) * 2**level + 1
         if size > problem.max_nodes(center is not None):
             messages.append(
@@ -157,7 +176,7 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
             break
         guess = _prediction(level_e, states.sector) if states is not None else first_guess
         st_k = grid = sectors_k = None  # a constant level's grid and operators are built after the loop, if finest
-        if constant is not None and guess is not None:
+        if constant is not None and guess is not None and level != failed:
             st_k = constant_level(base, constant, level, center, problem.potential, problem.reference, problem.e_lo,
                                   problem.e_hi, settings.max_states, problem.floor, guess, points)
         if st_k is None:

@@ -1248,3 +1248,100 @@ def constant_level(base, v_cell, m_cell, level, mirror, center, c, shift, pos, a
                               has_lo, e_lo, e_hi, max_states, floor, cluster_rtol, steps, residual_factor, ulps, eps)
     return predicted_grid(d, e, a, vw, w, d, e, a, vw, w, False, guess_e, guess_s, has_lo, e_lo, e_hi, max_states,
                           floor, cluster_rtol, steps, residual_factor, ulps, eps)
+
+
+#: why :func:`constant_levels` stopped: every state judged (converged, or limited by round-off); the level
+#: limit reached; the next level over the node budget; the one-call pass failed on a level (the general path
+#: decides it); the states of a level differ from the previous level's (the caller's loop handles it)
+LEVELS_DONE, LEVELS_ALL, LEVELS_BUDGET, LEVELS_FAILED, LEVELS_CHANGED = 0, 1, 2, 3, 4
+
+
+@njit
+def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, guess_e, guess_s, has_lo, e_lo,
+                    e_hi, max_states, floor, cluster_rtol, steps, residual_factor, ulps, eps, max_levels,
+                    min_levels, max_nodes, tol, growth):
+    """Every nested level of a potential constant on every base cell in one compiled call, while the levels
+    are regular: :func:`constant_level` on levels 0, 1, ... (level 0 from ``guess_e``/``guess_s``, each next
+    one from E_{k+1} ~ E_k - (E_{k-1} - E_k)/4), the Romberg table of their energies
+    (:class:`fdsolver.numerics.richardson.Romberg`, columns up to h^4 removed) and the judgement of
+    :func:`fdsolver.boundstates.levels._judge` once ``min_levels`` levels are in: a state is done when its
+    table error plus round-off floor is within ``tol`` |E| (|E| at least 1e-300) and its extrapolation is in
+    order; refinement stops when every state is done, or done or limited by round-off (``growth`` times its
+    floor above the tolerance).  The same floating-point operations in the same order as those functions.
+
+    It stops at the first level that is not regular (see the LEVELS_* codes): over ``max_nodes``, a failed
+    pass, no states, or other states than the previous level's (count or first index); the caller's loop
+    takes over from that level.  Returns (reason, levels done L, their energies (L x n), their node counts,
+    and the newest done level's :func:`constant_level` tuple).  Energies relative to ``shift``.
+    """
+    nb = base.shape[0]
+    ge = guess_e.copy()
+    gs = guess_s.copy()
+    table = np.empty((max_levels, 3, 0))
+    energies = np.empty((max_levels, 0))
+    sizes = np.zeros(max_levels, np.int64)
+    cols = np.zeros(max_levels, np.int64)
+    last = (1, np.empty(0), np.empty(0, np.int64), np.empty(0), np.empty(0, np.int64), 0, 0,
+            np.empty((0, 0)), np.empty((0, 0)))
+    n = -1
+    first = 0
+    for level in range(max_levels):
+        size = (nb - 1) * 2**level + 1
+        if size > max_nodes:
+            return LEVELS_BUDGET, level, energies[:level].copy(), sizes[:level].copy(), last
+        got = constant_level(base, v_cell, m_cell, level, mirror, center, c, shift, pos, alpha, ge, gs, has_lo,
+                             e_lo, e_hi, max_states, floor, cluster_rtol, steps, residual_factor, ulps, eps)
+        if got[0] != 0:
+            return LEVELS_FAILED, level, energies[:level].copy(), sizes[:level].copy(), last
+        en = got[1]
+        if en.shape[0] == 0 or (n >= 0 and (en.shape[0] != n or got[6] != first)):
+            return LEVELS_CHANGED, level, energies[:level].copy(), sizes[:level].copy(), last
+        if n < 0:
+            n = en.shape[0]
+            first = got[6]
+            table = np.empty((max_levels, 3, n))
+            energies = np.empty((max_levels, n))
+        last = got
+        energies[level] = en
+        sizes[level] = size
+        # the Romberg row of this level
+        table[level, 0] = en
+        ncol = 1 if level == 0 else min(cols[level - 1], 2) + 1
+        cols[level] = ncol
+        for j in range(1, ncol):
+            for s in range(n):
+                table[level, j, s] = table[level, j - 1, s] + (table[level, j - 1, s] - table[level - 1, j - 1, s]) \
+                    / (4.0**j - 1.0)
+        if level + 1 >= min_levels:
+            m = ncol - 1
+            value = table[level, m]
+            err = np.empty(n)
+            for s in range(n):
+                if ncol < 2:
+                    e_s = math.inf
+                elif level >= 1 and cols[level - 1] > m:
+                    e_s = abs(table[level, m, s] - table[level - 1, m, s])
+                else:
+                    e_s = abs(table[level, m, s] - table[level, m - 1, s])
+                err[s] = e_s + got[3][s]
+            order = np.argsort(value, kind="mergesort")
+            finished = True
+            for s in range(n):
+                scale = max(abs(en[s]), 1e-300)
+                crossed = False
+                if level >= 1:
+                    off = abs(value[s] - value[order[s]])
+                    crossed = off > err[s] + err[order[s]] and off > 0.0
+                done = err[s] <= tol * scale and not crossed
+                limited = (not done) and (not crossed) and growth * got[3][s] > tol * scale
+                if not (done or limited):
+                    finished = False
+            if finished:
+                return LEVELS_DONE, level + 1, energies[:level + 1].copy(), sizes[:level + 1].copy(), last
+        # the next level's predictions
+        if level == 0:
+            ge = en.copy()
+        else:
+            ge = en - (energies[level - 1] - en) / 4.0
+        gs = got[2].copy()
+    return LEVELS_ALL, max_levels, energies.copy(), sizes.copy(), last
