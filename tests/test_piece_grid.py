@@ -141,3 +141,41 @@ def test_no_tables_where_the_potential_varies_between_features():
         {"shape": "smooth_square", "center": 0.0, "width": 6.0, "edge": 0.5, "depth": 120.0}]}).potential
     assert pot.piece_table is None
     assert spacing_function(pot, -120.0, 0.0, GridSettings()).table is None
+
+
+def _coarse_both_ways(case):
+    """(compiled, general) coarse-grid states of a case: the coarse solve of its first box, one call and the
+    general path (:func:`fdsolver.boundstates.levels.solve_nodes` without vectors)."""
+    from dataclasses import replace
+
+    from fdsolver.boundstates.driver import _center_for, _grid
+    from fdsolver.boundstates.levels import coarse_states, solve_nodes
+    from fdsolver.boundstates.problem import plan
+
+    problem = plan(case.potential, case.domain, case.settings)
+    gs = replace(problem.settings.grid, wave_fraction=2.0 * problem.settings.grid.wave_fraction)
+    e_hi = problem.threshold if np.isfinite(problem.threshold) else problem.reference + problem.v_range[1]
+    center = _center_for(problem, problem.box)
+    nodes = _grid(problem, problem.box, problem.reference + problem.deepest, e_hi, gs, center)
+    return coarse_states(problem, nodes, center), solve_nodes(problem, nodes, center, vectors=False)[1]
+
+
+@pytest.mark.parametrize("seed", SEEDS)
+@pytest.mark.parametrize("solve", [{}, {"max_states": 2}, {"energy_window": [-60.0, 0.0]}])
+def test_one_call_coarse_solve_is_the_general_path(seed, solve, monkeypatch):
+    """The coarse solve's energies, indices, sectors, parities and counts: the same from the compiled call and
+    from the general path, with the default window, a state limit and a window whose foot lies among the states
+    (between hard walls the window has no top: the upper bracket is searched)."""
+    from fdsolver.boundstates import eigen
+
+    d = {**_structure(seed), "solve": solve}
+    calls = []
+    real = eigen.constant_coarse
+    monkeypatch.setattr("fdsolver.boundstates.levels.constant_coarse",
+                        lambda *a, **k: calls.append(real(*a, **k)) or calls[-1])
+    fast, general = _coarse_both_ways(fdsolver.case_from_dict(d))
+    assert calls and calls[-1] is not None, "the compiled coarse solve did not decide"
+    for name in ("energy", "index", "sector", "parity", "roundoff"):
+        assert np.array_equal(getattr(fast, name), getattr(general, name)), name
+    assert (fast.count_below, fast.first_index, len(fast.vectors)) == \
+        (general.count_below, general.first_index, len(general.vectors))

@@ -35,7 +35,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from fdsolver.boundstates.box import open_box
-from fdsolver.boundstates.levels import LevelRun, refine_levels, solve_nodes
+from fdsolver.boundstates.levels import LevelRun, coarse_states, refine_levels
 from fdsolver.boundstates.problem import Problem, plan
 from fdsolver.boundstates.result import Solution, finish
 from fdsolver.boundstates.settings import SolveSettings
@@ -145,7 +145,7 @@ def _provisional(problem: Problem) -> Provisional:
     e_hi = problem.threshold if math.isfinite(problem.threshold) else problem.reference + problem.v_range[1]
     box = problem.box
     center = _center_for(problem, box)
-    _, states = solve_nodes(problem, _grid(problem, box, e_lo, e_hi, coarse, center), center, vectors=False)
+    states = coarse_states(problem, _grid(problem, box, e_lo, e_hi, coarse, center), center)
     if problem.domain.hard:
         return Provisional(box, center, e_lo, e_hi, states)
     for _attempt in range(MAX_BOX_ATTEMPTS):
@@ -153,7 +153,7 @@ def _provisional(problem: Problem) -> Provisional:
             break
         box = _grow(box)  # a very shallow state: its decay length exceeds the box
         center = _center_for(problem, box)
-        _, states = solve_nodes(problem, _grid(problem, box, e_lo, e_hi, coarse, center), center, vectors=False)
+        states = coarse_states(problem, _grid(problem, box, e_lo, e_hi, coarse, center), center)
     # the box the shallowest state asks for; the levels check it again with the converged energies
     box = open_box(pot, problem.domain, _top(problem, states, box), problem.budget, box, problem.mirror)
     return Provisional(box, _center_for(problem, box), e_lo, e_hi, states)

@@ -344,6 +344,26 @@ def constant_levels(base: np.ndarray, cells: tuple, center: float | None, potent
     return int(reason), list(rows), [int(k) for k in sizes], states
 
 
+def constant_coarse(nodes: np.ndarray, cells: tuple, center: float | None, potential, shift: float, e_lo,
+                    e_hi: float, max_states: int, floor: float) -> GridStates | None:
+    """:func:`solve_grid` without a guess and without vectors (a coarse solve: energies by bisection) for a grid
+    whose V and m are constant on every cell (``cells``, :func:`fdsolver.numerics.operator.cell_constants`), in
+    one compiled call (:func:`fdsolver.numerics.kernels.constant_coarse`): the same states.  None where the
+    general path must decide (it says what is wrong, or hands many values to LAPACK)."""
+    pos, alpha = point_arrays(potential)
+    status, energy, sector, count_below, first_index = kernels.constant_coarse(
+        np.ascontiguousarray(nodes, dtype=float), cells[0], cells[1], center is not None,
+        0.0 if center is None else float(center), float(potential.hbar2_2me), float(shift), pos, alpha,
+        e_lo is not None, 0.0 if e_lo is None else float(e_lo), float(e_hi), int(max_states), float(floor),
+        BISECTION_RTOL, LAPACK_WORK)
+    if status != 0:
+        return None
+    parity = np.array((1, -1) if center is not None else (0,), dtype=int)[sector]
+    return GridStates(energy, first_index + np.arange(energy.size), sector, parity,
+                      tuple(np.empty(0) for _ in range(energy.size)), np.zeros(energy.size), int(count_below),
+                      int(first_index))
+
+
 def _predicted(guess, n_sectors: int, n: int):
     """Per-sector arrays of predicted energies, or None if the guess does not describe exactly n states.
 

@@ -29,6 +29,7 @@ import numpy as np
 from fdsolver.boundstates.eigen import (
     GridStates,
     Sector,
+    constant_coarse,
     constant_level,
     constant_levels,
     point_arrays,
@@ -66,6 +67,19 @@ def solve_nodes(problem: Problem, nodes: np.ndarray, center: float | None, guess
     s = problem.settings
     states = solve_grid(sectors, problem.e_lo, problem.e_hi, s.max_states, problem.floor, guess, vectors, tried)
     return sectors, states
+
+
+def coarse_states(problem: Problem, nodes: np.ndarray, center: float | None) -> GridStates:
+    """The energies of the states on a coarse grid, by bisection, no vectors (:func:`solve_nodes` without
+    ``vectors``); where V and m are constant on every cell, in one compiled call
+    (:func:`fdsolver.boundstates.eigen.constant_coarse`, the same states)."""
+    cells = cell_constants(problem.potential, nodes)
+    if cells is not None:
+        got = constant_coarse(nodes, cells, center, problem.potential, problem.reference, problem.e_lo,
+                              problem.e_hi, problem.settings.max_states, problem.floor)
+        if got is not None:
+            return got
+    return solve_nodes(problem, nodes, center, vectors=False)[1]
 
 
 @dataclass

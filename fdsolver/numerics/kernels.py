@@ -29,8 +29,10 @@
   (:mod:`fdsolver.numerics.operator`) in one pass over the cells; :func:`even_half` its even mirror sector;
   both through :func:`symmetric_form`, the one formula of T's diagonal and off-diagonal.
 * :func:`refine_nodes` - nested refinement of a grid (every cell split in k).
-* :func:`constant_level` - one nested level of a potential constant on every base cell: refinement,
-  assembly (point terms, mirror halves) and :func:`predicted_grid` in one call.
+* :func:`constant_sectors` - the operators of a grid whose cells take their base cell's V and m (point terms,
+  mirror halves); :func:`constant_level` - one nested level of such a potential: refinement, those operators
+  and :func:`predicted_grid` in one call; :func:`constant_levels` - every regular level with the Romberg
+  table and the judgement; :func:`constant_coarse` - a coarse grid's energies by bisection.
 * :func:`decay_reach` - where the WKB decay integral along a walk first reaches a budget (the box's ends).
 
 Numba is used here because these loops are sequential recurrences that numpy
@@ -1188,23 +1190,17 @@ def decay_reach(x, v, m, c, e_top, budget):
 
 
 @njit
-def constant_level(base, v_cell, m_cell, level, mirror, center, c, shift, pos, alpha, guess_e, guess_s, has_lo,
-                   e_lo, e_hi, max_states, floor, cluster_rtol, steps, residual_factor, ulps, eps):
-    """One nested level of a potential constant on every base cell, assembled and solved in one compiled call.
-
-    The grid is ``base`` with every cell split into 2^``level`` (:func:`refine_nodes`); every sub-cell takes
-    its base cell's V (``v_cell``, energy unit) and m (``m_cell``, m_e); ``c`` = hbar^2/(2 m_e) in case units;
-    point terms of strength ``alpha`` at ``pos`` (length unit) sit on their nearest unknown.  With ``mirror``
-    the operator is assembled on the cells right of ``center`` and the one left of it, and split into its even
-    and odd halves.  The operators are exactly those of :func:`fdsolver.numerics.operator.assemble` (with
-    ``cells``) and :func:`fdsolver.numerics.operator.mirror_halves` (the same floating-point operations in the
-    same order), and the states those of :func:`predicted_grid` from the guess (``guess_e``, ``guess_s``).
-    Returns :func:`predicted_grid`'s tuple; status 1 (the general path decides, and says what is wrong) also
-    where the nodes do not increase, a dual-cell integral is not finite or a point term is off its node.  O(N)
-    per state.
+def constant_sectors(nodes, v_cell, m_cell, reps, mirror, center, c, shift, pos, alpha):
+    """The operator arrays of a grid whose cells take the V and m of the base cell they lie in (``reps``
+    sub-cells per base cell, ``v_cell`` in the energy unit, ``m_cell`` in m_e); ``c`` = hbar^2/(2 m_e) in case
+    units; point terms of strength ``alpha`` at ``pos`` (length unit) on their nearest unknown.  With
+    ``mirror`` the operator is assembled on the cells right of ``center`` and the one left of it, and split
+    into its even and odd halves.  Exactly the arrays of :func:`fdsolver.numerics.operator.assemble` (with
+    ``cells``) and :func:`fdsolver.numerics.operator.mirror_halves`: the same floating-point operations in the
+    same order.  Returns (ok, d, e, a, vw, w of the whole grid or the even half, the same of the odd half (the
+    whole grid's again without ``mirror``)); not ok where the nodes do not increase, a dual-cell integral is
+    not finite or a point term is off its node.  O(N).
     """
-    nodes = refine_nodes(base, 2**level) if level > 0 else base
-    reps = 2**level
     first = 0
     if mirror:
         first = np.searchsorted(nodes, center) - 1
@@ -1219,13 +1215,11 @@ def constant_level(base, v_cell, m_cell, level, mirror, center, c, shift, pos, a
         half[j] = 0.5 * (sub[j + 1] - sub[j]) * vj
     a, w, vw, _, d, e, ok = flux_operator(sub, mass, half, half, c, shift, False)
     n = w.shape[0]
-    fail = (1, np.empty(0), np.empty(0, np.int64), np.empty(0), np.empty(0, np.int64), 0, 0,
-            np.empty((0, n)), np.empty((0, n)))
     if not ok or n < 2:
-        return fail
+        return False, d, e, a, vw, w, d, e, a, vw, w
     for i in range(n):
         if not math.isfinite(vw[i]):
-            return fail
+            return False, d, e, a, vw, w, d, e, a, vw, w
     if pos.shape[0]:
         x = sub[1:-1]
         lo_x = x[0] - 1e-12 * abs(x[0])
@@ -1239,15 +1233,34 @@ def constant_level(base, v_cell, m_cell, level, mirror, center, c, shift, pos, a
             if i > 0 and abs(x[i - 1] - q) < abs(x[i] - q):
                 i -= 1
             if abs(x[i] - q) > 1e-9 * max(1.0, abs(q)) + 1e-12 * span:
-                return fail
+                return False, d, e, a, vw, w, d, e, a, vw, w
             vw[i] -= alpha[p]
             d[i] = (a[i] + a[i + 1] + vw[i]) / w[i]
     if mirror:
         a0, w0, vw0, d0, e0 = even_half(a, w, vw, 0)
-        return predicted_grid(d0, e0, a0, vw0, w0, d[1:], e[1:], a[1:], vw[1:], w[1:], True, guess_e, guess_s,
-                              has_lo, e_lo, e_hi, max_states, floor, cluster_rtol, steps, residual_factor, ulps, eps)
-    return predicted_grid(d, e, a, vw, w, d, e, a, vw, w, False, guess_e, guess_s, has_lo, e_lo, e_hi, max_states,
-                          floor, cluster_rtol, steps, residual_factor, ulps, eps)
+        return True, d0, e0, a0, vw0, w0, d[1:], e[1:], a[1:], vw[1:], w[1:]
+    return True, d, e, a, vw, w, d, e, a, vw, w
+
+
+@njit
+def constant_level(base, v_cell, m_cell, level, mirror, center, c, shift, pos, alpha, guess_e, guess_s, has_lo,
+                   e_lo, e_hi, max_states, floor, cluster_rtol, steps, residual_factor, ulps, eps):
+    """One nested level of a potential constant on every base cell, assembled and solved in one compiled call.
+
+    The grid is ``base`` with every cell split into 2^``level`` (:func:`refine_nodes`); its operators are
+    those of :func:`constant_sectors`, and the states those of :func:`predicted_grid` from the guess
+    (``guess_e``, ``guess_s``).  Returns :func:`predicted_grid`'s tuple; status 1 (the general path decides,
+    and says what is wrong) also where :func:`constant_sectors` is not ok.  O(N) per state.
+    """
+    nodes = refine_nodes(base, 2**level) if level > 0 else base
+    ok, d0, e0, a0, vw0, w0, d1, e1, a1, vw1, w1 = constant_sectors(nodes, v_cell, m_cell, 2**level, mirror,
+                                                                     center, c, shift, pos, alpha)
+    if not ok:
+        n = w0.shape[0]
+        return (1, np.empty(0), np.empty(0, np.int64), np.empty(0), np.empty(0, np.int64), 0, 0,
+                np.empty((0, n)), np.empty((0, n)))
+    return predicted_grid(d0, e0, a0, vw0, w0, d1, e1, a1, vw1, w1, mirror, guess_e, guess_s, has_lo, e_lo, e_hi,
+                          max_states, floor, cluster_rtol, steps, residual_factor, ulps, eps)
 
 
 #: why :func:`constant_levels` stopped: every state judged (converged, or limited by round-off); the level
@@ -1345,3 +1358,107 @@ def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, 
             ge = en - (energies[level - 1] - en) / 4.0
         gs = got[2].copy()
     return LEVELS_ALL, max_levels, energies.copy(), sizes.copy(), last
+
+
+@njit
+def _gershgorin_below(d, e):
+    """min_i (d_i - |e_{i-1}| - |e_i|): no eigenvalue of tridiag(e, d, e) lies below it."""
+    n = d.shape[0]
+    below = math.inf
+    for i in range(n):
+        left = abs(e[i - 1]) if i > 0 else 0.0
+        right = abs(e[i]) if i < n - 1 else 0.0
+        below = min(below, d[i] - (left + right))
+    return below
+
+
+@njit
+def _window_values(d, e, has_lo, e_lo, e_hi, max_states, floor, rtol, work):
+    """(status, lo, hi, values) of one sector for :func:`constant_coarse`: the Sturm counts at the window's
+    ends and its lowest min(hi - lo, max_states) eigenvalues by bisection; status 1 where the general path
+    decides (more values x nodes than ``work``: LAPACK's simultaneous bisection is cheaper there)."""
+    n = d.shape[0]
+    lo = sturm_count(d, e, e_lo) if has_lo and math.isfinite(e_lo) else 0
+    hi = n if not math.isfinite(e_hi) else sturm_count(d, e, e_hi)
+    m = min(hi - lo, max_states)
+    if m <= 0:
+        return 0, lo, hi, np.empty(0)
+    if n == 1:
+        out = np.empty(1)
+        out[0] = d[0]
+        return 0, lo, hi, out
+    if m * n > work:
+        return 1, lo, hi, np.empty(0)
+    below = _gershgorin_below(d, e)
+    above = e_hi
+    if not math.isfinite(above):
+        above = upper_bracket(d, e, below, max(floor, 1e-3 * abs(below), 1e-300), lo + m)
+    return 0, lo, hi, bisect_eigenvalues(d, e, lo, m, below, above, rtol, floor)
+
+
+@njit
+def constant_coarse(nodes, v_cell, m_cell, mirror, center, c, shift, pos, alpha, has_lo, e_lo, e_hi, max_states,
+                    floor, rtol, work):
+    """The energies of the states of a coarse grid whose V and m are constant on every cell, in one compiled
+    call: the operators of :func:`constant_sectors` and the steps of
+    :func:`fdsolver.boundstates.eigen.solve_grid` without a guess and without vectors (Sturm counts at the
+    window's ends, the lowest states of each sector by bisection to ``rtol``, the lowest ``max_states`` of
+    all, merged by the mirror ranks, cut at e_hi).  Returns (status, energy, sector, count_below,
+    first_index): status 1 where the general path decides (the operators are not ok, or a sector asks for more
+    than ``work`` values x nodes).  Energies relative to ``shift``.  O(N log(range / tolerance)) per state.
+    """
+    ok, d0, e0, a0, vw0, w0, d1, e1, a1, vw1, w1 = constant_sectors(nodes, v_cell, m_cell, 1, mirror, center, c,
+                                                                     shift, pos, alpha)
+    fail = (1, np.empty(0), np.empty(0, np.int64), 0, 0)
+    if not ok:
+        return fail
+    st0, lo0, hi0, v0 = _window_values(d0, e0, has_lo, e_lo, e_hi, max_states, floor, rtol, work)
+    lo1, hi1, st1 = 0, 0, 0
+    v1 = np.empty(0)
+    if mirror:
+        st1, lo1, hi1, v1 = _window_values(d1, e1, has_lo, e_lo, e_hi, max_states, floor, rtol, work)
+    total = (hi0 - lo0) + (hi1 - lo1)
+    n = min(total, max_states)
+    first_index = lo0 + lo1
+    count_below = hi0 + hi1
+    if n <= 0:
+        return 0, np.empty(0), np.empty(0, np.int64), count_below, first_index
+    if st0 != 0 or st1 != 0:
+        return fail
+    # the n lowest of both sectors (numpy.lexsort by value, then sector: a stable sort of the concatenation)
+    k0 = v0.shape[0]
+    allv = np.empty(k0 + v1.shape[0])
+    allv[:k0] = v0
+    allv[k0:] = v1
+    keep = np.argsort(allv, kind="mergesort")[:n]
+    w0n = 0
+    for j in range(keep.shape[0]):
+        if keep[j] < k0:
+            w0n += 1
+    w1n = keep.shape[0] - w0n
+    energy = np.empty(w0n + w1n)
+    sector = np.empty(w0n + w1n, np.int64)
+    rank = np.empty(w0n + w1n, np.int64)
+    for j in range(w0n):
+        energy[j] = v0[j]
+        sector[j] = 0
+        rank[j] = 2 * (lo0 + j)
+    for j in range(w1n):
+        energy[w0n + j] = v1[j]
+        sector[w0n + j] = 1
+        rank[w0n + j] = 2 * (lo1 + j) + 1
+    if mirror:
+        order = np.argsort(rank, kind="mergesort")
+    else:
+        order = np.argsort(energy, kind="mergesort")
+    kept = 0
+    out_e = np.empty(order.shape[0])
+    out_s = np.empty(order.shape[0], np.int64)
+    for j in range(order.shape[0]):
+        k = order[j]
+        if math.isfinite(e_hi) and not energy[k] < e_hi:
+            continue
+        out_e[kept] = energy[k]
+        out_s[kept] = sector[k]
+        kept += 1
+    return 0, out_e[:kept].copy(), out_s[:kept].copy(), count_below - (energy.shape[0] - kept), first_index

@@ -41,7 +41,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from fdsolver.errors import CaseError
-from fdsolver.numerics.kernels import even_half, flux_operator
+from fdsolver.numerics.kernels import even_half, flux_operator, piece_values
 
 DIRICHLET, NEUMANN = "dirichlet", "neumann"
 
@@ -96,6 +96,9 @@ def cell_constants(potential, nodes: np.ndarray) -> tuple[np.ndarray, np.ndarray
     if np.any(np.minimum(f - nodes[i], nodes[i + 1] - f) > ON_NODE_RTOL * (nodes[i + 1] - nodes[i])):
         return None
     mid = 0.5 * (nodes[:-1] + nodes[1:])
+    table = getattr(potential, "piece_table", None)
+    if table is not None:  # the same numbers, read from the potential's tables (no Python evaluation)
+        return piece_values(mid, *table)
     return potential.value(mid), potential.mass_at(mid)
 
 
