@@ -37,7 +37,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from fdsolver.boundstates.eigen import Sector, constant_level, solve_grid
+from fdsolver.boundstates.eigen import Sector, constant_levels, solve_grid
 from fdsolver.boundstates.result import unfold_into
 from fdsolver.model.units import UnitSystem
 from fdsolver.numerics import kernels
@@ -90,7 +90,7 @@ def _grid_solve(potential, nodes: np.ndarray, count: int, guess: np.ndarray | No
     about its middle node: the grid is then solved in its even and odd halves, as the solver does
     (:func:`fdsolver.numerics.operator.mirror_halves`), so every state has its parity exactly.  Where V and m
     are constant on every cell, the operators and the states come from one compiled call
-    (:func:`fdsolver.boundstates.eigen.constant_level`).
+    (:func:`fdsolver.boundstates.eigen.constant_levels` on this one level, the solver's own).
     """
     op = assemble(potential, nodes)
     floor = max(float(np.ptp(op.v)), 1e-300)  # the energy scale relative comparisons need
@@ -108,9 +108,9 @@ def _grid_solve(potential, nodes: np.ndarray, count: int, guess: np.ndarray | No
     if guess is not None:
         guess = (np.asarray(guess, dtype=float), which)
         cells = cell_constants(potential, nodes)
-        if cells is not None:
-            states = constant_level(op.nodes, cells, 0, float(nodes[centre]) if halves else None, potential, 0.0,
-                                    None, np.inf, count, floor, guess)
+        if cells is not None:  # the solver's one-call pass, on this one level (no judgement: two levels needed)
+            states = constant_levels(op.nodes, cells, float(nodes[centre]) if halves else None, potential, 0.0,
+                                     None, np.inf, count, floor, guess, 1, 2, nodes.size, 0.0, 0.0)[3]
     if states is None:
         states = solve_grid(sectors, None, np.inf, count, floor, guess)
     psi = np.zeros((states.size, nodes.size))
