@@ -172,3 +172,55 @@ def test_a_sampling_pass_is_the_numpy_sequence(seed, n, k):
     hs = kernels.lipschitz_limit(xs, np.minimum(f(xs), cap), growth)
     for a, b in zip(got, (xs, f(xs), hs, kernels.coarse_midpoints(xs, hs))):
         assert np.array_equal(a, b)
+
+
+def _observable_columns_numpy(x_all, intervals, x_ref):
+    """The numpy forms the kernel replaces (fdsolver.boundstates.result before it was compiled): node weights,
+    the first and second moment columns and each node's dual-cell overlap with each interval."""
+    h = np.diff(x_all)
+    w_all = np.concatenate([[0.0], 0.5 * (h[:-1] + h[1:]), [0.0]])
+    bounds = np.asarray(intervals, dtype=float).reshape(-1, 2)
+    columns = np.zeros((x_all.size, 2 + bounds.shape[0]))
+    columns[:, 0] = w_all * x_all
+    columns[:, 1] = w_all * (x_all - x_ref) ** 2
+    lo_cell = np.concatenate([[x_all[0]], x_all[1:] - 0.5 * h])
+    hi_cell = np.concatenate([x_all[:-1] + 0.5 * h, [x_all[-1]]])
+    first = np.searchsorted(hi_cell, bounds[:, 0], side="right")
+    stop = np.searchsorted(lo_cell, bounds[:, 1], side="left")
+    for j, (i0, i1) in enumerate(zip(first.tolist(), stop.tolist())):
+        if i1 > i0:
+            columns[i0:i1, 2 + j] = np.minimum(hi_cell[i0:i1], bounds[j, 1]) - np.maximum(lo_cell[i0:i1], bounds[j, 0])
+    return w_all, columns
+
+
+def _sign_changes_numpy(psi, fraction):
+    size = np.abs(psi)
+    big = size > fraction * np.max(size, axis=1, keepdims=True)
+    s = np.sign(psi)
+    return np.count_nonzero(big[:, 1:] & big[:, :-1] & (s[:, 1:] != s[:, :-1]), axis=1)
+
+
+@PROPS
+@given(st.integers(0, 10**6), st.integers(3, 400), st.integers(0, 6), st.integers(0, 5))
+def test_observable_columns_are_the_numpy_forms(seed, n, k, states):
+    """wave_columns: weights, moment columns, dual-cell overlaps (intervals inside, across the ends, beyond them,
+    empty and on nodes) and sign changes (rows with zeros, tiny unresolved tails and a NaN), bit for bit."""
+    rng = np.random.default_rng(seed)
+    x = np.cumsum(rng.uniform(0.01, 1.0, n)) - 3.0
+    ends = rng.uniform(x[0] - 2.0, x[-1] + 2.0, (k, 2))
+    if k:
+        ends[0] = [x[n // 3], x[n // 2]]  # both ends on nodes
+    intervals = np.sort(ends, axis=1)
+    x_ref = float(rng.uniform(-2.0, 2.0))
+    psi = rng.normal(size=(states, n)) * np.exp(-np.abs(rng.normal(size=(states, 1))) * np.abs(x))
+    if states:
+        psi[0, : n // 4] = 1e-12 * rng.normal(size=n // 4)  # an unresolved tail that changes sign
+        psi[-1, n // 2] = 0.0
+    if states > 2:
+        psi[1, n // 2] = np.nan
+    w, cols, changes = kernels.wave_columns(x, np.ascontiguousarray(psi), np.ascontiguousarray(intervals), x_ref,
+                                            1e-6)
+    w_ref, cols_ref = _observable_columns_numpy(x, intervals, x_ref)
+    assert np.array_equal(w, w_ref) and np.array_equal(cols, cols_ref)
+    with np.errstate(invalid="ignore"):
+        assert np.array_equal(changes, _sign_changes_numpy(psi, 1e-6))

@@ -29,6 +29,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from fdsolver.numerics import kernels
 from fdsolver.numerics.operator import NEUMANN
 
 #: psi is resolved where |psi| exceeds this fraction of its peak (eigenvector noise lies far below)
@@ -37,8 +38,6 @@ RESOLVED_FRACTION = 1e-6
 WALL_SHARE = 0.5
 #: states whose observables are summed at once (bounds the temporary psi^2 array)
 OBSERVABLE_CHUNK = 64
-#: the sign changes of psi are counted over blocks of about this many entries (whole rows, at least one)
-SIGN_BLOCK = 1 << 16
 #: region shares closer than this (as fractions of the state's probability) are equal: of regions that share a
 #: state equally (the wells of a mirror-symmetric pair) the first in the case's order is its home, whatever the
 #: last bits of psi say
@@ -146,11 +145,9 @@ def _potential_on(pot, x_all: np.ndarray, v_cells: np.ndarray | None = None) -> 
 
 def _sign_changes(psi: np.ndarray) -> np.ndarray:
     """Sign changes of each row of psi inside the stretches where it is resolved (never across an unresolved
-    gap)."""
-    size = np.abs(psi)
-    big = size > RESOLVED_FRACTION * np.max(size, axis=1, keepdims=True)
-    s = np.sign(psi)
-    return np.count_nonzero(big[:, 1:] & big[:, :-1] & (s[:, 1:] != s[:, :-1]), axis=1)
+    gap: both neighbours above :data:`RESOLVED_FRACTION` of the row's peak; :func:`fdsolver.numerics.kernels.wave_columns`)."""
+    psi = np.ascontiguousarray(psi, dtype=float)
+    return kernels.wave_columns(np.zeros(psi.shape[1]), psi, np.zeros((0, 2)), 0.0, RESOLVED_FRACTION)[2]
 
 
 def _wall_zones(problem, box) -> list[tuple[int, float, float]]:
@@ -164,25 +161,13 @@ def _wall_zones(problem, box) -> list[tuple[int, float, float]]:
     return [(-1, box[0], float(feats[0])), (1, float(feats[-1]), box[1])]
 
 
-def _cell_overlaps(x_all: np.ndarray, intervals, out: np.ndarray | None = None) -> np.ndarray:
+def _cell_overlaps(x_all: np.ndarray, intervals) -> np.ndarray:
     """Length of each node's dual cell inside each of the ``intervals`` (lo, hi): one column per interval
-    (written into ``out``, zero on entry, where given).
-
-    min(cell end, hi) - max(cell start, lo) on the nodes whose dual cells reach into the interval (the cells'
-    starts and ends both rise with the node, so they are one stretch, found by bisection); 0 elsewhere.
-    """
-    bounds = np.asarray(intervals, dtype=float).reshape(-1, 2)
-    h = np.diff(x_all)
-    lo_cell = np.concatenate([[x_all[0]], x_all[1:] - 0.5 * h])
-    hi_cell = np.concatenate([x_all[:-1] + 0.5 * h, [x_all[-1]]])
-    if out is None:
-        out = np.zeros((x_all.size, bounds.shape[0]))
-    first = np.searchsorted(hi_cell, bounds[:, 0], side="right")  # the first cell ending beyond lo
-    stop = np.searchsorted(lo_cell, bounds[:, 1], side="left")  # past the last cell starting before hi
-    for j, (i0, i1) in enumerate(zip(first.tolist(), stop.tolist())):
-        if i1 > i0:
-            out[i0:i1, j] = np.minimum(hi_cell[i0:i1], bounds[j, 1]) - np.maximum(lo_cell[i0:i1], bounds[j, 0])
-    return out
+    (:func:`fdsolver.numerics.kernels.wave_columns`: min(cell end, hi) - max(cell start, lo) on the nodes whose
+    dual cells reach into the interval, 0 elsewhere)."""
+    bounds = np.ascontiguousarray(np.asarray(intervals, dtype=float).reshape(-1, 2))
+    x_all = np.ascontiguousarray(x_all, dtype=float)
+    return kernels.wave_columns(x_all, np.zeros((0, x_all.size)), bounds, 0.0, RESOLVED_FRACTION)[1][:, 2:]
 
 
 def _cell_overlap(x_all: np.ndarray, lo: float, hi: float) -> np.ndarray:
@@ -251,17 +236,13 @@ def _observables(problem, box, run, conv: np.ndarray, index: np.ndarray, message
     pot = problem.potential
     n = run.energy.size
     x_all, psi = _unfolded(run)
-    h = np.diff(x_all)
-    w_all = np.concatenate([[0.0], 0.5 * (h[:-1] + h[1:]), [0.0]])
     regions = pot.regions()
     zones = _wall_zones(problem, box)
     # per node: weight, weight * x, weight * x^2 and each region's and wall zone's share of the node's cell;
     # one product with psi^2 gives every state's norm-weighted sums (psi^2 made in chunks: memory O(N) per state)
     x_ref = 0.5 * sum(pot.support())  # second moments about the structure's middle: no cancellation against <x>
-    columns = np.zeros((x_all.size, 2 + len(regions) + len(zones)))
-    columns[:, 0] = w_all * x_all
-    columns[:, 1] = w_all * (x_all - x_ref) ** 2
-    _cell_overlaps(x_all, [(lo, hi) for _, lo, hi in regions] + [(lo, hi) for _, lo, hi in zones], columns[:, 2:])
+    bounds = np.array([(lo, hi) for _, lo, hi in regions] + [(lo, hi) for _, lo, hi in zones], dtype=float)
+    w_all, columns, found = kernels.wave_columns(x_all, psi, bounds.reshape(-1, 2), float(x_ref), RESOLVED_FRACTION)
     sums = np.empty((n, columns.shape[1]))
     for a in range(0, n, OBSERVABLE_CHUNK):
         sums[a : a + OBSERVABLE_CHUNK] = (psi[a : a + OBSERVABLE_CHUNK] ** 2) @ columns
@@ -272,7 +253,7 @@ def _observables(problem, box, run, conv: np.ndarray, index: np.ndarray, message
     wall = np.zeros(n, dtype=int)
     for j, (side, _, _) in enumerate(zones):
         wall[sums[:, 2 + len(regions) + j] > WALL_SHARE] = side
-    _check_signs((x_all, psi), index, conv, messages)
+    _check_signs((x_all, psi), index, conv, messages, found)
     return {"x": x_all, "potential": _potential_on(pot, x_all, None if run.cells is None else run.cells[0]), "mass": pot.mass_at(x_all), "weights": w_all,
             "psi": psi, "mean_x": mean_x, "spread": spread, "inside": inside, "home": home.astype(int), "wall": wall}
 
@@ -287,16 +268,12 @@ def _unfolded(run) -> tuple[np.ndarray, np.ndarray]:
     return x_all, psi
 
 
-def _check_signs(unfolded: tuple[np.ndarray, np.ndarray], index: np.ndarray, conv: np.ndarray, messages: list) -> None:
+def _check_signs(unfolded: tuple[np.ndarray, np.ndarray], index: np.ndarray, conv: np.ndarray, messages: list,
+                 found: np.ndarray | None = None) -> None:
     """Mark not converged (``conv``, with a note) every state whose resolved wavefunction changes sign more often
     than its index allows: the grid does not separate it from a neighbouring state.  ``unfolded``: (nodes, psi)
-    of :func:`_unfolded`."""
-    x_all, psi = unfolded
-    # rows of psi at a time whose |psi|, sign and masks stay small (a few 100 kB): large temporaries cost more in
-    # first touches of fresh memory than the passes themselves
-    step = max(1, SIGN_BLOCK // max(x_all.size, 1))
-    found = np.concatenate([_sign_changes(psi[a : a + step]) for a in range(0, psi.shape[0], step)]
-                           or [np.zeros(0, dtype=int)])
+    of :func:`_unfolded`; ``found``: the sign changes, where they were counted already (:func:`_sign_changes`)."""
+    found = _sign_changes(unfolded[1]) if found is None else found
     for k in np.flatnonzero(found > index):
         conv[k] = False
         messages.append(

@@ -1462,3 +1462,61 @@ def constant_coarse(nodes, v_cell, m_cell, mirror, center, c, shift, pos, alpha,
         out_s[kept] = sector[k]
         kept += 1
     return 0, out_e[:kept].copy(), out_s[:kept].copy(), count_below - (energy.shape[0] - kept), first_index
+
+
+@njit
+def wave_columns(x, psi, bounds, x_ref, fraction):
+    """What the observables of the states ``psi`` (states x nodes, on the nodes ``x``, length unit) are summed
+    from, in one pass: (node weights w, columns, sign changes).
+
+    w_i = (h_{i-1} + h_i)/2 (0 at the ends); column 0 is w x, column 1 w (x - x_ref)^2, and column 2 + j the
+    length of each node's dual cell [x_i - h_{i-1}/2, x_i + h_i/2] (the ends' half cells) inside
+    [bounds[j, 0], bounds[j, 1]]; the sign changes of each row of psi counted between neighbours that both
+    exceed ``fraction`` of the row's largest |psi| (none in a row holding a NaN).  The same floating-point
+    operations as the numpy forms of :mod:`fdsolver.boundstates.result`.  O(N (K + states) + K log N).
+    """
+    n = x.shape[0]
+    k = bounds.shape[0]
+    w = np.zeros(n)
+    cols = np.zeros((n, 2 + k))
+    for i in range(1, n - 1):
+        w[i] = 0.5 * ((x[i] - x[i - 1]) + (x[i + 1] - x[i]))
+    for i in range(n):
+        cols[i, 0] = w[i] * x[i]
+        dx = x[i] - x_ref
+        cols[i, 1] = w[i] * (dx * dx)
+    if k:
+        lo_cell = np.empty(n)
+        hi_cell = np.empty(n)
+        lo_cell[0] = x[0]
+        hi_cell[n - 1] = x[n - 1]
+        for i in range(n - 1):
+            h = x[i + 1] - x[i]
+            lo_cell[i + 1] = x[i + 1] - 0.5 * h
+            hi_cell[i] = x[i] + 0.5 * h
+        for j in range(k):
+            first = np.searchsorted(hi_cell, bounds[j, 0], side="right")  # the first cell ending beyond lo
+            stop = np.searchsorted(lo_cell, bounds[j, 1], side="left")  # past the last cell starting before hi
+            for i in range(first, stop):
+                cols[i, 2 + j] = min(hi_cell[i], bounds[j, 1]) - max(lo_cell[i], bounds[j, 0])
+    states = psi.shape[0]
+    changes = np.zeros(states, np.int64)
+    for r in range(states):
+        peak = 0.0
+        nan = False
+        for i in range(n):
+            a = abs(psi[r, i])
+            if a != a:
+                nan = True
+            elif a > peak:
+                peak = a
+        if nan:
+            continue
+        limit = fraction * peak
+        count = 0
+        for i in range(n - 1):
+            p, q = psi[r, i], psi[r, i + 1]
+            if abs(p) > limit and abs(q) > limit and (p > 0.0) != (q > 0.0):
+                count += 1
+        changes[r] = count
+    return w, cols, changes
