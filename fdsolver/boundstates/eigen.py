@@ -43,7 +43,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from fdsolver.numerics import kernels
-from fdsolver.numerics.operator import Operator
+from fdsolver.numerics.operator import Operator, mirror_halves
 from fdsolver.numerics.precision import EPS
 
 #: states closer than this fraction of their energy scale are a cluster (Gram-Schmidt between them)
@@ -307,7 +307,7 @@ def constant_level(base: np.ndarray, cells: tuple, level: int, center: float | N
     """
     energy, sector = guess
     pos, alpha = point_arrays(potential) if points is None else points
-    status, en, sec, rounding, row, count_below, first_index, v0, v1 = kernels.constant_level(
+    (status, en, sec, rounding, row, count_below, first_index, v0, v1), _ = kernels.constant_level(
         base, cells[0], cells[1], int(level), center is not None, 0.0 if center is None else float(center),
         float(potential.hbar2_2me), float(shift), pos, alpha, np.ascontiguousarray(energy, dtype=float),
         np.ascontiguousarray(sector, dtype=np.int64), e_lo is not None, 0.0 if e_lo is None else float(e_lo),
@@ -323,25 +323,34 @@ def constant_levels(base: np.ndarray, cells: tuple, center: float | None, potent
     """Levels 0, 1, ... of ``base`` for a potential constant on every base cell, solved, extrapolated and judged
     in one compiled call (:func:`fdsolver.numerics.kernels.constant_levels`) while they are regular.
 
-    Returns (reason, rows, sizes, states): the reason it stopped (a ``kernels.LEVELS_*`` code), the energies of
-    every level done (one array each), their node counts, and the newest done level's :class:`GridStates`
-    (None if no level was done); the caller's level loop goes on from level ``len(rows)`` where the reason asks
-    for it.  The arguments are those of :func:`constant_level`, with the level loop's limits and tolerance.
+    Returns (reason, rows, sizes, states, grid): the reason it stopped (a ``kernels.LEVELS_*`` code), the
+    energies of every level done (one array each), their node counts, and the newest done level's
+    :class:`GridStates` and (nodes, sectors) (both None if no level was done): the operators
+    :func:`fdsolver.boundstates.levels.sectors_on` makes, from the same call; the caller's level loop goes on
+    from level ``len(rows)`` where the reason asks for it.  The arguments are those of :func:`constant_level`, with the level loop's limits and tolerance.
     """
     energy, sector = guess
     pos, alpha = point_arrays(potential) if points is None else points
-    reason, done, rows, sizes, got = kernels.constant_levels(
+    reason, done, rows, sizes, got, ops = kernels.constant_levels(
         base, cells[0], cells[1], center is not None, 0.0 if center is None else float(center),
         float(potential.hbar2_2me), float(shift), pos, alpha, np.ascontiguousarray(energy, dtype=float),
         np.ascontiguousarray(sector, dtype=np.int64), e_lo is not None, 0.0 if e_lo is None else float(e_lo),
         float(e_hi), int(max_states), float(floor), CLUSTER_RTOL, INVERSE_STEPS, RESIDUAL_FACTOR, QUOTIENT_ULPS, EPS,
         int(max_levels), int(min_levels), int(max_nodes), float(tol), float(growth))
-    states = None
+    states = sectors = None
     if done:
         _, en, sec, rounding, row, count_below, first_index, v0, v1 = got
         states = _states_of(sec, en, rounding, row, count_below, first_index, (v0, v1),
                             (1, -1) if center is not None else (0,))
-    return int(reason), list(rows), [int(k) for k in sizes], states
+        nodes, a0, w0, vw0, d0, e0, (sub, mass, a, w, vw, v, d, e) = ops
+        op = Operator(nodes=sub, a=a, w=w, vw=vw, v=v, mass=mass, d=d, e=e, shift=float(shift))
+        if center is None:
+            sectors = [Sector(op, 0)]
+        else:
+            even, odd = mirror_halves(op, 1, (a0, w0, vw0, d0, e0))
+            sectors = [Sector(even, 1), Sector(odd, -1)]
+        sectors = (nodes, sectors)
+    return int(reason), list(rows), [int(k) for k in sizes], states, sectors
 
 
 def constant_coarse(nodes: np.ndarray, cells: tuple, center: float | None, potential, shift: float, e_lo,

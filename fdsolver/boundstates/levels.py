@@ -160,10 +160,10 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
     vanished: list[tuple[int, int, int]] = []  # (first, last, nodes) of states lost on a finer grid
     constant = cell_constants(problem.potential, base)  # V and m per base cell, where each cell sees one value
     points = None if constant is None else point_arrays(problem.potential)
-    start, failed, reason = 0, -1, None
+    start, failed, reason, compiled = 0, -1, None, None
     if constant is not None and first_guess is not None:
         # the regular levels in one compiled call; the loop below goes on from where it stopped, if it must
-        reason, rows, sizes, done = constant_levels(
+        reason, rows, sizes, done, compiled = constant_levels(
             base, constant, center, problem.potential, problem.reference, problem.e_lo, problem.e_hi,
             settings.max_states, problem.floor, first_guess, settings.max_levels, settings.min_levels,
             problem.max_nodes(center is not None), settings.tolerance, ROUNDOFF_GROWTH, points)
@@ -225,7 +225,9 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
             if np.all(done) or np.all(done | limited):
                 break
     cells_last = _cells_of(constant, last)
-    if states is not None and sectors is None:  # the finest level came from one compiled call: its operators
+    if states is not None and sectors is None and compiled is not None and last == start - 1:
+        nodes, sectors = compiled  # the all-levels call's finest level, and its operators
+    elif states is not None and sectors is None:  # the finest level came from a per-level call: its operators
         nodes = refine(base, last)
         sectors = sectors_on(problem, nodes, center, cells_last)
     if states is None or states.size == 0:

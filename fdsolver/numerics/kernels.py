@@ -1190,16 +1190,14 @@ def decay_reach(x, v, m, c, e_top, budget):
 
 
 @njit
-def constant_sectors(nodes, v_cell, m_cell, reps, mirror, center, c, shift, pos, alpha):
+def constant_operator(nodes, v_cell, m_cell, reps, mirror, center, c, shift, pos, alpha):
     """The operator arrays of a grid whose cells take the V and m of the base cell they lie in (``reps``
     sub-cells per base cell, ``v_cell`` in the energy unit, ``m_cell`` in m_e); ``c`` = hbar^2/(2 m_e) in case
     units; point terms of strength ``alpha`` at ``pos`` (length unit) on their nearest unknown.  With
-    ``mirror`` the operator is assembled on the cells right of ``center`` and the one left of it, and split
-    into its even and odd halves.  Exactly the arrays of :func:`fdsolver.numerics.operator.assemble` (with
-    ``cells``) and :func:`fdsolver.numerics.operator.mirror_halves`: the same floating-point operations in the
-    same order.  Returns (ok, d, e, a, vw, w of the whole grid or the even half, the same of the odd half (the
-    whole grid's again without ``mirror``)); not ok where the nodes do not increase, a dual-cell integral is
-    not finite or a point term is off its node.  O(N).
+    ``mirror``, on the cells right of ``center`` and the one left of it (the halves are cut from that).
+    Exactly the arrays of :func:`fdsolver.numerics.operator.assemble` with ``cells``: the same floating-point
+    operations in the same order.  Returns (ok, nodes assembled on, cell masses, a, w, vw, v, d, e); not ok
+    where the nodes do not increase, a dual-cell integral is not finite or a point term is off its node.  O(N).
     """
     first = 0
     if mirror:
@@ -1213,13 +1211,13 @@ def constant_sectors(nodes, v_cell, m_cell, reps, mirror, center, c, shift, pos,
         mass[j] = m_cell[src]
         vj = v_cell[src] - shift if shift != 0.0 else v_cell[src]
         half[j] = 0.5 * (sub[j + 1] - sub[j]) * vj
-    a, w, vw, _, d, e, ok = flux_operator(sub, mass, half, half, c, shift, False)
+    a, w, vw, v, d, e, ok = flux_operator(sub, mass, half, half, c, shift, False)
     n = w.shape[0]
     if not ok or n < 2:
-        return False, d, e, a, vw, w, d, e, a, vw, w
+        return False, sub, mass, a, w, vw, v, d, e
     for i in range(n):
         if not math.isfinite(vw[i]):
-            return False, d, e, a, vw, w, d, e, a, vw, w
+            return False, sub, mass, a, w, vw, v, d, e
     if pos.shape[0]:
         x = sub[1:-1]
         lo_x = x[0] - 1e-12 * abs(x[0])
@@ -1233,13 +1231,25 @@ def constant_sectors(nodes, v_cell, m_cell, reps, mirror, center, c, shift, pos,
             if i > 0 and abs(x[i - 1] - q) < abs(x[i] - q):
                 i -= 1
             if abs(x[i] - q) > 1e-9 * max(1.0, abs(q)) + 1e-12 * span:
-                return False, d, e, a, vw, w, d, e, a, vw, w
+                return False, sub, mass, a, w, vw, v, d, e
             vw[i] -= alpha[p]
             d[i] = (a[i] + a[i + 1] + vw[i]) / w[i]
-    if mirror:
+    return True, sub, mass, a, w, vw, v, d, e
+
+
+@njit
+def constant_sectors(nodes, v_cell, m_cell, reps, mirror, center, c, shift, pos, alpha):
+    """:func:`constant_operator`, and with ``mirror`` its even and odd halves
+    (:func:`fdsolver.numerics.operator.mirror_halves`).  Returns (ok, d, e, a, vw, w of the whole grid or the
+    even half, the same of the odd half (the whole grid's again without ``mirror``), the operator of
+    :func:`constant_operator` (nodes, mass, a, w, vw, v, d, e))."""
+    ok, sub, mass, a, w, vw, v, d, e = constant_operator(nodes, v_cell, m_cell, reps, mirror, center, c, shift,
+                                                         pos, alpha)
+    whole = (sub, mass, a, w, vw, v, d, e)
+    if ok and mirror:
         a0, w0, vw0, d0, e0 = even_half(a, w, vw, 0)
-        return True, d0, e0, a0, vw0, w0, d[1:], e[1:], a[1:], vw[1:], w[1:]
-    return True, d, e, a, vw, w, d, e, a, vw, w
+        return ok, d0, e0, a0, vw0, w0, d[1:], e[1:], a[1:], vw[1:], w[1:], whole
+    return ok, d, e, a, vw, w, d, e, a, vw, w, whole
 
 
 @njit
@@ -1249,18 +1259,20 @@ def constant_level(base, v_cell, m_cell, level, mirror, center, c, shift, pos, a
 
     The grid is ``base`` with every cell split into 2^``level`` (:func:`refine_nodes`); its operators are
     those of :func:`constant_sectors`, and the states those of :func:`predicted_grid` from the guess
-    (``guess_e``, ``guess_s``).  Returns :func:`predicted_grid`'s tuple; status 1 (the general path decides,
-    and says what is wrong) also where :func:`constant_sectors` is not ok.  O(N) per state.
+    (``guess_e``, ``guess_s``).  Returns (:func:`predicted_grid`'s tuple, (the grid's nodes, the even half's
+    or whole operator's a, w, vw, d, e, and :func:`constant_operator`'s arrays)); status 1 (the general path
+    decides, and says what is wrong) also where :func:`constant_sectors` is not ok.  O(N) per state.
     """
     nodes = refine_nodes(base, 2**level) if level > 0 else base
-    ok, d0, e0, a0, vw0, w0, d1, e1, a1, vw1, w1 = constant_sectors(nodes, v_cell, m_cell, 2**level, mirror,
-                                                                     center, c, shift, pos, alpha)
+    ok, d0, e0, a0, vw0, w0, d1, e1, a1, vw1, w1, whole = constant_sectors(nodes, v_cell, m_cell, 2**level,
+                                                                            mirror, center, c, shift, pos, alpha)
+    ops = (nodes, a0, w0, vw0, d0, e0, whole)
     if not ok:
         n = w0.shape[0]
         return (1, np.empty(0), np.empty(0, np.int64), np.empty(0), np.empty(0, np.int64), 0, 0,
-                np.empty((0, n)), np.empty((0, n)))
+                np.empty((0, n)), np.empty((0, n))), ops
     return predicted_grid(d0, e0, a0, vw0, w0, d1, e1, a1, vw1, w1, mirror, guess_e, guess_s, has_lo, e_lo, e_hi,
-                          max_states, floor, cluster_rtol, steps, residual_factor, ulps, eps)
+                          max_states, floor, cluster_rtol, steps, residual_factor, ulps, eps), ops
 
 
 #: why :func:`constant_levels` stopped: every state judged (converged, or limited by round-off); the level
@@ -1285,7 +1297,8 @@ def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, 
     It stops at the first level that is not regular (see the LEVELS_* codes): over ``max_nodes``, a failed
     pass, no states, or other states than the previous level's (count or first index); the caller's loop
     takes over from that level.  Returns (reason, levels done L, their energies (L x n), their node counts,
-    and the newest done level's :func:`constant_level` tuple).  Energies relative to ``shift``.
+    and the newest done level's two :func:`constant_level` tuples: its states and its operators).  Energies
+    relative to ``shift``.
     """
     nb = base.shape[0]
     ge = guess_e.copy()
@@ -1294,27 +1307,30 @@ def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, 
     energies = np.empty((max_levels, 0))
     sizes = np.zeros(max_levels, np.int64)
     cols = np.zeros(max_levels, np.int64)
-    last = (1, np.empty(0), np.empty(0, np.int64), np.empty(0), np.empty(0, np.int64), 0, 0,
-            np.empty((0, 0)), np.empty((0, 0)))
+    none = np.empty(0)
+    last = (1, none, np.empty(0, np.int64), none, np.empty(0, np.int64), 0, 0, np.empty((0, 0)), np.empty((0, 0)))
+    ops = (none, none, none, none, none, none, (none, none, none, none, none, none, none, none))
     n = -1
     first = 0
     for level in range(max_levels):
         size = (nb - 1) * 2**level + 1
         if size > max_nodes:
-            return LEVELS_BUDGET, level, energies[:level].copy(), sizes[:level].copy(), last
-        got = constant_level(base, v_cell, m_cell, level, mirror, center, c, shift, pos, alpha, ge, gs, has_lo,
-                             e_lo, e_hi, max_states, floor, cluster_rtol, steps, residual_factor, ulps, eps)
+            return LEVELS_BUDGET, level, energies[:level].copy(), sizes[:level].copy(), last, ops
+        got, got_ops = constant_level(base, v_cell, m_cell, level, mirror, center, c, shift, pos, alpha, ge, gs,
+                                      has_lo, e_lo, e_hi, max_states, floor, cluster_rtol, steps, residual_factor,
+                                      ulps, eps)
         if got[0] != 0:
-            return LEVELS_FAILED, level, energies[:level].copy(), sizes[:level].copy(), last
+            return LEVELS_FAILED, level, energies[:level].copy(), sizes[:level].copy(), last, ops
         en = got[1]
         if en.shape[0] == 0 or (n >= 0 and (en.shape[0] != n or got[6] != first)):
-            return LEVELS_CHANGED, level, energies[:level].copy(), sizes[:level].copy(), last
+            return LEVELS_CHANGED, level, energies[:level].copy(), sizes[:level].copy(), last, ops
         if n < 0:
             n = en.shape[0]
             first = got[6]
             table = np.empty((max_levels, 3, n))
             energies = np.empty((max_levels, n))
         last = got
+        ops = got_ops
         energies[level] = en
         sizes[level] = size
         # the Romberg row of this level
@@ -1350,14 +1366,14 @@ def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, 
                 if not (done or limited):
                     finished = False
             if finished:
-                return LEVELS_DONE, level + 1, energies[:level + 1].copy(), sizes[:level + 1].copy(), last
+                return LEVELS_DONE, level + 1, energies[:level + 1].copy(), sizes[:level + 1].copy(), last, ops
         # the next level's predictions
         if level == 0:
             ge = en.copy()
         else:
             ge = en - (energies[level - 1] - en) / 4.0
         gs = got[2].copy()
-    return LEVELS_ALL, max_levels, energies.copy(), sizes.copy(), last
+    return LEVELS_ALL, max_levels, energies.copy(), sizes.copy(), last, ops
 
 
 @njit
@@ -1407,8 +1423,8 @@ def constant_coarse(nodes, v_cell, m_cell, mirror, center, c, shift, pos, alpha,
     first_index): status 1 where the general path decides (the operators are not ok, or a sector asks for more
     than ``work`` values x nodes).  Energies relative to ``shift``.  O(N log(range / tolerance)) per state.
     """
-    ok, d0, e0, a0, vw0, w0, d1, e1, a1, vw1, w1 = constant_sectors(nodes, v_cell, m_cell, 1, mirror, center, c,
-                                                                     shift, pos, alpha)
+    ok, d0, e0, a0, vw0, w0, d1, e1, a1, vw1, w1, _ = constant_sectors(nodes, v_cell, m_cell, 1, mirror, center,
+                                                                        c, shift, pos, alpha)
     fail = (1, np.empty(0), np.empty(0, np.int64), 0, 0)
     if not ok:
         return fail

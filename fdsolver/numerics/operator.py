@@ -146,19 +146,20 @@ def assemble(potential, nodes: np.ndarray, shift: float = 0.0, left: str = DIRIC
     return Operator(nodes=nodes, a=a, w=w, vw=vw, v=v, mass=mass, d=d, e=e, shift=float(shift), left=left)
 
 
-def mirror_halves(op: Operator, center_index: int) -> tuple[Operator, Operator]:
+def mirror_halves(op: Operator, center_index: int, even: tuple | None = None) -> tuple[Operator, Operator]:
     """The even and odd sectors of a mirror-symmetric operator, from its assembly on the whole grid.
 
     ``center_index`` is the index of the mirror centre among ``op.nodes``.
     Even: the right half with the centre as a Neumann unknown (half its weight
     and half its dual-cell integral, point term included); odd: the right half
     with a Dirichlet centre.  Exactly what :func:`assemble` gives on the right
-    half nodes, without evaluating the potential again.
+    half nodes, without evaluating the potential again.  ``even``: the even half's (a, w, vw, d, e), where a
+    compiled assembly made them already (:func:`fdsolver.numerics.kernels.constant_sectors`).
     """
     c = center_index - 1  # the centre among the unknowns
     nodes = op.nodes[center_index:]
     mass = op.mass[center_index:]
-    a_even, w_even, vw_even, d_even, e_even = even_half(op.a, op.w, op.vw, c)
+    a_even, w_even, vw_even, d_even, e_even = even_half(op.a, op.w, op.vw, c) if even is None else even
     v_even = op.v[c:]
     even = Operator(nodes=nodes, a=a_even, w=w_even, vw=vw_even, v=v_even, mass=mass, d=d_even, e=e_even,
                     shift=op.shift, left=NEUMANN)
