@@ -2,7 +2,7 @@
 """Where a warm solve spends its CPU time: the driver's phases of ``solve_case`` on bundled cases.
 
 Each phase (the plan, the coarse solve and box, the levels, the box check, the results and observables), and
-parts of them (the base grids, the zero-energy count, the operators, the compiled level passes), is timed with
+parts of them (the base grids, the zero-energy count, the operators, the compiled calls, the observables), is timed with
 ``time.process_time_ns`` around its function, inclusive of what it calls, over ``--solves`` warm solves of the
 same case after 100 untimed ones, and printed per solve in ms beside the whole solve timed without the clocks.
 The parts overlap the phases (they are inside them), so only the five phases add up to a solve.  The wrappers
@@ -35,7 +35,8 @@ ROOT = Path(__file__).resolve().parent.parent
 
 #: (module, function, label): each replaced in its caller's module by a timed wrapper.  The five phases first,
 #: then parts of them timed wherever they are called ("both": in the coarse solve and in the levels; "one call":
-#: the levels of a potential constant on every cell, each one compiled call)
+#: the compiled calls of a potential constant on every cell: the coarse solve, every regular level at once, and
+#: a level at a time where the loop takes over)
 PHASES = [
     ("fdsolver.boundstates.driver", "plan", "plan"),
     ("fdsolver.boundstates.driver", "_provisional", "coarse solve and box"),
@@ -45,10 +46,13 @@ PHASES = [
     ("fdsolver.boundstates.driver", "_grid", "part: base grids (both)"),
     ("fdsolver.boundstates.driver", "_missing", "part: zero-energy count"),
     ("fdsolver.boundstates.driver", "open_box", "part: open box (both)"),
-    ("fdsolver.boundstates.levels", "sectors_on", "part: operators (all grids)"),
+    ("fdsolver.boundstates.levels", "sectors_on", "part: operators (general path)"),
     ("fdsolver.boundstates.levels", "solve_grid", "part: level passes, general"),
-    ("fdsolver.boundstates.levels", "constant_level", "part: level passes, one call"),
+    ("fdsolver.boundstates.levels", "constant_coarse", "part: coarse solve, one call"),
+    ("fdsolver.boundstates.levels", "constant_levels", "part: all levels, one call"),
+    ("fdsolver.boundstates.levels", "constant_level", "part: one level per call"),
     ("fdsolver.boundstates.levels", "_judge", "part: judging the states"),
+    ("fdsolver.boundstates.result", "_observables", "part: observables"),
 ]
 
 
