@@ -18,7 +18,8 @@ Calibration: the machine's cost of one Sturm count per grid node (fdsolver.numer
    Every other bundled case that ``solve`` takes is timed the same way (same target), and one invented case of
    each other kind of structure (:data:`OTHER_CASES`: erf in an expression, a harmonic trap, Gaussian traps, a
    sech^2 and a Morse well in atomic units, a nonparabolic material stack).
-2. per solve: every bundled case solved warm; two ratios are printed: measured CPU / (node-states x Sturm ns
+2. per solve: every bundled case solved warm, each figure over at least :data:`WARM_SOLVES` solves timed one at a
+   time (min and median; since session 14, before that over ``--repeat`` solves); two ratios are printed: measured CPU / (node-states x Sturm ns
    per node), where node-states = sum over grid levels of (nodes x states found), and measured CPU / the lean
    estimate (node-states x 30 ns at 8 ns per Sturm node, scaled by this machine's Sturm count).  Target for the
    double wells: within 5 times of the lean estimate, about 2 ms.  Beside them, the CPU spent inside fdsolver's
@@ -57,6 +58,10 @@ from pathlib import Path  # noqa: E402
 import numpy as np  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
+#: warm solves timed per figure (each on its own; min and median of them), at least: a warm solve takes
+#: milliseconds, and a few of them fall into the machine's slow moments together
+WARM_SOLVES = 30
+
 #: the lean estimate of a solve's cost per node-state in Sturm counts: one inverse iteration and one Rayleigh
 #: quotient per state and level, about 30 ns per node-state on a machine whose Sturm count costs about 8 ns per node
 LEAN_PER_STURM = 30.0 / 8.0
@@ -232,7 +237,8 @@ def per_solve(repeat: int, sturm_ns: float) -> None:
     from fdsolver.input.case import load_case
     from fdsolver.runs import solve_case
 
-    print(f"2. warm solves (CPU in this process; {repeat} runs each)")
+    solves = max(repeat, WARM_SOLVES)
+    print(f"2. warm solves (CPU in this process; each figure over {solves} solves, each timed on its own)")
     print(f"   {'case':<22} {'states':>6} {'levels':>6} {'node-states':>11} {'CPU min [ms]':>12} {'median':>7} "
           f"{'wall med':>8} {'Sturm [ms]':>10} {'ratio':>6} {'to lean':>7} {'kernels [ms]':>12} {'to lean':>7} "
           f"{'fresh [ms]':>9}")
@@ -243,10 +249,10 @@ def per_solve(repeat: int, sturm_ns: float) -> None:
             periodic.append(case)
             continue
         sol = solve_case(case)  # warm: kernels loaded, grid planned once
-        cpu, wall = timed_runs(lambda case=case: solve_case(case), repeat)
-        fresh = iter([fresh_potential(case) for _ in range(repeat)])  # made before the clock runs
-        fresh_cpu, _ = timed_runs(lambda: solve_case(next(fresh)), repeat)
-        inside = compiled_cpu(lambda case=case: solve_case(case), repeat)
+        cpu, wall = timed_runs(lambda case=case: solve_case(case), solves)
+        fresh = iter([fresh_potential(case) for _ in range(solves)])  # made before the clock runs
+        fresh_cpu, _ = timed_runs(lambda: solve_case(next(fresh)), solves)
+        inside = compiled_cpu(lambda case=case: solve_case(case), solves)
         node_states = int(np.sum(sol.level_sizes)) * max(int(sol.energy.size), 1)
         sturm = node_states * sturm_ns * 1e-9  # one Sturm count per node-state
         lean = sturm * LEAN_PER_STURM
