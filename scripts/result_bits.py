@@ -26,6 +26,7 @@ for _var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
 import argparse
 import collections
 import dataclasses
+import math
 import pickle
 import sys
 import warnings
@@ -36,7 +37,7 @@ import numpy as np
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from result_drift import structures  # noqa: E402
+from result_drift import structures
 
 
 def _fields(obj) -> dict:
@@ -105,7 +106,7 @@ def _same(a, b) -> bool:
     if isinstance(a, np.ndarray) or isinstance(b, np.ndarray):
         a, b = np.asarray(a), np.asarray(b)
         return a.shape == b.shape and a.dtype == b.dtype and np.array_equal(a, b, equal_nan=a.dtype.kind in "fc")
-    if isinstance(a, float) and isinstance(b, float) and a != a and b != b:
+    if isinstance(a, float) and isinstance(b, float) and math.isnan(a) and math.isnan(b):
         return True
     return type(a) is type(b) and a == b
 

@@ -12,10 +12,9 @@ The structures are invented (nm, meV, m_e).
 
 from __future__ import annotations
 
-import dataclasses
-
 import numpy as np
 import pytest
+from same_results import fields_of, same
 
 import fdsolver
 from fdsolver.boundstates import eigen, levels
@@ -65,22 +64,6 @@ STRUCTURES = {
 }
 
 
-def _fields(sol) -> dict:
-    inner = getattr(sol, "solution", sol)
-    return {f.name: getattr(inner, f.name) for f in dataclasses.fields(inner)}
-
-
-def _same(a, b) -> bool:
-    if isinstance(a, (tuple, list)) and isinstance(b, (tuple, list)):
-        return len(a) == len(b) and all(_same(x, y) for x, y in zip(a, b))
-    if isinstance(a, np.ndarray) or isinstance(b, np.ndarray):
-        a, b = np.asarray(a), np.asarray(b)
-        if a.shape != b.shape:
-            return False
-        return np.array_equal(a, b, equal_nan=a.dtype.kind in "fc")
-    return a == b
-
-
 #: why the all-levels call stopped (kernels.LEVELS_*) and after how many levels, where it does not judge every
 #: state itself: the state leaving the window fails the one-call pass on level 1 (the prediction no longer fits
 #: the window's states), the budget stops the levels before the tolerance is met, and between the hard walls
@@ -115,19 +98,19 @@ def test_one_call_levels_are_the_general_path_bit_for_bit(name, monkeypatch):
         return got
 
     monkeypatch.setattr(levels, "constant_levels", counted_all)
-    fast = _fields(solve_case(case))
+    fast = fields_of(solve_case(case))
     assert reasons, "the structure never reached the all-levels call"
     assert reasons[-1][0] == STOPPED.get(name, (kernels.LEVELS_DONE,))[0], reasons
     if name in STOPPED:
         assert reasons[-1][1] == STOPPED[name][1], reasons
     monkeypatch.setattr(levels, "constant_levels", _off)
     monkeypatch.setattr(levels, "constant_level", counted)
-    per_level = _fields(solve_case(case))
+    per_level = fields_of(solve_case(case))
     assert calls, "the structure never reached the one-call pass"
     monkeypatch.setattr(levels, "constant_level", lambda *args, **kwargs: None)
-    general = _fields(solve_case(case))
+    general = fields_of(solve_case(case))
     assert fast.keys() == general.keys() == per_level.keys()
-    differ = [k for k in fast if not (_same(fast[k], general[k]) and _same(per_level[k], general[k]))]
+    differ = [k for k in fast if not (same(fast[k], general[k]) and same(per_level[k], general[k]))]
     assert not differ, f"fields differ: {differ}"
     if name.startswith("thick-barrier"):
         return  # its clustered doublets go to the general path (Rayleigh-Ritz within the cluster)

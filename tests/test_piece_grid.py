@@ -13,10 +13,9 @@ the last bit.  The structures are invented (nm, meV, m_e), drawn at random with 
 
 from __future__ import annotations
 
-import dataclasses
-
 import numpy as np
 import pytest
+from same_results import fields_of, same
 
 import fdsolver
 from fdsolver.errors import BudgetError
@@ -110,28 +109,14 @@ def test_one_call_base_grid_is_the_general_path_bit_for_bit(seed):
                 base_grid(spacing, pot.features(), box[0], box[1], gs, center, 20)
 
 
-def _fields(sol) -> dict:
-    inner = getattr(sol, "solution", sol)
-    return {f.name: getattr(inner, f.name) for f in dataclasses.fields(inner)}
-
-
-def _same(a, b) -> bool:
-    if isinstance(a, (tuple, list)) and isinstance(b, (tuple, list)):
-        return len(a) == len(b) and all(_same(x, y) for x, y in zip(a, b))
-    if isinstance(a, np.ndarray) or isinstance(b, np.ndarray):
-        a, b = np.asarray(a), np.asarray(b)
-        return a.shape == b.shape and np.array_equal(a, b, equal_nan=a.dtype.kind in "fc")
-    return a == b
-
-
 @pytest.mark.parametrize("seed", SEEDS[:12])
 def test_solutions_are_the_same_with_and_without_the_tables(seed, monkeypatch):
     """Every field of the solution, with the compiled grid and with the tables switched off."""
     d = _structure(seed)
-    fast = _fields(solve_case(fdsolver.case_from_dict(d)))
+    fast = fields_of(solve_case(fdsolver.case_from_dict(d)))
     monkeypatch.setattr(Potential, "piece_table", property(lambda self: None))
-    general = _fields(solve_case(fdsolver.case_from_dict(d)))
-    differ = [k for k in fast if not _same(fast[k], general[k])]
+    general = fields_of(solve_case(fdsolver.case_from_dict(d)))
+    differ = [k for k in fast if not same(fast[k], general[k])]
     assert not differ, f"fields differ: {differ}"
 
 
