@@ -327,7 +327,8 @@ def constant_levels(base: np.ndarray, cells: tuple, center: float | None, potent
     energies of every level done (one array each), their node counts, and the newest done level's
     :class:`GridStates` and (nodes, sectors) (both None if no level was done): the operators
     :func:`fdsolver.boundstates.levels.sectors_on` makes, from the same call; the caller's level loop goes on
-    from level ``len(rows)`` where the reason asks for it.  The arguments are those of :func:`constant_level`, with the level loop's limits and tolerance.
+    from level ``len(rows)`` where the reason asks for it.  The arguments are those of :func:`constant_level`,
+    with the level loop's limits and tolerance.
     """
     energy, sector = guess
     pos, alpha = point_arrays(potential) if points is None else points
@@ -337,7 +338,7 @@ def constant_levels(base: np.ndarray, cells: tuple, center: float | None, potent
         np.ascontiguousarray(sector, dtype=np.int64), e_lo is not None, 0.0 if e_lo is None else float(e_lo),
         float(e_hi), int(max_states), float(floor), CLUSTER_RTOL, INVERSE_STEPS, RESIDUAL_FACTOR, QUOTIENT_ULPS, EPS,
         int(max_levels), int(min_levels), int(max_nodes), float(tol), float(growth))
-    states = sectors = None
+    states = grid = None
     if done:
         _, en, sec, rounding, row, count_below, first_index, v0, v1 = got
         states = _states_of(sec, en, rounding, row, count_below, first_index, (v0, v1),
@@ -349,8 +350,8 @@ def constant_levels(base: np.ndarray, cells: tuple, center: float | None, potent
         else:
             even, odd = mirror_halves(op, 1, (a0, w0, vw0, d0, e0))
             sectors = [Sector(even, 1), Sector(odd, -1)]
-        sectors = (nodes, sectors)
-    return int(reason), list(rows), [int(k) for k in sizes], states, sectors
+        grid = (nodes, sectors)
+    return int(reason), list(rows), [int(k) for k in sizes], states, grid
 
 
 def constant_coarse(nodes: np.ndarray, cells: tuple, center: float | None, potential, shift: float, e_lo,

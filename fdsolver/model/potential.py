@@ -124,7 +124,7 @@ class Potential:
         """V and m as tables, where V is constant between the features (:attr:`piecewise_constant`): (features,
         V on each open piece, m on each, V at each feature, m at each), the pieces numbered from the one left of
         the first feature (features.size + 1 of them).  Every entry is :meth:`value` or :meth:`mass_at` at one
-        position (a piece's middle; one length scale beyond the outer features), so a lookup
+        position (a piece's middle; beyond the outer features by their span, at least one length unit), so a lookup
         (:func:`fdsolver.numerics.kernels.piece_values`) returns the numbers an evaluation there returns, up to
         the rounding of a comparison within a few ulps of a feature.  None where V is not piecewise constant,
         or where features closer than round-off were merged (a piece between them would have no entry)."""
