@@ -145,7 +145,8 @@ def _potential_on(pot, x_all: np.ndarray, v_cells: np.ndarray | None = None) -> 
 
 def _sign_changes(psi: np.ndarray) -> np.ndarray:
     """Sign changes of each row of psi inside the stretches where it is resolved (never across an unresolved
-    gap: both neighbours above :data:`RESOLVED_FRACTION` of the row's peak; :func:`fdsolver.numerics.kernels.wave_columns`)."""
+    gap: both neighbours above :data:`RESOLVED_FRACTION` of the row's peak;
+    :func:`fdsolver.numerics.kernels.wave_columns`)."""
     psi = np.ascontiguousarray(psi, dtype=float)
     return kernels.wave_columns(np.zeros(psi.shape[1]), psi, np.zeros((0, 2)), 0.0, RESOLVED_FRACTION)[2]
 
