@@ -13,7 +13,7 @@ import numpy as np
 import scipy.linalg  # noqa: F401  (its BLAS is loaded, so it is counted and limited too)
 from threadpoolctl import threadpool_info, threadpool_limits
 
-import fdsolver.runs as runs
+from fdsolver import runs
 from fdsolver.input.case import load_case
 
 CASES = Path(__file__).resolve().parent.parent / "cases"
@@ -47,3 +47,17 @@ def test_energies_do_not_depend_on_the_callers_thread_count():
     with threadpool_limits(limits=2):
         two = runs.solve_case(case).energy
     assert np.array_equal(one, two)
+
+
+def test_a_caller_already_on_one_thread_keeps_it():
+    from fdsolver.numerics.threads import one_blas_thread
+
+    with threadpool_limits(limits=1):
+        with one_blas_thread():
+            assert set(blas_threads()) == {1}
+        assert set(blas_threads()) == {1}
+    with threadpool_limits(limits=2):
+        before = blas_threads()
+        with one_blas_thread():
+            assert set(blas_threads()) == {1}
+        assert blas_threads() == before
