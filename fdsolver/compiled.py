@@ -69,15 +69,44 @@ def _jit():
 
     def njit(fn):
         if folder is None:
-            return decorate(fn)
+            return _lean_cache_loads(decorate(fn))
         saved = config.CACHE_DIR
         config.CACHE_DIR = folder
         try:
-            return decorate(fn)
+            return _lean_cache_loads(decorate(fn))
         finally:
             config.CACHE_DIR = saved
 
     return njit
+
+
+def _lean_cache_loads(dispatcher):
+    """``dispatcher`` with its cached machine code loaded without numba's compile set-up.
+
+    numba's cache refreshes the whole compile context before it loads a kernel: it imports and installs every
+    lowering registry numba has (its numpy, random, polynomial, typed containers ...), about 0.2 s of CPU on
+    the first kernel a process loads.  Loading needs none of it: the cached library is linked machine code,
+    and only numba's runtime (array allocation) must be ready, which ``rtsys.initialize`` does.  Only this
+    dispatcher's cache is changed (other numba users in the process keep numba's own); where the kernel is not
+    in the cache, numba compiles it, and its compiler refreshes the context itself.  Where numba's cache does
+    not have the two methods this relies on (another numba version), its own load is kept.
+    """
+    from numba.core.runtime import rtsys
+
+    cache = getattr(dispatcher, "_cache", None)
+    load = getattr(cache, "_load_overload", None)
+    guard = getattr(cache, "_guard_against_spurious_io_errors", None)
+    if load is None or guard is None:
+        return dispatcher
+
+    def load_overload(sig, target_context):
+        rtsys.initialize(target_context)
+        with guard():
+            return load(sig, target_context)
+        return None  # the guard swallowed an error of the cache files: numba then compiles
+
+    cache.load_overload = load_overload
+    return dispatcher
 
 
 def _load_numpy_typing_without_scipy_linalg():

@@ -9,8 +9,9 @@ The parts overlap the phases (they are inside them), so only the five phases add
 cost some time of their own per timed call: compare the solve timed with them and without.  One BLAS thread.
 
 ``--loads``: instead, a cold ``fdsolver solve`` of each case in a fresh process, with the CPU time of every
-compiled kernel loaded from numba's cache (``numba.core.caching.Cache.load_overload``, timed around each call)
-and of the imports before the solve; the first load includes numba's own set-up of its compiler target.
+compiled kernel loaded from numba's cache (``numba.core.caching.Cache._load_overload``, timed around each call)
+and of the imports before the solve.  Since session 15 fdsolver loads its kernels without numba's compile set-up
+(:func:`fdsolver.compiled._lean_cache_loads`); before, the first load included it.
 
 Usage:  python scripts/solve_phases.py [CASE ...] [--solves N] [--loads]   (a CASE is a bundled case's name or a
         path; default: double_square coupled_wells)
@@ -61,7 +62,7 @@ LOADS_CHILD = """
 import sys, time
 t0 = time.process_time()
 import numba.core.caching as caching
-loads, load = [], caching.Cache.load_overload
+loads, load = [], caching.Cache._load_overload
 def timed(self, sig, target_context):
     t = time.process_time()
     try:
@@ -69,7 +70,7 @@ def timed(self, sig, target_context):
     finally:
         name = str(getattr(self, '_name', '?'))
         loads.append((name.split()[1] if name.startswith('<function ') else name, time.process_time() - t))
-caching.Cache.load_overload = timed
+caching.Cache._load_overload = timed
 t1 = time.process_time()
 from fdsolver.cli import main
 t2 = time.process_time()
