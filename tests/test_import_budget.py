@@ -256,3 +256,27 @@ print("MODULES " + json.dumps(ok))
     proc = subprocess.run([sys.executable, "-c", code], check=False, capture_output=True, text=True, env=env, timeout=300)
     assert proc.returncode == 0, proc.stderr
     assert json.loads(proc.stdout.rsplit("MODULES ", 1)[1]) == [True, True, True, True]
+
+
+#: modules numba imports only to set its compiler up (its lowering registries), not to load a cached kernel
+COMPILER_SET_UP = ("numba.np.random.generator_methods", "numba.np.polynomial.polynomial_functions",
+                   "numba.typed.typeddict", "numba.experimental.jitclass.base")
+
+
+def test_kernels_load_from_the_cache_without_numbas_compiler_set_up(tmp_path):
+    """A cold solve with the kernels in numba's cache loads them without numba's compile set-up (0.1 to 0.2 s
+    of CPU, measured: DEVELOPERS.md, session 15), and gives the energies of a process that compiled them.
+    The first run may compile (a fresh cache); the second loads.  fdsolver/compiled.py, ``_lean_cache_loads``."""
+    case = tmp_path / "pair.toml"
+    case.write_text(PAIR)
+    code = RUN_ENTRY_POINT.replace("sorted(sys.modules)", "sorted(m for m in sys.modules if m.startswith('numba'))")
+    env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(PACKAGE_PARENT), os.environ.get("PYTHONPATH", "")]))
+    runs = [subprocess.run([sys.executable, "-c", code, json.dumps(["solve", str(case)])], check=False,
+                           capture_output=True, text=True, env=env, timeout=600) for _ in range(2)]
+    for proc in runs:
+        assert proc.returncode == 0, proc.stderr
+    tables = [proc.stdout.rsplit("MODULES ", 1)[0] for proc in runs]
+    assert "energy [meV]" in tables[1] and tables[1] == tables[0]
+    loaded = set(json.loads(runs[1].stdout.rsplit("MODULES ", 1)[1]))
+    assert "numba.core.runtime" in loaded  # numba did run
+    assert loaded.isdisjoint(COMPILER_SET_UP), sorted(loaded & set(COMPILER_SET_UP))
