@@ -12,9 +12,11 @@ Calibration: the machine's cost of one Sturm count per grid node (fdsolver.numer
    bundled case (numba cache and Python bytecode warm: one untimed run of each command first), printed and written
    to an archive.  Targets: --help and --version < 0.15 s CPU; the cold solve < 0.8 s CPU.  Beside them, the floor
    numba itself sets for any cold start that calls a cached kernel: a script with no fdsolver code that imports
-   numba and calls one trivial cached function; and the same floor with scipy.linalg kept out of numba's start, as
-   fdsolver.compiled does.  Both floor scripts end as the fdsolver command does, with gc.freeze() (the shutdown
-   then skips a full garbage collection: fdsolver.cli.command_line).
+   numba and calls one trivial cached function; the same floor with scipy.linalg kept out of numba's start, as
+   fdsolver.compiled does; and (since session 15) the same function made with fdsolver.compiled's njit, which
+   also loads it without numba's compile set-up, as fdsolver loads its kernels.  The floor scripts end as the
+   fdsolver command does, with gc.freeze() (the shutdown then skips a full garbage collection:
+   fdsolver.cli.command_line).
    Every other bundled case that ``solve`` takes is timed the same way (same target), and one invented case of
    each other kind of structure (:data:`OTHER_CASES`: erf in an expression, a harmonic trap, Gaussian traps, a
    sech^2 and a Morse well in atomic units, a nonparabolic material stack).
@@ -145,11 +147,19 @@ def startup(repeat: int) -> None:
     # an installed package has its bytecode compiled at install time; a source tree run with
     # PYTHONDONTWRITEBYTECODE set (some sandboxes) would otherwise recompile every module at every start
     bytecode_env = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
+    # the same loaded the way fdsolver loads its kernels (fdsolver.compiled: scipy.linalg kept out, and the cached
+    # kernel loaded without numba's compile set-up), the floor of fdsolver's own cold start
+    (floor_dir / "floor_lean.py").write_text("from fdsolver.compiled import njit\n\n\n@njit\ndef one(x):\n"
+                                             "    return x + 1.0\n")
+    lean_cmd = [py, "-c", (f"import sys; sys.path.insert(0, {str(floor_dir)!r}); import floor_lean; "
+                           "floor_lean.one(1.0); import gc; gc.freeze()")]
     child_cpu(floor_cmd, bytecode_env)  # compiles and caches it
+    child_cpu(lean_cmd, bytecode_env)
     commands = [
         ("python -c pass (bare start)", [py, "-c", "pass"], None),
         ("numba floor (one cached kernel, no fdsolver)", floor_cmd, None),
         ("  the same without scipy.linalg", hidden_cmd, None),
+        ("  loaded as fdsolver loads (fdsolver.compiled)", lean_cmd, None),
         ("fdsolver --version", [py, "-m", "fdsolver", "--version"], 0.15),
         ("fdsolver --help", [py, "-m", "fdsolver", "--help"], 0.15),
         ("fdsolver solve coupled_wells (cold)", [py, "-m", "fdsolver", "solve", case], 0.8),
