@@ -63,33 +63,37 @@ def _jit():
     import numba
     from numba.core import config
 
-    _load_numpy_typing_without_scipy_linalg()
     decorate = numba.njit(cache=True, nogil=True)
     folder = cache_folder()
 
     def njit(fn):
-        if folder is None:
-            return _lean_cache_loads(decorate(fn))
         saved = config.CACHE_DIR
-        config.CACHE_DIR = folder
+        if folder is not None:
+            config.CACHE_DIR = folder
         try:
-            return _lean_cache_loads(decorate(fn))
+            dispatcher = decorate(fn)
         finally:
             config.CACHE_DIR = saved
+        if not _lean_cache_loads(dispatcher):
+            _load_numpy_typing_without_scipy_linalg()  # numba's own first load sets its compiler up
+        return dispatcher
 
     return njit
 
 
-def _lean_cache_loads(dispatcher):
-    """``dispatcher`` with its cached machine code loaded without numba's compile set-up.
+def _lean_cache_loads(dispatcher) -> bool:
+    """Let ``dispatcher`` load its cached machine code without numba's compile set-up; False where it cannot.
 
     numba's cache refreshes the whole compile context before it loads a kernel: it imports and installs every
-    lowering registry numba has (its numpy, random, polynomial, typed containers ...), about 0.2 s of CPU on
+    lowering registry numba has (its numpy, random, polynomial, typed containers ...), 0.1 to 0.2 s of CPU on
     the first kernel a process loads.  Loading needs none of it: the cached library is linked machine code,
-    and only numba's runtime (array allocation) must be ready, which ``rtsys.initialize`` does.  Only this
-    dispatcher's cache is changed (other numba users in the process keep numba's own); where the kernel is not
-    in the cache, numba compiles it, and its compiler refreshes the context itself.  Where numba's cache does
-    not have the two methods this relies on (another numba version), its own load is kept.
+    and only numba's runtime (array allocation) must be ready, which ``rtsys.initialize`` does.  A load does
+    import the modules the kernel's numba helpers were defined in (to rebuild their environments); numba's
+    numpy array-math module among them is imported without scipy.linalg (:func:`_without_scipy_linalg`).
+    Where the kernel is not in the cache, numba compiles it, and its compiler refreshes the context itself,
+    after the same import (:func:`_load_numpy_typing_without_scipy_linalg`).  Only this dispatcher's cache is
+    changed (other numba users in the process keep numba's own).  False, and nothing changed, where numba's
+    cache does not have the two methods this relies on (another numba version).
     """
     from numba.core.runtime import rtsys
 
@@ -97,41 +101,51 @@ def _lean_cache_loads(dispatcher):
     load = getattr(cache, "_load_overload", None)
     guard = getattr(cache, "_guard_against_spurious_io_errors", None)
     if load is None or guard is None:
-        return dispatcher
+        return False
 
     def load_overload(sig, target_context):
         rtsys.initialize(target_context)
-        with guard():
-            return load(sig, target_context)
-        return None  # the guard swallowed an error of the cache files: numba then compiles
+        found = None
+        with _without_scipy_linalg(), guard():  # the guard swallows an error of the cache files
+            found = load(sig, target_context)
+        if found is None:  # numba compiles it next
+            _load_numpy_typing_without_scipy_linalg()
+        return found
 
     cache.load_overload = load_overload
-    return dispatcher
+    return True
 
 
-def _load_numpy_typing_without_scipy_linalg():
-    """Import numba's numpy-array typing (``numba.np.arraymath``) without importing scipy.linalg.
+def _without_scipy_linalg():
+    """A context in which scipy.linalg cannot be imported, while numba's numpy array-math module
+    (``numba.np.arraymath``) is not imported yet and no other thread runs; otherwise one that hides nothing.
 
-    numba imports ``numba.np.arraymath`` when the first kernel is loaded, and that module imports
-    ``scipy.linalg.cython_blas`` only to decide whether the inner products of its ``np.correlate`` and
-    ``np.convolve`` may call BLAS.  The whole of scipy.linalg comes with it: about 0.25 s of CPU, a quarter of
-    a cold ``fdsolver solve`` (measured in DEVELOPERS.md).  No kernel here calls those, so the module is
-    imported once here with scipy.linalg hidden (:func:`fdsolver.absent.absent`); numba then computes those
+    ``numba.np.arraymath`` imports ``scipy.linalg.cython_blas`` only to decide whether the inner products of its
+    ``np.correlate`` and ``np.convolve`` may call BLAS.  The whole of scipy.linalg comes with it: about 0.25 s
+    of CPU, a quarter of a cold ``fdsolver solve`` (measured in DEVELOPERS.md).  No kernel here calls those, so
+    the module is imported with scipy.linalg hidden (:func:`fdsolver.absent.absent`); numba then computes those
     inner products (in any later kernel of the process) as a plain loop, with the same result to round-off.
     ``np.dot``, ``@`` and ``np.linalg`` are not affected: ``numba.np.linalg`` imports scipy.linalg when a
     kernel using them compiles.  Where scipy.linalg is already loaded (the sweep workers load it first on
-    purpose) nothing is hidden.  The hiding lasts only while this one import runs, when fdsolver's kernels are
-    first imported; another thread of the same process importing scipy.linalg in that instant would get an
-    ImportError.  fdsolver's own threads (a threaded Dask cluster) start after this: reading a case imports
-    the kernels.
+    purpose) nothing is hidden.  Never while other threads run: one of them importing scipy.linalg in that
+    instant would get an ImportError (with threads, numba's import brings scipy.linalg along).
     """
+    import contextlib
     import sys
+    import threading
 
     from fdsolver.absent import absent
 
-    if "numba.np.arraymath" not in sys.modules:
-        with absent("scipy.linalg"):
-            import numba.np.arraymath  # noqa: F401
+    if "numba.np.arraymath" in sys.modules or threading.active_count() > 1:
+        return contextlib.nullcontext()
+    return absent("scipy.linalg")
+
+
+def _load_numpy_typing_without_scipy_linalg():
+    """Import numba's numpy array-math module (``numba.np.arraymath``) without scipy.linalg
+    (:func:`_without_scipy_linalg`), before numba sets its compiler up (which imports it)."""
+    with _without_scipy_linalg():
+        import numba.np.arraymath  # noqa: F401
 
 
 #: numba.njit(cache=True, nogil=True), cached in fdsolver's folder of the user's cache (cache_folder)

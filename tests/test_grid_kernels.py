@@ -224,3 +224,43 @@ def test_observable_columns_are_the_numpy_forms(seed, n, k, states):
     assert np.array_equal(w, w_ref) and np.array_equal(cols, cols_ref)
     with np.errstate(invalid="ignore"):
         assert np.array_equal(changes, _sign_changes_numpy(psi, 1e-6))
+
+
+def _sorted_with_ties(rng, n):
+    """Sorted floats with repeated values, and at times a NaN or an infinity at the ends (numpy's order)."""
+    a = np.sort(np.round(rng.uniform(-3.0, 3.0, n), 1))
+    if n and rng.random() < 0.3:
+        a[-1] = np.nan
+    if n > 1 and rng.random() < 0.3:
+        a[0] = -np.inf
+    return a
+
+
+@PROPS
+@given(st.integers(0, 10**6), st.integers(0, 40))
+def test_search_sorted_is_numpys(seed, n):
+    """kernels.search_sorted gives numpy.searchsorted's index on both sides, with ties, infinities and NaN
+    (ordered last, as numpy sorts it) in the array and as the key (NumPy reference manual, searchsorted)."""
+    rng = np.random.default_rng(seed)
+    a = _sorted_with_ties(rng, n)
+    keys = np.concatenate([rng.uniform(-4.0, 4.0, 20), a[: min(n, 8)], [np.nan, np.inf, -np.inf, 0.0, -0.0]])
+    for key in keys:
+        for right, side in ((False, "left"), (True, "right")):
+            assert kernels.search_sorted(a, float(key), right) == np.searchsorted(a, key, side=side)
+
+
+@PROPS
+@given(st.integers(0, 10**6), st.integers(1, 40))
+def test_interp_sorted_is_numpys_to_the_bit(seed, n):
+    """kernels.interp_sorted gives numpy.interp's values bit for bit: inside, at the samples themselves, beyond
+    both ends, at NaN, and across repeated positions and infinite values (NumPy reference manual, interp)."""
+    rng = np.random.default_rng(seed)
+    xp = np.sort(np.round(rng.uniform(-3.0, 3.0, n), 1))
+    fp = rng.normal(size=n)
+    if n > 2 and rng.random() < 0.3:
+        fp[rng.integers(n)] = np.inf
+    x = np.concatenate([rng.uniform(-4.0, 4.0, 50), xp, [np.nan, np.inf, -np.inf]])
+    got, want = kernels.interp_sorted(x, xp, fp), np.interp(x, xp, fp)
+    nan = np.isnan(want)
+    assert np.array_equal(np.isnan(got), nan)
+    assert np.array_equal(got[~nan].view(np.int64), want[~nan].view(np.int64))  # every bit, the sign of 0 too

@@ -53,6 +53,64 @@ from fdsolver.compiled import (
 
 
 @njit
+def search_sorted(a, key, right):
+    """``numpy.searchsorted(a, key, side="right" if right else "left")`` for a sorted 1-D float array ``a`` and one
+    float ``key``: the number of entries below ``key`` (left) or not above it (right), NaN ordered last, by the
+    same bisection and comparisons as numba's own (so the same index).  Written out because numba's version
+    lives in its numpy array-math module, whose import a cached kernel that uses it pays on its first load
+    (about 0.08 s of CPU; DEVELOPERS.md, session 15).  O(log N)."""
+    lo = 0
+    hi = a.shape[0]
+    nan_key = math.isnan(key)
+    while lo < hi:
+        mid = lo + ((hi - lo) >> 1)
+        v = a[mid]
+        if right:
+            go = nan_key or v <= key
+        else:
+            go = v < key or (nan_key and not math.isnan(v))
+        if go:
+            lo = mid + 1
+        else:
+            hi = mid
+    return lo
+
+
+@njit
+def interp_sorted(x, xp, fp):
+    """``numpy.interp(x, xp, fp)`` for increasing ``xp`` (1-D float arrays): fp[0] left of xp[0], fp[-1] right of
+    xp[-1], fp[j] at xp[j] itself, else the straight line through the two samples around x, computed as numba's
+    (and numpy's) version computes it, so the same bits: slope (fp[j+1] - fp[j]) / (xp[j+1] - xp[j]) times
+    (x - xp[j]) plus fp[j], from the other end where that is NaN.  Written out for the reason
+    :func:`search_sorted` is.  Units of ``fp``.  O(log N) per point."""
+    n = xp.shape[0]
+    out = np.empty(x.shape[0])
+    for i in range(x.shape[0]):
+        xv = x[i]
+        if n == 1:
+            out[i] = fp[0]
+        elif math.isnan(xv):
+            out[i] = xv
+        elif xv > xp[n - 1]:
+            out[i] = fp[n - 1]
+        elif xv < xp[0]:
+            out[i] = fp[0]
+        else:
+            j = search_sorted(xp, xv, True) - 1  # the last sample at or below x
+            if j == n - 1 or xp[j] == xv:
+                out[i] = fp[j]
+            else:
+                slope = (fp[j + 1] - fp[j]) / (xp[j + 1] - xp[j])
+                r = slope * (xv - xp[j]) + fp[j]
+                if math.isnan(r):
+                    r = slope * (xv - xp[j + 1]) + fp[j + 1]
+                    if math.isnan(r) and fp[j] == fp[j + 1]:
+                        r = fp[j]
+                out[i] = r
+    return out
+
+
+@njit
 def sturm_count(d, e, sigma):
     """Number of eigenvalues of tridiag(e, d, e) strictly below ``sigma``."""
     n = d.shape[0]
@@ -877,8 +935,8 @@ def target_spacing(x, v, m, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap, wave_fract
                 r2 = math.inf
         h = wave_fraction / math.sqrt(min(r2, r2_cap) + 1e-300)
         if n_apex:
-            k = np.searchsorted(apex, xi, side="right")
-            j = np.searchsorted(apex, xi, side="left")
+            k = search_sorted(apex, xi, True)
+            j = search_sorted(apex, xi, False)
             h = min(h, left[k] + slope * xi, right[j] - slope * xi)
         out[i] = h
     return out
@@ -975,7 +1033,7 @@ def segment_nodes(bounds, x, h, min_cells):
     for i in range(1, ns):
         acc += 0.5 * (1.0 / h[i] + 1.0 / h[i - 1]) * (x[i] - x[i - 1])
         xi[i] = acc
-    xb = np.interp(bounds, x, xi)
+    xb = interp_sorted(bounds, x, xi)
     nb = bounds.shape[0]
     cells = np.empty(nb - 1, dtype=np.int64)
     total = 0
@@ -990,7 +1048,7 @@ def segment_nodes(bounds, x, h, min_cells):
             targets[m] = xb[k] + (xb[k + 1] - xb[k]) * (j / cells[k])
             m += 1
     nodes = np.empty(total + 1)
-    nodes[:total] = np.interp(targets, xi, x)
+    nodes[:total] = interp_sorted(targets, xi, x)
     m = 0
     for k in range(nb - 1):
         nodes[m] = bounds[k]  # the bounds themselves, exactly
@@ -1010,7 +1068,7 @@ def piece_values(x, feats, v_piece, m_piece, v_feat, m_feat):
     v = np.empty(n)
     m = np.empty(n)
     for i in range(n):
-        k = np.searchsorted(feats, x[i])  # feats[k - 1] < x <= feats[k]
+        k = search_sorted(feats, x[i], False)  # feats[k - 1] < x <= feats[k]
         if k < nf and feats[k] == x[i]:
             v[i] = v_feat[k]
             m[i] = m_feat[k]
@@ -1201,7 +1259,7 @@ def constant_operator(nodes, v_cell, m_cell, reps, mirror, center, c, shift, pos
     """
     first = 0
     if mirror:
-        first = np.searchsorted(nodes, center) - 1
+        first = search_sorted(nodes, center, False) - 1
     sub = nodes[first:]
     ncell = sub.shape[0] - 1
     mass = np.empty(ncell)
@@ -1227,7 +1285,7 @@ def constant_operator(nodes, v_cell, m_cell, reps, mirror, center, c, shift, pos
             q = pos[p]
             if not (q >= lo_x and q <= hi_x):
                 continue
-            i = min(max(np.searchsorted(x, q), 0), n - 1)
+            i = min(max(search_sorted(x, q, False), 0), n - 1)
             if i > 0 and abs(x[i - 1] - q) < abs(x[i] - q):
                 i -= 1
             if abs(x[i] - q) > 1e-9 * max(1.0, abs(q)) + 1e-12 * span:
@@ -1511,8 +1569,8 @@ def wave_columns(x, psi, bounds, x_ref, fraction):
             lo_cell[i + 1] = x[i + 1] - 0.5 * h
             hi_cell[i] = x[i] + 0.5 * h
         for j in range(k):
-            first = np.searchsorted(hi_cell, bounds[j, 0], side="right")  # the first cell ending beyond lo
-            stop = np.searchsorted(lo_cell, bounds[j, 1], side="left")  # past the last cell starting before hi
+            first = search_sorted(hi_cell, bounds[j, 0], True)  # the first cell ending beyond lo
+            stop = search_sorted(lo_cell, bounds[j, 1], False)  # past the last cell starting before hi
             for i in range(first, stop):
                 cols[i, 2 + j] = min(hi_cell[i], bounds[j, 1]) - max(lo_cell[i], bounds[j, 0])
     states = psi.shape[0]
