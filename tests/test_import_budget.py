@@ -259,18 +259,22 @@ print("MODULES " + json.dumps(ok))
 
 
 #: modules numba imports only to set its compiler up (its lowering registries), not to load a cached kernel; and
-#: its numpy array-math module, which only a kernel calling one of its functions needs (fdsolver's kernels of a
-#: square-well pair call none: their binary search and interpolation are written out in kernels.py)
+#: its numpy array-math module, which only a kernel calling one of its functions needs (fdsolver's kernels call
+#: none: their binary searches and interpolation are written out, in kernels.py and in the table's spline)
 COMPILER_SET_UP = ("numba.np.random.generator_methods", "numba.np.polynomial.polynomial_functions",
                    "numba.typed.typeddict", "numba.experimental.jitclass.base", "numba.np.arraymath")
 
 
-def test_kernels_load_from_the_cache_without_numbas_compiler_set_up(tmp_path):
+@pytest.mark.parametrize("text", [PAIR, TABLE], ids=["square-well pair", "cubic table"])
+def test_kernels_load_from_the_cache_without_numbas_compiler_set_up(tmp_path, text):
     """A cold solve with the kernels in numba's cache loads them without numba's compile set-up (0.1 to 0.2 s
     of CPU, measured: DEVELOPERS.md, session 15), and gives the energies of a process that compiled them.
     The first run may compile (a fresh cache); the second loads.  fdsolver/compiled.py, ``_lean_cache_loads``."""
-    case = tmp_path / "pair.toml"
-    case.write_text(PAIR)
+    case = tmp_path / "case.toml"
+    case.write_text(text)
+    x = np.linspace(-20.0, 20.0, 161)
+    np.savetxt(tmp_path / "profile.csv", np.column_stack([x, 150.0 - 150.0 * np.exp(-(x / 4.0) ** 2) + 2.0 * x]),
+               delimiter=",")
     code = RUN_ENTRY_POINT.replace("sorted(sys.modules)",
                                    "sorted(m for m in sys.modules if m.startswith(('numba', 'scipy')))")
     env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(PACKAGE_PARENT), os.environ.get("PYTHONPATH", "")]))

@@ -17,6 +17,8 @@ table (x and y as given).
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 
@@ -110,8 +112,18 @@ def _table_values(x, c, at, below, above):
             out[k] = below
         elif a >= x[-1]:
             out[k] = above
-        else:  # NaN lands here too, and stays NaN
-            i = min(max(np.searchsorted(x, a, side="right") - 1, 0), last)
+        else:  # NaN lands here too (in the last interval), and stays NaN
+            # the interval holding a: the last row at or below it (numpy.searchsorted(x, a, "right") - 1), by
+            # bisection written out, since numba's searchsorted would import its numpy array-math module when
+            # this loop loads from the cache (about 0.08 s of a cold start; DEVELOPERS.md, session 15)
+            lo, hi = 0, x.shape[0]
+            while lo < hi:
+                mid = lo + ((hi - lo) >> 1)
+                if math.isnan(a) or x[mid] <= a:
+                    lo = mid + 1
+                else:
+                    hi = mid
+            i = min(max(lo - 1, 0), last)
             t = a - x[i]
             out[k] = ((c[0, i] * t + c[1, i]) * t + c[2, i]) * t + c[3, i]
     return out
