@@ -1,7 +1,8 @@
 """numba's ``njit`` as every compiled loop of fdsolver uses it: cached on disk, no GIL, a lean first load.
 
 :data:`njit` is ``numba.njit(cache=True, nogil=True)``, with the compilation cache in fdsolver's own folder of
-the user's cache (:func:`cache_folder`), and with numba's numpy-array typing loaded without scipy.linalg (below).
+the user's cache (:func:`cache_folder`), each kernel loaded from it without numba's compile set-up, and numba's
+numpy array-math module, where a kernel needs it, imported without scipy.linalg (below).
 Importing this module imports numba; the modules that define kernels import it, and a module that compiles a
 loop only when it is first called (a table's cubic spline) imports it then.
 """
