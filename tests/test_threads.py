@@ -50,6 +50,8 @@ def test_energies_do_not_depend_on_the_callers_thread_count():
 
 
 def test_a_caller_already_on_one_thread_keeps_it():
+    """The limiter leaves a caller that already runs one BLAS thread as it is (it sets nothing there), and still
+    limits and restores a caller on two.  Counts read with threadpoolctl."""
     from fdsolver.numerics.threads import one_blas_thread
 
     with threadpool_limits(limits=1):
