@@ -1,8 +1,9 @@
 """numba's ``njit`` as every compiled loop of fdsolver uses it: cached on disk, no GIL, a lean first load.
 
 :data:`njit` is ``numba.njit(cache=True, nogil=True)``, with the compilation cache in fdsolver's own folder of
-the user's cache (:func:`cache_folder`), each kernel loaded from it without numba's compile set-up, and numba's
-numpy array-math module, where a kernel needs it, imported without scipy.linalg (below).
+the user's cache (:func:`cache_folder`), each kernel loaded from it without numba's compile set-up and with its
+bitcode for linking parsed only if a later compile needs it, and numba's numpy array-math module, where a kernel
+needs it, imported without scipy.linalg (below).
 Importing this module imports numba; the modules that define kernels import it, and a module that compiles a
 loop only when it is first called (a table's cubic spline) imports it then.
 """
@@ -107,14 +108,147 @@ def _lean_cache_loads(dispatcher) -> bool:
     def load_overload(sig, target_context):
         rtsys.initialize(target_context)
         found = None
-        with _without_scipy_linalg(), guard():  # the guard swallows an error of the cache files
-            found = load(sig, target_context)
+        with _without_scipy_linalg(), _deferred_linking(target_context.codegen()), guard():
+            found = load(sig, target_context)  # the guard swallows an error of the cache files
         if found is None:  # numba compiles it next
             _load_numpy_typing_without_scipy_linalg()
         return found
 
     cache.load_overload = load_overload
     return True
+
+
+def _deferred_linking(codegen):
+    """A context in which ``codegen`` loads a cached library with its bitcode for linking left unparsed.
+
+    A library in numba's cache holds its machine code (an object file) and the LLVM bitcode of the same
+    functions, kept so that a kernel compiled later may inline them.  numba parses that bitcode at every load
+    and walks every function and global in it, to record which names the library defines: about 60 % of the
+    CPU of a cold solve's kernel loads (0.11 of 0.19 s for a square-well pair, measured: DEVELOPERS.md, session
+    16).  Under this context the names come from the object file's symbol table instead
+    (:func:`_object_file_symbols`: the global and weak symbols it defines, the names a lookup of the machine
+    code can find), and the bitcode is parsed only if a later compile links the library in
+    (:func:`_deferred_link_class`).  numba holds its compiler lock while it loads, so no other load sees the
+    class swapped.  A context that changes nothing where numba's code generator lacks what this relies on.
+    """
+    import contextlib
+
+    library = _deferred_link_class(getattr(type(codegen), "_library_class", None))
+    if library is None or not hasattr(getattr(codegen, "_engine", None), "_defined_symbols"):
+        return contextlib.nullcontext()
+
+    @contextlib.contextmanager
+    def swapped():
+        own = "_library_class" in vars(codegen)
+        saved = vars(codegen).get("_library_class")
+        codegen._library_class = library
+        try:
+            yield
+        finally:
+            if own:
+                codegen._library_class = saved
+            else:
+                del codegen._library_class
+
+    return swapped()
+
+
+#: numba's library class -> its subclass that defers the bitcode (None where numba's class lacks a method it uses)
+_DEFERRED = {}
+
+
+def _deferred_link_class(base):
+    """The subclass of numba's library class ``base`` whose bitcode for linking is parsed only when needed.
+
+    ``_shared_module`` (numba's name for the bitcode module other libraries link in) is parsed from the kept
+    bytes when first read; a name the object file did not list is looked up numba's way, after recording every
+    name the parsed bitcode defines.  One class per base, made when first asked for (the base is numba's, known
+    only once numba is imported); None where the base lacks a method this uses (another numba version).
+    """
+    if base in _DEFERRED:
+        return _DEFERRED[base]
+    needed = ("_unserialize", "enable_object_caching", "_set_compiled_object", "_finalize_final_module",
+              "get_pointer_to_function")
+    if base is None or not all(hasattr(base, name) for name in needed):
+        _DEFERRED[base] = None
+        return None
+
+    class DeferredLinkLibrary(base):
+        @property
+        def _shared_module(self):
+            pending = self.__dict__.pop("_pending_bitcode", None)
+            if pending is not None:
+                import llvmlite.binding as ll
+
+                self.__dict__["_parsed_bitcode"] = ll.parse_bitcode(pending)
+            return self.__dict__.get("_parsed_bitcode")
+
+        @_shared_module.setter
+        def _shared_module(self, value):
+            self.__dict__.pop("_pending_bitcode", None)
+            self.__dict__["_parsed_bitcode"] = value
+
+        @classmethod
+        def _unserialize(cls, codegen, state):
+            name, kind, data = state
+            names = _object_file_symbols(data[0]) if kind == "object" else None
+            if names is None:  # not an object file this reads: numba's own load
+                return super()._unserialize(codegen, state)
+            object_code, shared_bitcode = data
+            self = codegen.create_library(name)
+            self.enable_object_caching()
+            self._set_compiled_object(object_code)
+            self.__dict__["_pending_bitcode"] = shared_bitcode
+            self._finalize_final_module()
+            codegen._engine._defined_symbols |= names
+            return self
+
+        def get_pointer_to_function(self, name):
+            engine = self._codegen._engine
+            if "_pending_bitcode" in self.__dict__ and not engine.is_symbol_defined(name):
+                engine._load_defined_symbols(self._shared_module)  # numba's way: every name the bitcode defines
+            return super().get_pointer_to_function(name)
+
+    _DEFERRED[base] = DeferredLinkLibrary
+    return DeferredLinkLibrary
+
+
+def _object_file_symbols(data: bytes) -> set[str] | None:
+    """The names of the global and weak symbols a 64-bit ELF object file defines; None for anything else.
+
+    Reads the ELF header, the section headers and every symbol table (System V ABI, ELF-64 object file
+    format): a symbol counts if its section index is not SHN_UNDEF (0) and its binding is STB_GLOBAL (1) or
+    STB_WEAK (2).  None (the caller then does numba's own load) for another format (Mach-O, COFF, 32-bit ELF)
+    or a file whose tables point outside it.
+    """
+    import struct
+
+    if len(data) < 64 or data[:4] != b"\x7fELF" or data[4] != 2 or data[5] not in (1, 2):
+        return None
+    order = "<" if data[5] == 1 else ">"
+    try:
+        (shoff,) = struct.unpack_from(order + "Q", data, 0x28)
+        shentsize, shnum = struct.unpack_from(order + "HH", data, 0x3A)
+        if shentsize < 64 or shnum == 0:
+            return None
+        sections = [struct.unpack_from(order + "IIQQQQIIQQ", data, shoff + i * shentsize) for i in range(shnum)]
+        names = set()
+        for _name, kind, _flags, _addr, offset, size, link, _info, _align, entsize in sections:
+            if kind != 2:  # SHT_SYMTAB
+                continue
+            if entsize < 24 or offset + size > len(data) or link >= shnum:
+                return None
+            table = sections[link][4]
+            for at in range(offset, offset + size - entsize + 1, entsize):
+                st_name, st_info, _other, st_shndx = struct.unpack_from(order + "IBBH", data, at)
+                if st_shndx == 0 or st_info >> 4 not in (1, 2):
+                    continue
+                start = table + st_name
+                end = data.index(b"\0", start)
+                names.add(data[start:end].decode("utf-8"))
+        return names
+    except (struct.error, ValueError, UnicodeDecodeError):
+        return None
 
 
 def _without_scipy_linalg():

@@ -8,6 +8,7 @@ source, where pip's uninstall left the cache files (and so the package's folder)
 
 from __future__ import annotations
 
+import json
 import os
 import subprocess
 import sys
@@ -96,3 +97,82 @@ def test_a_kernel_is_cached_there_and_not_beside_the_source(tmp_path):
     assert list((tmp_path / "fdsolver" / "numba").glob("*/kernels.sturm_count-*.nbi"))
     after = {p: p.stat().st_mtime_ns for p in package.rglob("*.nb[ic]")}
     assert after == before  # nothing new or rewritten beside the source
+
+
+# ---------------------------------------------------------------- loads with the bitcode left unparsed
+def _fresh_library():
+    """A small kernel compiled in this process (not cached) and numba's serialized form of its library."""
+    import numba
+    import numpy as np
+
+    @numba.njit
+    def doubled_sum(a):
+        return 2.0 * a.sum()
+
+    doubled_sum(np.ones(3))
+    cres = next(iter(doubled_sum.overloads.values()))
+    return cres, cres.library.serialize_using_object_code()
+
+
+def test_the_object_files_symbols_are_names_the_bitcode_defines():
+    """``_object_file_symbols`` reads the ELF symbol table of numba's machine code for a library.  Reference:
+    llvmlite's parse of the same library's bitcode (what numba reads at a load): every name read from the
+    object file is defined there, and the kernel's entry point and its Python wrapper are among them."""
+    import llvmlite.binding as ll
+
+    from fdsolver.compiled import _object_file_symbols
+
+    cres, (_name, kind, (object_code, bitcode)) = _fresh_library()
+    assert kind == "object"
+    names = _object_file_symbols(object_code)
+    module = ll.parse_bitcode(bitcode)
+    defined = {g.name for table in (module.functions, module.global_variables) for g in table if not g.is_declaration}
+    assert names is not None and names <= defined
+    assert {cres.fndesc.llvm_func_name, cres.fndesc.llvm_cpython_wrapper_name} <= names
+
+
+def test_bytes_that_are_not_a_64_bit_elf_object_are_left_to_numba():
+    from fdsolver.compiled import _object_file_symbols
+
+    _cres, (_name, _kind, (object_code, _bitcode)) = _fresh_library()
+    thirty_two_bit = object_code[:4] + b"\x01" + object_code[5:]  # EI_CLASS = ELFCLASS32
+    for data in (b"", b"not an object file", object_code[:200], thirty_two_bit, b"\xcf\xfa\xed\xfe" + object_code[4:]):
+        assert _object_file_symbols(data) is None
+
+
+def test_a_kernel_loaded_from_the_cache_parses_its_bitcode_only_when_a_compile_links_it(tmp_path):
+    """A fresh process loads ``sturm_count`` from the cache with its bitcode unparsed; a kernel compiled later
+    that calls it links it in (the bitcode is parsed then) and gets the same count.  Reference for the count:
+    numpy's eigenvalues of the same tridiagonal matrix.  The first of two runs may compile (an empty cache);
+    the second loads.  fdsolver/compiled.py, ``_deferred_linking``."""
+    code = textwrap.dedent("""
+        import json
+        import numba
+        import numpy as np
+        from fdsolver.numerics import kernels
+        d, e = np.array([2.0, 1.0, 3.0, -1.0]), np.array([0.5, 0.2, 0.1])
+        count = kernels.sturm_count(d, e, 1.5)
+        library = next(iter(kernels.sturm_count.overloads.values())).library
+        deferred = "_pending_bitcode" in vars(library)
+
+        @numba.njit
+        def twice(d, e, sigma):
+            return 2 * kernels.sturm_count(d, e, sigma)
+
+        linked = twice(d, e, 1.5)
+        matrix = np.diag(d) + np.diag(e, 1) + np.diag(e, -1)
+        reference = int(np.sum(np.linalg.eigvalsh(matrix) < 1.5))
+        print("RESULT " + json.dumps([deferred, int(count), int(linked), "_pending_bitcode" in vars(library),
+                                      reference]))
+    """)
+    env = {k: v for k, v in os.environ.items() if k != "NUMBA_CACHE_DIR"}
+    env["XDG_CACHE_HOME"] = str(tmp_path)
+    env["PYTHONPATH"] = os.pathsep.join([str(Path(fdsolver.__file__).resolve().parents[1]),
+                                         os.environ.get("PYTHONPATH", "")])
+    runs = [subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, timeout=300,
+                           check=False) for _ in range(2)]
+    for proc in runs:
+        assert proc.returncode == 0, proc.stderr
+    deferred, count, linked, still_pending, reference = json.loads(runs[1].stdout.rsplit("RESULT ", 1)[1])
+    assert deferred and not still_pending  # loaded unparsed; parsed when the new kernel linked it in
+    assert count == reference == 2 and linked == 2 * reference
