@@ -164,6 +164,45 @@ def test_a_solve_loads_no_heavy_scipy_subpackage(tmp_path, text):
     assert not heavy, heavy
 
 
+#: a well in a field that falls without bound at the left end: its levels are quasi-bound, and the open end's
+#: boundary condition is the Airy function Ai (scipy.special)
+FIELD = ('title = "a well in a field (invented)"\nunits = "nm-meV"\nmass = 0.067\n'
+         '[[potential]]\nshape = "square"\ncenter = 0\nwidth = 8\ndepth = 200\n'
+         '[[potential]]\nshape = "linear"\nfield = 3.0\n')
+
+
+def test_a_field_at_an_open_end_loads_scipy_special_without_running_numpy_f2py(tmp_path):
+    """scipy.special's import makes numpy import numpy.f2py (its array-API layer star-imports numpy), about
+    0.06 s of CPU (measured: DEVELOPERS.md, session 16); fdsolver defers it (fdsolver.absent.deferred), so the
+    Fortran wrapper generator's modules never run in a solve, while ``numpy.f2py`` still works when used."""
+    case = tmp_path / "case.toml"
+    case.write_text(FIELD)
+    code = RUN_ENTRY_POINT.replace(
+        'print("\\nMODULES " + json.dumps(sorted(sys.modules)))',
+        'ran = sorted(m for m in sys.modules if m.startswith("numpy.f2py."))\n'
+        'import numpy\n'
+        'print("\\nMODULES " + json.dumps(["scipy.special" in sys.modules, ran, callable(numpy.f2py.run_main),'
+        ' "numpy.f2py.crackfortran" in sys.modules]))')
+    assert code != RUN_ENTRY_POINT
+    env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(PACKAGE_PARENT), os.environ.get("PYTHONPATH", "")]))
+    proc = subprocess.run([sys.executable, "-c", code, json.dumps(["solve", str(case)])], check=False,
+                          capture_output=True, text=True, env=env, timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    assert "lifetime [s]" in proc.stdout  # the quasi-bound levels were found with the Airy end condition
+    special, ran, works, loaded_on_use = json.loads(proc.stdout.rsplit("MODULES ", 1)[1])
+    assert special and ran == [] and works and loaded_on_use
+
+
+def test_deferred_leaves_an_imported_module_alone():
+    import json as already
+
+    from fdsolver.absent import deferred
+
+    deferred("json")
+    deferred("fdsolver.no_such_module")  # cannot be found: nothing happens
+    assert sys.modules["json"] is already and "fdsolver.no_such_module" not in sys.modules
+
+
 #: values with units in a field between walls, one of them (bohr) outside the table read without pint
 #: (fdsolver.input.quantities.EXACT_UNITS): pint converts it
 WITH_UNITS = ('title = "a well given with units (invented)"\nunits = "nm-meV"\nmass = 0.067\n'

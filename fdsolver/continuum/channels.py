@@ -52,15 +52,30 @@ def wavenumber(energy, v: float, mass: float, c: float) -> np.ndarray:
     return ROT * np.sqrt(-1j * mass * (e - v) / c)
 
 
+def _special():
+    """scipy.special's ``airy`` and ``airye``, imported with ``numpy.f2py`` deferred.
+
+    SciPy's array-API layer star-imports numpy, and that imports numpy.f2py, which nothing here uses: about
+    0.06 s of the 0.3 s the import costs (measured: DEVELOPERS.md, session 16).  It is imported so that its
+    code runs only if something uses it (:func:`fdsolver.absent.deferred`).
+    """
+    from fdsolver.absent import deferred
+
+    deferred("numpy.f2py")
+    from scipy.special import airy, airye
+
+    return airy, airye
+
+
 def airy_scaled(z):
     """(Ai, Ai', la, Bi, Bi', lb) with Ai(z) = Ai * exp(la), Bi(z) = Bi * exp(lb); la complex, lb real.
 
     Real z give real values (scipy.special.airye for z >= 0, airy for z < 0);
     complex z use the complex airye with la = -zeta, lb = |Re zeta|,
     zeta = (2/3) z sqrt(z).  scipy.special is imported here, where the Airy functions are called (a field at an
-    open end), not with this module: it costs a cold start about 0.3 s of CPU.
+    open end), not with this module: it costs a cold start about 0.3 s of CPU (:func:`_special`).
     """
-    from scipy.special import airy, airye
+    airy, airye = _special()
 
     z = np.asarray(z)
     if np.iscomplexobj(z):
@@ -90,8 +105,7 @@ def _rotated_ai(z, sign: int, gamma: float):
     larger than the sum at z = 3 - 13i), where adding the two loses every
     digit; the single rotated Ai keeps full relative accuracy there.
     """
-    from scipy.special import airye
-
+    _, airye = _special()
     rot = np.exp(sign * 2j * np.pi / 3)
     w = np.asarray(z, dtype=complex) * rot
     ai, aip, _, _ = airye(w)
