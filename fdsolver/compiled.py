@@ -1,9 +1,10 @@
 """numba's ``njit`` as every compiled loop of fdsolver uses it: cached on disk, no GIL, a lean first load.
 
 :data:`njit` is ``numba.njit(cache=True, nogil=True)``, with the compilation cache in fdsolver's own folder of
-the user's cache (:func:`cache_folder`), each kernel loaded from it without numba's compile set-up and with its
-bitcode for linking parsed only if a later compile needs it, and numba's numpy array-math module, where a kernel
-needs it, imported without scipy.linalg (below).
+the user's cache (:func:`cache_folder`), each kernel loaded from it without numba's compile set-up, with its
+bitcode for linking parsed only if a later compile needs it and without importing the modules of numba's own
+helpers compiled into it, and numba's numpy array-math module, where a kernel needs it, imported without
+scipy.linalg (below).
 Importing this module imports numba; the modules that define kernels import it, and a module that compiles a
 loop only when it is first called (a table's cubic spline) imports it then.
 """
@@ -108,7 +109,7 @@ def _lean_cache_loads(dispatcher) -> bool:
     def load_overload(sig, target_context):
         rtsys.initialize(target_context)
         found = None
-        with _without_scipy_linalg(), _deferred_linking(target_context.codegen()), guard():
+        with _without_scipy_linalg(), _deferred_linking(target_context.codegen()), _helper_environments(), guard():
             found = load(sig, target_context)  # the guard swallows an error of the cache files
         if found is None:  # numba compiles it next
             _load_numpy_typing_without_scipy_linalg()
@@ -149,6 +150,54 @@ def _deferred_linking(codegen):
                 codegen._library_class = saved
             else:
                 del codegen._library_class
+
+    return swapped()
+
+
+def _helper_environments():
+    """A context in which a cached kernel's environments of numba's own helpers are rebuilt without importing
+    the helpers' modules.
+
+    Every compiled function has an environment: the globals of the module that defined it and the Python
+    constants it uses.  A kernel's library carries those of every numba helper compiled into it (``np.empty``'s,
+    from ``numba.np.arrayobj``, in nearly all of them), and numba rebuilds each at a load by importing that
+    module to take its globals.  ``numba.np.arrayobj`` with what it imports costs about 0.065 s of CPU
+    (measured: DEVELOPERS.md, session 16), although no loaded kernel reads those globals: only object-mode code
+    looks names up in them; compiled (nopython) code, numba's helpers included, reads the constants alone.  So
+    here an environment of a module of numba (``numba.*``) not yet imported gets its constants and its name
+    and no other globals, and the module is not imported; numba imports it as usual when a later compile needs
+    it.  The environments of fdsolver's own modules, and of any imported module, are numba's as before.
+    numba holds its compiler lock while it loads, so no other load sees the swap.  A context that changes
+    nothing where numba's environments lack what this relies on.
+    """
+    import contextlib
+    import sys
+
+    from numba.core import environment
+
+    rebuild = getattr(environment, "_rebuild_env", None)
+    memo = getattr(getattr(environment, "Environment", None), "_memo", None)
+    if rebuild is None or memo is None or not hasattr(environment, "lookup_environment"):
+        return contextlib.nullcontext()
+
+    def rebuild_without_import(modname, consts, env_name):
+        if not (isinstance(modname, str) and modname.startswith("numba.") and modname not in sys.modules):
+            return rebuild(modname, consts, env_name)
+        env = environment.lookup_environment(env_name)
+        if env is None:  # numba's rebuild, with only the name among the globals
+            env = environment.Environment({"__name__": modname})
+            env.consts[:] = consts
+            env.env_name = env_name
+            memo[env_name] = env
+        return env
+
+    @contextlib.contextmanager
+    def swapped():
+        environment._rebuild_env = rebuild_without_import
+        try:
+            yield
+        finally:
+            environment._rebuild_env = rebuild
 
     return swapped()
 

@@ -176,3 +176,66 @@ def test_a_kernel_loaded_from_the_cache_parses_its_bitcode_only_when_a_compile_l
     deferred, count, linked, still_pending, reference = json.loads(runs[1].stdout.rsplit("RESULT ", 1)[1])
     assert deferred and not still_pending  # loaded unparsed; parsed when the new kernel linked it in
     assert count == reference == 2 and linked == 2 * reference
+
+
+KERNELS = '''
+import numpy as np
+from fdsolver.compiled import njit
+
+
+@njit
+def filled(n, value):
+    out = np.empty(n)
+    out[:] = value
+    return out
+
+
+@njit
+def shifted(a, b):
+    a[1:] = b
+    return a
+'''
+
+USE_KERNELS = '''
+import json, sys
+import numba
+import numpy as np
+import scratch_kernels as k
+report = [k.filled(3, 2.0).tolist()]
+for call in (lambda: k.filled(-1, 0.0), lambda: k.shifted(np.zeros(4), np.ones(2))):
+    try:
+        call()
+        report.append(None)
+    except ValueError as exc:
+        report.append(str(exc))
+report.append("numba.np.arrayobj" in sys.modules)
+
+@numba.njit
+def later(n):  # a compile after the loads: numba sets its compiler up and imports its array module then
+    return np.empty(n).size + k.filled(2, 1.0).size
+
+report += [later(4), "numba.np.arrayobj" in sys.modules, k.filled(2, 5.0).tolist()]
+print("RESULT " + json.dumps(report))
+'''
+
+
+def test_kernels_loaded_without_numbas_array_module_run_and_raise_as_compiled(tmp_path):
+    """Two small kernels made with fdsolver's ``njit``, in a fresh process that compiles them and in one that
+    loads them from the cache: the loading process does not import ``numba.np.arrayobj`` (its helpers'
+    environments are rebuilt without it: fdsolver/compiled.py, ``_helper_environments``), and gets the same
+    values and the same errors, a negative size and a shape mismatch (reference: the compiling process), and a
+    compile afterwards works and imports that module as usual."""
+    (tmp_path / "scratch_kernels.py").write_text(KERNELS)
+    env = {k: v for k, v in os.environ.items() if k != "NUMBA_CACHE_DIR"}
+    env["XDG_CACHE_HOME"] = str(tmp_path / "cache")
+    env["PYTHONPATH"] = os.pathsep.join([str(tmp_path), str(Path(fdsolver.__file__).resolve().parents[1]),
+                                         os.environ.get("PYTHONPATH", "")])
+    runs = [subprocess.run([sys.executable, "-c", USE_KERNELS], capture_output=True, text=True, env=env,
+                           timeout=300, check=False) for _ in range(2)]
+    for proc in runs:
+        assert proc.returncode == 0, proc.stderr
+    compiled, loaded = (json.loads(proc.stdout.rsplit("RESULT ", 1)[1]) for proc in runs)
+    assert compiled[3] is True and loaded[3] is False  # the compiling process imports it; the loading one not
+    assert loaded[:3] == compiled[:3] and loaded[4:] == compiled[4:]
+    assert loaded[0] == [2.0, 2.0, 2.0] and "negative" in loaded[1] and loaded[2]  # numpy: np.empty(-1) fails
+    assert loaded[4:] == [6, True, [5.0, 5.0]]

@@ -297,11 +297,14 @@ print("MODULES " + json.dumps(ok))
     assert json.loads(proc.stdout.rsplit("MODULES ", 1)[1]) == [True, True, True, True]
 
 
-#: modules numba imports only to set its compiler up (its lowering registries), not to load a cached kernel; and
-#: its numpy array-math module, which only a kernel calling one of its functions needs (fdsolver's kernels call
-#: none: their binary searches and interpolation are written out, in kernels.py and in the table's spline)
+#: modules numba imports only to set its compiler up (its lowering registries), not to load a cached kernel; its
+#: numpy array-math module, which only a kernel calling one of its functions needs (fdsolver's kernels call
+#: none: their binary searches and interpolation are written out, in kernels.py and in the table's spline); and
+#: its array module, whose globals numba's own helpers in a loaded kernel never read (fdsolver/compiled.py,
+#: ``_helper_environments``)
 COMPILER_SET_UP = ("numba.np.random.generator_methods", "numba.np.polynomial.polynomial_functions",
-                   "numba.typed.typeddict", "numba.experimental.jitclass.base", "numba.np.arraymath")
+                   "numba.typed.typeddict", "numba.experimental.jitclass.base", "numba.np.arraymath",
+                   "numba.np.arrayobj")
 
 
 @pytest.mark.parametrize("text", [PAIR, TABLE], ids=["square-well pair", "cubic table"])
