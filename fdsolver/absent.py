@@ -44,9 +44,11 @@ def deferred(name: str) -> None:
     """Import the submodule ``name`` of an imported package so that its code runs when it is first used.
 
     The standard library's lazy loader (``importlib.util.LazyLoader``): the module is entered in sys.modules
-    and on its parent package now, and its body runs at the first access to one of its attributes.  A later
-    ``import NAME`` finds it there.  Nothing happens where NAME is already imported or its parent is not, or
-    where it cannot be found or its loader cannot be made lazy.
+    and on its parent package now, and its body runs at the first access to one of its attributes.  So it pays
+    only where the module is reached as an attribute of its package (``from numpy import *`` takes
+    ``numpy.f2py`` so): an ``import NAME`` statement reads the module's ``__spec__``, which runs it.  Nothing
+    happens where NAME is already imported or its parent is not, or where it cannot be found or its loader
+    cannot be made lazy.
     """
     parent, _, child = name.rpartition(".")
     if name in sys.modules or (parent and parent not in sys.modules):
