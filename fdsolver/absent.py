@@ -8,7 +8,7 @@ length of one import, so the probe answers "absent" without paying for it.
 
 Others import a module they never use: SciPy's array-API layer star-imports
 numpy, which imports ``numpy.f2py`` (the Fortran wrapper generator, about
-0.06 s of CPU).  :func:`deferred` imports such a module so that its code
+0.08 s of CPU).  :func:`deferred` imports such a module so that its code
 runs only when it is first used.
 """
 

@@ -124,12 +124,12 @@ def _deferred_linking(codegen):
 
     A library in numba's cache holds its machine code (an object file) and the LLVM bitcode of the same
     functions, kept so that a kernel compiled later may inline them.  numba parses that bitcode at every load
-    and walks every function and global in it, to record which names the library defines: about 60 % of the
-    CPU of a cold solve's kernel loads (0.11 of 0.19 s for a square-well pair, measured: DEVELOPERS.md, session
-    16).  Under this context the names come from the object file's symbol table instead
-    (:func:`_object_file_symbols`: the global and weak symbols it defines, the names a lookup of the machine
-    code can find), and the bitcode is parsed only if a later compile links the library in
-    (:func:`_deferred_link_class`).  numba holds its compiler lock while it loads, so no other load sees the
+    and walks every function and global in it, to record which names the library defines: about two thirds of
+    the CPU of a cold solve's kernel loads (they took 0.21-0.24 s with it and 0.07 s without it for a
+    square-well pair, measured: DEVELOPERS.md, session 16).  Under this context the names come from the
+    object file's symbol table instead (:func:`_object_file_symbols`: the global and weak symbols it defines,
+    the names a lookup of the machine code can find), and the bitcode is parsed only if a later compile links
+    the library in (:func:`_deferred_link_class`).  numba holds its compiler lock while it loads, so no other load sees the
     class swapped.  A context that changes nothing where numba's code generator lacks what this relies on.
     """
     import contextlib
@@ -161,7 +161,7 @@ def _helper_environments():
     Every compiled function has an environment: the globals of the module that defined it and the Python
     constants it uses.  A kernel's library carries those of every numba helper compiled into it (``np.empty``'s,
     from ``numba.np.arrayobj``, in nearly all of them), and numba rebuilds each at a load by importing that
-    module to take its globals.  ``numba.np.arrayobj`` with what it imports costs about 0.065 s of CPU
+    module to take its globals.  ``numba.np.arrayobj`` with what it imports costs 0.06-0.07 s of CPU
     (measured: DEVELOPERS.md, session 16), although no loaded kernel reads those globals: only object-mode code
     looks names up in them; compiled (nopython) code, numba's helpers included, reads the constants alone.  So
     here an environment of a module of numba (``numba.*``) not yet imported gets its constants and its name

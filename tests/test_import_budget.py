@@ -173,7 +173,7 @@ FIELD = ('title = "a well in a field (invented)"\nunits = "nm-meV"\nmass = 0.067
 
 def test_a_field_at_an_open_end_loads_scipy_special_without_running_numpy_f2py(tmp_path):
     """scipy.special's import makes numpy import numpy.f2py (its array-API layer star-imports numpy), about
-    0.06 s of CPU (measured: DEVELOPERS.md, session 16); fdsolver defers it (fdsolver.absent.deferred), so the
+    0.08 s of CPU (measured: DEVELOPERS.md, session 16); fdsolver defers it (fdsolver.absent.deferred), so the
     Fortran wrapper generator's modules never run in a solve, while ``numpy.f2py`` still works when used."""
     case = tmp_path / "case.toml"
     case.write_text(FIELD)

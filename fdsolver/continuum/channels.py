@@ -56,7 +56,7 @@ def _special():
     """scipy.special's ``airy`` and ``airye``, imported with ``numpy.f2py`` deferred.
 
     SciPy's array-API layer star-imports numpy, and that imports numpy.f2py, which nothing here uses: about
-    0.06 s of the 0.3 s the import costs (measured: DEVELOPERS.md, session 16).  It is imported so that its
+    0.08 s of the 0.3 s the import costs (measured: DEVELOPERS.md, session 16).  It is imported so that its
     code runs only if something uses it (:func:`fdsolver.absent.deferred`).
     """
     from fdsolver.absent import deferred
