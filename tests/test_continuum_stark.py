@@ -7,6 +7,7 @@ import pytest
 
 from fdsolver.continuum.quasibound import quasi_bound_states
 from fdsolver.input.case import case_from_dict
+from fdsolver.runs import solve_case
 
 
 def _point_in_field(alpha, field):
@@ -119,3 +120,55 @@ def test_zero_field_gives_bound_states_with_zero_width():
     e0 = float(mp.findroot(lambda e: mp.sqrt(2 * (e + depth)) * mp.tan(mp.sqrt(2 * (e + depth)) * width / 2)
                            - mp.sqrt(-2 * e), -0.8))
     assert abs(res.energy[0] - e0) < 1e-12
+
+
+#: an invented biased double barrier (nm, meV, 0.067 m_e): 2 nm barriers of 300 meV around a 5 nm well, the field
+#: term V = -2 meV/nm x over the whole line (closed on the left, where V rises; open on the right)
+BIASED = {"units": "nm-meV", "mass": 0.067,
+          "layer": [{"band_edge": 0.0}, {"thickness": 2.0, "band_edge": 300.0}, {"thickness": 5.0, "band_edge": 0.0},
+                    {"thickness": 2.0, "band_edge": 300.0}, {"band_edge": 0.0}],
+          "potential": [{"shape": "linear", "field": -2.0}]}
+
+
+def _biased_stack_mismatch(edges, bands, field, mass, c, digits=30):
+    """Derived here: f(E) = A - i B of the last region, zero at a pole.  Region j has V = bands[j] + F x, so
+    psi'' = (a x + b_j) psi with a = m F / C, b_j = m (bands[j] - E) / C; in z = beta (x + b_j / a), beta = a^(1/3)
+    (the real cube root, negative here), psi = A Ai(z) + B Bi(z).  The first region decays as V rises to the left:
+    (A, B) = (1, 0).  psi and psi' are continuous at every edge (one mass); with W(Ai, Bi) = 1/pi (DLMF 9.2.7) the
+    next region's A = pi (psi Bi'(z) - psi' Bi(z) / beta), B = pi (psi' Ai(z) / beta - psi Ai'(z)).  The last region
+    carries only the outgoing wave Bi + i Ai (its phase grows to the right, where z -> -inf): A = i B."""
+    mp.mp.dps = digits
+    a = mp.mpf(mass) * field / c
+    beta = -mp.cbrt(-a) if a < 0 else mp.cbrt(a)
+
+    def f(e):
+        amp = (mp.mpc(1), mp.mpc(0))
+        for j, x in enumerate(edges):
+            z = beta * (x + mass * (bands[j] - e) / c / a)
+            psi = amp[0] * mp.airyai(z) + amp[1] * mp.airybi(z)
+            dpsi = beta * (amp[0] * mp.airyai(z, 1) + amp[1] * mp.airybi(z, 1))
+            z = beta * (x + mass * (bands[j + 1] - e) / c / a)
+            amp = (mp.pi * (psi * mp.airybi(z, 1) - dpsi * mp.airybi(z) / beta),
+                   mp.pi * (dpsi * mp.airyai(z) / beta - psi * mp.airyai(z, 1)))
+        return (amp[0] - 1j * amp[1]) / (abs(amp[0]) + abs(amp[1]))
+
+    return f
+
+
+def test_biased_double_barrier_levels_are_its_poles():
+    """Every quasi-bound level the solve reports for a double barrier under bias (a field at both open ends: Ai
+    on the closed side, the outgoing Bi + i Ai on the open side) is a zero of the outgoing-wave condition written
+    with mpmath's Airy functions, to its error bar; the levels of the well (three below the barrier tops at this
+    bias) are all found, and the contour counts are clean."""
+    case = case_from_dict(BIASED)
+    pot = case.potential
+    sol = solve_case(case)
+    assert not any("not clean" in m for m in sol.messages), sol.messages
+    f = _biased_stack_mismatch([0.0, 2.0, 7.0, 9.0], [0.0, 300.0, 0.0, 300.0, 0.0], -2.0, 0.067, pot.hbar2_2me)
+    assert pot.value(np.array([1.0, 4.0, 8.0, 12.0])) == pytest.approx([298.0, -8.0, 284.0, -24.0], abs=1e-12)
+    low = sol.energy[sol.energy < 150.0]
+    assert low.size == 3
+    for e_r, err, g, g_err in zip(sol.energy, sol.energy_error, sol.width, sol.width_error):
+        p = mp.findroot(f, (mp.mpc(e_r, -g / 2), mp.mpc(e_r, -g / 2) + mp.mpf(10) ** -7))
+        assert abs(e_r - float(mp.re(p))) <= err + 1e-12 * abs(e_r)
+        assert abs(g - float(-2 * mp.im(p))) <= g_err + 1e-9 * g

@@ -128,6 +128,12 @@ BARRIERS = ('title = "two thin barriers (invented)"\nunits = "nm-meV"\nmass = 0.
             '[[potential]]\nshape = "square"\ncenter = 4\nwidth = 2\ndepth = -300\n[solve]\nquasi_bound = true\n')
 
 
+#: a well in a field that falls without bound at the left end: its levels are quasi-bound, and the open ends'
+#: boundary conditions are Airy functions (fdsolver.numerics.airy)
+FIELD = ('title = "a well in a field (invented)"\nunits = "nm-meV"\nmass = 0.067\n'
+         '[[potential]]\nshape = "square"\ncenter = 0\nwidth = 8\ndepth = 200\n'
+         '[[potential]]\nshape = "linear"\nfield = 3.0\n')
+
 HEAVY_SCIPY = ("scipy.linalg", "scipy.special", "scipy.optimize", "scipy.interpolate", "scipy.constants")
 #: a cubic spline through a table that leaks at its ends (the open line's check for quasi-bound states)
 TABLE = ('title = "a tabulated well (invented)"\nunits = "nm-meV"\nmass = 0.067\n'
@@ -140,12 +146,13 @@ GRADED = ('title = "erf-graded well (invented)"\nunits = "nm-meV"\nmass = 0.067\
           '[domain]\nboundary = "hard"\nleft = -30.0\nright = 30.0\n')
 
 
-@pytest.mark.parametrize("text", [PAIR, BARRIERS, TABLE, GRADED],
-                         ids=["square-well pair", "double barrier on the open line", "cubic table", "erf expression"])
+@pytest.mark.parametrize("text", [PAIR, BARRIERS, TABLE, GRADED, FIELD],
+                         ids=["square-well pair", "double barrier on the open line", "cubic table", "erf expression",
+                              "well in a field"])
 def test_a_solve_loads_no_heavy_scipy_subpackage(tmp_path, text):
     """numba imports scipy.linalg (about 0.25 s of CPU, measured) only to ask whether its ``np.correlate`` and
-    ``np.convolve`` may call BLAS; no kernel of fdsolver calls them (fdsolver/compiled.py).  scipy.special (Airy functions, for a field at an
-    open end) and scipy.optimize (a bound state's root on the open line) are imported where they are called; erf and
+    ``np.convolve`` may call BLAS; no kernel of fdsolver calls them (fdsolver/compiled.py).  The Airy functions of a field at an
+    open end are fdsolver's own (fdsolver.numerics.airy), and scipy.optimize (a bound state's root on the open line) is imported where it is called; erf and
     erfc in an expression are compiled loops of their own (fdsolver.input._expressions.special); the cubic spline of a table and the constants of lifetimes need neither scipy.interpolate nor scipy.constants.  So
     no solve of these structures loads any of them (0.1 to 0.4 s of CPU each, measured; DEVELOPERS.md)."""
     case = tmp_path / "case.toml"
@@ -162,45 +169,6 @@ def test_a_solve_loads_no_heavy_scipy_subpackage(tmp_path, text):
     scipy_modules = json.loads(proc.stdout.rsplit("MODULES ", 1)[1])
     heavy = [m for m in scipy_modules if ".".join(m.split(".")[:2]) in HEAVY_SCIPY]
     assert not heavy, heavy
-
-
-#: a well in a field that falls without bound at the left end: its levels are quasi-bound, and the open end's
-#: boundary condition is the Airy function Ai (scipy.special)
-FIELD = ('title = "a well in a field (invented)"\nunits = "nm-meV"\nmass = 0.067\n'
-         '[[potential]]\nshape = "square"\ncenter = 0\nwidth = 8\ndepth = 200\n'
-         '[[potential]]\nshape = "linear"\nfield = 3.0\n')
-
-
-def test_a_field_at_an_open_end_loads_scipy_special_without_running_numpy_f2py(tmp_path):
-    """scipy.special's import makes numpy import numpy.f2py (its array-API layer star-imports numpy), about
-    0.08 s of CPU (measured: DEVELOPERS.md, session 16); fdsolver defers it (fdsolver.absent.deferred), so the
-    Fortran wrapper generator's modules never run in a solve, while ``numpy.f2py`` still works when used."""
-    case = tmp_path / "case.toml"
-    case.write_text(FIELD)
-    code = RUN_ENTRY_POINT.replace(
-        'print("\\nMODULES " + json.dumps(sorted(sys.modules)))',
-        'ran = sorted(m for m in sys.modules if m.startswith("numpy.f2py."))\n'
-        'import numpy\n'
-        'print("\\nMODULES " + json.dumps(["scipy.special" in sys.modules, ran, callable(numpy.f2py.run_main),'
-        ' "numpy.f2py.crackfortran" in sys.modules]))')
-    assert code != RUN_ENTRY_POINT
-    env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(PACKAGE_PARENT), os.environ.get("PYTHONPATH", "")]))
-    proc = subprocess.run([sys.executable, "-c", code, json.dumps(["solve", str(case)])], check=False,
-                          capture_output=True, text=True, env=env, timeout=300)
-    assert proc.returncode == 0, proc.stderr
-    assert "lifetime [s]" in proc.stdout  # the quasi-bound levels were found with the Airy end condition
-    special, ran, works, loaded_on_use = json.loads(proc.stdout.rsplit("MODULES ", 1)[1])
-    assert special and ran == [] and works and loaded_on_use
-
-
-def test_deferred_leaves_an_imported_module_alone():
-    import json as already
-
-    from fdsolver.absent import deferred
-
-    deferred("json")
-    deferred("fdsolver.no_such_module")  # cannot be found: nothing happens
-    assert sys.modules["json"] is already and "fdsolver.no_such_module" not in sys.modules
 
 
 #: values with units in a field between walls, one of them (bohr) outside the table read without pint

@@ -22,8 +22,9 @@ one of
   outgoing wave is Ci+ = Bi + i Ai ~ exp(i (zeta + pi/4)) / (sqrt(pi) |z|^(1/4)),
   zeta = (2/3) |z|^(3/2) (DLMF 9.7.9, 9.7.11), whose phase grows away from the
   structure; its flux is C |beta| / (pi m) outward (Wronskian Ai Bi' - Ai' Bi = 1/pi).
-  Ai and Bi come from scipy.special.airye with the exponential scale kept apart;
-  at complex E the waves Bi +- i Ai are evaluated as one rotated Ai (DLMF 9.2.11).
+  Ai and Bi come from :mod:`fdsolver.numerics.airy` with the exponential scale
+  kept apart; at complex E the waves Bi +- i Ai are evaluated as one rotated Ai
+  (DLMF 9.2.11).
 * ``wall``: V grows without bound (a harmonic or Morse wall): closed, with the
   decaying exponential of the local kappa at the end of a tail long enough
   that the WKB decay integral is at least 20 (see :mod:`fdsolver.numerics.cells`).
@@ -43,6 +44,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from fdsolver.numerics.airy import ai_scaled, airy
+
 ROT = np.exp(0.25j * np.pi)
 
 
@@ -52,52 +55,6 @@ def wavenumber(energy, v: float, mass: float, c: float) -> np.ndarray:
     return ROT * np.sqrt(-1j * mass * (e - v) / c)
 
 
-def _special():
-    """scipy.special's ``airy`` and ``airye``, imported with ``numpy.f2py`` deferred.
-
-    SciPy's array-API layer star-imports numpy, and that imports numpy.f2py, which nothing here uses: about
-    0.08 s of the 0.3 s the import costs (measured: DEVELOPERS.md, session 16).  It is imported so that its
-    code runs only if something uses it (:func:`fdsolver.absent.deferred`).
-    """
-    from fdsolver.absent import deferred
-
-    deferred("numpy.f2py")
-    from scipy.special import airy, airye
-
-    return airy, airye
-
-
-def airy_scaled(z):
-    """(Ai, Ai', la, Bi, Bi', lb) with Ai(z) = Ai * exp(la), Bi(z) = Bi * exp(lb); la complex, lb real.
-
-    Real z give real values (scipy.special.airye for z >= 0, airy for z < 0);
-    complex z use the complex airye with la = -zeta, lb = |Re zeta|,
-    zeta = (2/3) z sqrt(z).  scipy.special is imported here, where the Airy functions are called (a field at an
-    open end), not with this module: it costs a cold start about 0.3 s of CPU (:func:`_special`).
-    """
-    airy, airye = _special()
-
-    z = np.asarray(z)
-    if np.iscomplexobj(z):
-        ai, aip, bi, bip = airye(z)
-        zeta = (2.0 / 3.0) * z * np.sqrt(z)
-        return ai, aip, -zeta, bi, bip, np.abs(zeta.real)
-    z = z.astype(float)
-    pos = z >= 0
-    ai, aip, bi, bip = (np.empty_like(z) for _ in range(4))
-    la, lb = np.zeros_like(z), np.zeros_like(z)
-    if np.any(pos):
-        zp = z[pos]
-        a, ap, b, bp = airye(zp)
-        zeta = (2.0 / 3.0) * zp * np.sqrt(zp)
-        ai[pos], aip[pos], bi[pos], bip[pos] = a, ap, b, bp
-        la[pos], lb[pos] = -zeta, zeta
-    if np.any(~pos):
-        a, ap, b, bp = airy(z[~pos])
-        ai[~pos], aip[~pos], bi[~pos], bip[~pos] = a, ap, b, bp
-    return ai, aip, la.astype(float), bi, bip, lb
-
-
 def _rotated_ai(z, sign: int, gamma: float):
     """Bi(z) +- i Ai(z) = 2 exp(+-i pi/6) Ai(z exp(+-2 pi i/3)) (DLMF 9.2.11) as (psi, u = gamma d/dz, log).
 
@@ -105,14 +62,10 @@ def _rotated_ai(z, sign: int, gamma: float):
     larger than the sum at z = 3 - 13i), where adding the two loses every
     digit; the single rotated Ai keeps full relative accuracy there.
     """
-    _, airye = _special()
     rot = np.exp(sign * 2j * np.pi / 3)
-    w = np.asarray(z, dtype=complex) * rot
-    ai, aip, _, _ = airye(w)
-    zeta = (2.0 / 3.0) * w * np.sqrt(w)
-    ph = np.exp(-1j * zeta.imag)
+    ai, aip, log = ai_scaled(np.asarray(z, dtype=complex) * rot)
     pre = 2.0 * np.exp(sign * 1j * np.pi / 6)
-    return pre * ai * ph, gamma * pre * rot * aip * ph, -zeta.real
+    return pre * ai, gamma * pre * rot * aip, log
 
 
 @dataclass(frozen=True)
@@ -165,12 +118,11 @@ class Channel:
         gamma = self.c * self._beta() / self.mass
         z = self._z(e)
         if not self.falling:
-            ai, aip, la, bi, bip, lb = airy_scaled(z)
-            ph = np.exp(1j * np.imag(la))
-            return (ai * ph).astype(complex), (gamma * aip * ph).astype(complex), np.real(la)
+            ai, aip, la = ai_scaled(z)
+            return ai, gamma * aip, la
         if np.iscomplexobj(z):
             return _rotated_ai(z, +1, gamma)
-        ai, aip, la, bi, bip, lb = airy_scaled(z)
+        ai, aip, la, bi, bip, lb = airy(z)
         w = 1j * np.exp(la - lb)  # i Ai / Bi scale
         return bi + w * ai, gamma * (bip + w * aip), lb
 
@@ -185,7 +137,7 @@ class Channel:
             z = self._z(e)
             if np.iscomplexobj(z):
                 return _rotated_ai(z, -1, gamma)
-            ai, aip, la, bi, bip, lb = airy_scaled(z)
+            ai, aip, la, bi, bip, lb = airy(z)
             w = -1j * np.exp(la - lb)
             return bi + w * ai, gamma * (bip + w * aip), lb
         raise ValueError("a closed channel has no incoming wave")
@@ -217,7 +169,7 @@ class Channel:
             kap = math.sqrt(max(self.mass * (self.v - e) / self.c, 0.0))
             return (1.0, -self.side * self.c * kap / self.mass, 0.0), None, 0.0
         gamma = self.c * self._beta() / self.mass
-        vals = airy_scaled(np.array([float(self._z(e))]))
+        vals = airy(np.array([float(self._z(e))]))
         ai, aip, la, bi, bip, lb = (float(np.real(v[0])) for v in vals)
         if not self.falling:
             return (ai, gamma * aip, la), None, 0.0
