@@ -90,9 +90,11 @@ def _lean_cache_loads(dispatcher) -> bool:
     numba's cache refreshes the whole compile context before it loads a kernel: it imports and installs every
     lowering registry numba has (its numpy, random, polynomial, typed containers ...), 0.1 to 0.2 s of CPU on
     the first kernel a process loads.  Loading needs none of it: the cached library is linked machine code,
-    and only numba's runtime (array allocation) must be ready, which ``rtsys.initialize`` does.  A load does
-    import the modules the kernel's numba helpers were defined in (to rebuild their environments); numba's
-    numpy array-math module among them is imported without scipy.linalg (:func:`_without_scipy_linalg`).
+    and only numba's runtime (array allocation) must be ready, which ``rtsys.initialize`` does.  The load
+    itself reads the library's names from its object file and leaves its bitcode unparsed
+    (:func:`_deferred_linking`), and rebuilds the environments of numba's helpers in it without importing
+    their modules (:func:`_helper_environments`); a module it does import to rebuild an environment (one of
+    another package) is imported with scipy.linalg hidden (:func:`_without_scipy_linalg`).
     Where the kernel is not in the cache, numba compiles it, and its compiler refreshes the context itself,
     after the same import (:func:`_load_numpy_typing_without_scipy_linalg`).  Only this dispatcher's cache is
     changed (other numba users in the process keep numba's own).  False, and nothing changed, where numba's
@@ -129,8 +131,9 @@ def _deferred_linking(codegen):
     square-well pair, measured: DEVELOPERS.md, session 16).  Under this context the names come from the
     object file's symbol table instead (:func:`_object_file_symbols`: the global and weak symbols it defines,
     the names a lookup of the machine code can find), and the bitcode is parsed only if a later compile links
-    the library in (:func:`_deferred_link_class`).  numba holds its compiler lock while it loads, so no other load sees the
-    class swapped.  A context that changes nothing where numba's code generator lacks what this relies on.
+    the library in (:func:`_deferred_link_class`).  numba holds its compiler lock while it loads, so no other
+    load sees the class swapped.  A context that changes nothing where numba's code generator lacks what this
+    relies on.
     """
     import contextlib
 
