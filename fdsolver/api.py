@@ -620,17 +620,33 @@ def transmit(case, energies=None, *, incident: str | None = None, vary: str | Se
     ``scheduler``, ``chunk`` and ``progress`` as for :func:`sweep`.
     """
     from fdsolver.continuum.options import energies_of, incident_of
+
+    case = _case(case)
+    texts = _texts(vary)
+    if texts:
+        side = incident_of(case, incident)
+        return _transmit_sweep(case, texts, energies_of(case, energies, side), side, energies, output=output,
+                               resume=resume, restart=restart, executor=executor, workers=workers, cluster=cluster,
+                               scheduler=scheduler, chunk=chunk, progress=progress, action=action)
+    ds = transmit_record_of(case, energies, incident=incident, resume=resume, restart=restart, action=action).dataset()
+    if output is not None:
+        from fdsolver.io.archive import write_dataset
+
+        write_dataset(ds, output)
+    return ds
+
+
+def transmit_record_of(case, energies=None, *, incident: str | None = None, resume: bool = False,
+                       restart: bool = False, action: str | None = None) -> Record:
+    """:func:`transmit` of one structure (no ``vary``) without building the Dataset (no xarray import): the
+    archive's variables and attributes."""
+    from fdsolver.continuum.options import energies_of, incident_of
     from fdsolver.continuum.scan import fixed_grid, transmission_scan
-    from fdsolver.io.datasets import transmission_dataset
+    from fdsolver.io.datasets import transmission_record
 
     case = _case(case)
     side = incident_of(case, incident)
     lo, hi, n, src = energies_of(case, energies, side)
-    texts = _texts(vary)
-    if texts:
-        return _transmit_sweep(case, texts, (lo, hi, n, src), side, energies, output=output, resume=resume,
-                               restart=restart, executor=executor, workers=workers, cluster=cluster,
-                               scheduler=scheduler, chunk=chunk, progress=progress, action=action)
     if resume or restart:
         raise CaseError("--resume and --restart continue a sweep (--vary); one T(E) has no checkpoint",
                         key="--resume" if resume else "--restart")
@@ -650,8 +666,8 @@ def transmit(case, energies=None, *, incident: str | None = None, vary: str | Se
     grid = (f"{n} even energies" if n is not None else
             f"adaptive: {tr.energy.size} energies (every pole in the range sampled uniformly in its phase)")
     text = action or f"transmit {_where(case)}" + (f" --energies {energies}" if energies else "")
-    return transmission_dataset(case, transmission_values(tr), stamp(text), incident=side, method=tr.method,
-                                grid=grid, notes=tr.notes)
+    return transmission_record(case, transmission_values(tr), stamp(text), incident=side, method=tr.method,
+                               grid=grid, notes=tr.notes)
 
 
 def _transmit_sweep(case, texts, span, side, energies, *, output, resume, restart, executor, workers, cluster,
@@ -708,29 +724,21 @@ def resonances(case, window=None, *, max_width=None, vary: str | Sequence[str] =
     from fdsolver.io.datasets import resonances_dataset
 
     case = _case(case)
-    if isinstance(window, (tuple, list)):
-        window = f"{window[0]!r}:{window[1]!r}"
-    lo, hi, _ = window_of(case, window)
-    width = positive_energy(case, "max_width", max_width, "--max-width")
     texts = _texts(vary)
-    text = action or f"resonances {_where(case)}" + (f" --window {window}" if window else "") + \
-        "".join(f" --vary {t}" for t in texts)
     if not texts:
-        if resume or restart:
-            raise CaseError("--resume and --restart continue a sweep (--vary); one window has no checkpoint",
-                            key="--resume" if resume else "--restart")
-        from fdsolver.continuum.resonances import find_resonances
-        from fdsolver.scans.continuum import resonance_arrays
-
-        res = _located(case, lambda: find_resonances(case.potential, (lo, hi), max_width=width, domain=case.domain))
-        values = {**resonance_arrays(res), "solved": 1, "resonance_count": len(res)}
-        notes = [n for n in res.notes if not n.startswith("no resonance")]  # the table says so itself
-        ds = resonances_dataset(case, values, stamp(text), window=(lo, hi), max_width=res.max_width, notes=notes)
+        ds = resonances_record_of(case, window, max_width=max_width, resume=resume, restart=restart,
+                                  action=action).dataset()
         if output is not None:
             from fdsolver.io.archive import write_dataset
 
             write_dataset(ds, output)
         return ds
+    if isinstance(window, (tuple, list)):
+        window = f"{window[0]!r}:{window[1]!r}"
+    lo, hi, _ = window_of(case, window)
+    width = positive_energy(case, "max_width", max_width, "--max-width")
+    text = action or f"resonances {_where(case)}" + (f" --window {window}" if window else "") + \
+        "".join(f" --vary {t}" for t in texts)
     from fdsolver.io.specs import KINDS
     from fdsolver.scans.axes import parse_axes
     from fdsolver.scans.continuum import plan_resonance_sweep
@@ -749,6 +757,30 @@ def resonances(case, window=None, *, max_width=None, vary: str | Sequence[str] =
     return _run_on(executor, workers, cluster, scheduler,
                    lambda ex: run(spec, ex, finish, action=text, output=output, resume=resume, restart=restart,
                                   progress=progress))
+
+
+def resonances_record_of(case, window=None, *, max_width=None, resume: bool = False, restart: bool = False,
+                         action: str | None = None) -> Record:
+    """:func:`resonances` in one window (no ``vary``) without building the Dataset (no xarray import): the
+    archive's variables and attributes."""
+    from fdsolver.continuum.options import positive_energy, window_of
+    from fdsolver.continuum.resonances import find_resonances
+    from fdsolver.io.datasets import resonances_record
+    from fdsolver.scans.continuum import resonance_arrays
+
+    case = _case(case)
+    if isinstance(window, (tuple, list)):
+        window = f"{window[0]!r}:{window[1]!r}"
+    lo, hi, _ = window_of(case, window)
+    width = positive_energy(case, "max_width", max_width, "--max-width")
+    text = action or f"resonances {_where(case)}" + (f" --window {window}" if window else "")
+    if resume or restart:
+        raise CaseError("--resume and --restart continue a sweep (--vary); one window has no checkpoint",
+                        key="--resume" if resume else "--restart")
+    res = _located(case, lambda: find_resonances(case.potential, (lo, hi), max_width=width, domain=case.domain))
+    values = {**resonance_arrays(res), "solved": 1, "resonance_count": len(res)}
+    notes = [n for n in res.notes if not n.startswith("no resonance")]  # the table says so itself
+    return resonances_record(case, values, stamp(text), window=(lo, hi), max_width=res.max_width, notes=notes)
 
 
 def current(case, bias=None, *, temperature: float | None = None, fermi_level: float | None = None, output=None,

@@ -90,14 +90,17 @@ def _load(args, scan: bool):
 
 
 def _finish(ds, args, written_by_run: bool) -> int:
-    """The figure first (one that fails leaves no archive of ours), the archive, then the table."""
+    """The figure first (one that fails leaves no archive of ours), the archive, then the table.  ``ds`` may be
+    the :class:`~fdsolver.io.record.Record` of one structure's run: it is written and printed as it is, and made
+    a Dataset (xarray loaded) only to draw."""
     import os
 
     from fdsolver.cli._common import commit_figure, discard, draw_figure, say
     from fdsolver.io.archive import write_dataset
+    from fdsolver.io.record import Record
     from fdsolver.report import format_archive
 
-    figure = draw_figure(ds, args.plot)
+    figure = draw_figure(ds.dataset() if args.plot and isinstance(ds, Record) else ds, args.plot)
     try:
         if args.output and not written_by_run:
             write_dataset(ds, args.output)
@@ -112,16 +115,16 @@ def _finish(ds, args, written_by_run: bool) -> int:
 
 
 def run_transmit(args) -> int:
-    from fdsolver.api import transmit
+    from fdsolver.api import transmit, transmit_record_of
     from fdsolver.cli._common import command
 
     case = _load(args, bool(args.vary))
     action = command("transmit", args, (("--energies", "energies"), ("--incident", "incident"), ("--vary", "vary"),
                                         ("--set", "set")))
-    if not args.vary:
-        ds = transmit(case, args.energies, incident=args.incident, action=action, resume=args.resume,
-                               restart=args.restart)
-        return _finish(ds, args, False)
+    if not args.vary:  # printed and written from the archive's variables; xarray is loaded only to draw
+        shown = transmit_record_of(case, args.energies, incident=args.incident, resume=args.resume,
+                                   restart=args.restart, action=action)
+        return _finish(shown, args, False)
     ds = _scan(args, lambda bar: transmit(case, args.energies, incident=args.incident, vary=args.vary,
                                                    progress=bar, action=action, **_executor(args)), "T(E) sweep")
     return _finish(ds, args, True)
@@ -153,20 +156,16 @@ def _executor(args) -> dict:
 
 
 def run_resonances(args) -> int:
-    from fdsolver.api import resonances
+    from fdsolver.api import resonances, resonances_record_of
     from fdsolver.cli._common import command
 
     case = _load(args, bool(args.vary))
     action = command("resonances", args, (("--window", "window"), ("--max-width", "max_width"), ("--vary", "vary"),
                                           ("--set", "set")))
-    if not args.vary:
-        from fdsolver.errors import CaseError
-
-        if args.resume or args.restart:
-            raise CaseError("--resume and --restart continue a sweep (--vary); one window has no checkpoint",
-                            key="--resume" if args.resume else "--restart")
-        ds = resonances(case, args.window, max_width=args.max_width, action=action)
-        return _finish(ds, args, False)
+    if not args.vary:  # printed and written from the archive's variables; xarray is loaded only to draw
+        shown = resonances_record_of(case, args.window, max_width=args.max_width, resume=args.resume,
+                                     restart=args.restart, action=action)
+        return _finish(shown, args, False)
     ds = _scan(args, lambda bar: resonances(case, args.window, max_width=args.max_width, vary=args.vary,
                                                      progress=bar, action=action, **_executor(args)), "resonances")
     return _finish(ds, args, True)

@@ -396,6 +396,13 @@ def _notes_attr(notes) -> str:
 def transmission_dataset(case, values: dict, history: str, *, incident: str, method: str, grid: str, notes=(),
                          axes=()) -> xr.Dataset:
     """The archive of T(E): coordinate ``energy`` (and ``resonance`` for the poles in its range)."""
+    return transmission_record(case, values, history, incident=incident, method=method, grid=grid, notes=notes,
+                               axes=axes).dataset()
+
+
+def transmission_record(case, values: dict, history: str, *, incident: str, method: str, grid: str, notes=(),
+                        axes=()) -> Record:
+    """:func:`transmission_dataset` without building the Dataset (no xarray import)."""
     attrs = base_attrs(case, "transmission", history)
     attrs.update({
         "swept_params": json.dumps([a.name for a in axes]),
@@ -406,12 +413,19 @@ def transmission_dataset(case, values: dict, history: str, *, incident: str, met
                          "(BenDaniel-Duke matching); R likewise",
         "notes": _notes_attr(notes),
     })
-    return build("transmission", values, case.units, attrs, axes=axes)
+    return record("transmission", values, case.units, attrs, axes=axes)
 
 
 def resonances_dataset(case, values: dict, history: str, *, window, max_width, notes=(), axes=(),
                        fixed=None) -> xr.Dataset:
     """The archive of resonances in a window: dimension ``resonance`` (and the swept params of a sweep)."""
+    return resonances_record(case, values, history, window=window, max_width=max_width, notes=notes, axes=axes,
+                             fixed=fixed).dataset()
+
+
+def resonances_record(case, values: dict, history: str, *, window, max_width, notes=(), axes=(),
+                      fixed=None) -> Record:
+    """:func:`resonances_dataset` without building the Dataset (no xarray import)."""
     attrs = base_attrs(case, "resonances", history)
     attrs.update({
         "swept_params": json.dumps([a.name for a in axes]),
@@ -422,7 +436,7 @@ def resonances_dataset(case, values: dict, history: str, *, window, max_width, n
                   "rectangles, Newton from both edges; real-axis formula for narrow poles",
         "notes": _notes_attr(notes),
     })
-    return build("resonances", values, case.units, attrs, axes=axes)
+    return record("resonances", values, case.units, attrs, axes=axes)
 
 
 def current_dataset(case, values: dict, history: str, *, temperature: float, fermi_level: float,

@@ -27,6 +27,10 @@ class Field:
     values: np.ndarray
     attrs: dict
 
+    @property
+    def ndim(self) -> int:
+        return len(self.dims)
+
 
 @dataclass
 class Record:
