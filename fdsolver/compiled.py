@@ -11,6 +11,7 @@ loop only when it is first called (a table's cubic spline) imports it then.
 
 from __future__ import annotations
 
+import contextlib
 import os
 import tempfile
 
@@ -135,26 +136,10 @@ def _deferred_linking(codegen):
     load sees the class swapped.  A context that changes nothing where numba's code generator lacks what this
     relies on.
     """
-    import contextlib
-
     library = _deferred_link_class(getattr(type(codegen), "_library_class", None))
     if library is None or not hasattr(getattr(codegen, "_engine", None), "_defined_symbols"):
         return contextlib.nullcontext()
-
-    @contextlib.contextmanager
-    def swapped():
-        own = "_library_class" in vars(codegen)
-        saved = vars(codegen).get("_library_class")
-        codegen._library_class = library
-        try:
-            yield
-        finally:
-            if own:
-                codegen._library_class = saved
-            else:
-                del codegen._library_class
-
-    return swapped()
+    return _swapped(codegen, "_library_class", library)
 
 
 def _helper_environments():
@@ -173,7 +158,6 @@ def _helper_environments():
     numba holds its compiler lock while it loads, so no other load sees the swap.  A context that changes
     nothing where numba's environments lack what this relies on.
     """
-    import contextlib
     import sys
 
     from numba.core import environment
@@ -194,15 +178,23 @@ def _helper_environments():
             memo[env_name] = env
         return env
 
-    @contextlib.contextmanager
-    def swapped():
-        environment._rebuild_env = rebuild_without_import
-        try:
-            yield
-        finally:
-            environment._rebuild_env = rebuild
+    return _swapped(environment, "_rebuild_env", rebuild_without_import)
 
-    return swapped()
+
+@contextlib.contextmanager
+def _swapped(owner, name: str, value):
+    """``owner.name`` is ``value`` within the block; afterwards it is what it was (removed again where ``owner``
+    only inherited it, as an instance does its class's attribute)."""
+    own = name in vars(owner)
+    saved = vars(owner).get(name)
+    setattr(owner, name, value)
+    try:
+        yield
+    finally:
+        if own:
+            setattr(owner, name, saved)
+        else:
+            delattr(owner, name)
 
 
 #: numba's library class -> its subclass that defers the bitcode (None where numba's class lacks a method it uses)
@@ -317,7 +309,6 @@ def _without_scipy_linalg():
     purpose) nothing is hidden.  Never while other threads run: one of them importing scipy.linalg in that
     instant would get an ImportError (with threads, numba's import brings scipy.linalg along).
     """
-    import contextlib
     import sys
     import threading
 
