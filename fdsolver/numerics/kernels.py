@@ -4,7 +4,7 @@
   matrix (diagonal d, off-diagonal e) below a shift, from the signs of the
   LDL^T pivots (Sturm sequence).  Exact in exact arithmetic; in floating point
   it is the count of a matrix within a few ulps of the given one.
-  :func:`bisect_eigenvalues` and :func:`prove_indices` count at several
+  :func:`bisect_eigenvalues`, :func:`prove_indices` and :func:`sturm_counts_at` count at several
   shifts in one pass (independent recurrences side by side).
 * :func:`tridiag_factor` / :func:`tridiag_apply` (:func:`tridiag_apply_into`) / :func:`tridiag_solve` -
   (T - sigma I) y = b by Gaussian elimination with partial pivoting;
@@ -158,6 +158,63 @@ def _sturm_counts3(d, e, s0, s1, s2):
         if q2 < 0.0:
             c2 += 1
     return c0, c1, c2
+
+
+@njit
+def _sturm_counts4(d, e, s0, s1, s2, s3):
+    """:func:`sturm_count` at four shifts in one pass (:func:`_sturm_counts3` with one more recurrence beside
+    the others: the same arithmetic, hence the same counts).  O(N)."""
+    n = d.shape[0]
+    tiny = 1e-300
+    q0 = d[0] - s0
+    q1 = d[0] - s1
+    q2 = d[0] - s2
+    q3 = d[0] - s3
+    c0 = 1 if q0 < 0.0 else 0
+    c1 = 1 if q1 < 0.0 else 0
+    c2 = 1 if q2 < 0.0 else 0
+    c3 = 1 if q3 < 0.0 else 0
+    for i in range(1, n):
+        if q0 == 0.0:
+            q0 = tiny
+        if q1 == 0.0:
+            q1 = tiny
+        if q2 == 0.0:
+            q2 = tiny
+        if q3 == 0.0:
+            q3 = tiny
+        ee = e[i - 1] * e[i - 1]
+        q0 = d[i] - s0 - ee / q0
+        q1 = d[i] - s1 - ee / q1
+        q2 = d[i] - s2 - ee / q2
+        q3 = d[i] - s3 - ee / q3
+        if q0 < 0.0:
+            c0 += 1
+        if q1 < 0.0:
+            c1 += 1
+        if q2 < 0.0:
+            c2 += 1
+        if q3 < 0.0:
+            c3 += 1
+    return c0, c1, c2, c3
+
+
+@njit
+def sturm_counts_at(d, e, shifts):
+    """:func:`sturm_count` at every one of ``shifts`` (an array), four per pass over the matrix
+    (:func:`_sturm_counts4`): the same counts as one shift at a time, at about the cost of one count per four
+    shifts.  Shifts in the matrix's energy unit.  O(N ceil(len(shifts) / 4))."""
+    m = shifts.shape[0]
+    out = np.empty(m, np.int64)
+    for i in range(0, m, 4):
+        last = m - 1
+        i1, i2, i3 = min(i + 1, last), min(i + 2, last), min(i + 3, last)
+        c0, c1, c2, c3 = _sturm_counts4(d, e, shifts[i], shifts[i1], shifts[i2], shifts[i3])
+        out[i] = c0
+        out[i1] = c1
+        out[i2] = c2
+        out[i3] = c3
+    return out
 
 
 @njit
@@ -729,18 +786,67 @@ def _sector_count(d, e, shift, default):
 
 
 @njit
-def _proved_sector(d, e, a, vw, w, shifts, lo, floor, cluster_rtol, steps, residual_factor, ulps, eps):
-    """(ok, vectors, energies, round-off floors) of one sector from predicted energies ``shifts``
-    (:func:`sector_pass` with the index proof, then :func:`roundoff_floor`); ok is False where the general path
-    must decide."""
-    k = shifts.shape[0]
-    vectors = np.empty((k, d.shape[0]))
-    energy = np.empty(k)
-    scales = np.empty((k, 2))
-    if k and sector_pass(d, e, a, vw, w, shifts, lo, floor, True, cluster_rtol, steps, residual_factor, ulps, eps,
-                         vectors, energy, scales) != 0:
-        return False, vectors, energy, energy
-    return True, vectors, energy, roundoff_floor(scales[:, 0].copy(), scales[:, 1].copy(), energy, ulps)
+def _sector_counts(d, e, energy, matrix, floor, cluster_rtol, has_lo, e_lo, e_hi, top):
+    """Every Sturm count one sector of :func:`predicted_grid` needs, in one pass over the matrix for up to four
+    shifts (:func:`sturm_counts_at`): at the window's ends (``e_lo`` where ``has_lo``; a shift that is not
+    finite counts 0 below and every state below above), at each cluster's two proof points of
+    :func:`prove_indices` (about the sector's sorted ``energy``, with its matrix round-off scales ``matrix``),
+    and at ``top``.  Returns (lo, hi, proof counts (two per cluster, in order), the cluster starts, the count
+    below ``top``); the same integers as counting at each shift on its own.  O(N) per four shifts."""
+    n = d.shape[0]
+    k = energy.shape[0]
+    first = cluster_starts(energy, floor, cluster_rtol)
+    shifts = np.empty(2 * k + 3)
+    m = 0
+    lo_at = -1
+    if has_lo and math.isfinite(e_lo):
+        lo_at = m
+        shifts[m] = e_lo
+        m += 1
+    hi_at = -1
+    if math.isfinite(e_hi):
+        hi_at = m
+        shifts[m] = e_hi
+        m += 1
+    proof_at = m
+    j = 0
+    while j < k:
+        end = j
+        while end + 1 < k and first[end + 1] == first[j]:
+            end += 1
+        gap_lo = energy[j] - energy[j - 1] if j > 0 else math.inf
+        gap_hi = energy[end + 1] - energy[end] if end + 1 < k else math.inf
+        delta_lo = min(0.5 * gap_lo, max(1e-7 * max(abs(energy[j]), floor), 100.0 * matrix[j]))
+        delta_hi = min(0.5 * gap_hi, max(1e-7 * max(abs(energy[end]), floor), 100.0 * matrix[end]))
+        shifts[m] = energy[j] - delta_lo
+        shifts[m + 1] = energy[end] + delta_hi
+        m += 2
+        j = end + 1
+    top_at = m
+    shifts[m] = top
+    m += 1
+    counts = sturm_counts_at(d, e, shifts[:m].copy())
+    lo = counts[lo_at] if lo_at >= 0 else 0
+    hi = counts[hi_at] if hi_at >= 0 else n
+    return lo, hi, counts[proof_at:top_at].copy(), first, counts[top_at]
+
+
+@njit
+def _proof_holds(proof, first, lo):
+    """True if the counts at each cluster's proof points (:func:`_sector_counts`) are exactly its indices
+    lo + (its first member) below and lo + (its last member) + 1 above (:func:`prove_indices`)."""
+    k = first.shape[0]
+    j = 0
+    c = 0
+    while j < k:
+        end = j
+        while end + 1 < k and first[end + 1] == first[j]:
+            end += 1
+        if proof[2 * c] != lo + j or proof[2 * c + 1] != lo + end + 1:
+            return False
+        c += 1
+        j = end + 1
+    return True
 
 
 @njit
@@ -753,31 +859,27 @@ def predicted_grid(d0, e0, a0, vw0, w0, d1, e1, a1, vw1, w1, two, guess_e, guess
     :func:`fdsolver.boundstates.eigen.solve_grid` with a guess: Sturm counts
     in the window [e_lo, e_hi) give the number n of states and their global
     indices; the guess must hold exactly n finite energies of known sectors;
-    each sector's pass (:func:`sector_pass`, proving the indices) and its
-    round-off floors (:func:`roundoff_floor`); the merge (mirror halves by the
-    oscillation theorem: the even sector's j-th state is state 2j of the whole
-    grid); the check that no state was skipped below the highest; the cut at
-    e_hi.  Returns (status, energy, sector, rounding, row, count_below,
-    first_index, vectors0, vectors1): status 0 on success, anything else when
-    the general path must decide (a cluster, a failed proof, a guess that
-    does not fit, no state in the window); ``row`` is each state's row in
-    its sector's vectors.  Energies in the operator's unit, relative to its shift.
+    each sector's pass (:func:`sector_pass`) with the Sturm proof of its
+    indices (:func:`prove_indices`) and its round-off floors
+    (:func:`roundoff_floor`); the merge (mirror halves by the oscillation
+    theorem: the even sector's j-th state is state 2j of the whole grid); the
+    check that no state was skipped below the highest; the cut at e_hi.
+    Every count of a sector (the window's ends, the proof, the check) is taken
+    in one pass over its matrix after its pass (:func:`_sector_counts`), so a
+    guess that does not fit is refused after the vectors are made rather than
+    before: the same outcome.  Returns (status, energy, sector, rounding, row,
+    count_below, first_index, vectors0, vectors1): status 0 on success,
+    anything else when the general path must decide (a cluster, a failed
+    proof, a guess that does not fit, no state in the window); ``row`` is each
+    state's row in its sector's vectors.  Energies in the operator's unit,
+    relative to its shift.
     """
     n0 = d0.shape[0]
     n1 = d1.shape[0] if two else 0
     fail = (1, np.empty(0), np.empty(0, np.int64), np.empty(0), np.empty(0, np.int64), 0, 0,
             np.empty((0, n0)), np.empty((0, n1)))
-    lo0 = _sector_count(d0, e0, e_lo, 0) if has_lo else 0
-    hi0 = _sector_count(d0, e0, e_hi, n0)
-    lo1 = 0
-    hi1 = 0
-    if two:
-        lo1 = _sector_count(d1, e1, e_lo, 0) if has_lo else 0
-        hi1 = _sector_count(d1, e1, e_hi, n1)
-    n = min((hi0 - lo0) + (hi1 - lo1), max_states)
-    first_index = lo0 + lo1
-    count_below = hi0 + hi1
-    if n <= 0 or guess_e.shape[0] != n:
+    n = guess_e.shape[0]
+    if n <= 0:
         return fail
     k0 = 0
     for j in range(n):
@@ -799,12 +901,43 @@ def predicted_grid(d0, e0, a0, vw0, w0, d1, e1, a1, vw1, w1, two, guess_e, guess
             i1 += 1
     p0 = np.sort(p0)
     p1 = np.sort(p1)
-    ok0, v0, en0, r0 = _proved_sector(d0, e0, a0, vw0, w0, p0, lo0, floor, cluster_rtol, steps, residual_factor,
-                                      ulps, eps)
-    ok1, v1, en1, r1 = _proved_sector(d1, e1, a1, vw1, w1, p1, lo1, floor, cluster_rtol, steps, residual_factor,
-                                      ulps, eps)
-    if not (ok0 and ok1):
+    v0 = np.empty((k0, n0))
+    en0 = np.empty(k0)
+    sc0 = np.empty((k0, 2))
+    v1 = np.empty((k1, n1))
+    en1 = np.empty(k1)
+    sc1 = np.empty((k1, 2))
+    if k0 and sector_pass(d0, e0, a0, vw0, w0, p0, 0, floor, False, cluster_rtol, steps, residual_factor, ulps, eps,
+                          v0, en0, sc0) != 0:
         return fail
+    if k1 and sector_pass(d1, e1, a1, vw1, w1, p1, 0, floor, False, cluster_rtol, steps, residual_factor, ulps, eps,
+                          v1, en1, sc1) != 0:
+        return fail
+    # the check that nothing was skipped counts below the highest state of both sectors, plus a margin
+    top = en0[0] if k0 else en1[0]
+    for j in range(k0):
+        top = max(top, en0[j])
+    for j in range(k1):
+        top = max(top, en1[j])
+    delta = max(1e-7 * max(abs(top), floor), 0.0)
+    m0 = sc0[:, 0].copy()
+    m1 = sc1[:, 0].copy()
+    lo0, hi0, proof0, first0, below0 = _sector_counts(d0, e0, en0, m0, floor, cluster_rtol, has_lo, e_lo, e_hi,
+                                                      top + delta)
+    lo1, hi1, below1 = 0, 0, 0
+    proof1 = np.empty(0, np.int64)
+    first1 = np.empty(0, np.int64)
+    if two:
+        lo1, hi1, proof1, first1, below1 = _sector_counts(d1, e1, en1, m1, floor, cluster_rtol, has_lo, e_lo, e_hi,
+                                                          top + delta)
+    if n != min((hi0 - lo0) + (hi1 - lo1), max_states):
+        return fail
+    first_index = lo0 + lo1
+    count_below = hi0 + hi1
+    if not (_proof_holds(proof0, first0, lo0) and _proof_holds(proof1, first1, lo1)):
+        return fail
+    r0 = roundoff_floor(m0, sc0[:, 1].copy(), en0, ulps)
+    r1 = roundoff_floor(m1, sc1[:, 1].copy(), en1, ulps)
     # merge: by the mirror ranks 2 (lo0 + j) and 2 (lo1 + j) + 1, or a single sector's ascending energies
     energy = np.empty(n)
     sector = np.empty(n, np.int64)
@@ -821,12 +954,7 @@ def predicted_grid(d0, e0, a0, vw0, w0, d1, e1, a1, vw1, w1, two, guess_e, guess
             energy[m], sector[m], rounding[m], row[m] = en1[b], 1, r1[b], b
             b += 1
     # nothing skipped: exactly first_index + n states of the whole grid at or below the highest
-    top = energy[0]
-    for m in range(n):
-        top = max(top, energy[m])
-    delta = max(1e-7 * max(abs(top), floor), 0.0)
-    below = sturm_count(d0, e0, top + delta) + (sturm_count(d1, e1, top + delta) if two else 0)
-    if below != first_index + n:
+    if below0 + below1 != first_index + n:
         return fail
     kept = n
     if math.isfinite(e_hi):
