@@ -99,11 +99,15 @@ class Problem:
         return nodes * self.bytes_per_node(halves) / 2**20
 
     def whole_line_count(self) -> int | None:
-        """The box-independent number of bound states (zero-energy phase, computed once); None without a threshold."""
+        """The box-independent number of bound states (zero-energy phase, computed once per potential:
+        :meth:`~fdsolver.model.potential.Potential.remembered`); None without a threshold."""
         if not self.open:
             return None
         if not self._count:
-            self._count.append(counting.bound_count(self.potential))
+            pot = self.potential
+            remembered = getattr(pot, "remembered", None)
+            count = (lambda: counting.bound_count(pot))
+            self._count.append(count() if remembered is None else remembered("open-line bound count", count))
         return self._count[0]
 
 

@@ -59,9 +59,18 @@ def confined_top(potential) -> float | None:
 
 
 def leaks(potential, domain=None) -> bool:
-    """True if the open-line solve of ``potential`` has quasi-bound states to add (module docstring)."""
+    """True if the open-line solve of ``potential`` has quasi-bound states to add (module docstring); worked out
+    once per potential where it keeps such facts (:meth:`~fdsolver.model.potential.Potential.remembered`)."""
     if domain is not None and getattr(domain, "hard", False):
         return False
+    remembered = getattr(potential, "remembered", None)
+    if remembered is not None:
+        return remembered("leaks on the open line", lambda: _leaks(potential))
+    return _leaks(potential)
+
+
+def _leaks(potential) -> bool:
+    """:func:`leaks` on the open line, worked out."""
     if falls(potential):
         return True
     top = confined_top(potential)

@@ -284,6 +284,22 @@ class Potential:
     def _mirror_memo(self) -> dict:
         return {}
 
+    # ---------------------------------------------------------------- derived
+    def remembered(self, key: str, compute):
+        """``compute()`` once per potential for ``key``, then its value again: a fact the solver layers derive
+        from the potential alone (its open-line bound count, whether it leaks), kept with it as the mirror test
+        is, so that a second solve of the same potential does not work it out again.  A potential is immutable,
+        so the fact cannot go stale; a new potential (a sweep point, :func:`dataclasses.replace`) starts with
+        none."""
+        facts = self._facts
+        if key not in facts:
+            facts[key] = compute()
+        return facts[key]
+
+    @cached_property
+    def _facts(self) -> dict:
+        return {}
+
     def _mirror_center(self, lo: float, hi: float) -> float | None:
         if self.asymptote(-1) != self.asymptote(1) or self.asymptotic_mass(-1) != self.asymptotic_mass(1):
             return None
