@@ -76,7 +76,7 @@ STOPPED = {"a state leaving through the energy window's foot": (kernels.LEVELS_F
 
 def _off(*args, **kwargs):
     """constant_levels switched off: no level done, and the level loop starts from level 0."""
-    return kernels.LEVELS_CHANGED, [], [], None, None
+    return kernels.LEVELS_CHANGED, [], [], None, None, None
 
 
 @pytest.mark.parametrize("name", sorted(STRUCTURES))

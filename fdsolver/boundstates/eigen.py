@@ -323,16 +323,18 @@ def constant_levels(base: np.ndarray, cells: tuple, center: float | None, potent
     """Levels 0, 1, ... of ``base`` for a potential constant on every base cell, solved, extrapolated and judged
     in one compiled call (:func:`fdsolver.numerics.kernels.constant_levels`) while they are regular.
 
-    Returns (reason, rows, sizes, states, grid): the reason it stopped (a ``kernels.LEVELS_*`` code), the
-    energies of every level done (one array each), their node counts, and the newest done level's
+    Returns (reason, rows, sizes, states, grid, judged): the reason it stopped (a ``kernels.LEVELS_*`` code),
+    the energies of every level done (one array each), their node counts, the newest done level's
     :class:`GridStates` and (nodes, sectors) (both None if no level was done): the operators
-    :func:`fdsolver.boundstates.levels.sectors_on` makes, from the same call; the caller's level loop goes on
-    from level ``len(rows)`` where the reason asks for it.  The arguments are those of :func:`constant_level`,
+    :func:`fdsolver.boundstates.levels.sectors_on` makes, from the same call; and where every state was judged
+    (``LEVELS_DONE``) the extrapolation (energies, their errors with the round-off floor, the states limited by
+    round-off, the splittings and their table errors), else None; the caller's level loop goes on from level
+    ``len(rows)`` where the reason asks for it.  The arguments are those of :func:`constant_level`,
     with the level loop's limits and tolerance.
     """
     energy, sector = guess
     pos, alpha = point_arrays(potential) if points is None else points
-    reason, done, rows, sizes, got, ops = kernels.constant_levels(
+    reason, done, rows, sizes, got, ops, judged = kernels.constant_levels(
         base, cells[0], cells[1], center is not None, 0.0 if center is None else float(center),
         float(potential.hbar2_2me), float(shift), pos, alpha, np.ascontiguousarray(energy, dtype=float),
         np.ascontiguousarray(sector, dtype=np.int64), e_lo is not None, 0.0 if e_lo is None else float(e_lo),
@@ -351,7 +353,8 @@ def constant_levels(base: np.ndarray, cells: tuple, center: float | None, potent
             even, odd = mirror_halves(op, 1, (a0, w0, vw0, d0, e0))
             sectors = [Sector(even, 1), Sector(odd, -1)]
         grid = (nodes, sectors)
-    return int(reason), list(rows), [int(k) for k in sizes], states, grid
+    return (int(reason), list(rows), [int(k) for k in sizes], states, grid,
+            judged if reason == kernels.LEVELS_DONE else None)
 
 
 def constant_coarse(nodes: np.ndarray, cells: tuple, center: float | None, potential, shift: float, e_lo,

@@ -160,15 +160,16 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
     vanished: list[tuple[int, int, int]] = []  # (first, last, nodes) of states lost on a finer grid
     constant = cell_constants(problem.potential, base)  # V and m per base cell, where each cell sees one value
     points = None if constant is None else point_arrays(problem.potential)
-    start, failed, reason, compiled = 0, -1, None, None
+    start, failed, reason, compiled, judged_all = 0, -1, None, None, None
     if constant is not None and first_guess is not None:
         # the regular levels in one compiled call; the loop below goes on from where it stopped, if it must
-        reason, rows, sizes, done, compiled = constant_levels(
+        reason, rows, sizes, done, compiled, judged_all = constant_levels(
             base, constant, center, problem.potential, problem.reference, problem.e_lo, problem.e_hi,
             settings.max_states, problem.floor, first_guess, settings.max_levels, settings.min_levels,
             problem.max_nodes(center is not None), settings.tolerance, ROUNDOFF_GROWTH, points)
         for row, size in zip(rows, sizes):
-            table.add(row)
+            if judged_all is None:  # else the call extrapolated and judged every state (used below)
+                table.add(row)
             level_e.append(row)
             level_n.append(size)
         if done is not None:
@@ -236,22 +237,26 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
                         states if states is not None else solve_nodes(problem, base, center)[1],
                         sectors or [], nodes if nodes is not None else base, last, level_e, level_n, np.zeros(0, bool),
                         base)
-    if judged != last:
-        limited = _judge(problem, table, states)[1]
-    gaps = Romberg()  # the splittings' table, from the same rows as the energies'
-    for row in level_e:
-        gaps.add(np.diff(row))
+    if judged_all is not None:  # the all-levels call's extrapolation, judgement and splittings (the same numbers)
+        energy, error, limited, splitting, splitting_error = judged_all
+    else:
+        if judged != last:
+            limited = _judge(problem, table, states)[1]
+        gaps = Romberg()  # the splittings' table, from the same rows as the energies'
+        for row in level_e:
+            gaps.add(np.diff(row))
+        energy = table.value()
+        error = table.error() + states.roundoff
+        splitting = gaps.value()
+        splitting_error = gaps.error()
     top = states.first_index + states.size - 1
     for first, last, size in vanished:  # said only of states that did not come back
         if last > top:
             messages.append(f"state(s) {max(first, top + 1)} to {last} vanished on the grid of {size} nodes: bound too "
                             "weakly to be resolved here (not resolved)")
-    energy = table.value()
-    error = table.error() + states.roundoff
     r = states.roundoff
     pair_round = r[:-1] + r[1:]
-    splitting = gaps.value() if gaps.levels else np.empty(0)
-    splitting_error = (gaps.error() if gaps.levels else np.empty(0)) + pair_round
+    splitting_error = splitting_error + pair_round
     bound = splitting <= pair_round
     if np.any(bound):
         splitting = np.where(bound, pair_round, splitting)  # only an upper bound is known

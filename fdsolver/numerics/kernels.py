@@ -1461,6 +1461,35 @@ def constant_level(base, v_cell, m_cell, level, mirror, center, c, shift, pos, a
                           max_states, floor, cluster_rtol, steps, residual_factor, ulps, eps), ops
 
 
+@njit
+def romberg_newest(rows):
+    """(value, error) of the newest row of the Romberg table of ``rows`` (levels x values, the coarsest level
+    first): :meth:`fdsolver.numerics.richardson.Romberg.add` of each row in turn, then its ``value()`` and
+    ``error()``, with the same floating-point operations in the same order (columns up to h^4 removed; the
+    error inf with a single level).  O(levels x values)."""
+    levels, n = rows.shape
+    table = np.empty((levels, 3, n))
+    cols = np.zeros(levels, np.int64)
+    for k in range(levels):
+        table[k, 0] = rows[k]
+        ncol = 1 if k == 0 else min(cols[k - 1], 2) + 1
+        cols[k] = ncol
+        for j in range(1, ncol):
+            for s in range(n):
+                table[k, j, s] = table[k, j - 1, s] + (table[k, j - 1, s] - table[k - 1, j - 1, s]) / (4.0**j - 1.0)
+    k = levels - 1
+    m = cols[k] - 1
+    error = np.empty(n)
+    for s in range(n):
+        if cols[k] < 2:
+            error[s] = math.inf
+        elif k >= 1 and cols[k - 1] > m:
+            error[s] = abs(table[k, m, s] - table[k - 1, m, s])
+        else:
+            error[s] = abs(table[k, m, s] - table[k, m - 1, s])
+    return table[k, m].copy(), error
+
+
 #: why :func:`constant_levels` stopped: every state judged (converged, or limited by round-off); the level
 #: limit reached; the next level over the node budget; the one-call pass failed on a level (the general path
 #: decides it); the states of a level differ from the previous level's (the caller's loop handles it)
@@ -1483,8 +1512,11 @@ def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, 
     It stops at the first level that is not regular (see the LEVELS_* codes): over ``max_nodes``, a failed
     pass, no states, or other states than the previous level's (count or first index); the caller's loop
     takes over from that level.  Returns (reason, levels done L, their energies (L x n), their node counts,
-    and the newest done level's two :func:`constant_level` tuples: its states and its operators).  Energies
-    relative to ``shift``.
+    the newest done level's two :func:`constant_level` tuples: its states and its operators, and with
+    LEVELS_DONE the judged extrapolation: the energies' :meth:`~fdsolver.numerics.richardson.Romberg.value`
+    and error plus round-off floor, the states limited by round-off (as ``_judge`` finds them), and the
+    splittings' value and table error (:func:`romberg_newest` of the rows' differences); empty otherwise).
+    Energies relative to ``shift``.
     """
     nb = base.shape[0]
     ge = guess_e.copy()
@@ -1498,18 +1530,19 @@ def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, 
     ops = (none, none, none, none, none, none, (none, none, none, none, none, none, none, none))
     n = -1
     first = 0
+    judged = (none, none, np.empty(0, np.bool_), none, none)
     for level in range(max_levels):
         size = (nb - 1) * 2**level + 1
         if size > max_nodes:
-            return LEVELS_BUDGET, level, energies[:level].copy(), sizes[:level].copy(), last, ops
+            return LEVELS_BUDGET, level, energies[:level].copy(), sizes[:level].copy(), last, ops, judged
         got, got_ops = constant_level(base, v_cell, m_cell, level, mirror, center, c, shift, pos, alpha, ge, gs,
                                       has_lo, e_lo, e_hi, max_states, floor, cluster_rtol, steps, residual_factor,
                                       ulps, eps)
         if got[0] != 0:
-            return LEVELS_FAILED, level, energies[:level].copy(), sizes[:level].copy(), last, ops
+            return LEVELS_FAILED, level, energies[:level].copy(), sizes[:level].copy(), last, ops, judged
         en = got[1]
         if en.shape[0] == 0 or (n >= 0 and (en.shape[0] != n or got[6] != first)):
-            return LEVELS_CHANGED, level, energies[:level].copy(), sizes[:level].copy(), last, ops
+            return LEVELS_CHANGED, level, energies[:level].copy(), sizes[:level].copy(), last, ops, judged
         if n < 0:
             n = en.shape[0]
             first = got[6]
@@ -1541,6 +1574,7 @@ def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, 
                 err[s] = e_s + got[3][s]
             order = np.argsort(value, kind="mergesort")
             finished = True
+            limited_by = np.zeros(n, np.bool_)
             for s in range(n):
                 scale = max(abs(en[s]), 1e-300)
                 crossed = False
@@ -1549,17 +1583,21 @@ def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, 
                     crossed = off > err[s] + err[order[s]] and off > 0.0
                 done = err[s] <= tol * scale and not crossed
                 limited = (not done) and (not crossed) and growth * got[3][s] > tol * scale
+                limited_by[s] = limited
                 if not (done or limited):
                     finished = False
             if finished:
-                return LEVELS_DONE, level + 1, energies[:level + 1].copy(), sizes[:level + 1].copy(), last, ops
+                gaps = energies[:level + 1, 1:] - energies[:level + 1, :-1]
+                gap_value, gap_error = romberg_newest(gaps)
+                judged = (value.copy(), err, limited_by, gap_value, gap_error)
+                return LEVELS_DONE, level + 1, energies[:level + 1].copy(), sizes[:level + 1].copy(), last, ops, judged
         # the next level's predictions
         if level == 0:
             ge = en.copy()
         else:
             ge = en - (energies[level - 1] - en) / 4.0
         gs = got[2].copy()
-    return LEVELS_ALL, max_levels, energies.copy(), sizes.copy(), last, ops
+    return LEVELS_ALL, max_levels, energies.copy(), sizes.copy(), last, ops, judged
 
 
 @njit
