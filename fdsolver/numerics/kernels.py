@@ -1207,6 +1207,25 @@ def piece_values(x, feats, v_piece, m_piece, v_feat, m_feat):
 
 
 @njit
+def cell_piece_values(nodes, feats, rtol, table_feats, v_piece, m_piece, v_feat, m_feat):
+    """(ok, V, m) on every cell of ``nodes`` of a potential constant between its features, in one call: ok only
+    if every feature ``feats`` inside the grid lies within ``rtol`` of its cell's width from one of the cell's
+    nodes (the test of :func:`fdsolver.numerics.operator.cell_constants`), and then V and m read at every
+    cell's midpoint from the piece tables (:func:`piece_values`).  The same comparisons and midpoints as the
+    numpy form.  O(N + K log N)."""
+    n = nodes.shape[0]
+    for f in feats:
+        i = search_sorted(nodes, f, True) - 1  # the cell whose left node is at or below the feature
+        if i >= 0 and i < n - 1 and min(f - nodes[i], nodes[i + 1] - f) > rtol * (nodes[i + 1] - nodes[i]):
+            return False, np.empty(0), np.empty(0)
+    mid = np.empty(n - 1)
+    for j in range(n - 1):
+        mid[j] = 0.5 * (nodes[j] + nodes[j + 1])
+    v, m = piece_values(mid, table_feats, v_piece, m_piece, v_feat, m_feat)
+    return True, v, m
+
+
+@njit
 def _piece_spacing(x, feats, v_piece, m_piece, v_feat, m_feat, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap,
                    wave_fraction, apex, left, right, slope):
     """:func:`target_spacing` at ``x`` with V and m from the piece tables (:func:`piece_values`)."""

@@ -41,7 +41,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from fdsolver.errors import CaseError
-from fdsolver.numerics.kernels import even_half, flux_operator, piece_values
+from fdsolver.numerics.kernels import cell_piece_values, even_half, flux_operator
 
 DIRICHLET, NEUMANN = "dirichlet", "neumann"
 
@@ -90,15 +90,16 @@ def cell_constants(potential, nodes: np.ndarray) -> tuple[np.ndarray, np.ndarray
         return None
     nodes = np.ascontiguousarray(nodes, dtype=float)
     feats = potential.features()
+    table = getattr(potential, "piece_table", None)
+    if table is not None:  # the same test and numbers in one compiled call, read from the potential's tables
+        ok, v, m = cell_piece_values(nodes, np.ascontiguousarray(feats, dtype=float), ON_NODE_RTOL, *table)
+        return (v, m) if ok else None
     i = np.searchsorted(nodes, feats, side="right") - 1  # the cell whose left node is at or below each feature
     inside = (i >= 0) & (i < nodes.size - 1)
     i, f = i[inside], feats[inside]
     if np.any(np.minimum(f - nodes[i], nodes[i + 1] - f) > ON_NODE_RTOL * (nodes[i + 1] - nodes[i])):
         return None
     mid = 0.5 * (nodes[:-1] + nodes[1:])
-    table = getattr(potential, "piece_table", None)
-    if table is not None:  # the same numbers, read from the potential's tables (no Python evaluation)
-        return piece_values(mid, *table)
     return potential.value(mid), potential.mass_at(mid)
 
 
