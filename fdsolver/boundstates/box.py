@@ -15,7 +15,7 @@ import math
 
 import numpy as np
 
-from fdsolver.model.potential import Potential
+from fdsolver.model.potential import Potential, remembered
 from fdsolver.numerics.kernels import decay_reach
 
 #: ratio of successive sample distances when the WKB decay integral is walked out from the potential
@@ -23,6 +23,12 @@ GROWTH = 1.05
 
 
 def length_scale(potential: Potential) -> float:
+    """The potential's largest length: its extent or its largest feature scale (one length unit if it has
+    neither); worked out once per potential (:func:`~fdsolver.model.potential.remembered`)."""
+    return remembered(potential, "largest length", lambda: _length_scale(potential))
+
+
+def _length_scale(potential: Potential) -> float:
     lo, hi = potential.support()
     scales = [s for _, s in potential.feature_scales() if math.isfinite(s)]
     scales += [s for _, s in potential.point_scales()]
@@ -60,12 +66,8 @@ def open_box(pot: Potential, dom, e_top: float, budget: float, minimum, mirror: 
     ``mirror`` (the potential's mirror centre, None if it has none) so that mirror nodes exist."""
     lo_s, hi_s = pot.support()
     scale = length_scale(pot)
-    t = _walk(scale)
-    x = np.concatenate([lo_s - t, hi_s + t])  # both walks in one evaluation of V
-    with np.errstate(over="ignore", invalid="ignore"):
-        v = pot.value(x)
-    m = pot.mass_at(x)
-    k = t.size
+    x, v, m = remembered(pot, "decay walks", lambda: _decay_walks(pot))
+    k = x.size // 2
     lo = _extent(x[:k], v[:k], m[:k], pot.hbar2_2me, e_top, budget)
     hi = _extent(x[k:], v[k:], m[k:], pot.hbar2_2me, e_top, budget)
     lo = min(lo, minimum[0], lo_s - 0.5 * scale)
@@ -78,6 +80,17 @@ def open_box(pot: Potential, dom, e_top: float, budget: float, minimum, mirror: 
         half = max(mirror - lo, hi - mirror)
         lo, hi = mirror - half, mirror + half
     return (lo, hi)
+
+
+def _decay_walks(pot: Potential) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(x, V, m) along both walks of :func:`open_box` out of the support (left walk first, each :func:`_walk` of
+    the length scale): one evaluation of V and m for every box a solve sizes."""
+    lo_s, hi_s = pot.support()
+    t = _walk(length_scale(pot))
+    x = np.concatenate([lo_s - t, hi_s + t])  # both walks in one evaluation of V
+    with np.errstate(over="ignore", invalid="ignore"):
+        v = pot.value(x)
+    return x, v, pot.mass_at(x)
 
 
 def _attracts(shape) -> bool:

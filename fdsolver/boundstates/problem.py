@@ -24,6 +24,7 @@ from fdsolver.boundstates.result import OBSERVABLE_CHUNK
 from fdsolver.boundstates.settings import SolveSettings
 from fdsolver.errors import CaseError
 from fdsolver.model.domain import Domain, continuum_threshold
+from fdsolver.model.potential import remembered
 
 #: measured upper bound of the working arrays per grid node (see DEVELOPERS.md)
 BYTES_PER_NODE = 8 * 40
@@ -105,9 +106,7 @@ class Problem:
             return None
         if not self._count:
             pot = self.potential
-            remembered = getattr(pot, "remembered", None)
-            count = (lambda: counting.bound_count(pot))
-            self._count.append(count() if remembered is None else remembered("open-line bound count", count))
+            self._count.append(remembered(pot, "open-line bound count", lambda: counting.bound_count(pot)))
         return self._count[0]
 
 

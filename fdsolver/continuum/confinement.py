@@ -25,6 +25,8 @@ import math
 
 import numpy as np
 
+from fdsolver.model.potential import remembered
+
 #: samples of V over the features' span
 SAMPLES = 4097
 
@@ -63,10 +65,7 @@ def leaks(potential, domain=None) -> bool:
     once per potential where it keeps such facts (:meth:`~fdsolver.model.potential.Potential.remembered`)."""
     if domain is not None and getattr(domain, "hard", False):
         return False
-    remembered = getattr(potential, "remembered", None)
-    if remembered is not None:
-        return remembered("leaks on the open line", lambda: _leaks(potential))
-    return _leaks(potential)
+    return remembered(potential, "leaks on the open line", lambda: _leaks(potential))
 
 
 def _leaks(potential) -> bool:

@@ -370,3 +370,10 @@ def _gauss_integrals(value, a: np.ndarray, b: np.ndarray) -> np.ndarray:
     pts = centre[:, None] + half[:, None] * _GL_X[None, :]
     vals = value(pts.ravel()).reshape(pts.shape)
     return half * (vals[:, 0] * _GL_W[0] + vals[:, 1] * _GL_W[1] + vals[:, 2] * _GL_W[2])
+
+
+def remembered(potential, key, compute):
+    """``potential.remembered(key, compute)`` (:meth:`Potential.remembered`): a fact worked out once per
+    potential; ``compute()`` every time for an object that keeps no facts."""
+    keep = getattr(potential, "remembered", None)
+    return compute() if keep is None else keep(key, compute)

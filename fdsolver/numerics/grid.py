@@ -35,6 +35,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from fdsolver.model.potential import remembered
 from fdsolver.numerics.kernels import (
     grid_samples,
     inner_bounds,
@@ -134,22 +135,28 @@ def spacing_function(potential, e_lo: float, e_hi: float, gs: GridSettings, deep
     then costs a number of far nodes independent of how weakly it is bound).
     """
     c = potential.hbar2_2me
-    feats = potential.feature_scales()
-    pts = potential.point_scales()
-
     # where V - E exceeds 25 times the energy range the states are negligible (decay 5x faster than
     # anywhere they live), so the wave number requirement is capped there
     r2_cap = 25.0 * potential.mass * abs(e_hi - e_lo) / c if math.isfinite(e_hi - e_lo) and e_hi != e_lo else np.inf
-    m_max = max(float(np.max(potential.mass_at(np.array(potential.support())))), potential.mass)
+    key = ("grid cones", float(gs.feature_fraction), float(gs.wave_fraction), float(gs.growth))
+    m_max, apex, left, right = remembered(potential, key, lambda: _cones(potential, gs))
     lo_s, hi_s = potential.support()
-
-    cone_p = [p for p, s in feats if math.isfinite(s)] + [p for p, _ in pts]
-    cone_c = [gs.feature_fraction * s for _, s in feats if math.isfinite(s)] + [0.5 * gs.wave_fraction * s for _, s in pts]
-    apex, left, right = _cone_tables(np.asarray(cone_p, dtype=float), np.asarray(cone_c, dtype=float), gs.growth)
     reach = math.inf if deep_reach is None else float(deep_reach)
     cap = float(r2_cap * m_max / potential.mass)
     return Spacing(potential, (float(e_lo), float(e_hi), float(c), reach, float(lo_s), float(hi_s), cap,
                                float(gs.wave_fraction), apex, left, right, float(gs.growth)))
+
+
+def _cones(potential, gs: GridSettings):
+    """(largest mass at the support's ends or the bulk, and the cone tables of :func:`_cone_tables`) of the
+    spacing function: they depend on the potential and the grid settings only, so a potential keeps them
+    (:func:`~fdsolver.model.potential.remembered`)."""
+    feats = potential.feature_scales()
+    pts = potential.point_scales()
+    m_max = max(float(np.max(potential.mass_at(np.array(potential.support())))), potential.mass)
+    cone_p = [p for p, s in feats if math.isfinite(s)] + [p for p, _ in pts]
+    cone_c = [gs.feature_fraction * s for _, s in feats if math.isfinite(s)] + [0.5 * gs.wave_fraction * s for _, s in pts]
+    return (m_max, *_cone_tables(np.asarray(cone_p, dtype=float), np.asarray(cone_c, dtype=float), gs.growth))
 
 
 class Spacing:
