@@ -41,6 +41,7 @@ from fdsolver.numerics.kernels import (
     inner_bounds,
     piece_grid,
     refine_nodes,
+    sample_offsets,
     sample_pass,
     segment_nodes,
     target_spacing,
@@ -80,7 +81,7 @@ def base_grid(
     tiny = 64.0 * np.finfo(float).eps * max(abs(lo), abs(hi), hi - lo)  # closer than this is round-off
     if isinstance(spacing, Spacing) and spacing.table is not None:  # every step in one compiled call
         nodes, total = piece_grid(float(lo), float(hi), np.asarray(list(breakpoints), dtype=float), tiny,
-                                  float(settings.growth), BACKGROUND_SAMPLES, int(settings.min_cells_per_segment),
+                                  float(settings.growth), _offsets(settings.growth), BACKGROUND_SAMPLES, int(settings.min_cells_per_segment),
                                   -1 if max_nodes is None else int(max_nodes), *spacing.table, *spacing.args)
         if max_nodes is not None and total > max_nodes:
             _over_budget(total, max_nodes)
@@ -90,7 +91,7 @@ def base_grid(
     width = hi - lo
     # samples: dense near every bound (geometric), plus a uniform background; refined where the spacing asks
     # (h(x) is pointwise, so each pass samples it at the new midpoints only)
-    xs = grid_samples(lo, hi, bounds, spacing(bounds), settings.growth, BACKGROUND_SAMPLES)
+    xs = grid_samples(lo, hi, bounds, spacing(bounds), _offsets(settings.growth), BACKGROUND_SAMPLES)
     none, cap = np.empty(0), float(width / 4.0)
     xs, raw, hs, mids = sample_pass(xs, np.ascontiguousarray(spacing(xs), dtype=float), none, none, cap,
                                     settings.growth)
@@ -104,6 +105,19 @@ def base_grid(
         if total > max_nodes:
             _over_budget(total, max_nodes)
     return segment_nodes(bounds, xs, hs, settings.min_cells_per_segment)
+
+
+#: :func:`fdsolver.numerics.kernels.sample_offsets` of every growth rate used so far
+_OFFSETS: dict[float, np.ndarray] = {}
+
+
+def _offsets(growth: float) -> np.ndarray:
+    """The sample offsets of a base grid with this growth rate, made once per value."""
+    growth = float(growth)
+    offs = _OFFSETS.get(growth)
+    if offs is None:
+        offs = _OFFSETS[growth] = sample_offsets(growth)
+    return offs
 
 
 def _over_budget(total: float, max_nodes: int):

@@ -984,23 +984,31 @@ def lipschitz_limit(x, h, growth):
 
 
 @njit
-def grid_samples(lo, hi, bounds, local, growth, background):
-    """Sorted distinct sample positions for a base grid on [lo, hi] (length unit).
-
-    ``background`` uniform samples, every bound, and from every bound
-    geometric offsets local_i * sum_{k<=j} 0.05 (1 + growth/2)^k outward on
-    both sides, each reaching only as far as the farther neighbouring bound
-    (at most the box width); everything clipped to [lo, hi].  O(S log S) for S
-    samples.
-    """
-    nb = bounds.shape[0]
-    width = hi - lo
+def sample_offsets(growth):
+    """The 400 geometric offsets of :func:`grid_samples` in units of a bound's local spacing:
+    sum_{k<=j} 0.05 (1 + growth/2)^k, j = 0 .. 399.  They depend on ``growth`` only, so
+    :mod:`fdsolver.numerics.grid` makes them once per value.  O(400)."""
     offs = np.empty(400)
     ratio = 1.0 + growth * 0.5
     acc = 0.0
     for k in range(400):
         acc += 0.05 * ratio**k
         offs[k] = acc
+    return offs
+
+
+@njit
+def grid_samples(lo, hi, bounds, local, offs, background):
+    """Sorted distinct sample positions for a base grid on [lo, hi] (length unit).
+
+    ``background`` uniform samples, every bound, and from every bound
+    geometric offsets local_i * ``offs`` (:func:`sample_offsets` of the grid's growth) outward on
+    both sides, each reaching only as far as the farther neighbouring bound
+    (at most the box width); everything clipped to [lo, hi].  O(S log S) for S
+    samples.
+    """
+    nb = bounds.shape[0]
+    width = hi - lo
     count = background + nb
     reach = np.empty(nb)
     for i in range(nb):
@@ -1234,7 +1242,7 @@ def _piece_spacing(x, feats, v_piece, m_piece, v_feat, m_feat, e_lo, e_hi, c, re
 
 
 @njit
-def piece_grid(lo, hi, points, tiny, growth, background, min_cells, max_nodes, feats, v_piece, m_piece, v_feat,
+def piece_grid(lo, hi, points, tiny, growth, offs, background, min_cells, max_nodes, feats, v_piece, m_piece, v_feat,
                m_feat, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap, wave_fraction, apex, left, right, slope):
     """A base grid on [lo, hi] (length unit) of a potential constant between its features, in one call.
 
@@ -1252,7 +1260,7 @@ def piece_grid(lo, hi, points, tiny, growth, background, min_cells, max_nodes, f
     bounds[-1] = hi
     local = _piece_spacing(bounds, feats, v_piece, m_piece, v_feat, m_feat, e_lo, e_hi, c, reach, lo_s, hi_s,
                            r2_cap, wave_fraction, apex, left, right, slope)
-    xs = grid_samples(lo, hi, bounds, local, growth, background)
+    xs = grid_samples(lo, hi, bounds, local, offs, background)
     cap = (hi - lo) / 4.0
     none = np.empty(0)
     raw0 = _piece_spacing(xs, feats, v_piece, m_piece, v_feat, m_feat, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap,
