@@ -134,22 +134,14 @@ def binding_floor(potential, threshold: float, xs: np.ndarray, vs: np.ndarray, d
 
 
 def plan(potential, domain: Domain, settings: SolveSettings) -> Problem:
-    """The problem's facts: threshold, reference, window, node budget, decay budget and a first box."""
+    """The problem's facts: threshold, reference, window, node budget, decay budget and a first box.
+
+    Those that depend on the potential, the domain and the decay budget only (:func:`_box_facts`) are worked
+    out once per potential (:func:`~fdsolver.model.potential.remembered`)."""
     tol = settings.tolerance
-    threshold = continuum_threshold(potential, domain)
     budget = 0.5 * math.log(DECAY_TARGET / tol) + 1.0
-    box = provisional_box(potential, domain, threshold, budget)
-    if potential.piecewise_constant:  # exact: every piece once, however thin
-        xs, dx = potential.pieces(box[0], box[1])
-    else:
-        xs = np.linspace(box[0], box[1], RANGE_SAMPLES)[1:-1]
-        dx = np.full(xs.size, (box[1] - box[0]) / (RANGE_SAMPLES - 1))
-    with np.errstate(all="ignore"):
-        vs = potential.value(xs)
-    if not np.all(np.isfinite(vs)):
-        raise CaseError("the potential is not finite everywhere in the box; check its expression or table, "
-                        "or set [domain] left/right", key="potential")
-    vmin, vmax = float(np.min(vs)), float(np.max(vs))
+    threshold, box, vmin, vmax, lowest, scale, mirror = remembered(
+        potential, ("box facts", domain, budget), lambda: _box_facts(potential, domain, budget))
     reference = threshold if math.isfinite(threshold) else vmin
     e_hi = threshold if math.isfinite(threshold) else math.inf
     e_lo = None
@@ -167,10 +159,30 @@ def plan(potential, domain: Domain, settings: SolveSettings) -> Problem:
         e_lo=None if e_lo is None else e_lo - reference,
         e_hi=e_hi - reference,
         budget=budget,
-        scale=length_scale(potential),
+        scale=scale,
         box=box,
         v_range=(vmin - reference, vmax - reference),
-        deepest=binding_floor(potential, threshold, xs, vs, dx) - reference,
+        deepest=lowest - reference,
         floor=floor,
-        mirror=potential.mirror_center(box[0], box[1]),
+        mirror=mirror,
     )
+
+
+def _box_facts(potential, domain: Domain, budget: float) -> tuple:
+    """(continuum threshold, provisional box, min and max of V over it, :func:`binding_floor`, the largest
+    length, the mirror centre) of a potential in ``domain`` with the decay budget ``budget``; absolute energies.
+    CaseError where V is not finite in the box."""
+    threshold = continuum_threshold(potential, domain)
+    box = provisional_box(potential, domain, threshold, budget)
+    if potential.piecewise_constant:  # exact: every piece once, however thin
+        xs, dx = potential.pieces(box[0], box[1])
+    else:
+        xs = np.linspace(box[0], box[1], RANGE_SAMPLES)[1:-1]
+        dx = np.full(xs.size, (box[1] - box[0]) / (RANGE_SAMPLES - 1))
+    with np.errstate(all="ignore"):
+        vs = potential.value(xs)
+    if not np.all(np.isfinite(vs)):
+        raise CaseError("the potential is not finite everywhere in the box; check its expression or table, "
+                        "or set [domain] left/right", key="potential")
+    return (threshold, box, float(np.min(vs)), float(np.max(vs)), binding_floor(potential, threshold, xs, vs, dx),
+            length_scale(potential), potential.mirror_center(box[0], box[1]))
