@@ -51,9 +51,7 @@ def home_regions(inside: np.ndarray) -> np.ndarray:
     inside = np.asarray(inside, dtype=float)
     if inside.ndim != 2 or inside.shape[1] == 0:
         return np.full(inside.shape[0] if inside.ndim else 0, -1, dtype=int)
-    best = inside.max(axis=1)
-    first = np.argmax(inside >= (best - HOME_TIE)[:, None], axis=1)
-    return np.where(best > 0, first, -1).astype(int)
+    return kernels.home_of(np.ascontiguousarray(inside), HOME_TIE).astype(int)
 
 
 @dataclass(frozen=True)
@@ -289,7 +287,7 @@ def _levels_and_counts(problem, run) -> tuple[np.ndarray, int | None, int]:
     n = run.energy.size
     le = np.full((len(run.level_energies), n), np.nan)
     for i, row in enumerate(run.level_energies):
-        le[i, : min(n, row.size)] = problem.absolute(row[:n])
+        le[i, : min(n, row.size)] = row[:n] + problem.reference  # absolute (Problem.absolute)
     whole = problem.whole_line_count() if problem.whole_spectrum else None
     bound = whole if whole is not None else (int(run.states.count_below) if math.isfinite(problem.e_hi) else n)
     return le, whole, bound

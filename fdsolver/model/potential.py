@@ -253,6 +253,10 @@ class Potential:
 
     def regions(self) -> list[tuple[str, float, float]]:
         """Named intervals for the 'probability inside' report: named shapes and named layers."""
+        return list(self._regions)
+
+    @cached_property
+    def _regions(self) -> tuple[tuple[str, float, float], ...]:
         out = []
         for shape in self.shapes:
             r = shape.region()
@@ -262,7 +266,7 @@ class Potential:
             for name, lo, hi in self.stack.regions():
                 if name:
                     out.append((name, lo, hi))
-        return out
+        return tuple(out)
 
     # --------------------------------------------------------------- symmetry
     def mirror_center(self, lo: float, hi: float) -> float | None:

@@ -1732,6 +1732,32 @@ def constant_coarse(nodes, v_cell, m_cell, mirror, center, c, shift, pos, alpha,
 
 
 @njit
+def home_of(inside, tie):
+    """Each row's home: the first column within ``tie`` of the row's largest entry (``inside``: states x regions,
+    at least one column), -1 where that largest entry is not above 0 or is NaN.  The comparisons of
+    ``numpy.max``, ``numpy.argmax`` and ``numpy.where`` in :func:`fdsolver.boundstates.result.home_regions`, one
+    pass per row.  Dimensionless.  O(states x regions)."""
+    n, r = inside.shape
+    out = np.empty(n, np.int64)
+    for k in range(n):
+        best = inside[k, 0]
+        for j in range(1, r):
+            v = inside[k, j]
+            if math.isnan(v) or v > best:  # numpy.max propagates NaN
+                best = v
+            if math.isnan(best):
+                break
+        out[k] = -1
+        if best > 0.0:
+            cut = best - tie
+            for j in range(r):
+                if inside[k, j] >= cut:
+                    out[k] = j
+                    break
+    return out
+
+
+@njit
 def wave_columns(x, psi, bounds, x_ref, fraction):
     """What the observables of the states ``psi`` (states x nodes, on the nodes ``x``, length unit) are summed
     from, in one pass: (node weights w, columns, sign changes).
