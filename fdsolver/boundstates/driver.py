@@ -231,15 +231,18 @@ def _box_check(problem: Problem, prov: Provisional, run: LevelRun) -> np.ndarray
     if problem.domain.hard or not energy.size:
         return shift
     pot, c = problem.potential, problem.potential.hbar2_2me
+    v_at: dict[float, float] = {}  # V at each box end, evaluated once for all states
     for k in range(run.states.size):
         sector = run.sectors[run.states.sector[k]]
         op = sector.op
-        psi = run.states.vectors[k] / np.sqrt(op.w)
-        ends = [(+1, op.nodes[-1], psi[-1] / (op.nodes[-1] - op.nodes[-2]), op.mass[-1])]
+        u = run.states.vectors[k]  # psi = u / sqrt(w) at the unknowns next to the ends
+        ends = [(+1, op.nodes[-1], u[-1] / math.sqrt(op.w[-1]) / (op.nodes[-1] - op.nodes[-2]), op.mass[-1])]
         if sector.parity == 0:
-            ends.append((-1, op.nodes[0], psi[0] / (op.nodes[1] - op.nodes[0]), op.mass[0]))
+            ends.append((-1, op.nodes[0], u[0] / math.sqrt(op.w[0]) / (op.nodes[1] - op.nodes[0]), op.mass[0]))
         for side, xw, slope, m in ends:
-            v_end = float(pot.value(np.array([xw]))[0]) - problem.reference
+            if xw not in v_at:
+                v_at[xw] = float(pot.value(np.array([xw]))[0])
+            v_end = v_at[xw] - problem.reference
             v_far = pot.asymptote(side) - problem.reference
             gap = min(v_end, v_far) - float(energy[k])
             if not gap > 0:

@@ -46,6 +46,7 @@ from fdsolver.numerics.kernels import (
     segment_nodes,
     target_spacing,
 )
+from fdsolver.numerics.precision import EPS
 
 #: uniform samples of the spacing function over the box before the samples are refined where it asks for it
 BACKGROUND_SAMPLES = 257
@@ -78,7 +79,7 @@ def base_grid(
         right = base_grid(spacing, [b for b in breakpoints if b > center], center, hi, settings, None, half)
         left = 2.0 * center - right[:0:-1]
         return np.concatenate([left, right])
-    tiny = 64.0 * np.finfo(float).eps * max(abs(lo), abs(hi), hi - lo)  # closer than this is round-off
+    tiny = 64.0 * EPS * max(abs(lo), abs(hi), hi - lo)  # closer than this is round-off
     if isinstance(spacing, Spacing) and spacing.table is not None:  # every step in one compiled call
         nodes, total = piece_grid(float(lo), float(hi), np.asarray(list(breakpoints), dtype=float), tiny,
                                   float(settings.growth), _offsets(settings.growth), BACKGROUND_SAMPLES, int(settings.min_cells_per_segment),
