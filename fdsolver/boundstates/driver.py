@@ -29,6 +29,7 @@ length^-1/2.
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass, replace
 
@@ -140,7 +141,7 @@ def _provisional(problem: Problem) -> Provisional:
     and the first level's starting values), so it finds eigenvalues by bisection and no eigenvectors.
     """
     pot, settings = problem.potential, problem.settings
-    coarse = replace(settings.grid, wave_fraction=2.0 * settings.grid.wave_fraction)
+    coarse = _coarse(settings.grid)
     e_lo = problem.reference + problem.deepest - _point_depth(pot)
     e_hi = problem.threshold if math.isfinite(problem.threshold) else problem.reference + problem.v_range[1]
     box = problem.box
@@ -157,6 +158,12 @@ def _provisional(problem: Problem) -> Provisional:
     # the box the shallowest state asks for; the levels check it again with the converged energies
     box = open_box(pot, problem.domain, _top(problem, states, box), problem.budget, box, problem.mirror)
     return Provisional(box, _center_for(problem, box), e_lo, e_hi, states)
+
+
+@functools.lru_cache(maxsize=64)
+def _coarse(gs: GridSettings) -> GridSettings:
+    """The provisional solve's grid settings: twice the wave fraction (made once per settings)."""
+    return replace(gs, wave_fraction=2.0 * gs.wave_fraction)
 
 
 def _point_depth(pot) -> float:
