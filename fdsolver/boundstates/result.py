@@ -113,15 +113,8 @@ def unfold_into(row: np.ndarray, sector, u: np.ndarray) -> None:
     u / sqrt(w) at the unknowns (zero at Dirichlet ends); a half's values are divided by sqrt(2) and mirrored with
     the sector's parity."""
     op = sector.op
-    psi = u / np.sqrt(op.w)
-    if sector.parity == 0:
-        row[1:-1] = psi
-        return
-    size = row.size
-    centre = (size - 1) // 2
-    start = centre if op.left == NEUMANN else centre + 1  # the first unknown: the centre itself (even half)
-    row[start:start + psi.size] = psi / math.sqrt(2.0)
-    row[:centre] = sector.parity * row[size - 1:centre:-1]
+    # the first unknown of a half: the centre itself (even half, Neumann end), else the node right of it
+    kernels.unfold_row(row, np.ascontiguousarray(u, dtype=float), op.w, int(sector.parity), op.left == NEUMANN)
 
 
 def _potential_on(pot, x_all: np.ndarray, v_cells: np.ndarray | None = None) -> np.ndarray:

@@ -1732,6 +1732,28 @@ def constant_coarse(nodes, v_cell, m_cell, mirror, center, c, shift, pos, alpha,
 
 
 @njit
+def unfold_row(row, u, w, parity, neumann):
+    """psi on the whole grid into ``row`` (zero on entry, whole-grid nodes) from a sector's unit eigenvector ``u``
+    with node weights ``w``: u / sqrt(w) at the unknowns (parity 0: the whole grid's interior nodes); a mirror
+    half's values divided by sqrt(2) from the centre on (the centre itself with ``neumann``, the even half) and
+    mirrored onto the left half times ``parity`` (+1 or -1).  The operations of the numpy form in
+    :func:`fdsolver.boundstates.result.unfold_into`.  psi in length^-1/2.  O(N)."""
+    n = u.shape[0]
+    if parity == 0:
+        for i in range(n):
+            row[1 + i] = u[i] / math.sqrt(w[i])
+        return
+    size = row.shape[0]
+    centre = (size - 1) // 2
+    start = centre if neumann else centre + 1
+    root2 = math.sqrt(2.0)
+    for i in range(n):
+        row[start + i] = u[i] / math.sqrt(w[i]) / root2
+    for j in range(centre):
+        row[j] = parity * row[size - 1 - j]
+
+
+@njit
 def home_of(inside, tie):
     """Each row's home: the first column within ``tie`` of the row's largest entry (``inside``: states x regions,
     at least one column), -1 where that largest entry is not above 0 or is NaN.  The comparisons of
