@@ -45,6 +45,24 @@ def test_counts_at_three_shifts_are_the_single_counts(seed, n, spread):
 
 
 @PROPS
+@given(st.integers(0, 10**6), st.integers(2, 400), st.floats(0.0, 6.0), st.integers(1, 11))
+def test_counts_at_many_shifts_are_the_single_counts_and_lapacks(seed, n, spread, m):
+    """sturm_counts_at (four recurrences per pass, any number of shifts) against one count at a time, and the
+    counts against the number of LAPACK eigenvalues below each shift where no eigenvalue lies within 1e-9 of
+    the spectrum's width of it (closer than that the count of a matrix a few ulps away may differ)."""
+    d, e = matrix(seed, n, spread)
+    values = eigvalsh_tridiagonal(d, e)
+    rng = np.random.default_rng(seed + 2)
+    shifts = np.concatenate([rng.uniform(values[0] - 1.0, values[-1] + 1.0, m), values[[0, -1]]])
+    got = kernels.sturm_counts_at(d, e, shifts)
+    assert got.tolist() == [kernels.sturm_count(d, e, x) for x in shifts]
+    width = max(values[-1] - values[0], 1.0)
+    for x, count in zip(shifts, got):
+        if np.min(np.abs(values - x)) > 1e-9 * width:
+            assert count == int(np.sum(values < x))
+
+
+@PROPS
 @given(st.integers(0, 10**6), st.integers(2, 300), st.floats(0.0, 5.0), st.integers(0, 5))
 def test_bisection_brackets_the_lapack_eigenvalues(seed, n, spread, first):
     d, e = matrix(seed, n, spread)
