@@ -12,12 +12,12 @@ import dataclasses
 from pathlib import Path
 
 import pytest
+from same_results import fields_of, same
 
 from fdsolver.boundstates.settings import SolveSettings
 from fdsolver.input.case import load_case
 from fdsolver.model.domain import Domain
 from fdsolver.runs import solve_case
-from same_results import fields_of, same
 
 CASES = Path(__file__).resolve().parent.parent / "cases"
 
