@@ -22,7 +22,10 @@ Calibration: the machine's cost of one Sturm count per grid node (fdsolver.numer
    sech^2 and a Morse well in atomic units, a nonparabolic material stack).
 2. per solve: every bundled case solved warm, each figure over at least :data:`WARM_SOLVES` solves timed one at a
    time (min and median; since session 14, before that over ``--repeat`` solves), and since session 17 over at
-   least :data:`WARM_CPU` of CPU (a fast solve is timed a few hundred times); two ratios are printed: measured CPU / (node-states x Sturm ns
+   least :data:`WARM_CPU` of CPU (a fast solve is timed a few hundred times) in each of :data:`WARM_ROUNDS`
+   rounds over all cases, with the calibration measured again after each round and its least value used (the
+   machine's slow stretches last seconds: one case timed in one stretch got 0.67-0.97 ms for the same code in
+   four runs of session 17); two ratios are printed: measured CPU / (node-states x Sturm ns
    per node), where node-states = sum over grid levels of (nodes x states found), and measured CPU / the lean
    estimate (node-states x 30 ns at 8 ns per Sturm node, scaled by this machine's Sturm count).  Target for the
    double wells: within 5 times of the lean estimate, about 2 ms.  Beside them, the CPU spent inside fdsolver's
@@ -68,6 +71,8 @@ WARM_SOLVES = 30
 #: machine (session 17, in one process: double_square's min over its first 30 solves 0.98 ms, over the next 300
 #: 0.66 ms, medians 1.12 and 1.07 ms), while the Sturm calibration beside it is the best of runs of several ms
 WARM_CPU = 0.3
+#: rounds over all cases: each case's solves are timed in every round, the Sturm calibration again after each
+WARM_ROUNDS = 3
 
 #: the lean estimate of a solve's cost per node-state in Sturm counts: one inverse iteration and one Rayleigh
 #: quotient per state and level, about 30 ns per node-state on a machine whose Sturm count costs about 8 ns per node
@@ -263,21 +268,34 @@ def per_solve(repeat: int, sturm_ns: float) -> None:
     from fdsolver.runs import solve_case
 
     solves = max(repeat, WARM_SOLVES)
-    print(f"2. warm solves (CPU in this process; each figure over at least {solves} solves and {WARM_CPU:g} s of CPU, "
-          "each solve timed on its own)")
-    print(f"   {'case':<22} {'states':>6} {'levels':>6} {'node-states':>11} {'CPU min [ms]':>12} {'median':>7} "
-          f"{'wall med':>8} {'Sturm [ms]':>10} {'ratio':>6} {'to lean':>7} {'kernels [ms]':>12} {'to lean':>7} "
-          f"{'fresh [ms]':>9}")
-    periodic = []
+    print(f"2. warm solves (CPU in this process; each figure over at least {solves} solves and {WARM_CPU:g} s of CPU in "
+          f"each of {WARM_ROUNDS} rounds over all cases, each solve timed on its own)")
+    periodic, warm = [], []
     for path in CASES:
         case = load_case(path)
         if case.domain.periodic:
             periodic.append(case)
             continue
-        sol = solve_case(case)  # warm: kernels loaded, grid planned once
-        cpu, wall = timed_enough(lambda case=case: solve_case(case), solves)
-        fresh = iter([fresh_potential(case) for _ in range(len(cpu))])  # made before the clock runs
-        fresh_cpu, _ = timed_runs(lambda: solve_case(next(fresh)), len(cpu))
+        warm.append((path, case, solve_case(case), [], []))  # warm: kernels loaded, grid planned once
+    # the rounds: every case timed in each, and the calibration again after each, so that every figure and the
+    # calibration sample the whole run (the machine's slow stretches last seconds)
+    sturms = [sturm_ns]
+    for _ in range(WARM_ROUNDS):
+        for _path, case, _sol, cpu, wall in warm:
+            more_cpu, more_wall = timed_enough(lambda case=case: solve_case(case), solves)
+            cpu += more_cpu
+            wall += more_wall
+        sturms.append(calibrate(repeat))
+    sturm_ns = min(sturms)
+    print(f"   calibration in the rounds: {', '.join(f'{v:.2f}' for v in sturms)} ns per node; the ratios use the "
+          f"least, {sturm_ns:.2f}, as each CPU min is the least of its rounds")
+    print(f"   {'case':<22} {'states':>6} {'levels':>6} {'node-states':>11} {'CPU min [ms]':>12} {'median':>7} "
+          f"{'wall med':>8} {'Sturm [ms]':>10} {'ratio':>6} {'to lean':>7} {'kernels [ms]':>12} {'to lean':>7} "
+          f"{'fresh [ms]':>9}")
+    for path, case, sol, cpu, wall in warm:
+        count = len(cpu) // WARM_ROUNDS
+        fresh = iter([fresh_potential(case) for _ in range(count)])  # made before the clock runs
+        fresh_cpu, _ = timed_runs(lambda fresh=fresh: solve_case(next(fresh)), count)
         inside = compiled_cpu(lambda case=case: solve_case(case), solves)
         node_states = int(np.sum(sol.level_sizes)) * max(int(sol.energy.size), 1)
         sturm = node_states * sturm_ns * 1e-9  # one Sturm count per node-state
