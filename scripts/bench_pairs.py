@@ -17,14 +17,17 @@ are compared in pairs taken in the same minute.
   ratios.
 
 ``--optics`` (with ``--warm``): each warm solve is ``fdsolver.solve_optics`` (the solve and its refined
-transitions, the work of the solve command).
+transitions, the work of the solve command).  ``--fresh`` (with ``--warm``): each timed solve is of a new
+potential equal to the case's, made before the clock runs (``bench_overhead.fresh_potential``: nothing a
+potential keeps is carried over, as for a sweep point).
 
 Cases `solve` refuses (periodic ones) are skipped.
 
 ``--archive``: each cold solve also writes an archive (``solve -o``, a temporary file).  A CASE is a bundled
 case's name or the path of a case file.
 
-Usage:  python scripts/bench_pairs.py BASE_TREE NEW_TREE [--warm [--optics] | --archive] [--repeat N] [CASE ...]
+Usage:  python scripts/bench_pairs.py BASE_TREE NEW_TREE [--warm [--optics] [--fresh] | --archive] [--repeat N]
+        [CASE ...]
         (a tree is a directory holding the fdsolver package, e.g. a `git worktree add /tmp/base REV`)
 """
 
@@ -60,19 +63,22 @@ def cold_cpu(tree: str, case: Path, archive: str | None = None) -> float | None:
 #: a long-lived warm solver: the case in argv[1]; each line on stdin asks for that many solves, answered with
 #: the fastest and the median CPU seconds of one solve among them
 WARM_WORKER = """
-import sys, time
+import dataclasses, sys, time
 from fdsolver.input.case import load_case
 from fdsolver.runs import solve_case
 case = load_case(sys.argv[1])
-if len(sys.argv) > 2:  # --optics: the solve command's work, the solve and its refined transitions
+if "optics" in sys.argv[2:]:  # --optics: the solve command's work, the solve and its refined transitions
     from fdsolver.api import solve_optics as solve_case
+fresh = "fresh" in sys.argv[2:]  # --fresh: a new potential equal to the case's for every timed solve
 for _ in range(30):
     solve_case(case)
 for line in sys.stdin:
     ts = []
-    for _ in range(int(line)):
+    cases = [dataclasses.replace(case, potential=dataclasses.replace(case.potential)) if fresh else case
+             for _ in range(int(line))]
+    for c in cases:
         t0 = time.process_time()
-        solve_case(case)
+        solve_case(c)
         ts.append(time.process_time() - t0)
     ts.sort()
     print(ts[0], ts[len(ts) // 2], flush=True)
@@ -80,14 +86,16 @@ for line in sys.stdin:
 WARM_BLOCK = 15
 
 
-def warm_pairs(base: str, new: str, case: Path, blocks: int, optics: bool = False) -> tuple[list, list] | None:
+def warm_pairs(base: str, new: str, case: Path, blocks: int, optics: bool = False,
+               fresh: bool = False) -> tuple[list, list] | None:
     """(fastest, median) CPU seconds per solve of each block of warm solves by each tree, blocks alternated;
     None if either tree refuses the case.  ``optics``: each solve also makes its refined transitions
-    (``fdsolver.solve_optics``, what the solve command computes)."""
+    (``fdsolver.solve_optics``, what the solve command computes); ``fresh``: each solve is of a new potential."""
     env = dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1", MKL_NUM_THREADS="1")
     procs = []
     for tree in (base, new):
-        procs.append(subprocess.Popen([sys.executable, "-c", WARM_WORKER, str(case), *(["optics"] if optics else [])],
+        procs.append(subprocess.Popen([sys.executable, "-c", WARM_WORKER, str(case), *(["optics"] if optics else []),
+                                       *(["fresh"] if fresh else [])],
                                       cwd=tree,
                                       env=dict(env, PYTHONPATH=tree), stdin=subprocess.PIPE,
                                       stdout=subprocess.PIPE, stderr=subprocess.DEVNULL, text=True))
@@ -111,10 +119,12 @@ def warm_pairs(base: str, new: str, case: Path, blocks: int, optics: bool = Fals
 
 def main_warm(args, names) -> None:
     what = "warm solves with refined transitions (solve_optics)" if args.optics else "warm solves"
+    if args.fresh:
+        what += " of a new potential each (as a sweep point)"
     print(f"{what}, CPU ms per solve ({args.repeat} alternated blocks of {WARM_BLOCK}); base {args.base}, "
           f"new {args.new}")
     for name in names:
-        got = warm_pairs(args.base, args.new, _case_path(name), args.repeat, args.optics)
+        got = warm_pairs(args.base, args.new, _case_path(name), args.repeat, args.optics, args.fresh)
         if got is None:
             print(f"  {name:22s} not a `solve` case here (skipped)")
             continue
@@ -140,6 +150,8 @@ def main() -> None:
     ap.add_argument("--repeat", type=int, default=5, help="runs (cold) or blocks (warm) per tree and case")
     ap.add_argument("--warm", action="store_true", help="warm solves in two long-lived processes, not cold starts")
     ap.add_argument("--archive", action="store_true", help="cold solves write an archive (solve -o, a temp file)")
+    ap.add_argument("--fresh", action="store_true", help="with --warm: each timed solve is of a new potential "
+                    "equal to the case's (as a sweep point solves one)")
     ap.add_argument("--optics", action="store_true", help="with --warm: each solve also makes its refined "
                     "transitions (fdsolver.solve_optics, what the solve command computes)")
     args = ap.parse_intermixed_args()
