@@ -13,7 +13,10 @@ compiled kernel loaded from numba's cache (``numba.core.caching.Cache._load_over
 and of the imports before the solve.  Since session 15 fdsolver loads its kernels without numba's compile set-up
 (:func:`fdsolver.compiled._lean_cache_loads`); before, the first load included it.
 
-Usage:  python scripts/solve_phases.py [CASE ...] [--solves N] [--loads]   (a CASE is a bundled case's name or a
+``--fresh``: each timed solve is of a new potential equal to the case's (as a sweep point solves one), so what a
+potential works out once and keeps (``Potential.remembered``, its cached properties) is worked out in every solve.
+
+Usage:  python scripts/solve_phases.py [CASE ...] [--solves N] [--loads] [--fresh]   (a CASE is a bundled case's name or a
         path; default: double_square coupled_wells)
 """
 
@@ -25,6 +28,7 @@ for _var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ[_var] = "1"
 
 import argparse
+import dataclasses
 import functools
 import importlib
 import subprocess
@@ -39,6 +43,7 @@ ROOT = Path(__file__).resolve().parent.parent
 #: the compiled calls of a potential constant on every cell: the coarse solve, every regular level at once, and
 #: a level at a time where the loop takes over)
 PHASES = [
+    ("fdsolver.continuum.confinement", "leaks", "leak test (before the solve)"),
     ("fdsolver.boundstates.driver", "plan", "plan"),
     ("fdsolver.boundstates.driver", "_provisional", "coarse solve and box"),
     ("fdsolver.boundstates.driver", "_levels", "levels"),
@@ -100,6 +105,8 @@ def main() -> None:
     ap.add_argument("cases", nargs="*", default=["double_square", "coupled_wells"])
     ap.add_argument("--solves", type=int, default=1000)
     ap.add_argument("--loads", action="store_true", help="a cold solve per case, its kernel loads timed")
+    ap.add_argument("--fresh", action="store_true", help="each timed solve is of a new potential equal to the "
+                    "case's (as a sweep point solves one): nothing a potential keeps is carried over")
     args = ap.parse_args()
     paths = [Path(n) if Path(n).suffix else ROOT / "cases" / f"{n}.toml" for n in args.cases]
     if args.loads:
@@ -114,13 +121,21 @@ def main() -> None:
 
     cases = [(path.stem, load_case(path)) for path in paths]
 
+    def solves_of(case) -> list:
+        """The cases to time: the case itself each time, or (``--fresh``) a new potential equal to its own each
+        time, made before the clock runs."""
+        if not args.fresh:
+            return [case] * args.solves
+        return [dataclasses.replace(case, potential=dataclasses.replace(case.potential)) for _ in range(args.solves)]
+
     plain = {}
     for name, case in cases:  # untimed by the phase clocks
         for _ in range(100):
             solve_case(case)
+        todo = solves_of(case)
         t0 = time.process_time()
-        for _ in range(args.solves):
-            solve_case(case)
+        for c in todo:
+            solve_case(c)
         plain[name] = (time.process_time() - t0) / args.solves
 
     spent: dict[str, int] = {}
@@ -138,14 +153,16 @@ def main() -> None:
 
         setattr(mod, func, timed)
 
-    print(f"CPU ms per warm solve ({args.solves} solves each, one BLAS thread)")
+    what = "of a new potential each " if args.fresh else ""
+    print(f"CPU ms per warm solve {what}({args.solves} solves each, one BLAS thread)")
     for name, case in cases:
         for _ in range(100):
             solve_case(case)
+        todo = solves_of(case)
         spent.clear()
         t0 = time.process_time()
-        for _ in range(args.solves):
-            solve_case(case)
+        for c in todo:
+            solve_case(c)
         timed_total = (time.process_time() - t0) / args.solves
         print(f"  {name}: {plain[name] * 1e3:.3f} ms untimed, {timed_total * 1e3:.3f} ms with the phase clocks")
         for _module, _func, label in PHASES:
