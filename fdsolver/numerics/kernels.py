@@ -24,7 +24,8 @@
 * :func:`target_spacing` - the raw target spacing of a base grid from sampled V and m (the arithmetic
   of :func:`fdsolver.numerics.grid.spacing_function` in one pass).
 * :func:`piece_grid` - a whole base grid in one call where V is constant between features (its spacing
-  function sampled from tables, :func:`piece_values`).
+  function sampled from tables, :func:`piece_values`; the sample offsets from :func:`sample_offsets`, made
+  once per growth rate); :func:`cell_piece_values` - V and m on every cell of a grid from those tables.
 * :func:`flux_operator` - the arrays of the flux-form operator
   (:mod:`fdsolver.numerics.operator`) in one pass over the cells; :func:`even_half` its even mirror sector;
   both through :func:`symmetric_form`, the one formula of T's diagonal and off-diagonal.
@@ -32,8 +33,11 @@
 * :func:`constant_sectors` - the operators of a grid whose cells take their base cell's V and m (point terms,
   mirror halves); :func:`constant_level` - one nested level of such a potential: refinement, those operators
   and :func:`predicted_grid` in one call; :func:`constant_levels` - every regular level with the Romberg
-  table and the judgement; :func:`constant_coarse` - a coarse grid's energies by bisection.
+  table and the judgement (:func:`romberg_newest` for the splittings); :func:`constant_coarse` - a coarse
+  grid's energies by bisection.
 * :func:`decay_reach` - where the WKB decay integral along a walk first reaches a budget (the box's ends).
+* :func:`wave_columns`, :func:`unfold_row`, :func:`home_of` - the observables' sums, a state's wavefunction
+  unfolded onto the whole grid, each state's home region.
 
 Numba is used here because these loops are sequential recurrences that numpy
 cannot vectorise; measured figures are in DEVELOPERS.md.  Compilation results
@@ -130,40 +134,18 @@ def sturm_count(d, e, sigma):
 
 @njit
 def _sturm_counts3(d, e, s0, s1, s2):
-    """:func:`sturm_count` at three shifts in one pass (the same arithmetic, hence the same counts; three
-    independent recurrences run side by side, so the pass costs little more than one).  Exact integers; shifts
-    in the matrix's energy unit.  O(N)."""
-    n = d.shape[0]
-    tiny = 1e-300
-    q0 = d[0] - s0
-    q1 = d[0] - s1
-    q2 = d[0] - s2
-    c0 = 1 if q0 < 0.0 else 0
-    c1 = 1 if q1 < 0.0 else 0
-    c2 = 1 if q2 < 0.0 else 0
-    for i in range(1, n):
-        if q0 == 0.0:
-            q0 = tiny
-        if q1 == 0.0:
-            q1 = tiny
-        if q2 == 0.0:
-            q2 = tiny
-        q0 = d[i] - s0 - e[i - 1] * e[i - 1] / q0
-        q1 = d[i] - s1 - e[i - 1] * e[i - 1] / q1
-        q2 = d[i] - s2 - e[i - 1] * e[i - 1] / q2
-        if q0 < 0.0:
-            c0 += 1
-        if q1 < 0.0:
-            c1 += 1
-        if q2 < 0.0:
-            c2 += 1
+    """:func:`sturm_count` at three shifts in one pass (:func:`_sturm_counts4` with the last shift twice: the
+    same arithmetic, hence the same counts; the recurrences run side by side, so the pass costs little more than
+    one count).  Exact integers; shifts in the matrix's energy unit.  O(N)."""
+    c0, c1, c2, _ = _sturm_counts4(d, e, s0, s1, s2, s2)
     return c0, c1, c2
 
 
 @njit
 def _sturm_counts4(d, e, s0, s1, s2, s3):
-    """:func:`sturm_count` at four shifts in one pass (:func:`_sturm_counts3` with one more recurrence beside
-    the others: the same arithmetic, hence the same counts).  O(N)."""
+    """:func:`sturm_count` at four shifts in one pass: four independent recurrences side by side, each the
+    arithmetic of :func:`sturm_count`, hence the same counts, at about the cost of one count (measured in
+    DEVELOPERS.md, session 17).  Exact integers; shifts in the matrix's energy unit.  O(N)."""
     n = d.shape[0]
     tiny = 1e-300
     q0 = d[0] - s0
@@ -625,7 +607,18 @@ def prove_indices(d, e, values, first, lo, floor, matrix):
     most), and by at least 1e-7 of the scale or 100 times the matrix
     round-off scale; the counts there must be exactly the cluster's indices.
     """
+    return _proof_holds(sturm_counts_at(d, e, proof_points(values, first, floor, matrix)), first, lo)
+
+
+@njit
+def proof_points(values, first, floor, matrix):
+    """The two shifts of every cluster's Sturm proof (:func:`prove_indices`), in order: below its first value and
+    above its last by half the gap to the neighbouring value at most, and by at least 1e-7 of the scale (its
+    value, or ``floor``) or 100 times the value's matrix round-off scale ``matrix``.  ``first``: the cluster
+    starts (:func:`cluster_starts`).  Energies in the matrix's unit.  O(k)."""
     k = values.shape[0]
+    out = np.empty(2 * k)
+    m = 0
     j = 0
     while j < k:
         end = j
@@ -635,11 +628,11 @@ def prove_indices(d, e, values, first, lo, floor, matrix):
         gap_hi = values[end + 1] - values[end] if end + 1 < k else math.inf
         delta_lo = min(0.5 * gap_lo, max(1e-7 * max(abs(values[j]), floor), 100.0 * matrix[j]))
         delta_hi = min(0.5 * gap_hi, max(1e-7 * max(abs(values[end]), floor), 100.0 * matrix[end]))
-        below, above, _ = _sturm_counts3(d, e, values[j] - delta_lo, values[end] + delta_hi, values[end] + delta_hi)
-        if below != lo + j or above != lo + end + 1:
-            return False
+        out[m] = values[j] - delta_lo
+        out[m + 1] = values[end] + delta_hi
+        m += 2
         j = end + 1
-    return True
+    return out[:m].copy()
 
 
 @njit
@@ -809,19 +802,9 @@ def _sector_counts(d, e, energy, matrix, floor, cluster_rtol, has_lo, e_lo, e_hi
         shifts[m] = e_hi
         m += 1
     proof_at = m
-    j = 0
-    while j < k:
-        end = j
-        while end + 1 < k and first[end + 1] == first[j]:
-            end += 1
-        gap_lo = energy[j] - energy[j - 1] if j > 0 else math.inf
-        gap_hi = energy[end + 1] - energy[end] if end + 1 < k else math.inf
-        delta_lo = min(0.5 * gap_lo, max(1e-7 * max(abs(energy[j]), floor), 100.0 * matrix[j]))
-        delta_hi = min(0.5 * gap_hi, max(1e-7 * max(abs(energy[end]), floor), 100.0 * matrix[end]))
-        shifts[m] = energy[j] - delta_lo
-        shifts[m + 1] = energy[end] + delta_hi
-        m += 2
-        j = end + 1
+    points = proof_points(energy, first, floor, matrix)
+    shifts[m:m + points.shape[0]] = points
+    m += points.shape[0]
     top_at = m
     shifts[m] = top
     m += 1
