@@ -771,14 +771,6 @@ def roundoff_floor(matrix, quotient, energies, ulps):
 
 
 @njit
-def _sector_count(d, e, shift, default):
-    """Sturm count below ``shift``; ``default`` for a shift that is not finite."""
-    if not math.isfinite(shift):
-        return default
-    return sturm_count(d, e, shift)
-
-
-@njit
 def _sector_counts(d, e, energy, matrix, floor, cluster_rtol, has_lo, e_lo, e_hi, top):
     """Every Sturm count one sector of :func:`predicted_grid` needs, in one pass over the matrix for up to four
     shifts (:func:`sturm_counts_at`): at the window's ends (``e_lo`` where ``has_lo``; a shift that is not
@@ -1531,10 +1523,8 @@ def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, 
     nb = base.shape[0]
     ge = guess_e.copy()
     gs = guess_s.copy()
-    table = np.empty((max_levels, 3, 0))
     energies = np.empty((max_levels, 0))
     sizes = np.zeros(max_levels, np.int64)
-    cols = np.zeros(max_levels, np.int64)
     none = np.empty(0)
     last = (1, none, np.empty(0, np.int64), none, np.empty(0, np.int64), 0, 0, np.empty((0, 0)), np.empty((0, 0)))
     ops = (none, none, none, none, none, none, (none, none, none, none, none, none, none, none))
@@ -1556,32 +1546,17 @@ def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, 
         if n < 0:
             n = en.shape[0]
             first = got[6]
-            table = np.empty((max_levels, 3, n))
             energies = np.empty((max_levels, n))
         last = got
         ops = got_ops
         energies[level] = en
         sizes[level] = size
-        # the Romberg row of this level
-        table[level, 0] = en
-        ncol = 1 if level == 0 else min(cols[level - 1], 2) + 1
-        cols[level] = ncol
-        for j in range(1, ncol):
-            for s in range(n):
-                table[level, j, s] = table[level, j - 1, s] + (table[level, j - 1, s] - table[level - 1, j - 1, s]) \
-                    / (4.0**j - 1.0)
         if level + 1 >= min_levels:
-            m = ncol - 1
-            value = table[level, m]
+            # the Romberg table of the levels so far, its newest value and error, plus the round-off floor
+            value, table_error = romberg_newest(energies[:level + 1])
             err = np.empty(n)
             for s in range(n):
-                if ncol < 2:
-                    e_s = math.inf
-                elif level >= 1 and cols[level - 1] > m:
-                    e_s = abs(table[level, m, s] - table[level - 1, m, s])
-                else:
-                    e_s = abs(table[level, m, s] - table[level, m - 1, s])
-                err[s] = e_s + got[3][s]
+                err[s] = table_error[s] + got[3][s]
             order = np.argsort(value, kind="mergesort")
             finished = True
             limited_by = np.zeros(n, np.bool_)
@@ -1599,7 +1574,7 @@ def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, 
             if finished:
                 gaps = energies[:level + 1, 1:] - energies[:level + 1, :-1]
                 gap_value, gap_error = romberg_newest(gaps)
-                judged = (value.copy(), err, limited_by, gap_value, gap_error)
+                judged = (value, err, limited_by, gap_value, gap_error)
                 return LEVELS_DONE, level + 1, energies[:level + 1].copy(), sizes[:level + 1].copy(), last, ops, judged
         # the next level's predictions
         if level == 0:
