@@ -164,3 +164,52 @@ def test_one_call_coarse_solve_is_the_general_path(seed, solve, monkeypatch):
         assert np.array_equal(getattr(fast, name), getattr(general, name)), name
     assert (fast.count_below, fast.first_index, len(fast.vectors)) == \
         (general.count_below, general.first_index, len(general.vectors))
+
+
+def _thin(seed: int) -> dict:
+    """A structure with one piece far thinner than the rest: two wells 40 nm apart with a 0.01 nm barrier of 300 to
+    900 meV inside one of them (invented)."""
+    rng = np.random.default_rng(500 + seed)
+    return {"units": "nm-meV", "mass": 0.067, "potential": [
+        {"shape": "square", "center": -20.0, "width": 6.0, "depth": float(rng.uniform(50, 200))},
+        {"shape": "square", "center": 20.0, "width": 6.0, "depth": float(rng.uniform(50, 200))},
+        {"shape": "square", "center": float(rng.uniform(18.0, 22.0)), "width": 0.01,
+         "depth": -float(rng.uniform(300, 900))}]}
+
+
+STRUCTURES = [_structure(s) for s in SEEDS] + [_thin(s) for s in range(4)]
+
+
+@pytest.mark.parametrize("d", STRUCTURES)
+def test_enclosure_from_tables_is_the_sampled_one(d, monkeypatch):
+    """The leak test's enclosure top (fdsolver.continuum.confinement.confined_top) read from the piece tables
+    equals the one from V sampled at both sides of every feature and the middle of every piece, bit for bit:
+    the samples fall inside the pieces, in order, every piece at least once (the module's argument)."""
+    from fdsolver.continuum import confinement
+
+    case = fdsolver.case_from_dict(d)
+    pot = case.potential
+    assert confinement._pieces_in_order(pot, *pot.support()) is not None  # the tables are read
+    from_tables = confinement.confined_top(pot)
+    monkeypatch.setattr(confinement, "_pieces_in_order", lambda *a: None)
+    sampled = confinement.confined_top(fdsolver.case_from_dict(d).potential)
+    assert (from_tables is None and sampled is None) or from_tables == sampled
+
+
+@pytest.mark.parametrize("d", STRUCTURES)
+def test_zero_energy_march_reads_the_potentials_own_values(d):
+    """The compact cells of the zero-energy march (fdsolver.boundstates.counting) get V and m from the piece
+    tables: the same numbers as the potential's own evaluation at the cells' midpoints."""
+    from fdsolver.boundstates import counting
+    from fdsolver.numerics.cells import cells
+
+    pot = fdsolver.case_from_dict(d).potential
+    vt = min(pot.asymptote(-1), pot.asymptote(1))
+    assert np.isfinite(vt)  # every structure here levels off at both ends
+    layout = counting.layout_for([pot])
+    _, mid, _ = cells(pot, layout, 0, vt)
+    v, m = counting._values_at(pot, layout, mid)
+    with np.errstate(all="ignore"):
+        assert np.array_equal(v, pot.value(mid))
+    assert np.array_equal(m, pot.mass_at(mid))
+

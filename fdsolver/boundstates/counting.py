@@ -88,9 +88,7 @@ def phase_margin(potential, layout: Layout | None = None, level: int = 0, vt: fl
     vt = open_threshold(potential) if vt is None else vt
     layout = layout or make_layout([potential], [vt])
     edges, mid, jump = cells(potential, layout, level, vt)
-    with np.errstate(all="ignore"):
-        v = potential.value(mid)
-    m = potential.mass_at(mid)
+    v, m = _values_at(potential, layout, mid)
     k2 = m * (np.where(np.isfinite(v), v, 1e300) - vt) / potential.hbar2_2me
     ks = layout.kscale
     u0 = _end_flux(potential, vt, -1, edges[0])
@@ -106,6 +104,23 @@ def phase_margin(potential, layout: Layout | None = None, level: int = 0, vt: fl
     if abs(delta - (alpha - theta_dec)) > 1e-6:  # the branch of the direct difference is the right one
         delta = alpha - theta_dec
     return nodes + delta / PI
+
+
+def _values_at(potential, layout: Layout, mid: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """V and m at the cell midpoints ``mid`` of a compact layout (:func:`~fdsolver.numerics.cells.cells`).
+
+    Where the potential keeps piece tables (:attr:`~fdsolver.model.potential.Potential.piece_table`), the
+    compact cells are the outer features (zero-width end cells, midpoint the feature itself) and the pieces
+    between them, whose midpoints are the table's own probes: the values are read from the tables, the same
+    numbers an evaluation there gives.  Otherwise V and m are evaluated at ``mid``."""
+    table = getattr(potential, "piece_table", None) if layout.compact else None
+    if table is not None and table[0].size and mid.size == table[0].size + 1:
+        _feats, v_piece, m_piece, v_feat, m_feat = table
+        return (np.concatenate([v_feat[:1], v_piece[1:-1], v_feat[-1:]]),
+                np.concatenate([m_feat[:1], m_piece[1:-1], m_feat[-1:]]))
+    with np.errstate(all="ignore"):
+        v = potential.value(mid)
+    return v, potential.mass_at(mid)
 
 
 def count_from_margin(phi: float) -> int:

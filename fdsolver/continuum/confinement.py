@@ -12,7 +12,8 @@ A potential *leaks* on the open line when
 The enclosure is measured on V sampled over the features' span (4097 even
 points plus both sides of every feature; for a V constant between its
 features, both sides of every feature and the middle of every gap sample
-every piece, which is all the even points add): with L(x), R(x) the highest V to
+every piece, which is all the even points add; where it keeps piece tables, the pieces' values are read from
+them in order, which gives the same answer): with L(x), R(x) the highest V to
 the left and to the right of x, the region below min(L, R) is enclosed, and
 :func:`confined_top` is the highest min(L, R) over the points where V lies
 below it.  Repulsive point terms are not counted as barriers here.  Energies
@@ -41,15 +42,17 @@ def confined_top(potential) -> float | None:
     lo, hi = potential.support()
     if not hi > lo:
         return None
-    feats = np.asarray(potential.features(), dtype=float)
-    d = 1e-9 * max(1.0, hi - lo)
-    if potential.piecewise_constant:
-        even = potential.piece_midpoints(lo, hi)
-    else:
-        even = np.linspace(lo, hi, SAMPLES)
-    xs = np.unique(np.concatenate([even, feats - d, feats + d, [lo - d, hi + d]]))
-    with np.errstate(all="ignore"):
-        v = potential.value(xs)
+    v = _pieces_in_order(potential, lo, hi)
+    if v is None:
+        feats = np.asarray(potential.features(), dtype=float)
+        d = 1e-9 * max(1.0, hi - lo)
+        if potential.piecewise_constant:
+            even = potential.piece_midpoints(lo, hi)
+        else:
+            even = np.linspace(lo, hi, SAMPLES)
+        xs = np.unique(np.concatenate([even, feats - d, feats + d, [lo - d, hi + d]]))
+        with np.errstate(all="ignore"):
+            v = potential.value(xs)
     if not np.all(np.isfinite(v)):
         return None
     left = np.maximum.accumulate(v)
@@ -58,6 +61,26 @@ def confined_top(potential) -> float | None:
     scale = float(np.max(np.abs(v))) or 1.0
     inside = enclosing - v > 1e-9 * scale
     return float(np.max(enclosing[inside])) if inside.any() else None
+
+
+def _pieces_in_order(potential, lo: float, hi: float) -> np.ndarray | None:
+    """V on every piece, left to right, where the potential keeps piece tables
+    (:attr:`~fdsolver.model.potential.Potential.piece_table`): the samples of :func:`confined_top` (the middle
+    of every piece of [lo, hi], both sides of every feature, both ends) then lie inside the pieces, every
+    piece holds at least one, and in the order of x their values are the pieces' values in order, each
+    repeated; repeats change neither the enclosure nor its top, so the pieces' values, read from the tables,
+    give the same answer.  None (sample V instead) without tables, or where an offset might round back onto
+    its feature (a feature farther from 0 than about 4e6 spans)."""
+    table = getattr(potential, "piece_table", None)
+    if table is None or not table[0].size:
+        return None
+    d = 1e-9 * max(1.0, hi - lo)
+    first, last = float(table[0][0]), float(table[0][-1])
+    far = max(abs(first), abs(last))  # the sorted features' largest magnitude: d must exceed an ulp of each
+    if not ((lo == first or lo < 0.5 * (lo + first) < first) and (hi == last or last < 0.5 * (last + hi) < hi)
+            and far + 0.5 * d > far):
+        return None
+    return table[1]
 
 
 def leaks(potential, domain=None) -> bool:

@@ -131,12 +131,7 @@ class Potential:
         if not self._piecewise_constant:
             return None
         feats = self._features
-        raw: list[float] = []
-        for shape in self.shapes:
-            raw.extend(shape.features())
-        if self.stack is not None:
-            raw.extend(self.stack.interfaces.tolist())
-        if np.unique(np.asarray(raw, dtype=float)).size != feats.size:
+        if self._features_merged:
             return None
         if feats.size:
             reach = max(1.0, float(feats[-1] - feats[0]))
@@ -169,6 +164,16 @@ class Potential:
 
     @cached_property
     def _features(self) -> np.ndarray:
+        return self._feature_points[0]
+
+    @cached_property
+    def _features_merged(self) -> bool:
+        """True if distinct feature positions closer than round-off were merged into one."""
+        return self._feature_points[1]
+
+    @cached_property
+    def _feature_points(self) -> tuple[np.ndarray, bool]:
+        """(the sorted distinct feature positions, positions closer than round-off merged; whether any were)."""
         found: list[float] = []
         for shape in self.shapes:
             found.extend(shape.features())
@@ -177,8 +182,9 @@ class Potential:
         pts = np.unique(np.asarray(found, dtype=float))
         if pts.size > 1:  # merge positions closer than round-off
             keep = np.concatenate([[True], np.diff(pts) > 1e-12 * max(1.0, np.max(np.abs(pts)))])
-            pts = pts[keep]
-        return pts
+            if not keep.all():
+                return pts[keep], True
+        return pts, False
 
     def feature_scales(self) -> list[tuple[float, float]]:
         """(position, length scale) pairs: the grid must resolve ``scale`` around ``position``."""
