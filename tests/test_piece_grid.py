@@ -213,3 +213,19 @@ def test_zero_energy_march_reads_the_potentials_own_values(d):
         assert np.array_equal(v, pot.value(mid))
     assert np.array_equal(m, pot.mass_at(mid))
 
+
+
+@pytest.mark.parametrize("d", STRUCTURES)
+def test_box_samples_from_tables_are_the_potentials_own_values(d):
+    """The provisional box's V and m (its range and binding floor, fdsolver.boundstates.problem) read from the
+    piece tables: the potential's own values at the middle of every piece of the box."""
+    from fdsolver.boundstates import problem
+
+    case = fdsolver.case_from_dict(d)
+    pot = case.potential
+    box = problem.plan(pot, case.domain, case.settings).box
+    vs, ms, dx = problem._box_samples(pot, box)
+    xs, widths = pot.pieces(box[0], box[1])
+    assert vs is pot.piece_table[1]  # the tables are read
+    assert np.array_equal(vs, pot.value(xs)) and np.array_equal(ms, pot.mass_at(xs))
+    assert np.array_equal(dx, widths)

@@ -110,9 +110,9 @@ class Problem:
         return self._count[0]
 
 
-def binding_floor(potential, threshold: float, xs: np.ndarray, vs: np.ndarray, dx: np.ndarray) -> float:
-    """An energy no bound state lies below (absolute, case energy unit), from V sampled at ``xs`` (``vs``) with
-    cell widths ``dx`` over the box.
+def binding_floor(potential, threshold: float, ms: np.ndarray, vs: np.ndarray, dx: np.ndarray) -> float:
+    """An energy no bound state lies below (absolute, case energy unit), from V and m sampled over the box
+    (``vs``, ``ms``) with cell widths ``dx``.
 
     On the line, every bound state of -d/dx (C/m) d/dx + V with V -> c at infinity obeys
     |E - c| <= (m_max / 4C) (int (c - V)_+ dx)^2: the case gamma = 1/2 of the Lieb-Thirring inequalities, whose
@@ -122,13 +122,13 @@ def binding_floor(potential, threshold: float, xs: np.ndarray, vs: np.ndarray, d
     so between walls it holds with c the potential's asymptotic level, where that is finite.  The floor is the
     higher of this and the lowest V: for a well much narrower than its decay length (a thin deep layer) it
     is far above the bottom of the well.  The integral is exact for a V constant between its features
-    (``xs`` their pieces), a midpoint sum otherwise.  Point terms are not included.
+    (sampled once per piece), a midpoint sum otherwise.  Point terms are not included.
     """
     lowest = float(np.min(vs)) if vs.size else math.inf
     level = threshold if math.isfinite(threshold) else min(potential.asymptote(-1), potential.asymptote(1))
     if not (math.isfinite(level) and vs.size):
         return lowest
-    m_max = max(float(np.max(potential.mass_at(xs))), potential.mass)
+    m_max = max(float(np.max(ms)), potential.mass)
     area = float(np.sum(np.maximum(level - vs, 0.0) * dx))
     return max(lowest, level - m_max * area * area / (4.0 * potential.hbar2_2me))
 
@@ -174,15 +174,27 @@ def _box_facts(potential, domain: Domain, budget: float) -> tuple:
     CaseError where V is not finite in the box."""
     threshold = continuum_threshold(potential, domain)
     box = provisional_box(potential, domain, threshold, budget)
+    vs, ms, dx = _box_samples(potential, box)
+    if not np.all(np.isfinite(vs)):
+        raise CaseError("the potential is not finite everywhere in the box; check its expression or table, "
+                        "or set [domain] left/right", key="potential")
+    return (threshold, box, float(np.min(vs)), float(np.max(vs)), binding_floor(potential, threshold, ms, vs, dx),
+            length_scale(potential), potential.mirror_center(box[0], box[1]))
+
+
+def _box_samples(potential, box) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(V, m, width) of the samples of the box that :func:`_box_facts` reads V's range and the binding floor from:
+    for a V constant between its features the middle of every piece of the box, exact however thin a piece is
+    (read from the piece tables, :attr:`~fdsolver.model.potential.Potential.piece_table`, where the box holds
+    every feature inside it, so that its pieces are the tables' own and every middle lies inside its piece);
+    otherwise :data:`RANGE_SAMPLES` even points, the ends left out."""
     if potential.piecewise_constant:  # exact: every piece once, however thin
+        table = getattr(potential, "piece_table", None)
         xs, dx = potential.pieces(box[0], box[1])
+        if table is not None and table[0].size and box[0] < xs[0] < table[0][0] and table[0][-1] < xs[-1] < box[1]:
+            return table[1], table[2], dx
     else:
         xs = np.linspace(box[0], box[1], RANGE_SAMPLES)[1:-1]
         dx = np.full(xs.size, (box[1] - box[0]) / (RANGE_SAMPLES - 1))
     with np.errstate(all="ignore"):
-        vs = potential.value(xs)
-    if not np.all(np.isfinite(vs)):
-        raise CaseError("the potential is not finite everywhere in the box; check its expression or table, "
-                        "or set [domain] left/right", key="potential")
-    return (threshold, box, float(np.min(vs)), float(np.max(vs)), binding_floor(potential, threshold, xs, vs, dx),
-            length_scale(potential), potential.mirror_center(box[0], box[1]))
+        return potential.value(xs), potential.mass_at(xs), dx

@@ -153,7 +153,9 @@ def spacing_function(potential, e_lo: float, e_hi: float, gs: GridSettings, deep
     # where V - E exceeds 25 times the energy range the states are negligible (decay 5x faster than
     # anywhere they live), so the wave number requirement is capped there
     r2_cap = 25.0 * potential.mass * abs(e_hi - e_lo) / c if math.isfinite(e_hi - e_lo) and e_hi != e_lo else np.inf
-    key = ("grid cones", float(gs.feature_fraction), float(gs.wave_fraction), float(gs.growth))
+    # the wave fraction sizes only the point terms' cones: without them, one set of tables serves every fraction
+    wave = float(gs.wave_fraction) if potential.point_scales() else None
+    key = ("grid cones", float(gs.feature_fraction), wave, float(gs.growth))
     m_max, apex, left, right = remembered(potential, key, lambda: _cones(potential, gs))
     lo_s, hi_s = potential.support()
     reach = math.inf if deep_reach is None else float(deep_reach)
