@@ -3,13 +3,16 @@
 See :mod:`fdsolver.expressions` for what is evaluated and how."""
 
 from __future__ import annotations
+
 import ast
-import difflib
 import functools
 import math
 from collections.abc import Iterable
 from typing import Callable, NamedTuple
+
 import numpy as np
+
+from fdsolver.errors import did_you_mean
 
 
 def _special(name: str):
@@ -156,9 +159,9 @@ def _show(text: str, limit: int = 60) -> str:
 def _suggest(name: str, candidates: Iterable[str]) -> str:
     """Return ``"; did you mean 'x'?"`` or a short list of known names."""
     pool = sorted(str(c) for c in candidates)
-    close = difflib.get_close_matches(name, pool, n=1)
-    if close:
-        return f"; did you mean '{close[0]}'?"
+    hint = did_you_mean(name, pool)
+    if hint:
+        return hint
     if not pool:
         return "; no names are defined here"
     shown = ", ".join(pool[:12]) + (", ..." if len(pool) > 12 else "")

@@ -5,16 +5,16 @@ Every refusal is raised through the caller's ``fail`` callback as a one-line
 :class:`fdsolver.errors.CaseError`."""
 
 from __future__ import annotations
+
 import ast
-import difflib
 import math
 import string
 from typing import Any, Callable, cast
+
 import numpy as np
+
+from fdsolver.errors import did_you_mean
 from fdsolver.input._expressions.grammar import (  # noqa: F401
-    CONSTANT_NAMES,
-    MAX_DEPTH,
-    MAX_DIGITS,
     _ALLOWED_HINT,
     _APPLY,
     _BINARY,
@@ -27,6 +27,9 @@ from fdsolver.input._expressions.grammar import (  # noqa: F401
     _REFUSED_NODES,
     _REFUSED_UNARY,
     _UNARY,
+    CONSTANT_NAMES,
+    MAX_DEPTH,
+    MAX_DIGITS,
     _show,
     _suggest,
 )
@@ -149,13 +152,8 @@ def _check_call(node: ast.Call, text: str, fail) -> None:
         raise fail(f"name '{ident}'{where} starts with '_'; such names are not allowed")
     spec = _FUNCTIONS.get(ident)
     if spec is None:
-        close = difflib.get_close_matches(ident, sorted(_FUNCTIONS), n=1)
-        hint = (
-            f"did you mean '{close[0]}'?"
-            if close
-            else f"known functions: {', '.join(sorted(_FUNCTIONS))}"
-        )
-        raise fail(f"unknown function '{ident}'{where}; {hint}")
+        hint = did_you_mean(ident, sorted(_FUNCTIONS)) or f"; known functions: {', '.join(sorted(_FUNCTIONS))}"
+        raise fail(f"unknown function '{ident}'{where}{hint}")
     if node.keywords:
         raise fail(f"keyword arguments are not allowed{where}; give arguments by position")
     if any(isinstance(arg, ast.Starred) for arg in node.args):
