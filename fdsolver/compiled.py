@@ -97,16 +97,28 @@ def _lean_cache_loads(dispatcher) -> bool:
     their modules (:func:`_helper_environments`); a module it does import to rebuild an environment (one of
     another package) is imported with scipy.linalg hidden (:func:`_without_scipy_linalg`).
     Where the kernel is not in the cache, numba compiles it, and its compiler refreshes the context itself,
-    after the same import (:func:`_load_numpy_typing_without_scipy_linalg`).  Only this dispatcher's cache is
-    changed (other numba users in the process keep numba's own).  False, and nothing changed, where numba's
-    cache does not have the two methods this relies on (another numba version).
+    after the same import (:func:`_load_numpy_typing_without_scipy_linalg`).
+
+    Before a dispatcher's first call numba also runs the ``numba_extensions`` entry points of the installed
+    packages (``numba.core.entrypoints.init_all``, once per process), which reads the metadata of every
+    installed distribution: 28-41 ms of CPU with the 80 packages of the development environment (measured:
+    DEVELOPERS.md, session 18), more with more packages.  Extensions add types and functions for numba to
+    compile with; a load from the cache compiles nothing, and fdsolver's kernels take only numpy arrays and
+    numbers.  So this dispatcher runs them only where it must compile (the cache has no kernel for the call),
+    before numba's compiler starts; numba still runs them before the first compile of any other dispatcher.
+
+    Only this dispatcher is changed (other numba users in the process keep numba's own cache and hook).  False,
+    and nothing changed, where numba's cache or dispatcher does not have the methods this relies on (another
+    numba version).
     """
+    from numba.core import entrypoints
     from numba.core.runtime import rtsys
 
     cache = getattr(dispatcher, "_cache", None)
     load = getattr(cache, "_load_overload", None)
     guard = getattr(cache, "_guard_against_spurious_io_errors", None)
-    if load is None or guard is None:
+    if load is None or guard is None or not callable(getattr(dispatcher, "_compilation_chain_init_hook", None)) \
+            or not callable(getattr(entrypoints, "init_all", None)):
         return False
 
     def load_overload(sig, target_context):
@@ -114,12 +126,18 @@ def _lean_cache_loads(dispatcher) -> bool:
         found = None
         with _without_scipy_linalg(), _deferred_linking(target_context.codegen()), _helper_environments(), guard():
             found = load(sig, target_context)  # the guard swallows an error of the cache files
-        if found is None:  # numba compiles it next
+        if found is None:  # numba compiles it next: with the extensions, after the same import
+            entrypoints.init_all()
             _load_numpy_typing_without_scipy_linalg()
         return found
 
     cache.load_overload = load_overload
+    dispatcher._compilation_chain_init_hook = _nothing  # the extensions wait for a compile (above)
     return True
+
+
+def _nothing() -> None:
+    """Does nothing: a dispatcher's hook before its first call, where the extensions wait for a compile."""
 
 
 def _deferred_linking(codegen):

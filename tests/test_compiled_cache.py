@@ -239,3 +239,38 @@ def test_kernels_loaded_without_numbas_array_module_run_and_raise_as_compiled(tm
     assert loaded[:3] == compiled[:3] and loaded[4:] == compiled[4:]
     assert loaded[0] == [2.0, 2.0, 2.0] and "negative" in loaded[1] and loaded[2]  # numpy: np.empty(-1) fails
     assert loaded[4:] == [6, True, [5.0, 5.0]]
+
+
+USE_KERNELS_EXTENSIONS = '''
+import json
+import numba
+from numba.core import entrypoints
+import scratch_kernels as k
+report = [k.filled(2, 3.0).tolist(), entrypoints._already_initialized]
+
+@numba.njit
+def later(n):
+    return n + 1
+
+report += [later(1), entrypoints._already_initialized]
+print("RESULT " + json.dumps(report))
+'''
+
+
+def test_numba_extensions_wait_for_a_compile(tmp_path):
+    """numba runs the ``numba_extensions`` entry points of the installed packages before a dispatcher's first
+    call; fdsolver's kernels run them only where they must compile (fdsolver/compiled.py,
+    ``_lean_cache_loads``).  A fresh process that compiles the kernels has run them; one that loads the kernels
+    from the cache has not, and gets the same values; a numba compile afterwards runs them as numba does."""
+    (tmp_path / "scratch_kernels.py").write_text(KERNELS)
+    env = {k: v for k, v in os.environ.items() if k != "NUMBA_CACHE_DIR"}
+    env["XDG_CACHE_HOME"] = str(tmp_path / "cache")
+    env["PYTHONPATH"] = os.pathsep.join([str(tmp_path), str(Path(fdsolver.__file__).resolve().parents[1]),
+                                         os.environ.get("PYTHONPATH", "")])
+    runs = [subprocess.run([sys.executable, "-c", USE_KERNELS_EXTENSIONS], capture_output=True, text=True, env=env,
+                           timeout=300, check=False) for _ in range(2)]
+    for proc in runs:
+        assert proc.returncode == 0, proc.stderr
+    compiled, loaded = (json.loads(proc.stdout.rsplit("RESULT ", 1)[1]) for proc in runs)
+    assert compiled == [[3.0, 3.0], True, 2, True]
+    assert loaded == [[3.0, 3.0], False, 2, True]
