@@ -4,7 +4,8 @@
 the user's cache (:func:`cache_folder`), each kernel loaded from it without numba's compile set-up, with its
 bitcode for linking parsed only if a later compile needs it and without importing the modules of numba's own
 helpers compiled into it, and numba's numpy array-math module, where a kernel needs it, imported without
-scipy.linalg (below).
+scipy.linalg (below).  numba's runtime library is compiled once and kept in the same folder, and numba's
+extension entry points are run only where a kernel must be compiled.
 Importing this module imports numba; the modules that define kernels import it, and a module that compiles a
 loop only when it is first called (a table's cubic spline) imports it then.
 """
@@ -122,7 +123,8 @@ def _lean_cache_loads(dispatcher) -> bool:
         return False
 
     def load_overload(sig, target_context):
-        rtsys.initialize(target_context)
+        with _deferred_linking(target_context.codegen()), _runtime_from_cache():
+            rtsys.initialize(target_context)  # once per process
         found = None
         with _without_scipy_linalg(), _deferred_linking(target_context.codegen()), _helper_environments(), guard():
             found = load(sig, target_context)  # the guard swallows an error of the cache files
@@ -134,6 +136,105 @@ def _lean_cache_loads(dispatcher) -> bool:
     cache.load_overload = load_overload
     dispatcher._compilation_chain_init_hook = _nothing  # the extensions wait for a compile (above)
     return True
+
+
+def _runtime_from_cache():
+    """A context in which numba's runtime library (``rtsys.initialize``: the reference counts and the memory
+    helpers every kernel that makes an array calls) is loaded from fdsolver's cache folder instead of compiled.
+
+    numba compiles that small library with LLVM in every process before its first kernel runs: 24-30 ms of CPU
+    here (measured: DEVELOPERS.md, session 18), a twentieth of a cold ``fdsolver solve``.  Here it is compiled
+    once, its machine code and bitcode kept as numba keeps a kernel's (``serialize_using_object_code``) in a file
+    of :func:`cache_folder` named for the numba, llvmlite and Python versions and the machine numba compiles for
+    (``magic_tuple``: target triple, CPU name and features), and later loaded from it as a cached kernel is
+    (:func:`_deferred_linking`).  An unreadable or stale file is compiled again and replaced.  A context that
+    changes nothing where there is no cache folder or numba lacks what this relies on.
+    """
+    from numba.core.runtime import nrtdynmod
+
+    compile_runtime = getattr(nrtdynmod, "compile_nrt_functions", None)
+    create_module = getattr(nrtdynmod, "create_nrt_module", None)
+    folder = cache_folder()
+    if compile_runtime is None or create_module is None or folder is None:
+        return contextlib.nullcontext()
+
+    def cached(ctx):
+        path = _runtime_file(folder, ctx.codegen())
+        if path is None:
+            return compile_runtime(ctx)
+        try:
+            with open(path, "rb") as f:
+                return ctx.codegen().unserialize_library(_read_state(f.read()))
+        except (OSError, ValueError, TypeError, AttributeError, RuntimeError):
+            pass  # not there yet, or not readable: compile it and keep it
+        module, library = create_module(ctx)  # numba's compile_nrt_functions, its machine code kept
+        library.enable_object_caching()
+        library.add_ir_module(module)
+        library.finalize()
+        try:
+            _write_atomically(path, _state_bytes(library.serialize_using_object_code()))
+        except (OSError, AttributeError, TypeError, ValueError, RuntimeError):
+            pass
+        return library
+
+    return _swapped(nrtdynmod, "compile_nrt_functions", cached)
+
+
+def _runtime_file(folder: str, codegen) -> str | None:
+    """The file of numba's runtime library for this numba, llvmlite, Python and machine (None where numba's
+    code generator cannot say what it compiles for)."""
+    import hashlib
+    import sys
+
+    import llvmlite
+    import numba
+
+    magic = getattr(codegen, "magic_tuple", None)
+    if magic is None:
+        return None
+    key = repr((numba.__version__, llvmlite.__version__, sys.implementation.cache_tag, magic())).encode()
+    return os.path.join(folder, f"runtime-{hashlib.sha256(key).hexdigest()[:24]}.bin")
+
+
+def _state_bytes(state) -> bytes:
+    """numba's serialized library ``(name, "object", (machine code, bitcode))`` as bytes: the name, then each
+    part, each preceded by its length (8 bytes, little-endian)."""
+    name, kind, (code, bitcode) = state
+    if kind != "object":
+        raise ValueError(kind)
+    parts = (name.encode("utf-8"), bytes(code), bytes(bitcode))
+    return b"".join(len(part).to_bytes(8, "little") + part for part in parts)
+
+
+def _read_state(data: bytes):
+    """The inverse of :func:`_state_bytes`; ValueError for anything else (the file is then compiled anew)."""
+    parts, at = [], 0
+    for _ in range(3):
+        if at + 8 > len(data):
+            raise ValueError("short runtime file")
+        size = int.from_bytes(data[at:at + 8], "little")
+        at += 8
+        if at + size > len(data):
+            raise ValueError("short runtime file")
+        parts.append(data[at:at + size])
+        at += size
+    if at != len(data):
+        raise ValueError("runtime file too long")
+    return parts[0].decode("utf-8"), "object", (parts[1], parts[2])
+
+
+def _write_atomically(path: str, data: bytes) -> None:
+    """Write ``data`` to a temporary file in ``path``'s folder and rename it over ``path`` (no reader ever sees
+    a part of it)."""
+    fd, tmp = tempfile.mkstemp(dir=os.path.dirname(path), prefix=".runtime-", suffix=".tmp")
+    try:
+        with os.fdopen(fd, "wb") as f:
+            f.write(data)
+        os.replace(tmp, path)
+    except BaseException:
+        with contextlib.suppress(OSError):
+            os.unlink(tmp)
+        raise
 
 
 def _nothing() -> None:

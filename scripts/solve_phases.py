@@ -10,7 +10,9 @@ cost some time of their own per timed call: compare the solve timed with them an
 
 ``--loads``: instead, a cold ``fdsolver solve`` of each case in a fresh process, with the CPU time of every
 compiled kernel loaded from numba's cache (``numba.core.caching.Cache._load_overload``, timed around each call)
-and of the imports before the solve.  Since session 15 fdsolver loads its kernels without numba's compile set-up
+and of the imports before the solve; since session 18 also each kernel's whole first call
+(``Dispatcher._compile_for_args``: numba's hook before it, the runtime set-up, the typing of the arguments and the
+load).  Since session 15 fdsolver loads its kernels without numba's compile set-up
 (:func:`fdsolver.compiled._lean_cache_loads`); before, the first load included it.
 
 ``--fresh``: each timed solve is of a new potential equal to the case's (as a sweep point solves one), so what a
@@ -76,6 +78,15 @@ def timed(self, sig, target_context):
         name = str(getattr(self, '_name', '?'))
         loads.append((name.split()[1] if name.startswith('<function ') else name, time.process_time() - t))
 caching.Cache._load_overload = timed
+import numba.core.dispatcher as dispatcher
+firsts, first_call = [], dispatcher.Dispatcher._compile_for_args
+def timed_first(self, *args, **kws):
+    t = time.process_time()
+    try:
+        return first_call(self, *args, **kws)
+    finally:
+        firsts.append((self.py_func.__name__, time.process_time() - t))
+dispatcher.Dispatcher._compile_for_args = timed_first
 t1 = time.process_time()
 from fdsolver.cli import main
 t2 = time.process_time()
@@ -86,9 +97,11 @@ except SystemExit:
 t3 = time.process_time()
 out = sys.stderr
 print(f"    import numba {t1 - t0:.3f} s, fdsolver's command line {t2 - t1:.3f} s, the solve command {t3 - t2:.3f} s "
-      f"(of which {len(loads)} kernels loaded from the cache {sum(t for _, t in loads):.3f} s)", file=out)
-for name, t in loads:
-    print(f"      {t * 1e3:7.1f} ms  {name}", file=out)
+      f"(of which {len(loads)} kernels loaded from the cache {sum(t for _, t in loads):.3f} s, their first calls "
+      f"{sum(t for _, t in firsts):.3f} s)", file=out)
+print("      first call   load  kernel", file=out)
+for (name, t), (_, t_first) in zip(loads, firsts):
+    print(f"      {t_first * 1e3:7.1f} ms {t * 1e3:7.1f} ms  {name}", file=out)
 """
 
 

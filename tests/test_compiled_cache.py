@@ -274,3 +274,53 @@ def test_numba_extensions_wait_for_a_compile(tmp_path):
     compiled, loaded = (json.loads(proc.stdout.rsplit("RESULT ", 1)[1]) for proc in runs)
     assert compiled == [[3.0, 3.0], True, 2, True]
     assert loaded == [[3.0, 3.0], False, 2, True]
+
+
+USE_KERNELS_RUNTIME = '''
+import json
+import numba
+import numpy as np
+from numba.core.runtime import nrtdynmod
+made = []
+real = nrtdynmod.create_nrt_module
+nrtdynmod.create_nrt_module = lambda ctx: made.append(1) or real(ctx)
+import scratch_kernels as k
+report = [k.filled(3, 2.0).tolist(), len(made)]
+
+@numba.njit
+def later(n):  # a compile after the runtime was loaded: its arrays use the runtime's reference counts
+    a = np.ones(n)
+    b = a.copy()
+    return (a + b).sum()
+
+report += [later(5), k.shifted(np.zeros(3), np.ones(2)).tolist()]
+print("RESULT " + json.dumps(report))
+'''
+
+
+def test_numbas_runtime_is_compiled_once_and_loaded_from_the_cache(tmp_path):
+    """numba's runtime library (reference counts, memory helpers) is compiled by the first process and kept in
+    fdsolver's cache folder; the next process loads it (numba's compiler never builds it), its kernels and a
+    numba compile that makes arrays give the same values (reference: the first process); an unreadable file
+    is compiled again and replaced (fdsolver/compiled.py, ``_runtime_from_cache``)."""
+    (tmp_path / "scratch_kernels.py").write_text(KERNELS)
+    env = {k: v for k, v in os.environ.items() if k != "NUMBA_CACHE_DIR"}
+    env["XDG_CACHE_HOME"] = str(tmp_path / "cache")
+    env["PYTHONPATH"] = os.pathsep.join([str(tmp_path), str(Path(fdsolver.__file__).resolve().parents[1]),
+                                         os.environ.get("PYTHONPATH", "")])
+
+    def run():
+        proc = subprocess.run([sys.executable, "-c", USE_KERNELS_RUNTIME], capture_output=True, text=True, env=env,
+                              timeout=300, check=False)
+        assert proc.returncode == 0, proc.stderr
+        return json.loads(proc.stdout.rsplit("RESULT ", 1)[1])
+
+    first = run()
+    files = list((tmp_path / "cache" / "fdsolver" / "numba").glob("runtime-*.bin"))
+    assert len(files) == 1 and files[0].stat().st_size > 0
+    second = run()
+    assert first == [[2.0, 2.0, 2.0], 1, 10.0, [0.0, 1.0, 1.0]]
+    assert second == [[2.0, 2.0, 2.0], 0, 10.0, [0.0, 1.0, 1.0]]
+    files[0].write_bytes(b"not a runtime library")
+    assert run() == first  # compiled again
+    assert files[0].stat().st_size > 100 and run() == second  # and replaced
