@@ -108,9 +108,11 @@ def _lean_cache_loads(dispatcher) -> bool:
     numbers.  So this dispatcher runs them only where it must compile (the cache has no kernel for the call),
     before numba's compiler starts; numba still runs them before the first compile of any other dispatcher.
 
-    Only this dispatcher is changed (other numba users in the process keep numba's own cache and hook).  False,
-    and nothing changed, where numba's cache or dispatcher does not have the methods this relies on (another
-    numba version).
+    The first call types its arguments without importing numpy's masked arrays (:func:`_masked_arrays_unloaded`).
+
+    Only this dispatcher is changed (other numba users in the process keep numba's own cache and hooks).
+    False, and nothing changed, where numba's cache or dispatcher does not have the methods this relies on
+    (another numba version).
     """
     from numba.core import entrypoints
     from numba.core.runtime import rtsys
@@ -119,7 +121,7 @@ def _lean_cache_loads(dispatcher) -> bool:
     load = getattr(cache, "_load_overload", None)
     guard = getattr(cache, "_guard_against_spurious_io_errors", None)
     if load is None or guard is None or not callable(getattr(dispatcher, "_compilation_chain_init_hook", None)) \
-            or not callable(getattr(entrypoints, "init_all", None)):
+            or not callable(getattr(entrypoints, "init_all", None)) or not callable(getattr(dispatcher, "typeof_pyval", None)):
         return False
 
     def load_overload(sig, target_context):
@@ -135,7 +137,42 @@ def _lean_cache_loads(dispatcher) -> bool:
 
     cache.load_overload = load_overload
     dispatcher._compilation_chain_init_hook = _nothing  # the extensions wait for a compile (above)
+    typeof = dispatcher.typeof_pyval
+
+    def typeof_pyval(val):
+        with _masked_arrays_unloaded(val):
+            return typeof(val)
+
+    dispatcher.typeof_pyval = typeof_pyval
     return True
+
+
+def _masked_arrays_unloaded(val):
+    """A context in which ``numpy.ma`` stands for a namespace whose ``MaskedArray`` nothing is an instance of,
+    while numba types the plain array ``val`` (a kernel's first call); otherwise one that changes nothing.
+
+    numba's type of an array first asks whether it is a ``numpy.ma.MaskedArray``, and numpy imports its
+    masked-array package at that first mention: 12-25 ms of CPU (measured: DEVELOPERS.md, session 18) in a
+    process that never makes a masked array.  A value whose type is exactly ``numpy.ndarray`` is no masked
+    array (that is a subclass), so the answer is the same.  Only while ``numpy.ma`` is not imported yet (then
+    no masked array exists) and no other thread runs (one of them reading ``numpy.ma`` in that instant would get
+    the stand-in); numpy imports it as usual at the next mention after the block.
+    """
+    import sys
+    import threading
+
+    np = sys.modules.get("numpy")
+    if np is None or type(val) is not np.ndarray or "numpy.ma" in sys.modules or "ma" in vars(np) \
+            or threading.active_count() > 1:
+        return contextlib.nullcontext()
+    return _swapped(np, "ma", _NoMaskedArrays)
+
+
+class _NoMaskedArrays:
+    """Stands for ``numpy.ma`` while it is not imported (:func:`_masked_arrays_unloaded`)."""
+
+    class MaskedArray:
+        """No value is an instance of this class."""
 
 
 def _runtime_from_cache():

@@ -171,25 +171,28 @@ GRADED = ('title = "erf-graded well (invented)"\nunits = "nm-meV"\nmass = 0.067\
 @pytest.mark.parametrize("text", [PAIR, BARRIERS, TABLE, GRADED, FIELD],
                          ids=["square-well pair", "double barrier on the open line", "cubic table", "erf expression",
                               "well in a field"])
-def test_a_solve_loads_no_heavy_scipy_subpackage(tmp_path, text):
+def test_a_solve_loads_no_heavy_scipy_subpackage_nor_masked_arrays(tmp_path, text):
     """numba imports scipy.linalg (about 0.25 s of CPU, measured) only to ask whether its ``np.correlate`` and
     ``np.convolve`` may call BLAS; no kernel of fdsolver calls them (fdsolver/compiled.py).  The Airy functions of a field at an
     open end are fdsolver's own (fdsolver.numerics.airy), and scipy.optimize (a bound state's root on the open line) is imported where it is called; erf and
     erfc in an expression are compiled loops of their own (fdsolver.input._expressions.special); the cubic spline of a table and the constants of lifetimes need neither scipy.interpolate nor scipy.constants.  So
-    no solve of these structures loads any of them (0.1 to 0.4 s of CPU each, measured; DEVELOPERS.md)."""
+    no solve of these structures loads any of them (0.1 to 0.4 s of CPU each, measured; DEVELOPERS.md).  Nor
+    numpy's masked arrays (numpy.ma, 12-25 ms, measured), which numpy.unique and numba's typing of a kernel's
+    first call would import to ask whether an array is masked (fdsolver/arrays.py, fdsolver/compiled.py)."""
     case = tmp_path / "case.toml"
     case.write_text(text)
     x = np.linspace(-20.0, 20.0, 161)
     np.savetxt(tmp_path / "profile.csv", np.column_stack([x, 150.0 - 150.0 * np.exp(-(x / 4.0) ** 2) + 2.0 * x]),
                delimiter=",")
-    code = RUN_ENTRY_POINT.replace("sorted(sys.modules)", "sorted(m for m in sys.modules if m.startswith('scipy'))")
+    code = RUN_ENTRY_POINT.replace("sorted(sys.modules)",
+                                   "sorted(m for m in sys.modules if m.startswith('scipy') or m == 'numpy.ma')")
     env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(PACKAGE_PARENT), os.environ.get("PYTHONPATH", "")]))
     proc = subprocess.run([sys.executable, "-c", code, json.dumps(["solve", str(case)])], check=False,
                           capture_output=True, text=True, env=env, timeout=300)
     assert proc.returncode == 0, proc.stderr
     assert "energy [meV]" in proc.stdout  # the solve did run
     scipy_modules = json.loads(proc.stdout.rsplit("MODULES ", 1)[1])
-    heavy = [m for m in scipy_modules if ".".join(m.split(".")[:2]) in HEAVY_SCIPY]
+    heavy = [m for m in scipy_modules if ".".join(m.split(".")[:2]) in HEAVY_SCIPY or m == "numpy.ma"]
     assert not heavy, heavy
 
 

@@ -42,6 +42,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from fdsolver.arrays import sorted_distinct
 from fdsolver.bloch import roots
 from fdsolver.numerics.precision import EPS
 
@@ -95,7 +96,7 @@ class _Samples:
         self.count = 0
 
     def add(self, energies) -> np.ndarray:
-        energies = np.unique(np.atleast_1d(np.asarray(energies, dtype=float)))
+        energies = sorted_distinct(np.atleast_1d(np.asarray(energies, dtype=float)))
         idx = band_index(self.evaluate(energies))
         self.count += energies.size
         e, i = np.concatenate([self.e, energies]), np.concatenate([self.i, idx])

@@ -41,6 +41,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from fdsolver.arrays import sorted_distinct
 from fdsolver.bloch import roots
 from fdsolver.bloch.dispersion import dispersion, wavevectors
 from fdsolver.bloch.edges import EdgeSet, find_edges, with_curvature
@@ -247,7 +248,7 @@ def dos_energies(edges: BandEdges, n: int) -> np.ndarray:
         if hi > t[k]:
             d = 1e-3 * (hi - t[k]) if k + 1 < nb else 0.5 * (hi - t[k])
             parts.append(np.array([t[k] + d, 0.5 * (t[k] + hi), hi - d]) if k + 1 < nb else np.array([t[k] + d, hi]))
-    return np.unique(np.concatenate(parts))
+    return sorted_distinct(np.concatenate(parts))
 
 
 def band_edges(model, settings: BandSettings | None = None) -> BandEdges:

@@ -26,6 +26,7 @@ import math
 
 import numpy as np
 
+from fdsolver.arrays import sorted_distinct
 from fdsolver.model.potential import remembered
 
 #: samples of V over the features' span
@@ -50,7 +51,7 @@ def confined_top(potential) -> float | None:
             even = potential.piece_midpoints(lo, hi)
         else:
             even = np.linspace(lo, hi, SAMPLES)
-        xs = np.unique(np.concatenate([even, feats - d, feats + d, [lo - d, hi + d]]))
+        xs = sorted_distinct(np.concatenate([even, feats - d, feats + d, [lo - d, hi + d]]))
         with np.errstate(all="ignore"):
             v = potential.value(xs)
     if not np.all(np.isfinite(v)):

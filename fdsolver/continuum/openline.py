@@ -36,6 +36,7 @@ from dataclasses import replace
 
 import numpy as np
 
+from fdsolver.arrays import sorted_distinct
 from fdsolver.boundstates.result import Solution, home_regions
 from fdsolver.continuum.confinement import confined_top, falls
 from fdsolver.continuum.narrow import match_edge
@@ -131,7 +132,7 @@ def _subdivided(profile: Profile, x: np.ndarray) -> tuple[Profile, np.ndarray]:
     """The profile with every point of ``x`` inside it made an edge; the edge index of each point (-1 outside)."""
     cells = profile.cells
     inside = (x >= cells.edges[0]) & (x <= cells.edges[-1])
-    edges = np.unique(np.concatenate([cells.edges, x[inside]]))
+    edges = sorted_distinct(np.concatenate([cells.edges, x[inside]]))
     cell = np.clip(np.searchsorted(cells.edges, edges[:-1], side="right") - 1, 0, cells.n_cells - 1)
     v0 = cells.v0[cell] + cells.slope[cell] * (edges[:-1] - cells.edges[cell])
     jump = np.zeros(edges.size)
@@ -254,7 +255,7 @@ def _quasi_only(potential, domain, settings) -> Solution:
 def _display_grid(potential, lo: float, hi: float, points: int = GRID_POINTS) -> np.ndarray:
     """``points`` even points on [lo, hi] and every feature inside."""
     feats = np.asarray(potential.features(), dtype=float)
-    return np.unique(np.concatenate([np.linspace(lo, hi, points), feats[(feats > lo) & (feats < hi)]]))
+    return sorted_distinct(np.concatenate([np.linspace(lo, hi, points), feats[(feats > lo) & (feats < hi)]]))
 
 
 def _field_window(potential) -> tuple[float, float]:

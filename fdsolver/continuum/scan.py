@@ -22,6 +22,7 @@ from dataclasses import replace
 
 import numpy as np
 
+from fdsolver.arrays import sorted_distinct
 from fdsolver.continuum.profile import ladder
 from fdsolver.continuum.resonances import find_resonances
 from fdsolver.continuum.transmission import transmission
@@ -67,7 +68,7 @@ def transmission_scan(potential, lo: float, hi: float, *, points: int = 201, per
             grid.append(np.array([e_r]))
             notes.append(f"the resonance at {e_r:.15g} {unit} has a width 10^{l10:.1f} {unit}, below the rounding of E: "
                          "only its centre is sampled")
-    e = np.unique(np.clip(np.concatenate(grid), lo, hi))
+    e = sorted_distinct(np.clip(np.concatenate(grid), lo, hi))
     tr = transmission(potential, e, incident=incident, lad=lad)
     energies, trans = tr.energy, tr.transmission
     chunks = [tr]

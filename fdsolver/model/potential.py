@@ -15,6 +15,7 @@ from functools import cached_property
 
 import numpy as np
 
+from fdsolver.arrays import sorted_distinct
 from fdsolver.model.shapes import INF, Shape
 from fdsolver.model.stack import LayerStack
 from fdsolver.model.units import UnitSystem
@@ -179,7 +180,7 @@ class Potential:
             found.extend(shape.features())
         if self.stack is not None:
             found.extend(self.stack.interfaces.tolist())
-        pts = np.unique(np.asarray(found, dtype=float))
+        pts = sorted_distinct(np.asarray(found, dtype=float))
         if pts.size > 1:  # merge positions closer than round-off
             keep = np.concatenate([[True], np.diff(pts) > 1e-12 * max(1.0, np.max(np.abs(pts)))])
             if not keep.all():

@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from fdsolver.arrays import sorted_distinct
 from fdsolver.plot._common import figure, label, legend_outside, run_subtitle, save, title_of, units_of
 
 #: peak |psi| of every drawn wavefunction, as a fraction of the energy axis span
@@ -55,7 +56,7 @@ def exact_potential(case, lo: float, hi: float, fallback_x, fallback_v):
     feats = np.asarray(pot.features(), dtype=float)
     feats = feats[(feats > lo) & (feats < hi)]
     eps = 1e-9 * (hi - lo)
-    xs = np.unique(np.concatenate([np.linspace(lo, hi, POTENTIAL_SAMPLES), feats - eps, feats + eps]))
+    xs = sorted_distinct(np.concatenate([np.linspace(lo, hi, POTENTIAL_SAMPLES), feats - eps, feats + eps]))
     with np.errstate(all="ignore"):
         v = pot.value(xs)
     if not np.all(np.isfinite(v)):

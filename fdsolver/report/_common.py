@@ -53,7 +53,7 @@ def mass_text(ds) -> str:
     a = ds.attrs
     masses = np.atleast_1d(np.asarray(a.get("layer_masses", []), dtype=float))
     if masses.size == 0 and "mass" in ds and getattr(ds["mass"], "dims", ()) == ("x",):
-        masses = np.unique(np.asarray(ds["mass"].values, dtype=float))
+        masses = np.asarray(ds["mass"].values, dtype=float).ravel()  # only its least and largest are read
     if masses.size == 0:
         return f"{float(a.get('particle_mass', 1.0)):.6g} m_e"
     lo, hi = float(masses.min()), float(masses.max())

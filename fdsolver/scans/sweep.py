@@ -37,6 +37,7 @@ from typing import Any
 
 import numpy as np
 
+from fdsolver.arrays import sorted_distinct
 from fdsolver.errors import CaseError
 from fdsolver.limits import MAX_MEMORY_MB, MAX_SWEEP_POINTS
 from fdsolver.scans.axes import Axis, OnAxes, declared_units, parse_axes
@@ -222,16 +223,16 @@ def _covering_grid(case, axes, fixed, n_x: int, spans) -> np.ndarray:
         lo, hi = min(s[0] for s in spans), max(s[1] for s in spans)
         pad = 0.5 * (hi - lo) if hi > lo else 1.0
         return np.linspace(lo - pad, hi + pad, n_x)
-    union = np.unique(np.concatenate(nodes))
+    union = sorted_distinct(np.concatenate(nodes))
     grid = np.quantile(union, np.linspace(0.0, 1.0, n_x))
-    return np.unique(grid) if np.unique(grid).size == n_x else np.linspace(union[0], union[-1], n_x)
+    return sorted_distinct(grid) if sorted_distinct(grid).size == n_x else np.linspace(union[0], union[-1], n_x)
 
 
 # --------------------------------------------------------------- points
 def solve_points(spec: SweepSpec, base, indices) -> dict:
     """Solve the points ``indices`` of ``spec`` (``base``: its case); compact arrays, one row per state found."""
-    from fdsolver.runs import solve_case
     from fdsolver.optics.solved import transitions_of
+    from fdsolver.runs import solve_case
 
     n = len(indices)
     psi_x = spec.psi_x if spec.save_psi and spec.psi_x is not None else np.zeros(0)

@@ -35,6 +35,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from fdsolver.arrays import sorted_distinct
 from fdsolver.errors import CaseError
 from fdsolver.model import shapes as S
 from fdsolver.model.potential import Potential
@@ -150,7 +151,7 @@ def run_scatter_check(case, shape: str, widths, tolerance: float, energies, prog
     er0, g0 = np.asarray(res0.energy, float)[keep], np.asarray(res0.width, float)[keep]
     if not n:  # without a count: the even grid plus RESONANCE_POINTS across every resonance (E_r +- 3 Gamma)
         extra = [r + g * np.linspace(-3.0, 3.0, RESONANCE_POINTS) for r, g in zip(er0, g0) if g > 0]
-        e = np.unique(np.concatenate([e] + extra))
+        e = sorted_distinct(np.concatenate([e] + extra))
         e = e[(e >= lo) & (e <= hi) & (e > (v_in if math.isfinite(v_in) else -math.inf))]
     if plain:
         t0 = point_transmission(xs, alphas, e, mass=pot.mass, hbar2_2me=c).transmission
