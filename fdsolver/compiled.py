@@ -65,7 +65,7 @@ def _jit():
     (A thread of the same process decorating its own cached function in that instant would put its cache
     in fdsolver's folder; nothing else changes for it.)
     """
-    import numba
+    numba = _import_numba()
     from numba.core import config
 
     decorate = numba.njit(cache=True, nogil=True)
@@ -84,6 +84,52 @@ def _jit():
         return dispatcher
 
     return njit
+
+
+def _import_numba():
+    """``import numba``, with PyYAML imported only when numba reads a configuration file with it.
+
+    numba's configuration imports PyYAML at numba's import, to read a ``.numba_config.yaml`` in the working
+    folder should there be one (when numba is imported and at every compile): 8-14 ms of CPU (measured:
+    DEVELOPERS.md, session 18) in a process that has no such file.  Here numba is imported with PyYAML
+    hidden (:func:`fdsolver.absent.absent`), and then told what its own import would have found: PyYAML is
+    there if it is installed, as a stand-in that imports it at the first use (:class:`_ImportedOnUse`).  So a
+    configuration file is read as numba reads it, PyYAML imported then.  Only where numba and PyYAML are not
+    imported yet, the working folder has no such file (numba reads it as it is imported) and no other thread
+    runs (one importing PyYAML in that instant would be refused); otherwise a plain import.
+    """
+    import importlib.util
+    import sys
+    import threading
+
+    if "numba" in sys.modules or "yaml" in sys.modules or threading.active_count() > 1 \
+            or os.path.isfile(".numba_config.yaml"):  # numba reads it as it is imported: with PyYAML
+        import numba
+
+        return numba
+    from fdsolver.absent import absent
+
+    installed = importlib.util.find_spec("yaml") is not None
+    with absent("yaml"):
+        import numba
+    from numba.core import config
+
+    if installed and getattr(config, "_HAVE_YAML", True) is False and not hasattr(config, "yaml"):
+        config.yaml = _ImportedOnUse("yaml")
+        config._HAVE_YAML = True
+    return numba
+
+
+class _ImportedOnUse:
+    """A module imported at the first attribute read (:func:`_import_numba`)."""
+
+    def __init__(self, name: str):
+        self._name = name
+
+    def __getattr__(self, attr):
+        import importlib
+
+        return getattr(importlib.import_module(self._name), attr)
 
 
 def _lean_cache_loads(dispatcher) -> bool:

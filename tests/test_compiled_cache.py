@@ -324,3 +324,33 @@ def test_numbas_runtime_is_compiled_once_and_loaded_from_the_cache(tmp_path):
     files[0].write_bytes(b"not a runtime library")
     assert run() == first  # compiled again
     assert files[0].stat().st_size > 100 and run() == second  # and replaced
+
+
+READ_NUMBA_CONFIG = '''
+import json, sys
+from fdsolver.numerics import kernels
+from numba.core import config
+before = "yaml" in sys.modules
+print("RESULT " + json.dumps([before, int(config.OPT), config._HAVE_YAML, config.yaml.safe_load("a: 1")]))
+'''
+
+
+@pytest.mark.parametrize("with_file", [False, True], ids=["no config file", "a config file"])
+def test_numba_reads_its_config_file_as_before(tmp_path, with_file):
+    """fdsolver imports numba with PyYAML deferred (fdsolver/compiled.py, ``_import_numba``): with no
+    ``.numba_config.yaml`` in the working folder PyYAML is not imported, yet numba knows it is there and gets it
+    at the first use; with one, numba reads it as it is imported (its ``opt: '2'`` sets the optimisation level,
+    3 by default)."""
+    import importlib.util
+
+    assert importlib.util.find_spec("yaml") is not None  # PyYAML is installed here, else the check proves nothing
+    if with_file:
+        (tmp_path / ".numba_config.yaml").write_text("opt: '2'\n")
+    env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(Path(fdsolver.__file__).resolve().parents[1]),
+                                                        os.environ.get("PYTHONPATH", "")]))
+    env.pop("NUMBA_OPT", None)
+    proc = subprocess.run([sys.executable, "-W", "error", "-c", READ_NUMBA_CONFIG], capture_output=True, text=True,
+                          env=env, cwd=tmp_path, timeout=300, check=False)
+    assert proc.returncode == 0, proc.stderr
+    report = json.loads(proc.stdout.rsplit("RESULT ", 1)[1])
+    assert report == ([True, 2, True, {"a": 1}] if with_file else [False, 3, True, {"a": 1}])

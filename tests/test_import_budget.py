@@ -178,21 +178,22 @@ def test_a_solve_loads_no_heavy_scipy_subpackage_nor_masked_arrays(tmp_path, tex
     erfc in an expression are compiled loops of their own (fdsolver.input._expressions.special); the cubic spline of a table and the constants of lifetimes need neither scipy.interpolate nor scipy.constants.  So
     no solve of these structures loads any of them (0.1 to 0.4 s of CPU each, measured; DEVELOPERS.md).  Nor
     numpy's masked arrays (numpy.ma, 12-25 ms, measured), which numpy.unique and numba's typing of a kernel's
-    first call would import to ask whether an array is masked (fdsolver/arrays.py, fdsolver/compiled.py)."""
+    first call would import to ask whether an array is masked (fdsolver/arrays.py, fdsolver/compiled.py), nor
+    PyYAML (8-14 ms, measured), which numba imports to read a configuration file there is none of."""
     case = tmp_path / "case.toml"
     case.write_text(text)
     x = np.linspace(-20.0, 20.0, 161)
     np.savetxt(tmp_path / "profile.csv", np.column_stack([x, 150.0 - 150.0 * np.exp(-(x / 4.0) ** 2) + 2.0 * x]),
                delimiter=",")
     code = RUN_ENTRY_POINT.replace("sorted(sys.modules)",
-                                   "sorted(m for m in sys.modules if m.startswith('scipy') or m == 'numpy.ma')")
+                                   "sorted(m for m in sys.modules if m.startswith('scipy') or m in ('numpy.ma', 'yaml'))")
     env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(PACKAGE_PARENT), os.environ.get("PYTHONPATH", "")]))
     proc = subprocess.run([sys.executable, "-c", code, json.dumps(["solve", str(case)])], check=False,
                           capture_output=True, text=True, env=env, timeout=300)
     assert proc.returncode == 0, proc.stderr
     assert "energy [meV]" in proc.stdout  # the solve did run
     scipy_modules = json.loads(proc.stdout.rsplit("MODULES ", 1)[1])
-    heavy = [m for m in scipy_modules if ".".join(m.split(".")[:2]) in HEAVY_SCIPY or m == "numpy.ma"]
+    heavy = [m for m in scipy_modules if ".".join(m.split(".")[:2]) in HEAVY_SCIPY or m in ("numpy.ma", "yaml")]
     assert not heavy, heavy
 
 
