@@ -338,6 +338,10 @@ class Potential:
         if self._piecewise_constant:
             # V and m are constant between the features, which mirror each other: one sample in the middle of
             # every piece of the right half decides exactly
+            table = self.piece_table
+            if table is not None and feats.size and np.array_equal(mirrored, feats) \
+                    and feats[-1] < 0.5 * (feats[-1] + x0 + half) < x0 + half:
+                return self._table_mirrors(x0, table)
             return self._mirrors(x0, self.piece_midpoints(x0, x0 + half) - x0)
         # dense samples where the potential varies (the features' extent plus a few length scales), sparse beyond
         scales = [s for _, s in self.feature_scales() if math.isfinite(s)]
@@ -354,6 +358,22 @@ class Potential:
             pos, size = (np.array(v, dtype=float) for v in zip(*near))
             s = np.concatenate([s, np.abs((pos[:, None] + size[:, None] * _ACROSS_FEATURE[None, :]).ravel())])
         return self._mirrors(x0, s)
+
+    def _table_mirrors(self, x0: float, table) -> float | None:
+        """:meth:`_mirrors` of the middles of the right half's pieces, read from the piece tables, where the
+        features mirror each other exactly and the box reaches past the last of them: then the middle of every
+        piece of the right half and its mirror image lie inside a piece and its mirror piece (piece k and piece
+        K - k of the K + 1), every piece is one of the two, and the test compares V and m of every piece with
+        its mirror piece's, as the samples do; the same numbers, so the same answer."""
+        v, m = table[1], table[2]
+        if not np.all(np.isfinite(v)):
+            return None
+        span = max(np.ptp(v), 1e-300)
+        if np.max(np.abs(v - v[::-1])) > 1e-10 * span:
+            return None
+        if np.max(np.abs(m - m[::-1])) > 1e-12:
+            return None
+        return float(x0)
 
     def _mirrors(self, x0: float, s: np.ndarray) -> float | None:
         """x0 if V (to 1e-10 of its range over the samples) and m agree at x0 - s and x0 + s, else None."""
