@@ -32,7 +32,8 @@ Calibration: the machine's cost of one Sturm count per grid node (fdsolver.numer
    compiled kernels per solve (from one profiled pass of the same solves: the time inside each numba entry point
    called from Python) and its ratio to the lean estimate: what the solve would cost with no interpreter work at
    all, so the two ratios separate the algorithm's compiled cost from the Python around it; and the CPU of a
-   solve of a new potential equal to the case's (a sweep point's cost: nothing remembered).  A periodic bundled
+   solve of a new potential equal to the case's (a sweep point's cost: nothing remembered), with (since session
+   18) its ratio to the lean estimate.  A periodic bundled
    case has Bloch bands, not bound states: its warm band study is timed (no node-state ratio: the cell method
    does not count nodes and states that way).
 3. many states (skipped with --quick; alone with --many-states): 10, 50, 200, 1000 states of a 1000 nm wide, 6000 meV deep well
@@ -291,7 +292,7 @@ def per_solve(repeat: int, sturm_ns: float) -> None:
           f"least, {sturm_ns:.2f}, as each CPU min is the least of its rounds")
     print(f"   {'case':<22} {'states':>6} {'levels':>6} {'node-states':>11} {'CPU min [ms]':>12} {'median':>7} "
           f"{'wall med':>8} {'Sturm [ms]':>10} {'ratio':>6} {'to lean':>7} {'kernels [ms]':>12} {'to lean':>7} "
-          f"{'fresh [ms]':>9}")
+          f"{'fresh [ms]':>9} {'to lean':>7}")
     for path, case, sol, cpu, wall in warm:
         count = len(cpu) // WARM_ROUNDS
         fresh = iter([fresh_potential(case) for _ in range(count)])  # made before the clock runs
@@ -303,13 +304,14 @@ def per_solve(repeat: int, sturm_ns: float) -> None:
         print(f"   {path.stem:<22} {sol.energy.size:6d} {len(sol.level_sizes):6d} {node_states:11d} "
               f"{min(cpu) * 1e3:12.2f} {statistics.median(cpu) * 1e3:7.2f} {statistics.median(wall) * 1e3:8.2f} "
               f"{sturm * 1e3:10.3f} {min(cpu) / sturm:6.1f} {min(cpu) / lean:7.1f} {inside * 1e3:12.2f} "
-              f"{inside / lean:7.1f} {min(fresh_cpu) * 1e3:9.2f}")
+              f"{inside / lean:7.1f} {min(fresh_cpu) * 1e3:9.2f} {min(fresh_cpu) / lean:7.1f}")
     print("   Sturm = node-states x Sturm ns per node; ratio = measured / Sturm; to lean = measured / (node-states x "
           f"{LEAN_PER_STURM:g} x Sturm ns per node), the lean estimate of one inverse iteration and one Rayleigh")
     print("   quotient per node-state (30 ns where a Sturm count costs 8 ns per node); kernels = CPU inside the "
           "compiled kernels per solve (profiled pass), and its ratio to the lean estimate.")
     print("   fresh = min CPU of a solve of a new potential equal to the case's (nothing a potential remembers, such as")
-    print("   its mirror test, carried over from the solve before), as a sweep point solves one.")
+    print("   its mirror test, carried over from the solve before), as a sweep point solves one, and its ratio to the "
+          "lean estimate.")
     print("   Target for the double wells: within 5 times of the lean estimate, about 2 ms")
     if periodic:
         print("   periodic cases (Bloch bands by the cell method; no node-state estimate):")
