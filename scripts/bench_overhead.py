@@ -33,7 +33,7 @@ Calibration: the machine's cost of one Sturm count per grid node (fdsolver.numer
    called from Python) and its ratio to the lean estimate: what the solve would cost with no interpreter work at
    all, so the two ratios separate the algorithm's compiled cost from the Python around it; and the CPU of a
    solve of a new potential equal to the case's (a sweep point's cost: nothing remembered), with (since session
-   18) its ratio to the lean estimate.  A periodic bundled
+   18) its ratio to the lean estimate, timed in the same rounds (as many solves as the case's repeated ones).  A periodic bundled
    case has Bloch bands, not bound states: its warm band study is timed (no node-state ratio: the cell method
    does not count nodes and states that way).
 3. many states (skipped with --quick; alone with --many-states): 10, 50, 200, 1000 states of a 1000 nm wide, 6000 meV deep well
@@ -277,15 +277,17 @@ def per_solve(repeat: int, sturm_ns: float) -> None:
         if case.domain.periodic:
             periodic.append(case)
             continue
-        warm.append((path, case, solve_case(case), [], []))  # warm: kernels loaded, grid planned once
+        warm.append((path, case, solve_case(case), [], [], []))  # warm: kernels loaded, grid planned once
     # the rounds: every case timed in each, and the calibration again after each, so that every figure and the
     # calibration sample the whole run (the machine's slow stretches last seconds)
     sturms = [sturm_ns]
     for _ in range(WARM_ROUNDS):
-        for _path, case, _sol, cpu, wall in warm:
+        for _path, case, _sol, cpu, wall, fresh_cpu in warm:
             more_cpu, more_wall = timed_enough(lambda case=case: solve_case(case), solves)
             cpu += more_cpu
             wall += more_wall
+            fresh = iter([fresh_potential(case) for _ in range(len(more_cpu))])  # made before the clock runs
+            fresh_cpu += timed_runs(lambda fresh=fresh: solve_case(next(fresh)), len(more_cpu))[0]
         sturms.append(calibrate(repeat))
     sturm_ns = min(sturms)
     print(f"   calibration in the rounds: {', '.join(f'{v:.2f}' for v in sturms)} ns per node; the ratios use the "
@@ -293,10 +295,7 @@ def per_solve(repeat: int, sturm_ns: float) -> None:
     print(f"   {'case':<22} {'states':>6} {'levels':>6} {'node-states':>11} {'CPU min [ms]':>12} {'median':>7} "
           f"{'wall med':>8} {'Sturm [ms]':>10} {'ratio':>6} {'to lean':>7} {'kernels [ms]':>12} {'to lean':>7} "
           f"{'fresh [ms]':>9} {'to lean':>7}")
-    for path, case, sol, cpu, wall in warm:
-        count = len(cpu) // WARM_ROUNDS
-        fresh = iter([fresh_potential(case) for _ in range(count)])  # made before the clock runs
-        fresh_cpu, _ = timed_runs(lambda fresh=fresh: solve_case(next(fresh)), count)
+    for path, case, sol, cpu, wall, fresh_cpu in warm:
         inside = compiled_cpu(lambda case=case: solve_case(case), solves)
         node_states = int(np.sum(sol.level_sizes)) * max(int(sol.energy.size), 1)
         sturm = node_states * sturm_ns * 1e-9  # one Sturm count per node-state
