@@ -219,22 +219,30 @@ print("RESULT " + json.dumps(report))
 '''
 
 
+def _scratch_runs(tmp_path, script: str, times: int = 2) -> list:
+    """``script`` run ``times`` times, each in a fresh process with the scratch kernels (KERNELS) importable and
+    a cache folder of its own in ``tmp_path`` (the first run compiles, the later ones load); each run's report."""
+    (tmp_path / "scratch_kernels.py").write_text(KERNELS)
+    env = {k: v for k, v in os.environ.items() if k != "NUMBA_CACHE_DIR"}
+    env["XDG_CACHE_HOME"] = str(tmp_path / "cache")
+    env["PYTHONPATH"] = os.pathsep.join([str(tmp_path), str(Path(fdsolver.__file__).resolve().parents[1]),
+                                         os.environ.get("PYTHONPATH", "")])
+    reports = []
+    for _ in range(times):
+        proc = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, env=env, timeout=300,
+                              check=False)
+        assert proc.returncode == 0, proc.stderr
+        reports.append(json.loads(proc.stdout.rsplit("RESULT ", 1)[1]))
+    return reports
+
+
 def test_kernels_loaded_without_numbas_array_module_run_and_raise_as_compiled(tmp_path):
     """Two small kernels made with fdsolver's ``njit``, in a fresh process that compiles them and in one that
     loads them from the cache: the loading process does not import ``numba.np.arrayobj`` (its helpers'
     environments are rebuilt without it: fdsolver/compiled.py, ``_helper_environments``), and gets the same
     values and the same errors, a negative size and a shape mismatch (reference: the compiling process), and a
     compile afterwards works and imports that module as usual."""
-    (tmp_path / "scratch_kernels.py").write_text(KERNELS)
-    env = {k: v for k, v in os.environ.items() if k != "NUMBA_CACHE_DIR"}
-    env["XDG_CACHE_HOME"] = str(tmp_path / "cache")
-    env["PYTHONPATH"] = os.pathsep.join([str(tmp_path), str(Path(fdsolver.__file__).resolve().parents[1]),
-                                         os.environ.get("PYTHONPATH", "")])
-    runs = [subprocess.run([sys.executable, "-c", USE_KERNELS], capture_output=True, text=True, env=env,
-                           timeout=300, check=False) for _ in range(2)]
-    for proc in runs:
-        assert proc.returncode == 0, proc.stderr
-    compiled, loaded = (json.loads(proc.stdout.rsplit("RESULT ", 1)[1]) for proc in runs)
+    compiled, loaded = _scratch_runs(tmp_path, USE_KERNELS)
     assert compiled[3] is True and loaded[3] is False  # the compiling process imports it; the loading one not
     assert loaded[:3] == compiled[:3] and loaded[4:] == compiled[4:]
     assert loaded[0] == [2.0, 2.0, 2.0] and "negative" in loaded[1] and loaded[2]  # numpy: np.empty(-1) fails
@@ -262,16 +270,7 @@ def test_numba_extensions_wait_for_a_compile(tmp_path):
     call; fdsolver's kernels run them only where they must compile (fdsolver/compiled.py,
     ``_lean_cache_loads``).  A fresh process that compiles the kernels has run them; one that loads the kernels
     from the cache has not, and gets the same values; a numba compile afterwards runs them as numba does."""
-    (tmp_path / "scratch_kernels.py").write_text(KERNELS)
-    env = {k: v for k, v in os.environ.items() if k != "NUMBA_CACHE_DIR"}
-    env["XDG_CACHE_HOME"] = str(tmp_path / "cache")
-    env["PYTHONPATH"] = os.pathsep.join([str(tmp_path), str(Path(fdsolver.__file__).resolve().parents[1]),
-                                         os.environ.get("PYTHONPATH", "")])
-    runs = [subprocess.run([sys.executable, "-c", USE_KERNELS_EXTENSIONS], capture_output=True, text=True, env=env,
-                           timeout=300, check=False) for _ in range(2)]
-    for proc in runs:
-        assert proc.returncode == 0, proc.stderr
-    compiled, loaded = (json.loads(proc.stdout.rsplit("RESULT ", 1)[1]) for proc in runs)
+    compiled, loaded = _scratch_runs(tmp_path, USE_KERNELS_EXTENSIONS)
     assert compiled == [[3.0, 3.0], True, 2, True]
     assert loaded == [[3.0, 3.0], False, 2, True]
 
@@ -303,17 +302,9 @@ def test_numbas_runtime_is_compiled_once_and_loaded_from_the_cache(tmp_path):
     fdsolver's cache folder; the next process loads it (numba's compiler never builds it), its kernels and a
     numba compile that makes arrays give the same values (reference: the first process); an unreadable file
     is compiled again and replaced (fdsolver/compiled.py, ``_runtime_from_cache``)."""
-    (tmp_path / "scratch_kernels.py").write_text(KERNELS)
-    env = {k: v for k, v in os.environ.items() if k != "NUMBA_CACHE_DIR"}
-    env["XDG_CACHE_HOME"] = str(tmp_path / "cache")
-    env["PYTHONPATH"] = os.pathsep.join([str(tmp_path), str(Path(fdsolver.__file__).resolve().parents[1]),
-                                         os.environ.get("PYTHONPATH", "")])
 
     def run():
-        proc = subprocess.run([sys.executable, "-c", USE_KERNELS_RUNTIME], capture_output=True, text=True, env=env,
-                              timeout=300, check=False)
-        assert proc.returncode == 0, proc.stderr
-        return json.loads(proc.stdout.rsplit("RESULT ", 1)[1])
+        return _scratch_runs(tmp_path, USE_KERNELS_RUNTIME, times=1)[0]
 
     first = run()
     files = list((tmp_path / "cache" / "fdsolver" / "numba").glob("runtime-*.bin"))
