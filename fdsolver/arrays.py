@@ -1,7 +1,7 @@
 """Array steps every layer uses, done without the import numpy's general form makes on its first call.
 
 :func:`sorted_distinct` is ``numpy.unique`` of floats.  numpy 2's ``unique`` asks on every call whether its
-argument is a masked array, and that first question imports ``numpy.ma``: 12 to 25 ms of CPU (measured:
+argument is a masked array, and that first question imports ``numpy.ma``: 14 to 25 ms of CPU (measured:
 DEVELOPERS.md, session 18), in a solve that never makes a masked array.  (numba's typing of a kernel's first
 call asks the same question; fdsolver's kernels ask it without the import: :mod:`fdsolver.compiled`.)
 """

@@ -90,8 +90,8 @@ def _import_numba():
     """``import numba``, with PyYAML imported only when numba reads a configuration file with it.
 
     numba's configuration imports PyYAML at numba's import, to read a ``.numba_config.yaml`` in the working
-    folder should there be one (when numba is imported and at every compile): 8-14 ms of CPU (measured:
-    DEVELOPERS.md, session 18) in a process that has no such file.  Here numba is imported with PyYAML
+    folder should there be one (when numba is imported and at every compile): 12-14 ms of CPU (measured while
+    other work ran: DEVELOPERS.md, session 18) in a process that has no such file.  Here numba is imported with PyYAML
     hidden (:func:`fdsolver.absent.absent`), and then told what its own import would have found: PyYAML is
     there if it is installed, as a stand-in that imports it at the first use (:class:`_ImportedOnUse`).  So a
     configuration file is read as numba reads it, PyYAML imported then.  Only where numba and PyYAML are not
@@ -198,7 +198,7 @@ def _masked_arrays_unloaded(val):
     while numba types the plain array ``val`` (a kernel's first call); otherwise one that changes nothing.
 
     numba's type of an array first asks whether it is a ``numpy.ma.MaskedArray``, and numpy imports its
-    masked-array package at that first mention: 12-25 ms of CPU (measured: DEVELOPERS.md, session 18) in a
+    masked-array package at that first mention: 14-25 ms of CPU (measured: DEVELOPERS.md, session 18) in a
     process that never makes a masked array.  A value whose type is exactly ``numpy.ndarray`` is no masked
     array (that is a subclass), so the answer is the same.  Only while ``numpy.ma`` is not imported yet (then
     no masked array exists) and no other thread runs (one of them reading ``numpy.ma`` in that instant would get
@@ -230,8 +230,9 @@ def _runtime_from_cache():
     once, its machine code and bitcode kept as numba keeps a kernel's (``serialize_using_object_code``) in a file
     of :func:`cache_folder` named for the numba, llvmlite and Python versions and the machine numba compiles for
     (``magic_tuple``: target triple, CPU name and features), and later loaded from it as a cached kernel is
-    (:func:`_deferred_linking`).  An unreadable or stale file is compiled again and replaced.  A context that
-    changes nothing where there is no cache folder or numba lacks what this relies on.
+    (:func:`_deferred_linking`).  An unreadable file is compiled again and replaced; another numba, llvmlite,
+    Python or machine has a file of its own.  A context that changes nothing where there is no cache folder or
+    numba lacks what this relies on.
     """
     from numba.core.runtime import nrtdynmod
 

@@ -177,9 +177,9 @@ def test_a_solve_loads_no_heavy_scipy_subpackage_nor_masked_arrays(tmp_path, tex
     open end are fdsolver's own (fdsolver.numerics.airy), and scipy.optimize (a bound state's root on the open line) is imported where it is called; erf and
     erfc in an expression are compiled loops of their own (fdsolver.input._expressions.special); the cubic spline of a table and the constants of lifetimes need neither scipy.interpolate nor scipy.constants.  So
     no solve of these structures loads any of them (0.1 to 0.4 s of CPU each, measured; DEVELOPERS.md).  Nor
-    numpy's masked arrays (numpy.ma, 12-25 ms, measured), which numpy.unique and numba's typing of a kernel's
+    numpy's masked arrays (numpy.ma, 14-25 ms, measured), which numpy.unique and numba's typing of a kernel's
     first call would import to ask whether an array is masked (fdsolver/arrays.py, fdsolver/compiled.py), nor
-    PyYAML (8-14 ms, measured), which numba imports to read a configuration file there is none of."""
+    PyYAML (12-14 ms, measured), which numba imports to read a configuration file there is none of."""
     case = tmp_path / "case.toml"
     case.write_text(text)
     x = np.linspace(-20.0, 20.0, 161)
