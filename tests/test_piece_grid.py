@@ -214,7 +214,6 @@ def test_zero_energy_march_reads_the_potentials_own_values(d):
     assert np.array_equal(m, pot.mass_at(mid))
 
 
-
 @pytest.mark.parametrize("d", STRUCTURES)
 def test_box_samples_from_tables_are_the_potentials_own_values(d):
     """The provisional box's V and m (its range and binding floor, fdsolver.boundstates.problem) read from the
