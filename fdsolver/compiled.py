@@ -238,12 +238,12 @@ def _runtime_from_cache():
 
     compile_runtime = getattr(nrtdynmod, "compile_nrt_functions", None)
     create_module = getattr(nrtdynmod, "create_nrt_module", None)
-    folder = cache_folder()
-    if compile_runtime is None or create_module is None or folder is None:
+    if compile_runtime is None or create_module is None:
         return contextlib.nullcontext()
 
-    def cached(ctx):
-        path = _runtime_file(folder, ctx.codegen())
+    def cached(ctx):  # numba calls it once per process, when it sets the runtime up
+        folder = cache_folder()
+        path = None if folder is None else _runtime_file(folder, ctx.codegen())
         if path is None:
             return compile_runtime(ctx)
         try:
