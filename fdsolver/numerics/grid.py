@@ -30,6 +30,7 @@ exactly and parities can be read off the states.
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 
@@ -108,17 +109,11 @@ def base_grid(
     return segment_nodes(bounds, xs, hs, settings.min_cells_per_segment)
 
 
-#: :func:`fdsolver.numerics.kernels.sample_offsets` of every growth rate used so far
-_OFFSETS: dict[float, np.ndarray] = {}
-
-
+@functools.lru_cache(maxsize=64)
 def _offsets(growth: float) -> np.ndarray:
-    """The sample offsets of a base grid with this growth rate, made once per value."""
-    growth = float(growth)
-    offs = _OFFSETS.get(growth)
-    if offs is None:
-        offs = _OFFSETS[growth] = sample_offsets(growth)
-    return offs
+    """The sample offsets of a base grid with this growth rate (:func:`fdsolver.numerics.kernels.sample_offsets`),
+    made once per value."""
+    return sample_offsets(float(growth))
 
 
 def _over_budget(total: float, max_nodes: int):
