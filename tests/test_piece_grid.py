@@ -264,3 +264,45 @@ def test_mirror_test_from_tables_is_the_sampled_one(monkeypatch):
     sampled = [fdsolver.case_from_dict(d).potential.mirror_center(*box) for d, box in boxes]
     assert from_tables == sampled
     assert sum(c is not None for c in from_tables) >= 10
+
+
+@pytest.mark.parametrize("d", STRUCTURES)
+def test_zero_energy_margin_in_one_call_is_the_stepwise_one(d):
+    """The open-line count's phase margin of a potential constant between its features, in one compiled call from
+    its piece tables (fdsolver.boundstates.counting._tabled_margin: the flux scale from V and m read at the
+    layout's 513 samples, the compact cells, the point terms on their edges, the march), against the stepwise
+    path (the layout from V evaluated at the samples, then the march of phase_margin): the same number to the
+    last bit, and so the same count."""
+    from fdsolver.boundstates import counting
+
+    pot = fdsolver.case_from_dict(d).potential
+    stepwise = counting.phase_margin(pot, counting.layout_for([pot]), 0)
+    fresh = fdsolver.case_from_dict(d).potential
+    one_call = counting._tabled_margin(fresh)
+    assert one_call is not None  # no sample of these structures lies next to a feature
+    assert one_call == stepwise
+    assert counting.bound_count(fdsolver.case_from_dict(d).potential) == counting.count_from_margin(
+        stepwise - counting.MARGIN_ULPS * counting.EPS * (pot.features().size + 1 + abs(stepwise) + 1.0))
+
+
+@pytest.mark.parametrize("offset", [1e-11, -1e-11])
+def test_zero_energy_margin_next_to_a_feature_is_worked_out_stepwise(offset):
+    """A layout sample within round-off reach of a feature (not on it): the tables' value there might not be the
+    potential's own, so the one-call margin declines and the count comes from the stepwise path.  Wells on [0, 1]
+    and [10, 12] (nm, meV, invented) put the samples at multiples of 12/512 nm; a third well starts 1e-11 nm
+    right or left of the sample at 43 * 12/512 nm."""
+    from fdsolver.boundstates import counting
+
+    start = 43 * 12.0 / 512
+    d = {"units": "nm-meV", "mass": 0.067, "potential": [
+        {"shape": "square", "center": 0.5, "width": 1.0, "depth": 80.0},
+        {"shape": "square", "center": 11.0, "width": 2.0, "depth": 120.0},
+        {"shape": "square", "center": 0.5 * (start + offset + 3.0), "width": 3.0 - (start + offset), "depth": 40.0}]}
+    pot = fdsolver.case_from_dict(d).potential
+    assert np.linspace(pot.features()[0], pot.features()[-1], 513)[43] == start
+    assert 0 < np.min(np.abs(pot.features() - start)) < 1e-9
+    assert counting._tabled_margin(pot) is None
+    stepwise = counting.phase_margin(pot, counting.layout_for([pot]), 0)
+    assert counting.bound_count(fdsolver.case_from_dict(d).potential) == counting.count_from_margin(
+        stepwise - counting.MARGIN_ULPS * counting.EPS * (pot.features().size + 1 + abs(stepwise) + 1.0))
+    assert counting.bound_count(pot) >= 1  # every attractive 1D well binds (B. Simon, Ann. Phys. 97, 279 (1976))

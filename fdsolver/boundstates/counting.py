@@ -38,8 +38,8 @@ import numpy as np
 
 from fdsolver.errors import CaseError
 from fdsolver.model.domain import Domain, continuum_threshold
-from fdsolver.numerics.cells import Layout, cells, make_layout
-from fdsolver.numerics.march import PI, carry, phase
+from fdsolver.numerics.cells import LAYOUT_SAMPLES, Layout, cells, make_layout, scale_of
+from fdsolver.numerics.march import margin, tabled_margin
 from fdsolver.numerics.precision import EPS
 from fdsolver.numerics.richardson import Romberg
 
@@ -90,20 +90,32 @@ def phase_margin(potential, layout: Layout | None = None, level: int = 0, vt: fl
     edges, mid, jump = cells(potential, layout, level, vt)
     v, m = _values_at(potential, layout, mid)
     k2 = m * (np.where(np.isfinite(v), v, 1e300) - vt) / potential.hbar2_2me
-    ks = layout.kscale
     u0 = _end_flux(potential, vt, -1, edges[0])
-    nodes, psi, u, _ = carry(edges, k2, m, jump, potential.hbar2_2me, ks, 1.0, u0)
-    sign = 1.0 if nodes % 2 == 0 else -1.0
-    alpha = phase(psi, u, ks, sign)
-    u_dec = _end_flux(potential, vt, 1, edges[-1]) / ks
-    theta_dec = math.atan2(1.0, u_dec)
-    # alpha - theta_dec from the cross and dot products of the two phase vectors: full relative accuracy when
-    # the two angles nearly agree (a state at its binding threshold, a very light particle)
-    p, q = sign * psi, sign * u / ks
-    delta = math.atan2(u_dec * p - q, u_dec * q + p)
-    if abs(delta - (alpha - theta_dec)) > 1e-6:  # the branch of the direct difference is the right one
-        delta = alpha - theta_dec
-    return nodes + delta / PI
+    u_end = _end_flux(potential, vt, 1, edges[-1])
+    return margin(edges, np.ascontiguousarray(k2, dtype=float), np.ascontiguousarray(m, dtype=float),
+                  np.ascontiguousarray(jump, dtype=float), potential.hbar2_2me, layout.kscale, u0, u_end)
+
+
+def _tabled_margin(potential) -> float | None:
+    """:func:`phase_margin` of ``potential`` on its own layout, in one compiled call
+    (:func:`fdsolver.numerics.march.tabled_margin`) where it keeps piece tables
+    (:attr:`~fdsolver.model.potential.Potential.piece_table`) and has features: the same number, or None (work it
+    out step by step) where it keeps none, or where a sample of the layout's flux scale falls within 1e-9 of the
+    features' span (or of the largest feature's magnitude, if that is larger) from a feature without being on it."""
+    table = getattr(potential, "piece_table", None)
+    if table is None or not table[0].size:
+        return None
+    vt = open_threshold(potential)
+    feats = table[0]
+    first, last = feats[0] - 0.0, feats[-1] + 0.0  # the compact layout's ends (no tails)
+    terms = potential.point_terms()
+    pos = np.array([p for p, _ in terms], dtype=float)
+    alpha = np.array([a for _, a in terms], dtype=float)
+    tol = 1e-9 * max(1.0, float(last - first), float(abs(first)), float(abs(last)))
+    done, phi, _ = tabled_margin(np.linspace(first, last, LAYOUT_SAMPLES), feats, *table[1:], pos, alpha, vt,
+                                 potential.hbar2_2me, scale_of(potential) ** -2, _end_flux(potential, vt, -1, first),
+                                 _end_flux(potential, vt, 1, last), tol)
+    return phi if done else None
 
 
 def _values_at(potential, layout: Layout, mid: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -137,6 +149,9 @@ def bound_count(potential, layout: Layout | None = None) -> int:
     and its error is the change.  A state within that band of its threshold
     (a zero-energy resonance, e.g. -sech^2 at lambda = 1) is not bound.
     """
+    phi = _tabled_margin(potential) if layout is None else None
+    if phi is not None:
+        return count_from_margin(phi - MARGIN_ULPS * EPS * (potential.features().size + 1 + abs(phi) + 1.0))
     layout = layout or layout_for([potential])
     if layout.compact:
         phi = phase_margin(potential, layout, level=0)

@@ -37,6 +37,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+#: samples of V and m over the span of a layout's cells, for its flux scale
+LAYOUT_SAMPLES = 513
 #: a segment gets at most this many base cells
 MAX_CELLS_PER_SEGMENT = 200_000
 #: samples per segment when sizing its cells
@@ -214,7 +216,7 @@ def make_layout(pots, e_refs) -> Layout:
             tails[0] = max(tails[0], 1.2 * tail(pot, f[0], -1, e_ref, notes))
             tails[1] = max(tails[1], 1.2 * tail(pot, f[-1], 1, e_ref, notes))
         edges = np.concatenate([[f[0] - tails[0]], f, [f[-1] + tails[1]]])
-        xs = np.linspace(edges[0], edges[-1], 513)
+        xs = np.linspace(edges[0], edges[-1], LAYOUT_SAMPLES)
         with np.errstate(all="ignore"):
             dv = np.abs(pot.value(xs) - e_ref)
         dv = dv[np.isfinite(dv)]

@@ -46,7 +46,7 @@ import math
 
 import numpy as np
 
-from fdsolver.numerics.kernels import njit
+from fdsolver.numerics.kernels import njit, piece_values, search_sorted
 
 PI = math.pi
 
@@ -172,9 +172,71 @@ def carry(edges, k2, mass, jump, c: float, kscale: float, psi: float = 1.0, u: f
     return march(edges, k2, mass, jump, float(c), float(kscale), float(psi), float(u), _NO_RECORD, _NO_RECORD)
 
 
-def phase(psi: float, u: float, kscale: float, sign: float = 1.0) -> float:
-    """Pruefer angle in [0, pi] of (psi, u / kscale), taken with the sign that makes psi >= 0."""
-    a = math.atan2(sign * psi, sign * u / kscale)
-    if a < 0.0:
-        a = 0.0 if sign * u > 0.0 else PI
-    return a
+@njit
+def margin(edges, k2, mass, jump, c, kscale, u0, u_end):
+    """The zero-energy phase margin Phi of cells ``edges`` (k2, mass and point strengths ``jump`` as for
+    :func:`march`, k2 at the continuum threshold): the solution that decays to the left (flux ``u0`` for psi = 1
+    at edges[0]) carried to edges[-1], where its Pruefer angle (taken with the sign that makes psi >= 0, of
+    (psi, u / kscale)) is compared with that of the solution decaying to the right (flux ``u_end`` for psi = 1):
+    Phi = nodes + (angle - decaying angle) / pi, the state with N nodes bound iff Phi > N
+    (:mod:`fdsolver.boundstates.counting`).  The difference is taken from the cross and dot products of the two
+    phase vectors, with full relative accuracy where the angles nearly agree (a state at its binding threshold,
+    a very light particle).  Exact per cell where k2 is constant on it; O(cells).  Dimensionless."""
+    none = np.empty(0)
+    nodes, psi, u, _ = march(edges, k2, mass, jump, c, kscale, 1.0, u0, none, none)
+    sign = 1.0 if nodes % 2 == 0 else -1.0
+    alpha = math.atan2(sign * psi, sign * u / kscale)  # the Pruefer angle in [0, pi]
+    if alpha < 0.0:
+        alpha = 0.0 if sign * u > 0.0 else PI
+    u_dec = u_end / kscale
+    theta_dec = math.atan2(1.0, u_dec)
+    p, q = sign * psi, sign * u / kscale
+    delta = math.atan2(u_dec * p - q, u_dec * q + p)
+    if abs(delta - (alpha - theta_dec)) > 1e-6:  # the branch of the direct difference is the right one
+        delta = alpha - theta_dec
+    return nodes + delta / PI
+
+
+@njit
+def tabled_margin(xs, feats, v_piece, m_piece, v_feat, m_feat, pos, alpha, vt, c, inv_scale2, u0, u_end, tol):
+    """(done, Phi, kscale) of a potential constant between its features, from its piece tables, in one call: the
+    steps of :func:`fdsolver.numerics.cells.make_layout` (the flux scale from V and m at the 513 samples ``xs``
+    of the features' span) and of :func:`fdsolver.boundstates.counting.phase_margin` on that compact layout
+    (one cell per piece between the outer features, each outer feature a cell of zero width, the point terms
+    ``alpha`` at ``pos`` on their nearest edges) with the same numbers.  V and m at a sample are read from the
+    tables (:func:`fdsolver.numerics.kernels.piece_values`): exactly the values an evaluation gives inside a
+    piece, but not within a few ulps of a feature, so where a sample lies within ``tol`` of a feature without
+    being on it, nothing is computed (done False: evaluate instead).  ``vt`` the continuum threshold (energy),
+    ``c`` = hbar^2 / 2 m_e, ``inv_scale2`` the potential's largest length to the power -2, ``u0`` and ``u_end``
+    the decaying fluxes of :func:`margin`.  O(samples log K + K)."""
+    nf = feats.shape[0]
+    for x in xs:
+        k = search_sorted(feats, x, False)  # feats[k - 1] < x <= feats[k]
+        if (k < nf and x != feats[k] and feats[k] - x <= tol) or (k > 0 and x - feats[k - 1] <= tol):
+            return False, 0.0, 0.0
+    v, m = piece_values(xs, feats, v_piece, m_piece, v_feat, m_feat)
+    vspan = 0.0
+    m_max = -math.inf
+    for i in range(xs.shape[0]):
+        dv = abs(v[i] - vt)
+        if math.isfinite(dv):
+            vspan = max(vspan, dv)
+        m_max = max(m_max, m[i])
+    kscale = c * math.sqrt(m_max * vspan / c + inv_scale2) / m_max
+    edges = np.empty(nf + 2)
+    edges[0] = feats[0] - 0.0
+    edges[1:-1] = feats
+    edges[-1] = feats[-1] + 0.0
+    jump = np.zeros(nf + 2)
+    for j in range(pos.shape[0]):  # each point term on its nearer edge (points are features: exactly on one)
+        i = min(max(search_sorted(edges, pos[j], False), 1), nf + 1)
+        if (pos[j] - edges[i - 1]) < (edges[i] - pos[j]):
+            i -= 1
+        jump[i] += alpha[j]
+    k2 = np.empty(nf + 1)
+    mass = np.empty(nf + 1)
+    for i in range(nf + 1):  # the end cells at the outer features, the pieces between them
+        vi = v_feat[0] if i == 0 else (v_feat[nf - 1] if i == nf else v_piece[i])
+        mass[i] = m_feat[0] if i == 0 else (m_feat[nf - 1] if i == nf else m_piece[i])
+        k2[i] = mass[i] * ((vi if math.isfinite(vi) else 1e300) - vt) / c
+    return True, margin(edges, k2, mass, jump, c, kscale, u0, u_end), kscale
