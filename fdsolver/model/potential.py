@@ -181,10 +181,11 @@ class Potential:
         if self.stack is not None:
             found.extend(self.stack.interfaces.tolist())
         pts = sorted_distinct(np.asarray(found, dtype=float))
-        if pts.size > 1:  # merge positions closer than round-off
-            keep = np.concatenate([[True], np.diff(pts) > 1e-12 * max(1.0, np.max(np.abs(pts)))])
-            if not keep.all():
-                return pts[keep], True
+        if pts.size > 1:  # merge positions closer than round-off (sorted and finite: the largest |p| is at an end)
+            gaps = pts[1:] - pts[:-1]
+            tol = 1e-12 * max(1.0, abs(float(pts[0])), abs(float(pts[-1])))
+            if not (gaps > tol).all():
+                return pts[np.concatenate([[True], gaps > tol])], True
         return pts, False
 
     def feature_scales(self) -> list[tuple[float, float]]:
