@@ -306,3 +306,37 @@ def test_zero_energy_margin_next_to_a_feature_is_worked_out_stepwise(offset):
     assert counting.bound_count(fdsolver.case_from_dict(d).potential) == counting.count_from_margin(
         stepwise - counting.MARGIN_ULPS * counting.EPS * (pot.features().size + 1 + abs(stepwise) + 1.0))
     assert counting.bound_count(pot) >= 1  # every attractive 1D well binds (B. Simon, Ann. Phys. 97, 279 (1976))
+
+
+@pytest.mark.parametrize("d", STRUCTURES)
+def test_decay_walks_from_tables_are_the_potentials_own_values(d):
+    """The open box's decay walks (fdsolver.boundstates.box._decay_walks: out of the support, from 1e-3 of the
+    largest length to 1e9 of it) read V and m from the piece tables: the potential's own values there."""
+    from fdsolver.boundstates import box
+    from fdsolver.numerics.tables import table_values
+
+    pot = fdsolver.case_from_dict(d).potential
+    x, v, m = box._decay_walks(pot)
+    assert table_values(pot, x) is not None  # the tables are read
+    with np.errstate(all="ignore"):
+        assert np.array_equal(v, pot.value(x))
+    assert np.array_equal(m, pot.mass_at(x))
+
+
+def test_table_values_decline_next_to_a_feature_and_read_on_it():
+    """fdsolver.numerics.tables.table_values: positions on a feature and inside pieces are read (the potential's
+    own values), a position 1e-10 nm beside a feature is not (a square well from -1 to 2 nm, 50 meV deep, and a
+    point term at 5 nm; invented)."""
+    from fdsolver.numerics.tables import apart_tolerance, table_values
+
+    pot = fdsolver.case_from_dict({"units": "nm-meV", "mass": 0.067, "potential": [
+        {"shape": "square", "center": 0.5, "width": 3.0, "depth": 50.0},
+        {"shape": "point", "center": 5.0, "strength": 30.0}]}).potential
+    x = np.array([-7.0, -1.0, 0.3, 2.0, 3.5, 5.0, 1e6])
+    v, m = table_values(pot, x)
+    assert np.array_equal(v, pot.value(x)) and np.array_equal(m, pot.mass_at(x))
+    assert v[2] == -50.0 and v[1] == v[3] == 0.0  # on the edges: outside the open well, as the shape says
+    assert apart_tolerance(pot.features()) == pytest.approx(6e-9, rel=1e-12)  # 1e-9 of the 6 nm span
+    for near in (-1.0 - 1e-10, -1.0 + 1e-10, 5.0 + 1e-10):
+        assert table_values(pot, np.array([0.3, near])) is None
+    assert table_values(pot, np.array([-1.0 - 1e-8])) is not None  # beyond the tolerance

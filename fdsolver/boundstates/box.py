@@ -17,6 +17,7 @@ import numpy as np
 
 from fdsolver.model.potential import Potential, remembered
 from fdsolver.numerics.kernels import decay_reach
+from fdsolver.numerics.tables import table_values
 
 #: ratio of successive sample distances when the WKB decay integral is walked out from the potential
 GROWTH = 1.05
@@ -84,10 +85,14 @@ def open_box(pot: Potential, dom, e_top: float, budget: float, minimum, mirror: 
 
 def _decay_walks(pot: Potential) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """(x, V, m) along both walks of :func:`open_box` out of the support (left walk first, each :func:`_walk` of
-    the length scale): one evaluation of V and m for every box a solve sizes."""
+    the length scale): one evaluation of V and m for every box a solve sizes, read from the piece tables where
+    that gives the same numbers (:func:`fdsolver.numerics.tables.table_values`)."""
     lo_s, hi_s = pot.support()
     t = _walk(length_scale(pot))
     x = np.concatenate([lo_s - t, hi_s + t])  # both walks in one evaluation of V
+    read = table_values(pot, x)
+    if read is not None:
+        return x, read[0], read[1]
     with np.errstate(over="ignore", invalid="ignore"):
         v = pot.value(x)
     return x, v, pot.mass_at(x)

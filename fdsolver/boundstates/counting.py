@@ -41,6 +41,7 @@ from fdsolver.model.domain import Domain, continuum_threshold
 from fdsolver.numerics.cells import LAYOUT_SAMPLES, Layout, cells, make_layout, scale_of
 from fdsolver.numerics.march import margin, tabled_margin
 from fdsolver.numerics.precision import EPS
+from fdsolver.numerics.tables import apart_tolerance
 from fdsolver.numerics.richardson import Romberg
 
 #: most nested cell levels in a threshold refinement (smooth potentials)
@@ -100,8 +101,8 @@ def _tabled_margin(potential) -> float | None:
     """:func:`phase_margin` of ``potential`` on its own layout, in one compiled call
     (:func:`fdsolver.numerics.march.tabled_margin`) where it keeps piece tables
     (:attr:`~fdsolver.model.potential.Potential.piece_table`) and has features: the same number, or None (work it
-    out step by step) where it keeps none, or where a sample of the layout's flux scale falls within 1e-9 of the
-    features' span (or of the largest feature's magnitude, if that is larger) from a feature without being on it."""
+    out step by step) where it keeps none, or where a sample of the layout's flux scale lies next to a feature
+    (:func:`fdsolver.numerics.tables.apart_tolerance`) without being on it."""
     table = getattr(potential, "piece_table", None)
     if table is None or not table[0].size:
         return None
@@ -111,10 +112,9 @@ def _tabled_margin(potential) -> float | None:
     terms = potential.point_terms()
     pos = np.array([p for p, _ in terms], dtype=float)
     alpha = np.array([a for _, a in terms], dtype=float)
-    tol = 1e-9 * max(1.0, float(last - first), float(abs(first)), float(abs(last)))
     done, phi, _ = tabled_margin(np.linspace(first, last, LAYOUT_SAMPLES), feats, *table[1:], pos, alpha, vt,
                                  potential.hbar2_2me, scale_of(potential) ** -2, _end_flux(potential, vt, -1, first),
-                                 _end_flux(potential, vt, 1, last), tol)
+                                 _end_flux(potential, vt, 1, last), apart_tolerance(feats))
     return phi if done else None
 
 

@@ -25,7 +25,8 @@
   of :func:`fdsolver.numerics.grid.spacing_function` in one pass).
 * :func:`piece_grid` - a whole base grid in one call where V is constant between features (its spacing
   function sampled from tables, :func:`piece_values`; the sample offsets from :func:`sample_offsets`, made
-  once per growth rate); :func:`cell_piece_values` - V and m on every cell of a grid from those tables.
+  once per growth rate); :func:`cell_piece_values` - V and m on every cell of a grid from those tables;
+  :func:`piece_values_apart` - V and m from the tables at positions none of which lies next to a feature.
 * :func:`flux_operator` - the arrays of the flux-form operator
   (:mod:`fdsolver.numerics.operator`) in one pass over the cells; :func:`even_half` its even mirror sector;
   both through :func:`symmetric_form`, the one formula of T's diagonal and off-diagonal.
@@ -1187,6 +1188,20 @@ def piece_values(x, feats, v_piece, m_piece, v_feat, m_feat):
             v[i] = v_piece[k]
             m[i] = m_piece[k]
     return v, m
+
+
+@njit
+def piece_values_apart(x, feats, v_piece, m_piece, v_feat, m_feat, tol):
+    """(done, V, m): :func:`piece_values` at ``x`` where no position lies within ``tol`` (length unit) of a feature
+    without being on it; else done False and nothing read (a position that close might round to the other side
+    of the feature in the potential's own evaluation).  O(N log K)."""
+    nf = feats.shape[0]
+    for xv in x:
+        k = search_sorted(feats, xv, False)  # feats[k - 1] < x <= feats[k]
+        if (k < nf and xv != feats[k] and feats[k] - xv <= tol) or (k > 0 and xv - feats[k - 1] <= tol):
+            return False, np.empty(0), np.empty(0)
+    v, m = piece_values(x, feats, v_piece, m_piece, v_feat, m_feat)
+    return True, v, m
 
 
 @njit

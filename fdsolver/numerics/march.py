@@ -46,7 +46,7 @@ import math
 
 import numpy as np
 
-from fdsolver.numerics.kernels import njit, piece_values, search_sorted
+from fdsolver.numerics.kernels import njit, piece_values_apart, search_sorted
 
 PI = math.pi
 
@@ -204,17 +204,15 @@ def tabled_margin(xs, feats, v_piece, m_piece, v_feat, m_feat, pos, alpha, vt, c
     of the features' span) and of :func:`fdsolver.boundstates.counting.phase_margin` on that compact layout
     (one cell per piece between the outer features, each outer feature a cell of zero width, the point terms
     ``alpha`` at ``pos`` on their nearest edges) with the same numbers.  V and m at a sample are read from the
-    tables (:func:`fdsolver.numerics.kernels.piece_values`): exactly the values an evaluation gives inside a
-    piece, but not within a few ulps of a feature, so where a sample lies within ``tol`` of a feature without
+    tables (:func:`fdsolver.numerics.kernels.piece_values_apart`): exactly the values an evaluation gives inside
+    a piece, but not within a few ulps of a feature, so where a sample lies within ``tol`` of a feature without
     being on it, nothing is computed (done False: evaluate instead).  ``vt`` the continuum threshold (energy),
     ``c`` = hbar^2 / 2 m_e, ``inv_scale2`` the potential's largest length to the power -2, ``u0`` and ``u_end``
     the decaying fluxes of :func:`margin`.  O(samples log K + K)."""
     nf = feats.shape[0]
-    for x in xs:
-        k = search_sorted(feats, x, False)  # feats[k - 1] < x <= feats[k]
-        if (k < nf and x != feats[k] and feats[k] - x <= tol) or (k > 0 and x - feats[k - 1] <= tol):
-            return False, 0.0, 0.0
-    v, m = piece_values(xs, feats, v_piece, m_piece, v_feat, m_feat)
+    done, v, m = piece_values_apart(xs, feats, v_piece, m_piece, v_feat, m_feat, tol)
+    if not done:
+        return False, 0.0, 0.0
     vspan = 0.0
     m_max = -math.inf
     for i in range(xs.shape[0]):
