@@ -1,4 +1,4 @@
-"""Does a potential leak?  Cheap tests (numpy only) that decide whether a solve needs quasi-bound states.
+"""Does a potential leak?  Cheap tests (numpy and one compiled pass) that decide whether a solve needs quasi-bound states.
 
 A potential *leaks* on the open line when
 
@@ -28,6 +28,7 @@ import numpy as np
 
 from fdsolver.arrays import sorted_distinct
 from fdsolver.model.potential import remembered
+from fdsolver.numerics.kernels import enclosure_top
 
 #: samples of V over the features' span
 SAMPLES = 4097
@@ -39,7 +40,9 @@ def falls(potential) -> bool:
 
 
 def confined_top(potential) -> float | None:
-    """The highest energy up to which some region is enclosed by higher V on both sides; None if none is."""
+    """The highest energy up to which some region is enclosed by higher V on both sides; None if none is (or V is
+    not finite at some sample).  The enclosure of the samples in one compiled pass
+    (:func:`fdsolver.numerics.kernels.enclosure_top`)."""
     lo, hi = potential.support()
     if not hi > lo:
         return None
@@ -54,14 +57,8 @@ def confined_top(potential) -> float | None:
         xs = sorted_distinct(np.concatenate([even, feats - d, feats + d, [lo - d, hi + d]]))
         with np.errstate(all="ignore"):
             v = potential.value(xs)
-    if not np.all(np.isfinite(v)):
-        return None
-    left = np.maximum.accumulate(v)
-    right = np.maximum.accumulate(v[::-1])[::-1]
-    enclosing = np.minimum(left, right)
-    scale = float(np.max(np.abs(v))) or 1.0
-    inside = enclosing - v > 1e-9 * scale
-    return float(np.max(enclosing[inside])) if inside.any() else None
+    enclosed, top = enclosure_top(np.ascontiguousarray(v, dtype=float))
+    return float(top) if enclosed else None
 
 
 def _pieces_in_order(potential, lo: float, hi: float) -> np.ndarray | None:

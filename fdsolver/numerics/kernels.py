@@ -1365,6 +1365,38 @@ def refine_nodes(nodes, k):
 
 
 @njit
+def enclosure_top(v):
+    """(enclosed, top) of V sampled in order of x (energy unit): with L_i and R_i the highest V at or left and at
+    or right of sample i, sample i is enclosed where min(L_i, R_i) - V_i exceeds 1e-9 of the largest |V| (of 1 if
+    all are 0), and top is the highest min(L_i, R_i) over the enclosed samples; enclosed False where none is or
+    some V is not finite.  The comparisons of the numpy form of
+    :func:`fdsolver.continuum.confinement.confined_top`, in one pass each way.  O(N)."""
+    n = v.shape[0]
+    scale = 0.0
+    for i in range(n):
+        if not math.isfinite(v[i]):
+            return False, 0.0
+        scale = max(scale, abs(v[i]))
+    if scale == 0.0:
+        scale = 1.0
+    right = np.empty(n)
+    acc = -math.inf
+    for i in range(n - 1, -1, -1):
+        acc = max(acc, v[i])
+        right[i] = acc
+    left = -math.inf
+    found = False
+    top = -math.inf
+    for i in range(n):
+        left = max(left, v[i])
+        e = min(left, right[i])
+        if e - v[i] > 1e-9 * scale and (not found or e > top):
+            top = e
+            found = True
+    return found, top
+
+
+@njit
 def decay_reach(x, v, m, c, e_top, budget):
     """Index of the first sample of a walk ``x`` (outward, V = ``v``, mass ``m`` in m_e) at which the WKB decay
     integral of energy ``e_top``, int kappa dx with kappa = sqrt(m (V - e_top) / c), counted from the last
