@@ -340,3 +340,50 @@ def test_table_values_decline_next_to_a_feature_and_read_on_it():
     for near in (-1.0 - 1e-10, -1.0 + 1e-10, 5.0 + 1e-10):
         assert table_values(pot, np.array([0.3, near])) is None
     assert table_values(pot, np.array([-1.0 - 1e-8])) is not None  # beyond the tolerance
+
+
+@pytest.mark.parametrize("seed", range(40))
+def test_feature_mirror_check_is_the_numpy_form(seed):
+    """The features' mirror check of Potential.mirror_center, walked as floats (fdsolver.model.potential.
+    _features_mirror), against its numpy form (the images np.sort(2 x0 - p), their largest distance from the
+    features within 1e-9 of the span, and np.array_equal for the exact case): random feature sets that mirror
+    exactly, within round-off, at about the 1e-9 threshold, or not at all, with repeated positions."""
+    from fdsolver.model.potential import _features_mirror
+
+    rng = np.random.default_rng(1200 + seed)
+    half = np.sort(rng.uniform(0.1, 10.0, int(rng.integers(1, 6))))
+    c = float(rng.uniform(-20, 20))
+    kind = seed % 4
+    f = np.sort(np.concatenate([c - half, c + half] + ([np.array([c])] if seed % 3 == 0 else [])))
+    if kind == 1:
+        f[-1] += float(rng.choice([0.5, 1.0, 2.0])) * 1e-9 * (f[-1] - f[0])  # about the threshold
+    elif kind == 2:
+        f[0] -= float(rng.uniform(0.01, 1.0))  # not mirrored
+    elif kind == 3:
+        f = np.sort(np.concatenate([f, f[:1]]))  # a repeated position: the images are still in order
+    x0 = 0.5 * (f[0] + f[-1])
+    span = max(float(f[-1] - f[0]), 1e-300)
+    mirrored = np.sort(2.0 * x0 - f)
+    close = not np.max(np.abs(mirrored - f)) > 1e-9 * span
+    assert _features_mirror(f.tolist(), float(x0)) == (close, close and bool(np.array_equal(mirrored, f)))
+
+
+def test_mirror_test_from_tables_compares_the_masses():
+    """A layer stack whose band edges mirror but one barrier's mass differs from its mirror layer's has no mirror
+    centre; with equal masses it has one, in the middle (nm, meV, m_e; invented)."""
+    outer = {"band_edge": 250.0, "mass": 0.09}
+
+    def stack(m_right):
+        return {"units": "nm-meV", "layer": [outer, {"thickness": 2.0, "band_edge": 250.0, "mass": 0.09},
+                                             {"thickness": 6.0, "band_edge": 0.0, "mass": 0.067},
+                                             {"thickness": 2.0, "band_edge": 250.0, "mass": m_right}, outer]}
+
+    for m_right, has_centre in ((0.09, True), (0.1, False)):
+        pot = fdsolver.case_from_dict(stack(m_right)).potential
+        feats = pot.features()
+        box = (float(feats[0]) - 20.0, float(feats[-1]) + 20.0)
+        assert pot.piece_table is not None
+        centre = pot.mirror_center(*box)
+        assert (centre is not None) == has_centre
+        if has_centre:
+            assert centre == pytest.approx(0.5 * (feats[0] + feats[-1]), abs=1e-12)

@@ -330,18 +330,16 @@ class Potential:
         half = min(x0 - lo, hi - x0)
         if half <= 0:
             return None
-        if feats.size:
-            # the features themselves must mirror each other
-            span = max(float(feats[-1] - feats[0]), 1e-300)
-            mirrored = np.sort(2.0 * x0 - feats)
-            if np.max(np.abs(mirrored - feats)) > 1e-9 * span:
+        exact = False
+        if feats.size:  # the features themselves must mirror each other
+            close, exact = _features_mirror(feats.tolist(), float(x0))
+            if not close:
                 return None
         if self._piecewise_constant:
             # V and m are constant between the features, which mirror each other: one sample in the middle of
             # every piece of the right half decides exactly
             table = self.piece_table
-            if table is not None and feats.size and np.array_equal(mirrored, feats) \
-                    and feats[-1] < 0.5 * (feats[-1] + x0 + half) < x0 + half:
+            if table is not None and exact and feats[-1] < 0.5 * (feats[-1] + x0 + half) < x0 + half:
                 return self._table_mirrors(x0, table)
             return self._mirrors(x0, self.piece_midpoints(x0, x0 + half) - x0)
         # dense samples where the potential varies (the features' extent plus a few length scales), sparse beyond
@@ -366,13 +364,13 @@ class Potential:
         piece of the right half and its mirror image lie inside a piece and its mirror piece (piece k and piece
         K - k of the K + 1), every piece is one of the two, and the test compares V and m of every piece with
         its mirror piece's, as the samples do; the same numbers, so the same answer."""
-        v, m = table[1], table[2]
-        if not np.all(np.isfinite(v)):
+        v, m = table[1].tolist(), table[2].tolist()  # a few pieces each: compared as floats, not arrays
+        if not all(map(math.isfinite, v)):
             return None
-        span = max(np.ptp(v), 1e-300)
-        if np.max(np.abs(v - v[::-1])) > 1e-10 * span:
+        span = max(max(v) - min(v), 1e-300)
+        if max(abs(a - b) for a, b in zip(v, reversed(v))) > 1e-10 * span:
             return None
-        if np.max(np.abs(m - m[::-1])) > 1e-12:
+        if max(abs(a - b) for a, b in zip(m, reversed(m))) > 1e-12:
             return None
         return float(x0)
 
@@ -402,6 +400,16 @@ def _gauss_integrals(value, a: np.ndarray, b: np.ndarray) -> np.ndarray:
     pts = centre[:, None] + half[:, None] * _GL_X[None, :]
     vals = value(pts.ravel()).reshape(pts.shape)
     return half * (vals[:, 0] * _GL_W[0] + vals[:, 1] * _GL_W[1] + vals[:, 2] * _GL_W[2])
+
+
+def _features_mirror(f: list[float], x0: float) -> tuple[bool, bool]:
+    """(close, exact) for the sorted features ``f`` and a centre ``x0``: their images 2 x0 - p, in increasing
+    order (the features' own order reversed: subtraction is monotone), lie within 1e-9 of the features' span
+    of the features (close), or are the features themselves (exact).  Compared as floats: a potential has a few
+    features, and a list is faster to walk than an array is to set up."""
+    mirrored = [2.0 * x0 - p for p in reversed(f)]
+    close = not max(abs(a - b) for a, b in zip(mirrored, f)) > 1e-9 * max(f[-1] - f[0], 1e-300)
+    return close, close and mirrored == f
 
 
 def remembered(potential, key, compute):
