@@ -190,9 +190,11 @@ def _box_samples(potential, box) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     otherwise :data:`RANGE_SAMPLES` even points, the ends left out."""
     if potential.piecewise_constant:  # exact: every piece once, however thin
         table = getattr(potential, "piece_table", None)
+        if table is not None and table[0].size:
+            lo, hi, first, last = float(box[0]), float(box[1]), float(table[0][0]), float(table[0][-1])
+            if lo < 0.5 * (first + lo) < first and last < 0.5 * (hi + last) < hi:  # the end pieces' middles
+                return table[1], table[2], np.diff(np.concatenate([[lo], table[0], [hi]]))
         xs, dx = potential.pieces(box[0], box[1])
-        if table is not None and table[0].size and box[0] < xs[0] < table[0][0] and table[0][-1] < xs[-1] < box[1]:
-            return table[1], table[2], dx
     else:
         xs = np.linspace(box[0], box[1], RANGE_SAMPLES)[1:-1]
         dx = np.full(xs.size, (box[1] - box[0]) / (RANGE_SAMPLES - 1))

@@ -214,6 +214,8 @@ class Potential:
     @cached_property
     def _point_scales(self) -> tuple[tuple[float, float], ...]:
         terms = self.point_terms()
+        if not terms:
+            return ()
         masses = self.mass_at(np.array([pos for pos, _ in terms], dtype=float))  # one evaluation for all of them
         out = []
         for (pos, alpha), m in zip(terms, masses.tolist()):
