@@ -134,16 +134,19 @@ class Potential:
         feats = self._features
         if self._features_merged:
             return None
+        k = feats.size + 1  # the probes: one per piece, then the features themselves
+        x = np.empty(k + feats.size)
         if feats.size:
             reach = max(1.0, float(feats[-1] - feats[0]))
-            probes = np.concatenate([[feats[0] - reach], 0.5 * (feats[1:] + feats[:-1]), [feats[-1] + reach]])
+            x[0], x[k - 1] = feats[0] - reach, feats[-1] + reach
+            x[1 : k - 1] = 0.5 * (feats[1:] + feats[:-1])
+            x[k:] = feats
         else:
-            probes = np.zeros(1)
+            x[0] = 0.0
         with np.errstate(invalid="ignore", over="ignore"):
-            v = np.ascontiguousarray(self.value(np.concatenate([probes, feats])), dtype=float)
-        m = np.ascontiguousarray(self.mass_at(np.concatenate([probes, feats])), dtype=float)
-        k = probes.size
-        return (np.ascontiguousarray(feats), v[:k].copy(), m[:k].copy(), v[k:].copy(), m[k:].copy())
+            v = np.ascontiguousarray(self.value(x), dtype=float)
+        m = np.ascontiguousarray(self.mass_at(x), dtype=float)
+        return (np.ascontiguousarray(feats), v[:k], m[:k], v[k:], m[k:])  # contiguous parts of fresh arrays
 
     def pieces(self, lo: float, hi: float) -> tuple[np.ndarray, np.ndarray]:
         """(middles, lengths) of the pieces of [lo, hi] between consecutive features (length unit)."""
