@@ -204,7 +204,8 @@ def _sign_changes_numpy(psi, fraction):
 @given(st.integers(0, 10**6), st.integers(3, 400), st.integers(0, 6), st.integers(0, 5))
 def test_observable_columns_are_the_numpy_forms(seed, n, k, states):
     """wave_columns: weights, moment columns, dual-cell overlaps (intervals inside, across the ends, beyond them,
-    empty and on nodes) and sign changes (rows with zeros, tiny unresolved tails and a NaN), bit for bit."""
+    empty and on nodes), sign changes (rows with zeros, tiny unresolved tails and a NaN) and, for half the seeds,
+    V at the nodes from V on the cells, bit for bit."""
     rng = np.random.default_rng(seed)
     x = np.cumsum(rng.uniform(0.01, 1.0, n)) - 3.0
     ends = rng.uniform(x[0] - 2.0, x[-1] + 2.0, (k, 2))
@@ -218,10 +219,18 @@ def test_observable_columns_are_the_numpy_forms(seed, n, k, states):
         psi[-1, n // 2] = 0.0
     if states > 2:
         psi[1, n // 2] = np.nan
-    w, cols, changes = kernels.wave_columns(x, np.ascontiguousarray(psi), np.ascontiguousarray(intervals), x_ref,
-                                            1e-6)
+    v_cells = rng.uniform(-300.0, 300.0, n - 1) if seed % 2 else np.zeros(0)
+    w, cols, changes, v_nodes = kernels.wave_columns(x, np.ascontiguousarray(psi), np.ascontiguousarray(intervals),
+                                                     x_ref, 1e-6, v_cells)
     w_ref, cols_ref = _observable_columns_numpy(x, intervals, x_ref)
     assert np.array_equal(w, w_ref) and np.array_equal(cols, cols_ref)
+    if v_cells.size:  # the dual-cell averages of V, as the numpy form of the observables made them
+        half = 0.5 * (x[1:] - x[:-1]) * v_cells
+        h = np.diff(x)
+        assert np.array_equal(v_nodes[1:-1], (half[:-1] + half[1:]) / (0.5 * (h[:-1] + h[1:])))
+        assert np.isnan(v_nodes[0]) and np.isnan(v_nodes[-1])
+    else:
+        assert v_nodes.size == 0
     with np.errstate(invalid="ignore"):
         assert np.array_equal(changes, _sign_changes_numpy(psi, 1e-6))
 

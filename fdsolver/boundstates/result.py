@@ -108,6 +108,10 @@ def _whole_nodes(sector) -> np.ndarray:
     return np.concatenate([2.0 * half[0] - half[:0:-1], half])
 
 
+#: an empty array: no cell values for :func:`fdsolver.numerics.kernels.wave_columns`
+_NONE = np.zeros(0)
+
+
 def unfold_into(row: np.ndarray, sector, u: np.ndarray) -> None:
     """psi on the whole grid (``row``, zero on entry) of a sector's eigenvector u, normalised over the whole grid:
     u / sqrt(w) at the unknowns (zero at Dirichlet ends); a half's values are divided by sqrt(2) and mirrored with
@@ -117,20 +121,21 @@ def unfold_into(row: np.ndarray, sector, u: np.ndarray) -> None:
     kernels.unfold_row(row, np.ascontiguousarray(u, dtype=float), op.w, int(sector.parity), op.left == NEUMANN)
 
 
-def _potential_on(pot, x_all: np.ndarray, v_cells: np.ndarray | None = None) -> np.ndarray:
+def _potential_on(pot, x_all: np.ndarray, averaged: np.ndarray | None = None) -> np.ndarray:
     """V at the nodes: its dual-cell average at interior nodes (as the operator sees it), the value at the ends.
-    ``v_cells``: V on every cell where it is constant on each (the levels' cell values), instead of evaluating it
-    on the cells again (the same numbers)."""
+    ``averaged``: those averages already made from V on every cell where it is constant on each (the levels'
+    cell values; :func:`fdsolver.numerics.kernels.wave_columns`), the same numbers as from the half cells'
+    integrals, which are used otherwise."""
     if x_all.size <= 2:
         return pot.value(x_all)
-    v_nodes = np.empty(x_all.size)
-    v_nodes[[0, -1]] = pot.value(x_all[[0, -1]])  # V is evaluated point by point: the ends' values alone
-    if v_cells is None:
-        il, ir = pot.half_cell_integrals(x_all)
+    if averaged is not None and averaged.size == x_all.size:
+        v_nodes = averaged
     else:
-        il = ir = 0.5 * (x_all[1:] - x_all[:-1]) * v_cells
-    h = np.diff(x_all)
-    v_nodes[1:-1] = (ir[:-1] + il[1:]) / (0.5 * (h[:-1] + h[1:]))
+        v_nodes = np.empty(x_all.size)
+        il, ir = pot.half_cell_integrals(x_all)
+        h = np.diff(x_all)
+        v_nodes[1:-1] = (ir[:-1] + il[1:]) / (0.5 * (h[:-1] + h[1:]))
+    v_nodes[[0, -1]] = pot.value(x_all[[0, -1]])  # V is evaluated point by point: the ends' values alone
     return v_nodes
 
 
@@ -139,7 +144,7 @@ def _sign_changes(psi: np.ndarray) -> np.ndarray:
     gap: both neighbours above :data:`RESOLVED_FRACTION` of the row's peak;
     :func:`fdsolver.numerics.kernels.wave_columns`)."""
     psi = np.ascontiguousarray(psi, dtype=float)
-    return kernels.wave_columns(np.zeros(psi.shape[1]), psi, np.zeros((0, 2)), 0.0, RESOLVED_FRACTION)[2]
+    return kernels.wave_columns(np.zeros(psi.shape[1]), psi, np.zeros((0, 2)), 0.0, RESOLVED_FRACTION, _NONE)[2]
 
 
 def _wall_zones(problem, box) -> list[tuple[int, float, float]]:
@@ -159,7 +164,7 @@ def _cell_overlaps(x_all: np.ndarray, intervals) -> np.ndarray:
     dual cells reach into the interval, 0 elsewhere)."""
     bounds = np.ascontiguousarray(np.asarray(intervals, dtype=float).reshape(-1, 2))
     x_all = np.ascontiguousarray(x_all, dtype=float)
-    return kernels.wave_columns(x_all, np.zeros((0, x_all.size)), bounds, 0.0, RESOLVED_FRACTION)[1][:, 2:]
+    return kernels.wave_columns(x_all, np.zeros((0, x_all.size)), bounds, 0.0, RESOLVED_FRACTION, _NONE)[1][:, 2:]
 
 
 def _cell_overlap(x_all: np.ndarray, lo: float, hi: float) -> np.ndarray:
@@ -234,7 +239,9 @@ def _observables(problem, box, run, conv: np.ndarray, index: np.ndarray, message
     # one product with psi^2 gives every state's norm-weighted sums (psi^2 made in chunks: memory O(N) per state)
     x_ref = 0.5 * sum(pot.support())  # second moments about the structure's middle: no cancellation against <x>
     bounds = np.array([(lo, hi) for _, lo, hi in regions] + [(lo, hi) for _, lo, hi in zones], dtype=float)
-    w_all, columns, found = kernels.wave_columns(x_all, psi, bounds.reshape(-1, 2), float(x_ref), RESOLVED_FRACTION)
+    v_cells = _NONE if run.cells is None else np.ascontiguousarray(run.cells[0], dtype=float)
+    w_all, columns, found, averaged = kernels.wave_columns(x_all, psi, bounds.reshape(-1, 2), float(x_ref),
+                                                           RESOLVED_FRACTION, v_cells)
     sums = np.empty((n, columns.shape[1]))
     for a in range(0, n, OBSERVABLE_CHUNK):
         sums[a : a + OBSERVABLE_CHUNK] = (psi[a : a + OBSERVABLE_CHUNK] ** 2) @ columns
@@ -246,7 +253,7 @@ def _observables(problem, box, run, conv: np.ndarray, index: np.ndarray, message
     for j, (side, _, _) in enumerate(zones):
         wall[sums[:, 2 + len(regions) + j] > WALL_SHARE] = side
     _check_signs((x_all, psi), index, conv, messages, found)
-    return {"x": x_all, "potential": _potential_on(pot, x_all, None if run.cells is None else run.cells[0]), "mass": pot.mass_at(x_all), "weights": w_all,
+    return {"x": x_all, "potential": _potential_on(pot, x_all, averaged), "mass": pot.mass_at(x_all), "weights": w_all,
             "psi": psi, "mean_x": mean_x, "spread": spread, "inside": inside, "home": home.astype(int), "wall": wall}
 
 

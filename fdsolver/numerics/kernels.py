@@ -1785,15 +1785,18 @@ def home_of(inside, tie):
 
 
 @njit
-def wave_columns(x, psi, bounds, x_ref, fraction):
+def wave_columns(x, psi, bounds, x_ref, fraction, v_cells):
     """What the observables of the states ``psi`` (states x nodes, on the nodes ``x``, length unit) are summed
-    from, in one pass: (node weights w, columns, sign changes).
+    from, in one pass: (node weights w, columns, sign changes, V at the nodes).
 
     w_i = (h_{i-1} + h_i)/2 (0 at the ends); column 0 is w x, column 1 w (x - x_ref)^2, and column 2 + j the
     length of each node's dual cell [x_i - h_{i-1}/2, x_i + h_i/2] (the ends' half cells) inside
     [bounds[j, 0], bounds[j, 1]]; the sign changes of each row of psi counted between neighbours that both
-    exceed ``fraction`` of the row's largest |psi| (none in a row holding a NaN).  The same floating-point
-    operations as the numpy forms of :mod:`fdsolver.boundstates.result`.  O(N (K + states) + K log N).
+    exceed ``fraction`` of the row's largest |psi| (none in a row holding a NaN).  With V on every cell
+    (``v_cells``, energy unit; empty for none) also V at the interior nodes as the operator sees it, the
+    average over the node's dual cell, (h_{i-1}/2 V_{i-1} + h_i/2 V_i) / w_i (the ends left NaN; else an empty
+    array).  The same floating-point operations as the numpy forms of :mod:`fdsolver.boundstates.result`.
+    O(N (K + states) + K log N).
     """
     n = x.shape[0]
     k = bounds.shape[0]
@@ -1839,4 +1842,10 @@ def wave_columns(x, psi, bounds, x_ref, fraction):
             if abs(p) > limit and abs(q) > limit and (p > 0.0) != (q > 0.0):
                 count += 1
         changes[r] = count
-    return w, cols, changes
+    v_nodes = np.empty(n if v_cells.shape[0] else 0)
+    if v_cells.shape[0]:
+        v_nodes[0] = v_nodes[n - 1] = np.nan
+        for i in range(1, n - 1):
+            v_nodes[i] = ((0.5 * (x[i] - x[i - 1])) * v_cells[i - 1] + (0.5 * (x[i + 1] - x[i])) * v_cells[i]) / (
+                0.5 * ((x[i] - x[i - 1]) + (x[i + 1] - x[i])))
+    return w, cols, changes, v_nodes
