@@ -41,8 +41,8 @@ from fdsolver.model.domain import Domain, continuum_threshold
 from fdsolver.numerics.cells import LAYOUT_SAMPLES, Layout, cells, make_layout, scale_of
 from fdsolver.numerics.march import margin, tabled_margin
 from fdsolver.numerics.precision import EPS
-from fdsolver.numerics.tables import apart_tolerance
 from fdsolver.numerics.richardson import Romberg
+from fdsolver.numerics.tables import apart_tolerance
 
 #: most nested cell levels in a threshold refinement (smooth potentials)
 MAX_LEVELS = 7

@@ -409,9 +409,9 @@ def _gauss_integrals(value, a: np.ndarray, b: np.ndarray) -> np.ndarray:
 
 def _features_mirror(f: list[float], x0: float) -> tuple[bool, bool]:
     """(close, exact) for the sorted features ``f`` and a centre ``x0``: their images 2 x0 - p, in increasing
-    order (the features' own order reversed: subtraction is monotone), lie within 1e-9 of the features' span
-    of the features (close), or are the features themselves (exact).  Compared as floats: a potential has a few
-    features, and a list is faster to walk than an array is to set up."""
+    order (the features' own order reversed: subtraction is monotone), each lie within 1e-9 of the features'
+    span from the feature in the same place (close), or are the features themselves (exact).  Compared as
+    floats: a potential has a few features, and a list is faster to walk than an array is to set up."""
     mirrored = [2.0 * x0 - p for p in reversed(f)]
     close = not max(abs(a - b) for a, b in zip(mirrored, f)) > 1e-9 * max(f[-1] - f[0], 1e-300)
     return close, close and mirrored == f

@@ -6,8 +6,8 @@ A table entry is the potential's evaluation at one position of its piece, and V 
 open piece, so a lookup anywhere inside it returns the same numbers, except within a few ulps of a feature,
 where the shape's own comparison (say |x - c| < w / 2 for a square well) may round to the other side.  A
 position that close to a feature without being on it is therefore not read: :func:`apart_tolerance` is
-1e-9 of the features' span or of their largest magnitude (whichever is larger, at least one length unit),
-far beyond that rounding, and where some position falls inside it the caller evaluates instead.  Lengths in
+1e-9 of the largest of one length unit, the features' span and their largest magnitude, far beyond that
+rounding, and where some position falls inside it the caller evaluates instead.  Lengths in
 the case length unit, V in its energy unit, m in m_e.
 """
 
