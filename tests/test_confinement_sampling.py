@@ -73,7 +73,7 @@ def test_compiled_enclosure_is_the_numpy_form(seed):
     v = np.round(rng.normal(0.0, 100.0, n), int(rng.integers(-2, 3)))
     if seed % 5 == 1:
         v = np.sort(v)
-    if seed % 5 == 2 and n > 2:  # a dip of exactly 1e-9 of the largest |V| and one just deeper
+    if seed % 5 == 2 and n > 2:  # a dip of about 1e-9 of the largest |V|, or of 1.5 times that
         big = float(np.max(np.abs(v))) or 1.0
         v[n // 2] = min(v[n // 2 - 1], v[n // 2 + 1]) - 1e-9 * big * (1.0 if seed % 2 else 1.5)
     if seed % 5 == 3:
