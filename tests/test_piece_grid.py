@@ -305,7 +305,8 @@ def test_zero_energy_margin_next_to_a_feature_is_worked_out_stepwise(offset):
     stepwise = counting.phase_margin(pot, counting.layout_for([pot]), 0)
     assert counting.bound_count(fdsolver.case_from_dict(d).potential) == counting.count_from_margin(
         stepwise - counting.MARGIN_ULPS * counting.EPS * (pot.features().size + 1 + abs(stepwise) + 1.0))
-    assert counting.bound_count(pot) >= 1  # an attractive 1D well binds (B. Simon, Ann. Phys. 97, 279 (1976); from memory)
+    # an attractive 1D well binds (B. Simon, Ann. Phys. 97, 279 (1976); quoted from memory)
+    assert counting.bound_count(pot) >= 1
 
 
 @pytest.mark.parametrize("d", STRUCTURES)
