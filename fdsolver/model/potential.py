@@ -369,7 +369,7 @@ class Potential:
         piece of the right half and its mirror image lie inside a piece and its mirror piece (piece k and piece
         K - k of the K + 1), every piece is one of the two, and the test compares V and m of every piece with
         its mirror piece's, as the samples do; the same numbers, so the same answer."""
-        v, m = table[1].tolist(), table[2].tolist()  # a few pieces each: compared as floats, not arrays
+        v, m = table[1].tolist(), table[2].tolist()  # as floats: quicker than arrays for tens of pieces, linear
         if not all(map(math.isfinite, v)):
             return None
         span = max(max(v) - min(v), 1e-300)
@@ -411,7 +411,8 @@ def _features_mirror(f: list[float], x0: float) -> tuple[bool, bool]:
     """(close, exact) for the sorted features ``f`` and a centre ``x0``: their images 2 x0 - p, in increasing
     order (the features' own order reversed: subtraction is monotone), each lie within 1e-9 of the features'
     span from the feature in the same place (close), or are the features themselves (exact).  Compared as
-    floats: a potential has a few features, and a list is faster to walk than an array is to set up."""
+    floats: for the tens of features of most structures a list is quicker to walk than arrays are to set up, and
+    for a long superlattice the walk stays linear, once per potential."""
     mirrored = [2.0 * x0 - p for p in reversed(f)]
     close = not max(abs(a - b) for a, b in zip(mirrored, f)) > 1e-9 * max(f[-1] - f[0], 1e-300)
     return close, close and mirrored == f
