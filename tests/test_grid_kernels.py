@@ -205,7 +205,8 @@ def _sign_changes_numpy(psi, fraction):
 def test_observable_columns_are_the_numpy_forms(seed, n, k, states):
     """wave_columns: weights, moment columns, dual-cell overlaps (intervals inside, across the ends, beyond them,
     empty and on nodes), sign changes (rows with zeros, tiny unresolved tails and a NaN) and, for half the seeds,
-    V at the nodes from V on the cells, bit for bit."""
+    V at the nodes from V on the cells, bit for bit; the sums of psi^2 times each column against numpy's matrix
+    product, to round-off (the order of a sum differs)."""
     rng = np.random.default_rng(seed)
     x = np.cumsum(rng.uniform(0.01, 1.0, n)) - 3.0
     ends = rng.uniform(x[0] - 2.0, x[-1] + 2.0, (k, 2))
@@ -220,10 +221,23 @@ def test_observable_columns_are_the_numpy_forms(seed, n, k, states):
     if states > 2:
         psi[1, n // 2] = np.nan
     v_cells = rng.uniform(-300.0, 300.0, n - 1) if seed % 2 else np.zeros(0)
-    w, cols, changes, v_nodes = kernels.wave_columns(x, np.ascontiguousarray(psi), np.ascontiguousarray(intervals),
-                                                     x_ref, 1e-6, v_cells)
+    w, cols, changes, v_nodes, sums = kernels.wave_columns(x, np.ascontiguousarray(psi),
+                                                           np.ascontiguousarray(intervals), x_ref, 1e-6, v_cells, True)
     w_ref, cols_ref = _observable_columns_numpy(x, intervals, x_ref)
     assert np.array_equal(w, w_ref) and np.array_equal(cols, cols_ref)
+    # the sums: the product of psi^2 with the columns, each column summed in node order (so to round-off of the
+    # product's own order); without the columns asked for, the same sums and weights, and no N x (2 + K) array
+    with np.errstate(invalid="ignore"):
+        product = (psi**2) @ cols_ref
+    scale = (psi**2) @ np.abs(cols_ref)
+    assert sums.shape == (states, 2 + k)
+    assert np.array_equal(np.isnan(sums), np.isnan(product))
+    finite = ~np.isnan(product)
+    assert np.all(np.abs(sums - product)[finite] <= 1e-13 * scale[finite])
+    w2, cols2, changes2, v2, sums2 = kernels.wave_columns(x, np.ascontiguousarray(psi),
+                                                          np.ascontiguousarray(intervals), x_ref, 1e-6, v_cells, False)
+    assert cols2.shape == (0, 2 + k) and np.array_equal(w2, w) and np.array_equal(changes2, changes)
+    assert np.array_equal(sums2, sums, equal_nan=True) and np.array_equal(v2, v_nodes, equal_nan=True)
     if v_cells.size:  # the dual-cell averages of V, as the numpy form of the observables made them
         half = 0.5 * (x[1:] - x[:-1]) * v_cells
         h = np.diff(x)

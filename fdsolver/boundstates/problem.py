@@ -20,7 +20,6 @@ import numpy as np
 
 from fdsolver.boundstates import counting
 from fdsolver.boundstates.box import length_scale, provisional_box
-from fdsolver.boundstates.result import OBSERVABLE_CHUNK
 from fdsolver.boundstates.settings import SolveSettings
 from fdsolver.errors import CaseError
 from fdsolver.model.domain import Domain, continuum_threshold
@@ -31,8 +30,8 @@ BYTES_PER_NODE = 8 * 40
 #: per node of the whole grid and kept state, what a solve holds at its peak (the observables of its finest
 #: level) besides: the state's wavefunction unfolded on the whole grid, 8 bytes, and one byte of margin; its
 #: eigenvector adds 8 bytes per node of its sector (:data:`BYTES_PER_VECTOR_NODE`: the whole grid, or half of it
-#: for mirror halves), and the squares of up to OBSERVABLE_CHUNK wavefunctions at a time 8 bytes per node and
-#: state up to that many (peaks measured with tracemalloc: see DEVELOPERS.md)
+#: for mirror halves) (peaks measured with tracemalloc: see DEVELOPERS.md; the observables are summed in one
+#: compiled pass with temporaries per node only)
 BYTES_PER_PSI_NODE = 8 + 1
 BYTES_PER_VECTOR_NODE = 8
 #: the WKB decay budget of a box end is ln(DECAY_TARGET / tol) / 2 + 1: truncation shift below tol / 100
@@ -89,7 +88,7 @@ class Problem:
         (``halves``) as its even and odd mirror halves, whose eigenvectors cover half the grid each."""
         k = self.settings.max_states
         vector = BYTES_PER_VECTOR_NODE // 2 if halves else BYTES_PER_VECTOR_NODE
-        return BYTES_PER_NODE + 8 * min(k, OBSERVABLE_CHUNK) + k * (BYTES_PER_PSI_NODE + vector)
+        return BYTES_PER_NODE + k * (BYTES_PER_PSI_NODE + vector)
 
     def max_nodes(self, halves: bool) -> int:
         """The most grid nodes the memory budget allows (:meth:`bytes_per_node`)."""

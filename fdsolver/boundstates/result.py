@@ -36,8 +36,6 @@ from fdsolver.numerics.operator import NEUMANN
 RESOLVED_FRACTION = 1e-6
 #: a state with more than this share of its probability in a wall zone is a hard-wall state
 WALL_SHARE = 0.5
-#: states whose observables are summed at once (bounds the temporary psi^2 array)
-OBSERVABLE_CHUNK = 64
 #: region shares closer than this (as fractions of the state's probability) are equal: of regions that share a
 #: state equally (the wells of a mirror-symmetric pair) the first in the case's order is its home, whatever the
 #: last bits of psi say
@@ -144,7 +142,8 @@ def _sign_changes(psi: np.ndarray) -> np.ndarray:
     gap: both neighbours above :data:`RESOLVED_FRACTION` of the row's peak;
     :func:`fdsolver.numerics.kernels.wave_columns`)."""
     psi = np.ascontiguousarray(psi, dtype=float)
-    return kernels.wave_columns(np.zeros(psi.shape[1]), psi, np.zeros((0, 2)), 0.0, RESOLVED_FRACTION, _NONE)[2]
+    return kernels.wave_columns(np.zeros(psi.shape[1]), psi, np.zeros((0, 2)), 0.0, RESOLVED_FRACTION, _NONE,
+                                False)[2]
 
 
 def _wall_zones(problem, box) -> list[tuple[int, float, float]]:
@@ -164,7 +163,7 @@ def _cell_overlaps(x_all: np.ndarray, intervals) -> np.ndarray:
     dual cells reach into the interval, 0 elsewhere)."""
     bounds = np.ascontiguousarray(np.asarray(intervals, dtype=float).reshape(-1, 2))
     x_all = np.ascontiguousarray(x_all, dtype=float)
-    return kernels.wave_columns(x_all, np.zeros((0, x_all.size)), bounds, 0.0, RESOLVED_FRACTION, _NONE)[1][:, 2:]
+    return kernels.wave_columns(x_all, np.zeros((0, x_all.size)), bounds, 0.0, RESOLVED_FRACTION, _NONE, True)[1][:, 2:]
 
 
 def _cell_overlap(x_all: np.ndarray, lo: float, hi: float) -> np.ndarray:
@@ -235,16 +234,13 @@ def _observables(problem, box, run, conv: np.ndarray, index: np.ndarray, message
     x_all, psi = _unfolded(run)
     regions = pot.regions()
     zones = _wall_zones(problem, box)
-    # per node: weight, weight * x, weight * x^2 and each region's and wall zone's share of the node's cell;
-    # one product with psi^2 gives every state's norm-weighted sums (psi^2 made in chunks: memory O(N) per state)
+    # every state's norm-weighted sums of x, (x - x_ref)^2 and each region's and wall zone's share, in one
+    # compiled pass over psi (each interval summed over its own nodes only: O(N) per state however many regions)
     x_ref = 0.5 * sum(pot.support())  # second moments about the structure's middle: no cancellation against <x>
     bounds = np.array([(lo, hi) for _, lo, hi in regions] + [(lo, hi) for _, lo, hi in zones], dtype=float)
     v_cells = _NONE if run.cells is None else np.ascontiguousarray(run.cells[0], dtype=float)
-    w_all, columns, found, averaged = kernels.wave_columns(x_all, psi, bounds.reshape(-1, 2), float(x_ref),
-                                                           RESOLVED_FRACTION, v_cells)
-    sums = np.empty((n, columns.shape[1]))
-    for a in range(0, n, OBSERVABLE_CHUNK):
-        sums[a : a + OBSERVABLE_CHUNK] = (psi[a : a + OBSERVABLE_CHUNK] ** 2) @ columns
+    w_all, _, found, averaged, sums = kernels.wave_columns(x_all, psi, bounds.reshape(-1, 2), float(x_ref),
+                                                           RESOLVED_FRACTION, v_cells, False)
     mean_x = sums[:, 0]
     spread = np.sqrt(np.maximum(0.0, sums[:, 1] - (mean_x - x_ref) ** 2))
     inside = sums[:, 2 : 2 + len(regions)]

@@ -1785,32 +1785,39 @@ def home_of(inside, tie):
 
 
 @njit
-def wave_columns(x, psi, bounds, x_ref, fraction, v_cells):
+def wave_columns(x, psi, bounds, x_ref, fraction, v_cells, columns):
     """What the observables of the states ``psi`` (states x nodes, on the nodes ``x``, length unit) are summed
-    from, in one pass: (node weights w, columns, sign changes, V at the nodes).
+    from, and their sums, in one pass: (node weights w, columns, sign changes, V at the nodes, sums).
 
     w_i = (h_{i-1} + h_i)/2 (0 at the ends); column 0 is w x, column 1 w (x - x_ref)^2, and column 2 + j the
     length of each node's dual cell [x_i - h_{i-1}/2, x_i + h_i/2] (the ends' half cells) inside
-    [bounds[j, 0], bounds[j, 1]]; the sign changes of each row of psi counted between neighbours that both
-    exceed ``fraction`` of the row's largest |psi| (none in a row holding a NaN).  With V on every cell
+    [bounds[j, 0], bounds[j, 1]] (made as an N x (2 + K) array only with ``columns``, else an empty one); the
+    sums are sum_i psi_i^2 column_i for every state and column (states x (2 + K); psi in length^-1/2, so
+    <x>, <(x - x_ref)^2> and each interval's probability), added in node order, an interval's only over the
+    nodes whose dual cells reach into it; all NaN for a row holding a NaN.  The sign changes of each row of psi counted between neighbours that
+    both exceed ``fraction`` of the row's largest |psi| (none in a row holding a NaN).  With V on every cell
     (``v_cells``, energy unit; empty for none) also V at the interior nodes as the operator sees it, the
     average over the node's dual cell, (h_{i-1}/2 V_{i-1} + h_i/2 V_i) / w_i (the ends left NaN; else an empty
-    array).  The same floating-point operations as the numpy forms of :mod:`fdsolver.boundstates.result`.
-    O(N (K + states) + K log N).
+    array).  The weights, columns and V the same floating-point operations as the numpy forms of
+    :mod:`fdsolver.boundstates.result`.  O(N states + K log N), and O(N K) more with ``columns``.
     """
     n = x.shape[0]
     k = bounds.shape[0]
     w = np.zeros(n)
-    cols = np.zeros((n, 2 + k))
+    moments = np.zeros((n, 2))
     for i in range(1, n - 1):
         w[i] = 0.5 * ((x[i] - x[i - 1]) + (x[i + 1] - x[i]))
     for i in range(n):
-        cols[i, 0] = w[i] * x[i]
+        moments[i, 0] = w[i] * x[i]
         dx = x[i] - x_ref
-        cols[i, 1] = w[i] * (dx * dx)
+        moments[i, 1] = w[i] * (dx * dx)
+    # each interval's nodes [first, stop) and their overlaps, one after another in ``overlap``
+    first = np.zeros(k, np.int64)
+    stop = np.zeros(k, np.int64)
+    start = np.zeros(k + 1, np.int64)
+    lo_cell = np.empty(n)
+    hi_cell = np.empty(n)
     if k:
-        lo_cell = np.empty(n)
-        hi_cell = np.empty(n)
         lo_cell[0] = x[0]
         hi_cell[n - 1] = x[n - 1]
         for i in range(n - 1):
@@ -1818,22 +1825,51 @@ def wave_columns(x, psi, bounds, x_ref, fraction, v_cells):
             lo_cell[i + 1] = x[i + 1] - 0.5 * h
             hi_cell[i] = x[i] + 0.5 * h
         for j in range(k):
-            first = search_sorted(hi_cell, bounds[j, 0], True)  # the first cell ending beyond lo
-            stop = search_sorted(lo_cell, bounds[j, 1], False)  # past the last cell starting before hi
-            for i in range(first, stop):
-                cols[i, 2 + j] = min(hi_cell[i], bounds[j, 1]) - max(lo_cell[i], bounds[j, 0])
+            first[j] = search_sorted(hi_cell, bounds[j, 0], True)  # the first cell ending beyond lo
+            # past the last cell starting before hi
+            stop[j] = max(search_sorted(lo_cell, bounds[j, 1], False), first[j])
+            start[j + 1] = start[j] + stop[j] - first[j]
+    overlap = np.empty(start[k])
+    for j in range(k):
+        for i in range(first[j], stop[j]):
+            overlap[start[j] + i - first[j]] = min(hi_cell[i], bounds[j, 1]) - max(lo_cell[i], bounds[j, 0])
+    cols = np.zeros((n if columns else 0, 2 + k))
+    if columns:
+        for i in range(n):
+            cols[i, 0] = moments[i, 0]
+            cols[i, 1] = moments[i, 1]
+        for j in range(k):
+            for i in range(first[j], stop[j]):
+                cols[i, 2 + j] = overlap[start[j] + i - first[j]]
     states = psi.shape[0]
     changes = np.zeros(states, np.int64)
+    sums = np.zeros((states, 2 + k))
+    square = np.empty(n)
     for r in range(states):
         peak = 0.0
         nan = False
+        mean = 0.0
+        second = 0.0
         for i in range(n):
-            a = abs(psi[r, i])
+            p = psi[r, i]
+            square[i] = p * p
+            mean += square[i] * moments[i, 0]
+            second += square[i] * moments[i, 1]
+            a = abs(p)
             if a != a:
                 nan = True
             elif a > peak:
                 peak = a
-        if nan:
+        sums[r, 0] = mean
+        sums[r, 1] = second
+        for j in range(k):
+            total = 0.0
+            for i in range(first[j], stop[j]):
+                total += square[i] * overlap[start[j] + i - first[j]]
+            sums[r, 2 + j] = total
+        if nan:  # as in a product with every column: NaN times 0 is NaN
+            for j in range(2 + k):
+                sums[r, j] = np.nan
             continue
         limit = fraction * peak
         count = 0
@@ -1848,4 +1884,4 @@ def wave_columns(x, psi, bounds, x_ref, fraction, v_cells):
         for i in range(1, n - 1):
             v_nodes[i] = ((0.5 * (x[i] - x[i - 1])) * v_cells[i - 1] + (0.5 * (x[i + 1] - x[i])) * v_cells[i]) / (
                 0.5 * ((x[i] - x[i - 1]) + (x[i + 1] - x[i])))
-    return w, cols, changes, v_nodes
+    return w, cols, changes, v_nodes, sums
