@@ -205,7 +205,7 @@ def _sign_changes_numpy(psi, fraction):
 def test_observable_columns_are_the_numpy_forms(seed, n, k, states):
     """wave_columns: weights, moment columns, dual-cell overlaps (intervals inside, across the ends, beyond them,
     empty and on nodes), sign changes (rows with zeros, tiny unresolved tails and a NaN) and, for half the seeds,
-    V at the nodes from V on the cells, bit for bit; the sums of psi^2 times each column against numpy's matrix
+    V at the nodes from V on the cells (given per base cell of one, two or four cells), bit for bit; the sums of psi^2 times each column against numpy's matrix
     product, to round-off (the order of a sum differs)."""
     rng = np.random.default_rng(seed)
     x = np.cumsum(rng.uniform(0.01, 1.0, n)) - 3.0
@@ -220,9 +220,12 @@ def test_observable_columns_are_the_numpy_forms(seed, n, k, states):
         psi[-1, n // 2] = 0.0
     if states > 2:
         psi[1, n // 2] = np.nan
-    v_cells = rng.uniform(-300.0, 300.0, n - 1) if seed % 2 else np.zeros(0)
+    reps = int(rng.choice([1, 2, 4]))  # V given on base cells of ``reps`` cells each
+    v_base = rng.uniform(-300.0, 300.0, -(-(n - 1) // reps)) if seed % 2 else np.zeros(0)
+    v_cells = np.repeat(v_base, reps)[: n - 1]
     w, cols, changes, v_nodes, sums = kernels.wave_columns(x, np.ascontiguousarray(psi),
-                                                           np.ascontiguousarray(intervals), x_ref, 1e-6, v_cells, True)
+                                                           np.ascontiguousarray(intervals), x_ref, 1e-6, v_base, reps,
+                                                           True)
     w_ref, cols_ref = _observable_columns_numpy(x, intervals, x_ref)
     assert np.array_equal(w, w_ref) and np.array_equal(cols, cols_ref)
     # the sums: the product of psi^2 with the columns, each column summed in node order (so to round-off of the
@@ -235,7 +238,8 @@ def test_observable_columns_are_the_numpy_forms(seed, n, k, states):
     finite = ~np.isnan(product)
     assert np.all(np.abs(sums - product)[finite] <= 1e-13 * scale[finite])
     w2, cols2, changes2, v2, sums2 = kernels.wave_columns(x, np.ascontiguousarray(psi),
-                                                          np.ascontiguousarray(intervals), x_ref, 1e-6, v_cells, False)
+                                                          np.ascontiguousarray(intervals), x_ref, 1e-6, v_base, reps,
+                                                          False)
     assert cols2.shape == (0, 2 + k) and np.array_equal(w2, w) and np.array_equal(changes2, changes)
     assert np.array_equal(sums2, sums, equal_nan=True) and np.array_equal(v2, v_nodes, equal_nan=True)
     if v_cells.size:  # the dual-cell averages of V, as the numpy form of the observables made them
@@ -287,3 +291,63 @@ def test_interp_sorted_is_numpys_to_the_bit(seed, n):
     nan = np.isnan(want)
     assert np.array_equal(np.isnan(got), nan)
     assert np.array_equal(got[~nan].view(np.int64), want[~nan].view(np.int64))  # every bit, the sign of 0 too
+
+
+def _settle_numpy(energy, error, splitting, splitting_error, r):
+    """The numpy form of a level run's last steps (as fdsolver.boundstates.levels had them)."""
+    energy = energy.copy()
+    pair_round = r[:-1] + r[1:]
+    splitting_error = splitting_error + pair_round
+    bound = splitting <= pair_round
+    if np.any(bound):
+        splitting = np.where(bound, pair_round, splitting)
+    for k in np.flatnonzero(np.diff(energy) < 0):
+        if energy[k] - energy[k + 1] <= error[k] + error[k + 1]:
+            energy[k] = energy[k + 1] = 0.5 * (energy[k] + energy[k + 1])
+    order = np.argsort(energy, kind="stable")
+    off = np.abs(energy - energy[order])
+    return energy, error, splitting, splitting_error, bound, np.where(off > error + error[order], off, 0.0)
+
+
+@PROPS
+@given(st.integers(0, 10**6), st.integers(0, 9))
+def test_settled_levels_are_the_numpy_forms(seed, n):
+    """settle_levels: splittings bounded by the round-off floors, doublets inverted within their bars made one
+    mean (also two inversions in a row and ties), and extrapolations out of order beyond their bars, bit for bit
+    against the numpy form."""
+    rng = np.random.default_rng(seed)
+    energy = np.sort(rng.uniform(-50.0, 10.0, n))
+    error = 10.0 ** rng.uniform(-12.0, -6.0, n)
+    for k in range(n - 1):  # some neighbours swapped by less or more than their errors, some equal
+        pick = rng.integers(0, 4)
+        if pick == 0:
+            energy[k + 1] = energy[k] - rng.uniform(0.0, 2.0) * (error[k] + error[k + 1])
+        elif pick == 1:
+            energy[k + 1] = energy[k]
+    r = 10.0 ** rng.uniform(-14.0, -8.0, n)
+    splitting = np.diff(energy) * rng.choice([1.0, 1e-9], max(n - 1, 0))
+    splitting_error = 10.0 ** rng.uniform(-12.0, -6.0, max(n - 1, 0))
+    if n > 2 and seed % 3 == 0:
+        splitting[0] = np.nan
+    args = (energy, error, splitting, splitting_error, r)
+    before = [a.copy() for a in args]
+    got = kernels.settle_levels(*args)
+    want = _settle_numpy(*args)
+    for g, w in zip(got, want):
+        assert g.shape == w.shape and np.array_equal(g, w, equal_nan=True)
+    assert all(np.array_equal(a, b, equal_nan=True) for a, b in zip(args, before))  # inputs unchanged
+
+
+def test_settled_levels_at_exact_ties():
+    """settle_levels where a splitting equals its round-off floors and an inversion equals its two errors (both
+    at the bound: bounded, and made one mean), against the numpy form, bit for bit."""
+    energy = np.array([0.0, 1.0, 0.5, 2.0])
+    error = np.array([0.125, 0.25, 0.25, 0.125])
+    r = np.array([0.125, 0.25, 0.25, 0.125])
+    splitting = np.array([0.375, 0.5, 1.0])  # the first exactly r[0] + r[1]
+    splitting_error = np.array([0.0, 0.0, 0.0])
+    got = kernels.settle_levels(energy, error, splitting, splitting_error, r)
+    want = _settle_numpy(energy, error, splitting, splitting_error, r)
+    assert got[4][0] and got[1][0] == 0.125 and got[0][1] == got[0][2] == 0.75
+    for g, w in zip(got, want):
+        assert np.array_equal(g, w)

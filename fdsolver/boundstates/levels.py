@@ -99,7 +99,8 @@ class LevelRun:
     level_sizes: list
     roundoff_limited: np.ndarray  # states whose next level would be limited by round-off
     base: np.ndarray | None = None  # the base grid the levels refine
-    cells: tuple | None = None  # (V, m) on every cell of the finest level where each cell sees one value, else None
+    # (V, m) on every base cell where each cell of every level sees one value (its base cell's), else None
+    cells: tuple | None = None
 
 
 def _cells_of(constant, level: int):
@@ -124,9 +125,7 @@ def _out_of_order(value: np.ndarray, err: np.ndarray) -> np.ndarray:
     (states of two unlike wells) have not yet crossed on the finest grid: each extrapolation then follows
     the other state's index.  Such states are not converged until a finer level separates them.
     """
-    order = np.argsort(value, kind="stable")
-    off = np.abs(value - value[order])
-    return np.where(off > err + err[order], off, 0.0)
+    return kernels.out_of_order(np.ascontiguousarray(value, dtype=float), np.ascontiguousarray(err, dtype=float))
 
 
 def _judge(problem: Problem, table: Romberg, states: GridStates) -> tuple[np.ndarray, np.ndarray]:
@@ -225,12 +224,11 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
             judged = level
             if np.all(done) or np.all(done | limited):
                 break
-    cells_last = _cells_of(constant, last)
     if states is not None and sectors is None and compiled is not None and last == start - 1:
         nodes, sectors = compiled  # the all-levels call's finest level, and its operators
     elif states is not None and sectors is None:  # the finest level came from a per-level call: its operators
         nodes = refine(base, last)
-        sectors = sectors_on(problem, nodes, center, cells_last)
+        sectors = sectors_on(problem, nodes, center, _cells_of(constant, last))
     if states is None or states.size == 0:
         empty = np.empty(0)
         return LevelRun(empty, empty, empty, empty, np.zeros(0, bool),
@@ -254,18 +252,13 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
         if last > top:
             messages.append(f"state(s) {max(first, top + 1)} to {last} vanished on the grid of {size} nodes: bound too "
                             "weakly to be resolved here (not resolved)")
-    r = states.roundoff
-    pair_round = r[:-1] + r[1:]
-    splitting_error = splitting_error + pair_round
-    bound = splitting <= pair_round
-    if np.any(bound):
-        splitting = np.where(bound, pair_round, splitting)  # only an upper bound is known
-    for k in np.flatnonzero(np.diff(energy) < 0):
-        # an inversion within the error bars (a doublet split below double precision): the two agree, in order
-        if energy[k] - energy[k + 1] <= error[k] + error[k + 1]:
-            energy[k] = energy[k + 1] = 0.5 * (energy[k] + energy[k + 1])
-    off = _out_of_order(energy, error)
-    if np.any(off > 0):
+    # splittings at or below the two round-off floors only bounded by them; an inversion within the error bars
+    # (a doublet split below double precision) made one mean; how far an extrapolation is out of order
+    energy, error, splitting, splitting_error, bound, off = kernels.settle_levels(
+        np.ascontiguousarray(energy, dtype=float), np.ascontiguousarray(error, dtype=float),
+        np.ascontiguousarray(splitting, dtype=float), np.ascontiguousarray(splitting_error, dtype=float),
+        np.ascontiguousarray(states.roundoff, dtype=float))
+    if off.any():
         # beyond the bars: the levels of nearly equal states have not yet crossed on the finest grid, so an
         # extrapolation may belong to another state's index; each such error covers the exchange (not converged)
         error = np.maximum(error, off)
@@ -275,4 +268,4 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
                         "levels cross beyond the finest grid): which energy belongs to which index is uncertain by "
                         "that much, and their errors include it")
     return LevelRun(energy, error, splitting, splitting_error, bound, states, sectors, nodes, last, level_e, level_n,
-                    limited, base, cells_last)
+                    limited, base, constant)

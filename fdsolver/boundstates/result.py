@@ -142,7 +142,7 @@ def _sign_changes(psi: np.ndarray) -> np.ndarray:
     gap: both neighbours above :data:`RESOLVED_FRACTION` of the row's peak;
     :func:`fdsolver.numerics.kernels.wave_columns`)."""
     psi = np.ascontiguousarray(psi, dtype=float)
-    return kernels.wave_columns(np.zeros(psi.shape[1]), psi, np.zeros((0, 2)), 0.0, RESOLVED_FRACTION, _NONE,
+    return kernels.wave_columns(np.zeros(psi.shape[1]), psi, np.zeros((0, 2)), 0.0, RESOLVED_FRACTION, _NONE, 1,
                                 False)[2]
 
 
@@ -163,7 +163,8 @@ def _cell_overlaps(x_all: np.ndarray, intervals) -> np.ndarray:
     dual cells reach into the interval, 0 elsewhere)."""
     bounds = np.ascontiguousarray(np.asarray(intervals, dtype=float).reshape(-1, 2))
     x_all = np.ascontiguousarray(x_all, dtype=float)
-    return kernels.wave_columns(x_all, np.zeros((0, x_all.size)), bounds, 0.0, RESOLVED_FRACTION, _NONE, True)[1][:, 2:]
+    return kernels.wave_columns(x_all, np.zeros((0, x_all.size)), bounds, 0.0, RESOLVED_FRACTION, _NONE, 1,
+                                True)[1][:, 2:]
 
 
 def _cell_overlap(x_all: np.ndarray, lo: float, hi: float) -> np.ndarray:
@@ -238,9 +239,9 @@ def _observables(problem, box, run, conv: np.ndarray, index: np.ndarray, message
     # compiled pass over psi (each interval summed over its own nodes only: O(N) per state however many regions)
     x_ref = 0.5 * sum(pot.support())  # second moments about the structure's middle: no cancellation against <x>
     bounds = np.array([(lo, hi) for _, lo, hi in regions] + [(lo, hi) for _, lo, hi in zones], dtype=float)
-    v_cells = _NONE if run.cells is None else np.ascontiguousarray(run.cells[0], dtype=float)
+    v_cells = _NONE if run.cells is None else np.ascontiguousarray(run.cells[0], dtype=float)  # per base cell
     w_all, _, found, averaged, sums = kernels.wave_columns(x_all, psi, bounds.reshape(-1, 2), float(x_ref),
-                                                           RESOLVED_FRACTION, v_cells, False)
+                                                           RESOLVED_FRACTION, v_cells, 2**run.level, False)
     mean_x = sums[:, 0]
     spread = np.sqrt(np.maximum(0.0, sums[:, 1] - (mean_x - x_ref) ** 2))
     inside = sums[:, 2 : 2 + len(regions)]

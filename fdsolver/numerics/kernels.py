@@ -1539,6 +1539,52 @@ def romberg_newest(rows):
     return table[k, m].copy(), error
 
 
+@njit
+def out_of_order(value, err):
+    """How far each of ``value`` lies from the value at its index in the sorted values (a stable sort), where
+    that is more than the two errors ``err`` (0 elsewhere): :func:`fdsolver.boundstates.levels._out_of_order`,
+    the same floating-point operations.  O(n log n)."""
+    n = value.shape[0]
+    order = np.argsort(value, kind="mergesort")
+    off = np.empty(n)
+    for s in range(n):
+        d = abs(value[s] - value[order[s]])
+        off[s] = d if d > err[s] + err[order[s]] else 0.0
+    return off
+
+
+@njit
+def settle_levels(energy, error, splitting, splitting_error, roundoff):
+    """The last steps of a level run's extrapolation, in one call (copies; the inputs are not changed).
+
+    Each splitting's error gains the two states' round-off floors ``roundoff``; a splitting at or below them
+    is only bounded by them (``bound``, and the splitting set to that bound); two energies in the wrong order
+    by no more than their two errors are a doublet split below double precision: both take their mean (pairs
+    found on the energies as they came); and :func:`out_of_order` of the result.  Returns (energy, error,
+    splitting, splitting error, bound, off).  Energy unit of the inputs.  O(n log n).
+    """
+    n = energy.shape[0]
+    energy = energy.copy()
+    splitting = splitting.copy()
+    splitting_error = splitting_error.copy()
+    bound = np.zeros(max(n - 1, 0), np.bool_)
+    for j in range(n - 1):
+        pair = roundoff[j] + roundoff[j + 1]
+        splitting_error[j] = splitting_error[j] + pair
+        if splitting[j] <= pair:
+            bound[j] = True
+            splitting[j] = pair
+    inverted = np.zeros(max(n - 1, 0), np.bool_)
+    for k in range(n - 1):
+        inverted[k] = energy[k + 1] - energy[k] < 0.0
+    for k in range(n - 1):
+        if inverted[k] and energy[k] - energy[k + 1] <= error[k] + error[k + 1]:
+            mean = 0.5 * (energy[k] + energy[k + 1])
+            energy[k] = mean
+            energy[k + 1] = mean
+    return energy, error.copy(), splitting, splitting_error, bound, out_of_order(energy, error)
+
+
 #: why :func:`constant_levels` stopped: every state judged (converged, or limited by round-off); the level
 #: limit reached; the next level over the node budget; the one-call pass failed on a level (the general path
 #: decides it); the states of a level differ from the previous level's (the caller's loop handles it)
@@ -1785,7 +1831,7 @@ def home_of(inside, tie):
 
 
 @njit
-def wave_columns(x, psi, bounds, x_ref, fraction, v_cells, columns):
+def wave_columns(x, psi, bounds, x_ref, fraction, v_cells, reps, columns):
     """What the observables of the states ``psi`` (states x nodes, on the nodes ``x``, length unit) are summed
     from, and their sums, in one pass: (node weights w, columns, sign changes, V at the nodes, sums).
 
@@ -1796,9 +1842,9 @@ def wave_columns(x, psi, bounds, x_ref, fraction, v_cells, columns):
     <x>, <(x - x_ref)^2> and each interval's probability), added in node order, an interval's only over the
     nodes whose dual cells reach into it; all NaN for a row holding a NaN.  The sign changes of each row of psi counted between neighbours that
     both exceed ``fraction`` of the row's largest |psi| (none in a row holding a NaN).  With V on every cell
-    (``v_cells``, energy unit; empty for none) also V at the interior nodes as the operator sees it, the
-    average over the node's dual cell, (h_{i-1}/2 V_{i-1} + h_i/2 V_i) / w_i (the ends left NaN; else an empty
-    array).  The weights, columns and V the same floating-point operations as the numpy forms of
+    (``v_cells``, energy unit, each value on ``reps`` cells in a row: V_i = v_cells[i // reps]; empty for none)
+    also V at the interior nodes as the operator sees it, the average over the node's dual cell,
+    (h_{i-1}/2 V_{i-1} + h_i/2 V_i) / w_i (the ends left NaN; else an empty array).  The weights, columns and V the same floating-point operations as the numpy forms of
     :mod:`fdsolver.boundstates.result`.  O(N states + K log N), and O(N K) more with ``columns``.
     """
     n = x.shape[0]
@@ -1882,6 +1928,6 @@ def wave_columns(x, psi, bounds, x_ref, fraction, v_cells, columns):
     if v_cells.shape[0]:
         v_nodes[0] = v_nodes[n - 1] = np.nan
         for i in range(1, n - 1):
-            v_nodes[i] = ((0.5 * (x[i] - x[i - 1])) * v_cells[i - 1] + (0.5 * (x[i + 1] - x[i])) * v_cells[i]) / (
-                0.5 * ((x[i] - x[i - 1]) + (x[i + 1] - x[i])))
+            v_nodes[i] = ((0.5 * (x[i] - x[i - 1])) * v_cells[(i - 1) // reps]
+                          + (0.5 * (x[i + 1] - x[i])) * v_cells[i // reps]) / (0.5 * ((x[i] - x[i - 1]) + (x[i + 1] - x[i])))
     return w, cols, changes, v_nodes, sums
