@@ -351,3 +351,33 @@ def test_settled_levels_at_exact_ties():
     assert got[4][0] and got[1][0] == 0.125 and got[0][1] == got[0][2] == 0.75
     for g, w in zip(got, want):
         assert np.array_equal(g, w)
+
+
+def _cone_tables_numpy(p, c, slope):
+    """The numpy form of the cone tables (as fdsolver.numerics.grid had it)."""
+    order = np.argsort(p)
+    p, c = p[order], c[order]
+    left = np.concatenate([[np.inf], np.minimum.accumulate(c - slope * p)])
+    right = np.concatenate([np.minimum.accumulate((c + slope * p)[::-1])[::-1], [np.inf]])
+    return p, left, right
+
+
+@PROPS
+@given(st.integers(0, 10**6), st.integers(0, 12))
+def test_cone_tables_read_as_the_numpy_form(seed, k):
+    """cone_tables: the sorted apexes, and the prefix and suffix minima wherever target_spacing reads them (at
+    the ends of every group of equal apexes: many apexes share a position here), bit for bit against the numpy
+    form; a NaN cone spreads as numpy's minimum spreads it."""
+    rng = np.random.default_rng(seed)
+    p = np.round(rng.uniform(-3.0, 3.0, k), 0 if seed % 2 else 3)  # rounding to whole numbers makes ties
+    c = rng.uniform(0.01, 2.0, k)
+    if k > 3 and seed % 5 == 0:
+        c[k // 2] = np.nan
+    slope = float(rng.uniform(0.05, 0.5))
+    apex, left, right = kernels.cone_tables(p, c, slope)
+    p_ref, left_ref, right_ref = _cone_tables_numpy(p, c, slope)
+    assert np.array_equal(apex, p_ref)
+    for x in np.concatenate([p, rng.uniform(-4.0, 4.0, 20)]):
+        lo, hi = np.searchsorted(apex, x, "right"), np.searchsorted(apex, x, "left")  # as target_spacing reads
+        assert np.array_equal(left[lo], left_ref[lo], equal_nan=True)
+        assert np.array_equal(right[hi], right_ref[hi], equal_nan=True)

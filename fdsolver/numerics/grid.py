@@ -38,6 +38,7 @@ import numpy as np
 
 from fdsolver.model.potential import remembered
 from fdsolver.numerics.kernels import (
+    cone_tables,
     grid_samples,
     inner_bounds,
     piece_grid,
@@ -194,15 +195,11 @@ class Spacing:
 
 
 def _cone_tables(p: np.ndarray, c: np.ndarray, slope: float):
-    """Tables of the cone envelope x -> min_j (c_j + slope |x - p_j|) (inf without cones), O((N + K) log K) for N
-    samples and K cones: the sorted apexes p, prefix minima of c - slope p (inf first) and suffix minima of
-    c + slope p (inf last).
+    """Tables of the cone envelope x -> min_j (c_j + slope |x - p_j|) (inf without cones), O(K log K) for K
+    cones: the sorted apexes p, prefix minima of c - slope p (inf first) and suffix minima of c + slope p (inf
+    last), in one compiled call (:func:`fdsolver.numerics.kernels.cone_tables`).
 
     Left of x the minimum is min_{p_j <= x} (c_j - slope p_j) + slope x, right of it
     min_{p_j >= x} (c_j + slope p_j) - slope x; :func:`fdsolver.numerics.kernels.target_spacing` reads it.
     """
-    order = np.argsort(p)
-    p, c = np.ascontiguousarray(p[order]), c[order]
-    left = np.concatenate([[np.inf], np.minimum.accumulate(c - slope * p)])
-    right = np.concatenate([np.minimum.accumulate((c + slope * p)[::-1])[::-1], [np.inf]])
-    return p, left, right
+    return cone_tables(np.ascontiguousarray(p, dtype=float), np.ascontiguousarray(c, dtype=float), float(slope))

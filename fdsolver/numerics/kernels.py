@@ -1021,13 +1021,38 @@ def grid_samples(lo, hi, bounds, local, offs, background):
 
 
 @njit
+def cone_tables(p, c, slope):
+    """Tables of the cone envelope x -> min_j (c_j + slope |x - p_j|) (length unit; inf without cones) for
+    :func:`target_spacing`: the apexes ``p`` sorted (a stable sort), the prefix minima of c - slope p (inf
+    first) and the suffix minima of c + slope p (inf last), each minimum taken in order as numpy's
+    ``minimum.accumulate`` takes it (NaN kept).  Among apexes at the same position the order of their cones
+    differs from an unstable sort's, but :func:`target_spacing` reads the tables only at the ends of such a
+    group, where the minima cover all of it.  O(K log K)."""
+    k = p.shape[0]
+    order = np.argsort(p, kind="mergesort")
+    apex = np.empty(k)
+    left = np.empty(k + 1)
+    right = np.empty(k + 1)
+    left[0] = np.inf
+    for i in range(k):
+        apex[i] = p[order[i]]
+        t = c[order[i]] - slope * apex[i]
+        left[i + 1] = t if i == 0 else _nan_min(left[i], t)
+    right[k] = np.inf
+    for i in range(k - 1, -1, -1):
+        t = c[order[i]] + slope * apex[i]
+        right[i] = t if i == k - 1 else _nan_min(right[i + 1], t)
+    return apex, left, right
+
+
+@njit
 def target_spacing(x, v, m, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap, wave_fraction, apex, left, right, slope):
     """The raw target spacing h(x) of a base grid from V and m sampled at ``x`` (length unit), one pass.
 
     h = wave_fraction / sqrt(r2), r2 = m max(|V - e_lo|, |V - e_hi|) / c (|V - e_lo| taken as 0 farther than
     ``reach`` outside [lo_s, hi_s]; a non-finite r2 counts as inf; r2 at most ``r2_cap``), then at most the cone
     envelope min_j (c_j + slope |x - p_j|) over the sorted apexes ``apex`` with prefix minima ``left`` of
-    c_j - slope p_j and suffix minima ``right`` of c_j + slope p_j (:func:`fdsolver.numerics.grid._cone_tables`).
+    c_j - slope p_j and suffix minima ``right`` of c_j + slope p_j (:func:`cone_tables`).
     The same floating-point operations as the numpy form, in the same order.
     """
     n = x.shape[0]
