@@ -325,18 +325,18 @@ def tridiag_factor(d, e, sigma):
 
 @njit
 def tridiag_apply_into(r0, u1, u2, lmul, piv, b, y):
-    """Solve with the factors of :func:`tridiag_factor` into ``y`` (``b`` is not changed); returns max |y|
-    (NaN if y is not finite).  O(N)."""
+    """Solve with the factors of :func:`tridiag_factor` into ``y`` (``b`` is not changed, and must not be ``y``);
+    returns max |y| (NaN if y is not finite).  The forward sweep reads b[i + 1] where it first needs it (no
+    copy of b first: entry i + 1 is untouched before step i).  O(N)."""
     n = r0.shape[0]
-    for i in range(n):
-        y[i] = b[i]
+    y[0] = b[0]
     for i in range(n - 1):
         if piv[i]:
             t = y[i]
-            y[i] = y[i + 1]
+            y[i] = b[i + 1]
             y[i + 1] = t - lmul[i] * y[i]
         else:
-            y[i + 1] = y[i + 1] - lmul[i] * y[i]
+            y[i + 1] = b[i + 1] - lmul[i] * y[i]
     y[n - 1] = y[n - 1] * r0[n - 1]
     big = abs(y[n - 1])
     if n > 1:
