@@ -220,9 +220,10 @@ def test_observable_columns_are_the_numpy_forms(seed, n, k, states):
         psi[-1, n // 2] = 0.0
     if states > 2:
         psi[1, n // 2] = np.nan
-    reps = int(rng.choice([1, 2, 4]))  # V given on base cells of ``reps`` cells each
-    v_base = rng.uniform(-300.0, 300.0, -(-(n - 1) // reps)) if seed % 2 else np.zeros(0)
-    v_cells = np.repeat(v_base, reps)[: n - 1]
+    reps = int(rng.choice([1, 2, 4]))  # V given on base cells of ``reps`` cells each (as the levels refine them)
+    reps = reps if (n - 1) % reps == 0 else 1
+    v_base = rng.uniform(-300.0, 300.0, (n - 1) // reps) if seed % 2 else np.zeros(0)
+    v_cells = np.repeat(v_base, reps)
     w, cols, changes, v_nodes, sums = kernels.wave_columns(x, np.ascontiguousarray(psi),
                                                            np.ascontiguousarray(intervals), x_ref, 1e-6, v_base, reps,
                                                            True)
@@ -242,6 +243,11 @@ def test_observable_columns_are_the_numpy_forms(seed, n, k, states):
                                                           False)
     assert cols2.shape == (0, 2 + k) and np.array_equal(w2, w) and np.array_equal(changes2, changes)
     assert np.array_equal(sums2, sums, equal_nan=True) and np.array_equal(v2, v_nodes, equal_nan=True)
+    if v_base.size:  # V on too few or too many cells for the nodes: not read past its end, no V at the nodes
+        for wrong in (v_base[:-1], np.concatenate([v_base, v_base])):
+            got = kernels.wave_columns(x, np.ascontiguousarray(psi), np.ascontiguousarray(intervals), x_ref, 1e-6,
+                                       np.ascontiguousarray(wrong), reps, False)[3]
+            assert got.size == 0
     if v_cells.size:  # the dual-cell averages of V, as the numpy form of the observables made them
         half = 0.5 * (x[1:] - x[:-1]) * v_cells
         h = np.diff(x)

@@ -127,6 +127,39 @@ def test_a_state_leaving_through_the_window_foot_is_not_reported_as_unresolved()
     assert not any("vanished" in m for m in sol.messages), sol.messages
 
 
+def test_a_state_leaving_through_the_window_top_keeps_the_potential_at_the_nodes_right(monkeypatch):
+    """A square well (10 nm, 300 meV, mass 0.067; invented) with a window whose top lies between the third
+    state's energy on the coarsest grid (-30.08 meV) and on the finer ones (-28.9 meV and up): that state
+    leaves through the top and is noted as vanished.  The run's finest level must still be the level of its
+    nodes (the note's state numbers once took its place), so that V at the nodes, made from V on the base
+    cells repeated 2^level times, is V itself away from the well's edges (a square well is constant there), to
+    the rounding of the dual-cell average."""
+    from fdsolver.boundstates import driver
+    from fdsolver.runs import solve_case
+
+    runs = []
+    real = driver.refine_levels
+
+    def keep(*args, **kwargs):
+        runs.append(real(*args, **kwargs))
+        return runs[-1]
+
+    monkeypatch.setattr(driver, "refine_levels", keep)
+    data = {"units": "nm-meV", "mass": 0.067,
+            "potential": [{"shape": "square", "center": 0.0, "width": 10.0, "depth": 300.0}],
+            "solve": {"energy_window": [-300.0, -29.5]}}
+    case = fdsolver.case_from_dict(data)
+    sol = solve_case(case)
+    run = runs[-1]
+    assert run.nodes.size == (run.base.size - 1) * 2**run.level + 1  # the level of the finest nodes
+    assert any("vanished" in m for m in sol.messages), sol.messages
+    assert list(sol.index) == [0, 1] and sol.level_sizes.size >= 3
+    x, v = sol.x[1:-1], sol.potential[1:-1]
+    away = np.abs(np.abs(x) - 5.0) > 1e-6  # not on an edge, where the dual cell straddles it
+    assert np.all(np.isfinite(v))
+    assert np.max(np.abs(v[away] - case.potential.value(x[away]))) <= 1e-12 * 300.0  # the average's rounding
+
+
 @PROPS
 @given(st.permutations(list(range(9))))
 def test_rows_are_permuted_in_place_as_fancy_indexing_would(order):

@@ -1869,7 +1869,8 @@ def wave_columns(x, psi, bounds, x_ref, fraction, v_cells, reps, columns):
     both exceed ``fraction`` of the row's largest |psi| (none in a row holding a NaN).  With V on every cell
     (``v_cells``, energy unit, each value on ``reps`` cells in a row: V_i = v_cells[i // reps]; empty for none)
     also V at the interior nodes as the operator sees it, the average over the node's dual cell,
-    (h_{i-1}/2 V_{i-1} + h_i/2 V_i) / w_i (the ends left NaN; else an empty array).  The weights, columns and V the same floating-point operations as the numpy forms of
+    (h_{i-1}/2 V_{i-1} + h_i/2 V_i) / w_i (the ends left NaN; an empty array without V on the cells, or where
+    its values times ``reps`` do not cover the N - 1 cells exactly).  The weights, columns and V the same floating-point operations as the numpy forms of
     :mod:`fdsolver.boundstates.result`.  O(N states + K log N), and O(N K) more with ``columns``.
     """
     n = x.shape[0]
@@ -1949,8 +1950,9 @@ def wave_columns(x, psi, bounds, x_ref, fraction, v_cells, reps, columns):
             if abs(p) > limit and abs(q) > limit and (p > 0.0) != (q > 0.0):
                 count += 1
         changes[r] = count
-    v_nodes = np.empty(n if v_cells.shape[0] else 0)
-    if v_cells.shape[0]:
+    given = v_cells.shape[0] > 0 and v_cells.shape[0] * reps == n - 1  # else V is not known on every cell
+    v_nodes = np.empty(n if given else 0)
+    if given:
         v_nodes[0] = v_nodes[n - 1] = np.nan
         for i in range(1, n - 1):
             v_nodes[i] = ((0.5 * (x[i] - x[i - 1])) * v_cells[(i - 1) // reps]
