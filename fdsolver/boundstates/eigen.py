@@ -48,10 +48,10 @@ from fdsolver.numerics.precision import EPS
 
 #: states closer than this fraction of their energy scale are a cluster (Gram-Schmidt between them)
 CLUSTER_RTOL = 1e-4
-#: inverse-iteration steps per vector, from an eigenvalue accurate to bisection or predicted by the coarser levels:
-#: each step shrinks another state's share by |E - shift| / |E' - shift| (about 1e-6 or less from such a shift, so
-#: two leave about 1e-12); the residual check after them sharpens or redoes any vector they leave short
-INVERSE_STEPS = 2
+#: inverse-iteration steps per vector (from an eigenvalue accurate to bisection, or predicted by the coarser
+#: levels).  Two would do for well separated states; the closely spaced states of a miniband then fail the
+#: residual check and take the Rayleigh-quotient step and a redo (measured: DEVELOPERS.md, session 20)
+INVERSE_STEPS = 3
 #: a residual |T u - lambda u| above this many times the state's round-off scale is sharpened (a Rayleigh-quotient
 #: step, then a redo); at or below it the state is kept as it is
 RESIDUAL_FACTOR = 1e3
