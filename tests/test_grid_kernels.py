@@ -205,8 +205,8 @@ def _sign_changes_numpy(psi, fraction):
 def test_observable_columns_are_the_numpy_forms(seed, n, k, states):
     """wave_columns: weights, moment columns, dual-cell overlaps (intervals inside, across the ends, beyond them,
     empty and on nodes), sign changes (rows with zeros, tiny unresolved tails and a NaN) and, for half the seeds,
-    V at the nodes from V on the cells (given per base cell of one, two or four cells), bit for bit; the sums of psi^2 times each column against numpy's matrix
-    product, to round-off (the order of a sum differs)."""
+    V at the nodes from V on the cells (given per base cell of one, two or four cells), bit for bit; the sums
+    of psi^2 times each column against numpy's matrix product, to round-off (the order of a sum differs)."""
     rng = np.random.default_rng(seed)
     x = np.cumsum(rng.uniform(0.01, 1.0, n)) - 3.0
     ends = rng.uniform(x[0] - 2.0, x[-1] + 2.0, (k, 2))

@@ -250,8 +250,8 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
     top = states.first_index + states.size - 1
     for lowest, highest, size in vanished:  # said only of states that did not come back
         if highest > top:
-            messages.append(f"state(s) {max(lowest, top + 1)} to {highest} vanished on the grid of {size} nodes: bound too "
-                            "weakly to be resolved here (not resolved)")
+            messages.append(f"state(s) {max(lowest, top + 1)} to {highest} vanished on the grid of {size} nodes: "
+                            "bound too weakly to be resolved here (not resolved)")
     # splittings at or below the two round-off floors only bounded by them; an inversion within the error bars
     # (a doublet split below double precision) made one mean; how far an extrapolation is out of order
     energy, error, splitting, splitting_error, bound, off = kernels.settle_levels(

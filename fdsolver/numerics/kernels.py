@@ -1865,13 +1865,15 @@ def wave_columns(x, psi, bounds, x_ref, fraction, v_cells, reps, columns):
     [bounds[j, 0], bounds[j, 1]] (made as an N x (2 + K) array only with ``columns``, else an empty one); the
     sums are sum_i psi_i^2 column_i for every state and column (states x (2 + K); psi in length^-1/2, so
     <x>, <(x - x_ref)^2> and each interval's probability), added in node order, an interval's only over the
-    nodes whose dual cells reach into it; all NaN for a row holding a NaN.  The sign changes of each row of psi counted between neighbours that
-    both exceed ``fraction`` of the row's largest |psi| (none in a row holding a NaN).  With V on every cell
+    nodes whose dual cells reach into it; all NaN for a row holding a NaN.  The sign changes of each row of psi
+    counted between neighbours that both exceed ``fraction`` of the row's largest |psi| (none in a row holding
+    a NaN).  With V on every cell
     (``v_cells``, energy unit, each value on ``reps`` cells in a row: V_i = v_cells[i // reps]; empty for none)
     also V at the interior nodes as the operator sees it, the average over the node's dual cell,
     (h_{i-1}/2 V_{i-1} + h_i/2 V_i) / w_i (the ends left NaN; an empty array without V on the cells, or where
-    its values times ``reps`` do not cover the N - 1 cells exactly).  The weights, columns and V the same floating-point operations as the numpy forms of
-    :mod:`fdsolver.boundstates.result`.  O(N states + K log N), and O(N K) more with ``columns``.
+    its values times ``reps`` do not cover the N - 1 cells exactly).  The weights, columns and V by the same
+    floating-point operations as the numpy forms of :mod:`fdsolver.boundstates.result`.  O(N states + K log N),
+    and O(N K) more with ``columns``.
     """
     n = x.shape[0]
     k = bounds.shape[0]
@@ -1956,5 +1958,6 @@ def wave_columns(x, psi, bounds, x_ref, fraction, v_cells, reps, columns):
         v_nodes[0] = v_nodes[n - 1] = np.nan
         for i in range(1, n - 1):
             v_nodes[i] = ((0.5 * (x[i] - x[i - 1])) * v_cells[(i - 1) // reps]
-                          + (0.5 * (x[i + 1] - x[i])) * v_cells[i // reps]) / (0.5 * ((x[i] - x[i - 1]) + (x[i + 1] - x[i])))
+                          + (0.5 * (x[i + 1] - x[i])) * v_cells[i // reps]) / (
+                0.5 * ((x[i] - x[i - 1]) + (x[i + 1] - x[i])))
     return w, cols, changes, v_nodes, sums
