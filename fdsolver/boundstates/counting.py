@@ -36,6 +36,7 @@ from typing import Callable
 
 import numpy as np
 
+from fdsolver.boundstates.eigen import point_arrays
 from fdsolver.errors import CaseError
 from fdsolver.model.domain import Domain, continuum_threshold
 from fdsolver.numerics.cells import LAYOUT_SAMPLES, Layout, cells, make_layout, scale_of
@@ -108,10 +109,8 @@ def _tabled_margin(potential) -> float | None:
         return None
     vt = open_threshold(potential)
     feats = table[0]
-    first, last = feats[0] - 0.0, feats[-1] + 0.0  # the compact layout's ends (no tails)
-    terms = potential.point_terms()
-    pos = np.array([p for p, _ in terms], dtype=float)
-    alpha = np.array([a for _, a in terms], dtype=float)
+    first, last = float(feats[0]), float(feats[-1])  # the compact layout's ends (no tails)
+    pos, alpha = point_arrays(potential)
     done, phi, _ = tabled_margin(np.linspace(first, last, LAYOUT_SAMPLES), feats, *table[1:], pos, alpha, vt,
                                  potential.hbar2_2me, scale_of(potential) ** -2, _end_flux(potential, vt, -1, first),
                                  _end_flux(potential, vt, 1, last), apart_tolerance(feats))

@@ -221,10 +221,10 @@ def tabled_margin(xs, feats, v_piece, m_piece, v_feat, m_feat, pos, alpha, vt, c
             vspan = max(vspan, dv)
         m_max = max(m_max, m[i])
     kscale = c * math.sqrt(m_max * vspan / c + inv_scale2) / m_max
-    edges = np.empty(nf + 2)
-    edges[0] = feats[0] - 0.0
+    edges = np.empty(nf + 2)  # the outer features twice: the end cells of zero width
+    edges[0] = feats[0]
     edges[1:-1] = feats
-    edges[-1] = feats[-1] + 0.0
+    edges[-1] = feats[-1]
     jump = np.zeros(nf + 2)
     for j in range(pos.shape[0]):  # each point term on its nearer edge (points are features: exactly on one)
         i = min(max(search_sorted(edges, pos[j], False), 1), nf + 1)
