@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from functools import cached_property
 
 import numpy as np
 
@@ -19,6 +18,25 @@ from fdsolver.arrays import sorted_distinct
 from fdsolver.model.shapes import INF, Shape
 from fdsolver.model.stack import LayerStack
 from fdsolver.model.units import UnitSystem
+
+
+class _once:
+    """A property worked out on its first read and kept in the instance's ``__dict__`` (later reads find it there
+    and never call this descriptor): :func:`functools.cached_property` without its lock, which Python 3.11 takes
+    on every first read (about 0.5 us each, and a fresh potential has a dozen such reads in a solve).  Two threads
+    reading it at once may both work it out; every such property is a pure function of an immutable potential,
+    so either value is the same."""
+
+    def __init__(self, func):
+        self.func = func
+        self.name = func.__name__
+        self.__doc__ = func.__doc__
+
+    def __get__(self, instance, owner=None):
+        if instance is None:
+            return self
+        value = instance.__dict__[self.name] = self.func(instance)
+        return value
 
 
 @dataclass(frozen=True)
@@ -34,7 +52,7 @@ class Potential:
     stack: LayerStack | None = None
 
     # ------------------------------------------------------------------ values
-    @cached_property
+    @_once
     def _summers(self) -> tuple:
         """One prepared evaluator per shape class, each summing all its instances in one pass."""
         groups: dict[type[Shape], list[Shape]] = {}
@@ -105,7 +123,7 @@ class Potential:
         """All zero-range terms (position, alpha), -alpha delta(x - position)."""
         return list(self._point_terms)
 
-    @cached_property
+    @_once
     def _piecewise_constant(self) -> bool:
         """True if V is constant between the features (square wells, point terms, a layer stack)."""
         return all(s.piecewise_constant for s in self.shapes)
@@ -120,7 +138,7 @@ class Potential:
         m) is constant between the features (:attr:`piecewise_constant`) sees every value V takes there."""
         return self.pieces(lo, hi)[0]
 
-    @cached_property
+    @_once
     def piece_table(self) -> tuple[np.ndarray, ...] | None:
         """V and m as tables, where V is constant between the features (:attr:`piecewise_constant`): (features,
         V on each open piece, m on each, V at each feature, m at each), the pieces numbered from the one left of
@@ -154,7 +172,7 @@ class Potential:
         ends = np.concatenate([[lo], feats[(feats > lo) & (feats < hi)], [hi]])
         return 0.5 * (ends[1:] + ends[:-1]), np.diff(ends)
 
-    @cached_property
+    @_once
     def _point_terms(self) -> tuple[tuple[float, float], ...]:
         out: list[tuple[float, float]] = []
         for shape in self.shapes:
@@ -166,16 +184,16 @@ class Potential:
         """Sorted unique positions that must be grid nodes."""
         return self._features.copy()
 
-    @cached_property
+    @_once
     def _features(self) -> np.ndarray:
         return self._feature_points[0]
 
-    @cached_property
+    @_once
     def _features_merged(self) -> bool:
         """True if distinct feature positions closer than round-off were merged into one."""
         return self._feature_points[1]
 
-    @cached_property
+    @_once
     def _feature_points(self) -> tuple[np.ndarray, bool]:
         """(the sorted distinct feature positions, positions closer than round-off merged; whether any were)."""
         found: list[float] = []
@@ -195,7 +213,7 @@ class Potential:
         """(position, length scale) pairs: the grid must resolve ``scale`` around ``position``."""
         return list(self._feature_scales)
 
-    @cached_property
+    @_once
     def _feature_scales(self) -> tuple[tuple[float, float], ...]:
         out = []
         for shape in self.shapes:
@@ -214,7 +232,7 @@ class Potential:
         """(position, 1/g) for each attractive point term, g = m alpha / hbar^2: its bound-state decay length."""
         return list(self._point_scales)
 
-    @cached_property
+    @_once
     def _point_scales(self) -> tuple[tuple[float, float], ...]:
         terms = self.point_terms()
         if not terms:
@@ -231,7 +249,7 @@ class Potential:
         """Limit of V at side*infinity (+-inf for unbounded shapes)."""
         return self._asymptotes[0 if side < 0 else 1]
 
-    @cached_property
+    @_once
     def _asymptotes(self) -> tuple[float, float]:
         return self._asymptote(-1), self._asymptote(1)
 
@@ -252,7 +270,7 @@ class Potential:
         """The interval holding every feature (and region) of the potential."""
         return self._support
 
-    @cached_property
+    @_once
     def _support(self) -> tuple[float, float]:
         feats = self._features
         lo = float(feats[0]) if feats.size else math.inf
@@ -268,7 +286,7 @@ class Potential:
         """Named intervals for the 'probability inside' report: named shapes and named layers."""
         return list(self._regions)
 
-    @cached_property
+    @_once
     def _regions(self) -> tuple[tuple[str, float, float], ...]:
         out = []
         for shape in self.shapes:
@@ -297,7 +315,7 @@ class Potential:
             self._mirror_memo[key] = self._mirror_center(lo, hi)
         return self._mirror_memo[key]
 
-    @cached_property
+    @_once
     def _mirror_memo(self) -> dict:
         return {}
 
@@ -313,7 +331,7 @@ class Potential:
             facts[key] = compute()
         return facts[key]
 
-    @cached_property
+    @_once
     def _facts(self) -> dict:
         return {}
 
