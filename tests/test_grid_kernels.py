@@ -76,13 +76,15 @@ def _even_half_numpy(a, w, vw, c):
 @PROPS
 @given(st.integers(0, 10**6), st.integers(2, 200))
 def test_even_sector_is_the_numpy_form(seed, n):
-    """Random graded cells, masses and potential values: every array of the even sector bit for bit."""
+    """Random graded cells, masses and potential values: every array of the even sector bit for bit (its d and
+    e past the centre taken from the whole operator's, which symmetric_form makes)."""
     rng = np.random.default_rng(seed)
     a = 10.0 ** rng.uniform(-2.0, 3.0, n + 1)
     w = 10.0 ** rng.uniform(-3.0, 0.0, n)
     vw = rng.normal(0.0, 5.0, n)
+    d, e = kernels.symmetric_form(a, w, vw)
     for c in (0, n // 2, n - 1):
-        for got, want in zip(kernels.even_half(a, w, vw, c), _even_half_numpy(a, w, vw, c)):
+        for got, want in zip(kernels.even_half(a, w, vw, d, e, c), _even_half_numpy(a, w, vw, c)):
             assert np.array_equal(got, want)
 
 
@@ -387,3 +389,49 @@ def test_cone_tables_read_as_the_numpy_form(seed, k):
         lo, hi = np.searchsorted(apex, x, "right"), np.searchsorted(apex, x, "left")  # as target_spacing reads
         assert np.array_equal(left[lo], left_ref[lo], equal_nan=True)
         assert np.array_equal(right[hi], right_ref[hi], equal_nan=True)
+
+
+@PROPS
+@given(st.floats(-1e6, 1e6), st.floats(-1e6, 1e6), st.integers(2, 2000))
+def test_even_samples_are_numpys_linspace(lo, hi, num):
+    """The layout's even samples (kernels.even_samples) against numpy.linspace, bit for bit: spans of any sign
+    and size, equal ends, and spans so small that the step underflows (numpy's other formula)."""
+    assert np.array_equal(kernels.even_samples(lo, hi, num), np.linspace(lo, hi, num))
+    assert np.array_equal(kernels.even_samples(lo, lo, num), np.linspace(lo, lo, num))
+    tiny = 5e-324 * (1 + num % 3)  # a subnormal span: its step is 0 in floating point
+    assert np.array_equal(kernels.even_samples(0.0, tiny, num), np.linspace(0.0, tiny, num))
+
+
+@PROPS
+@given(st.floats(-1e4, 1e4), st.floats(0.0, 1e4), st.floats(1e-6, 1e6))
+def test_walk_pair_is_the_numpy_form(lo, width, scale):
+    """Both decay walks of a box in one array (kernels.walk_pair) against the numpy form they replace
+    (fdsolver.boundstates.box: the offsets of _walk subtracted from the support's left end, then added to its
+    right end), bit for bit."""
+    from fdsolver.boundstates import box
+
+    hi = lo + width
+    t = box._walk(scale)
+    want = np.concatenate([lo - t, hi + t])
+    assert np.array_equal(kernels.walk_pair(lo, hi, scale * 1e-3, scale * 1e9, box._LADDER), want)
+
+
+@PROPS
+@given(st.integers(0, 10**6), st.integers(1, 3000), st.floats(-50.0, 50.0))
+def test_floor_sums_are_numpys_reductions(seed, n, level):
+    """The box samples' reductions in one pass (kernels.floor_sums) against numpy's min, max and pairwise sum,
+    bit for bit, on values spread over ten decades (the sum's order decides its last bits), and a NaN or an
+    infinite V flagged as not finite."""
+    rng = np.random.default_rng(seed)
+    v = rng.normal(0.0, 1.0, n) * 10.0 ** rng.uniform(-5.0, 5.0, n)
+    m = rng.uniform(0.01, 2.0, n)
+    dx = 10.0 ** rng.uniform(-3.0, 1.0, n)
+    finite, lowest, highest, heaviest, area = kernels.floor_sums(v, m, dx, level)
+    assert finite
+    assert (lowest, highest, heaviest) == (np.min(v), np.max(v), np.max(m))
+    assert area == np.sum(np.maximum(level - v, 0.0) * dx)
+    assert kernels.floor_sums(v, m, dx, np.inf)[4] == 0.0  # no finite level: no area
+    for bad in (np.nan, np.inf):
+        w = v.copy()
+        w[rng.integers(n)] = bad
+        assert not kernels.floor_sums(w, m, dx, level)[0]

@@ -16,7 +16,7 @@ import math
 import numpy as np
 
 from fdsolver.model.potential import Potential, remembered
-from fdsolver.numerics.kernels import decay_reach
+from fdsolver.numerics.kernels import decay_reach, walk_pair
 from fdsolver.numerics.tables import table_values
 
 #: ratio of successive sample distances when the WKB decay integral is walked out from the potential
@@ -42,6 +42,8 @@ _LADDER = GROWTH ** np.arange(0, int(np.log(1e12) / np.log(GROWTH)) + 2)
 
 
 def _walk(scale: float) -> np.ndarray:
+    """The offsets of one decay walk (length unit): 0, then ``scale`` 1e-3 times the ladder below 1e9 ``scale``
+    (both walks of a box at once: :func:`fdsolver.numerics.kernels.walk_pair`)."""
     t = scale * 1e-3 * _LADDER
     return np.concatenate([[0.0], t[t < scale * 1e9]])
 
@@ -88,8 +90,8 @@ def _decay_walks(pot: Potential) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     the length scale): one evaluation of V and m for every box a solve sizes, read from the piece tables where
     that gives the same numbers (:func:`fdsolver.numerics.tables.table_values`)."""
     lo_s, hi_s = pot.support()
-    t = _walk(length_scale(pot))
-    x = np.concatenate([lo_s - t, hi_s + t])  # both walks in one evaluation of V
+    scale = length_scale(pot)
+    x = walk_pair(float(lo_s), float(hi_s), scale * 1e-3, scale * 1e9, _LADDER)  # both walks: one evaluation of V
     read = table_values(pot, x)
     if read is not None:
         return x, read[0], read[1]

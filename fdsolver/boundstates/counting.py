@@ -111,7 +111,7 @@ def _tabled_margin(potential) -> float | None:
     feats = table[0]
     first, last = float(feats[0]), float(feats[-1])  # the compact layout's ends (no tails)
     pos, alpha = point_arrays(potential)
-    done, phi, _ = tabled_margin(np.linspace(first, last, LAYOUT_SAMPLES), feats, *table[1:], pos, alpha, vt,
+    done, phi, _ = tabled_margin(LAYOUT_SAMPLES, feats, *table[1:], pos, alpha, vt,
                                  potential.hbar2_2me, scale_of(potential) ** -2, _end_flux(potential, vt, -1, first),
                                  _end_flux(potential, vt, 1, last), apart_tolerance(feats))
     return phi if done else None

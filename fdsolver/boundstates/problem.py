@@ -24,6 +24,7 @@ from fdsolver.boundstates.settings import SolveSettings
 from fdsolver.errors import CaseError
 from fdsolver.model.domain import Domain, continuum_threshold
 from fdsolver.model.potential import remembered
+from fdsolver.numerics import kernels
 
 #: measured upper bound of the working arrays per grid node (see DEVELOPERS.md)
 BYTES_PER_NODE = 8 * 40
@@ -109,9 +110,10 @@ class Problem:
         return self._count[0]
 
 
-def binding_floor(potential, threshold: float, ms: np.ndarray, vs: np.ndarray, dx: np.ndarray) -> float:
+def binding_floor(potential, threshold: float, ms: np.ndarray, vs: np.ndarray, dx: np.ndarray,
+                  sums: tuple | None = None) -> float:
     """An energy no bound state lies below (absolute, case energy unit), from V and m sampled over the box
-    (``vs``, ``ms``) with cell widths ``dx``.
+    (``vs``, ``ms``) with cell widths ``dx``; ``sums``: their :func:`floor_sums`, where the caller made them.
 
     On the line, every bound state of -d/dx (C/m) d/dx + V with V -> c at infinity obeys
     |E - c| <= (m_max / 4C) (int (c - V)_+ dx)^2: the case gamma = 1/2 of the Lieb-Thirring inequalities, whose
@@ -123,13 +125,28 @@ def binding_floor(potential, threshold: float, ms: np.ndarray, vs: np.ndarray, d
     is far above the bottom of the well.  The integral is exact for a V constant between its features
     (sampled once per piece), a midpoint sum otherwise.  Point terms are not included.
     """
-    lowest = float(np.min(vs)) if vs.size else math.inf
-    level = threshold if math.isfinite(threshold) else min(potential.asymptote(-1), potential.asymptote(1))
+    _, lowest, _, heaviest, area = floor_sums(potential, threshold, ms, vs, dx) if sums is None else sums
+    level = _floor_level(potential, threshold)
     if not (math.isfinite(level) and vs.size):
         return lowest
-    m_max = max(float(np.max(ms)), potential.mass)
-    area = float(np.sum(np.maximum(level - vs, 0.0) * dx))
+    m_max = max(heaviest, potential.mass)
     return max(lowest, level - m_max * area * area / (4.0 * potential.hbar2_2me))
+
+
+def _floor_level(potential, threshold: float) -> float:
+    """The asymptotic level c of :func:`binding_floor`: the continuum threshold, else the lower asymptote."""
+    return threshold if math.isfinite(threshold) else min(potential.asymptote(-1), potential.asymptote(1))
+
+
+def floor_sums(potential, threshold: float, ms: np.ndarray, vs: np.ndarray, dx: np.ndarray) -> tuple:
+    """(every V finite, min V, max V, max m, int (c - V)_+ dx) of the box samples, in one compiled pass
+    (:func:`fdsolver.numerics.kernels.floor_sums`, the numbers numpy's min, max and sum give): what
+    :func:`_box_facts` and :func:`binding_floor` read from them (min V inf and the rest -inf or 0 without
+    samples).  Energies in the case unit, m in m_e."""
+    finite, lowest, highest, heaviest, area = kernels.floor_sums(
+        np.ascontiguousarray(vs, dtype=float), np.ascontiguousarray(ms, dtype=float),
+        np.ascontiguousarray(dx, dtype=float), float(_floor_level(potential, threshold)))
+    return bool(finite), float(lowest), float(highest), float(heaviest), float(area)
 
 
 def plan(potential, domain: Domain, settings: SolveSettings) -> Problem:
@@ -174,10 +191,11 @@ def _box_facts(potential, domain: Domain, budget: float) -> tuple:
     threshold = continuum_threshold(potential, domain)
     box = provisional_box(potential, domain, threshold, budget)
     vs, ms, dx = _box_samples(potential, box)
-    if not np.all(np.isfinite(vs)):
+    sums = floor_sums(potential, threshold, ms, vs, dx)
+    if not sums[0]:
         raise CaseError("the potential is not finite everywhere in the box; check its expression or table, "
                         "or set [domain] left/right", key="potential")
-    return (threshold, box, float(np.min(vs)), float(np.max(vs)), binding_floor(potential, threshold, ms, vs, dx),
+    return (threshold, box, sums[1], sums[2], binding_floor(potential, threshold, ms, vs, dx, sums),
             length_scale(potential), potential.mirror_center(box[0], box[1]))
 
 

@@ -28,15 +28,19 @@
   once per growth rate); :func:`cell_piece_values` - V and m on every cell of a grid from those tables;
   :func:`piece_values_apart` - V and m from the tables at positions none of which lies next to a feature.
 * :func:`flux_operator` - the arrays of the flux-form operator
-  (:mod:`fdsolver.numerics.operator`) in one pass over the cells; :func:`even_half` its even mirror sector;
-  both through :func:`symmetric_form`, the one formula of T's diagonal and off-diagonal.
+  (:mod:`fdsolver.numerics.operator`) in one pass over the cells, through :func:`symmetric_form`, the one
+  formula of T's diagonal and off-diagonal; :func:`even_half` its even mirror sector (the whole operator's
+  entries past the centre).
 * :func:`refine_nodes` - nested refinement of a grid (every cell split in k).
 * :func:`constant_sectors` - the operators of a grid whose cells take their base cell's V and m (point terms,
   mirror halves); :func:`constant_level` - one nested level of such a potential: refinement, those operators
   and :func:`predicted_grid` in one call; :func:`constant_levels` - every regular level with the Romberg
   table and the judgement (:func:`romberg_newest` for the splittings); :func:`constant_coarse` - a coarse
   grid's energies by bisection.
-* :func:`decay_reach` - where the WKB decay integral along a walk first reaches a budget (the box's ends).
+* :func:`decay_reach` - where the WKB decay integral along a walk first reaches a budget (the box's ends);
+  :func:`walk_pair` - the samples of both walks of a box.
+* :func:`floor_sums` - V's range, the largest mass and the binding floor's integral over a box's samples in
+  one pass (numpy's pairwise sum, :func:`_pairwise_sum`); :func:`even_samples` - ``numpy.linspace``'s samples.
 * :func:`wave_columns`, :func:`unfold_row`, :func:`home_of` - the observables' sums, a state's wavefunction
   unfolded onto the whole grid, each state's home region.
 
@@ -79,6 +83,129 @@ def search_sorted(a, key, right):
         else:
             hi = mid
     return lo
+
+
+@njit
+def even_samples(lo, hi, num):
+    """``numpy.linspace(lo, hi, num)`` (num >= 2) with numpy's floating-point operations, so the same bits: i times
+    the step (hi - lo) / (num - 1) plus lo, and hi itself last (where the step underflows to 0, i / (num - 1)
+    times hi - lo instead, as numpy does).  Units of lo.  O(num)."""
+    out = np.empty(num)
+    div = num - 1
+    delta = hi - lo
+    step = delta / div
+    for i in range(num):
+        t = float(i) * step if step != 0.0 else (float(i) / div) * delta
+        out[i] = t + lo
+    out[num - 1] = hi
+    return out
+
+
+@njit
+def _block_sum(a, lo, n):
+    """numpy's sum of a block of at most 128 entries a[lo:lo + n]: sequential below 8 entries, else eight running
+    sums over blocks of 8 combined pairwise, then the rest in order."""
+    if n < 8:
+        res = 0.0
+        for i in range(n):
+            res += a[lo + i]
+        return res
+    r0, r1, r2, r3 = a[lo], a[lo + 1], a[lo + 2], a[lo + 3]
+    r4, r5, r6, r7 = a[lo + 4], a[lo + 5], a[lo + 6], a[lo + 7]
+    i = 8
+    while i < n - (n % 8):
+        r0 += a[lo + i]
+        r1 += a[lo + i + 1]
+        r2 += a[lo + i + 2]
+        r3 += a[lo + i + 3]
+        r4 += a[lo + i + 4]
+        r5 += a[lo + i + 5]
+        r6 += a[lo + i + 6]
+        r7 += a[lo + i + 7]
+        i += 8
+    res = ((r0 + r1) + (r2 + r3)) + ((r4 + r5) + (r6 + r7))
+    while i < n:
+        res += a[lo + i]
+        i += 1
+    return res
+
+
+@njit
+def _pairwise_sum(a, lo, n):
+    """numpy's sum of a[lo:lo + n] (a contiguous float64 array) with its operations in its order, so the same
+    bits as ``numpy.sum``: pairwise summation, blocks of up to 128 entries summed by :func:`_block_sum` and a
+    longer stretch split in two at a multiple of 8 below its middle, the halves' sums added.  The splits are
+    walked with an explicit stack (a compiled function calling itself does not load from numba's cache).
+    O(n)."""
+    if n <= 128:
+        return _block_sum(a, lo, n)
+    depth = 64  # halving from at most 2^63 entries down to 128
+    f_lo = np.empty(depth, np.int64)
+    f_n = np.empty(depth, np.int64)
+    f_stage = np.empty(depth, np.int64)  # 0 new, 1 waiting for its left half, 2 left known, 3 waiting for its right
+    f_left = np.empty(depth)
+    top = 0
+    f_lo[0], f_n[0], f_stage[0] = lo, n, 0
+    while True:
+        start, size = f_lo[top], f_n[top]
+        half = size // 2
+        half -= half % 8
+        done = False
+        value = 0.0
+        if f_stage[top] == 0:
+            if half <= 128:
+                f_left[top] = _block_sum(a, start, half)
+                f_stage[top] = 2
+            else:
+                f_stage[top] = 1
+                top += 1
+                f_lo[top], f_n[top], f_stage[top] = start, half, 0
+        elif f_stage[top] == 2:
+            if size - half <= 128:
+                value = f_left[top] + _block_sum(a, start + half, size - half)
+                done = True
+            else:
+                f_stage[top] = 3
+                top += 1
+                f_lo[top], f_n[top], f_stage[top] = start + half, size - half, 0
+        while done:  # hand the finished sum to the stretch it is half of
+            if top == 0:
+                return value
+            top -= 1
+            if f_stage[top] == 1:
+                f_left[top] = value
+                f_stage[top] = 2
+                done = False
+            else:
+                value = f_left[top] + value
+
+
+@njit
+def floor_sums(v, m, dx, level):
+    """(finite, min V, max V, max m, area) of V and m sampled over a box (``v``, ``m``, with widths ``dx``) in one
+    pass and one sum: whether every V is finite, its least and largest value, the largest mass, and
+    sum (level - V)_+ dx (0 where ``level`` is not finite), numpy's sum of ``numpy.maximum(level - v, 0) * dx``
+    (:func:`_pairwise_sum`): the same numbers as those numpy steps.  V in the energy unit, dx in the length
+    unit, m in m_e.  O(N)."""
+    n = v.shape[0]
+    finite = True
+    lowest = math.inf
+    highest = -math.inf
+    heaviest = -math.inf
+    for i in range(n):
+        if not math.isfinite(v[i]):
+            finite = False
+        lowest = _nan_min(lowest, v[i])
+        highest = -_nan_min(-highest, -v[i])
+        heaviest = -_nan_min(-heaviest, -m[i])
+    area = 0.0
+    if math.isfinite(level) and n:
+        terms = np.empty(n)
+        for i in range(n):
+            t = level - v[i]
+            terms[i] = (t if (t >= 0.0 or math.isnan(t)) else 0.0) * dx[i]
+        area = _pairwise_sum(terms, 0, n)
+    return finite, lowest, highest, heaviest, area
 
 
 @njit
@@ -1353,11 +1480,15 @@ def symmetric_form(a, w, vw):
 
 
 @njit
-def even_half(a, w, vw, c):
-    """The even sector's arrays from a mirror-symmetric operator's
-    (:func:`fdsolver.numerics.operator.mirror_halves`): the unknowns c, c + 1, ... with unknown c the mirror
-    centre as a Neumann end (half its weight and dual-cell integral, no coupling to its left).  Returns
-    (a, w, vw, d, e) with the floating-point operations of the numpy form, in the same order.  O(N)."""
+def even_half(a, w, vw, d, e, c):
+    """The even sector's arrays from a mirror-symmetric operator's (couplings ``a``, weights ``w``, dual-cell
+    integrals ``vw`` and its :func:`symmetric_form` ``d``, ``e``; :func:`fdsolver.numerics.operator.mirror_halves`):
+    the unknowns c, c + 1, ... with unknown c the mirror centre as a Neumann end (half its weight and dual-cell
+    integral, no coupling to its left).  Returns (a, w, vw, d, e) with the floating-point operations of the
+    numpy form, in the same order: past the centre the half's d and e are the whole operator's own entries (the
+    same formula of the same numbers), so only the centre's are worked out.  O(N), one division and one square
+    root in all.
+    """
     n = w.shape[0] - c
     a_even = np.empty(n + 1)
     a_even[0] = 0.0
@@ -1368,7 +1499,13 @@ def even_half(a, w, vw, c):
     vw_even = np.empty(n)
     vw_even[0] = 0.5 * vw[c]
     vw_even[1:] = vw[c + 1:]
-    d_even, e_even = symmetric_form(a_even, w_even, vw_even)
+    d_even = np.empty(n)
+    d_even[0] = (a_even[0] + a_even[1] + vw_even[0]) / w_even[0]
+    d_even[1:] = d[c + 1:]
+    e_even = np.empty(max(n - 1, 0))
+    if n > 1:
+        e_even[0] = -a_even[1] / math.sqrt(w_even[0] * w_even[1])
+        e_even[1:] = e[c + 1:]
     return a_even, w_even, vw_even, d_even, e_even
 
 
@@ -1419,6 +1556,25 @@ def enclosure_top(v):
             top = e
             found = True
     return found, top
+
+
+@njit
+def walk_pair(lo, hi, near, far, ladder):
+    """The samples of both decay walks out of [lo, hi] (length unit) in one array: the offsets t = 0 and
+    ``near`` * ``ladder`` (the ladder's entries in order while they stay below ``far``) subtracted from ``lo``,
+    then added to ``hi``; the same floating-point operations as the numpy form.  O(samples)."""
+    count = 0
+    while count < ladder.shape[0] and near * ladder[count] < far:
+        count += 1
+    k = count + 1
+    out = np.empty(2 * k)
+    out[0] = lo - 0.0
+    out[k] = hi + 0.0
+    for i in range(count):
+        t = near * ladder[i]
+        out[i + 1] = lo - t
+        out[k + i + 1] = hi + t
+    return out
 
 
 @njit
@@ -1507,7 +1663,7 @@ def constant_sectors(nodes, v_cell, m_cell, reps, mirror, center, c, shift, pos,
                                                          pos, alpha)
     whole = (sub, mass, a, w, vw, v, d, e)
     if ok and mirror:
-        a0, w0, vw0, d0, e0 = even_half(a, w, vw, 0)
+        a0, w0, vw0, d0, e0 = even_half(a, w, vw, d, e, 0)
         return ok, d0, e0, a0, vw0, w0, d[1:], e[1:], a[1:], vw[1:], w[1:], whole
     return ok, d, e, a, vw, w, d, e, a, vw, w, whole
 

@@ -46,7 +46,7 @@ import math
 
 import numpy as np
 
-from fdsolver.numerics.kernels import njit, piece_values_apart, search_sorted
+from fdsolver.numerics.kernels import even_samples, njit, piece_values_apart, search_sorted
 
 PI = math.pi
 
@@ -198,10 +198,10 @@ def margin(edges, k2, mass, jump, c, kscale, u0, u_end):
 
 
 @njit
-def tabled_margin(xs, feats, v_piece, m_piece, v_feat, m_feat, pos, alpha, vt, c, inv_scale2, u0, u_end, tol):
+def tabled_margin(samples, feats, v_piece, m_piece, v_feat, m_feat, pos, alpha, vt, c, inv_scale2, u0, u_end, tol):
     """(done, Phi, kscale) of a potential constant between its features, from its piece tables, in one call: the
-    steps of :func:`fdsolver.numerics.cells.make_layout` (the flux scale from V and m at the 513 samples ``xs``
-    of the features' span) and of :func:`fdsolver.boundstates.counting.phase_margin` on that compact layout
+    steps of :func:`fdsolver.numerics.cells.make_layout` (the flux scale from V and m at ``samples`` even samples
+    of the features' span, those of ``numpy.linspace``: :func:`fdsolver.numerics.kernels.even_samples`) and of :func:`fdsolver.boundstates.counting.phase_margin` on that compact layout
     (one cell per piece between the outer features, each outer feature a cell of zero width, the point terms
     ``alpha`` at ``pos`` on their nearest edges) with the same numbers.  V and m at a sample are read from the
     tables (:func:`fdsolver.numerics.kernels.piece_values_apart`): exactly the values an evaluation gives inside
@@ -210,6 +210,7 @@ def tabled_margin(xs, feats, v_piece, m_piece, v_feat, m_feat, pos, alpha, vt, c
     ``c`` = hbar^2 / 2 m_e, ``inv_scale2`` the potential's largest length to the power -2, ``u0`` and ``u_end``
     the decaying fluxes of :func:`margin`.  O(samples log K + K)."""
     nf = feats.shape[0]
+    xs = even_samples(feats[0], feats[nf - 1], samples)
     done, v, m = piece_values_apart(xs, feats, v_piece, m_piece, v_feat, m_feat, tol)
     if not done:
         return False, 0.0, 0.0

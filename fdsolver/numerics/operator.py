@@ -160,7 +160,7 @@ def mirror_halves(op: Operator, center_index: int, even: tuple | None = None) ->
     c = center_index - 1  # the centre among the unknowns
     nodes = op.nodes[center_index:]
     mass = op.mass[center_index:]
-    a_even, w_even, vw_even, d_even, e_even = even_half(op.a, op.w, op.vw, c) if even is None else even
+    a_even, w_even, vw_even, d_even, e_even = even_half(op.a, op.w, op.vw, op.d, op.e, c) if even is None else even
     v_even = op.v[c:]
     even = Operator(nodes=nodes, a=a_even, w=w_even, vw=vw_even, v=v_even, mass=mass, d=d_even, e=e_even,
                     shift=op.shift, left=NEUMANN)
