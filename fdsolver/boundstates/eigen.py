@@ -48,11 +48,9 @@ from fdsolver.numerics.precision import EPS
 
 #: states closer than this fraction of their energy scale are a cluster (Gram-Schmidt between them)
 CLUSTER_RTOL = 1e-4
-#: inverse-iteration steps per vector at most (from an eigenvalue accurate to bisection, or predicted by the
-#: coarser levels).  A vector alone in its cluster stops as soon as its residual passes the residual check with
-#: room to spare (kernels.inverse_iteration), often after two on the finer levels; fixing two for every vector
-#: made the closely spaced states of a miniband fail the check and take the Rayleigh-quotient step and a redo
-#: (measured: DEVELOPERS.md, session 20)
+#: inverse-iteration steps per vector (from an eigenvalue accurate to bisection, or predicted by the coarser
+#: levels).  Two would do for well separated states; the closely spaced states of a miniband then fail the
+#: residual check and take the Rayleigh-quotient step and a redo (measured: DEVELOPERS.md, session 20)
 INVERSE_STEPS = 3
 #: a residual |T u - lambda u| above this many times the state's round-off scale is sharpened (a Rayleigh-quotient
 #: step, then a redo); at or below it the state is kept as it is
@@ -158,7 +156,7 @@ def _vectors(op: Operator, values: np.ndarray, floor: float):
     vectors, energy, scales = np.empty((k, op.size)), np.empty(k), np.empty((k, 2))
     first = _clusters(values, floor)
     if not kernels.inverse_iteration(op.d, op.e, np.ascontiguousarray(values, dtype=float), first, INVERSE_STEPS,
-                                     vectors, RESIDUAL_FACTOR * EPS):
+                                     vectors):
         return None
     _rayleigh_ritz(op, vectors, first)
     kernels.finish_vectors(op.d, op.e, op.a, op.vw, op.w, first, float(floor), INVERSE_STEPS, RESIDUAL_FACTOR,

@@ -529,52 +529,15 @@ def _normalise(y, inv, out):
     return True
 
 
-#: a lone vector's inverse iteration stops once its residual is within this fraction of the residual check's
-#: matrix part (:func:`inverse_iteration`)
-STOP_MARGIN = 0.1
-
-
 @njit
-def _normalise_measured(y, inv, d, out):
-    """:func:`_normalise` of the solution y of (T - shift) y = u with ``out`` = u on entry (the same norm, summed
-    in the same order, so the same unit vector written over u), also returning from the same pass the residual
-    of that unit vector v = y / |y| about its Rayleigh quotient r = shift + v.u / |y|,
-    |(T - r) v| = sqrt(|u|^2 - (v.u)^2) / |y| (exact algebra; its rounding floor is about 1e-8 of |u| / |y|),
-    and sum |d_i| v_i^2: (ok, residual, weight)."""
-    nrm = 0.0
-    weight = 0.0
-    dot = 0.0
-    uu = 0.0
-    for i in range(y.shape[0]):
-        t = y[i] * inv
-        t2 = t * t
-        nrm += t2
-        weight += abs(d[i]) * t2
-        dot += t * out[i]
-        uu += out[i] * out[i]
-    root = math.sqrt(nrm)
-    if not (root > 0.0 and root < math.inf):
-        return False, 0.0, 0.0
-    scale = inv / root
-    for i in range(y.shape[0]):
-        out[i] = y[i] * scale
-    return True, math.sqrt(max(uu - dot * dot / nrm, 0.0)) * scale, weight / nrm
-
-
-@njit
-def inverse_iteration(d, e, shifts, first, steps, out, stop):
+def inverse_iteration(d, e, shifts, first, steps, out):
     """Eigenvectors of tridiag(e, d, e) for the eigenvalues near ``shifts``, into the rows of ``out``.
 
-    Each vector: up to ``steps`` solves with the factors of T - shift I from
+    Each vector: ``steps`` solves with the factors of T - shift I from
     :func:`start_vector`, each followed by Gram-Schmidt against the vectors of
     the same cluster computed before it (rows ``first[j]`` .. j-1), and
     normalisation.  States closer than their eigenvector accuracy thus come
-    out as an orthonormal basis of their cluster.  A vector alone in its cluster
-    stops early once it is sharp: after a solve (T - shift) y = u, the residual of the unit vector
-    v = y / |y| about its Rayleigh quotient follows from |u|, |y| and v.u, summed in the normalising pass
-    (:func:`_normalise_measured`), and at or below :data:`STOP_MARGIN` times ``stop`` sum |d_i| v_i^2 (``stop``
-    = the residual factor times eps: the matrix part of the residual check of :func:`finish_vectors`) the
-    vector passes that check with room to spare; ``stop`` = 0 always takes ``steps``.  Sums run sequentially, so
+    out as an orthonormal basis of their cluster.  Sums run sequentially, so
     the result does not depend on any thread count.  Returns False if a
     solve broke down (a non-finite vector).  O(N (steps + cluster size)) per
     vector: per step one solve (which also finds the largest entry), one
@@ -585,7 +548,6 @@ def inverse_iteration(d, e, shifts, first, steps, out, stop):
     y = np.empty(n)
     for j in range(k):
         u = start_vector(n, j)
-        lone = first[j] == j and (j + 1 >= k or first[j + 1] != j)
         r0, u1, u2, lmul, piv = tridiag_factor(d, e, shifts[j])
         for _ in range(steps):
             big = tridiag_apply_into(r0, u1, u2, lmul, piv, u, y)
@@ -602,13 +564,7 @@ def inverse_iteration(d, e, shifts, first, steps, out, stop):
                     for i in range(n):
                         y[i] -= dot * out[m, i]
                 inv = 1.0
-            if lone and stop > 0.0:
-                ok, residual, weight = _normalise_measured(y, inv, d, u)
-                if not ok:
-                    return False
-                if residual <= STOP_MARGIN * stop * weight:
-                    break
-            elif not _normalise(y, inv, u):
+            if not _normalise(y, inv, u):
                 return False
         out[j] = u
     return True
@@ -746,7 +702,7 @@ def finish_vectors(d, e, a, vw, w, first, floor, steps, residual_factor, ulps, e
             u, lam = _rayleigh_step(d, e, a, vw, w, u, lam, floor)
             sharp, mat, quo = _sharpness(d, e, vw, w, u, lam, residual_factor, ulps, eps)
         if not sharp:
-            if inverse_iteration(d, e, np.array([lam]), one, 2 * steps, redo, residual_factor * eps):
+            if inverse_iteration(d, e, np.array([lam]), one, 2 * steps, redo):
                 u = redo[0].copy()
                 lam = _quotient_of_u(u, a, vw, w)
                 if alone:
@@ -865,7 +821,7 @@ def sector_pass(d, e, a, vw, w, shifts, lo, floor, prove, cluster_rtol, steps, r
     for j in range(k):
         if first[j] != j:
             return 1
-    if not inverse_iteration(d, e, shifts, first, steps, vectors, residual_factor * eps):
+    if not inverse_iteration(d, e, shifts, first, steps, vectors):
         return 2
     finish_vectors(d, e, a, vw, w, first, floor, steps, residual_factor, ulps, eps, vectors, energy, scales)
     for j in range(1, k):  # insertion sort by energy (k is small), vectors and scales along
