@@ -46,7 +46,12 @@ import math
 
 import numpy as np
 
-from fdsolver.numerics.kernels import even_samples, njit, piece_values_apart, search_sorted
+from fdsolver.numerics.kernels import (
+    even_samples,
+    njit,
+    piece_values_apart,
+    search_sorted,
+)
 
 PI = math.pi
 
