@@ -1568,12 +1568,10 @@ def walk_pair(lo, hi, near, far, ladder):
         count += 1
     k = count + 1
     out = np.empty(2 * k)
-    out[0] = lo - 0.0
-    out[k] = hi + 0.0
-    for i in range(count):
-        t = near * ladder[i]
-        out[i + 1] = lo - t
-        out[k + i + 1] = hi + t
+    for i in range(k):
+        t = 0.0 if i == 0 else near * ladder[i - 1]
+        out[i] = lo - t
+        out[k + i] = hi + t
     return out
 
 

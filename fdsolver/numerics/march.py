@@ -206,7 +206,8 @@ def margin(edges, k2, mass, jump, c, kscale, u0, u_end):
 def tabled_margin(samples, feats, v_piece, m_piece, v_feat, m_feat, pos, alpha, vt, c, inv_scale2, u0, u_end, tol):
     """(done, Phi, kscale) of a potential constant between its features, from its piece tables, in one call: the
     steps of :func:`fdsolver.numerics.cells.make_layout` (the flux scale from V and m at ``samples`` even samples
-    of the features' span, those of ``numpy.linspace``: :func:`fdsolver.numerics.kernels.even_samples`) and of :func:`fdsolver.boundstates.counting.phase_margin` on that compact layout
+    of the features' span, those of ``numpy.linspace``: :func:`fdsolver.numerics.kernels.even_samples`) and of
+    :func:`fdsolver.boundstates.counting.phase_margin` on that compact layout
     (one cell per piece between the outer features, each outer feature a cell of zero width, the point terms
     ``alpha`` at ``pos`` on their nearest edges) with the same numbers.  V and m at a sample are read from the
     tables (:func:`fdsolver.numerics.kernels.piece_values_apart`): exactly the values an evaluation gives inside
