@@ -36,3 +36,26 @@ def test_signed_zeros_nans_and_the_empty_array():
     out = sorted_distinct(a)
     out[0] = 9.0
     assert a.tolist() == [3.0, 1.0, 2.0]  # a new array: the argument is left as it was
+
+
+@pytest.mark.parametrize("seed", range(40))
+def test_short_sorted_distinct_is_numpys_unique_or_declines(seed):
+    """short_sorted_distinct (a potential's few features as Python floats) gives numpy.unique's values bit for bit,
+    or None where it cannot promise that (a zero of either sign, a NaN, a long list); duplicates, infinities and
+    values a few ulps apart are kept as numpy keeps them."""
+    from fdsolver.arrays import SHORT, short_sorted_distinct
+
+    rng = np.random.default_rng(seed)
+    n = int(rng.integers(0, SHORT + 8))
+    pool = np.array([1.0, -1.0, 1e-300, -1e-300, np.inf, -np.inf, 2.5, 2.5 + 4e-16, 7.0])
+    if seed % 4 == 0:
+        pool = np.concatenate([pool, [0.0, -0.0, np.nan]])
+    values = np.where(rng.random(n) < 0.5, rng.choice(pool, n), rng.normal(size=n).round(int(rng.integers(0, 3))))
+    got = short_sorted_distinct(values.tolist())
+    reference = np.unique(values)
+    declines = n > SHORT or bool(np.any(values == 0.0)) or bool(np.any(np.isnan(values)))
+    if declines:
+        assert got is None
+    else:
+        assert got is not None
+        assert _same_bits(np.array(got, dtype=float), reference)

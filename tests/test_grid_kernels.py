@@ -392,6 +392,28 @@ def test_cone_tables_read_as_the_numpy_form(seed, k):
 
 
 @PROPS
+@given(st.integers(0, 10**6), st.integers(1, 9), st.integers(0, 8), st.booleans())
+def test_table_spacing_is_the_lookup_and_target_spacing(seed, k, cones, ascending):
+    """The spacing of a base grid read from piece tables (kernels._piece_spacing, which walks its indices along
+    ascending samples) against the table lookup (kernels.piece_values) followed by kernels.target_spacing, which
+    searches them, bit for bit: samples on features, on cone apexes, between them and beyond both ends, sorted
+    or shuffled (the searching form then)."""
+    rng = np.random.default_rng(seed)
+    feats = np.unique(np.round(rng.uniform(-5.0, 5.0, k), 1))
+    v_piece, m_piece = rng.uniform(-2.0, 2.0, feats.size + 1), rng.uniform(0.05, 1.0, feats.size + 1)
+    v_feat, m_feat = rng.uniform(-2.0, 2.0, feats.size), rng.uniform(0.05, 1.0, feats.size)
+    p = np.round(rng.uniform(-6.0, 6.0, cones), 1)
+    apex, left, right = kernels.cone_tables(p, rng.uniform(0.01, 1.0, cones), 0.25)
+    x = np.concatenate([feats, p, np.round(rng.uniform(-8.0, 8.0, 40), 1), rng.uniform(-8.0, 8.0, 40)])
+    x = np.sort(x) if ascending else rng.permutation(x)
+    args = (-1.5, float(rng.uniform(-0.5, 3.0)), 0.0381, float(rng.choice([0.5, 3.0, np.inf])), -4.0, 4.0,
+            float(rng.choice([50.0, np.inf])), 0.5, apex, left, right, 0.25)
+    got = kernels._piece_spacing(x, feats, v_piece, m_piece, v_feat, m_feat, *args)
+    v, m = kernels.piece_values(x, feats, v_piece, m_piece, v_feat, m_feat)
+    assert np.array_equal(got, kernels.target_spacing(x, v, m, *args))
+
+
+@PROPS
 @given(st.floats(-1e6, 1e6), st.floats(-1e6, 1e6), st.integers(2, 2000))
 def test_even_samples_are_numpys_linspace(lo, hi, num):
     """The layout's even samples (kernels.even_samples) against numpy.linspace, bit for bit: spans of any sign

@@ -193,7 +193,7 @@ def _levels(problem: Problem, prov: Provisional) -> LevelRun:
     for _round in range(MAX_BOX_ROUNDS):
         states = prov.states
         if states.size:
-            e0, etop = (float(v) for v in problem.absolute(states.energy[[0, -1]]))
+            e0, etop = float(states.energy[0]) + problem.reference, float(states.energy[-1]) + problem.reference
             # the spectrum's extent below the ground state is measured from the reference, or from the lowest
             # energy a bound state can have where that lies above it (walls around a thin deep well)
             bottom = problem.reference + max(problem.deepest, 0.0)

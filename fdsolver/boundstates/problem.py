@@ -210,7 +210,9 @@ def _box_samples(potential, box) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         if table is not None and table[0].size:
             lo, hi, first, last = float(box[0]), float(box[1]), float(table[0][0]), float(table[0][-1])
             if lo < 0.5 * (first + lo) < first and last < 0.5 * (hi + last) < hi:  # the end pieces' middles
-                return table[1], table[2], np.diff(np.concatenate([[lo], table[0], [hi]]))
+                ends = np.empty(table[0].size + 2)  # the pieces' ends: lo, the features, hi
+                ends[0], ends[1:-1], ends[-1] = lo, table[0], hi
+                return table[1], table[2], ends[1:] - ends[:-1]  # numpy.diff's subtraction
         xs, dx = potential.pieces(box[0], box[1])
     else:
         xs = np.linspace(box[0], box[1], RANGE_SAMPLES)[1:-1]

@@ -11,10 +11,11 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from itertools import pairwise
 
 import numpy as np
 
-from fdsolver.arrays import sorted_distinct
+from fdsolver.arrays import short_sorted_distinct, sorted_distinct
 from fdsolver.model.shapes import INF, Shape
 from fdsolver.model.stack import LayerStack
 from fdsolver.model.units import UnitSystem
@@ -201,6 +202,11 @@ class Potential:
             found.extend(shape.features())
         if self.stack is not None:
             found.extend(self.stack.interfaces.tolist())
+        few = short_sorted_distinct(found)
+        if few is not None:  # a few features (most structures): the same steps on Python floats, the same numbers
+            tol = 1e-12 * max(1.0, abs(few[0]), abs(few[-1])) if few else 0.0
+            if all(b - a > tol for a, b in pairwise(few)):
+                return np.array(few, dtype=float), False
         pts = sorted_distinct(np.asarray(found, dtype=float))
         if pts.size > 1:  # merge positions closer than round-off (sorted and finite: the largest |p| is at an end)
             gaps = pts[1:] - pts[:-1]
@@ -278,8 +284,9 @@ class Potential:
         for shape in self.shapes:
             r = shape.region()
             if r is not None:
-                lo = min([lo] + [v for v in r if math.isfinite(v)])
-                hi = max([hi] + [v for v in r if math.isfinite(v)])
+                for v in r:  # the finite ends, one at a time: what min([lo, ...]) and max([hi, ...]) take
+                    if math.isfinite(v):
+                        lo, hi = min(lo, v), max(hi, v)
         return (lo, hi) if lo <= hi else (0.0, 0.0)
 
     def regions(self) -> list[tuple[str, float, float]]:

@@ -166,7 +166,7 @@ def _cones(potential, gs: GridSettings):
     (:func:`~fdsolver.model.potential.remembered`)."""
     feats = potential.feature_scales()
     pts = potential.point_scales()
-    m_max = max(float(np.max(potential.mass_at(np.array(potential.support())))), potential.mass)
+    m_max = max(float(potential.mass_at(np.array(potential.support())).max()), potential.mass)
     cone_p = [p for p, s in feats if math.isfinite(s)] + [p for p, _ in pts]
     cone_c = [gs.feature_fraction * s for _, s in feats if math.isfinite(s)] + [0.5 * gs.wave_fraction * s for _, s in pts]
     return (m_max, *_cone_tables(np.asarray(cone_p, dtype=float), np.asarray(cone_c, dtype=float), gs.growth))

@@ -1180,30 +1180,36 @@ def target_spacing(x, v, m, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap, wave_fract
     ``reach`` outside [lo_s, hi_s]; a non-finite r2 counts as inf; r2 at most ``r2_cap``), then at most the cone
     envelope min_j (c_j + slope |x - p_j|) over the sorted apexes ``apex`` with prefix minima ``left`` of
     c_j - slope p_j and suffix minima ``right`` of c_j + slope p_j (:func:`cone_tables`).
-    The same floating-point operations as the numpy form, in the same order.
+    The same floating-point operations as the numpy form, in the same order (:func:`_spacing_at`).
     """
     n = x.shape[0]
     out = np.empty(n)
     n_apex = apex.shape[0]
     for i in range(n):
         xi = x[i]
-        deep = abs(v[i] - e_lo)
-        if max(lo_s - xi, xi - hi_s) > reach:
-            deep = 0.0
-        high = abs(v[i] - e_hi)
-        if math.isnan(deep) or math.isnan(high):
-            r2 = math.inf
-        else:
-            r2 = m[i] * max(deep, high) / c
-            if not (abs(r2) < math.inf):
-                r2 = math.inf
-        h = wave_fraction / math.sqrt(min(r2, r2_cap) + 1e-300)
+        h = _spacing_at(xi, v[i], m[i], e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap, wave_fraction)
         if n_apex:
             k = search_sorted(apex, xi, True)
             j = search_sorted(apex, xi, False)
             h = min(h, left[k] + slope * xi, right[j] - slope * xi)
         out[i] = h
     return out
+
+
+@njit
+def _spacing_at(xi, vi, mi, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap, wave_fraction):
+    """:func:`target_spacing` at one position ``xi`` (V ``vi``, mass ``mi``) before the cones (length unit)."""
+    deep = abs(vi - e_lo)
+    if max(lo_s - xi, xi - hi_s) > reach:
+        deep = 0.0
+    high = abs(vi - e_hi)
+    if math.isnan(deep) or math.isnan(high):
+        r2 = math.inf
+    else:
+        r2 = mi * max(deep, high) / c
+        if not (abs(r2) < math.inf):
+            r2 = math.inf
+    return wave_fraction / math.sqrt(min(r2, r2_cap) + 1e-300)
 
 
 @njit
@@ -1378,9 +1384,42 @@ def cell_piece_values(nodes, feats, rtol, table_feats, v_piece, m_piece, v_feat,
 @njit
 def _piece_spacing(x, feats, v_piece, m_piece, v_feat, m_feat, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap,
                    wave_fraction, apex, left, right, slope):
-    """:func:`target_spacing` at ``x`` with V and m from the piece tables (:func:`piece_values`)."""
-    v, m = piece_values(x, feats, v_piece, m_piece, v_feat, m_feat)
-    return target_spacing(x, v, m, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap, wave_fraction, apex, left, right, slope)
+    """:func:`target_spacing` at ``x`` with V and m from the piece tables (:func:`piece_values`).  For ascending
+    ``x`` (every sample set of :func:`piece_grid`) the indices into the tables and the cones are walked along
+    with x instead of searched for at each position: the same indices (the counts of entries below x, or at or
+    below it), so the same numbers.  O(N + K) for ascending x, O(N log K) otherwise."""
+    n = x.shape[0]
+    ascending = n == 0 or x[0] == x[0]
+    for i in range(1, n):
+        if not x[i - 1] <= x[i]:
+            ascending = False
+            break
+    if not ascending:
+        v, m = piece_values(x, feats, v_piece, m_piece, v_feat, m_feat)
+        return target_spacing(x, v, m, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap, wave_fraction, apex, left, right,
+                              slope)
+    out = np.empty(n)
+    nf = feats.shape[0]
+    n_apex = apex.shape[0]
+    k = 0  # features below x: search_sorted(feats, x, False)
+    below = 0  # apexes below x: search_sorted(apex, x, False)
+    upto = 0  # apexes at or below x: search_sorted(apex, x, True)
+    for i in range(n):
+        xi = x[i]
+        while k < nf and feats[k] < xi:
+            k += 1
+        if k < nf and feats[k] == xi:
+            h = _spacing_at(xi, v_feat[k], m_feat[k], e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap, wave_fraction)
+        else:
+            h = _spacing_at(xi, v_piece[k], m_piece[k], e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap, wave_fraction)
+        if n_apex:
+            while below < n_apex and apex[below] < xi:
+                below += 1
+            while upto < n_apex and apex[upto] <= xi:
+                upto += 1
+            h = min(h, left[upto] + slope * xi, right[below] - slope * xi)
+        out[i] = h
+    return out
 
 
 @njit
