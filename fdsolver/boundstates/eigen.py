@@ -286,9 +286,9 @@ def _predicted_grid(sectors, e_lo, e_hi: float, max_states: int, floor: float, g
 
 def _states_of(sec, en, rounding, row, count_below: int, first_index: int, rows, parities) -> GridStates:
     """GridStates from a compiled pass's arrays (:func:`fdsolver.numerics.kernels.predicted_grid`)."""
-    parity = np.array(parities, dtype=int)[sec]
-    return GridStates(en, first_index + np.arange(en.size), sec, parity,
-                      tuple(rows[s][r] for s, r in zip(sec.tolist(), row.tolist())), rounding, count_below, first_index)
+    which = sec.tolist()
+    return GridStates(en, first_index + np.arange(en.size), sec, np.array([parities[s] for s in which], dtype=int),
+                      tuple(rows[s][r] for s, r in zip(which, row.tolist())), rounding, count_below, first_index)
 
 
 def point_arrays(potential) -> tuple[np.ndarray, np.ndarray]:
@@ -329,8 +329,9 @@ def constant_levels(base: np.ndarray, cells: tuple, center: float | None, potent
     the energies of every level done (one array each), their node counts, the newest done level's
     :class:`GridStates` and (nodes, sectors) (both None if no level was done): the operators
     :func:`fdsolver.boundstates.levels.sectors_on` makes, from the same call; and where every state was judged
-    (``LEVELS_DONE``) the extrapolation (energies, their errors with the round-off floor, the states limited by
-    round-off, the splittings and their table errors), else None; the caller's level loop goes on from level
+    (``LEVELS_DONE``) the extrapolation settled by :func:`fdsolver.numerics.kernels.settle_levels` (energies, their
+    errors with the round-off floor, the states limited by round-off, the splittings and their errors, which
+    splittings are only bounded, how far each energy is out of order), else None; the caller's level loop goes on from level
     ``len(rows)`` where the reason asks for it.  The arguments are those of :func:`constant_level`,
     with the level loop's limits and tolerance.
     """
@@ -373,7 +374,7 @@ def constant_coarse(nodes: np.ndarray, cells: tuple, center: float | None, poten
         BISECTION_RTOL, LAPACK_WORK)
     if status != 0:
         return None
-    parity = np.array((1, -1) if center is not None else (0,), dtype=int)[sector]
+    parity = np.array([(1, -1)[s] if center is not None else 0 for s in sector.tolist()], dtype=int)
     return GridStates(energy, first_index + np.arange(energy.size), sector, parity,
                       tuple(np.empty(0) for _ in range(energy.size)), np.zeros(energy.size), int(count_below),
                       int(first_index))

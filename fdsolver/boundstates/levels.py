@@ -235,29 +235,26 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
                         states if states is not None else solve_nodes(problem, base, center)[1],
                         sectors or [], nodes if nodes is not None else base, last, level_e, level_n, np.zeros(0, bool),
                         base)
-    if judged_all is not None:  # the all-levels call's extrapolation, judgement and splittings (the same numbers)
-        energy, error, limited, splitting, splitting_error = judged_all
+    # splittings at or below the two round-off floors only bounded by them; an inversion within the error bars
+    # (a doublet split below double precision) made one mean; how far an extrapolation is out of order
+    if judged_all is not None:  # the all-levels call's extrapolation, judgement and splittings, settled (the same numbers)
+        energy, error, limited, splitting, splitting_error, bound, off = judged_all
     else:
         if judged != last:
             limited = _judge(problem, table, states)[1]
         gaps = Romberg()  # the splittings' table, from the same rows as the energies'
         for row in level_e:
             gaps.add(np.diff(row))
-        energy = table.value()
-        error = table.error() + states.roundoff
-        splitting = gaps.value()
-        splitting_error = gaps.error()
+        energy, error, splitting, splitting_error, bound, off = kernels.settle_levels(
+            np.ascontiguousarray(table.value(), dtype=float),
+            np.ascontiguousarray(table.error() + states.roundoff, dtype=float),
+            np.ascontiguousarray(gaps.value(), dtype=float), np.ascontiguousarray(gaps.error(), dtype=float),
+            np.ascontiguousarray(states.roundoff, dtype=float))
     top = states.first_index + states.size - 1
     for lowest, highest, size in vanished:  # said only of states that did not come back
         if highest > top:
             messages.append(f"state(s) {max(lowest, top + 1)} to {highest} vanished on the grid of {size} nodes: "
                             "bound too weakly to be resolved here (not resolved)")
-    # splittings at or below the two round-off floors only bounded by them; an inversion within the error bars
-    # (a doublet split below double precision) made one mean; how far an extrapolation is out of order
-    energy, error, splitting, splitting_error, bound, off = kernels.settle_levels(
-        np.ascontiguousarray(energy, dtype=float), np.ascontiguousarray(error, dtype=float),
-        np.ascontiguousarray(splitting, dtype=float), np.ascontiguousarray(splitting_error, dtype=float),
-        np.ascontiguousarray(states.roundoff, dtype=float))
     if off.any():
         # beyond the bars: the levels of nearly equal states have not yet crossed on the finest grid, so an
         # extrapolation may belong to another state's index; each such error covers the exchange (not converged)

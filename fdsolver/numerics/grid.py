@@ -41,6 +41,7 @@ from fdsolver.numerics.kernels import (
     cone_tables,
     grid_samples,
     inner_bounds,
+    mirrored_piece_grid,
     piece_grid,
     refine_nodes,
     sample_offsets,
@@ -76,19 +77,24 @@ def base_grid(
     symmetric too).  With ``max_nodes`` the node count is checked before any
     node array is allocated (:class:`~fdsolver.errors.BudgetError`).
     """
+    half = None if center is None or max_nodes is None else max_nodes // 2 + 1  # the right half's budget
+    if isinstance(spacing, Spacing) and spacing.table is not None:  # every step in one compiled call
+        limit = max_nodes if center is None else half
+        rest = (float(settings.growth), _offsets(settings.growth), BACKGROUND_SAMPLES,
+                int(settings.min_cells_per_segment), -1 if limit is None else int(limit), *spacing.table, *spacing.args)
+        points = np.asarray(list(breakpoints), dtype=float)
+        if center is None:
+            nodes, total = piece_grid(float(lo), float(hi), points, 64.0 * EPS * max(abs(lo), abs(hi), hi - lo), *rest)
+        else:  # the right half, mirrored, as below
+            nodes, total = mirrored_piece_grid(float(center), float(hi), points, EPS, *rest)
+        if limit is not None and total > limit:
+            _over_budget(total, limit)
+        return nodes
     if center is not None:
-        half = None if max_nodes is None else max_nodes // 2 + 1
         right = base_grid(spacing, [b for b in breakpoints if b > center], center, hi, settings, None, half)
         left = 2.0 * center - right[:0:-1]
         return np.concatenate([left, right])
     tiny = 64.0 * EPS * max(abs(lo), abs(hi), hi - lo)  # closer than this is round-off
-    if isinstance(spacing, Spacing) and spacing.table is not None:  # every step in one compiled call
-        nodes, total = piece_grid(float(lo), float(hi), np.asarray(list(breakpoints), dtype=float), tiny,
-                                  float(settings.growth), _offsets(settings.growth), BACKGROUND_SAMPLES, int(settings.min_cells_per_segment),
-                                  -1 if max_nodes is None else int(max_nodes), *spacing.table, *spacing.args)
-        if max_nodes is not None and total > max_nodes:
-            _over_budget(total, max_nodes)
-        return nodes
     bps = inner_bounds(np.asarray(list(breakpoints), dtype=float), float(lo), float(hi), tiny)
     bounds = np.concatenate([[lo], bps, [hi]])
     width = hi - lo

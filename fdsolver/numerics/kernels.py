@@ -25,7 +25,7 @@
   of :func:`fdsolver.numerics.grid.spacing_function` in one pass).
 * :func:`piece_grid` - a whole base grid in one call where V is constant between features (its spacing
   function sampled from tables, :func:`piece_values`; the sample offsets from :func:`sample_offsets`, made
-  once per growth rate); :func:`cell_piece_values` - V and m on every cell of a grid from those tables;
+  once per growth rate), :func:`mirrored_piece_grid` its mirror-symmetric form; :func:`cell_piece_values` - V and m on every cell of a grid from those tables;
   :func:`piece_values_apart` - V and m from the tables at positions none of which lies next to a feature.
 * :func:`flux_operator` - the arrays of the flux-form operator
   (:mod:`fdsolver.numerics.operator`) in one pass over the cells, through :func:`symmetric_form`, the one
@@ -1463,6 +1463,41 @@ def piece_grid(lo, hi, points, tiny, growth, offs, background, min_cells, max_no
 
 
 @njit
+def mirrored_piece_grid(center, hi, points, eps, growth, offs, background, min_cells, max_nodes, feats, v_piece,
+                        m_piece, v_feat, m_feat, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap, wave_fraction, apex, left,
+                        right, slope):
+    """A base grid mirror-symmetric about ``center`` on [2 center - hi, hi] (length unit), in one call: the
+    :func:`piece_grid` of the right half [center, hi] with the ``points`` right of the centre (round-off
+    ``tiny`` = 64 ``eps`` times the largest of |center|, |hi| and the half's width), and its nodes mirrored
+    (2 center - x) for the left half, as :func:`fdsolver.numerics.grid.base_grid` builds it.  ``max_nodes``
+    is the right half's budget.  Returns (nodes, the right half's estimated node count); the nodes are empty
+    where that estimate is over ``max_nodes`` >= 0.  O(samples log K + nodes).
+    """
+    count = 0
+    for p in points:
+        if p > center:
+            count += 1
+    inside = np.empty(count)
+    count = 0
+    for p in points:
+        if p > center:
+            inside[count] = p
+            count += 1
+    tiny = 64.0 * eps * max(abs(center), abs(hi), hi - center)
+    half, total = piece_grid(center, hi, inside, tiny, growth, offs, background, min_cells, max_nodes, feats, v_piece,
+                             m_piece, v_feat, m_feat, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap, wave_fraction, apex,
+                             left, right, slope)
+    n = half.shape[0]
+    if n == 0:
+        return half, total
+    nodes = np.empty(2 * n - 1)
+    for i in range(n - 1):
+        nodes[i] = 2.0 * center - half[n - 1 - i]
+    nodes[n - 1:] = half
+    return nodes, total
+
+
+@njit
 def flux_operator(nodes, mass, il, ir, c, shift, neumann):
     """Arrays of the flux-form operator on ``nodes`` (see :mod:`fdsolver.numerics.operator`), one pass.
 
@@ -1826,10 +1861,11 @@ def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, 
     pass, no states, or other states than the previous level's (count or first index); the caller's loop
     takes over from that level.  Returns (reason, levels done L, their energies (L x n), their node counts,
     the newest done level's two :func:`constant_level` tuples: its states and its operators, and with
-    LEVELS_DONE the judged extrapolation: the energies' :meth:`~fdsolver.numerics.richardson.Romberg.value`
-    and error plus round-off floor, the states limited by round-off (as ``_judge`` finds them), and the
-    splittings' value and table error (:func:`romberg_newest` of the rows' differences); empty otherwise).
-    Energies relative to ``shift``.
+    LEVELS_DONE the judged extrapolation, settled: the energies' :meth:`~fdsolver.numerics.richardson.Romberg.value`
+    and error plus round-off floor, the states limited by round-off (as ``_judge`` finds them), the splittings'
+    value and table error (:func:`romberg_newest` of the rows' differences), all through :func:`settle_levels`
+    with the newest level's round-off floors, which also gives the bounded splittings and how far each energy
+    is out of order; empty otherwise).  Energies relative to ``shift``.
     """
     nb = base.shape[0]
     ge = guess_e.copy()
@@ -1841,7 +1877,7 @@ def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, 
     ops = (none, none, none, none, none, none, (none, none, none, none, none, none, none, none))
     n = -1
     first = 0
-    judged = (none, none, np.empty(0, np.bool_), none, none)
+    judged = (none, none, np.empty(0, np.bool_), none, none, np.empty(0, np.bool_), none)
     for level in range(max_levels):
         size = (nb - 1) * 2**level + 1
         if size > max_nodes:
@@ -1885,7 +1921,9 @@ def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, 
             if finished:
                 gaps = energies[:level + 1, 1:] - energies[:level + 1, :-1]
                 gap_value, gap_error = romberg_newest(gaps)
-                judged = (value, err, limited_by, gap_value, gap_error)
+                energy, error, splitting, splitting_error, bound, off = settle_levels(value, err, gap_value, gap_error,
+                                                                                     got[3])
+                judged = (energy, error, limited_by, splitting, splitting_error, bound, off)
                 return LEVELS_DONE, level + 1, energies[:level + 1].copy(), sizes[:level + 1].copy(), last, ops, judged
         # the next level's predictions
         if level == 0:

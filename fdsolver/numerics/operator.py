@@ -89,11 +89,11 @@ def cell_constants(potential, nodes: np.ndarray) -> tuple[np.ndarray, np.ndarray
     if not potential.piecewise_constant:
         return None
     nodes = np.ascontiguousarray(nodes, dtype=float)
-    feats = potential.features()
     table = getattr(potential, "piece_table", None)
     if table is not None:  # the same test and numbers in one compiled call, read from the potential's tables
-        ok, v, m = cell_piece_values(nodes, np.ascontiguousarray(feats, dtype=float), ON_NODE_RTOL, *table)
+        ok, v, m = cell_piece_values(nodes, table[0], ON_NODE_RTOL, *table)  # table[0]: the features
         return (v, m) if ok else None
+    feats = potential.features()
     i = np.searchsorted(nodes, feats, side="right") - 1  # the cell whose left node is at or below each feature
     inside = (i >= 0) & (i < nodes.size - 1)
     i, f = i[inside], feats[inside]
