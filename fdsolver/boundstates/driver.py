@@ -234,9 +234,9 @@ def _box_check(problem: Problem, prov: Provisional, run: LevelRun) -> np.ndarray
     round-off.
     """
     energy = run.energy
-    shift = np.zeros_like(energy)
     if problem.domain.hard or not energy.size:
-        return shift
+        return np.zeros_like(energy)
+    shift = [0.0] * energy.size  # as floats: a few states, each summed over its ends in order
     pot, c = problem.potential, problem.potential.hbar2_2me
     v_at: dict[float, float] = {}  # V at each box end, evaluated once for all states
     for k in range(run.states.size):
@@ -255,6 +255,6 @@ def _box_check(problem: Problem, prov: Provisional, run: LevelRun) -> np.ndarray
             if not gap > 0:
                 shift[k] = np.inf  # the state is not decaying at the box end: the box cannot hold it
                 continue
-            kappa = np.sqrt(m * gap / c)
+            kappa = math.sqrt(m * gap / c)
             shift[k] += (c / m) * slope**2 / (2.0 * kappa)
-    return BOX_CHECK_SAFETY * shift
+    return BOX_CHECK_SAFETY * np.array(shift, dtype=float)

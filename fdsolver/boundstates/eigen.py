@@ -43,7 +43,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from fdsolver.numerics import kernels
-from fdsolver.numerics.operator import Operator, mirror_halves
+from fdsolver.numerics.operator import DIRICHLET, NEUMANN, Operator
 from fdsolver.numerics.precision import EPS
 
 #: states closer than this fraction of their energy scale are a cluster (Gram-Schmidt between them)
@@ -65,10 +65,24 @@ LAPACK_WORK = 200_000
 
 @dataclass(frozen=True)
 class Sector:
-    """One operator of a grid problem: the whole grid (parity 0), or the even (+1) / odd (-1) half."""
+    """One operator of a grid problem: the whole grid (parity 0), or the even (+1) / odd (-1) half.  Of the
+    finest level's sectors the results read only the grid (:class:`SectorGrid`), which is all an all-levels
+    call gives there."""
 
-    op: Operator
+    op: Operator | SectorGrid
     parity: int = 0
+
+
+@dataclass(frozen=True)
+class SectorGrid:
+    """The grid of a sector as the results read it (unfolding its eigenvectors, the box check): its nodes (the
+    ends included), the weights of its unknowns, its cell masses (m_e) and its left end (``DIRICHLET``, or
+    ``NEUMANN`` at a mirror centre); the same fields of an :class:`~fdsolver.numerics.operator.Operator`."""
+
+    nodes: np.ndarray
+    w: np.ndarray
+    mass: np.ndarray
+    left: str = DIRICHLET
 
 
 @dataclass(frozen=True)
@@ -348,13 +362,12 @@ def constant_levels(base: np.ndarray, cells: tuple, center: float | None, potent
         _, en, sec, rounding, row, count_below, first_index, v0, v1 = got
         states = _states_of(sec, en, rounding, row, count_below, first_index, (v0, v1),
                             (1, -1) if center is not None else (0,))
-        nodes, a0, w0, vw0, d0, e0, (sub, mass, a, w, vw, v, d, e) = ops
-        op = Operator(nodes=sub, a=a, w=w, vw=vw, v=v, mass=mass, d=d, e=e, shift=float(shift))
+        nodes, w_even, sub, mass, w = ops  # the finest level's grid (the centre is node 1 of sub with a mirror)
         if center is None:
-            sectors = [Sector(op, 0)]
-        else:
-            even, odd = mirror_halves(op, 1, (a0, w0, vw0, d0, e0))
-            sectors = [Sector(even, 1), Sector(odd, -1)]
+            sectors = [Sector(SectorGrid(sub, w, mass), 0)]
+        else:  # the halves of :func:`~fdsolver.numerics.operator.mirror_halves`: the nodes and cells right of it
+            sectors = [Sector(SectorGrid(sub[1:], w_even, mass[1:], NEUMANN), 1),
+                       Sector(SectorGrid(sub[1:], w[1:], mass[1:], DIRICHLET), -1)]
         grid = (nodes, sectors)
     return (int(reason), list(rows), [int(k) for k in sizes], states, grid,
             judged if reason == kernels.LEVELS_DONE else None)

@@ -1860,7 +1860,9 @@ def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, 
     It stops at the first level that is not regular (see the LEVELS_* codes): over ``max_nodes``, a failed
     pass, no states, or other states than the previous level's (count or first index); the caller's loop
     takes over from that level.  Returns (reason, levels done L, their energies (L x n), their node counts,
-    the newest done level's two :func:`constant_level` tuples: its states and its operators, and with
+    the newest done level's :func:`constant_level` states, the grid of its sectors (its nodes, the even half's
+    or whole operator's weights, and of the whole operator the nodes it was assembled on, the cell masses
+    and the weights: what the results read from the sectors of the finest level), and with
     LEVELS_DONE the judged extrapolation, settled: the energies' :meth:`~fdsolver.numerics.richardson.Romberg.value`
     and error plus round-off floor, the states limited by round-off (as ``_judge`` finds them), the splittings'
     value and table error (:func:`romberg_newest` of the rows' differences), all through :func:`settle_levels`
@@ -1874,28 +1876,28 @@ def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, 
     sizes = np.zeros(max_levels, np.int64)
     none = np.empty(0)
     last = (1, none, np.empty(0, np.int64), none, np.empty(0, np.int64), 0, 0, np.empty((0, 0)), np.empty((0, 0)))
-    ops = (none, none, none, none, none, none, (none, none, none, none, none, none, none, none))
+    grid = (none, none, none, none, none)
     n = -1
     first = 0
     judged = (none, none, np.empty(0, np.bool_), none, none, np.empty(0, np.bool_), none)
     for level in range(max_levels):
         size = (nb - 1) * 2**level + 1
         if size > max_nodes:
-            return LEVELS_BUDGET, level, energies[:level].copy(), sizes[:level].copy(), last, ops, judged
+            return LEVELS_BUDGET, level, energies[:level].copy(), sizes[:level].copy(), last, grid, judged
         got, got_ops = constant_level(base, v_cell, m_cell, level, mirror, center, c, shift, pos, alpha, ge, gs,
                                       has_lo, e_lo, e_hi, max_states, floor, cluster_rtol, steps, residual_factor,
                                       ulps, eps)
         if got[0] != 0:
-            return LEVELS_FAILED, level, energies[:level].copy(), sizes[:level].copy(), last, ops, judged
+            return LEVELS_FAILED, level, energies[:level].copy(), sizes[:level].copy(), last, grid, judged
         en = got[1]
         if en.shape[0] == 0 or (n >= 0 and (en.shape[0] != n or got[6] != first)):
-            return LEVELS_CHANGED, level, energies[:level].copy(), sizes[:level].copy(), last, ops, judged
+            return LEVELS_CHANGED, level, energies[:level].copy(), sizes[:level].copy(), last, grid, judged
         if n < 0:
             n = en.shape[0]
             first = got[6]
             energies = np.empty((max_levels, n))
         last = got
-        ops = got_ops
+        grid = (got_ops[0], got_ops[2], got_ops[6][0], got_ops[6][1], got_ops[6][3])
         energies[level] = en
         sizes[level] = size
         if level + 1 >= min_levels:
@@ -1924,14 +1926,14 @@ def constant_levels(base, v_cell, m_cell, mirror, center, c, shift, pos, alpha, 
                 energy, error, splitting, splitting_error, bound, off = settle_levels(value, err, gap_value, gap_error,
                                                                                      got[3])
                 judged = (energy, error, limited_by, splitting, splitting_error, bound, off)
-                return LEVELS_DONE, level + 1, energies[:level + 1].copy(), sizes[:level + 1].copy(), last, ops, judged
+                return LEVELS_DONE, level + 1, energies[:level + 1].copy(), sizes[:level + 1].copy(), last, grid, judged
         # the next level's predictions
         if level == 0:
             ge = en.copy()
         else:
             ge = en - (energies[level - 1] - en) / 4.0
         gs = got[2].copy()
-    return LEVELS_ALL, max_levels, energies.copy(), sizes.copy(), last, ops, judged
+    return LEVELS_ALL, max_levels, energies.copy(), sizes.copy(), last, grid, judged
 
 
 @njit
