@@ -54,9 +54,13 @@ MARGIN_ULPS = 16.0
 MAX_BRACKET_GROWTH = 80
 
 
+#: the open line (no walls), where no domain is given
+_OPEN = Domain()
+
+
 def open_threshold(potential, domain: Domain | None = None) -> float:
     """Continuum threshold of an open-ended problem; CaseError when none exists (walls, confining V)."""
-    domain = domain or Domain()
+    domain = domain or _OPEN
     if domain.hard:
         raise CaseError('hard walls bind every state, so there is no binding threshold; use boundary = "open"',
                         key="domain.boundary")

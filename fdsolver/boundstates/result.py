@@ -282,9 +282,13 @@ def _levels_and_counts(problem, run) -> tuple[np.ndarray, int | None, int]:
     """Every level's energies (absolute; level x state, NaN where a level had fewer states), the box-independent
     count of bound states (None where it is not counted) and the count reported as bound."""
     n = run.energy.size
-    le = np.full((len(run.level_energies), n), np.nan)
-    for i, row in enumerate(run.level_energies):
-        le[i, : min(n, row.size)] = row[:n] + problem.reference  # absolute (Problem.absolute)
+    rows = run.level_energies
+    if rows and all(row.size == n for row in rows):  # every level has every state (the regular levels)
+        le = np.array(rows, dtype=float) + problem.reference  # absolute (Problem.absolute)
+    else:
+        le = np.full((len(rows), n), np.nan)
+        for i, row in enumerate(rows):
+            le[i, : min(n, row.size)] = row[:n] + problem.reference
     whole = problem.whole_line_count() if problem.whole_spectrum else None
     bound = whole if whole is not None else (int(run.states.count_below) if math.isfinite(problem.e_hi) else n)
     return le, whole, bound
