@@ -414,6 +414,35 @@ def test_table_spacing_is_the_lookup_and_target_spacing(seed, k, cones, ascendin
 
 
 @PROPS
+@given(st.integers(0, 10**6), st.integers(1, 9), st.booleans(), st.booleans())
+def test_values_apart_from_features_are_the_searched_lookup(seed, k, ascending, near):
+    """kernels.piece_values_apart, which walks its feature index along ascending positions, against the same
+    lookup searched position by position (kernels.piece_values, and the refusal of a position within ``tol`` of a
+    feature without being on it, written out here), bit for bit: positions on features, between them, beyond
+    both ends, and (``near``) one just beside a feature, which must be refused."""
+    rng = np.random.default_rng(seed)
+    feats = np.unique(np.round(rng.uniform(-5.0, 5.0, k), 1))
+    v_piece, m_piece = rng.uniform(-2.0, 2.0, feats.size + 1), rng.uniform(0.05, 1.0, feats.size + 1)
+    v_feat, m_feat = rng.uniform(-2.0, 2.0, feats.size), rng.uniform(0.05, 1.0, feats.size)
+    tol = 1e-9
+    x = np.concatenate([feats, np.round(rng.uniform(-8.0, 8.0, 30), 2) + 0.005, [-9.0, 9.0]])
+    if near:
+        x = np.concatenate([x, [feats[int(rng.integers(feats.size))] + 0.5 * tol]])
+    x = np.sort(x) if ascending else rng.permutation(x)
+    done, v, m = kernels.piece_values_apart(x, feats, v_piece, m_piece, v_feat, m_feat, tol)
+    k_of = np.searchsorted(feats, x, "left")
+    on = (k_of < feats.size) & (feats[np.minimum(k_of, feats.size - 1)] == x)
+    gap_up = np.where(k_of < feats.size, feats[np.minimum(k_of, feats.size - 1)] - x, np.inf)
+    gap_down = np.where(k_of > 0, x - feats[np.maximum(k_of - 1, 0)], np.inf)
+    refused = bool(np.any((~on & (gap_up <= tol)) | (gap_down <= tol)))
+    assert done == (not refused)
+    assert refused == near
+    if done:
+        v_ref, m_ref = kernels.piece_values(x, feats, v_piece, m_piece, v_feat, m_feat)
+        assert np.array_equal(v, v_ref) and np.array_equal(m, m_ref)
+
+
+@PROPS
 @given(st.floats(-1e6, 1e6), st.floats(-1e6, 1e6), st.integers(2, 2000))
 def test_even_samples_are_numpys_linspace(lo, hi, num):
     """The layout's even samples (kernels.even_samples) against numpy.linspace, bit for bit: spans of any sign

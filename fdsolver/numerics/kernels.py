@@ -1352,8 +1352,33 @@ def piece_values(x, feats, v_piece, m_piece, v_feat, m_feat):
 def piece_values_apart(x, feats, v_piece, m_piece, v_feat, m_feat, tol):
     """(done, V, m): :func:`piece_values` at ``x`` where no position lies within ``tol`` (length unit) of a feature
     without being on it; else done False and nothing read (a position that close might round to the other side
-    of the feature in the potential's own evaluation).  O(N log K)."""
+    of the feature in the potential's own evaluation).  For ascending ``x`` (the even samples of a layout) the
+    feature index is walked along with x instead of searched for: the same index, so the same answer.  O(N + K)
+    for ascending x, O(N log K) otherwise."""
     nf = feats.shape[0]
+    n = x.shape[0]
+    ascending = n == 0 or x[0] == x[0]
+    for i in range(1, n):
+        if not x[i - 1] <= x[i]:
+            ascending = False
+            break
+    if ascending:
+        v = np.empty(n)
+        m = np.empty(n)
+        k = 0  # features below x: search_sorted(feats, x, False)
+        for i in range(n):
+            xv = x[i]
+            while k < nf and feats[k] < xv:
+                k += 1
+            if (k < nf and xv != feats[k] and feats[k] - xv <= tol) or (k > 0 and xv - feats[k - 1] <= tol):
+                return False, np.empty(0), np.empty(0)
+            if k < nf and feats[k] == xv:
+                v[i] = v_feat[k]
+                m[i] = m_feat[k]
+            else:
+                v[i] = v_piece[k]
+                m[i] = m_piece[k]
+        return True, v, m
     for xv in x:
         k = search_sorted(feats, xv, False)  # feats[k - 1] < x <= feats[k]
         if (k < nf and xv != feats[k] and feats[k] - xv <= tol) or (k > 0 and xv - feats[k - 1] <= tol):
