@@ -8,6 +8,7 @@ operands give the same values; common practice, no source needed beyond the stan
 
 from __future__ import annotations
 
+import numba
 import numpy as np
 from hypothesis import HealthCheck, Phase, given, settings
 from hypothesis import strategies as st
@@ -15,6 +16,45 @@ from hypothesis import strategies as st
 from fdsolver.numerics import kernels
 from fdsolver.numerics.grid import refine
 from fdsolver.numerics.operator import NEUMANN, assemble, cell_constants, mirror_halves
+
+@numba.njit(cache=False)
+def _all_sorted(lo, hi, bounds, local, offs, background):
+    nb = bounds.shape[0]
+    width = hi - lo
+    count = background + nb
+    reach = np.empty(nb)
+    for i in range(nb):
+        left = bounds[i] - bounds[i - 1] if i > 0 else 0.0
+        right = bounds[i + 1] - bounds[i] if i < nb - 1 else 0.0
+        reach[i] = min(max(max(left, right), 0.0), width)
+        for k in range(400):
+            if local[i] * offs[k] < reach[i]:
+                count += 2
+    out = np.empty(count)
+    step = (hi - lo) / (background - 1)
+    for j in range(background):
+        out[j] = lo + j * step
+    out[background - 1] = hi
+    m = background
+    for i in range(nb):
+        out[m] = bounds[i]
+        m += 1
+        for k in range(400):
+            s = local[i] * offs[k]
+            if s < reach[i]:
+                out[m] = bounds[i] + s
+                out[m + 1] = bounds[i] - s
+                m += 2
+    for j in range(count):
+        out[j] = min(max(out[j], lo), hi)
+    out.sort()
+    n = 1
+    for j in range(1, count):
+        if out[j] != out[n - 1]:
+            out[n] = out[j]
+            n += 1
+    return out[:n].copy()
+
 
 PROPS = settings(deadline=None, derandomize=True, phases=(Phase.explicit, Phase.generate),
                  suppress_health_check=[HealthCheck.too_slow])
@@ -440,6 +480,48 @@ def test_values_apart_from_features_are_the_searched_lookup(seed, k, ascending, 
     if done:
         v_ref, m_ref = kernels.piece_values(x, feats, v_piece, m_piece, v_feat, m_feat)
         assert np.array_equal(v, v_ref) and np.array_equal(m, m_ref)
+
+
+@PROPS
+@given(st.integers(0, 10**6), st.integers(0, 6), st.sampled_from([0.0, -0.0, 1.5]))
+def test_grid_samples_are_the_sorted_distinct_samples(seed, k, lo):
+    """kernels.grid_samples (the bounds' samples sorted and merged with the background's, or all sorted where a
+    -0.0 or a NaN could make the two ways keep different zeros) against numpy: every background sample, bound and
+    offset, clipped to [lo, hi], through numpy.unique, bit for bit; bounds on the ends, ties between offsets and
+    background samples, a bound at -0.0, a spacing of NaN and one below zero."""
+    rng = np.random.default_rng(seed)
+    hi = lo + float(rng.choice([1.0, 7.5, 40.0]))
+    inner = np.sort(np.round(rng.uniform(lo, hi, k), 1))
+    bounds = np.unique(np.concatenate([[lo], inner, [hi]]))
+    if seed % 7 == 0 and bounds.size > 2:
+        bounds[1] = -0.0 if bounds[0] < 0.0 < bounds[2] else bounds[1]
+    local = rng.uniform(0.01, 0.5, bounds.size)
+    if seed % 11 == 0:
+        local[0] = np.nan
+    if seed % 13 == 0:
+        local[-1] = -0.1  # every offset then lies inside the reach (none in practice; the loops must not stop early)
+    offs = kernels.sample_offsets(0.25)
+    background = int(rng.choice([2, 17, 257]))
+    got = kernels.grid_samples(lo, hi, bounds, local, offs, background)
+    width = hi - lo
+    parts = [lo + np.arange(background) * ((hi - lo) / (background - 1)), [hi], bounds]
+    parts[0][-1] = hi
+    for i, b in enumerate(bounds):
+        left = b - bounds[i - 1] if i > 0 else 0.0
+        right = bounds[i + 1] - b if i < bounds.size - 1 else 0.0
+        reach = min(max(max(left, right), 0.0), width)
+        s = local[i] * offs
+        s = s[s < reach]
+        parts += [b + s, b - s]
+    every = np.minimum(np.maximum(np.concatenate(parts), lo), hi)
+    assert np.array_equal(got, np.unique(every))  # the values (-0.0 equal to 0.0)
+    # and the bits, against the form that sorts every sample together (numba's sort decides which zero is kept)
+    assert got.tobytes() == _sorted_distinct_all(lo, hi, bounds, local, offs, background).tobytes()
+
+
+def _sorted_distinct_all(lo, hi, bounds, local, offs, background):
+    """kernels.grid_samples as it was before its merge: every sample sorted together, then the distinct ones."""
+    return _all_sorted(lo, hi, bounds, local, offs, background)
 
 
 @PROPS

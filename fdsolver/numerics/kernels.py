@@ -1107,20 +1107,33 @@ def grid_samples(lo, hi, bounds, local, offs, background):
     ``background`` uniform samples, every bound, and from every bound
     geometric offsets local_i * ``offs`` (:func:`sample_offsets` of the grid's growth) outward on
     both sides, each reaching only as far as the farther neighbouring bound
-    (at most the box width); everything clipped to [lo, hi].  O(S log S) for S
-    samples.
+    (at most the box width); everything clipped to [lo, hi].  The bounds' samples are sorted and merged with
+    the background's, which are in order already (all of them are sorted together where that might keep a
+    different one of two equal numbers: a NaN or a -0.0 among them, or a background out of order): the same
+    positions.  O(S log S) for S samples, the background's in O(S).
     """
     nb = bounds.shape[0]
     width = hi - lo
     count = background + nb
     reach = np.empty(nb)
+    # with ascending offsets and a spacing >= 0 the offsets inside a bound's reach come first: the loops over
+    # them stop at the first one outside (``wide``, the count of them); otherwise every offset is tried
+    ordered = True
+    for k in range(1, 400):
+        if not offs[k - 1] <= offs[k]:
+            ordered = False
+    wide = np.empty(nb, np.int64)
     for i in range(nb):
         left = bounds[i] - bounds[i - 1] if i > 0 else 0.0
         right = bounds[i + 1] - bounds[i] if i < nb - 1 else 0.0
         reach[i] = min(max(max(left, right), 0.0), width)
+        wide[i] = 400
         for k in range(400):
             if local[i] * offs[k] < reach[i]:
                 count += 2
+            elif ordered and local[i] >= 0.0:
+                wide[i] = k
+                break
     out = np.empty(count)
     step = (hi - lo) / (background - 1)
     for j in range(background):
@@ -1130,7 +1143,7 @@ def grid_samples(lo, hi, bounds, local, offs, background):
     for i in range(nb):
         out[m] = bounds[i]
         m += 1
-        for k in range(400):
+        for k in range(wide[i]):
             s = local[i] * offs[k]
             if s < reach[i]:
                 out[m] = bounds[i] + s
@@ -1138,7 +1151,25 @@ def grid_samples(lo, hi, bounds, local, offs, background):
                 m += 2
     for j in range(count):
         out[j] = min(max(out[j], lo), hi)
-    out.sort()
+    plain = True
+    for j in range(count):
+        v = out[j]
+        if v != v or (v == 0.0 and math.copysign(1.0, v) < 0.0) or (0 < j < background and not out[j - 1] <= v):
+            plain = False
+            break
+    if plain:
+        near = out[background:].copy()
+        near.sort()
+        i, k = background - 1, near.shape[0] - 1
+        for j in range(count - 1, -1, -1):  # merged from the top: the background's unread entries stay below j
+            if k < 0 or (i >= 0 and out[i] > near[k]):
+                out[j] = out[i]
+                i -= 1
+            else:
+                out[j] = near[k]
+                k -= 1
+    else:
+        out.sort()
     n = 1
     for j in range(1, count):
         if out[j] != out[n - 1]:
