@@ -17,6 +17,7 @@ from fdsolver.numerics import kernels
 from fdsolver.numerics.grid import refine
 from fdsolver.numerics.operator import NEUMANN, assemble, cell_constants, mirror_halves
 
+
 @numba.njit(cache=False)
 def _all_sorted(lo, hi, bounds, local, offs, background):
     nb = bounds.shape[0]
