@@ -388,3 +388,24 @@ def test_mirror_test_from_tables_compares_the_masses():
         assert (centre is not None) == has_centre
         if has_centre:
             assert centre == pytest.approx(0.5 * (feats[0] + feats[-1]), abs=1e-12)
+
+
+@pytest.mark.parametrize("d", STRUCTURES)
+def test_potential_at_box_ends_is_the_potentials_own_value(d):
+    """fdsolver.numerics.tables.potential_at (V at a box's ends for the box check and the result's end nodes):
+    the potential's own values bit for bit, whether read from the tables (far out, in a piece) or evaluated (next
+    to a feature, or a potential that keeps no tables: a Gaussian well, invented)."""
+    from fdsolver.numerics.tables import potential_at, table_values
+
+    pot = fdsolver.case_from_dict(d).potential
+    feats = pot.features()
+    far = np.array([feats[0] - 37.5, feats[-1] + 1e5])
+    assert table_values(pot, far) is not None
+    near = np.array([feats[0] + 1e-13, feats[-1]])
+    for x in (far, near, np.array([feats[0]])):
+        with np.errstate(all="ignore"):
+            assert np.array_equal(potential_at(pot, x), pot.value(x))
+    smooth = fdsolver.case_from_dict({"units": "nm-meV", "mass": 0.067, "potential": [
+        {"shape": "gaussian", "center": 0.0, "sigma": 2.0, "depth": 80.0}]}).potential
+    x = np.array([-40.0, 0.3, 55.0])
+    assert table_values(smooth, x) is None and np.array_equal(potential_at(smooth, x), smooth.value(x))

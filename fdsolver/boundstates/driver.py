@@ -43,6 +43,7 @@ from fdsolver.boundstates.settings import SolveSettings
 from fdsolver.errors import BudgetError
 from fdsolver.model.domain import Domain
 from fdsolver.numerics.grid import GridSettings, base_grid, spacing_function
+from fdsolver.numerics.tables import potential_at
 
 #: attempts at sizing the provisional box (each grows it, fourfold for a missing weak state)
 MAX_BOX_ATTEMPTS = 40
@@ -248,7 +249,7 @@ def _box_check(problem: Problem, prov: Provisional, run: LevelRun) -> np.ndarray
             ends.append((-1, op.nodes[0], u[0] / math.sqrt(op.w[0]) / (op.nodes[1] - op.nodes[0]), op.mass[0]))
         for side, xw, slope, m in ends:
             if xw not in v_at:
-                v_at[xw] = float(pot.value(np.array([xw]))[0])
+                v_at[xw] = float(potential_at(pot, np.array([xw]))[0])
             v_end = v_at[xw] - problem.reference
             v_far = pot.asymptote(side) - problem.reference
             gap = min(v_end, v_far) - float(energy[k])

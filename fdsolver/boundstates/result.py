@@ -31,6 +31,7 @@ import numpy as np
 
 from fdsolver.numerics import kernels
 from fdsolver.numerics.operator import NEUMANN
+from fdsolver.numerics.tables import potential_at
 
 #: psi is resolved where |psi| exceeds this fraction of its peak (eigenvector noise lies far below)
 RESOLVED_FRACTION = 1e-6
@@ -133,7 +134,7 @@ def _potential_on(pot, x_all: np.ndarray, averaged: np.ndarray | None = None) ->
         il, ir = pot.half_cell_integrals(x_all)
         h = np.diff(x_all)
         v_nodes[1:-1] = (ir[:-1] + il[1:]) / (0.5 * (h[:-1] + h[1:]))
-    v_nodes[[0, -1]] = pot.value(x_all[[0, -1]])  # V is evaluated point by point: the ends' values alone
+    v_nodes[0], v_nodes[-1] = potential_at(pot, np.array([x_all[0], x_all[-1]]))  # V at the ends: their values alone
     return v_nodes
 
 
@@ -295,6 +296,8 @@ def _levels_and_counts(problem, run) -> tuple[np.ndarray, int | None, int]:
 
 
 def _convergence_notes(problem, run, error, scale, conv, index, messages) -> None:
+    if conv.all():
+        return
     tol = problem.settings.tolerance
     unit = problem.potential.units.energy
     for k in np.flatnonzero(~conv):

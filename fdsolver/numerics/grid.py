@@ -82,7 +82,7 @@ def base_grid(
         limit = max_nodes if center is None else half
         rest = (float(settings.growth), _offsets(settings.growth), BACKGROUND_SAMPLES,
                 int(settings.min_cells_per_segment), -1 if limit is None else int(limit), *spacing.table, *spacing.args)
-        points = np.asarray(list(breakpoints), dtype=float)
+        points = np.ascontiguousarray(breakpoints, dtype=float)
         if center is None:
             nodes, total = piece_grid(float(lo), float(hi), points, 64.0 * EPS * max(abs(lo), abs(hi), hi - lo), *rest)
         else:  # the right half, mirrored, as below

@@ -33,3 +33,10 @@ def table_values(potential, x: np.ndarray) -> tuple[np.ndarray, np.ndarray] | No
         return None
     done, v, m = piece_values_apart(np.ascontiguousarray(x, dtype=float), *table, apart_tolerance(table[0]))
     return (v, m) if done else None
+
+
+def potential_at(potential, x: np.ndarray) -> np.ndarray:
+    """V at the positions ``x`` (energy unit): read from the piece tables where that gives the potential's own
+    numbers (:func:`table_values`), evaluated (:meth:`~fdsolver.model.potential.Potential.value`) otherwise."""
+    read = table_values(potential, x)
+    return potential.value(x) if read is None else read[0]
