@@ -341,11 +341,12 @@ def constant_levels(base: np.ndarray, cells: tuple, center: float | None, potent
 
     Returns (reason, rows, sizes, states, grid, judged): the reason it stopped (a ``kernels.LEVELS_*`` code),
     the energies of every level done (one array each), their node counts, the newest done level's
-    :class:`GridStates` and (nodes, sectors) (both None if no level was done): the operators
-    :func:`fdsolver.boundstates.levels.sectors_on` makes, from the same call; and where every state was judged
-    (``LEVELS_DONE``) the extrapolation settled by :func:`fdsolver.numerics.kernels.settle_levels` (energies, their
-    errors with the round-off floor, the states limited by round-off, the splittings and their errors, which
-    splittings are only bounded, how far each energy is out of order), else None; the caller's level loop goes on from level
+    :class:`GridStates` and (nodes, sectors) (both None if no level was done): its nodes and its sectors' grids
+    (:class:`SectorGrid`, the fields of the operators :func:`fdsolver.boundstates.levels.sectors_on` makes that
+    the results read), from the same call; and where every state was judged (``LEVELS_DONE``) the extrapolation
+    settled by :func:`fdsolver.numerics.kernels.settle_levels` (energies, their errors with the round-off floor,
+    the states limited by round-off, the splittings and their errors, which splittings are only bounded, how far
+    each energy is out of order), else None; the caller's level loop goes on from level
     ``len(rows)`` where the reason asks for it.  The arguments are those of :func:`constant_level`,
     with the level loop's limits and tolerance.
     """

@@ -237,7 +237,7 @@ def refine_levels(problem: Problem, base: np.ndarray, center: float | None, mess
                         base)
     # splittings at or below the two round-off floors only bounded by them; an inversion within the error bars
     # (a doublet split below double precision) made one mean; how far an extrapolation is out of order
-    if judged_all is not None:  # the all-levels call's extrapolation, judgement and splittings, settled (the same numbers)
+    if judged_all is not None:  # the all-levels call's extrapolation, judgement and splittings, settled (same numbers)
         energy, error, limited, splitting, splitting_error, bound, off = judged_all
     else:
         if judged != last:

@@ -25,7 +25,8 @@
   of :func:`fdsolver.numerics.grid.spacing_function` in one pass).
 * :func:`piece_grid` - a whole base grid in one call where V is constant between features (its spacing
   function sampled from tables, :func:`piece_values`; the sample offsets from :func:`sample_offsets`, made
-  once per growth rate), :func:`mirrored_piece_grid` its mirror-symmetric form; :func:`cell_piece_values` - V and m on every cell of a grid from those tables;
+  once per growth rate), :func:`mirrored_piece_grid` its mirror-symmetric form; :func:`cell_piece_values` -
+  V and m on every cell of a grid from those tables;
   :func:`piece_values_apart` - V and m from the tables at positions none of which lies next to a feature.
 * :func:`flux_operator` - the arrays of the flux-form operator
   (:mod:`fdsolver.numerics.operator`) in one pass over the cells, through :func:`symmetric_form`, the one
@@ -1154,7 +1155,7 @@ def grid_samples(lo, hi, bounds, local, offs, background):
     plain = True
     for j in range(count):
         v = out[j]
-        if v != v or (v == 0.0 and math.copysign(1.0, v) < 0.0) or (0 < j < background and not out[j - 1] <= v):
+        if math.isnan(v) or (v == 0.0 and math.copysign(1.0, v) < 0.0) or (0 < j < background and not out[j - 1] <= v):
             plain = False
             break
     if plain:
@@ -1380,6 +1381,19 @@ def piece_values(x, feats, v_piece, m_piece, v_feat, m_feat):
 
 
 @njit
+def _ascending(x):
+    """True if ``x`` never decreases and holds no NaN (an empty ``x`` too): then a pointer walked along it finds
+    the same indices into a sorted table as a search at each entry."""
+    n = x.shape[0]
+    if n and math.isnan(x[0]):
+        return False
+    for i in range(1, n):
+        if not x[i - 1] <= x[i]:
+            return False
+    return True
+
+
+@njit
 def piece_values_apart(x, feats, v_piece, m_piece, v_feat, m_feat, tol):
     """(done, V, m): :func:`piece_values` at ``x`` where no position lies within ``tol`` (length unit) of a feature
     without being on it; else done False and nothing read (a position that close might round to the other side
@@ -1388,11 +1402,7 @@ def piece_values_apart(x, feats, v_piece, m_piece, v_feat, m_feat, tol):
     for ascending x, O(N log K) otherwise."""
     nf = feats.shape[0]
     n = x.shape[0]
-    ascending = n == 0 or x[0] == x[0]
-    for i in range(1, n):
-        if not x[i - 1] <= x[i]:
-            ascending = False
-            break
+    ascending = _ascending(x)
     if ascending:
         v = np.empty(n)
         m = np.empty(n)
@@ -1445,11 +1455,7 @@ def _piece_spacing(x, feats, v_piece, m_piece, v_feat, m_feat, e_lo, e_hi, c, re
     with x instead of searched for at each position: the same indices (the counts of entries below x, or at or
     below it), so the same numbers.  O(N + K) for ascending x, O(N log K) otherwise."""
     n = x.shape[0]
-    ascending = n == 0 or x[0] == x[0]
-    for i in range(1, n):
-        if not x[i - 1] <= x[i]:
-            ascending = False
-            break
+    ascending = _ascending(x)
     if not ascending:
         v, m = piece_values(x, feats, v_piece, m_piece, v_feat, m_feat)
         return target_spacing(x, v, m, e_lo, e_hi, c, reach, lo_s, hi_s, r2_cap, wave_fraction, apex, left, right,
