@@ -493,9 +493,7 @@ def test_grid_samples_are_the_sorted_distinct_samples(seed, k, lo):
     rng = np.random.default_rng(seed)
     hi = lo + float(rng.choice([1.0, 7.5, 40.0]))
     inner = np.sort(np.round(rng.uniform(lo, hi, k), 1))
-    bounds = np.unique(np.concatenate([[lo], inner, [hi]]))
-    if seed % 7 == 0 and bounds.size > 2:
-        bounds[1] = -0.0 if bounds[0] < 0.0 < bounds[2] else bounds[1]
+    bounds = np.unique(np.concatenate([[lo], inner, [hi]]))  # lo = -0.0: a bound at -0.0
     local = rng.uniform(0.01, 0.5, bounds.size)
     if seed % 11 == 0:
         local[0] = np.nan
