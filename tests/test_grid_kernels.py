@@ -19,42 +19,11 @@ from fdsolver.numerics.operator import NEUMANN, assemble, cell_constants, mirror
 
 
 @numba.njit(cache=False)
-def _all_sorted(lo, hi, bounds, local, offs, background):
-    nb = bounds.shape[0]
-    width = hi - lo
-    count = background + nb
-    reach = np.empty(nb)
-    for i in range(nb):
-        left = bounds[i] - bounds[i - 1] if i > 0 else 0.0
-        right = bounds[i + 1] - bounds[i] if i < nb - 1 else 0.0
-        reach[i] = min(max(max(left, right), 0.0), width)
-        for k in range(400):
-            if local[i] * offs[k] < reach[i]:
-                count += 2
-    out = np.empty(count)
-    step = (hi - lo) / (background - 1)
-    for j in range(background):
-        out[j] = lo + j * step
-    out[background - 1] = hi
-    m = background
-    for i in range(nb):
-        out[m] = bounds[i]
-        m += 1
-        for k in range(400):
-            s = local[i] * offs[k]
-            if s < reach[i]:
-                out[m] = bounds[i] + s
-                out[m + 1] = bounds[i] - s
-                m += 2
-    for j in range(count):
-        out[j] = min(max(out[j], lo), hi)
+def _numba_sorted(values):
+    """numba's own sort of a copy (the sort kernels.grid_samples used for all its samples before its merge)."""
+    out = values.copy()
     out.sort()
-    n = 1
-    for j in range(1, count):
-        if out[j] != out[n - 1]:
-            out[n] = out[j]
-            n += 1
-    return out[:n].copy()
+    return out
 
 
 PROPS = settings(deadline=None, derandomize=True, phases=(Phase.explicit, Phase.generate),
@@ -514,13 +483,12 @@ def test_grid_samples_are_the_sorted_distinct_samples(seed, k, lo):
         parts += [b + s, b - s]
     every = np.minimum(np.maximum(np.concatenate(parts), lo), hi)
     assert np.array_equal(got, np.unique(every))  # the values (-0.0 equal to 0.0)
-    # and the bits, against the form that sorts every sample together (numba's sort decides which zero is kept)
-    assert got.tobytes() == _sorted_distinct_all(lo, hi, bounds, local, offs, background).tobytes()
-
-
-def _sorted_distinct_all(lo, hi, bounds, local, offs, background):
-    """kernels.grid_samples as it was before its merge: every sample sorted together, then the distinct ones."""
-    return _all_sorted(lo, hi, bounds, local, offs, background)
+    # the same samples before ordering (kernels.grid_raw_samples), and the bits against the form that sorts them
+    # all together, each position once (numba's sort decides which of two zeros is kept)
+    raw = kernels.grid_raw_samples(lo, hi, bounds, local, offs, background)
+    assert np.array_equal(np.unique(raw), np.unique(every))
+    ordered = _numba_sorted(raw)
+    assert got.tobytes() == ordered[np.concatenate([[True], ordered[1:] != ordered[:-1]])].tobytes()
 
 
 @PROPS

@@ -16,7 +16,7 @@
   ulps of the energy scale rather than of the matrix norm (which grows as
   1/h_min^2 on graded grids).
 * :func:`lipschitz_limit` - the lower envelope min_j (h_j + g |x_i - x_j|).
-* :func:`grid_samples`, :func:`inner_bounds`, :func:`sample_pass` (:func:`merge_samples`,
+* :func:`grid_samples` (:func:`grid_raw_samples`), :func:`inner_bounds`, :func:`sample_pass` (:func:`merge_samples`,
   :func:`lipschitz_limit`, :func:`coarse_midpoints`), :func:`segment_nodes` - the sampling of the spacing
   function and the node placement of a base grid
   (:mod:`fdsolver.numerics.grid`), one pass each instead of a chain of numpy
@@ -1103,15 +1103,47 @@ def sample_offsets(growth):
 
 @njit
 def grid_samples(lo, hi, bounds, local, offs, background):
-    """Sorted distinct sample positions for a base grid on [lo, hi] (length unit).
+    """Sorted distinct sample positions for a base grid on [lo, hi] (length unit): the samples of
+    :func:`grid_raw_samples`, ordered and each position once.  The bounds' samples are sorted and merged with the
+    background's, which are in order already (all of them are sorted together where that might keep a different
+    one of two equal numbers: a NaN or a -0.0 among them, or a background out of order): the same positions.
+    O(S log S) for S samples, the background's in O(S).
+    """
+    out = grid_raw_samples(lo, hi, bounds, local, offs, background)
+    count = out.shape[0]
+    plain = True
+    for j in range(count):
+        v = out[j]
+        if math.isnan(v) or (v == 0.0 and math.copysign(1.0, v) < 0.0) or (0 < j < background and not out[j - 1] <= v):
+            plain = False
+            break
+    if plain:
+        near = out[background:].copy()
+        near.sort()
+        i, k = background - 1, near.shape[0] - 1
+        for j in range(count - 1, -1, -1):  # merged from the top: the background's unread entries stay below j
+            if k < 0 or (i >= 0 and out[i] > near[k]):
+                out[j] = out[i]
+                i -= 1
+            else:
+                out[j] = near[k]
+                k -= 1
+    else:
+        out.sort()
+    n = 1
+    for j in range(1, count):
+        if out[j] != out[n - 1]:
+            out[n] = out[j]
+            n += 1
+    return out[:n].copy()
 
-    ``background`` uniform samples, every bound, and from every bound
-    geometric offsets local_i * ``offs`` (:func:`sample_offsets` of the grid's growth) outward on
-    both sides, each reaching only as far as the farther neighbouring bound
-    (at most the box width); everything clipped to [lo, hi].  The bounds' samples are sorted and merged with
-    the background's, which are in order already (all of them are sorted together where that might keep a
-    different one of two equal numbers: a NaN or a -0.0 among them, or a background out of order): the same
-    positions.  O(S log S) for S samples, the background's in O(S).
+
+@njit
+def grid_raw_samples(lo, hi, bounds, local, offs, background):
+    """The sample positions of a base grid on [lo, hi] (length unit), unsorted, repeats kept: ``background``
+    uniform samples first, then every bound followed by its geometric offsets local_i * ``offs``
+    (:func:`sample_offsets` of the grid's growth), above and below it in turn, each reaching only as far as the
+    farther neighbouring bound (at most the box width); everything clipped to [lo, hi].  O(S) for S samples.
     """
     nb = bounds.shape[0]
     width = hi - lo
@@ -1152,31 +1184,7 @@ def grid_samples(lo, hi, bounds, local, offs, background):
                 m += 2
     for j in range(count):
         out[j] = min(max(out[j], lo), hi)
-    plain = True
-    for j in range(count):
-        v = out[j]
-        if math.isnan(v) or (v == 0.0 and math.copysign(1.0, v) < 0.0) or (0 < j < background and not out[j - 1] <= v):
-            plain = False
-            break
-    if plain:
-        near = out[background:].copy()
-        near.sort()
-        i, k = background - 1, near.shape[0] - 1
-        for j in range(count - 1, -1, -1):  # merged from the top: the background's unread entries stay below j
-            if k < 0 or (i >= 0 and out[i] > near[k]):
-                out[j] = out[i]
-                i -= 1
-            else:
-                out[j] = near[k]
-                k -= 1
-    else:
-        out.sort()
-    n = 1
-    for j in range(1, count):
-        if out[j] != out[n - 1]:
-            out[n] = out[j]
-            n += 1
-    return out[:n].copy()
+    return out
 
 
 @njit
