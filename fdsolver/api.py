@@ -169,7 +169,7 @@ def sweep(case, vary: str | Sequence[str] = (), *, save_psi: bool = False, outpu
     ``[sweep] vary``).  ``save_psi`` keeps the wavefunctions on one common x
     grid.  ``output``: the archive to write, with its checkpoint beside it
     (``resume`` continues an interrupted run, ``restart`` discards its
-    checkpoint).  ``executor``/``workers``/``cluster`` ("local:N")/``scheduler``
+    checkpoint).  ``executor``/``workers``/``cluster`` ("local:N", "local:N:dashboard")/``scheduler``
     (a Dask address) say where points run.  ``memory_mb`` is the budget of the
     result, ``chunk`` the points per task, ``thresholds`` whether binding
     thresholds are located along a single swept param.  ``energies_only`` keeps

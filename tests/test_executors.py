@@ -78,6 +78,8 @@ def test_worker_errors_reach_the_caller():
 
 @pytest.mark.parametrize("args, words", [
     (dict(cluster="remote:3"), "local:N"), (dict(cluster="local:0"), "local:N"),
+    (dict(cluster="local:2:"), "local:N:dashboard"), (dict(cluster="local:2:dash"), "local:N:dashboard"),
+    (dict(cluster="local::dashboard"), "local:N"),
     (dict(cluster="local:2", scheduler="tcp://127.0.0.1:1"), "not both"), (dict(kind="gpu"), "unknown executor"),
 ])
 def test_bad_executor_requests(args, words):
@@ -86,9 +88,51 @@ def test_bad_executor_requests(args, words):
 
 
 def test_defaults():
-    assert parse_cluster("local:3") == 3
+    assert parse_cluster("local:3") == (3, False) and parse_cluster("local:3:dashboard") == (3, True)
     assert isinstance(make_executor(), ProcessExecutor) and isinstance(make_executor("serial"), SerialExecutor)
     assert make_executor().workers >= 1 and np.issubdtype(type(make_executor(workers=2).workers), np.integer)
+
+
+def test_dashboard_only_when_asked_for():
+    # a new cluster serves Dask's dashboard only when the spec asks for it (it costs CPU at every start); asked
+    # for, its link is kept, or the reason it is not served (bokeh missing)
+    import importlib.util
+    import urllib.error
+    import urllib.request
+
+    def status_page(ex) -> int:  # HTTP status of the dashboard's main page on the scheduler's web server
+        try:
+            with urllib.request.urlopen(f"http://127.0.0.1:{ex.cluster.scheduler.http_server.port}/status") as r:
+                return r.status
+        except urllib.error.HTTPError as exc:
+            return exc.code
+
+    with make_executor(cluster="local:1") as plain:
+        assert plain.dashboard is None and status_page(plain) == 404
+    bokeh = importlib.util.find_spec("bokeh") is not None
+    with make_executor(cluster="local:1:dashboard") as asked:
+        if bokeh:
+            assert asked.dashboard.startswith("http://127.0.0.1:") and status_page(asked) == 200
+        else:
+            assert "pip install bokeh" in asked.dashboard  # (the web server then says so on its page)
+
+
+def test_collector_paused_and_restored():
+    # the cyclic GC is off inside the block and back as it was (on or off) after it, also after an error
+    import gc
+
+    from fdsolver.parallel.executors import _collector_paused
+
+    was = gc.isenabled()
+    try:
+        for before in (True, False):
+            (gc.enable if before else gc.disable)()
+            with pytest.raises(KeyError), _collector_paused():
+                assert not gc.isenabled()
+                raise KeyError("inside")
+            assert gc.isenabled() is before
+    finally:
+        (gc.enable if was else gc.disable)()
 
 
 @pytest.mark.slow

@@ -36,7 +36,8 @@ def register(sub) -> None:
     p.add_argument("--executor", choices=("serial", "processes", "dask"), help="where sweep points run (default: "
                    "processes)")
     p.add_argument("-j", "--workers", type=int, metavar="N", help="worker processes of a sweep (default: all cores)")
-    p.add_argument("--cluster", metavar="local:N", help="start a Dask LocalCluster of N workers")
+    p.add_argument("--cluster", metavar="local:N", help="start a Dask LocalCluster of N workers (local:N:dashboard "
+                   "also serves its dashboard)")
     p.add_argument("--scheduler", metavar="tcp://HOST:PORT", help="run a sweep on an existing Dask scheduler")
     p.add_argument("--chunk", type=int, metavar="POINTS", help="sweep points per task")
     p.add_argument("--memory-mb", type=float, metavar="MB", help="memory budget of a sweep result")

@@ -15,7 +15,8 @@ SCAN_HELP = {
 def _scan_options(p, what: str) -> None:
     p.add_argument("-j", "--workers", type=int, metavar="N", help=SCAN_HELP["-j"])
     p.add_argument("--executor", choices=("serial", "processes", "dask"), help=SCAN_HELP["--executor"])
-    p.add_argument("--cluster", metavar="local:N", help="start a Dask LocalCluster of N workers")
+    p.add_argument("--cluster", metavar="local:N", help="start a Dask LocalCluster of N workers (local:N:dashboard "
+                   "also serves its dashboard)")
     p.add_argument("--scheduler", metavar="ADDRESS", help="use the Dask scheduler at ADDRESS")
     p.add_argument("--chunk", type=int, metavar="N", help=f"{what} per task")
     p.add_argument("--resume", action="store_true", help=SCAN_HELP["--resume"])

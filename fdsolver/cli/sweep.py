@@ -24,7 +24,8 @@ def register(sub) -> None:
                    "splittings): no <x>, spreads, region shares or transitions; each point costs less")
     p.add_argument("--executor", choices=("serial", "processes", "dask"), help="where points run (default: processes)")
     p.add_argument("-j", "--workers", type=int, metavar="N", help="worker processes (default: all cores)")
-    p.add_argument("--cluster", metavar="local:N", help="start a Dask LocalCluster of N workers")
+    p.add_argument("--cluster", metavar="local:N", help="start a Dask LocalCluster of N workers (local:N:dashboard "
+                   "also serves its dashboard)")
     p.add_argument("--scheduler", metavar="tcp://HOST:PORT", help="run on an existing Dask scheduler")
     p.add_argument("--chunk", type=int, metavar="POINTS", help="points per task (default: up to 200)")
     p.add_argument("--resume", action="store_true", help="continue from the checkpoint (computes only missing points)")

@@ -195,15 +195,27 @@ class ProcessExecutor:
                 fut.cancel()
 
 
-def parse_cluster(spec: str) -> int:
-    """Worker count of ``local:N`` (at most :func:`fdsolver.limits.max_local_workers`)."""
+#: the word after ``local:N:`` that asks a LocalCluster for its dashboard
+DASHBOARD = "dashboard"
+
+
+def parse_cluster(spec: str) -> tuple[int, bool]:
+    """Worker count of ``local:N`` (at most :func:`fdsolver.limits.max_local_workers`), and whether the
+    dashboard is served (``local:N:dashboard``).
+
+    The dashboard is asked for, not served by default: with bokeh installed, serving it costs about 0.5 s of
+    CPU at every cluster's start (0.96-0.98 against 0.46 s for a first start in a process, measured), a tenth
+    of a 10,000-point sweep on 2 cores, for pages that only a watcher of the cluster opens.
+    """
     if not isinstance(spec, str):
         raise CaseError(f"give the cluster as local:N, got {spec!r}", key="--cluster")
-    kind, _, n = spec.partition(":")
-    if kind != "local" or not n.isdigit() or int(n) < 1:
-        raise CaseError(f"'{spec}' is not local:N (N workers on this machine, e.g. local:4)", key="--cluster")
+    kind, _, rest = spec.partition(":")
+    n, colon, extra = rest.partition(":")
+    if kind != "local" or not n.isdigit() or int(n) < 1 or (colon and extra != DASHBOARD):
+        raise CaseError(f"'{spec}' is not local:N or local:N:{DASHBOARD} (N workers on this machine, e.g. local:4)",
+                        key="--cluster")
     _local_limit(int(n), "--cluster")
-    return int(n)
+    return int(n), extra == DASHBOARD
 
 
 #: local worker processes per core at most (a little oversubscription is harmless; thousands of processes are not)
@@ -253,6 +265,31 @@ class _sigint_ignored:
         return False
 
 
+class _collector_paused:
+    """Pause Python's cyclic garbage collector for a block (restored as it was at the end).
+
+    Loading Dask's modules and starting a cluster allocates some 100,000 long-lived objects, which sets off
+    full collections; each walks every object the process holds (about 110,000 more after a sweep has
+    loaded the archive's libraries).  Measured in a process that had run a serial sweep (scratch script,
+    not kept): the import of dask.distributed took 0.24-0.30 s with the collector paused and 0.31-0.40 s
+    without it (three runs each).  Nothing in the block is left as garbage worth collecting early.
+    """
+
+    def __enter__(self):
+        import gc
+
+        self.was = gc.isenabled()
+        gc.disable()
+        return self
+
+    def __exit__(self, *exc):
+        import gc
+
+        if self.was:
+            gc.enable()
+        return False
+
+
 #: Dask settings of the LocalCluster fdsolver starts (its own cluster, so its own settings): the points are
 #: equal chunks (no work stealing needed), their memory is bounded by fdsolver's own budget (memory_mb), so the
 #: workers' memory monitor, the system monitors, the statistical profiler (a stack sample every 10 ms) and the
@@ -275,12 +312,16 @@ LOCAL_CLUSTER_CONFIG = {
 
 
 class DaskExecutor:
-    """Run jobs on Dask: a new LocalCluster of ``workers`` processes, or an existing scheduler at ``address``."""
+    """Run jobs on Dask: a new LocalCluster of ``workers`` processes, or an existing scheduler at ``address``.
+
+    ``dashboard``: the new cluster serves Dask's dashboard (see :func:`parse_cluster` for its cost); the link is
+    kept in ``.dashboard``.  An existing scheduler's dashboard is its own: its link is kept whenever it serves one.
+    """
 
     name = "dask"
 
     def __init__(self, workers: int | None = None, address: str | None = None, in_flight: int | None = None,
-                 processes: bool = True, dashboard: bool = True, initializer=None):
+                 processes: bool = True, dashboard: bool = False, initializer=None):
         self.initializer = initializer
         self.address, self.n_workers, self.processes, self.want_dashboard = address, workers, processes, dashboard
         self.in_flight_arg = in_flight
@@ -296,6 +337,10 @@ class DaskExecutor:
             raise
 
     def _start(self):
+        with _collector_paused():  # a start creates some 100,000 objects: no full collections of the heap meanwhile
+            return self._start_cluster()
+
+    def _start_cluster(self):
         try:
             import logging
 
@@ -328,9 +373,16 @@ class DaskExecutor:
         info = self.client.scheduler_info()
         self.workers = max(1, len(info.get("workers", {})))
         self.in_flight = self.in_flight_arg or 2 * self.workers
-        if self.want_dashboard:
+        if self.address:  # its web server's name says it serves the pages (the pages need bokeh over there)
             served = "dashboard" in (info.get("services") or {})
-            self.dashboard = self.client.dashboard_link if served else "not served by this scheduler (it needs bokeh: pip install bokeh)"
+        else:  # this process's scheduler always runs a web server; the pages are added only where bokeh imports
+            import importlib.util
+
+            served = self.want_dashboard and importlib.util.find_spec("bokeh") is not None
+        if served:
+            self.dashboard = self.client.dashboard_link
+        elif self.want_dashboard:
+            self.dashboard = "not served by this scheduler (it needs bokeh: pip install bokeh)"
         self.client.run(_worker_setup, self.initializer)
         return self
 
@@ -376,7 +428,8 @@ def make_executor(kind: str | None = None, workers: int | None = None, cluster: 
     if workers is not None and not scheduler:
         _local_limit(workers, "--workers")
     if cluster or scheduler or kind == "dask":
-        return DaskExecutor(workers=parse_cluster(cluster) if cluster else workers, address=scheduler, initializer=initializer)
+        n, dashboard = parse_cluster(cluster) if cluster else (workers, False)
+        return DaskExecutor(workers=n, address=scheduler, dashboard=dashboard, initializer=initializer)
     if kind == "serial" or (workers == 1 and kind is None):
         return SerialExecutor(initializer)
     if kind in (None, "processes"):
