@@ -78,8 +78,8 @@ def test_worker_errors_reach_the_caller():
 
 @pytest.mark.parametrize("args, words", [
     (dict(cluster="remote:3"), "local:N"), (dict(cluster="local:0"), "local:N"),
-    (dict(cluster="local:2:"), "local:N:dashboard"), (dict(cluster="local:2:dash"), "local:N:dashboard"),
-    (dict(cluster="local::dashboard"), "local:N"),
+    ({"cluster": "local:2:"}, "local:N:dashboard"), ({"cluster": "local:2:dash"}, "local:N:dashboard"),
+    ({"cluster": "local::dashboard"}, "local:N"),
     (dict(cluster="local:2", scheduler="tcp://127.0.0.1:1"), "not both"), (dict(kind="gpu"), "unknown executor"),
 ])
 def test_bad_executor_requests(args, words):
