@@ -109,6 +109,11 @@ def test_dashboard_only_when_asked_for():
 
     with make_executor(cluster="local:1") as plain:
         assert plain.dashboard is None and status_page(plain) == 404
+        # its worker was forked while the cluster started with this process's cyclic GC paused; the GC is on
+        # there again, as here (a worker without it keeps every reference cycle its jobs leave)
+        import gc
+
+        assert gc.isenabled() and list(plain.client.run(gc.isenabled).values()) == [True]
     bokeh = importlib.util.find_spec("bokeh") is not None
     with make_executor(cluster="local:1:dashboard") as asked:
         if bokeh:

@@ -53,8 +53,17 @@ def _in_worker(fn, job):
     return fn(job)
 
 
-def _worker_setup(initializer=None) -> None:
-    """Start of a worker process: one BLAS thread, then the caller's ``initializer`` (if any)."""
+def _worker_setup(initializer=None, collector: bool = False) -> None:
+    """Start of a worker process: one BLAS thread, then the caller's ``initializer`` (if any).
+
+    ``collector``: turn Python's cyclic garbage collector back on.  A worker forked while its parent had
+    paused it (:class:`_collector_paused`) starts with it off, and would keep every reference cycle its
+    jobs leave for as long as it lives.
+    """
+    if collector:
+        import gc
+
+        gc.enable()
     if not _PINNED[0]:
         one_blas_thread()
         _PINNED[0] = True
@@ -272,7 +281,8 @@ class _collector_paused:
     full collections; each walks every object the process holds (about 110,000 more after a sweep has
     loaded the archive's libraries).  Measured in a process that had run a serial sweep (scratch script,
     not kept): the import of dask.distributed took 0.24-0.30 s with the collector paused and 0.31-0.40 s
-    without it (three runs each).  Nothing in the block is left as garbage worth collecting early.
+    without it (three runs each).  Nothing in the block is left as garbage worth collecting early.  A process
+    forked inside the block starts with the collector off; the caller turns it back on there.
     """
 
     def __enter__(self):
@@ -337,10 +347,12 @@ class DaskExecutor:
             raise
 
     def _start(self):
-        with _collector_paused():  # a start creates some 100,000 objects: no full collections of the heap meanwhile
-            return self._start_cluster()
+        with _collector_paused() as paused:  # a start creates some 100,000 objects: no full collections meanwhile
+            return self._start_cluster(paused.was)
 
-    def _start_cluster(self):
+    def _start_cluster(self, collector: bool):
+        """Start (or reach) the cluster; ``collector``: this process ran its cyclic GC before the start, so the
+        workers a new cluster forks meanwhile turn theirs back on."""
         try:
             import logging
 
@@ -383,7 +395,7 @@ class DaskExecutor:
             self.dashboard = self.client.dashboard_link
         elif self.want_dashboard:
             self.dashboard = "not served by this scheduler (it needs bokeh: pip install bokeh)"
-        self.client.run(_worker_setup, self.initializer)
+        self.client.run(_worker_setup, self.initializer, collector and self.cluster is not None)
         return self
 
     def __exit__(self, *exc):
