@@ -21,7 +21,7 @@ same process: the first pays Dask's import, the second (a new cluster in the sam
    serial executor on the same points (target >= 1.8x of the ceiling; the serial run is a 1,000-point subset,
    scaled);
 2. the same points on a Dask LocalCluster with as many workers (target within 10 % of step 1), in a fresh
-   process and again in that process;
+   process and again in that process, each with the wall time of the cluster's start (part of the sweep's);
 3. the 40 x 40 validity map of cases/impurity_pair.toml on local processes (target < 6 s);
 4. a binding threshold of cases/double_square.toml to relative 1e-9 (target < 1 s).
 """
@@ -99,19 +99,30 @@ if __name__ == "__main__":
     # untimed, as in the parent by then: the archive's libraries (xarray, pandas, netCDF4) imported
     fdsolver.sweep(case, ["d=2.5:6:2", "depth=100:160:2"], output=sys.argv[3] + "w", executor="serial",
                    thresholds=False)
+    from fdsolver.scans.runner import executor_for  # what fdsolver.sweep(cluster=...) makes and enters
+
+    def run(k):  # the executor's start (Dask's import, the cluster), the sweep on it, its close: timed apart
+        ex = executor_for(cluster="local:" + sys.argv[4])
+        _, start, _ = timed(ex.__enter__)
+        try:
+            fdsolver.sweep(case, json.loads(sys.argv[2]), output=sys.argv[3] + str(k), executor=ex, thresholds=False)
+        finally:
+            ex.__exit__(None, None, None)
+        return start
+
     times = []
     for k in range(2):  # the first with Dask's import, both with a cluster of their own
-        _, wall, cpu = timed(lambda k=k: fdsolver.sweep(case, json.loads(sys.argv[2]), output=sys.argv[3] + str(k),
-                                                        cluster="local:" + sys.argv[4], thresholds=False))
-        times += [wall, cpu]
+        start, wall, cpu = timed(lambda k=k: run(k))
+        times += [wall, cpu, start]
     print("TIMES", json.dumps(times))
 """
 
 
 def dask_sweeps(vary, output, workers: int) -> list[float]:
-    """[wall, CPU, wall, CPU] seconds of two sweeps of SQUARE over ``vary`` on a Dask LocalCluster each, in a
-    fresh child process: the first pays Dask's import and its cluster's start (as a command-line user does),
-    the second only its cluster's start (as in a session that has used Dask before)."""
+    """[wall, CPU, start, wall, CPU, start] seconds of two sweeps of SQUARE over ``vary`` on a Dask LocalCluster
+    each, in a fresh child process: the first pays Dask's import and its cluster's start (as a command-line user
+    does), the second only its cluster's start (as in a session that has used Dask before).  ``start``: the wall
+    time of that start alone, a part of ``wall``."""
     import json
     import subprocess
     import sys
@@ -155,7 +166,7 @@ def main() -> None:
         n_sub = (side // 10 or 1) * side
         ceils, walls, cpus, serial_ms, speedups = [], [], [], [], []
         e_walls, e_cpus, e_ratios = [], [], []
-        d_walls, d_cpus, d_ratios, d2_walls, d2_cpus, d2_ratios = [], [], [], [], [], []
+        d_walls, d_cpus, d_ratios, d2_walls, d2_cpus, d2_ratios, d_starts, d2_starts = [], [], [], [], [], [], [], []
         for r in range(args.repeat):
             ceils.append(ceiling(w))
             ds, wall, cpu = timed(lambda r=r: fdsolver.sweep(case, vary, output=out / f"local{r}.nc",
@@ -173,7 +184,9 @@ def main() -> None:
             serial_ms.append(wall_s / n_sub * 1e3)
             speedups.append(wall_s * n / n_sub / wall)
             if not args.no_dask:
-                wall_d, cpu_d, wall_d2, cpu_d2 = dask_sweeps(vary, out / f"dask{r}.nc", w)
+                wall_d, cpu_d, start_d, wall_d2, cpu_d2, start_d2 = dask_sweeps(vary, out / f"dask{r}.nc", w)
+                d_starts.append(start_d)
+                d2_starts.append(start_d2)
                 d_walls.append(wall_d)
                 d_cpus.append(cpu_d)
                 d_ratios.append(wall_d / wall)
@@ -194,13 +207,16 @@ def main() -> None:
               f"{min(speedups):.2f}-{max(speedups):.2f}) = {speedup / ceil:.2f} of the machine's ceiling "
               f"(target >= 1.8x, i.e. about the ceiling; {'met' if speedup >= min(1.8, 0.95 * ceil) else 'NOT met'})")
         if not args.no_dask:
-            for label, dw, dc, dr in (("in a fresh process (Dask's import included)", d_walls, d_cpus, d_ratios),
-                                      ("again in that process (Dask imported)", d2_walls, d2_cpus, d2_ratios)):
+            for label, dw, dc, dr, ds in (
+                    ("in a fresh process (Dask's import included)", d_walls, d_cpus, d_ratios, d_starts),
+                    ("again in that process (Dask imported)", d2_walls, d2_cpus, d2_ratios, d2_starts)):
                 summary(f"2. the same on a Dask LocalCluster x{w}", dw, dc)
                 ratio = statistics.median(dr)
                 print(f"      {label}: Dask / local = {ratio:.2f} (median of the rounds' ratios, "
                       f"{min(dr):.2f}-{max(dr):.2f}; target <= 1.10, the cluster's start included: "
                       f"{'met' if ratio <= 1.10 else 'NOT met'})")
+                print(f"      of which the start (import, cluster, workers set up): wall min {min(ds):.2f} median "
+                      f"{statistics.median(ds):.2f} s")
         # 3. the validity map
         pair = fdsolver.load_case(PAIR)
         maps = [f"width=1e-3:8:{n_map}", f"d=6:16:{n_map}"]
