@@ -88,3 +88,37 @@ def test_make_executor_hands_the_initializer_on():
     assert make_executor("processes", 2, initializer=mark_worker).initializer is mark_worker
     assert make_executor("serial", initializer=mark_worker).initializer is mark_worker
     assert make_executor(cluster="local:2", initializer=mark_worker).initializer is mark_worker
+
+
+WORKER_PROBE = """
+import sys
+from fdsolver.parallel.executors import ProcessExecutor
+
+
+def probe(_):
+    before = "scipy.linalg" in sys.modules
+    import scipy.linalg  # noqa: F401  (its own OpenBLAS loads now, after the worker's set-up)
+    from threadpoolctl import threadpool_info
+
+    return before, sorted({i["num_threads"] for i in threadpool_info() if i["user_api"] == "blas"})
+
+
+if __name__ == "__main__":
+    assert "scipy.linalg" not in sys.modules
+    with ProcessExecutor(1) as ex:
+        print(list(ex.imap_unordered(probe, [0])))
+"""
+
+
+def test_a_blas_loaded_after_a_workers_set_up_runs_one_thread_too(tmp_path):
+    # a fresh parent that has not loaded scipy.linalg, with the user's environment asking for 2 BLAS threads:
+    # the worker's set-up does not import scipy.linalg, yet its OpenBLAS, loaded later by a job, runs one thread
+    import subprocess
+    import sys
+
+    script = tmp_path / "probe.py"
+    script.write_text(WORKER_PROBE)
+    env = {**os.environ, "OPENBLAS_NUM_THREADS": "2", "OMP_NUM_THREADS": "2"}
+    out = subprocess.run([sys.executable, str(script)], capture_output=True, text=True, env=env, check=True,
+                         cwd=tmp_path).stdout
+    assert out.strip() == "[(False, [1])]"

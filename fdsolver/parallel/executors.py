@@ -5,8 +5,9 @@ pulls jobs from the iterator lazily, keeps at most ``in_flight`` of them
 submitted at once (so memory holds the result, not a queue of every job),
 and yields each result as soon as it is done.  ``fn`` must be a module-level
 function (it is sent to other processes by reference).  Every process that
-runs jobs limits its BLAS to one thread (:func:`one_blas_thread`), so the
-results do not depend on the executor.  The caller may give an
+runs jobs limits its BLAS to one thread (:func:`one_blas_thread` in the
+caller's process, :func:`_pin_worker` in a worker), so the results do not
+depend on the executor.  The caller may give an
 ``initializer``, a module-level function run once in each worker process
 (the studies warm up their compiled kernels with it).  Nothing here knows
 what the jobs compute.  Dask is imported only inside :class:`DaskExecutor`
@@ -21,11 +22,13 @@ from concurrent.futures import FIRST_COMPLETED, wait
 
 from fdsolver.errors import CaseError, FdsolverError
 
-THREAD_VARS = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "NUMBA_NUM_THREADS")
+BLAS_VARS = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS")
+THREAD_VARS = (*BLAS_VARS, "NUMBA_NUM_THREADS")
 
 
 def one_blas_thread():
-    """Limit every BLAS/OpenMP library of this process to one thread (:mod:`fdsolver.numerics.threads`).
+    """Limit every BLAS/OpenMP library of this process to one thread (:mod:`fdsolver.numerics.threads`), for
+    the serial executor's run in the caller's process (undone at its end).
 
     Multithreaded BLAS reductions change the last bits of large-grid energies
     with the thread count, so every process that runs jobs does so with one
@@ -45,11 +48,31 @@ def one_blas_thread():
 _PINNED = [False]
 
 
+def _pin_worker() -> None:
+    """One BLAS thread for the rest of a worker process's life (done once per process).
+
+    The libraries loaded now (numpy's BLAS) are limited with threadpoolctl; one that a job loads later
+    (scipy.linalg's own OpenBLAS, say) starts with one thread, because from here on this process's
+    environment says 1 (OpenBLAS, OpenMP and MKL read it when they load).  scipy.linalg is not imported
+    for the limiter, as :func:`one_blas_thread` does in the caller's process: in a worker whose parent had
+    not loaded it, that import cost 0.1-0.2 s of CPU before the first job.  ``NUMBA_NUM_THREADS`` is left
+    alone (numba refuses a change once its threads run; the local pool sets it before it forks).
+    """
+    if _PINNED[0]:
+        return
+    for k in BLAS_VARS:
+        os.environ[k] = "1"
+    import numpy  # noqa: F401
+
+    from fdsolver.numerics.threads import one_blas_thread as limit
+
+    limit()
+    _PINNED[0] = True
+
+
 def _in_worker(fn, job):
-    """Run ``fn(job)`` in a worker process whose BLAS is limited to one thread (done once per process)."""
-    if not _PINNED[0]:
-        one_blas_thread()
-        _PINNED[0] = True
+    """Run ``fn(job)`` in a worker process whose BLAS is limited to one thread (:func:`_pin_worker`)."""
+    _pin_worker()
     return fn(job)
 
 
@@ -64,9 +87,7 @@ def _worker_setup(initializer=None, collector: bool = False) -> None:
         import gc
 
         gc.enable()
-    if not _PINNED[0]:
-        one_blas_thread()
-        _PINNED[0] = True
+    _pin_worker()
     if initializer is not None:
         initializer()
 
