@@ -96,13 +96,12 @@ def _import_numba():
     there if it is installed, as a stand-in that imports it at the first use (:class:`_ImportedOnUse`).  So a
     configuration file is read as numba reads it, PyYAML imported then.  Only where numba and PyYAML are not
     imported yet, the working folder has no such file (numba reads it as it is imported) and no other thread
-    runs (one importing PyYAML in that instant would be refused); otherwise a plain import.
+    runs (:func:`_alone`; one importing PyYAML in that instant would be refused); otherwise a plain import.
     """
     import importlib.util
     import sys
-    import threading
 
-    if "numba" in sys.modules or "yaml" in sys.modules or threading.active_count() > 1 \
+    if "numba" in sys.modules or "yaml" in sys.modules or not _alone() \
             or os.path.isfile(".numba_config.yaml"):  # numba reads it as it is imported: with PyYAML
         import numba
 
@@ -193,6 +192,24 @@ def _lean_cache_loads(dispatcher) -> bool:
     return True
 
 
+#: the attribute that marks a thread as one that imports nothing and never touches numpy, SciPy or PyYAML, the
+#: modules swapped here (the local sweep workers' watch on their parent, which only sleeps and asks the OS for
+#: the parent's id; :mod:`fdsolver.parallel.executors`)
+TOUCHES_NO_MODULES = "fdsolver_touches_no_modules"
+
+
+def _alone() -> bool:
+    """True where no other thread of this process could import a module or touch the ones swapped here
+    meanwhile: every other thread running is marked with :data:`TOUCHES_NO_MODULES`.  The swaps (a module
+    hidden from the import system, a stand-in for numpy's masked arrays) are made only then."""
+    import threading
+
+    if threading.active_count() == 1:
+        return True
+    me = threading.current_thread()
+    return all(t is me or getattr(t, TOUCHES_NO_MODULES, False) for t in threading.enumerate())
+
+
 def _masked_arrays_unloaded(val):
     """A context in which ``numpy.ma`` stands for a namespace whose ``MaskedArray`` nothing is an instance of,
     while numba types the plain array ``val`` (a kernel's first call); otherwise one that changes nothing.
@@ -201,15 +218,14 @@ def _masked_arrays_unloaded(val):
     masked-array package at that first mention: 14-25 ms of CPU (measured: DEVELOPERS.md, session 18) in a
     process that never makes a masked array.  A value whose type is exactly ``numpy.ndarray`` is no masked
     array (that is a subclass), so the answer is the same.  Only while ``numpy.ma`` is not imported yet (then
-    no masked array exists) and no other thread runs (one of them reading ``numpy.ma`` in that instant would get
-    the stand-in); numpy imports it as usual at the next mention after the block.
+    no masked array exists) and no other thread runs (:func:`_alone`; one of them reading ``numpy.ma`` in that
+    instant would get the stand-in); numpy imports it as usual at the next mention after the block.
     """
     import sys
-    import threading
 
     np = sys.modules.get("numpy")
     if np is None or type(val) is not np.ndarray or "numpy.ma" in sys.modules or "ma" in vars(np) \
-            or threading.active_count() > 1:
+            or not _alone():
         return contextlib.nullcontext()
     return _swapped(np, "ma", _NoMaskedArrays)
 
@@ -508,16 +524,15 @@ def _without_scipy_linalg():
     the module is imported with scipy.linalg hidden (:func:`fdsolver.absent.absent`); numba then computes those
     inner products (in any later kernel of the process) as a plain loop, with the same result to round-off.
     ``np.dot``, ``@`` and ``np.linalg`` are not affected: ``numba.np.linalg`` imports scipy.linalg when a
-    kernel using them compiles.  Where scipy.linalg is already loaded (the sweep workers load it first on
-    purpose) nothing is hidden.  Never while other threads run: one of them importing scipy.linalg in that
-    instant would get an ImportError (with threads, numba's import brings scipy.linalg along).
+    kernel using them compiles.  Where scipy.linalg is already loaded nothing is hidden.  Never while other
+    threads run (:func:`_alone`): one of them importing scipy.linalg in that instant would get an ImportError
+    (with threads, numba's import brings scipy.linalg along).
     """
     import sys
-    import threading
 
     from fdsolver.absent import absent
 
-    if "numba.np.arraymath" in sys.modules or threading.active_count() > 1:
+    if "numba.np.arraymath" in sys.modules or not _alone():
         return contextlib.nullcontext()
     return absent("scipy.linalg")
 

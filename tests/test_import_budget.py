@@ -328,3 +328,41 @@ def test_kernels_load_from_the_cache_without_numbas_compiler_set_up(tmp_path, te
     assert "numba.core.runtime" in loaded  # numba did run
     assert loaded.isdisjoint(COMPILER_SET_UP), sorted(loaded & set(COMPILER_SET_UP))
     assert "scipy.linalg" not in loaded
+
+
+SWEEP_WORKER = """
+import json, sys
+from fdsolver.parallel.executors import ProcessExecutor
+from fdsolver.scans.runner import warm_up  # the sweeps' initializer: a tiny solve types the kernels' arguments
+
+LOOKED_FOR = ("numpy.ma", "scipy.linalg", "yaml")
+
+
+def job(_):
+    from fdsolver.input.case import case_from_dict
+    from fdsolver.runs import solve_case
+
+    solve_case(case_from_dict({"potential": [{"shape": "square", "center": c, "width": 1.0, "depth": 9.0}
+                                             for c in (-1.5, 1.5)]}))
+    return [m for m in LOOKED_FOR if m in sys.modules]
+
+
+if __name__ == "__main__":
+    assert not [m for m in LOOKED_FOR if m in sys.modules]
+    with ProcessExecutor(1, initializer=warm_up) as ex:
+        print("MODULES", json.dumps(list(ex.imap_unordered(job, [0]))[0]))
+"""
+
+
+def test_a_sweep_worker_loads_neither_scipy_linalg_nor_masked_arrays(tmp_path):
+    """A local sweep worker of a parent that has solved nothing sets its BLAS to one thread without importing
+    scipy.linalg (0.1-0.2 s of CPU per worker, measured; fdsolver.parallel.executors._pin_worker), and types
+    its kernels' arguments without numpy's masked arrays although its watch on the parent is a second thread
+    (fdsolver.compiled.TOUCHES_NO_MODULES; 24-28 ms per worker, measured), as a solve in one process does."""
+    script = tmp_path / "worker.py"
+    script.write_text(SWEEP_WORKER)
+    env = dict(os.environ, PYTHONPATH=os.pathsep.join([str(PACKAGE_PARENT), os.environ.get("PYTHONPATH", "")]))
+    proc = subprocess.run([sys.executable, str(script)], check=False, capture_output=True, text=True, env=env,
+                          cwd=tmp_path, timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    assert json.loads(proc.stdout.rsplit("MODULES ", 1)[1]) == []
