@@ -7,8 +7,10 @@
 Everything runs through the public API (fdsolver.sweep, fdsolver.delta_map, fdsolver.threshold) exactly as the
 command line does, with one BLAS thread per process.  Each figure: wall time, and CPU time of this process
 plus its finished worker processes (getrusage), min and median over --repeat runs.  Steps 0-2 run in rounds
-(ceiling, local sweep, serial subset, Dask sweep, then again), and each ratio is the median of the rounds'
-ratios: the machine's speed drifts by up to 2x between minutes, and runs of one round share their minutes.
+(ceiling, energies-only sweep, serial subset, local sweep, Dask sweeps, local sweep again; then the next round),
+and each ratio is the median of the rounds' ratios: the machine's speed drifts by up to 2x between minutes, and
+runs of one round share their minutes.  The Dask sweeps are held to the mean of the local sweeps just before and
+just after them, so a drift that is steady over the round cancels (the local figure is over both).
 The Dask sweeps run in a child process of their own (see DASK_CHILD), so no step runs after a cluster in the
 same process: the first pays Dask's import, the second (a new cluster in the same child) does not.
 
@@ -160,39 +162,48 @@ def main() -> None:
 
     with tempfile.TemporaryDirectory() as tmp:
         out = Path(tmp)
-        # 0.-2. in rounds: the ceiling, the local sweep, the serial subset and the Dask sweep one after another, so
-        # each ratio compares runs of the same minutes (the machine's speed drifts by up to 2x between minutes)
+        # 0.-2. in rounds: the ceiling, the energies-only sweep, the serial subset, the local sweep, the Dask sweeps
+        # and the local sweep again, so each ratio compares runs of the same minutes (the machine's speed drifts by
+        # up to 2x between minutes): the Dask sweeps against the mean of the local sweeps just before and just
+        # after them, which cancels a drift that is steady over the minute
         sub = [f"d=2.5:6:{side // 10 or 1}", f"depth=100:160:{side}"]
         n_sub = (side // 10 or 1) * side
         ceils, walls, cpus, serial_ms, speedups = [], [], [], [], []
         e_walls, e_cpus, e_ratios = [], [], []
         d_walls, d_cpus, d_ratios, d2_walls, d2_cpus, d2_ratios, d_starts, d2_starts = [], [], [], [], [], [], [], []
-        for r in range(args.repeat):
-            ceils.append(ceiling(w))
-            ds, wall, cpu = timed(lambda r=r: fdsolver.sweep(case, vary, output=out / f"local{r}.nc",
-                                                                executor="processes", workers=w, thresholds=False))
+
+        def local(name):
+            ds, wall, cpu = timed(lambda: fdsolver.sweep(case, vary, output=out / name, executor="processes",
+                                                         workers=w, thresholds=False))
             walls.append(wall)
             cpus.append(cpu)
+            return ds, wall
+
+        for r in range(args.repeat):
+            ceils.append(ceiling(w))
             _, wall_e, cpu_e = timed(lambda r=r: fdsolver.sweep(case, vary, output=out / f"energies{r}.nc",
                                                                 executor="processes", workers=w, thresholds=False,
                                                                 energies_only=True))
             e_walls.append(wall_e)
             e_cpus.append(cpu_e)
+            _, wall_s, _ = timed(lambda: fdsolver.sweep(case, sub, executor="serial", thresholds=False))
+            ds, wall = local(f"local{r}.nc")
             e_ratios.append(wall_e / wall)
             n = ds.sizes["d"] * ds.sizes["depth"]
-            _, wall_s, _ = timed(lambda: fdsolver.sweep(case, sub, executor="serial", thresholds=False))
             serial_ms.append(wall_s / n_sub * 1e3)
             speedups.append(wall_s * n / n_sub / wall)
             if not args.no_dask:
                 wall_d, cpu_d, start_d, wall_d2, cpu_d2, start_d2 = dask_sweeps(vary, out / f"dask{r}.nc", w)
+                _, wall_after = local(f"local{r}b.nc")
+                bracket = (wall + wall_after) / 2
                 d_starts.append(start_d)
                 d2_starts.append(start_d2)
                 d_walls.append(wall_d)
                 d_cpus.append(cpu_d)
-                d_ratios.append(wall_d / wall)
+                d_ratios.append(wall_d / bracket)
                 d2_walls.append(wall_d2)
                 d2_cpus.append(cpu_d2)
-                d2_ratios.append(wall_d2 / wall)
+                d2_ratios.append(wall_d2 / bracket)
         ceil = statistics.median(ceils)
         print(f"0. machine ceiling: {w} CPU-bound processes run {ceil:.2f}x faster than one (pure-Python loop; median "
               f"of {len(ceils)} rounds, {min(ceils):.2f}-{max(ceils):.2f})")
@@ -212,7 +223,8 @@ def main() -> None:
                     ("again in that process (Dask imported)", d2_walls, d2_cpus, d2_ratios, d2_starts)):
                 summary(f"2. the same on a Dask LocalCluster x{w}", dw, dc)
                 ratio = statistics.median(dr)
-                print(f"      {label}: Dask / local = {ratio:.2f} (median of the rounds' ratios, "
+                print(f"      {label}: Dask / local = {ratio:.2f} (median of the rounds' ratios to the mean of the "
+                      f"local sweeps before and after, "
                       f"{min(dr):.2f}-{max(dr):.2f}; target <= 1.10, the cluster's start included: "
                       f"{'met' if ratio <= 1.10 else 'NOT met'})")
                 print(f"      of which the start (import, cluster, workers set up): wall min {min(ds):.2f} median "
