@@ -8,8 +8,8 @@ returns one record (a dict of numpy arrays and JSON values).  Its
 number of points it held; ``done`` marks the points done).
 
 :func:`run` cuts the points still to do into chunks of consecutive points
-(``scan.chunk``, or up to ``scan.max_chunk`` and 1/8 of the points per
-worker), sends them through an executor (:mod:`fdsolver.parallel.executors`),
+(``scan.chunk`` each, or by default chunks that shrink as the run nears its
+end: :func:`_chunks`), sends them through an executor (:mod:`fdsolver.parallel.executors`),
 appends each finished record to the checkpoint beside ``output``
 (:mod:`fdsolver.parallel.checkpoint`), and at the end builds the Dataset
 with ``finish(collector, history)``, writes it atomically and removes the
@@ -32,8 +32,11 @@ import numpy as np
 
 from fdsolver.errors import CaseError
 
-#: default number of points per chunk is at most this many, and at most 1/CHUNKS_PER_WORKER of the points per worker
-CHUNKS_PER_WORKER = 8
+#: a default chunk holds about 1/SHARES_PER_CHUNK of each worker's share of the points not yet handed out
+SHARES_PER_CHUNK = 2
+#: a default chunk holds at least 1/SMALLEST_OF_LARGEST of the scan's ``max_chunk`` (fewer where the scan has too
+#: few points to keep every worker busy; at least 1 point)
+SMALLEST_OF_LARGEST = 50
 
 
 class Collector(Protocol):
@@ -139,14 +142,29 @@ def where(executor) -> str:
 
 
 # ------------------------------------------------------------ the run
-def _chunks(todo: np.ndarray, size: int):
-    """Contiguous runs of the indices still to do, cut to ``size``."""
+def _chunks(todo: np.ndarray, size: int | None, workers: int = 1, largest: int = 1):
+    """The indices still to do (``todo``, ascending) cut into chunks of consecutive indices.
+
+    ``size``: every chunk has that many (fewer at the end of a run of consecutive indices).  ``None``: guided
+    sizes, each about ``1 / SHARES_PER_CHUNK`` of one worker's share of the indices not yet handed out, at most
+    ``largest`` and at least ``largest // SMALLEST_OF_LARGEST``, or a quarter of a worker's share of ``todo`` if
+    that is less (and 1): a few points are not all put in one chunk.  Chunks then start large and shrink
+    towards the end, so a run has few tasks (a task costs a Dask cluster about 8 ms of its scheduler's CPU,
+    measured) and the workers still finish close together (the last chunks are small).  The sizes depend
+    only on ``todo``, ``workers`` and ``largest``, never on timing, so the same run is cut the same way.
+    """
     if todo.size == 0:
         return
+    smallest = max(1, min(largest // SMALLEST_OF_LARGEST, todo.size // (4 * workers)))
+    left = int(todo.size)
     breaks = np.flatnonzero(np.diff(todo) != 1) + 1
     for part in np.split(todo, breaks):
-        for i in range(0, part.size, size):
-            yield part[i: i + size]
+        i = 0
+        while i < part.size:
+            n = size or min(largest, max(smallest, -(-left // (SHARES_PER_CHUNK * workers))))
+            yield part[i: i + n]
+            left -= min(n, part.size - i)
+            i += n
 
 
 class PointNotes:
@@ -252,8 +270,7 @@ def run(scan: Scan, executor, finish: Callable[[Any, str], Any], *, action: str,
             progress(done)
         todo = np.flatnonzero(~collector.done)
         workers = max(1, getattr(executor, "workers", 1))
-        size = scan.chunk or max(1, min(scan.max_chunk, -(-todo.size // (CHUNKS_PER_WORKER * workers))))
-        jobs = ((scan, idx) for idx in _chunks(todo, size))
+        jobs = ((scan, idx) for idx in _chunks(todo, scan.chunk, workers, scan.max_chunk))
         for record in executor.imap_unordered(solve_chunk, jobs):
             if ck is not None:
                 ck.append(record)
