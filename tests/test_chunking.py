@@ -37,12 +37,13 @@ def test_guided_chunks_hand_out_every_point_once_in_order(n, workers, largest):
 def test_guided_chunks_are_fewer_than_equal_ones_and_end_small():
     # 10,000 points on 2 workers with at most 1000 a chunk: the first chunks are full, the last are small
     sizes = [c.size for c in cut(np.arange(10_000), None, 2, 1000)]
-    assert sizes[0] == 1000 and sizes[-1] <= 20
-    assert len(sizes) < 10_000 / 200  # fewer tasks than chunks of 200 (the old fixed size) would make
-    # the points left after the first half are handed out in chunks of at most a quarter of them
+    assert sizes[0] == 1000 and sizes[-1] <= 100
+    assert len(sizes) <= 20  # chunks of 200 (the old fixed size) made 50 tasks
+    # each chunk holds at most a quarter of the points not yet handed out (half of a worker's share), or the
+    # smallest size (a tenth of the largest)
     left = 10_000
     for s in sizes:
-        assert s <= max(20, -(-left // 4))
+        assert s <= max(100, -(-left // 4))
         left -= s
 
 

@@ -36,7 +36,7 @@ from fdsolver.errors import CaseError
 SHARES_PER_CHUNK = 2
 #: a default chunk holds at least 1/SMALLEST_OF_LARGEST of the scan's ``max_chunk`` (fewer where the scan has too
 #: few points to keep every worker busy; at least 1 point)
-SMALLEST_OF_LARGEST = 50
+SMALLEST_OF_LARGEST = 10
 
 
 class Collector(Protocol):
@@ -149,8 +149,8 @@ def _chunks(todo: np.ndarray, size: int | None, workers: int = 1, largest: int =
     sizes, each about ``1 / SHARES_PER_CHUNK`` of one worker's share of the indices not yet handed out, at most
     ``largest`` and at least ``largest // SMALLEST_OF_LARGEST``, or a quarter of a worker's share of ``todo`` if
     that is less (and 1): a few points are not all put in one chunk.  Chunks then start large and shrink
-    towards the end, so a run has few tasks (a task costs a Dask cluster about 8 ms of its scheduler's CPU,
-    measured) and the workers still finish close together (the last chunks are small).  The sizes depend
+    towards the end, so a run has few tasks (a task costs a Dask cluster about 10 ms of CPU beyond its work,
+    ``scripts/dask_task_cost.py``) and the workers still finish close together (the last chunks are small).  The sizes depend
     only on ``todo``, ``workers`` and ``largest``, never on timing, so the same run is cut the same way.
     """
     if todo.size == 0:

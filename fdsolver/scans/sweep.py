@@ -75,7 +75,7 @@ class SweepSpec(OnAxes):
 
     what = "sweep"
     #: most points per chunk by default (about 1 s of CPU at 1 ms per point, a bundled double well's cost; a Dask task
-    #: costs its scheduler about 8 ms, so fewer, larger chunks make a Dask sweep cheaper: :func:`runner._chunks`)
+    #: costs about 10 ms of CPU beyond its work, so fewer, larger chunks make a Dask sweep cheaper: :func:`runner._chunks`)
     max_chunk = 1000
 
     def identity(self) -> dict:
