@@ -7,12 +7,15 @@
 Everything runs through the public API (fdsolver.sweep, fdsolver.delta_map, fdsolver.threshold) exactly as the
 command line does, with one BLAS thread per process.  Each figure: wall time, and CPU time of this process
 plus its finished worker processes (getrusage), min and median over --repeat runs.  Steps 0-2 run in rounds
-(ceiling, energies-only sweep, serial subset, local sweep, Dask sweeps, local sweep again; then the next round),
-and each ratio is the median of the rounds' ratios: the machine's speed drifts by up to 2x between minutes, and
-runs of one round share their minutes.  The Dask sweeps are held to the mean of the local sweeps just before and
-just after them, so a drift that is steady over the round cancels (the local figure is over both).
-The Dask sweeps run in a child process of their own (see DASK_CHILD), so no step runs after a cluster in the
-same process: the first pays Dask's import, the second (a new cluster in the same child) does not.
+(ceiling, energies-only sweep, serial subset, local sweep; then a local pool, a Dask cluster and a local pool
+again, each in a child process of its own; then the next round), and each ratio is the median of the rounds'
+ratios: the machine's speed drifts by up to 2x between minutes, and runs of one round share their minutes.
+The Dask sweeps are held to the mean of the local child's sweeps just before and just after them, so a drift
+that is steady over the round cancels, and both sides run in processes equally fresh (see SWEEP_CHILD): each
+child first runs a 4-point serial sweep (the archive's libraries loaded, as in this process by then), then two
+sweeps on an executor of their own each: the first pays Dask's import, the second (a new cluster in the same
+child) does not.  The local child's first sweep is also printed against step 1's local sweep in this process,
+which has run sweeps before.
 
 0. the machine's ceiling: a fixed pure-Python loop in 1 process and in 2 processes at once (no fdsolver code)
    gives the parallel speed-up the hardware can deliver at all; a shared machine reports less than 2.
@@ -22,8 +25,9 @@ same process: the first pays Dask's import, the second (a new cluster in the sam
    issue's "energies only"), with the ratio of the two in each round; speed-up of the full record against the
    serial executor on the same points (target >= 1.8x of the ceiling; the serial run is a 1,000-point subset,
    scaled);
-2. the same points on a Dask LocalCluster with as many workers (target within 10 % of step 1), in a fresh
-   process and again in that process, each with the wall time of the cluster's start (part of the sweep's);
+2. the same points on a Dask LocalCluster with as many workers (target within 10 % of the local pool), in a
+   fresh process and again in that process, each with the wall time of the cluster's start (part of the
+   sweep's), against a local pool in a process just as fresh;
 3. the 40 x 40 validity map of cases/impurity_pair.toml on local processes (target < 6 s);
 4. a binding threshold of cases/double_square.toml to relative 1e-9 (target < 1 s).
 """
@@ -85,11 +89,12 @@ def ceiling(workers: int) -> float:
     return workers * one / many
 
 
-#: a sweep on a Dask LocalCluster, timed in a child process of its own: a process that has run a cluster keeps a
-#: thread of Dask's, so its later local process pools start by the fork server instead of fork, and the local
-#: sweeps and the map measured after it in the same process took 1-2.5 s longer (measured); each figure would
-#: then depend on the order of the steps
-DASK_CHILD = """
+#: two sweeps on an executor of their own each (a Dask LocalCluster or a local process pool), timed in a child
+#: process: a process that has run a cluster keeps a thread of Dask's, so its later local process pools start by
+#: the fork server instead of fork, and the local sweeps and the map measured after it in the same process took
+#: 1-2.5 s longer (measured); each figure would then depend on the order of the steps.  The local pool is timed
+#: the same way, so the Dask sweeps are compared with local sweeps of a process just as fresh
+SWEEP_CHILD = """
 import json, sys, warnings
 sys.path.insert(0, sys.argv[5])
 from bench_sweep import timed  # this script's own timer (one BLAS thread set on import)
@@ -101,10 +106,13 @@ if __name__ == "__main__":
     # untimed, as in the parent by then: the archive's libraries (xarray, pandas, netCDF4) imported
     fdsolver.sweep(case, ["d=2.5:6:2", "depth=100:160:2"], output=sys.argv[3] + "w", executor="serial",
                    thresholds=False)
-    from fdsolver.scans.runner import executor_for  # what fdsolver.sweep(cluster=...) makes and enters
+    from fdsolver.scans.runner import executor_for  # what fdsolver.sweep(cluster=... / executor=...) makes
 
-    def run(k):  # the executor's start (Dask's import, the cluster), the sweep on it, its close: timed apart
-        ex = executor_for(cluster="local:" + sys.argv[4])
+    def run(k):  # the executor's start (for Dask: its import, the cluster), the sweep on it, its close
+        if sys.argv[6] == "dask":
+            ex = executor_for(cluster="local:" + sys.argv[4])
+        else:
+            ex = executor_for("processes", workers=int(sys.argv[4]))
         _, start, _ = timed(ex.__enter__)
         try:
             fdsolver.sweep(case, json.loads(sys.argv[2]), output=sys.argv[3] + str(k), executor=ex, thresholds=False)
@@ -113,24 +121,25 @@ if __name__ == "__main__":
         return start
 
     times = []
-    for k in range(2):  # the first with Dask's import, both with a cluster of their own
+    for k in range(2):  # the first with Dask's import (if Dask), both with an executor of their own
         start, wall, cpu = timed(lambda k=k: run(k))
         times += [wall, cpu, start]
     print("TIMES", json.dumps(times))
 """
 
 
-def dask_sweeps(vary, output, workers: int) -> list[float]:
-    """[wall, CPU, start, wall, CPU, start] seconds of two sweeps of SQUARE over ``vary`` on a Dask LocalCluster
-    each, in a fresh child process: the first pays Dask's import and its cluster's start (as a command-line user
-    does), the second only its cluster's start (as in a session that has used Dask before).  ``start``: the wall
-    time of that start alone, a part of ``wall``."""
+def child_sweeps(kind: str, vary, output, workers: int) -> list[float]:
+    """[wall, CPU, start, wall, CPU, start] seconds of two sweeps of SQUARE over ``vary`` on an executor of
+    ``kind`` ("dask": a LocalCluster, "local": a process pool) each, in a fresh child process: the first pays
+    the executor's imports and start (as a command-line user does), the second only its start (as in a session
+    that has used it before).  ``start``: the wall time of that start alone, a part of ``wall``."""
     import json
     import subprocess
     import sys
 
-    proc = subprocess.run([sys.executable, "-c", DASK_CHILD, str(SQUARE), json.dumps(vary), str(output), str(workers),
-                           str(Path(__file__).resolve().parent)], capture_output=True, text=True, check=True)
+    proc = subprocess.run([sys.executable, "-c", SWEEP_CHILD, str(SQUARE), json.dumps(vary), str(output),
+                           str(workers), str(Path(__file__).resolve().parent), kind],
+                          capture_output=True, text=True, check=True)
     return json.loads(proc.stdout.rsplit("TIMES", 1)[1])
 
 
@@ -170,7 +179,8 @@ def main() -> None:
         n_sub = (side // 10 or 1) * side
         ceils, walls, cpus, serial_ms, speedups = [], [], [], [], []
         e_walls, e_cpus, e_ratios = [], [], []
-        d_walls, d_cpus, d_ratios, d2_walls, d2_cpus, d2_ratios, d_starts, d2_starts = [], [], [], [], [], [], [], []
+        # step 2, per round: the fresh child's first and second sweeps, Dask and local ([wall, CPU, start] each)
+        dask_runs, local_runs, parent_local = [], [], []
 
         def local(name):
             ds, wall, cpu = timed(lambda: fdsolver.sweep(case, vary, output=out / name, executor="processes",
@@ -192,18 +202,13 @@ def main() -> None:
             n = ds.sizes["d"] * ds.sizes["depth"]
             serial_ms.append(wall_s / n_sub * 1e3)
             speedups.append(wall_s * n / n_sub / wall)
-            if not args.no_dask:
-                wall_d, cpu_d, start_d, wall_d2, cpu_d2, start_d2 = dask_sweeps(vary, out / f"dask{r}.nc", w)
-                _, wall_after = local(f"local{r}b.nc")
-                bracket = (wall + wall_after) / 2
-                d_starts.append(start_d)
-                d2_starts.append(start_d2)
-                d_walls.append(wall_d)
-                d_cpus.append(cpu_d)
-                d_ratios.append(wall_d / bracket)
-                d2_walls.append(wall_d2)
-                d2_cpus.append(cpu_d2)
-                d2_ratios.append(wall_d2 / bracket)
+            if not args.no_dask:  # local, Dask, local: each Dask sweep against the mean of the local ones around it
+                before = child_sweeps("local", vary, out / f"lc{r}a.nc", w)
+                dask = child_sweeps("dask", vary, out / f"dask{r}.nc", w)
+                after = child_sweeps("local", vary, out / f"lc{r}b.nc", w)
+                dask_runs.append(dask)
+                local_runs.append([(a + b) / 2 for a, b in zip(before, after)])
+                parent_local.append(wall)
         ceil = statistics.median(ceils)
         print(f"0. machine ceiling: {w} CPU-bound processes run {ceil:.2f}x faster than one (pure-Python loop; median "
               f"of {len(ceils)} rounds, {min(ceils):.2f}-{max(ceils):.2f})")
@@ -218,17 +223,25 @@ def main() -> None:
               f"{min(speedups):.2f}-{max(speedups):.2f}) = {speedup / ceil:.2f} of the machine's ceiling "
               f"(target >= 1.8x, i.e. about the ceiling; {'met' if speedup >= min(1.8, 0.95 * ceil) else 'NOT met'})")
         if not args.no_dask:
-            for label, dw, dc, dr, ds in (
-                    ("in a fresh process (Dask's import included)", d_walls, d_cpus, d_ratios, d_starts),
-                    ("again in that process (Dask imported)", d2_walls, d2_cpus, d2_ratios, d2_starts)):
-                summary(f"2. the same on a Dask LocalCluster x{w}", dw, dc)
-                ratio = statistics.median(dr)
-                print(f"      {label}: Dask / local = {ratio:.2f} (median of the rounds' ratios to the mean of the "
-                      f"local sweeps before and after, "
-                      f"{min(dr):.2f}-{max(dr):.2f}; target <= 1.10, the cluster's start included: "
+            print(f"2. the same on a Dask LocalCluster x{w} and on a local pool x{w}, each in a fresh child process "
+                  "(local, Dask, local in each round)")
+            for k, label in ((0, "first sweep of the process (Dask's import included)"),
+                             (1, "second sweep, a new cluster or pool (Dask imported)")):
+                dw, dc, ds = ([run[3 * k + j] for run in dask_runs] for j in range(3))
+                lw, lc = ([run[3 * k + j] for run in local_runs] for j in range(2))
+                ratios = [a / b for a, b in zip(dw, lw)]
+                ratio = statistics.median(ratios)
+                print(f"   {label}:")
+                summary("   Dask", dw, dc)
+                summary("   local pool (mean of the two around it)", lw, lc)
+                print(f"      Dask / local = {ratio:.2f} (median of the rounds' ratios, {min(ratios):.2f}-"
+                      f"{max(ratios):.2f}; target <= 1.10, the executor's start included: "
                       f"{'met' if ratio <= 1.10 else 'NOT met'})")
-                print(f"      of which the start (import, cluster, workers set up): wall min {min(ds):.2f} median "
+                print(f"      Dask's start (import, cluster, workers set up): wall min {min(ds):.2f} median "
                       f"{statistics.median(ds):.2f} s")
+            fresh = [run[0] / p for run, p in zip(local_runs, parent_local)]
+            print(f"   the local pool's first sweep in a fresh child / step 1's local sweep in this process = "
+                  f"{statistics.median(fresh):.2f} (median of the rounds, {min(fresh):.2f}-{max(fresh):.2f})")
         # 3. the validity map
         pair = fdsolver.load_case(PAIR)
         maps = [f"width=1e-3:8:{n_map}", f"d=6:16:{n_map}"]
