@@ -59,3 +59,23 @@ def test_a_fixed_size_is_kept_and_gaps_are_not_bridged():
 
 def test_nothing_to_do_gives_no_chunk():
     assert cut(np.array([], dtype=np.int64)) == []
+
+
+def test_a_sweep_keeping_many_wavefunctions_gets_smaller_chunks(tmp_path):
+    """A default chunk's records stay within CHUNK_BYTES: a chunk travels back whole and is one checkpoint line."""
+    from pathlib import Path
+
+    import fdsolver
+    from fdsolver.scans import sweep as sw
+
+    case_path = Path(__file__).resolve().parents[1] / "cases" / "double_square.toml"
+    case = fdsolver.load_case(case_path)
+    lean = sw.plan_sweep(case, sw.sweep_axes(["d=2:5:12"], case))
+    assert lean.max_chunk == sw.MAX_CHUNK  # a few kB a point
+    text = case_path.read_text().replace("[sweep]", "[sweep]\npsi_range = [-60.0, 60.0]\npsi_points = 20001")
+    (tmp_path / "wide.toml").write_text(text)
+    wide = fdsolver.load_case(tmp_path / "wide.toml")
+    spec = sw.plan_sweep(wide, sw.sweep_axes(["d=2:5:12"], wide), save_psi=True)
+    assert spec.point_bytes >= 20001 * 8  # psi of at least one state, 8 bytes a value
+    assert 1 <= spec.max_chunk < sw.MAX_CHUNK
+    assert spec.max_chunk * spec.point_bytes <= sw.CHUNK_BYTES < (spec.max_chunk + 1) * spec.point_bytes

@@ -52,6 +52,11 @@ TRANSITION_STATES = 8
 NORM_WARNING = 0.999
 #: corner points solved before a sweep to find the boxes the common psi grid must cover
 PSI_CORNERS = 16
+#: most points per chunk by default (about 1 s of CPU at 1 ms per point, a bundled double well's cost; a Dask task
+#: costs about 10 ms of CPU beyond its work, so fewer, larger chunks make a Dask sweep cheaper: :func:`runner._chunks`)
+MAX_CHUNK = 1000
+#: most bytes of results in a default chunk: a chunk's record travels back whole and is one line of the checkpoint
+CHUNK_BYTES = 16 * 2**20
 
 
 # ----------------------------------------------------------------- plan
@@ -72,11 +77,16 @@ class SweepSpec(OnAxes):
     key: str = field(default="", compare=False)
     #: the memory budget of the result (bytes): records that would grow it beyond are refused
     budget_bytes: int = field(default=1000 * 2**20, compare=False)
+    #: the memory one point's record takes at most (:func:`estimate_bytes`; psi included if kept)
+    point_bytes: int = field(default=0, compare=False)
 
     what = "sweep"
-    #: most points per chunk by default (about 1 s of CPU at 1 ms per point, a bundled double well's cost; a Dask task
-    #: costs about 10 ms of CPU beyond its work, so fewer, larger chunks make a Dask sweep cheaper: :func:`runner._chunks`)
-    max_chunk = 1000
+
+    @property
+    def max_chunk(self) -> int:
+        """Most points per chunk by default: :data:`MAX_CHUNK`, fewer where their records would exceed
+        :data:`CHUNK_BYTES` (wavefunctions kept for many states)."""
+        return max(1, min(MAX_CHUNK, CHUNK_BYTES // max(1, self.point_bytes)))
 
     def identity(self) -> dict:
         """JSON-able description compared on resume (exact float values)."""
@@ -161,7 +171,8 @@ def plan_sweep(case, axes, fixed=None, save_psi=False, memory_mb=None, chunk=Non
                         key="sweep.chunk" if "chunk" in table else "--chunk")
     key = axes[0].key if axes and getattr(axes[0], "key", None) else "--vary"
     n_points = math.prod(int(a.values.size) for a in axes)  # exact: 64 axes of 2 values do not overflow to 0
-    need = estimate_bytes(n_points, n_states, n_x, len(case.potential.regions()))
+    point_bytes = estimate_bytes(1, n_states, n_x, len(case.potential.regions()))
+    need = n_points * point_bytes
     if need > budget * 2**20:
         what = f"{n_points} points x {n_states} states" + (f" x {n_x} x-points of psi" if save_psi else "")
         raise CaseError(
@@ -186,7 +197,7 @@ def plan_sweep(case, axes, fixed=None, save_psi=False, memory_mb=None, chunk=Non
         else:
             psi_x = np.linspace(rng[0], rng[1], n_x)
     spec = SweepSpec(case.text, case.path, dict(case.tables), fixed, tuple(axes), bool(save_psi), psi_x, chunk,
-                     bool(energies_only), budget_bytes=int(budget * 2**20))
+                     bool(energies_only), budget_bytes=int(budget * 2**20), point_bytes=point_bytes)
     key = hashlib.sha256(json.dumps(spec.identity(), sort_keys=True).encode()).hexdigest()
     return SweepSpec(**{**spec.__dict__, "key": key})
 
