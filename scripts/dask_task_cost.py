@@ -47,7 +47,8 @@ def thread_cpu() -> tuple[dict[int, float], dict[int, float]]:
 
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--repeat", type=int, default=3, help="rounds (each: one sweep with small and one with large tasks)")
+    ap.add_argument("--repeat", type=int, default=3,
+                    help="rounds (each: one sweep with small and one with large tasks)")
     ap.add_argument("--workers", type=int, default=2)
     args = ap.parse_args()
     warnings.simplefilter("ignore")

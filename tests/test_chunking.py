@@ -28,7 +28,7 @@ def test_guided_chunks_hand_out_every_point_once_in_order(n, workers, largest):
     sizes = [c.size for c in chunks]
     assert max(sizes) <= largest and min(sizes) >= 1
     assert all(np.all(np.diff(c) == 1) for c in chunks)
-    # guided: no chunk is larger than the one before it (the very last may be a remainder)
+    # guided: no chunk is larger than the one before it (a remainder at the end is smaller still)
     assert all(b <= a for a, b in pairwise(sizes))
     # every worker gets a chunk when there are points enough
     assert len(chunks) >= min(n, workers)

@@ -27,7 +27,8 @@ def register(sub) -> None:
     p.add_argument("--cluster", metavar="local:N", help="start a Dask LocalCluster of N workers (local:N:dashboard "
                    "also serves its dashboard)")
     p.add_argument("--scheduler", metavar="tcp://HOST:PORT", help="run on an existing Dask scheduler")
-    p.add_argument("--chunk", type=int, metavar="POINTS", help="points per task (default: chunks of up to 1000 that shrink towards the end)")
+    p.add_argument("--chunk", type=int, metavar="POINTS",
+                   help="points per task (default: up to 1000, shrinking towards the end of the sweep)")
     p.add_argument("--resume", action="store_true", help="continue from the checkpoint (computes only missing points)")
     p.add_argument("--restart", action="store_true", help="discard an old checkpoint of this output and start over")
     p.add_argument("--memory-mb", type=float, metavar="MB", help="memory budget of the result (default: [sweep] memory_mb or 1000)")

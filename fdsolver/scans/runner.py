@@ -150,8 +150,9 @@ def _chunks(todo: np.ndarray, size: int | None, workers: int = 1, largest: int =
     ``largest`` and at least ``largest // SMALLEST_OF_LARGEST``, or a quarter of a worker's share of ``todo`` if
     that is less (and 1): a few points are not all put in one chunk.  Chunks then start large and shrink
     towards the end, so a run has few tasks (a task costs a Dask cluster about 10 ms of CPU beyond its work,
-    ``scripts/dask_task_cost.py``) and the workers still finish close together (the last chunks are small).  The sizes depend
-    only on ``todo``, ``workers`` and ``largest``, never on timing, so the same run is cut the same way.
+    ``scripts/dask_task_cost.py``) and the workers still finish close together (the last chunks are small).
+    The sizes depend only on ``todo``, ``workers`` and ``largest``, never on timing, so the same run is cut
+    the same way.
     """
     if todo.size == 0:
         return
