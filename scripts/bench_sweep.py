@@ -3,6 +3,7 @@
 
     python scripts/bench_sweep.py            # every target (several minutes on 2 cores)
     python scripts/bench_sweep.py --quick    # 2,500 sweep points and a 20 x 20 map
+    python scripts/bench_sweep.py --dask-only --repeat 12   # step 2 alone, a longer series of rounds
 
 Everything runs through the public API (fdsolver.sweep, fdsolver.delta_map, fdsolver.threshold) exactly as the
 command line does, with one BLAS thread per process.  Each figure: wall time, and CPU time of this process
@@ -27,7 +28,9 @@ which has run sweeps before.
    scaled);
 2. the same points on a Dask LocalCluster with as many workers (target within 10 % of the local pool), in a
    fresh process and again in that process, each with the wall time of the cluster's start (part of the
-   sweep's), against a local pool in a process just as fresh;
+   sweep's), against a local pool in a process just as fresh; then the whole command as a user times it,
+   ``fdsolver sweep --cluster local:N`` against ``fdsolver sweep -j N`` (local, Dask, local in each round, each
+   held to the mean of the two local commands around it);
 3. the 40 x 40 validity map of cases/impurity_pair.toml on local processes (target < 6 s);
 4. a binding threshold of cases/double_square.toml to relative 1e-9 (target < 1 s).
 """
@@ -143,6 +146,20 @@ def child_sweeps(kind: str, vary, output, workers: int) -> list[float]:
     return json.loads(proc.stdout.rsplit("TIMES", 1)[1])
 
 
+def command_sweep(executor_args: list[str], vary, output) -> tuple[float, float]:
+    """Wall and CPU seconds of the whole command ``fdsolver sweep`` of SQUARE over ``vary`` (python -m fdsolver, a
+    fresh process: its own start-up, the case, the executor's start, the sweep, the archive), as a user's
+    ``time fdsolver sweep ...`` sees it.  CPU: the command and its worker processes (all reaped by the end)."""
+    import subprocess
+    import sys
+
+    cmd = [sys.executable, "-m", "fdsolver", "sweep", str(SQUARE), "--no-thresholds", "-q", "-o", str(output)]
+    for v in vary:
+        cmd += ["--vary", v]
+    _, wall, cpu = timed(lambda: subprocess.run(cmd + executor_args, capture_output=True, check=True))
+    return wall, cpu
+
+
 def summary(name, walls, cpus, target=None, unit="s"):
     line = (f"   {name:<46} wall min {min(walls):7.2f} median {statistics.median(walls):7.2f} {unit}   "
             f"CPU min {min(cpus):7.2f} median {statistics.median(cpus):7.2f} {unit}")
@@ -151,13 +168,34 @@ def summary(name, walls, cpus, target=None, unit="s"):
     print(line)
 
 
+def step_one(ceils, walls, cpus, e_walls, e_cpus, e_ratios, serial_ms, speedups, n, n_sub, w):
+    """Print steps 0 and 1 (see the module docstring) from the figures of their rounds."""
+    ceil = statistics.median(ceils)
+    print(f"0. machine ceiling: {w} CPU-bound processes run {ceil:.2f}x faster than one (pure-Python loop; median "
+          f"of {len(ceils)} rounds, {min(ceils):.2f}-{max(ceils):.2f})")
+    summary(f"1. sweep, {n} points, local x{w}", walls, cpus, 20.0 if n >= 10_000 else None)
+    summary("   the same, energies only (--energies-only)", e_walls, e_cpus, 20.0 if n >= 10_000 else None)
+    print(f"   energies only / full record = {statistics.median(e_ratios):.2f} (median of the rounds' wall ratios, "
+          f"{min(e_ratios):.2f}-{max(e_ratios):.2f})")
+    print(f"   serial: a {n_sub}-point subset, {min(serial_ms):.2f} / {statistics.median(serial_ms):.2f} ms per "
+          f"point (min / median of the rounds), scaled to {n} points for the speed-up")
+    speedup = statistics.median(speedups)
+    print(f"   speed-up {speedup:.2f}x (median of the rounds' serial / local; "
+          f"{min(speedups):.2f}-{max(speedups):.2f}) = {speedup / ceil:.2f} of the machine's ceiling "
+          f"(target >= 1.8x, i.e. about the ceiling; {'met' if speedup >= min(1.8, 0.95 * ceil) else 'NOT met'})")
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--quick", action="store_true", help="2,500 sweep points and a 20 x 20 map")
     ap.add_argument("--repeat", type=int, default=3, help="runs per figure")
     ap.add_argument("--workers", type=int, default=2)
     ap.add_argument("--no-dask", action="store_true")
+    ap.add_argument("--dask-only", action="store_true",
+                    help="only step 2 (Dask against the local pool), for a longer series of rounds")
     args = ap.parse_args()
+    if args.no_dask and args.dask_only:
+        ap.error("--no-dask and --dask-only leave nothing to run; give one of them")
     warnings.simplefilter("ignore")
 
     import fdsolver
@@ -179,8 +217,9 @@ def main() -> None:
         n_sub = (side // 10 or 1) * side
         ceils, walls, cpus, serial_ms, speedups = [], [], [], [], []
         e_walls, e_cpus, e_ratios = [], [], []
-        # step 2, per round: the fresh child's first and second sweeps, Dask and local ([wall, CPU, start] each)
-        dask_runs, local_runs, parent_local = [], [], []
+        # step 2, per round: the fresh child's first and second sweeps, Dask and local ([wall, CPU, start] each),
+        # and the whole command on each ((wall, CPU) each)
+        dask_runs, local_runs, parent_local, cmd_dask, cmd_local = [], [], [], [], []
 
         def local(name):
             ds, wall, cpu = timed(lambda: fdsolver.sweep(case, vary, output=out / name, executor="processes",
@@ -189,39 +228,33 @@ def main() -> None:
             cpus.append(cpu)
             return ds, wall
 
+        n = side * side
         for r in range(args.repeat):
-            ceils.append(ceiling(w))
-            _, wall_e, cpu_e = timed(lambda r=r: fdsolver.sweep(case, vary, output=out / f"energies{r}.nc",
-                                                                executor="processes", workers=w, thresholds=False,
-                                                                energies_only=True))
-            e_walls.append(wall_e)
-            e_cpus.append(cpu_e)
-            _, wall_s, _ = timed(lambda: fdsolver.sweep(case, sub, executor="serial", thresholds=False))
-            ds, wall = local(f"local{r}.nc")
-            e_ratios.append(wall_e / wall)
-            n = ds.sizes["d"] * ds.sizes["depth"]
-            serial_ms.append(wall_s / n_sub * 1e3)
-            speedups.append(wall_s * n / n_sub / wall)
+            if not args.dask_only:
+                ceils.append(ceiling(w))
+                _, wall_e, cpu_e = timed(lambda r=r: fdsolver.sweep(case, vary, output=out / f"energies{r}.nc",
+                                                                    executor="processes", workers=w,
+                                                                    thresholds=False, energies_only=True))
+                e_walls.append(wall_e)
+                e_cpus.append(cpu_e)
+                _, wall_s, _ = timed(lambda: fdsolver.sweep(case, sub, executor="serial", thresholds=False))
+                ds, wall = local(f"local{r}.nc")
+                e_ratios.append(wall_e / wall)
+                serial_ms.append(wall_s / n_sub * 1e3)
+                speedups.append(wall_s * n / n_sub / wall)
+                parent_local.append(wall)
             if not args.no_dask:  # local, Dask, local: each Dask sweep against the mean of the local ones around it
                 before = child_sweeps("local", vary, out / f"lc{r}a.nc", w)
                 dask = child_sweeps("dask", vary, out / f"dask{r}.nc", w)
                 after = child_sweeps("local", vary, out / f"lc{r}b.nc", w)
                 dask_runs.append(dask)
                 local_runs.append([(a + b) / 2 for a, b in zip(before, after)])
-                parent_local.append(wall)
-        ceil = statistics.median(ceils)
-        print(f"0. machine ceiling: {w} CPU-bound processes run {ceil:.2f}x faster than one (pure-Python loop; median "
-              f"of {len(ceils)} rounds, {min(ceils):.2f}-{max(ceils):.2f})")
-        summary(f"1. sweep, {n} points, local x{w}", walls, cpus, 20.0 if n >= 10_000 else None)
-        summary("   the same, energies only (--energies-only)", e_walls, e_cpus, 20.0 if n >= 10_000 else None)
-        print(f"   energies only / full record = {statistics.median(e_ratios):.2f} (median of the rounds' wall ratios, "
-              f"{min(e_ratios):.2f}-{max(e_ratios):.2f})")
-        print(f"   serial: a {n_sub}-point subset, {min(serial_ms):.2f} / {statistics.median(serial_ms):.2f} ms per "
-              f"point (min / median of the rounds), scaled to {n} points for the speed-up")
-        speedup = statistics.median(speedups)
-        print(f"   speed-up {speedup:.2f}x (median of the rounds' serial / local; "
-              f"{min(speedups):.2f}-{max(speedups):.2f}) = {speedup / ceil:.2f} of the machine's ceiling "
-              f"(target >= 1.8x, i.e. about the ceiling; {'met' if speedup >= min(1.8, 0.95 * ceil) else 'NOT met'})")
+                before = command_sweep(["-j", str(w)], vary, out / f"cmd{r}a.nc")
+                cmd_dask.append(command_sweep(["--cluster", f"local:{w}"], vary, out / f"cmd{r}d.nc"))
+                after = command_sweep(["-j", str(w)], vary, out / f"cmd{r}b.nc")
+                cmd_local.append(tuple((a + b) / 2 for a, b in zip(before, after)))
+        if not args.dask_only:
+            step_one(ceils, walls, cpus, e_walls, e_cpus, e_ratios, serial_ms, speedups, n, n_sub, w)
         if not args.no_dask:
             print(f"2. the same on a Dask LocalCluster x{w} and on a local pool x{w}, each in a fresh child process "
                   "(local, Dask, local in each round)")
@@ -239,9 +272,21 @@ def main() -> None:
                       f"{'met' if ratio <= 1.10 else 'NOT met'})")
                 print(f"      Dask's start (import, cluster, workers set up): wall min {min(ds):.2f} median "
                       f"{statistics.median(ds):.2f} s")
-            fresh = [run[0] / p for run, p in zip(local_runs, parent_local)]
-            print(f"   the local pool's first sweep in a fresh child / step 1's local sweep in this process = "
-                  f"{statistics.median(fresh):.2f} (median of the rounds, {min(fresh):.2f}-{max(fresh):.2f})")
+            ratios = [d[0] / lo[0] for d, lo in zip(cmd_dask, cmd_local)]
+            print("   the whole command, fdsolver sweep --cluster local:N against -j N (start-up, case, executor, "
+                  "sweep, archive):")
+            summary("   Dask", [d[0] for d in cmd_dask], [d[1] for d in cmd_dask])
+            summary("   local pool (mean of the two around it)", [lo[0] for lo in cmd_local],
+                    [lo[1] for lo in cmd_local])
+            print(f"      Dask / local = {statistics.median(ratios):.2f} (median of the rounds' ratios, "
+                  f"{min(ratios):.2f}-{max(ratios):.2f}; target <= 1.10: "
+                  f"{'met' if statistics.median(ratios) <= 1.10 else 'NOT met'})")
+            if parent_local:
+                fresh = [run[0] / p for run, p in zip(local_runs, parent_local)]
+                print(f"   the local pool's first sweep in a fresh child / step 1's local sweep in this process = "
+                      f"{statistics.median(fresh):.2f} (median of the rounds, {min(fresh):.2f}-{max(fresh):.2f})")
+        if args.dask_only:
+            return
         # 3. the validity map
         pair = fdsolver.load_case(PAIR)
         maps = [f"width=1e-3:8:{n_map}", f"d=6:16:{n_map}"]
