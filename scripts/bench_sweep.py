@@ -15,8 +15,9 @@ The Dask sweeps are held to the mean of the local child's sweeps just before and
 that is steady over the round cancels, and both sides run in processes equally fresh (see SWEEP_CHILD): each
 child first runs a 4-point serial sweep (the archive's libraries loaded, as in this process by then), then two
 sweeps on an executor of their own each: the first pays Dask's import, the second (a new cluster in the same
-child) does not.  The local child's first sweep is also printed against step 1's local sweep in this process,
-which has run sweeps before.
+child) does not; then a third executor runs a 4-point sweep untimed and the full sweep timed (warm workers).
+The local child's first sweep is also printed against step 1's local sweep in this process, which has run
+sweeps before.
 
 0. the machine's ceiling: a fixed pure-Python loop in 1 process and in 2 processes at once (no fdsolver code)
    gives the parallel speed-up the hardware can deliver at all; a shared machine reports less than 2.
@@ -28,7 +29,8 @@ which has run sweeps before.
    scaled);
 2. the same points on a Dask LocalCluster with as many workers (target within 10 % of the local pool), in a
    fresh process and again in that process, each with the wall time of the cluster's start (part of the
-   sweep's), against a local pool in a process just as fresh; then the whole command as a user times it,
+   sweep's), and a third time on that process's running cluster (warm workers, the sweep alone), against a
+   local pool in a process just as fresh, run the same way; then the whole command as a user times it,
    ``fdsolver sweep --cluster local:N`` against ``fdsolver sweep -j N`` (local, Dask, local in each round, each
    held to the mean of the two local commands around it);
 3. the 40 x 40 validity map of cases/impurity_pair.toml on local processes (target < 6 s);
@@ -127,15 +129,26 @@ if __name__ == "__main__":
     for k in range(2):  # the first with Dask's import (if Dask), both with an executor of their own
         start, wall, cpu = timed(lambda k=k: run(k))
         times += [wall, cpu, start]
+    # the third on a running executor whose workers have run a sweep (warm workers): the sweep alone is timed, and
+    # its CPU is this process's only (the workers are not reaped until the executor closes)
+    ex = executor_for(cluster="local:" + sys.argv[4]) if sys.argv[6] == "dask" else \
+        executor_for("processes", workers=int(sys.argv[4]))
+    with ex:
+        fdsolver.sweep(case, ["d=2.5:6:2", "depth=100:160:2"], executor=ex, thresholds=False)
+        _, wall, cpu = timed(lambda: fdsolver.sweep(case, json.loads(sys.argv[2]), output=sys.argv[3] + "2",
+                                                    executor=ex, thresholds=False))
+    times += [wall, cpu, 0.0]
     print("TIMES", json.dumps(times))
 """
 
 
 def child_sweeps(kind: str, vary, output, workers: int) -> list[float]:
-    """[wall, CPU, start, wall, CPU, start] seconds of two sweeps of SQUARE over ``vary`` on an executor of
-    ``kind`` ("dask": a LocalCluster, "local": a process pool) each, in a fresh child process: the first pays
-    the executor's imports and start (as a command-line user does), the second only its start (as in a session
-    that has used it before).  ``start``: the wall time of that start alone, a part of ``wall``."""
+    """[wall, CPU, start] * 3 seconds of three sweeps of SQUARE over ``vary`` on an executor of ``kind`` ("dask": a
+    LocalCluster, "local": a process pool), in a fresh child process: the first pays the executor's imports and
+    start (as a command-line user does), the second only its start (as in a session that has used it before),
+    each on an executor of its own; the third runs on an executor already running, whose workers have done a
+    small sweep (warm workers), and is timed alone (its CPU is the child's only, its start 0).  ``start``: the
+    wall time of that start alone, a part of ``wall``."""
     import json
     import subprocess
     import sys
@@ -259,7 +272,8 @@ def main() -> None:
             print(f"2. the same on a Dask LocalCluster x{w} and on a local pool x{w}, each in a fresh child process "
                   "(local, Dask, local in each round)")
             for k, label in ((0, "first sweep of the process (Dask's import included)"),
-                             (1, "second sweep, a new cluster or pool (Dask imported)")):
+                             (1, "second sweep, a new cluster or pool (Dask imported)"),
+                             (2, "third sweep, on a running cluster or pool (warm workers; CPU: the caller's only)")):
                 dw, dc, ds = ([run[3 * k + j] for run in dask_runs] for j in range(3))
                 lw, lc = ([run[3 * k + j] for run in local_runs] for j in range(2))
                 ratios = [a / b for a, b in zip(dw, lw)]
@@ -267,11 +281,12 @@ def main() -> None:
                 print(f"   {label}:")
                 summary("   Dask", dw, dc)
                 summary("   local pool (mean of the two around it)", lw, lc)
+                start = ", the executor's start included" if k < 2 else ""
                 print(f"      Dask / local = {ratio:.2f} (median of the rounds' ratios, {min(ratios):.2f}-"
-                      f"{max(ratios):.2f}; target <= 1.10, the executor's start included: "
-                      f"{'met' if ratio <= 1.10 else 'NOT met'})")
-                print(f"      Dask's start (import, cluster, workers set up): wall min {min(ds):.2f} median "
-                      f"{statistics.median(ds):.2f} s")
+                      f"{max(ratios):.2f}; target <= 1.10{start}: {'met' if ratio <= 1.10 else 'NOT met'})")
+                if k < 2:
+                    print(f"      Dask's start (import, cluster, workers set up): wall min {min(ds):.2f} median "
+                          f"{statistics.median(ds):.2f} s")
             ratios = [d[0] / lo[0] for d, lo in zip(cmd_dask, cmd_local)]
             print("   the whole command, fdsolver sweep --cluster local:N against -j N (start-up, case, executor, "
                   "sweep, archive):")
