@@ -282,7 +282,7 @@ def main() -> None:
                 summary("   Dask", dw, dc)
                 summary("   local pool (mean of the two around it)", lw, lc)
                 start = ", the executor's start included" if k < 2 else ""
-                print(f"      Dask / local = {ratio:.2f} (median of the rounds' ratios, {min(ratios):.2f}-"
+                print(f"      Dask / local = {ratio:.3f} (median of the rounds' ratios, {min(ratios):.2f}-"
                       f"{max(ratios):.2f}; target <= 1.10{start}: {'met' if ratio <= 1.10 else 'NOT met'})")
                 if k < 2:
                     print(f"      Dask's start (import, cluster, workers set up): wall min {min(ds):.2f} median "
@@ -293,7 +293,7 @@ def main() -> None:
             summary("   Dask", [d[0] for d in cmd_dask], [d[1] for d in cmd_dask])
             summary("   local pool (mean of the two around it)", [lo[0] for lo in cmd_local],
                     [lo[1] for lo in cmd_local])
-            print(f"      Dask / local = {statistics.median(ratios):.2f} (median of the rounds' ratios, "
+            print(f"      Dask / local = {statistics.median(ratios):.3f} (median of the rounds' ratios, "
                   f"{min(ratios):.2f}-{max(ratios):.2f}; target <= 1.10: "
                   f"{'met' if statistics.median(ratios) <= 1.10 else 'NOT met'})")
             if parent_local:
