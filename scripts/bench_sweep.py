@@ -113,11 +113,13 @@ if __name__ == "__main__":
                    thresholds=False)
     from fdsolver.scans.runner import executor_for  # what fdsolver.sweep(cluster=... / executor=...) makes
 
-    def run(k):  # the executor's start (for Dask: its import, the cluster), the sweep on it, its close
+    def new_executor():  # a LocalCluster or a local pool of sys.argv[4] workers, not started yet
         if sys.argv[6] == "dask":
-            ex = executor_for(cluster="local:" + sys.argv[4])
-        else:
-            ex = executor_for("processes", workers=int(sys.argv[4]))
+            return executor_for(cluster="local:" + sys.argv[4])
+        return executor_for("processes", workers=int(sys.argv[4]))
+
+    def run(k):  # the executor's start (for Dask: its import, the cluster), the sweep on it, its close
+        ex = new_executor()
         _, start, _ = timed(ex.__enter__)
         try:
             fdsolver.sweep(case, json.loads(sys.argv[2]), output=sys.argv[3] + str(k), executor=ex, thresholds=False)
@@ -131,9 +133,7 @@ if __name__ == "__main__":
         times += [wall, cpu, start]
     # the third on a running executor whose workers have run a sweep (warm workers): the sweep alone is timed, and
     # its CPU is this process's only (the workers are not reaped until the executor closes)
-    ex = executor_for(cluster="local:" + sys.argv[4]) if sys.argv[6] == "dask" else \
-        executor_for("processes", workers=int(sys.argv[4]))
-    with ex:
+    with new_executor() as ex:
         fdsolver.sweep(case, ["d=2.5:6:2", "depth=100:160:2"], executor=ex, thresholds=False)
         _, wall, cpu = timed(lambda: fdsolver.sweep(case, json.loads(sys.argv[2]), output=sys.argv[3] + "2",
                                                     executor=ex, thresholds=False))
